@@ -1,0 +1,496 @@
+//! From a coding sheet to a benchmark: choose and check the transform, transform each
+//! coefficient, pool, and map the results back to the coefficient scale.
+
+use crate::error::{CellProblem, Error, Result};
+use crate::pool::{PoolOptions, PoolResult, pool};
+use crate::sheet::{CodingSheet, Role, StudyRecord};
+use crate::transform::{
+    BackInterval, CoefficientFamily, CoefficientTransform, InputField, StudyInput, TransformKind,
+    Transformed, back_interval,
+};
+use crate::warning::Warning;
+use std::collections::BTreeMap;
+
+/// Options of a benchmark run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BenchmarkOptions {
+    /// The transform; chosen from the coefficient types when `None`.
+    pub transform: Option<TransformKind>,
+    /// Pool internal-consistency and correlation-type coefficients together.
+    pub allow_mixed_types: bool,
+    /// Leave out rows with problems (each is listed) instead of stopping.
+    pub skip_invalid: bool,
+    /// The pooling model.
+    pub pool: PoolOptions,
+}
+
+impl Default for BenchmarkOptions {
+    fn default() -> Self {
+        BenchmarkOptions {
+            transform: None,
+            allow_mixed_types: false,
+            skip_invalid: false,
+            pool: PoolOptions::default(),
+        }
+    }
+}
+
+/// One pooled study.
+#[derive(Debug, Clone, PartialEq)]
+pub struct StudyEffect {
+    /// The study as read.
+    pub record: StudyRecord,
+    /// Its value on the analysis scale.
+    pub effect: f64,
+    /// Its sampling variance on the analysis scale.
+    pub variance: f64,
+    /// Its relative weight in the pooled value, in percent.
+    pub weight_percent: f64,
+}
+
+/// A row left out with `--skip-invalid`, with every reason.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SkippedRow {
+    /// Spreadsheet row number.
+    pub row: usize,
+    /// Each problem, as `column X: reason` (or the bare reason for a whole-row problem).
+    pub reasons: Vec<String>,
+}
+
+/// Results on the coefficient's own scale.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct CoefficientScale {
+    /// The back-transformed pooled value.
+    pub estimate: f64,
+    /// The back-transformed confidence interval.
+    pub ci: BackInterval,
+    /// The back-transformed prediction interval, when there is one.
+    pub pi: Option<BackInterval>,
+}
+
+/// A benchmark: the pooled coefficients of prior studies and the expected range for a
+/// new study.
+#[derive(Debug, Clone)]
+pub struct Benchmark {
+    /// The sheet's file name.
+    pub file: String,
+    /// The sheet's delimiter.
+    pub delimiter: u8,
+    /// Transform used.
+    pub transform: TransformKind,
+    /// Whether the transform was chosen by the user.
+    pub transform_chosen: bool,
+    /// Families of the coefficients pooled.
+    pub families: Vec<CoefficientFamily>,
+    /// Coefficient types pooled, with counts.
+    pub coef_types: BTreeMap<&'static str, usize>,
+    /// Pooled studies, in sheet order.
+    pub studies: Vec<StudyEffect>,
+    /// Rows left out, in sheet order.
+    pub skipped: Vec<SkippedRow>,
+    /// Non-empty data rows in the sheet.
+    pub rows_read: usize,
+    /// Sum of the sample sizes of the pooled studies that report one.
+    pub n_total: u64,
+    /// Pooled studies without a sample size.
+    pub n_missing: usize,
+    /// The pooling result on the analysis scale.
+    pub pool: PoolResult,
+    /// The results on the coefficient scale (`None` for already-transformed input).
+    pub coefficient: Option<CoefficientScale>,
+    /// Every warning, sheet-level first.
+    pub warnings: Vec<Warning>,
+}
+
+/// Build a benchmark from a coding sheet.
+pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark> {
+    let mut warnings = Vec::new();
+    let (transform, transform_chosen) = choose_transform(&sheet, options, &mut warnings)?;
+    let tr = transform.get();
+
+    // Columns the transform cannot do without.
+    let mut needed = vec![Role::Coef];
+    match transform {
+        TransformKind::None => needed.push(Role::Var),
+        TransformKind::FisherZ => needed.push(Role::N),
+        _ => needed.extend([Role::N, Role::Items]),
+    }
+    let missing: Vec<&str> = needed
+        .iter()
+        .filter(|r| !sheet.has(**r))
+        .map(|r| r.name())
+        .collect();
+    if !missing.is_empty() {
+        return Err(Error::InvalidSheet {
+            file: sheet.file.clone(),
+            problems: vec![CellProblem::row(
+                1,
+                format!(
+                    "--transform {transform} needs the column(s) {} and the sheet has none; add \
+                     them, or map the sheet's own names with --column ROLE=NAME",
+                    missing.join(", ")
+                ),
+            )],
+        });
+    }
+
+    // Check every parsed row against the transform.
+    let mut problems = sheet.problems.clone();
+    let mut usable = Vec::new();
+    for rec in &sheet.records {
+        let input = study_input(rec);
+        let unmet = tr.check(&input);
+        if unmet.is_empty() {
+            usable.push(rec.clone());
+        } else {
+            for u in unmet {
+                let role = match u.field {
+                    InputField::Coef => Role::Coef,
+                    InputField::N => Role::N,
+                    InputField::Items => Role::Items,
+                    InputField::Var => Role::Var,
+                };
+                problems.push(CellProblem::cell(
+                    rec.row,
+                    sheet.column_label(role),
+                    u.reason,
+                ));
+            }
+        }
+    }
+    problems.sort_by_key(|p| p.row);
+    if !problems.is_empty() && !options.skip_invalid {
+        return Err(Error::InvalidSheet {
+            file: sheet.file.clone(),
+            problems,
+        });
+    }
+    let skipped = group_skipped(&problems);
+    if !skipped.is_empty() {
+        warnings.push(Warning::RowsSkipped {
+            count: skipped.len(),
+        });
+    }
+    if usable.is_empty() {
+        return Err(Error::CannotAnalyse(format!(
+            "{}: no row could be used ({} row(s) had problems), so there is nothing to pool",
+            sheet.file,
+            skipped.len()
+        )));
+    }
+
+    sheet_warnings(&sheet, &usable, transform, &mut warnings);
+
+    let inputs: Vec<StudyInput> = usable.iter().map(study_input).collect();
+    let y: Vec<f64> = inputs.iter().map(|s| tr.effect(s).0).collect();
+    let v: Vec<f64> = inputs.iter().map(|s| tr.variance(s)).collect();
+    let pooled = pool(&y, &v, &options.pool)?;
+    warnings.extend(pooled.warnings.iter().cloned());
+
+    let coefficient = coefficient_scale(tr, &pooled, &mut warnings);
+
+    let mut coef_types = BTreeMap::new();
+    let mut families = Vec::new();
+    for r in &usable {
+        *coef_types.entry(r.coef_type.name()).or_insert(0) += 1;
+        if !families.contains(&r.coef_type.family()) {
+            families.push(r.coef_type.family());
+        }
+    }
+    let n_total = usable.iter().filter_map(|r| r.n).sum();
+    let n_missing = usable.iter().filter(|r| r.n.is_none()).count();
+    let studies = usable
+        .into_iter()
+        .zip(y.iter().zip(&v))
+        .zip(&pooled.weights_percent)
+        .map(
+            |((record, (&effect, &variance)), &weight_percent)| StudyEffect {
+                record,
+                effect,
+                variance,
+                weight_percent,
+            },
+        )
+        .collect();
+
+    Ok(Benchmark {
+        file: sheet.file.clone(),
+        delimiter: sheet.delimiter,
+        transform,
+        transform_chosen,
+        families,
+        coef_types,
+        studies,
+        skipped,
+        rows_read: sheet.rows_read,
+        n_total,
+        n_missing,
+        pool: pooled,
+        coefficient,
+        warnings,
+    })
+}
+
+fn study_input(r: &StudyRecord) -> StudyInput {
+    StudyInput {
+        coef: r.coef,
+        n: r.n.map(|n| n as f64),
+        items: r.items.map(f64::from),
+        var: r.var,
+    }
+}
+
+fn choose_transform(
+    sheet: &CodingSheet,
+    options: &BenchmarkOptions,
+    warnings: &mut Vec<Warning>,
+) -> Result<(TransformKind, bool)> {
+    let rows_of = |family: CoefficientFamily| -> Vec<usize> {
+        sheet
+            .records
+            .iter()
+            .filter(|r| r.coef_type.family() == family)
+            .map(|r| r.row)
+            .collect()
+    };
+    let ic = rows_of(CoefficientFamily::InternalConsistency);
+    let corr = rows_of(CoefficientFamily::Correlation);
+    if options.transform == Some(TransformKind::None) {
+        return Ok((TransformKind::None, true));
+    }
+    let mixed = !ic.is_empty() && !corr.is_empty();
+    if mixed {
+        if !options.allow_mixed_types {
+            return Err(Error::CannotAnalyse(format!(
+                "{}: the sheet mixes internal-consistency coefficients ({}) and correlation-type \
+                 coefficients ({}); they answer different questions and have different default \
+                 transforms. Pool them separately, or pass --allow-mixed-types together with \
+                 --transform to pool them on one scale",
+                sheet.file,
+                crate::warning::list_rows(&ic),
+                crate::warning::list_rows(&corr)
+            )));
+        }
+        let Some(t) = options.transform else {
+            return Err(Error::InvalidOption(
+                "--allow-mixed-types needs --transform as well: say on which scale the two kinds \
+                 of coefficients are to be pooled"
+                    .into(),
+            ));
+        };
+        warnings.push(Warning::MixedFamiliesPooled);
+        push_mismatch(t, &ic, &corr, warnings);
+        return Ok((t, true));
+    }
+    let family = if corr.is_empty() {
+        CoefficientFamily::InternalConsistency
+    } else {
+        CoefficientFamily::Correlation
+    };
+    match options.transform {
+        Some(t) => {
+            push_mismatch(t, &ic, &corr, warnings);
+            Ok((t, true))
+        }
+        None => Ok((family.default_transform(), false)),
+    }
+}
+
+fn push_mismatch(t: TransformKind, ic: &[usize], corr: &[usize], warnings: &mut Vec<Warning>) {
+    if let Some(designed) = t.designed_for() {
+        let other = match designed {
+            CoefficientFamily::InternalConsistency => corr,
+            CoefficientFamily::Correlation => ic,
+        };
+        if !other.is_empty() {
+            warnings.push(Warning::TransformFamilyMismatch {
+                transform: t.name().to_string(),
+                designed_for: designed.describe().to_string(),
+                rows: other.to_vec(),
+            });
+        }
+    }
+}
+
+fn group_skipped(problems: &[CellProblem]) -> Vec<SkippedRow> {
+    let mut out: Vec<SkippedRow> = Vec::new();
+    for p in problems {
+        let Some(row) = p.row else { continue };
+        let reason = match &p.column {
+            Some(c) => format!("column {c}: {}", p.reason),
+            None => p.reason.clone(),
+        };
+        match out.last_mut() {
+            Some(last) if last.row == row => last.reasons.push(reason),
+            _ => out.push(SkippedRow {
+                row,
+                reasons: vec![reason],
+            }),
+        }
+    }
+    out
+}
+
+fn sheet_warnings(
+    sheet: &CodingSheet,
+    usable: &[StudyRecord],
+    transform: TransformKind,
+    warnings: &mut Vec<Warning>,
+) {
+    if !sheet.empty_rows.is_empty() {
+        warnings.push(Warning::EmptyRowsIgnored {
+            rows: sheet.empty_rows.clone(),
+        });
+    }
+    if transform != TransformKind::None {
+        let negative: Vec<usize> = usable
+            .iter()
+            .filter(|r| r.coef < 0.0)
+            .map(|r| r.row)
+            .collect();
+        if !negative.is_empty() {
+            warnings.push(Warning::NegativeCoefficients { rows: negative });
+        }
+        let with_var: Vec<usize> = usable
+            .iter()
+            .filter(|r| r.var.is_some())
+            .map(|r| r.row)
+            .collect();
+        if !with_var.is_empty() {
+            warnings.push(Warning::VarColumnUnused {
+                rows: with_var,
+                transform: transform.name().to_string(),
+            });
+        }
+    }
+    let mut by_label: BTreeMap<&str, Vec<usize>> = BTreeMap::new();
+    for r in usable.iter().filter(|r| r.label_given) {
+        by_label.entry(r.label.as_str()).or_default().push(r.row);
+    }
+    let mut dups: Vec<(&str, Vec<usize>)> = by_label
+        .into_iter()
+        .filter(|(_, rows)| rows.len() > 1)
+        .collect();
+    dups.sort_by_key(|(_, rows)| rows[0]);
+    for (label, rows) in dups {
+        warnings.push(Warning::DuplicateLabel {
+            label: label.to_string(),
+            rows,
+        });
+    }
+}
+
+fn coefficient_scale(
+    tr: &dyn CoefficientTransform,
+    pooled: &PoolResult,
+    warnings: &mut Vec<Warning>,
+) -> Option<CoefficientScale> {
+    let estimate = tr.back(Transformed(pooled.estimate))?.0;
+    let ci = back_interval(
+        tr,
+        Transformed(pooled.ci.lower),
+        Transformed(pooled.ci.upper),
+    )?;
+    if ci.capped {
+        warnings.push(Warning::IntervalCapped {
+            interval: "confidence interval".into(),
+        });
+    }
+    let pi = pooled
+        .prediction
+        .interval()
+        .and_then(|p| back_interval(tr, Transformed(p.lower), Transformed(p.upper)));
+    if pi.map(|p| p.capped).unwrap_or(false) {
+        warnings.push(Warning::IntervalCapped {
+            interval: "prediction interval".into(),
+        });
+    }
+    Some(CoefficientScale {
+        estimate: estimate.min(crate::transform::COEFFICIENT_MAX),
+        ci,
+        pi,
+    })
+}
+
+/// The coefficient types in a benchmark, e.g. "alpha" or "alpha and omega".
+pub fn describe_types(b: &Benchmark) -> String {
+    let names: Vec<&str> = b.coef_types.keys().copied().collect();
+    match names.len() {
+        0 => String::new(),
+        1 => names[0].to_string(),
+        _ => {
+            let (last, first) = names.split_last().expect("two or more");
+            format!("{} and {last}", first.join(", "))
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::sheet::{SheetOptions, parse_coding_sheet};
+
+    fn sheet(text: &str) -> CodingSheet {
+        parse_coding_sheet("t.csv", text.as_bytes(), &SheetOptions::default()).unwrap()
+    }
+
+    #[test]
+    fn all_problems_are_listed_together() {
+        let s = sheet("study,coef,n,items\nA,1.07,100,6\nB,0.8,2,1\nC,0.7,90,6\nD,x,80,5\n");
+        let e = build(s, &BenchmarkOptions::default()).unwrap_err();
+        let msg = e.to_string();
+        assert!(
+            msg.contains(
+                "row 2, column coef: 1.07 is not a reliability coefficient (it must be below 1)"
+            ),
+            "{msg}"
+        );
+        assert!(msg.contains("row 3, column n:"), "{msg}");
+        assert!(msg.contains("row 3, column items:"), "{msg}");
+        assert!(msg.contains("row 5, column coef:"), "{msg}");
+        assert!(e.is_bad_input());
+    }
+
+    #[test]
+    fn skip_invalid_lists_rows() {
+        let s = sheet("study,coef,n,items\nA,1.07,100,6\nB,0.8,120,6\nC,0.7,90,6\nD,0.75,80,6\n");
+        let opts = BenchmarkOptions {
+            skip_invalid: true,
+            ..BenchmarkOptions::default()
+        };
+        let b = build(s, &opts).unwrap();
+        assert_eq!(b.studies.len(), 3);
+        assert_eq!(b.skipped.len(), 1);
+        assert_eq!(b.skipped[0].row, 2);
+        assert!(b.skipped[0].reasons[0].starts_with("column coef:"));
+    }
+
+    #[test]
+    fn mixed_families_are_refused_unless_allowed() {
+        let text = "coef,n,items,coef_type\n0.8,100,6,alpha\n0.7,90,6,retest\n0.75,80,6,alpha\n";
+        assert!(build(sheet(text), &BenchmarkOptions::default()).is_err());
+        let opts = BenchmarkOptions {
+            allow_mixed_types: true,
+            transform: Some(TransformKind::Bonett),
+            ..BenchmarkOptions::default()
+        };
+        let b = build(sheet(text), &opts).unwrap();
+        assert!(
+            b.warnings
+                .iter()
+                .any(|w| matches!(w, Warning::MixedFamiliesPooled))
+        );
+    }
+
+    #[test]
+    fn default_transform_follows_the_family() {
+        let b = build(
+            sheet("coef,n,coef_type\n0.8,100,retest\n0.7,90,retest\n0.6,50,retest\n"),
+            &BenchmarkOptions::default(),
+        )
+        .unwrap();
+        assert_eq!(b.transform, TransformKind::FisherZ);
+        let c = b.coefficient.unwrap();
+        assert!(c.ci.lower < c.estimate && c.estimate < c.ci.upper);
+    }
+}

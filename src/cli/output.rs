@@ -1,0 +1,71 @@
+//! Writing results: stdout with a closed pipe treated as success, stderr for
+//! warnings, and files written atomically without overwriting unless forced.
+
+use relyard::{Error, Warning};
+use std::io::{self, Write};
+use std::path::Path;
+
+/// Why a command stopped early.
+#[derive(Debug)]
+pub enum Failure {
+    /// A library error (the message is printed, the status follows its kind).
+    Lib(Error),
+    /// The reader of stdout went away; not an error.
+    ClosedPipe,
+}
+
+impl From<Error> for Failure {
+    fn from(e: Error) -> Self {
+        Failure::Lib(e)
+    }
+}
+
+/// Write `text` to stdout.
+pub fn print(text: &str) -> Result<(), Failure> {
+    let stdout = io::stdout();
+    let mut h = stdout.lock();
+    h.write_all(text.as_bytes())
+        .and_then(|_| h.flush())
+        .map_err(|e| {
+            if e.kind() == io::ErrorKind::BrokenPipe {
+                Failure::ClosedPipe
+            } else {
+                Failure::Lib(Error::io("writing to standard output", e))
+            }
+        })
+}
+
+/// Print warnings to stderr, one per line.
+pub fn warn_all(warnings: &[Warning]) {
+    let stderr = io::stderr();
+    let mut h = stderr.lock();
+    for w in warnings {
+        let _ = writeln!(h, "relyard: warning: {w}");
+    }
+}
+
+/// Write a new file atomically (a temporary file beside it, then a rename); an
+/// existing file is replaced only with `force`.
+pub fn write_new_file(path: &Path, contents: &str, force: bool) -> Result<(), Failure> {
+    let shown = path.display().to_string();
+    if path.exists() && !force {
+        return Err(Failure::Lib(Error::InvalidOption(format!(
+            "{shown} already exists; choose another name or pass --force to replace it"
+        ))));
+    }
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or_else(|| Path::new("."));
+    let name = path
+        .file_name()
+        .map(|n| n.to_string_lossy().into_owned())
+        .unwrap_or_else(|| "output".into());
+    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
+    let result = std::fs::write(&tmp, contents).and_then(|_| std::fs::rename(&tmp, path));
+    if let Err(e) = result {
+        let _ = std::fs::remove_file(&tmp);
+        return Err(Failure::Lib(Error::io(format!("writing {shown}"), e)));
+    }
+    Ok(())
+}

@@ -1,0 +1,25 @@
+//! `relyard pool`: coding sheet in, benchmark out.
+
+use super::config::PoolConfig;
+use super::output::{Failure, print, warn_all};
+use relyard::benchmark::build;
+use relyard::report::json::PoolDocument;
+use relyard::report::paragraph::benchmark_paragraph;
+use relyard::report::text::benchmark_summary;
+use relyard::sheet::read_coding_sheet;
+
+pub fn run(c: &PoolConfig) -> Result<(), Failure> {
+    let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
+    let b = build(sheet, &c.benchmark)?;
+    let paragraph = benchmark_paragraph(&b, c.measure.as_deref());
+    warn_all(&b.warnings);
+    if c.json {
+        let doc = PoolDocument::new(&b, &paragraph, &b.warnings);
+        let mut text = serde_json::to_string_pretty(&doc)
+            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
+        text.push('\n');
+        print(&text)
+    } else {
+        print(&benchmark_summary(&b, &paragraph, c.show_studies))
+    }
+}

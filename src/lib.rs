@@ -1,0 +1,22 @@
+//! relyard: judge a reliability coefficient in context.
+//!
+//! The library holds the statistics: reading and validating a coding sheet of
+//! reported coefficients ([`sheet`]), transforming them to an analysis scale
+//! ([`transform`]), pooling them with common- or random-effects models ([`pool`]) and
+//! turning the result into a benchmark with an expected range ([`benchmark`]). It never
+//! prints and never exits; the `relyard` binary owns the terminal.
+
+#![warn(missing_docs)]
+
+pub mod benchmark;
+pub mod dist;
+pub mod error;
+pub mod numeric;
+pub mod pool;
+pub mod report;
+pub mod sheet;
+pub mod transform;
+pub mod warning;
+
+pub use error::{CellProblem, Error, Result};
+pub use warning::Warning;

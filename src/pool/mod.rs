@@ -1,0 +1,402 @@
+//! Common- and random-effects pooling: τ², the pooled value with its confidence
+//! interval, heterogeneity, and the prediction interval for a new setting.
+
+mod data;
+mod heterogeneity;
+mod qprofile;
+pub mod tau2;
+
+pub use data::MetaData;
+pub use heterogeneity::Heterogeneity;
+pub use qprofile::{Tau2Interval, q_profile};
+pub use tau2::{Tau2Estimator, Tau2Fit, Termination};
+
+use crate::dist::{normal_quantile, normal_two_sided_p, t_quantile, t_two_sided_p};
+use crate::error::{Error, Result};
+use crate::warning::Warning;
+use serde::Serialize;
+use std::fmt;
+use std::str::FromStr;
+
+/// Fewer studies than this draw a warning that τ² is imprecise (common practice, no
+/// source: a handful of studies says little about between-study variance).
+pub const FEW_STUDIES: usize = 5;
+
+/// Common-effect or random-effects model.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Model {
+    /// Every study estimates one true value (τ² = 0 by assumption).
+    Common,
+    /// True values vary between studies; τ² estimated by the given method.
+    Random(Tau2Estimator),
+}
+
+impl Model {
+    /// Command-line name (`common` or the estimator's name).
+    pub fn name(self) -> &'static str {
+        match self {
+            Model::Common => "common",
+            Model::Random(e) => e.name(),
+        }
+    }
+}
+
+impl FromStr for Model {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        if s.trim().eq_ignore_ascii_case("common") {
+            return Ok(Model::Common);
+        }
+        s.parse::<Tau2Estimator>().map(Model::Random).map_err(|_| {
+            format!("unknown τ² method \"{s}\" (choose one of: reml, ml, dl, pm, sj, he, common)")
+        })
+    }
+}
+
+/// How the confidence interval of the pooled value is formed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum CiMethod {
+    /// Normal quantiles with the model-based standard error.
+    Wald,
+    /// t quantiles with k − p df and the standard error scaled by the weighted residual
+    /// mean square.
+    KnappHartung,
+}
+
+impl CiMethod {
+    /// Command-line name.
+    pub fn name(self) -> &'static str {
+        match self {
+            CiMethod::Wald => "wald",
+            CiMethod::KnappHartung => "knapp-hartung",
+        }
+    }
+}
+
+impl fmt::Display for CiMethod {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+impl FromStr for CiMethod {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "wald" => Ok(CiMethod::Wald),
+            "knapp-hartung" | "knapp_hartung" => Ok(CiMethod::KnappHartung),
+            _ => Err(format!(
+                "unknown interval method \"{s}\" (choose wald or knapp-hartung)"
+            )),
+        }
+    }
+}
+
+/// Options of a pooling run.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PoolOptions {
+    /// Common-effect or random-effects (with its τ² estimator).
+    pub model: Model,
+    /// Confidence interval method.
+    pub ci: CiMethod,
+    /// Confidence level, strictly between 0 and 1.
+    pub level: f64,
+}
+
+impl Default for PoolOptions {
+    fn default() -> Self {
+        PoolOptions {
+            model: Model::Random(Tau2Estimator::Reml),
+            ci: CiMethod::KnappHartung,
+            level: 0.95,
+        }
+    }
+}
+
+/// A two-sided interval.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Interval {
+    /// Lower end.
+    pub lower: f64,
+    /// Upper end.
+    pub upper: f64,
+}
+
+impl Interval {
+    /// The interval centre ± half-width.
+    pub fn around(centre: f64, half_width: f64) -> Self {
+        Interval {
+            lower: centre - half_width,
+            upper: centre + half_width,
+        }
+    }
+}
+
+/// A test of the pooled value against zero on the analysis scale.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ZeroTest {
+    /// z or t statistic.
+    pub statistic: f64,
+    /// Degrees of freedom (t only).
+    pub df: Option<f64>,
+    /// Two-sided p value.
+    pub p: f64,
+}
+
+/// The prediction interval, or why there is none.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Prediction {
+    /// μ̂ ± t(df) · sqrt(τ² + SE²).
+    Available {
+        /// The interval.
+        interval: Interval,
+        /// Degrees of freedom of the t quantile.
+        df: f64,
+    },
+    /// k = 2: the t quantile would have no degrees of freedom.
+    TooFewStudies,
+}
+
+impl Prediction {
+    /// The interval when there is one.
+    pub fn interval(&self) -> Option<Interval> {
+        match self {
+            Prediction::Available { interval, .. } => Some(*interval),
+            Prediction::TooFewStudies => None,
+        }
+    }
+}
+
+/// Everything a pooling run estimates, on the analysis scale.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PoolResult {
+    /// Number of studies.
+    pub k: usize,
+    /// The options used.
+    pub options: PoolOptions,
+    /// Pooled value.
+    pub estimate: f64,
+    /// Its standard error under the chosen CI method.
+    pub se: f64,
+    /// Model-based (Wald) standard error, 1/sqrt(Σw).
+    pub se_wald: f64,
+    /// Knapp–Hartung scale factor q = Σw(y − μ̂)²/(k − 1), when that method is used.
+    pub kh_scale: Option<f64>,
+    /// Confidence interval of the pooled value.
+    pub ci: Interval,
+    /// Test of the pooled value against 0.
+    pub test: ZeroTest,
+    /// τ² and how it was reached (zero by assumption under the common-effect model).
+    pub tau2: Tau2Fit,
+    /// Q-profile confidence interval of τ² (random-effects model only).
+    pub tau2_ci: Option<Tau2Interval>,
+    /// Q test and typical within-study variance.
+    pub heterogeneity: Heterogeneity,
+    /// I² in percent.
+    pub i2: f64,
+    /// H².
+    pub h2: f64,
+    /// I² at the ends of the τ² interval.
+    pub i2_ci: Option<Interval>,
+    /// Prediction interval for the true value in a new setting.
+    pub prediction: Prediction,
+    /// Relative weight of each study, in percent, in input order.
+    pub weights_percent: Vec<f64>,
+    /// Warnings about the result.
+    pub warnings: Vec<Warning>,
+}
+
+/// Pool effects `y` with sampling variances `v`.
+///
+/// k = 1 is refused; k = 2 is pooled without a prediction interval.
+///
+/// # References
+/// DerSimonian, R., & Laird, N. (1986). *Controlled Clinical Trials*, 7, 177–188.
+/// Knapp, G., & Hartung, J. (2003). Improved tests for a random effects meta-regression
+/// with a single covariate. *Statistics in Medicine*, 22(17), 2693–2710.
+/// Higgins, J. P. T., Thompson, S. G., & Spiegelhalter, D. J. (2009). A re-evaluation of
+/// random-effects meta-analysis. *Journal of the Royal Statistical Society, Series A*,
+/// 172(1), 137–159.
+pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
+    if !(options.level > 0.0 && options.level < 1.0) {
+        return Err(Error::InvalidOption(format!(
+            "the confidence level must lie strictly between 0 and 1 (got {})",
+            options.level
+        )));
+    }
+    let k = y.len();
+    if k == 0 {
+        return Err(Error::CannotAnalyse("there are no studies to pool".into()));
+    }
+    if k == 1 {
+        return Err(Error::CannotAnalyse(
+            "only one study is available: a benchmark needs at least two (and at least three \
+             for an expected range), so there is nothing to pool"
+                .into(),
+        ));
+    }
+    let data = MetaData::intercept_only(y.to_vec(), v.to_vec())?;
+    let mut warnings = Vec::new();
+    let het = Heterogeneity::of(&data)?;
+
+    let (tau2, tau2_ci) = match options.model {
+        Model::Common => (
+            Tau2Fit {
+                tau2: 0.0,
+                iterations: 0,
+                termination: Termination::ClosedForm,
+                at_zero: true,
+            },
+            None,
+        ),
+        Model::Random(est) => {
+            let fit = est.estimate(&data)?;
+            if !fit.converged() {
+                warnings.push(Warning::NotConverged {
+                    what: format!("the {} estimate of τ²", est.name()),
+                    iterations: fit.iterations,
+                });
+            }
+            if fit.at_zero {
+                warnings.push(Warning::Tau2AtZero {
+                    estimator: est.label().to_string(),
+                });
+            }
+            let ci = q_profile(&data, options.level)?;
+            if !ci.converged {
+                warnings.push(Warning::NotConverged {
+                    what: "the Q-profile interval for τ²".into(),
+                    iterations: tau2::TAU2_MAX_ITERATIONS,
+                });
+            }
+            (fit, Some(ci))
+        }
+    };
+    if options.model == Model::Common {
+        warnings.push(Warning::CommonEffectAssumed);
+    }
+
+    let fit = data.fit_at(tau2.tau2)?;
+    let estimate = fit.beta[0];
+    let se_wald = fit.xtwx_inv[(0, 0)].sqrt();
+    let df = (k - 1) as f64;
+    let alpha = 1.0 - options.level;
+    let (se, kh_scale, ci, test) = match options.ci {
+        CiMethod::Wald => {
+            let z = normal_quantile(1.0 - alpha / 2.0);
+            let stat = estimate / se_wald;
+            (
+                se_wald,
+                None,
+                Interval::around(estimate, z * se_wald),
+                ZeroTest {
+                    statistic: stat,
+                    df: None,
+                    p: normal_two_sided_p(stat),
+                },
+            )
+        }
+        CiMethod::KnappHartung => {
+            let scale = fit.q / df;
+            let se = se_wald * scale.sqrt();
+            let t = t_quantile(1.0 - alpha / 2.0, df);
+            let stat = estimate / se;
+            (
+                se,
+                Some(scale),
+                Interval::around(estimate, t * se),
+                ZeroTest {
+                    statistic: stat,
+                    df: Some(df),
+                    p: t_two_sided_p(stat, df),
+                },
+            )
+        }
+    };
+
+    let (i2, h2) = match options.model {
+        Model::Common => (het.i2_from_q(), het.h2_from_q()),
+        Model::Random(_) => (het.i2(tau2.tau2), het.h2(tau2.tau2)),
+    };
+    let i2_ci = tau2_ci.map(|c| Interval {
+        lower: het.i2(c.lower),
+        upper: het.i2(c.upper),
+    });
+
+    let prediction = if k >= 3 {
+        let pdf = (k - 2) as f64;
+        let t = t_quantile(1.0 - alpha / 2.0, pdf);
+        Prediction::Available {
+            interval: Interval::around(estimate, t * (tau2.tau2 + se * se).sqrt()),
+            df: pdf,
+        }
+    } else {
+        warnings.push(Warning::NoPredictionInterval { k });
+        Prediction::TooFewStudies
+    };
+    if k < FEW_STUDIES {
+        warnings.push(Warning::FewStudies { k });
+    }
+
+    let total_w: f64 = fit.w.iter().sum();
+    let weights_percent = fit.w.iter().map(|w| 100.0 * w / total_w).collect();
+
+    Ok(PoolResult {
+        k,
+        options: *options,
+        estimate,
+        se,
+        se_wald,
+        kh_scale,
+        ci,
+        test,
+        tau2,
+        tau2_ci,
+        heterogeneity: het,
+        i2,
+        h2,
+        i2_ci,
+        prediction,
+        weights_percent,
+        warnings,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn one_study_is_refused_and_two_have_no_prediction_interval() {
+        let opts = PoolOptions::default();
+        let e = pool(&[0.1], &[0.01], &opts).unwrap_err();
+        assert!(e.is_bad_input());
+        let r = pool(&[0.1, 0.3], &[0.01, 0.02], &opts).unwrap();
+        assert_eq!(r.prediction, Prediction::TooFewStudies);
+        assert!(
+            r.warnings
+                .iter()
+                .any(|w| matches!(w, Warning::NoPredictionInterval { k: 2 }))
+        );
+    }
+
+    #[test]
+    fn bad_level_is_refused() {
+        let opts = PoolOptions {
+            level: 95.0,
+            ..PoolOptions::default()
+        };
+        assert!(pool(&[0.1, 0.2, 0.3], &[0.01; 3], &opts).is_err());
+    }
+
+    #[test]
+    fn ci_lies_inside_prediction_interval() {
+        let y = [0.1, 0.5, 0.2, 0.8, 0.4];
+        let v = [0.01, 0.02, 0.015, 0.03, 0.01];
+        let r = pool(&y, &v, &PoolOptions::default()).unwrap();
+        let pi = r.prediction.interval().unwrap();
+        assert!(pi.lower <= r.ci.lower && r.ci.upper <= pi.upper);
+        assert!(r.i2 >= 0.0 && r.i2 <= 100.0);
+    }
+}

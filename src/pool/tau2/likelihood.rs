@@ -1,0 +1,90 @@
+//! Fisher scoring for the (restricted) likelihood of the random-effects model, shared
+//! by the ML and REML estimators.
+
+use super::{TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Tau2Fit, Termination};
+use crate::error::{Error, Result};
+use crate::pool::data::{MetaData, WeightedFit, cross_product};
+
+/// Step halvings allowed when a scoring step lowers the likelihood.
+const MAX_HALVINGS: usize = 60;
+
+/// The (restricted) log-likelihood without its constant.
+fn log_lik(d: &MetaData, fit: &WeightedFit, tau2: f64, restricted: bool) -> f64 {
+    let sum_log: f64 = d.v().iter().map(|vi| (vi + tau2).ln()).sum();
+    let mut ll = -0.5 * (sum_log + fit.q);
+    if restricted {
+        ll -= 0.5 * fit.log_det_xtwx;
+    }
+    ll
+}
+
+/// Score and Fisher information for τ² at the current fit.
+///
+/// ML: score = ½(Σw²e² − Σw), information = ½Σw².
+/// REML: score = ½(yᵀPPy − tr P), information = ½ tr(PP), with
+/// tr P = Σw − tr(A·XᵀW²X) and tr(PP) = Σw² − 2tr(A·XᵀW³X) + tr((A·XᵀW²X)²),
+/// A = (XᵀWX)⁻¹, yᵀPPy = Σw²e² — all O(k·p²).
+fn score_and_information(d: &MetaData, fit: &WeightedFit, restricted: bool) -> (f64, f64) {
+    let ypp_y: f64 = fit
+        .w
+        .iter()
+        .zip(&fit.resid)
+        .map(|(w, e)| w * w * e * e)
+        .sum();
+    let sum_w: f64 = fit.w.iter().sum();
+    let sum_w2: f64 = fit.w.iter().map(|w| w * w).sum();
+    if !restricted {
+        return (0.5 * (ypp_y - sum_w), 0.5 * sum_w2);
+    }
+    let a = &fit.xtwx_inv;
+    let ab2 = a * cross_product(d.x(), &fit.w, 2);
+    let ab3 = a * cross_product(d.x(), &fit.w, 3);
+    let tr_p = sum_w - ab2.trace();
+    let tr_pp = sum_w2 - 2.0 * ab3.trace() + (&ab2 * &ab2).trace();
+    (0.5 * (ypp_y - tr_p), 0.5 * tr_pp)
+}
+
+/// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring with step halving.
+pub(super) fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<Tau2Fit> {
+    let mut tau2 = start.max(0.0);
+    let mut fit = d.fit_at(tau2)?;
+    let mut ll = log_lik(d, &fit, tau2, restricted);
+    for it in 1..=TAU2_MAX_ITERATIONS {
+        let (score, info) = score_and_information(d, &fit, restricted);
+        if !(info > 0.0) || !score.is_finite() {
+            return Err(Error::Numerical(format!(
+                "the τ² likelihood could not be evaluated at τ² = {tau2} (information {info})"
+            )));
+        }
+        let mut step = score / info;
+        let mut next = (tau2 + step).max(0.0);
+        let mut next_fit = d.fit_at(next)?;
+        let mut next_ll = log_lik(d, &next_fit, next, restricted);
+        let mut halvings = 0;
+        while next_ll < ll - 1e-12 * ll.abs().max(1.0) && halvings < MAX_HALVINGS {
+            step *= 0.5;
+            next = (tau2 + step).max(0.0);
+            next_fit = d.fit_at(next)?;
+            next_ll = log_lik(d, &next_fit, next, restricted);
+            halvings += 1;
+        }
+        let change = (next - tau2).abs();
+        tau2 = next;
+        fit = next_fit;
+        ll = next_ll;
+        if change < TAU2_TOLERANCE * tau2.max(1.0) {
+            return Ok(Tau2Fit {
+                tau2,
+                iterations: it,
+                termination: Termination::Converged,
+                at_zero: tau2 == 0.0,
+            });
+        }
+    }
+    Ok(Tau2Fit {
+        tau2,
+        iterations: TAU2_MAX_ITERATIONS,
+        termination: Termination::IterationLimit,
+        at_zero: tau2 == 0.0,
+    })
+}

@@ -1,0 +1,212 @@
+//! The plain-language paragraph a researcher can adapt for a paper, with references.
+
+use super::format::{fixed, percent_level, significant, thousands};
+use crate::benchmark::{Benchmark, describe_types};
+use crate::pool::{CiMethod, Model, Tau2Estimator};
+use crate::transform::TransformKind;
+
+/// A paragraph and the full references it cites.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Paragraph {
+    /// The paragraph.
+    pub text: String,
+    /// Full citations, alphabetical.
+    pub references: Vec<String>,
+}
+
+const REF_BONETT: &str = "Bonett, D. G. (2002). Sample size requirements for testing and \
+estimating coefficient alpha. Journal of Educational and Behavioral Statistics, 27(4), 335–340.";
+const REF_HW: &str = "Hakstian, A. R., & Whalen, T. E. (1976). A k-sample significance test \
+for independent alpha coefficients. Psychometrika, 41(2), 219–231.";
+const REF_FISHER: &str = "Fisher, R. A. (1921). On the \"probable error\" of a coefficient of \
+correlation deduced from a small sample. Metron, 1, 3–32.";
+const REF_VIECHTBAUER_2005: &str = "Viechtbauer, W. (2005). Bias and efficiency of \
+meta-analytic variance estimators in the random-effects model. Journal of Educational and \
+Behavioral Statistics, 30(3), 261–293.";
+const REF_VIECHTBAUER_2007: &str = "Viechtbauer, W. (2007). Confidence intervals for the \
+amount of heterogeneity in meta-analysis. Statistics in Medicine, 26(1), 37–52.";
+const REF_DL: &str = "DerSimonian, R., & Laird, N. (1986). Meta-analysis in clinical trials. \
+Controlled Clinical Trials, 7(3), 177–188.";
+const REF_PM: &str = "Paule, R. C., & Mandel, J. (1982). Consensus values and weighting \
+factors. Journal of Research of the National Bureau of Standards, 87(5), 377–385.";
+const REF_SJ: &str = "Sidik, K., & Jonkman, J. N. (2005). Simple heterogeneity variance \
+estimation for meta-analysis. Journal of the Royal Statistical Society, Series C, 54(2), 367–384.";
+const REF_HE: &str = "Hedges, L. V., & Olkin, I. (1985). Statistical methods for \
+meta-analysis. Orlando, FL: Academic Press.";
+const REF_KH: &str = "Knapp, G., & Hartung, J. (2003). Improved tests for a random effects \
+meta-regression with a single covariate. Statistics in Medicine, 22(17), 2693–2710.";
+const REF_HTS: &str = "Higgins, J. P. T., Thompson, S. G., & Spiegelhalter, D. J. (2009). A \
+re-evaluation of random-effects meta-analysis. Journal of the Royal Statistical Society, \
+Series A, 172(1), 137–159.";
+const REF_HT: &str = "Higgins, J. P. T., & Thompson, S. G. (2002). Quantifying heterogeneity \
+in a meta-analysis. Statistics in Medicine, 21(11), 1539–1558.";
+
+/// Write the paragraph for a benchmark. `measure` names the scale (e.g. "the Team
+/// Candor Scale"); without it the text says "the measure".
+pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
+    let mut refs: Vec<&str> = vec![REF_HT];
+    let p = &b.pool;
+    let opts = p.options;
+    let level = percent_level(opts.level);
+    let measure = measure.unwrap_or("the measure");
+    let on_coef = b.coefficient.is_some();
+    let noun = if on_coef { "coefficient" } else { "effect" };
+    let types = describe_types(b);
+    let what = if on_coef {
+        format!("{types} coefficients")
+    } else {
+        "effects".to_string()
+    };
+    let c = |x: f64| fixed(x, 2);
+
+    let mut s = String::new();
+    let n_part = if b.n_total > 0 {
+        let missing = if b.n_missing > 0 {
+            format!("; {} without a reported sample size", b.n_missing)
+        } else {
+            String::new()
+        };
+        format!(" (total N = {}{missing})", thousands(b.n_total))
+    } else {
+        String::new()
+    };
+    s.push_str(&format!(
+        "We judged the reliability of {measure} against a benchmark built from k = {} prior \
+         administrations{n_part}. ",
+        p.k
+    ));
+    let transform_part = match b.transform {
+        TransformKind::Bonett => {
+            refs.push(REF_BONETT);
+            "were transformed with Bonett's (2002) transformation, ln(1 − coefficient), and"
+        }
+        TransformKind::HakstianWhalen => {
+            refs.push(REF_HW);
+            "were transformed with the Hakstian–Whalen (1976) cube-root transformation, \
+             (1 − coefficient)^(1/3), and"
+        }
+        TransformKind::FisherZ => {
+            refs.push(REF_FISHER);
+            "were transformed to Fisher's (1921) z and"
+        }
+        TransformKind::Raw => "were left untransformed and",
+        TransformKind::None => "were taken as given, with their reported sampling variances, and",
+    };
+    let model_part = match opts.model {
+        Model::Common => {
+            "pooled in a common-effect (inverse-variance) model, which assumes that every study \
+             shares one true value"
+                .to_string()
+        }
+        Model::Random(e) => {
+            refs.push(match e {
+                Tau2Estimator::Reml | Tau2Estimator::Ml => REF_VIECHTBAUER_2005,
+                Tau2Estimator::Dl => REF_DL,
+                Tau2Estimator::Pm => REF_PM,
+                Tau2Estimator::Sj => REF_SJ,
+                Tau2Estimator::He => REF_HE,
+            });
+            format!(
+                "pooled in a random-effects model, with the between-study variance (τ²) \
+                 estimated by {} ({})",
+                e.label(),
+                e.citation()
+            )
+        }
+    };
+    let ci_part = match opts.ci {
+        CiMethod::KnappHartung => {
+            refs.push(REF_KH);
+            format!(
+                "; the {level} confidence interval of the pooled {noun} used the Knapp–Hartung \
+                 method (Knapp & Hartung, 2003)"
+            )
+        }
+        CiMethod::Wald => {
+            format!("; the {level} confidence interval of the pooled {noun} used normal quantiles")
+        }
+    };
+    s.push_str(&format!(
+        "The reported {what} {transform_part} {model_part}{ci_part}. "
+    ));
+    match &b.coefficient {
+        Some(cs) => s.push_str(&format!(
+            "The pooled coefficient was {} ({level} CI {} to {}). ",
+            c(cs.estimate),
+            c(cs.ci.lower),
+            c(cs.ci.upper)
+        )),
+        None => s.push_str(&format!(
+            "The pooled effect was {} ({level} CI {} to {}). ",
+            significant(p.estimate, 3),
+            significant(p.ci.lower, 3),
+            significant(p.ci.upper, 3)
+        )),
+    }
+    match opts.model {
+        Model::Common => s.push_str(&format!(
+            "Cochran's Q was {} on {} df (I² = {}%). ",
+            fixed(p.heterogeneity.q, 2),
+            p.heterogeneity.df,
+            fixed(p.i2, 0)
+        )),
+        Model::Random(_) => {
+            refs.push(REF_VIECHTBAUER_2007);
+            let ci = p
+                .tau2_ci
+                .map(|t| {
+                    format!(
+                        ", {level} CI {} to {} by the Q-profile method [Viechtbauer, 2007]",
+                        significant(t.lower, 2),
+                        significant(t.upper, 2)
+                    )
+                })
+                .unwrap_or_default();
+            let scale = if b.transform == TransformKind::None || b.transform == TransformKind::Raw {
+                ""
+            } else {
+                " on the transformed scale"
+            };
+            if p.tau2.at_zero {
+                s.push_str(&format!(
+                    "The {what} varied no more than sampling error would predict (τ² = 0{ci}; \
+                     I² = 0%), so the expected range below reflects mainly the uncertainty of \
+                     the pooled value. "
+                ));
+            } else {
+                s.push_str(&format!(
+                    "The {what} varied between studies beyond sampling error (τ² = {}{scale}{ci}; \
+                     I² = {}%). ",
+                    significant(p.tau2.tau2, 2),
+                    fixed(p.i2, 0)
+                ));
+            }
+        }
+    }
+    let pi = match (&b.coefficient, p.prediction.interval()) {
+        (Some(cs), Some(_)) => cs.pi.map(|i| (c(i.lower), c(i.upper))),
+        (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
+        _ => None,
+    };
+    match pi {
+        Some((lo, hi)) => {
+            refs.push(REF_HTS);
+            s.push_str(&format!(
+                "The {level} prediction interval (Higgins, Thompson, & Spiegelhalter, 2009) \
+                 indicates that the true {noun} of {measure} in a new, comparable setting can be \
+                 expected to lie between {lo} and {hi}; a {noun} observed in a single new sample \
+                 will vary somewhat more because of that sample's own sampling error."
+            ));
+        }
+        None => s.push_str(
+            "With only two studies no prediction interval can be given, so the benchmark states \
+             no expected range for a new setting.",
+        ),
+    }
+    refs.sort_unstable();
+    refs.dedup();
+    Paragraph {
+        text: s,
+        references: refs.into_iter().map(str::to_string).collect(),
+    }
+}

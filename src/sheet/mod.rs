@@ -1,0 +1,557 @@
+//! The coding sheet: one row per coded study, read from CSV and checked cell by cell.
+//!
+//! Reading happens in two steps. [`read_coding_sheet`] parses every row into a
+//! [`StudyRecord`] or a list of [`CellProblem`]s (it fails at once only for problems
+//! with the file as a whole: empty, no header, a missing or duplicated column). The
+//! transform's own requirements are checked later, by [`crate::benchmark`], so that all
+//! problems of a file are reported together.
+
+mod cells;
+mod read;
+mod schema;
+pub mod template;
+
+pub use cells::{is_missing, parse_number};
+pub use read::{DELIMITERS, delimiter_name, detect_delimiter, parse_delimiter};
+pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
+
+use crate::error::{CellProblem, Error, Result};
+use std::collections::BTreeMap;
+use std::path::Path;
+
+/// How to read a coding sheet.
+#[derive(Debug, Clone, Default)]
+pub struct SheetOptions {
+    /// The delimiter; detected from the header row when `None`.
+    pub delimiter: Option<u8>,
+    /// The sheet's own names for the standard columns.
+    pub columns: ColumnMap,
+}
+
+/// One coded study as read from the sheet (values checked for type and range, not yet
+/// against a transform's requirements).
+#[derive(Debug, Clone, PartialEq)]
+pub struct StudyRecord {
+    /// Spreadsheet row number (header = 1).
+    pub row: usize,
+    /// The study label, or `row N` when the sheet gives none.
+    pub label: String,
+    /// True when the label came from the sheet.
+    pub label_given: bool,
+    /// Reported coefficient (or effect).
+    pub coef: f64,
+    /// Kind of coefficient.
+    pub coef_type: CoefType,
+    /// Sample size.
+    pub n: Option<u64>,
+    /// Number of items.
+    pub items: Option<u32>,
+    /// Score standard deviation.
+    pub sd: Option<f64>,
+    /// Metric of `sd`.
+    pub sd_metric: Option<SdMetric>,
+    /// Lowest possible item response.
+    pub scale_min: Option<f64>,
+    /// Highest possible item response.
+    pub scale_max: Option<f64>,
+    /// Sampling variance of an already-transformed effect.
+    pub var: Option<f64>,
+    /// Values of the other columns (possible moderators), aligned with
+    /// [`CodingSheet::extra_columns`]; `None` for a missing cell.
+    pub extra: Vec<Option<String>>,
+}
+
+/// A coding sheet after reading: the rows that parsed, and the problems of the rest.
+#[derive(Debug, Clone)]
+pub struct CodingSheet {
+    /// The file as the user named it.
+    pub file: String,
+    /// Delimiter used.
+    pub delimiter: u8,
+    /// Header name of each standard column present.
+    pub columns: BTreeMap<Role, String>,
+    /// Names of the other columns, in sheet order.
+    pub extra_columns: Vec<String>,
+    /// Rows that parsed.
+    pub records: Vec<StudyRecord>,
+    /// Problems of rows that did not parse (a row may have several).
+    pub problems: Vec<CellProblem>,
+    /// Number of non-empty data rows in the file.
+    pub rows_read: usize,
+    /// Entirely empty rows between data rows.
+    pub empty_rows: Vec<usize>,
+}
+
+impl CodingSheet {
+    /// True when the sheet has the standard column.
+    pub fn has(&self, role: Role) -> bool {
+        self.columns.contains_key(&role)
+    }
+
+    /// How a standard column is named in messages: its header, with the standard name
+    /// added when the sheet calls it something else.
+    pub fn column_label(&self, role: Role) -> String {
+        column_label(&self.columns, role)
+    }
+}
+
+fn column_label(columns: &BTreeMap<Role, String>, role: Role) -> String {
+    match columns.get(&role) {
+        Some(h) if h != role.name() => format!("{h} (used as {role})"),
+        Some(h) => h.clone(),
+        None => role.name().to_string(),
+    }
+}
+
+/// Read and check a coding sheet from a file.
+pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSheet> {
+    let file = path.display().to_string();
+    let bytes = std::fs::read(path).map_err(|e| Error::io(format!("reading {file}"), e))?;
+    parse_coding_sheet(&file, &bytes, options)
+}
+
+/// Read and check a coding sheet from its bytes; `file` names it in messages.
+pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> Result<CodingSheet> {
+    let table = read::read_table(file, bytes, options.delimiter)?;
+    let layout = Layout::resolve(file, &table.header, &options.columns)?;
+    let decimal_comma = table.delimiter != b',';
+    let mut records = Vec::with_capacity(table.rows.len());
+    let mut problems = Vec::new();
+    for raw in &table.rows {
+        match layout.parse_row(raw, decimal_comma) {
+            Ok(r) => records.push(r),
+            Err(mut p) => problems.append(&mut p),
+        }
+    }
+    if table.rows.is_empty() {
+        return Err(Error::InvalidSheet {
+            file: file.to_string(),
+            problems: vec![CellProblem::row(
+                1,
+                "the sheet has a header row but no data rows below it",
+            )],
+        });
+    }
+    Ok(CodingSheet {
+        file: file.to_string(),
+        delimiter: table.delimiter,
+        columns: layout.names(),
+        extra_columns: layout.extra.iter().map(|(_, n)| n.clone()).collect(),
+        records,
+        problems,
+        rows_read: table.rows.len(),
+        empty_rows: table.empty_rows,
+    })
+}
+
+/// Where each column sits in the file.
+struct Layout {
+    width: usize,
+    roles: BTreeMap<Role, (usize, String)>,
+    extra: Vec<(usize, String)>,
+    /// Unnamed columns (empty header cell), which must stay empty.
+    unnamed: Vec<usize>,
+}
+
+impl Layout {
+    fn resolve(file: &str, header: &[String], map: &ColumnMap) -> Result<Layout> {
+        let mut problems = Vec::new();
+        // Duplicated names (case-insensitive).
+        let mut seen: BTreeMap<String, usize> = BTreeMap::new();
+        for (i, h) in header.iter().enumerate() {
+            if h.is_empty() {
+                continue;
+            }
+            if let Some(first) = seen.insert(h.to_lowercase(), i) {
+                problems.push(CellProblem::row(
+                    1,
+                    format!(
+                        "the column name \"{h}\" appears twice (columns {} and {}); every column \
+                         needs its own name",
+                        first + 1,
+                        i + 1
+                    ),
+                ));
+            }
+        }
+        let find = |name: &str| -> Option<usize> {
+            header.iter().position(|h| h == name).or_else(|| {
+                header
+                    .iter()
+                    .position(|h| h.eq_ignore_ascii_case(name.trim()))
+            })
+        };
+        let mut roles = BTreeMap::new();
+        for role in Role::ALL {
+            match map.get(role) {
+                Some(name) => match find(name) {
+                    Some(i) => {
+                        roles.insert(role, (i, header[i].clone()));
+                    }
+                    None => problems.push(CellProblem::row(
+                        1,
+                        format!(
+                            "--column {role}={name} names a column the sheet does not have \
+                             (its columns are: {})",
+                            list_header(header)
+                        ),
+                    )),
+                },
+                None => {
+                    if let Some(i) = find(role.name()) {
+                        // A column already claimed by a mapping keeps that role.
+                        if !roles.values().any(|(j, _)| *j == i)
+                            && !Role::ALL
+                                .iter()
+                                .any(|r| map.get(*r).and_then(find) == Some(i))
+                        {
+                            roles.insert(role, (i, header[i].clone()));
+                        }
+                    }
+                }
+            }
+        }
+        if !roles.contains_key(&Role::Coef) && map.get(Role::Coef).is_none() {
+            problems.push(CellProblem::row(
+                1,
+                format!(
+                    "the sheet has no coef column (its columns are: {}); name the column of \
+                     reported coefficients coef, or map it with --column coef=NAME",
+                    list_header(header)
+                ),
+            ));
+        }
+        if !problems.is_empty() {
+            return Err(Error::InvalidSheet {
+                file: file.to_string(),
+                problems,
+            });
+        }
+        let used: Vec<usize> = roles.values().map(|(i, _)| *i).collect();
+        let mut extra = Vec::new();
+        let mut unnamed = Vec::new();
+        for (i, h) in header.iter().enumerate() {
+            if used.contains(&i) {
+                continue;
+            }
+            if h.is_empty() {
+                unnamed.push(i);
+            } else {
+                extra.push((i, h.clone()));
+            }
+        }
+        Ok(Layout {
+            width: header.len(),
+            roles,
+            extra,
+            unnamed,
+        })
+    }
+
+    fn names(&self) -> BTreeMap<Role, String> {
+        self.roles
+            .iter()
+            .map(|(r, (_, n))| (*r, n.clone()))
+            .collect()
+    }
+
+    fn parse_row(
+        &self,
+        raw: &read::RawRow,
+        decimal_comma: bool,
+    ) -> std::result::Result<StudyRecord, Vec<CellProblem>> {
+        let row = raw.row;
+        let names = self.names();
+        let label_of = |role: Role| column_label(&names, role);
+        let mut problems = Vec::new();
+
+        // Shape: ragged rows are an error unless the surplus cells are empty.
+        let n_cells = raw.cells.len();
+        if n_cells < self.width {
+            problems.push(CellProblem::row(
+                row,
+                format!(
+                    "the row has {n_cells} cell(s) but the header has {} columns; check for a \
+                     missing or surplus delimiter",
+                    self.width
+                ),
+            ));
+            return Err(problems);
+        }
+        if n_cells > self.width {
+            let surplus_filled = raw.cells[self.width..]
+                .iter()
+                .any(|c| c.as_ref().map(|s| !s.trim().is_empty()).unwrap_or(true));
+            if surplus_filled {
+                problems.push(CellProblem::row(
+                    row,
+                    format!(
+                        "the row has {n_cells} cells but the header has only {} columns; a value \
+                         has no column name (check for an unquoted delimiter inside a cell)",
+                        self.width
+                    ),
+                ));
+                return Err(problems);
+            }
+        }
+        // Text of each cell, or a UTF-8 problem.
+        let mut text = |i: usize, column: String| -> Option<String> {
+            match &raw.cells[i] {
+                Ok(s) => Some(s.clone()),
+                Err(()) => {
+                    problems.push(CellProblem::cell(
+                        row,
+                        column,
+                        "the cell is not valid UTF-8 text; save the sheet as UTF-8",
+                    ));
+                    None
+                }
+            }
+        };
+        let mut cell_of = |role: Role| -> Option<String> {
+            let (i, _) = self.roles.get(&role)?;
+            let s = text(*i, label_of(role))?;
+            if is_missing(&s) { None } else { Some(s) }
+        };
+        let study = cell_of(Role::Study);
+        let coef_s = cell_of(Role::Coef);
+        let n_s = cell_of(Role::N);
+        let items_s = cell_of(Role::Items);
+        let type_s = cell_of(Role::CoefType);
+        let sd_s = cell_of(Role::Sd);
+        let metric_s = cell_of(Role::SdMetric);
+        let min_s = cell_of(Role::ScaleMin);
+        let max_s = cell_of(Role::ScaleMax);
+        let var_s = cell_of(Role::Var);
+        let mut extra = Vec::with_capacity(self.extra.len());
+        for (i, name) in &self.extra {
+            let v = text(*i, name.clone())
+                .filter(|s| !is_missing(s))
+                .map(|s| s.trim().to_string());
+            extra.push(v);
+        }
+        let mut orphans = Vec::new();
+        for &i in &self.unnamed {
+            if let Some(s) = text(i, format!("{} (unnamed)", i + 1)) {
+                if !s.trim().is_empty() {
+                    orphans.push(CellProblem::cell(
+                        row,
+                        format!("{} (unnamed)", i + 1),
+                        format!(
+                            "the cell holds {} but its column has no name in the header; name \
+                             the column so the value is not lost",
+                            cells::quote(&s)
+                        ),
+                    ));
+                }
+            }
+        }
+        problems.append(&mut orphans);
+
+        let mut push = |role: Role, reason: String| {
+            problems.push(CellProblem::cell(row, label_of(role), reason));
+        };
+
+        let label = match &study {
+            Some(s) => {
+                let t = s.trim().to_string();
+                let chars = t.chars().count();
+                if chars > MAX_LABEL_CHARS {
+                    push(
+                        Role::Study,
+                        format!(
+                            "the label is {chars} characters long (at most {MAX_LABEL_CHARS} are \
+                             allowed); shorten it"
+                        ),
+                    );
+                }
+                if t.chars().any(|c| c.is_control()) {
+                    push(
+                        Role::Study,
+                        "the label holds a control character (such as a line break); remove it"
+                            .into(),
+                    );
+                }
+                t
+            }
+            None => format!("row {row}"),
+        };
+        let coef = match &coef_s {
+            None => {
+                push(Role::Coef, "the coefficient is missing".into());
+                None
+            }
+            Some(s) => match cells::parse_number(s, decimal_comma) {
+                Ok(x) => Some(x),
+                Err(e) => {
+                    push(Role::Coef, e);
+                    None
+                }
+            },
+        };
+        let n = n_s.as_deref().and_then(|s| {
+            cells::parse_whole(s, decimal_comma, 1, MAX_N, "sample size")
+                .map_err(|e| push(Role::N, e))
+                .ok()
+        });
+        let items = items_s.as_deref().and_then(|s| {
+            cells::parse_whole(s, decimal_comma, 1, MAX_ITEMS as u64, "number of items")
+                .map_err(|e| push(Role::Items, e))
+                .ok()
+                .map(|k| k as u32)
+        });
+        let coef_type = match &type_s {
+            None => Some(CoefType::Alpha),
+            Some(s) => {
+                let t = CoefType::parse_cell(s);
+                if t.is_none() {
+                    let names: Vec<&str> = CoefType::ALL.iter().map(|t| t.name()).collect();
+                    push(
+                        Role::CoefType,
+                        format!(
+                            "{} is not a known coefficient type (use one of: {}; empty means alpha)",
+                            cells::quote(s),
+                            names.join(", ")
+                        ),
+                    );
+                }
+                t
+            }
+        };
+        let positive = |role: Role, s: &Option<String>, push: &mut dyn FnMut(Role, String)| {
+            s.as_deref()
+                .and_then(|s| match cells::parse_number(s, decimal_comma) {
+                    Ok(x) if x > 0.0 => Some(x),
+                    Ok(x) => {
+                        push(
+                            role,
+                            format!("{} must be above 0", crate::transform::fmt_value(x)),
+                        );
+                        None
+                    }
+                    Err(e) => {
+                        push(role, e);
+                        None
+                    }
+                })
+        };
+        let sd = positive(Role::Sd, &sd_s, &mut push);
+        let var = positive(Role::Var, &var_s, &mut push);
+        let sd_metric = metric_s.as_deref().and_then(|s| {
+            let m = SdMetric::parse_cell(s);
+            if m.is_none() {
+                push(
+                    Role::SdMetric,
+                    format!("{} is not an SD metric (use sum or mean)", cells::quote(s)),
+                );
+            }
+            m
+        });
+        let mut number = |role: Role, s: &Option<String>| {
+            s.as_deref().and_then(|s| {
+                cells::parse_number(s, decimal_comma)
+                    .map_err(|e| push(role, e))
+                    .ok()
+            })
+        };
+        let scale_min = number(Role::ScaleMin, &min_s);
+        let scale_max = number(Role::ScaleMax, &max_s);
+        if let (Some(lo), Some(hi)) = (scale_min, scale_max) {
+            if lo >= hi {
+                push(
+                    Role::ScaleMax,
+                    format!("the scale maximum ({hi}) must be above the minimum ({lo})"),
+                );
+            }
+        }
+
+        if !problems.is_empty() {
+            return Err(problems);
+        }
+        Ok(StudyRecord {
+            row,
+            label,
+            label_given: study.is_some(),
+            coef: coef.expect("checked above"),
+            coef_type: coef_type.expect("checked above"),
+            n,
+            items,
+            sd,
+            sd_metric,
+            scale_min,
+            scale_max,
+            var,
+            extra,
+        })
+    }
+}
+
+fn list_header(header: &[String]) -> String {
+    let shown: Vec<String> = header
+        .iter()
+        .enumerate()
+        .map(|(i, h)| {
+            if h.is_empty() {
+                format!("(unnamed column {})", i + 1)
+            } else {
+                h.clone()
+            }
+        })
+        .collect();
+    shown.join(", ")
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn parse(text: &str) -> Result<CodingSheet> {
+        parse_coding_sheet("t.csv", text.as_bytes(), &SheetOptions::default())
+    }
+
+    #[test]
+    fn reads_a_small_sheet() {
+        let s = parse("study,coef,n,items,maturity\nA,0.8,100,6,new\nB,0.85,120,6,\n").unwrap();
+        assert_eq!(s.records.len(), 2);
+        assert_eq!(s.records[0].row, 2);
+        assert_eq!(s.records[1].coef, 0.85);
+        assert_eq!(s.extra_columns, vec!["maturity"]);
+        assert_eq!(s.records[1].extra, vec![None]);
+        assert!(s.problems.is_empty());
+    }
+
+    #[test]
+    fn collects_every_problem_with_row_and_column() {
+        let s = parse("study,coef,n,items\nA,abc,100,6\nB,0.8,2.5,x\n").unwrap();
+        let msgs: Vec<String> = s.problems.iter().map(|p| p.to_string()).collect();
+        assert_eq!(msgs.len(), 3, "{msgs:?}");
+        assert!(msgs[0].starts_with("row 2, column coef:"), "{msgs:?}");
+        assert!(msgs[1].starts_with("row 3, column n:"), "{msgs:?}");
+        assert!(msgs[2].starts_with("row 3, column items:"), "{msgs:?}");
+    }
+
+    #[test]
+    fn mapped_columns_are_named_in_messages() {
+        let mut opts = SheetOptions::default();
+        opts.columns.insert_spec("coef=reported_alpha").unwrap();
+        let s = parse_coding_sheet("t.csv", b"reported_alpha,n\nx,10\n", &opts).unwrap();
+        assert_eq!(
+            s.problems[0].to_string(),
+            "row 2, column reported_alpha (used as coef): \"x\" is not a number"
+        );
+    }
+
+    #[test]
+    fn file_level_problems_fail_at_once() {
+        assert!(parse("study,n\nA,10\n").is_err());
+        assert!(parse("coef,n,coef\n0.8,10,0.7\n").is_err());
+        assert!(parse("coef,n\n").is_err());
+    }
+
+    #[test]
+    fn semicolon_sheet_with_decimal_comma() {
+        let s = parse("study;coef;n;items\nA;0,81;100;6\n").unwrap();
+        assert_eq!(s.delimiter, b';');
+        assert_eq!(s.records[0].coef, 0.81);
+    }
+}

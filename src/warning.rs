@@ -1,0 +1,235 @@
+//! Warnings: results that stand but need the reader's attention. Each message says
+//! what happened and what to do about it.
+
+use serde::Serialize;
+use std::fmt;
+
+/// Something the user should know about a result that was nevertheless produced.
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum Warning {
+    /// Few studies: τ² and the prediction interval are imprecise.
+    FewStudies {
+        /// Number of studies pooled.
+        k: usize,
+    },
+    /// Two studies: the prediction interval needs at least three.
+    NoPredictionInterval {
+        /// Number of studies pooled.
+        k: usize,
+    },
+    /// τ² was estimated at its lower bound of zero.
+    Tau2AtZero {
+        /// Estimator name.
+        estimator: String,
+    },
+    /// An iterative fit stopped before meeting its tolerance.
+    NotConverged {
+        /// What was being fitted.
+        what: String,
+        /// Iterations used.
+        iterations: usize,
+    },
+    /// An interval end lay beyond a coefficient of 1 on the way back and was set to 1.
+    IntervalCapped {
+        /// Which interval.
+        interval: String,
+    },
+    /// The common-effect model assumes no between-study variation.
+    CommonEffectAssumed,
+    /// Negative coefficients were reported: valid, but unusual.
+    NegativeCoefficients {
+        /// Spreadsheet rows.
+        rows: Vec<usize>,
+    },
+    /// The same study label appears on several rows.
+    DuplicateLabel {
+        /// The label.
+        label: String,
+        /// Spreadsheet rows.
+        rows: Vec<usize>,
+    },
+    /// Rows with problems were left out at the user's request.
+    RowsSkipped {
+        /// How many.
+        count: usize,
+    },
+    /// Entirely empty rows were passed over.
+    EmptyRowsIgnored {
+        /// Spreadsheet rows.
+        rows: Vec<usize>,
+    },
+    /// The coding sheet has a `var` column that this transform does not use.
+    VarColumnUnused {
+        /// Spreadsheet rows holding a value.
+        rows: Vec<usize>,
+        /// The transform in use.
+        transform: String,
+    },
+    /// Coefficients of both families were pooled because the user allowed it.
+    MixedFamiliesPooled,
+    /// The chosen transform was designed for the other family of coefficients.
+    TransformFamilyMismatch {
+        /// The transform in use.
+        transform: String,
+        /// The family it was designed for.
+        designed_for: String,
+        /// Spreadsheet rows of the other family.
+        rows: Vec<usize>,
+    },
+}
+
+impl Warning {
+    /// A stable snake_case code for scripts.
+    pub fn code(&self) -> &'static str {
+        match self {
+            Warning::FewStudies { .. } => "few_studies",
+            Warning::NoPredictionInterval { .. } => "no_prediction_interval",
+            Warning::Tau2AtZero { .. } => "tau2_at_zero",
+            Warning::NotConverged { .. } => "not_converged",
+            Warning::IntervalCapped { .. } => "interval_capped",
+            Warning::CommonEffectAssumed => "common_effect_assumed",
+            Warning::NegativeCoefficients { .. } => "negative_coefficients",
+            Warning::DuplicateLabel { .. } => "duplicate_label",
+            Warning::RowsSkipped { .. } => "rows_skipped",
+            Warning::EmptyRowsIgnored { .. } => "empty_rows_ignored",
+            Warning::VarColumnUnused { .. } => "var_column_unused",
+            Warning::MixedFamiliesPooled => "mixed_families_pooled",
+            Warning::TransformFamilyMismatch { .. } => "transform_family_mismatch",
+        }
+    }
+}
+
+/// Rows as "row 3", "rows 3, 7 and 9", or the first few and a count.
+pub(crate) fn list_rows(rows: &[usize]) -> String {
+    const SHOWN: usize = 8;
+    let shown: Vec<String> = rows.iter().take(SHOWN).map(|r| r.to_string()).collect();
+    let more = rows.len().saturating_sub(SHOWN);
+    match (shown.len(), more) {
+        (0, _) => "no rows".to_string(),
+        (1, _) => format!("row {}", shown[0]),
+        (_, 0) => {
+            let (last, first) = shown.split_last().expect("at least two");
+            format!("rows {} and {last}", first.join(", "))
+        }
+        (_, m) => format!("rows {} and {m} more", shown.join(", ")),
+    }
+}
+
+impl fmt::Display for Warning {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Warning::FewStudies { k } => write!(
+                f,
+                "only {k} studies were pooled: the between-study variance and the prediction \
+                 interval rest on very little information; read them as rough and look at the \
+                 width of the τ² interval"
+            ),
+            Warning::NoPredictionInterval { k } => write!(
+                f,
+                "with k = {k} studies no prediction interval can be given (its t quantile has \
+                 k − 2 = 0 degrees of freedom); code more studies to state an expected range"
+            ),
+            Warning::Tau2AtZero { estimator } => write!(
+                f,
+                "τ² was estimated at its lower bound of 0 ({estimator}): the coefficients vary no \
+                 more than sampling error predicts, so the prediction interval reflects only the \
+                 uncertainty of the pooled value; with few studies this is weak evidence that \
+                 the true coefficients are equal"
+            ),
+            Warning::NotConverged { what, iterations } => write!(
+                f,
+                "{what} did not converge within {iterations} iterations: the numbers shown are \
+                 the last iterate and may be wrong; try another τ² estimator (e.g. --tau2 pm) \
+                 and compare"
+            ),
+            Warning::IntervalCapped { interval } => write!(
+                f,
+                "the {interval} reached past a coefficient of 1 when mapped back and was cut \
+                 at 1; a transform that keeps coefficients below 1 (bonett or fisher-z) avoids this"
+            ),
+            Warning::CommonEffectAssumed => write!(
+                f,
+                "the common-effect model assumes that every study estimates the same true \
+                 coefficient; its intervals ignore between-study variation, so the expected \
+                 range for a new setting is too narrow unless that assumption holds"
+            ),
+            Warning::NegativeCoefficients { rows } => write!(
+                f,
+                "negative coefficients on {}: a negative alpha is a valid estimate but usually \
+                 means mis-keyed (not reverse-scored) items or a coding error; check the \
+                 source studies",
+                list_rows(rows)
+            ),
+            Warning::DuplicateLabel { label, rows } => write!(
+                f,
+                "the study label \"{label}\" appears on {}; if these are the same sample, pool \
+                 only one of them (dependent samples make the intervals too narrow)",
+                list_rows(rows)
+            ),
+            Warning::RowsSkipped { count } => write!(
+                f,
+                "{count} row(s) with problems were left out (--skip-invalid); each is listed \
+                 with its reason"
+            ),
+            Warning::EmptyRowsIgnored { rows } => {
+                write!(f, "entirely empty {} passed over", list_rows(rows))
+            }
+            Warning::VarColumnUnused { rows, transform } => write!(
+                f,
+                "the var column holds values on {} but --transform {transform} computes its own \
+                 sampling variances, so they were not used; use --transform none to pool the \
+                 sheet's own effects and variances",
+                list_rows(rows)
+            ),
+            Warning::MixedFamiliesPooled => write!(
+                f,
+                "internal-consistency and correlation-type coefficients were pooled together \
+                 (--allow-mixed-types); they estimate different kinds of reliability, so the \
+                 benchmark mixes two questions"
+            ),
+            Warning::TransformFamilyMismatch {
+                transform,
+                designed_for,
+                rows,
+            } => write!(
+                f,
+                "--transform {transform} was designed for {designed_for}; its sampling variance \
+                 is only an approximation for the coefficients on {}",
+                list_rows(rows)
+            ),
+        }
+    }
+}
+
+/// A warning as it appears in JSON output.
+#[derive(Debug, Clone, Serialize)]
+pub struct WarningRecord {
+    /// Stable code.
+    pub code: &'static str,
+    /// Full message.
+    pub message: String,
+}
+
+impl From<&Warning> for WarningRecord {
+    fn from(w: &Warning) -> Self {
+        WarningRecord {
+            code: w.code(),
+            message: w.to_string(),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn row_lists_read_naturally() {
+        assert_eq!(list_rows(&[4]), "row 4");
+        assert_eq!(list_rows(&[4, 9]), "rows 4 and 9");
+        assert_eq!(list_rows(&[2, 3, 4]), "rows 2, 3 and 4");
+        let many: Vec<usize> = (2..20).collect();
+        assert!(list_rows(&many).ends_with("and 10 more"));
+    }
+}

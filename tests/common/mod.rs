@@ -1,0 +1,112 @@
+//! Shared helpers for the integration tests: the one place for tolerances, fixture
+//! loading, and running the real binary.
+#![allow(dead_code)]
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+/// Values from the reference fixtures: the iterative fits stop when τ² changes by less
+/// than 1e-10, so derived quantities agree to about 1e-9 relative.
+pub const FIXTURE_REL: f64 = 1e-8;
+/// Absolute floor for values near zero.
+pub const FIXTURE_ABS: f64 = 1e-10;
+/// Quantiles against scipy.
+pub const QUANTILE_REL: f64 = 1e-10;
+/// Values printed to three decimals in a publication.
+pub const PRINTED_3DP: f64 = 5e-4 + 1e-9;
+
+/// Assert |actual − expected| ≤ max(rel·|expected|, abs), printing the context.
+#[track_caller]
+pub fn assert_close(actual: f64, expected: f64, rel: f64, abs: f64, what: &str) {
+    let tol = (rel * expected.abs()).max(abs);
+    assert!(
+        (actual - expected).abs() <= tol,
+        "{what}: got {actual:.15e}, expected {expected:.15e} (tolerance {tol:e})"
+    );
+}
+
+/// Path of a file under tests/.
+pub fn test_path(rel: &str) -> PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests")
+        .join(rel)
+}
+
+/// Load a JSON fixture from tests/reference/fixtures.
+pub fn fixture(name: &str) -> serde_json::Value {
+    let p = test_path(&format!("reference/fixtures/{name}"));
+    let text = std::fs::read_to_string(&p).unwrap_or_else(|e| panic!("{}: {e}", p.display()));
+    serde_json::from_str(&text).unwrap_or_else(|e| panic!("{}: {e}", p.display()))
+}
+
+/// A JSON array of numbers as a vector.
+pub fn floats(v: &serde_json::Value) -> Vec<f64> {
+    v.as_array()
+        .expect("an array")
+        .iter()
+        .map(|x| x.as_f64().expect("a number"))
+        .collect()
+}
+
+/// Run the relyard binary with arguments.
+pub fn relyard(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_relyard"))
+        .args(args)
+        .output()
+        .expect("the binary runs")
+}
+
+/// A fresh scratch directory for one test.
+pub fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("relyard-test-{}-{name}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("scratch dir");
+    dir
+}
+
+/// Write `bytes` to `dir/name` and return the path as a string.
+pub fn write_file(dir: &Path, name: &str, bytes: &[u8]) -> String {
+    let p = dir.join(name);
+    std::fs::write(&p, bytes).expect("write test file");
+    p.to_string_lossy().into_owned()
+}
+
+/// The 13 BCG trials (Colditz et al. 1994, JAMA 271, 698–702; the 2×2 tables as
+/// printed in van Houwelingen, Arends & Stijnen 2002, Statistics in Medicine 21,
+/// 589–624, Table I): (tpos, tneg, cpos, cneg, absolute latitude).
+pub fn bcg_trials() -> Vec<[f64; 5]> {
+    let text = std::fs::read_to_string(test_path("data/bcg-trials.csv")).expect("bcg data");
+    text.lines()
+        .skip(1)
+        .filter(|l| !l.trim().is_empty())
+        .map(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            [2, 3, 4, 5, 6].map(|i| f[i].parse::<f64>().expect("a number"))
+        })
+        .collect()
+}
+
+/// Log risk ratios and their variances for the BCG trials.
+pub fn bcg_log_rr() -> (Vec<f64>, Vec<f64>) {
+    bcg_trials()
+        .iter()
+        .map(|[a, b, c, d, _]| {
+            let y = ((a / (a + b)) / (c / (c + d))).ln();
+            let v = 1.0 / a - 1.0 / (a + b) + 1.0 / c - 1.0 / (c + d);
+            (y, v)
+        })
+        .unzip()
+}
+
+/// Log odds ratios and their variances for the BCG trials.
+pub fn bcg_log_or() -> (Vec<f64>, Vec<f64>) {
+    bcg_trials()
+        .iter()
+        .map(|[a, b, c, d, _]| {
+            (
+                (a * d / (b * c)).ln(),
+                1.0 / a + 1.0 / b + 1.0 / c + 1.0 / d,
+            )
+        })
+        .unzip()
+}

@@ -1,0 +1,347 @@
+#!/usr/bin/env python3
+"""Reference values for relyard's tests, computed with general-purpose libraries.
+
+Writes JSON fixtures into the directory given as the first argument (default: the
+`fixtures` folder beside this script). Each fixture records the script and the library
+versions that made it. Run by .ci/run, which compares a fresh run with the committed
+fixtures (compare_fixtures.py).
+
+Sources of the computations:
+  * quantiles and tail areas: scipy.stats (norm, t, chi2, f);
+  * DerSimonian-Laird and Paule-Mandel: statsmodels.stats.meta_analysis.combine_effects,
+    cross-checked against direct numpy formulas;
+  * REML and ML: the score equations of the (restricted) likelihood written out in numpy
+    and solved with scipy.optimize.brentq, cross-checked by scipy.optimize.minimize_scalar
+    on the (restricted) log-likelihood itself;
+  * Sidik-Jonkman and Hedges: their closed forms in numpy;
+  * Q-profile interval: scipy.optimize.brentq on the generalized Q statistic against
+    scipy.stats.chi2 quantiles;
+  * transform variances: numpy Monte Carlo of item data under compound symmetry.
+"""
+
+import json
+import math
+import os
+import sys
+
+import numpy as np
+import scipy
+import statsmodels
+from scipy import optimize, stats
+from statsmodels.stats.meta_analysis import combine_effects
+
+SCRIPT = "tests/reference/make_fixtures.py"
+
+
+def stamp():
+    return {
+        "script": SCRIPT,
+        "python": sys.version.split()[0],
+        "numpy": np.__version__,
+        "scipy": scipy.__version__,
+        "statsmodels": statsmodels.__version__,
+    }
+
+
+# ---------------------------------------------------------------- quantiles
+def quantile_fixture():
+    probs = [1e-6, 0.001, 0.025, 0.05, 0.5, 0.95, 0.975, 0.999, 1 - 1e-6]
+    dfs = [1, 2, 3.5, 7, 12, 33, 120, 1000]
+    rows = []
+    for p in probs:
+        rows.append({"dist": "normal", "p": p, "df1": None, "df2": None,
+                     "quantile": float(stats.norm.ppf(p))})
+        for df in dfs:
+            rows.append({"dist": "t", "p": p, "df1": df, "df2": None,
+                         "quantile": float(stats.t.ppf(p, df))})
+            rows.append({"dist": "chi2", "p": p, "df1": df, "df2": None,
+                         "quantile": float(stats.chi2.ppf(p, df))})
+        for d1, d2 in [(1, 10), (3, 30), (9, 81), (49, 49)]:
+            rows.append({"dist": "f", "p": p, "df1": d1, "df2": d2,
+                         "quantile": float(stats.f.ppf(p, d1, d2))})
+    tails = []
+    for x in [0.5, 2.0, 10.0, 30.0, 152.233]:
+        for df in [1, 5, 12, 40]:
+            tails.append({"dist": "chi2", "x": x, "df1": df, "df2": None,
+                          "sf": float(stats.chi2.sf(x, df))})
+            tails.append({"dist": "t", "x": x, "df1": df, "df2": None,
+                          "sf": float(stats.t.sf(x, df))})
+        tails.append({"dist": "normal", "x": x, "df1": None, "df2": None,
+                      "sf": float(stats.norm.sf(x))})
+        tails.append({"dist": "f", "x": x, "df1": 3, "df2": 20,
+                      "sf": float(stats.f.sf(x, 3, 20))})
+    return {"made_by": stamp(), "quantiles": rows, "tail_areas": tails}
+
+
+# ---------------------------------------------------------------- pooling
+def wls(y, v, tau2):
+    w = 1.0 / (v + tau2)
+    mu = np.sum(w * y) / np.sum(w)
+    return w, mu
+
+
+def q_gen(y, v, tau2):
+    w, mu = wls(y, v, tau2)
+    return float(np.sum(w * (y - mu) ** 2))
+
+
+def reml_score(y, v, t):
+    w, mu = wls(y, v, t)
+    return 0.5 * (np.sum(w**2 * (y - mu) ** 2) - np.sum(w) + np.sum(w**2) / np.sum(w))
+
+
+def ml_score(y, v, t):
+    w, mu = wls(y, v, t)
+    return 0.5 * (np.sum(w**2 * (y - mu) ** 2) - np.sum(w))
+
+
+def reml_negloglik(y, v, t):
+    w, mu = wls(y, v, t)
+    return 0.5 * (np.sum(np.log(v + t)) + np.log(np.sum(w)) + np.sum(w * (y - mu) ** 2))
+
+
+def ml_negloglik(y, v, t):
+    w, mu = wls(y, v, t)
+    return 0.5 * (np.sum(np.log(v + t)) + np.sum(w * (y - mu) ** 2))
+
+
+def upper_bracket(f, start):
+    hi = max(start, 1e-8)
+    while f(hi) > 0:
+        hi *= 4.0
+    return hi
+
+
+def solve_score(score, y, v):
+    if score(y, v, 0.0) <= 0:
+        return 0.0
+    f = lambda t: score(y, v, t)
+    hi = upper_bracket(f, float(np.var(y)) + float(np.max(v)))
+    return optimize.brentq(f, 0.0, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500)
+
+
+def check_maximum(negloglik, y, v, t_hat):
+    """The score root must also be where the likelihood is highest."""
+    hi = max(10 * t_hat, float(np.var(y)) * 10 + 1.0)
+    r = optimize.minimize_scalar(lambda t: negloglik(y, v, t), bounds=(0.0, hi),
+                                 method="bounded", options={"xatol": 1e-12})
+    assert abs(r.x - t_hat) < 1e-5 * max(1.0, t_hat), (r.x, t_hat)
+
+
+def pm_direct(y, v):
+    k = len(y)
+    if q_gen(y, v, 0.0) <= k - 1:
+        return 0.0
+    f = lambda t: q_gen(y, v, t) - (k - 1)
+    hi = upper_bracket(f, float(np.var(y)) + float(np.max(v)))
+    return optimize.brentq(f, 0.0, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500)
+
+
+def q_profile(y, v, level):
+    k = len(y)
+    a = 1 - level
+    q0 = q_gen(y, v, 0.0)
+    out = []
+    for target in (stats.chi2.ppf(1 - a / 2, k - 1), stats.chi2.ppf(a / 2, k - 1)):
+        if q0 <= target:
+            out.append(0.0)
+            continue
+        f = lambda t: q_gen(y, v, t) - target
+        hi = upper_bracket(f, float(np.var(y)) + float(np.max(v)))
+        out.append(optimize.brentq(f, 0.0, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps,
+                                   maxiter=500))
+    return out
+
+
+def summarize(y, v, tau2, level):
+    k = len(y)
+    a = 1 - level
+    w, mu = wls(y, v, tau2)
+    se = 1 / math.sqrt(np.sum(w))
+    q_scale = np.sum(w * (y - mu) ** 2) / (k - 1)
+    se_kh = se * math.sqrt(q_scale)
+    z = stats.norm.ppf(1 - a / 2)
+    t = stats.t.ppf(1 - a / 2, k - 1)
+    w0 = 1 / v
+    mu0 = np.sum(w0 * y) / np.sum(w0)
+    q = float(np.sum(w0 * (y - mu0) ** 2))
+    s2 = (k - 1) / (np.sum(w0) - np.sum(w0**2) / np.sum(w0))
+    res = {
+        "tau2": tau2,
+        "estimate": mu,
+        "se_wald": se,
+        "se_kh": se_kh,
+        "ci_wald": [mu - z * se, mu + z * se],
+        "ci_kh": [mu - t * se_kh, mu + t * se_kh],
+        "q": q,
+        "q_p": float(stats.chi2.sf(q, k - 1)),
+        "i2": 100 * tau2 / (tau2 + s2),
+        "h2": (tau2 + s2) / s2,
+    }
+    if k >= 3:
+        tp = stats.t.ppf(1 - a / 2, k - 2)
+        res["pi_wald"] = [mu - tp * math.sqrt(tau2 + se**2), mu + tp * math.sqrt(tau2 + se**2)]
+        res["pi_kh"] = [mu - tp * math.sqrt(tau2 + se_kh**2), mu + tp * math.sqrt(tau2 + se_kh**2)]
+    return {k2: (float(x) if not isinstance(x, list) else [float(e) for e in x])
+            for k2, x in res.items()}
+
+
+def num(x):
+    """A float for JSON, or None when it is not finite."""
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def pool_case(name, y, v, level, source):
+    y = np.asarray(y, float)
+    v = np.asarray(v, float)
+    k = len(y)
+    out = {"name": name, "source": source, "level": level, "y": y.tolist(), "v": v.tolist(),
+           "estimators": {}}
+    reml = solve_score(reml_score, y, v)
+    ml = solve_score(ml_score, y, v)
+    if reml > 0:
+        check_maximum(reml_negloglik, y, v, reml)
+    if ml > 0:
+        check_maximum(ml_negloglik, y, v, ml)
+    # DerSimonian-Laird and Paule-Mandel by statsmodels (its DL is not truncated at 0).
+    sm_dl = combine_effects(y, v, method_re="dl")
+    sm_pm = combine_effects(y, v, method_re="pm", atol=1e-13, maxiter=10000)
+    dl = max(0.0, float(sm_dl.tau2))
+    pm = max(0.0, float(sm_pm.tau2))
+    pm_check = pm_direct(y, v)
+    # statsmodels' Paule-Mandel iteration stops at 0 when a step overshoots (it then
+    # reports no convergence); use it only when it reached the root.
+    sm_pm_reached = not (pm == 0.0 and q_gen(y, v, 0.0) > k - 1)
+    if sm_pm_reached:
+        assert abs(pm - pm_check) < 1e-8 * max(1.0, pm), (pm, pm_check)
+    w = 1 / v
+    q = np.sum(w * (y - np.sum(w * y) / np.sum(w)) ** 2)
+    dl_check = max(0.0, (q - (k - 1)) / (np.sum(w) - np.sum(w**2) / np.sum(w)))
+    assert abs(dl - dl_check) < 1e-12 * max(1.0, dl)
+    he = max(0.0, float(np.sum((y - y.mean()) ** 2) / (k - 1) - v.mean()))
+    t0 = float(np.sum((y - y.mean()) ** 2) / k)
+    sj = float(t0 * q_gen(y, v, t0) / (k - 1)) if t0 > 0 else 0.0
+    for est, tau2 in [("reml", reml), ("ml", ml), ("dl", dl), ("pm", pm_check), ("sj", sj),
+                      ("he", he)]:
+        out["estimators"][est] = summarize(y, v, float(tau2), level)
+    # statsmodels' own random-effects mean and HKSJ SE for DL and PM, as given.
+    # (A negative untruncated DL value makes statsmodels' SEs undefined: stored as null.)
+    with np.errstate(invalid="ignore"):
+        out["statsmodels"] = {
+            "dl": {"estimate": num(sm_dl.mean_effect_re), "se": num(sm_dl.sd_eff_w_re),
+                   "se_kh": num(np.sqrt(sm_dl.var_hksj_re)), "tau2_untruncated": num(sm_dl.tau2)},
+            "pm": {"estimate": num(sm_pm.mean_effect_re), "se": num(sm_pm.sd_eff_w_re),
+                   "se_kh": num(np.sqrt(sm_pm.var_hksj_re)), "tau2": num(sm_pm.tau2),
+                   "reached_root": sm_pm_reached},
+        }
+    out["tau2_ci"] = [float(x) for x in q_profile(y, v, level)]
+    out["common"] = summarize(y, v, 0.0, level)
+    return out
+
+
+def bcg():
+    here = os.path.dirname(os.path.abspath(__file__))
+    path = os.path.join(here, "..", "data", "bcg-trials.csv")
+    rows = [line.strip().split(",") for line in open(path, encoding="utf-8")][1:]
+    a, b, c, d = (np.array([float(r[i]) for r in rows]) for i in (2, 3, 4, 5))
+    lrr = np.log((a / (a + b)) / (c / (c + d)))
+    vrr = 1 / a - 1 / (a + b) + 1 / c - 1 / (c + d)
+    lor = np.log(a * d / (b * c))
+    vor = 1 / a + 1 / b + 1 / c + 1 / d
+    return lrr, vrr, lor, vor
+
+
+def bonett_sheet(rng, k, tau, n_lo, n_hi):
+    """Alpha coefficients drawn around a true value on the Bonett scale."""
+    items = rng.choice([4, 6, 8, 10, 12], size=k)
+    n = rng.integers(n_lo, n_hi, size=k)
+    var = 2 * items / ((items - 1) * (n - 2))
+    theta = math.log(1 - 0.82) + tau * rng.standard_normal(k)
+    y = theta + np.sqrt(var) * rng.standard_normal(k)
+    return y, var
+
+
+def pool_fixture():
+    rng = np.random.default_rng(20261201)
+    lrr, vrr, lor, vor = bcg()
+    cases = [
+        pool_case("bcg_log_rr", lrr, vrr, 0.95,
+                  "Colditz et al. (1994) JAMA 271:698-702, 13 BCG trials; log risk ratios"),
+        pool_case("bcg_log_or", lor, vor, 0.95,
+                  "Colditz et al. (1994) JAMA 271:698-702, 13 BCG trials; log odds ratios"),
+        pool_case("bcg_log_rr_90", lrr, vrr, 0.90, "as bcg_log_rr at the 90% level"),
+    ]
+    for k, tau, lo, hi, level in [(3, 0.3, 40, 400, 0.95), (5, 0.0, 50, 300, 0.95),
+                                  (10, 0.2, 30, 600, 0.95), (40, 0.25, 60, 900, 0.99),
+                                  (250, 0.15, 50, 2000, 0.95)]:
+        y, v = bonett_sheet(rng, k, tau, lo, hi)
+        cases.append(pool_case(f"bonett_k{k}_tau{tau}", y, v, level,
+                               "numpy draws on the Bonett scale (seed 20261201)"))
+    # Effects identical up to rounding: every estimator at or next to zero.
+    cases.append(pool_case("homogeneous", [0.4, 0.41, 0.39, 0.4, 0.405],
+                           [0.01, 0.02, 0.015, 0.03, 0.01], 0.95, "hand-made, nearly equal"))
+    return {"made_by": stamp(), "cases": cases}
+
+
+# ---------------------------------------------------------------- transforms
+def simulate_alpha(rng, k, n, alpha, reps):
+    c = alpha / (k - alpha * (k - 1))  # common covariance of unit-variance items
+    out = np.empty(reps)
+    for start in range(0, reps, 2000):
+        m = min(2000, reps - start)
+        f = rng.standard_normal((m, n, 1)) * math.sqrt(c)
+        e = rng.standard_normal((m, n, k)) * math.sqrt(1 - c)
+        x = f + e
+        item_var = x.var(axis=1, ddof=1).sum(axis=1)
+        total_var = x.sum(axis=2).var(axis=1, ddof=1)
+        out[start:start + m] = k / (k - 1) * (1 - item_var / total_var)
+    return out
+
+
+def transform_fixture():
+    rng = np.random.default_rng(7321)
+    reps = 20000
+    cases = []
+    for k, n, alpha in [(6, 50, 0.8), (6, 200, 0.8), (10, 100, 0.6), (4, 300, 0.9)]:
+        a = simulate_alpha(rng, k, n, alpha, reps)
+        series = {"bonett": np.log(1 - a), "hakstian_whalen": np.cbrt(1 - a), "raw": a}
+        entry = {"k": k, "n": n, "alpha": alpha, "reps": reps, "mean_alpha": float(a.mean()),
+                 "variance": {}}
+        for name, s in series.items():
+            var = float(s.var(ddof=1))
+            # Standard error of a sample variance: sqrt(mu4/R - var^2 (R-3)/(R(R-1))).
+            mu4 = float(np.mean((s - s.mean()) ** 4))
+            se = math.sqrt(max(mu4 / reps - var**2 * (reps - 3) / (reps * (reps - 1)), 0.0))
+            entry["variance"][name] = {"empirical": var, "mc_se": se}
+        cases.append(entry)
+    corr = []
+    for n, rho in [(30, 0.7), (100, 0.85), (12, 0.5)]:
+        x = rng.standard_normal((reps, n))
+        y = rho * x + math.sqrt(1 - rho**2) * rng.standard_normal((reps, n))
+        xc = x - x.mean(axis=1, keepdims=True)
+        yc = y - y.mean(axis=1, keepdims=True)
+        r = (xc * yc).sum(axis=1) / np.sqrt((xc**2).sum(axis=1) * (yc**2).sum(axis=1))
+        z = np.arctanh(r)
+        var = float(z.var(ddof=1))
+        mu4 = float(np.mean((z - z.mean()) ** 4))
+        se = math.sqrt(max(mu4 / reps - var**2 * (reps - 3) / (reps * (reps - 1)), 0.0))
+        corr.append({"n": n, "rho": rho, "reps": reps,
+                     "fisher_z": {"empirical": var, "mc_se": se}})
+    return {"made_by": stamp(), "alpha_cases": cases, "correlation_cases": corr}
+
+
+def main():
+    here = os.path.dirname(os.path.abspath(__file__))
+    out_dir = sys.argv[1] if len(sys.argv) > 1 else os.path.join(here, "fixtures")
+    os.makedirs(out_dir, exist_ok=True)
+    for name, make in [("quantiles.json", quantile_fixture), ("pool.json", pool_fixture),
+                       ("transforms.json", transform_fixture)]:
+        with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
+            json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
+            fh.write("\n")
+        print(f"wrote {os.path.join(out_dir, name)}")
+
+
+if __name__ == "__main__":
+    main()
