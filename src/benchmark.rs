@@ -12,7 +12,7 @@ use crate::warning::Warning;
 use std::collections::BTreeMap;
 
 /// Options of a benchmark run.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub struct BenchmarkOptions {
     /// The transform; chosen from the coefficient types when `None`.
     pub transform: Option<TransformKind>,
@@ -22,17 +22,6 @@ pub struct BenchmarkOptions {
     pub skip_invalid: bool,
     /// The pooling model.
     pub pool: PoolOptions,
-}
-
-impl Default for BenchmarkOptions {
-    fn default() -> Self {
-        BenchmarkOptions {
-            transform: None,
-            allow_mixed_types: false,
-            skip_invalid: false,
-            pool: PoolOptions::default(),
-        }
-    }
 }
 
 /// One pooled study.
@@ -171,11 +160,24 @@ pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark
             count: skipped.len(),
         });
     }
-    if usable.is_empty() {
+    if usable.len() < 2 && !skipped.is_empty() {
+        let listed: Vec<String> = skipped
+            .iter()
+            .map(|s| {
+                format!(
+                    "\n  {}: row {}: {}",
+                    sheet.file,
+                    s.row,
+                    s.reasons.join("; ")
+                )
+            })
+            .collect();
         return Err(Error::CannotAnalyse(format!(
-            "{}: no row could be used ({} row(s) had problems), so there is nothing to pool",
+            "{}: only {} row(s) could be used, and a benchmark needs at least two; these rows \
+             were left out:{}",
             sheet.file,
-            skipped.len()
+            usable.len(),
+            listed.concat()
         )));
     }
 

@@ -37,6 +37,15 @@ pub enum Warning {
     },
     /// The common-effect model assumes no between-study variation.
     CommonEffectAssumed,
+    /// The common-effect model was chosen although Q rejects it.
+    CommonEffectContradicted {
+        /// Cochran's Q.
+        q: f64,
+        /// Its degrees of freedom.
+        df: f64,
+        /// Its p value.
+        p: f64,
+    },
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
         /// Spreadsheet rows.
@@ -89,6 +98,7 @@ impl Warning {
             Warning::NotConverged { .. } => "not_converged",
             Warning::IntervalCapped { .. } => "interval_capped",
             Warning::CommonEffectAssumed => "common_effect_assumed",
+            Warning::CommonEffectContradicted { .. } => "common_effect_contradicted",
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
             Warning::DuplicateLabel { .. } => "duplicate_label",
             Warning::RowsSkipped { .. } => "rows_skipped",
@@ -153,6 +163,13 @@ impl fmt::Display for Warning {
                 "the common-effect model assumes that every study estimates the same true \
                  coefficient; its intervals ignore between-study variation, so the expected \
                  range for a new setting is too narrow unless that assumption holds"
+            ),
+            Warning::CommonEffectContradicted { q, df, p } => write!(
+                f,
+                "Cochran's Q ({q:.2} on {df} df, p {}) rejects the common-effect model's \
+                 assumption of one true value; use a random-effects model (e.g. --tau2 reml) \
+                 for a benchmark",
+                crate::report::format::p_value(*p)
             ),
             Warning::NegativeCoefficients { rows } => write!(
                 f,

@@ -22,6 +22,10 @@ use std::str::FromStr;
 /// source: a handful of studies says little about between-study variance).
 pub const FEW_STUDIES: usize = 5;
 
+/// Below this p value of Cochran's Q a common-effect run draws a warning (the
+/// conventional 0.05; common practice, no source).
+pub const COMMON_EFFECT_REJECTED: f64 = 0.05;
+
 /// Common-effect or random-effects model.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Model {
@@ -275,6 +279,13 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
     };
     if options.model == Model::Common {
         warnings.push(Warning::CommonEffectAssumed);
+        if het.p < COMMON_EFFECT_REJECTED {
+            warnings.push(Warning::CommonEffectContradicted {
+                q: het.q,
+                df: het.df,
+                p: het.p,
+            });
+        }
     }
 
     let fit = data.fit_at(tau2.tau2)?;

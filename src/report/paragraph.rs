@@ -70,11 +70,18 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     } else {
         String::new()
     };
-    s.push_str(&format!(
-        "We judged the reliability of {measure} against a benchmark built from k = {} prior \
-         administrations{n_part}. ",
-        p.k
-    ));
+    if on_coef {
+        s.push_str(&format!(
+            "We judged the reliability of {measure} against a benchmark built from k = {} prior \
+             administrations{n_part}. ",
+            p.k
+        ));
+    } else {
+        s.push_str(&format!(
+            "We pooled the effects of k = {} studies{n_part}. ",
+            p.k
+        ));
+    }
     let transform_part = match b.transform {
         TransformKind::Bonett => {
             refs.push(REF_BONETT);
@@ -108,8 +115,9 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             });
             format!(
                 "pooled in a random-effects model, with the between-study variance (τ²) \
-                 estimated by {} ({})",
+                 estimated by {} ({}; {})",
                 e.label(),
+                e.abbreviation(),
                 e.citation()
             )
         }
@@ -145,7 +153,7 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     }
     match opts.model {
         Model::Common => s.push_str(&format!(
-            "Cochran's Q was {} on {} df (I² = {}%). ",
+            "Cochran's Q was {} on {} df (I² = {}% [Higgins & Thompson, 2002]). ",
             fixed(p.heterogeneity.q, 2),
             p.heterogeneity.df,
             fixed(p.i2, 0)
@@ -170,13 +178,13 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             if p.tau2.at_zero {
                 s.push_str(&format!(
                     "The {what} varied no more than sampling error would predict (τ² = 0{ci}; \
-                     I² = 0%), so the expected range below reflects mainly the uncertainty of \
+                     I² = 0% [Higgins & Thompson, 2002]), so the expected range below reflects mainly the uncertainty of \
                      the pooled value. "
                 ));
             } else {
                 s.push_str(&format!(
                     "The {what} varied between studies beyond sampling error (τ² = {}{scale}{ci}; \
-                     I² = {}%). ",
+                     I² = {}% [Higgins & Thompson, 2002]). ",
                     significant(p.tau2.tau2, 2),
                     fixed(p.i2, 0)
                 ));
@@ -188,14 +196,41 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
         _ => None,
     };
+    let of_measure = if on_coef {
+        format!(" of {measure}")
+    } else {
+        String::new()
+    };
+    let article = if on_coef { "a" } else { "an" };
+    if opts.model == Model::Common {
+        let rejected = if p.heterogeneity.p < crate::pool::COMMON_EFFECT_REJECTED {
+            format!(
+                ", and Cochran's Q test rejects that assumption (p {}), so a random-effects \
+                 benchmark is advisable",
+                super::format::p_value(p.heterogeneity.p)
+            )
+        } else {
+            String::new()
+        };
+        s.push_str(&format!(
+            "Because the common-effect model assumes no between-study variation, it states no \
+             expected range for a new setting beyond the uncertainty of the pooled {noun}{rejected}."
+        ));
+        refs.sort_unstable();
+        refs.dedup();
+        return Paragraph {
+            text: s,
+            references: refs.into_iter().map(str::to_string).collect(),
+        };
+    }
     match pi {
         Some((lo, hi)) => {
             refs.push(REF_HTS);
             s.push_str(&format!(
                 "The {level} prediction interval (Higgins, Thompson, & Spiegelhalter, 2009) \
-                 indicates that the true {noun} of {measure} in a new, comparable setting can be \
-                 expected to lie between {lo} and {hi}; a {noun} observed in a single new sample \
-                 will vary somewhat more because of that sample's own sampling error."
+                 indicates that the true {noun}{of_measure} in a new, comparable setting can be \
+                 expected to lie between {lo} and {hi}; {article} {noun} observed in a single new \
+                 sample will vary somewhat more because of that sample's own sampling error."
             ));
         }
         None => s.push_str(

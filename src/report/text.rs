@@ -20,7 +20,11 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
     let mut o = String::new();
     let rule = "─".repeat(WIDTH.min(72));
 
-    let _ = writeln!(o, "Reliability benchmark from {} coded studies", p.k);
+    if b.coefficient.is_some() {
+        let _ = writeln!(o, "Reliability benchmark from {} coded studies", p.k);
+    } else {
+        let _ = writeln!(o, "Pooled effects from {} studies", p.k);
+    }
     let _ = writeln!(o, "{rule}");
     let _ = writeln!(
         o,
@@ -44,12 +48,19 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
     } else {
         " (default for these coefficients)"
     };
-    let _ = writeln!(
-        o,
-        "  scale         {}: {}{chosen}",
-        b.transform.label(),
-        tr.formula()
-    );
+    if b.transform == crate::transform::TransformKind::None {
+        let _ = writeln!(
+            o,
+            "  scale         as given: coef holds the effect, var its sampling variance"
+        );
+    } else {
+        let _ = writeln!(
+            o,
+            "  scale         {}: {}{chosen}",
+            b.transform.label(),
+            tr.formula()
+        );
+    }
     let model = match opts.model {
         Model::Common => "common effect (τ² = 0 assumed)".to_string(),
         Model::Random(e) => {
@@ -60,7 +71,11 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
                     format!("NOT converged after {} iterations", p.tau2.iterations)
                 }
             };
-            format!("random effects; τ² by {} ({how})", e.label())
+            format!(
+                "random effects; τ² by {} ({}), {how}",
+                e.label(),
+                e.abbreviation()
+            )
         }
     };
     let _ = writeln!(o, "  model         {model}");
@@ -94,10 +109,10 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
     };
     let _ = writeln!(
         o,
-        "  {:<28}{:<22}{}",
+        "  {:<28}{:<22}transformed ({})",
         "",
         head_coef,
-        format!("transformed ({})", b.transform.name())
+        b.transform.name()
     );
     let t = |x: f64| significant_fixed(x);
     let coef = b.coefficient;

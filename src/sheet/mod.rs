@@ -106,7 +106,15 @@ fn column_label(columns: &BTreeMap<Role, String>, role: Role) -> String {
 /// Read and check a coding sheet from a file.
 pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSheet> {
     let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| Error::io(format!("reading {file}"), e))?;
+    let bytes = std::fs::read(path).map_err(|e| match e.kind() {
+        std::io::ErrorKind::NotFound => Error::InvalidOption(format!(
+            "{file}: no such file; check the path of the coding sheet"
+        )),
+        _ if path.is_dir() => Error::InvalidOption(format!(
+            "{file} is a folder; give the path of the coding sheet itself"
+        )),
+        _ => Error::io(format!("reading {file}"), e),
+    })?;
     parse_coding_sheet(&file, &bytes, options)
 }
 
@@ -332,18 +340,18 @@ impl Layout {
         }
         let mut orphans = Vec::new();
         for &i in &self.unnamed {
-            if let Some(s) = text(i, format!("{} (unnamed)", i + 1)) {
-                if !s.trim().is_empty() {
-                    orphans.push(CellProblem::cell(
-                        row,
-                        format!("{} (unnamed)", i + 1),
-                        format!(
-                            "the cell holds {} but its column has no name in the header; name \
-                             the column so the value is not lost",
-                            cells::quote(&s)
-                        ),
-                    ));
-                }
+            if let Some(s) = text(i, format!("{} (unnamed)", i + 1))
+                && !s.trim().is_empty()
+            {
+                orphans.push(CellProblem::cell(
+                    row,
+                    format!("{} (unnamed)", i + 1),
+                    format!(
+                        "the cell holds {} but its column has no name in the header; name \
+                         the column so the value is not lost",
+                        cells::quote(&s)
+                    ),
+                ));
             }
         }
         problems.append(&mut orphans);
@@ -456,13 +464,13 @@ impl Layout {
         };
         let scale_min = number(Role::ScaleMin, &min_s);
         let scale_max = number(Role::ScaleMax, &max_s);
-        if let (Some(lo), Some(hi)) = (scale_min, scale_max) {
-            if lo >= hi {
-                push(
-                    Role::ScaleMax,
-                    format!("the scale maximum ({hi}) must be above the minimum ({lo})"),
-                );
-            }
+        if let (Some(lo), Some(hi)) = (scale_min, scale_max)
+            && lo >= hi
+        {
+            push(
+                Role::ScaleMax,
+                format!("the scale maximum ({hi}) must be above the minimum ({lo})"),
+            );
         }
 
         if !problems.is_empty() {

@@ -292,7 +292,7 @@ fn check_alpha_type(s: &StudyInput) -> Vec<Unmet> {
 
 fn check_below_one(coef: f64, out: &mut Vec<Unmet>) {
     if coef >= 1.0 {
-        let hint = if (1.0..=100.0).contains(&coef) && coef > 1.0 {
+        let hint = if (10.0..=100.0).contains(&coef) {
             " (if the sheet holds percentages, divide them by 100)"
         } else {
             ""

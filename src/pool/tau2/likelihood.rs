@@ -51,7 +51,7 @@ pub(super) fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Resu
     let mut ll = log_lik(d, &fit, tau2, restricted);
     for it in 1..=TAU2_MAX_ITERATIONS {
         let (score, info) = score_and_information(d, &fit, restricted);
-        if !(info > 0.0) || !score.is_finite() {
+        if info.is_nan() || info <= 0.0 || !score.is_finite() {
             return Err(Error::Numerical(format!(
                 "the τ² likelihood could not be evaluated at τ² = {tau2} (information {info})"
             )));

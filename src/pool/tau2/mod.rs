@@ -66,12 +66,24 @@ impl Tau2Estimator {
     /// Full name for reports.
     pub fn label(self) -> &'static str {
         match self {
-            Tau2Estimator::Reml => "restricted maximum likelihood (REML)",
-            Tau2Estimator::Ml => "maximum likelihood (ML)",
-            Tau2Estimator::Dl => "DerSimonian–Laird (DL)",
-            Tau2Estimator::Pm => "Paule–Mandel (PM)",
-            Tau2Estimator::Sj => "Sidik–Jonkman (SJ)",
-            Tau2Estimator::He => "Hedges' method of moments (HE)",
+            Tau2Estimator::Reml => "restricted maximum likelihood",
+            Tau2Estimator::Ml => "maximum likelihood",
+            Tau2Estimator::Dl => "the DerSimonian–Laird method",
+            Tau2Estimator::Pm => "the Paule–Mandel method",
+            Tau2Estimator::Sj => "the Sidik–Jonkman method",
+            Tau2Estimator::He => "Hedges' unweighted method of moments",
+        }
+    }
+
+    /// Abbreviation for reports.
+    pub fn abbreviation(self) -> &'static str {
+        match self {
+            Tau2Estimator::Reml => "REML",
+            Tau2Estimator::Ml => "ML",
+            Tau2Estimator::Dl => "DL",
+            Tau2Estimator::Pm => "PM",
+            Tau2Estimator::Sj => "SJ",
+            Tau2Estimator::He => "HE",
         }
     }
 
