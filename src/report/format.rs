@@ -41,6 +41,11 @@ pub fn significant(x: f64, sig: usize) -> String {
     fixed(x, decimals)
 }
 
+/// "lower to upper" with each end formatted by `f`.
+pub fn range(lower: f64, upper: f64, f: impl Fn(f64) -> String) -> String {
+    format!("{} to {}", f(lower), f(upper))
+}
+
 /// A p value: "< 0.001" below that, else three decimals.
 pub fn p_value(p: f64) -> String {
     if p < 0.001 {

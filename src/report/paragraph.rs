@@ -1,6 +1,6 @@
 //! The plain-language paragraph a researcher can adapt for a paper, with references.
 
-use super::format::{fixed, percent_level, significant, thousands};
+use super::format::{fixed, percent_level, range, significant, thousands};
 use crate::benchmark::{Benchmark, describe_types};
 use crate::pool::{CiMethod, Model, Tau2Estimator};
 use crate::transform::TransformKind;
@@ -163,11 +163,8 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             let ci = p
                 .tau2_ci
                 .map(|t| {
-                    format!(
-                        ", {level} CI {} to {} by the Q-profile method [Viechtbauer, 2007]",
-                        significant(t.lower, 2),
-                        significant(t.upper, 2)
-                    )
+                    let r = range(t.lower, t.upper, |x| significant(x, 2));
+                    format!(", {level} CI {r} by the Q-profile method [Viechtbauer, 2007]")
                 })
                 .unwrap_or_default();
             let scale = if b.transform == TransformKind::None || b.transform == TransformKind::Raw {
@@ -216,12 +213,7 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             "Because the common-effect model assumes no between-study variation, it states no \
              expected range for a new setting beyond the uncertainty of the pooled {noun}{rejected}."
         ));
-        refs.sort_unstable();
-        refs.dedup();
-        return Paragraph {
-            text: s,
-            references: refs.into_iter().map(str::to_string).collect(),
-        };
+        return finish(s, refs);
     }
     match pi {
         Some((lo, hi)) => {
@@ -238,10 +230,14 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
              no expected range for a new setting.",
         ),
     }
+    finish(s, refs)
+}
+
+fn finish(text: String, mut refs: Vec<&str>) -> Paragraph {
     refs.sort_unstable();
     refs.dedup();
     Paragraph {
-        text: s,
+        text,
         references: refs.into_iter().map(str::to_string).collect(),
     }
 }

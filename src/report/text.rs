@@ -1,7 +1,7 @@
 //! The readable summary printed by `relyard pool`.
 
 use super::INDIVIDUAL_DECISIONS_CAUTION;
-use super::format::{fixed, p_value, percent_level, significant, thousands, wrap};
+use super::format::{fixed, p_value, percent_level, range, significant, thousands, wrap};
 use super::paragraph::Paragraph;
 use crate::benchmark::{Benchmark, describe_types};
 use crate::pool::{CiMethod, Model, Prediction, Termination};
@@ -163,16 +163,13 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
             let ci = p
                 .tau2_ci
                 .map(|c| {
-                    format!(
-                        "   {level} CI {} to {} (Q-profile){}",
-                        significant(c.lower, 3),
-                        significant(c.upper, 3),
-                        if c.upper_at_zero {
-                            "; both ends at 0"
-                        } else {
-                            ""
-                        }
-                    )
+                    let zero = if c.upper_at_zero {
+                        "; both ends at 0"
+                    } else {
+                        ""
+                    };
+                    let r = range(c.lower, c.upper, |x| significant(x, 3));
+                    format!("   {level} CI {r} (Q-profile){zero}")
                 })
                 .unwrap_or_default();
             let _ = writeln!(o, "    τ²  {}{ci}", significant(p.tau2.tau2, 3));
@@ -181,9 +178,8 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
                 .i2_ci
                 .map(|c| {
                     format!(
-                        "   {level} CI {}% to {}%",
-                        fixed(c.lower, 1),
-                        fixed(c.upper, 1)
+                        "   {level} CI {}",
+                        range(c.lower, c.upper, |x| fixed(x, 1) + "%")
                     )
                 })
                 .unwrap_or_default();

@@ -27,14 +27,7 @@ pub fn dictionary(extra: &[String]) -> String {
             r.when_needed().to_string(),
             r.allowed(),
         ];
-        out.push_str(
-            &fields
-                .iter()
-                .map(|f| csv_field(f))
-                .collect::<Vec<_>>()
-                .join(","),
-        );
-        out.push('\n');
+        push_row(&mut out, &fields);
     }
     for e in extra {
         let fields = [
@@ -46,14 +39,7 @@ pub fn dictionary(extra: &[String]) -> String {
             "optional".to_string(),
             "any; empty, NA or . for unknown".to_string(),
         ];
-        out.push_str(
-            &fields
-                .iter()
-                .map(|f| csv_field(f))
-                .collect::<Vec<_>>()
-                .join(","),
-        );
-        out.push('\n');
+        push_row(&mut out, &fields);
     }
     out.push_str(&csv_field(&format!(
         "note: coef_type {} and {} are correlation-type coefficients (pooled with fisher-z); \
@@ -64,6 +50,12 @@ pub fn dictionary(extra: &[String]) -> String {
     )));
     out.push_str(",,,,\n");
     out
+}
+
+fn push_row(out: &mut String, fields: &[String]) {
+    let cells: Vec<String> = fields.iter().map(|f| csv_field(f)).collect();
+    out.push_str(&cells.join(","));
+    out.push('\n');
 }
 
 /// Quote a CSV field when needed, and neutralize text a spreadsheet would run as a

@@ -110,3 +110,13 @@ pub fn bcg_log_or() -> (Vec<f64>, Vec<f64>) {
         })
         .unzip()
 }
+
+/// The warning codes of a JSON document.
+pub fn warning_codes(j: &serde_json::Value) -> Vec<String> {
+    j["warnings"]
+        .as_array()
+        .expect("warnings is an array")
+        .iter()
+        .map(|w| w["code"].as_str().expect("a code").to_string())
+        .collect()
+}
