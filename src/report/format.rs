@@ -70,12 +70,9 @@ pub fn thousands(n: u64) -> String {
 
 /// A level such as 0.95 as "95%".
 pub fn percent_level(level: f64) -> String {
-    let pct = level * 100.0;
-    if (pct - pct.round()).abs() < 1e-9 {
-        format!("{}%", pct.round())
-    } else {
-        format!("{}%", significant(pct, 4))
-    }
+    let pct = format!("{:.4}", level * 100.0);
+    let trimmed = pct.trim_end_matches('0').trim_end_matches('.');
+    format!("{trimmed}%")
 }
 
 /// Wrap text at `width` columns with a prefix on every line.
