@@ -91,8 +91,79 @@ pub struct Benchmark {
     pub warnings: Vec<Warning>,
 }
 
-/// Build a benchmark from a coding sheet.
-pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark> {
+/// The studies of a coding sheet, checked against the transform and put on its scale.
+#[derive(Debug, Clone)]
+pub struct Prepared {
+    /// The sheet's file name.
+    pub file: String,
+    /// The sheet's delimiter.
+    pub delimiter: u8,
+    /// Names of the sheet's other (moderator) columns.
+    pub extra_columns: Vec<String>,
+    /// Header name of each standard column present.
+    pub columns: BTreeMap<Role, String>,
+    /// Transform used.
+    pub transform: TransformKind,
+    /// Whether the transform was chosen by the user.
+    pub transform_chosen: bool,
+    /// The usable studies, in sheet order.
+    pub records: Vec<StudyRecord>,
+    /// Their values on the analysis scale.
+    pub y: Vec<f64>,
+    /// Their sampling variances on the analysis scale.
+    pub v: Vec<f64>,
+    /// Rows left out, in sheet order.
+    pub skipped: Vec<SkippedRow>,
+    /// Non-empty data rows in the sheet.
+    pub rows_read: usize,
+    /// Sheet-level warnings.
+    pub warnings: Vec<Warning>,
+}
+
+impl Prepared {
+    /// The same sheet restricted to the studies at `indices` (in that order).
+    pub fn subset(&self, indices: &[usize]) -> Prepared {
+        Prepared {
+            records: indices.iter().map(|&i| self.records[i].clone()).collect(),
+            y: indices.iter().map(|&i| self.y[i]).collect(),
+            v: indices.iter().map(|&i| self.v[i]).collect(),
+            warnings: Vec::new(),
+            ..self.clone_shell()
+        }
+    }
+
+    fn clone_shell(&self) -> Prepared {
+        Prepared {
+            file: self.file.clone(),
+            delimiter: self.delimiter,
+            extra_columns: self.extra_columns.clone(),
+            columns: self.columns.clone(),
+            transform: self.transform,
+            transform_chosen: self.transform_chosen,
+            records: Vec::new(),
+            y: Vec::new(),
+            v: Vec::new(),
+            skipped: self.skipped.clone(),
+            rows_read: self.rows_read,
+            warnings: Vec::new(),
+        }
+    }
+
+    /// The column label used in messages for a standard column.
+    pub fn column_label(&self, role: Role) -> String {
+        match self.columns.get(&role) {
+            Some(h) if h != role.name() => format!("{h} (used as {role})"),
+            Some(h) => h.clone(),
+            None => role.name().to_string(),
+        }
+    }
+}
+
+/// Check a coding sheet against the transform and put every usable study on its scale.
+///
+/// Fails, listing every problem, unless `skip_invalid` is set; fails also when fewer than
+/// two studies remain.
+pub fn prepare(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepared> {
     let mut warnings = Vec::new();
     let (transform, transform_chosen) = choose_transform(&sheet, options, &mut warnings)?;
     let tr = transform.get();
@@ -186,7 +257,45 @@ pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark
     let inputs: Vec<StudyInput> = usable.iter().map(study_input).collect();
     let y: Vec<f64> = inputs.iter().map(|s| tr.effect(s).0).collect();
     let v: Vec<f64> = inputs.iter().map(|s| tr.variance(s)).collect();
-    let pooled = pool(&y, &v, &options.pool)?;
+    Ok(Prepared {
+        file: sheet.file.clone(),
+        delimiter: sheet.delimiter,
+        extra_columns: sheet.extra_columns.clone(),
+        columns: sheet.columns.clone(),
+        transform,
+        transform_chosen,
+        records: usable,
+        y,
+        v,
+        skipped,
+        rows_read: sheet.rows_read,
+        warnings,
+    })
+}
+
+/// Build a benchmark from a coding sheet.
+pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark> {
+    let prepared = prepare(sheet, options)?;
+    from_prepared(prepared, &options.pool)
+}
+
+/// Pool prepared studies into a benchmark.
+pub fn from_prepared(prepared: Prepared, options: &PoolOptions) -> Result<Benchmark> {
+    let Prepared {
+        file,
+        delimiter,
+        transform,
+        transform_chosen,
+        records: usable,
+        y,
+        v,
+        skipped,
+        rows_read,
+        mut warnings,
+        ..
+    } = prepared;
+    let tr = transform.get();
+    let pooled = pool(&y, &v, options)?;
     warnings.extend(pooled.warnings.iter().cloned());
 
     let coefficient = coefficient_scale(tr, &pooled, &mut warnings);
@@ -216,15 +325,15 @@ pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark
         .collect();
 
     Ok(Benchmark {
-        file: sheet.file.clone(),
-        delimiter: sheet.delimiter,
+        file,
+        delimiter,
         transform,
         transform_chosen,
         families,
         coef_types,
         studies,
         skipped,
-        rows_read: sheet.rows_read,
+        rows_read,
         n_total,
         n_missing,
         pool: pooled,
@@ -233,7 +342,8 @@ pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark
     })
 }
 
-fn study_input(r: &StudyRecord) -> StudyInput {
+/// What a transform needs to know about a study record.
+pub fn study_input(r: &StudyRecord) -> StudyInput {
     StudyInput {
         coef: r.coef,
         n: r.n.map(|n| n as f64),

@@ -11,8 +11,11 @@
 pub mod benchmark;
 pub mod dist;
 pub mod error;
+pub mod metareg;
 pub mod numeric;
+pub mod placement;
 pub mod pool;
+pub mod random;
 pub mod report;
 pub mod sheet;
 pub mod transform;

@@ -46,6 +46,22 @@ pub enum Warning {
         /// Its p value.
         p: f64,
     },
+    /// The τ² estimate lies outside its Q-profile interval.
+    Tau2OutsideInterval {
+        /// The estimate.
+        tau2: f64,
+        /// Interval lower end.
+        lower: f64,
+        /// Interval upper end.
+        upper: f64,
+    },
+    /// Studies were left out of a model (listed, not lost).
+    RowsLeftOutOfModel {
+        /// Spreadsheet rows.
+        rows: Vec<usize>,
+        /// Why.
+        why: String,
+    },
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
         /// Spreadsheet rows.
@@ -99,6 +115,8 @@ impl Warning {
             Warning::IntervalCapped { .. } => "interval_capped",
             Warning::CommonEffectAssumed => "common_effect_assumed",
             Warning::CommonEffectContradicted { .. } => "common_effect_contradicted",
+            Warning::Tau2OutsideInterval { .. } => "tau2_outside_interval",
+            Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
             Warning::DuplicateLabel { .. } => "duplicate_label",
             Warning::RowsSkipped { .. } => "rows_skipped",
@@ -170,6 +188,21 @@ impl fmt::Display for Warning {
                  assumption of one true value; use a random-effects model (e.g. --tau2 reml) \
                  for a benchmark",
                 crate::report::format::p_value(*p)
+            ),
+            Warning::Tau2OutsideInterval { tau2, lower, upper } => write!(
+                f,
+                "the τ² estimate ({}) lies outside its Q-profile interval ({} to {}); the \
+                 interval rests on the generalized Q statistic, the estimate on another \
+                 criterion (ML in particular is biased downwards with few studies); compare \
+                 with --tau2 reml or pm",
+                crate::report::format::significant(*tau2, 3),
+                crate::report::format::significant(*lower, 3),
+                crate::report::format::significant(*upper, 3)
+            ),
+            Warning::RowsLeftOutOfModel { rows, why } => write!(
+                f,
+                "{} left out of the model because {why}; they are listed with the results",
+                list_rows(rows)
             ),
             Warning::NegativeCoefficients { rows } => write!(
                 f,

@@ -3,15 +3,17 @@
 
 mod data;
 mod heterogeneity;
+mod model;
 mod qprofile;
 pub mod tau2;
 
 pub use data::MetaData;
+pub use model::{Coefficient, FitOptions, ModelFit, check_level, fit_model};
 pub use heterogeneity::Heterogeneity;
 pub use qprofile::{Tau2Interval, q_profile};
 pub use tau2::{Tau2Estimator, Tau2Fit, Termination};
 
-use crate::dist::{normal_quantile, normal_two_sided_p, t_quantile, t_two_sided_p};
+use crate::dist::t_quantile;
 use crate::error::{Error, Result};
 use crate::warning::Warning;
 use serde::Serialize;
@@ -223,12 +225,7 @@ pub struct PoolResult {
 /// random-effects meta-analysis. *Journal of the Royal Statistical Society, Series A*,
 /// 172(1), 137–159.
 pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
-    if !(options.level > 0.0 && options.level < 1.0) {
-        return Err(Error::InvalidOption(format!(
-            "the confidence level must lie strictly between 0 and 1 (got {})",
-            options.level
-        )));
-    }
+    model::check_level(options.level)?;
     let k = y.len();
     if k == 0 {
         return Err(Error::CannotAnalyse("there are no studies to pool".into()));
@@ -241,42 +238,26 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
         ));
     }
     let data = MetaData::intercept_only(y.to_vec(), v.to_vec())?;
-    let mut warnings = Vec::new();
-    let het = Heterogeneity::of(&data)?;
-
-    let (tau2, tau2_ci) = match options.model {
-        Model::Common => (
-            Tau2Fit {
-                tau2: 0.0,
-                iterations: 0,
-                termination: Termination::ClosedForm,
-                at_zero: true,
-            },
-            None,
-        ),
-        Model::Random(est) => {
-            let fit = est.estimate(&data)?;
-            if !fit.converged() {
-                warnings.push(Warning::NotConverged {
-                    what: format!("the {} estimate of τ²", est.name()),
-                    iterations: fit.iterations,
-                });
-            }
-            if fit.at_zero {
-                warnings.push(Warning::Tau2AtZero {
-                    estimator: est.label().to_string(),
-                });
-            }
-            let ci = q_profile(&data, options.level)?;
-            if !ci.converged {
-                warnings.push(Warning::NotConverged {
-                    what: "the Q-profile interval for τ²".into(),
-                    iterations: tau2::TAU2_MAX_ITERATIONS,
-                });
-            }
-            (fit, Some(ci))
-        }
-    };
+    let fit = fit_model(
+        &data,
+        &FitOptions {
+            model: options.model,
+            ci: options.ci,
+            level: options.level,
+            tau2_interval: true,
+        },
+    )?;
+    let mut warnings = fit.warnings.clone();
+    let het = fit.heterogeneity;
+    if let Some(ci) = fit.tau2_ci
+        && (fit.tau2.tau2 < ci.lower || fit.tau2.tau2 > ci.upper)
+    {
+        warnings.push(Warning::Tau2OutsideInterval {
+            tau2: fit.tau2.tau2,
+            lower: ci.lower,
+            upper: ci.upper,
+        });
+    }
     if options.model == Model::Common {
         warnings.push(Warning::CommonEffectAssumed);
         if het.p < COMMON_EFFECT_REJECTED {
@@ -287,59 +268,22 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
             });
         }
     }
-
-    let fit = data.fit_at(tau2.tau2)?;
-    let estimate = fit.beta[0];
-    let se_wald = fit.xtwx_inv[(0, 0)].sqrt();
-    let df = (k - 1) as f64;
-    let alpha = 1.0 - options.level;
-    let (se, kh_scale, ci, test) = match options.ci {
-        CiMethod::Wald => {
-            let z = normal_quantile(1.0 - alpha / 2.0);
-            let stat = estimate / se_wald;
-            (
-                se_wald,
-                None,
-                Interval::around(estimate, z * se_wald),
-                ZeroTest {
-                    statistic: stat,
-                    df: None,
-                    p: normal_two_sided_p(stat),
-                },
-            )
-        }
-        CiMethod::KnappHartung => {
-            let scale = fit.q / df;
-            let se = se_wald * scale.sqrt();
-            let t = t_quantile(1.0 - alpha / 2.0, df);
-            let stat = estimate / se;
-            (
-                se,
-                Some(scale),
-                Interval::around(estimate, t * se),
-                ZeroTest {
-                    statistic: stat,
-                    df: Some(df),
-                    p: t_two_sided_p(stat, df),
-                },
-            )
-        }
+    let c = fit.coefficients[0];
+    let test = ZeroTest {
+        statistic: c.statistic,
+        df: fit.df,
+        p: c.p,
     };
-
-    let (i2, h2) = match options.model {
-        Model::Common => (het.i2_from_q(), het.h2_from_q()),
-        Model::Random(_) => (het.i2(tau2.tau2), het.h2(tau2.tau2)),
-    };
-    let i2_ci = tau2_ci.map(|c| Interval {
-        lower: het.i2(c.lower),
-        upper: het.i2(c.upper),
+    let i2_ci = fit.tau2_ci.map(|t| Interval {
+        lower: het.i2(t.lower),
+        upper: het.i2(t.upper),
     });
-
     let prediction = if k >= 3 {
+        let alpha = 1.0 - options.level;
         let pdf = (k - 2) as f64;
         let t = t_quantile(1.0 - alpha / 2.0, pdf);
         Prediction::Available {
-            interval: Interval::around(estimate, t * (tau2.tau2 + se * se).sqrt()),
+            interval: Interval::around(c.estimate, t * (fit.tau2.tau2 + c.se * c.se).sqrt()),
             df: pdf,
         }
     } else {
@@ -349,24 +293,22 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
     if k < FEW_STUDIES {
         warnings.push(Warning::FewStudies { k });
     }
-
-    let total_w: f64 = fit.w.iter().sum();
-    let weights_percent = fit.w.iter().map(|w| 100.0 * w / total_w).collect();
-
+    let total_w: f64 = fit.weights.iter().sum();
+    let weights_percent = fit.weights.iter().map(|w| 100.0 * w / total_w).collect();
     Ok(PoolResult {
         k,
         options: *options,
-        estimate,
-        se,
-        se_wald,
-        kh_scale,
-        ci,
+        estimate: c.estimate,
+        se: c.se,
+        se_wald: fit.cov_wald[(0, 0)].sqrt(),
+        kh_scale: fit.kh_scale,
+        ci: c.ci,
         test,
-        tau2,
-        tau2_ci,
+        tau2: fit.tau2,
+        tau2_ci: fit.tau2_ci,
         heterogeneity: het,
-        i2,
-        h2,
+        i2: fit.i2,
+        h2: fit.h2,
         i2_ci,
         prediction,
         weights_percent,

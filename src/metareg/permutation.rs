@@ -1,0 +1,157 @@
+//! Permutation tests for meta-regression: the moderators are shuffled across studies
+//! (each study keeping its effect and variance), the model refitted, and the observed
+//! statistics compared with their permutation distribution.
+
+use super::{Explanation, omnibus};
+use crate::benchmark::Prepared;
+use crate::error::{Error, Result};
+use crate::pool::{FitOptions, MetaData, fit_model};
+use crate::random::stream;
+use rand::seq::SliceRandom;
+use rayon::prelude::*;
+
+/// Permutations handled between two progress reports.
+const CHUNK: usize = 64;
+
+/// What a permutation test found.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PermutationResult {
+    /// Permutations requested.
+    pub permutations: usize,
+    /// The seed.
+    pub seed: u64,
+    /// Permutations whose refit failed (left out of the p values).
+    pub failed: usize,
+    /// p value of the omnibus test.
+    pub omnibus_p: Option<f64>,
+    /// p value of each coefficient (`None` for the intercept, which permutation does not test).
+    pub coefficient_p: Vec<Option<f64>>,
+}
+
+#[derive(Default, Clone)]
+struct Tally {
+    done: usize,
+    failed: usize,
+    omnibus: usize,
+    coefficients: Vec<usize>,
+}
+
+impl Tally {
+    fn merge(mut self, other: Tally) -> Tally {
+        self.done += other.done;
+        self.failed += other.failed;
+        self.omnibus += other.omnibus;
+        if self.coefficients.is_empty() {
+            self.coefficients = other.coefficients;
+        } else {
+            for (a, b) in self.coefficients.iter_mut().zip(other.coefficients) {
+                *a += b;
+            }
+        }
+        self
+    }
+}
+
+/// Run `permutations` permutations with `seed`, in parallel; `progress` is called with the
+/// number of permutations finished since its last call.
+///
+/// p values are (b + 1)/(N + 1), with b the permutations whose statistic is at least as
+/// extreme as the observed one and N those that could be fitted.
+///
+/// # References
+/// Higgins, J. P. T., & Thompson, S. G. (2004). Controlling the risk of spurious findings
+/// from meta-regression. *Statistics in Medicine*, 23(11), 1663–1682.
+/// Phipson, B., & Smyth, G. K. (2010). Permutation p-values should never be zero.
+/// *Statistical Applications in Genetics and Molecular Biology*, 9(1), Article 39.
+pub fn permutation_test(
+    p: &Prepared,
+    ex: &Explanation,
+    permutations: usize,
+    seed: u64,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<PermutationResult> {
+    if permutations == 0 {
+        return Err(Error::InvalidOption("--permutations must be at least 1".into()));
+    }
+    let columns = ex.moderator_columns();
+    if columns.is_empty() {
+        return Err(Error::InvalidOption(
+            "a permutation test needs at least one moderator".into(),
+        ));
+    }
+    let data = ex.data(p)?;
+    let k = data.k();
+    let opts = FitOptions {
+        tau2_interval: false,
+        ..ex.fit.options
+    };
+    let obs_omnibus = ex.omnibus.map(|o| o.statistic).unwrap_or(f64::NAN);
+    let obs_coef: Vec<f64> = columns
+        .iter()
+        .map(|&j| ex.fit.coefficients[j].statistic.abs())
+        .collect();
+    let at_least = |stat: f64, obs: f64| stat >= obs - 1e-12 * obs.abs();
+
+    let n_chunks = permutations.div_ceil(CHUNK);
+    let tally = (0..n_chunks)
+        .into_par_iter()
+        .map(|c| {
+            let start = c * CHUNK;
+            let end = (start + CHUNK).min(permutations);
+            let mut t = Tally {
+                coefficients: vec![0; columns.len()],
+                ..Tally::default()
+            };
+            let mut order: Vec<usize> = (0..k).collect();
+            for b in start..end {
+                let mut rng = stream(seed, b as u64);
+                order.iter_mut().enumerate().for_each(|(i, o)| *o = i);
+                order.shuffle(&mut rng);
+                let mut x = data.x().clone();
+                for (i, &src) in order.iter().enumerate() {
+                    for &j in &columns {
+                        x[(i, j)] = data.x()[(src, j)];
+                    }
+                }
+                let refit = MetaData::with_design(data.y().to_vec(), data.v().to_vec(), x)
+                    .and_then(|d| fit_model(&d, &opts));
+                match refit {
+                    Ok(f) => {
+                        t.done += 1;
+                        if let Some(o) = omnibus(&f, &columns)
+                            && at_least(o.statistic, obs_omnibus)
+                        {
+                            t.omnibus += 1;
+                        }
+                        for (slot, (&j, &obs)) in columns.iter().zip(&obs_coef).enumerate() {
+                            if at_least(f.coefficients[j].statistic.abs(), obs) {
+                                t.coefficients[slot] += 1;
+                            }
+                        }
+                    }
+                    Err(_) => t.failed += 1,
+                }
+            }
+            progress(end - start);
+            t
+        })
+        .reduce(Tally::default, Tally::merge);
+
+    if tally.done == 0 {
+        return Err(Error::Numerical(
+            "no permuted data set could be fitted, so there is no permutation test".into(),
+        ));
+    }
+    let p_of = |count: usize| (count as f64 + 1.0) / (tally.done as f64 + 1.0);
+    let mut coefficient_p = vec![None; ex.fit.p];
+    for (slot, &j) in columns.iter().enumerate() {
+        coefficient_p[j] = Some(p_of(tally.coefficients[slot]));
+    }
+    Ok(PermutationResult {
+        permutations,
+        seed,
+        failed: tally.failed,
+        omnibus_p: Some(p_of(tally.omnibus)),
+        coefficient_p,
+    })
+}

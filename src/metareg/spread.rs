@@ -1,0 +1,416 @@
+//! Score spread: SDs put on one metric, and the score-variance test.
+//!
+//! A reliability coefficient is the share of observed-score variance that is true-score
+//! variance: 1 − ρ = σ²_E / σ²_X. With the error variance constant across samples,
+//! ln(1 − ρ) = ln σ²_E − 2 ln σ_X, so regressing the Bonett-transformed coefficient on
+//! ln(SD) gives slope −2 when the differences in reliability come wholly from the spread
+//! of scores, and slope 0 when the error variance grows with the total variance.
+
+use super::design::{ExcludedRow, ModeratorSpec, build_design, check_rank};
+use crate::benchmark::Prepared;
+use crate::error::{Error, Result};
+use crate::pool::{Coefficient, FitOptions, MetaData, Model, ModelFit, fit_model};
+use crate::sheet::{SdMetric, StudyRecord};
+use crate::transform::{CoefficientFamily, TransformKind};
+use nalgebra::DMatrix;
+use serde::Serialize;
+use std::fmt;
+use std::str::FromStr;
+
+/// The common metric SDs are put on.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum SpreadMetric {
+    /// SD of the mean item score (a sum-score SD divided by the number of items).
+    PerItem,
+    /// Percent of maximum possible: the per-item SD × 100 / (scale_max − scale_min).
+    Pomp,
+}
+
+impl SpreadMetric {
+    /// Command-line and JSON name.
+    pub fn name(self) -> &'static str {
+        match self {
+            SpreadMetric::PerItem => "per-item",
+            SpreadMetric::Pomp => "pomp",
+        }
+    }
+}
+
+impl fmt::Display for SpreadMetric {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+impl FromStr for SpreadMetric {
+    type Err = String;
+    fn from_str(s: &str) -> Result<Self, Self::Err> {
+        match s.trim().to_ascii_lowercase().as_str() {
+            "per-item" | "per_item" => Ok(SpreadMetric::PerItem),
+            "pomp" => Ok(SpreadMetric::Pomp),
+            _ => Err(format!("unknown SD metric \"{s}\" (choose per-item or pomp)")),
+        }
+    }
+}
+
+/// One study's SD on the common metrics, or why it cannot be converted.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HarmonizedSd {
+    /// SD of the mean item score.
+    pub per_item: Option<f64>,
+    /// SD in POMP units (0–100).
+    pub pomp: Option<f64>,
+    /// Why the SD could not be put on the per-item metric (or on POMP).
+    pub problem: Option<String>,
+}
+
+/// Put an SD on the per-item and POMP metrics.
+///
+/// per-item SD = SD (mean metric) or SD / items (sum metric);
+/// POMP SD = 100 × per-item SD / (scale_max − scale_min).
+///
+/// # References
+/// Cohen, P., Cohen, J., Aiken, L. S., & West, S. G. (1999). The problem of units and the
+/// circumstance for POMP. *Multivariate Behavioral Research*, 34(3), 315–346.
+pub fn harmonize(sd: Option<f64>, metric: Option<SdMetric>, items: Option<u32>, min: Option<f64>, max: Option<f64>) -> HarmonizedSd {
+    let fail = |why: &str| HarmonizedSd {
+        per_item: None,
+        pomp: None,
+        problem: Some(why.to_string()),
+    };
+    let Some(sd) = sd else {
+        return fail("no SD is reported");
+    };
+    let per_item = match metric {
+        None => return fail("sd_metric is missing, so it is unknown whether the SD is for sum or mean scores"),
+        Some(SdMetric::Mean) => sd,
+        Some(SdMetric::Sum) => match items {
+            Some(k) if k >= 1 => sd / f64::from(k),
+            _ => return fail("the SD is for sum scores but the number of items is missing"),
+        },
+    };
+    let (pomp, problem) = match (min, max) {
+        (Some(lo), Some(hi)) if hi > lo => (Some(100.0 * per_item / (hi - lo)), None),
+        _ => (None, Some("scale_min or scale_max is missing, so there is no POMP value".to_string())),
+    };
+    HarmonizedSd {
+        per_item: Some(per_item),
+        pomp,
+        problem,
+    }
+}
+
+/// Harmonize a study record's SD.
+pub fn harmonize_record(r: &StudyRecord) -> HarmonizedSd {
+    harmonize(r.sd, r.sd_metric, r.items, r.scale_min, r.scale_max)
+}
+
+/// The plain-language reading of the score-spread test.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SpreadReading {
+    /// The slope's interval excludes 0 and includes −2.
+    AccountsForMost,
+    /// The slope's interval excludes 0 and −2, with the slope between them.
+    AccountsForPart,
+    /// The slope is steeper than −2.
+    SteeperThanExpected,
+    /// The interval includes 0 but not −2.
+    DoesNotAccount,
+    /// The interval includes both 0 and −2.
+    Undecided,
+}
+
+impl SpreadReading {
+    /// The sentence for reports.
+    pub fn sentence(self) -> &'static str {
+        match self {
+            SpreadReading::AccountsForMost => {
+                "score spread accounts for most of the differences between samples: the slope \
+                 is consistent with a constant error variance (−2), so a sample with a narrower \
+                 spread of scores is expected to have a lower coefficient even when the \
+                 measurement is equally precise"
+            }
+            SpreadReading::AccountsForPart => {
+                "score spread accounts for part of the differences between samples: the slope \
+                 lies between 0 and −2, so error variance also differs between samples (or grows \
+                 with the spread of scores)"
+            }
+            SpreadReading::SteeperThanExpected => {
+                "coefficients fall with narrower score spread faster than a constant error \
+                 variance predicts (slope below −2): samples with narrow spread also measured \
+                 less precisely"
+            }
+            SpreadReading::DoesNotAccount => {
+                "score spread does not account for the differences between samples: the slope \
+                 is not distinguishable from 0 and differs from the −2 that a constant error \
+                 variance predicts"
+            }
+            SpreadReading::Undecided => {
+                "the data cannot tell whether score spread accounts for the differences between \
+                 samples: the slope's interval includes both 0 and −2 (too few studies, or too \
+                 little variation in SD)"
+            }
+        }
+    }
+}
+
+/// The score-variance test.
+#[derive(Debug, Clone)]
+pub struct ScoreSpread {
+    /// The SD metric used.
+    pub metric: SpreadMetric,
+    /// Spreadsheet rows in the model.
+    pub rows: Vec<usize>,
+    /// Rows left out (SD not convertible, or the Bonett scale not computable).
+    pub excluded: Vec<ExcludedRow>,
+    /// Names of the model's columns (intercept, ln_sd, other moderators).
+    pub names: Vec<String>,
+    /// The fit, on the Bonett scale.
+    pub fit: ModelFit,
+    /// The slope of ln(SD).
+    pub slope: Coefficient,
+    /// p value of slope = 0.
+    pub p_zero: f64,
+    /// Statistic of slope = −2.
+    pub statistic_minus_two: f64,
+    /// p value of slope = −2.
+    pub p_minus_two: f64,
+    /// τ² of the same model without ln(SD).
+    pub tau2_without: f64,
+    /// Share of that τ² explained by ln(SD), in percent (`None` when it is 0).
+    pub tau2_share: Option<f64>,
+    /// The plain-language reading.
+    pub reading: SpreadReading,
+    /// Median SD of the studies in the model, on the chosen metric.
+    pub typical_sd: f64,
+    /// The studies' SDs on the chosen metric, in model order.
+    pub sds: Vec<f64>,
+    /// The design of the other moderators over the studies with an SD (for predictions).
+    pub others: super::design::Design,
+}
+
+impl ScoreSpread {
+    /// Expected Bonett-scale value at an SD (other moderators at the given design values,
+    /// which follow the intercept and ln SD), with its variance.
+    pub fn predict(&self, sd: f64, others: &[f64]) -> (f64, f64) {
+        let mut x0 = vec![1.0, sd.ln()];
+        x0.extend_from_slice(others);
+        self.fit.predict(&x0)
+    }
+}
+
+/// Bonett-scale value and variance of a study, whatever the run's transform: for
+/// internal-consistency coefficients ln(1 − α) with 2J/((J − 1)(n − 2)); for
+/// correlation-type coefficients ln(1 − r) with the delta-method variance (1 + r)²/(n − 3).
+pub fn bonett_scale(r: &StudyRecord) -> std::result::Result<(f64, f64), String> {
+    if r.coef >= 1.0 {
+        return Err("the coefficient is not below 1".into());
+    }
+    let y = (-r.coef).ln_1p();
+    match r.coef_type.family() {
+        CoefficientFamily::InternalConsistency => match (r.n, r.items) {
+            (Some(n), Some(k)) if n >= 3 && k >= 2 => {
+                let (n, k) = (n as f64, f64::from(k));
+                Ok((y, 2.0 * k / ((k - 1.0) * (n - 2.0))))
+            }
+            _ => Err("the Bonett scale needs n ≥ 3 and at least 2 items".into()),
+        },
+        CoefficientFamily::Correlation => match r.n {
+            Some(n) if n >= 4 && r.coef > -1.0 => {
+                Ok((y, (1.0 + r.coef).powi(2) / (n as f64 - 3.0)))
+            }
+            _ => Err("the Bonett scale for a correlation needs n ≥ 4".into()),
+        },
+    }
+}
+
+/// Run the score-variance test: regress the Bonett-transformed coefficients on ln(SD)
+/// (SD on `metric`, or POMP when every usable study has a scale range, else per-item),
+/// with other moderators if given.
+pub fn score_spread(
+    p: &Prepared,
+    metric: Option<SpreadMetric>,
+    others: &[ModeratorSpec],
+    options: &FitOptions,
+) -> Result<ScoreSpread> {
+    if p.transform == TransformKind::None {
+        return Err(Error::InvalidOption(
+            "the score-spread test needs reliability coefficients; with --transform none the \
+             sheet holds effects of unknown kind"
+                .into(),
+        ));
+    }
+    let harmonized: Vec<HarmonizedSd> = p.records.iter().map(harmonize_record).collect();
+    let metric = metric.unwrap_or_else(|| {
+        let all_pomp = harmonized
+            .iter()
+            .filter(|h| h.per_item.is_some())
+            .all(|h| h.pomp.is_some());
+        if all_pomp { SpreadMetric::Pomp } else { SpreadMetric::PerItem }
+    });
+    let mut keep = Vec::new();
+    let mut excluded = Vec::new();
+    let mut bonett = Vec::new();
+    let mut sds = Vec::new();
+    for (i, (r, h)) in p.records.iter().zip(&harmonized).enumerate() {
+        let sd = match metric {
+            SpreadMetric::PerItem => h.per_item,
+            SpreadMetric::Pomp => h.pomp,
+        };
+        let b = bonett_scale(r);
+        match (sd, b) {
+            (Some(sd), Ok(yv)) if sd > 0.0 => {
+                keep.push(i);
+                bonett.push(yv);
+                sds.push(sd);
+            }
+            (sd, b) => {
+                let mut reasons = Vec::new();
+                if sd.is_none() {
+                    reasons.push(format!(
+                        "column sd: {}",
+                        h.problem.clone().unwrap_or_else(|| "the SD cannot be converted".into())
+                    ));
+                }
+                if let Err(e) = b {
+                    reasons.push(format!("column coef: {e}"));
+                }
+                excluded.push(ExcludedRow { row: r.row, reasons });
+            }
+        }
+    }
+    // The sub-sheet on the Bonett scale; the other moderators' design over it.
+    let mut sub = p.subset(&keep);
+    sub.y = bonett.iter().map(|b| b.0).collect();
+    sub.v = bonett.iter().map(|b| b.1).collect();
+    let base = build_design(&sub, others).map_err(|e| match e {
+        Error::CannotAnalyse(m) => Error::CannotAnalyse(format!(
+            "score-spread model: {m}{}",
+            excluded_note(&excluded)
+        )),
+        other => other,
+    })?;
+    // Rows without a moderator value leave the model too.
+    for e in &base.excluded {
+        excluded.push(e.clone());
+    }
+    excluded.sort_by_key(|e| e.row);
+    let used = base.used.clone();
+    let used = &used;
+    let k = used.len();
+    let cols = base.x.ncols() + 1;
+    if k <= cols + 1 {
+        return Err(Error::CannotAnalyse(format!(
+            "the score-spread model has {cols} coefficients but only {k} studies with a usable \
+             SD; at least {} are needed{}",
+            cols + 2,
+            excluded_note(&excluded)
+        )));
+    }
+    let log_sd: Vec<f64> = used.iter().map(|&i| sds[i].ln()).collect();
+    let x = DMatrix::from_fn(k, cols, |i, j| match j {
+        0 => 1.0,
+        1 => log_sd[i],
+        _ => base.x[(i, j - 1)],
+    });
+    let mut names = vec!["intercept".to_string(), "ln_sd".to_string()];
+    names.extend(base.names.iter().skip(1).cloned());
+    if log_sd.iter().all(|v| (*v - log_sd[0]).abs() < 1e-12) {
+        return Err(Error::CannotAnalyse(
+            "every study in the score-spread model reports the same SD, so its effect cannot be \
+             estimated"
+                .into(),
+        ));
+    }
+    check_rank(&x, &names)?;
+    let y: Vec<f64> = used.iter().map(|&i| sub.y[i]).collect();
+    let v: Vec<f64> = used.iter().map(|&i| sub.v[i]).collect();
+    let data = MetaData::with_design(y.clone(), v.clone(), x)?;
+    let fit = fit_model(&data, options)?;
+    let without = MetaData::with_design(y, v, base.x.clone())?;
+    let fit_without = fit_model(&without, &FitOptions { tau2_interval: false, ..*options })?;
+    let slope = fit.coefficients[1];
+    let stat2 = (slope.estimate + 2.0) / slope.se;
+    let p_minus_two = fit.two_sided_p(stat2);
+    let tau2_without = fit_without.tau2.tau2;
+    let tau2_share = match options.model {
+        Model::Random(_) if tau2_without > 0.0 => {
+            Some((100.0 * (tau2_without - fit.tau2.tau2) / tau2_without).max(0.0))
+        }
+        _ => None,
+    };
+    let covers = |x: f64| slope.ci.lower <= x && x <= slope.ci.upper;
+    let reading = match (covers(0.0), covers(-2.0)) {
+        (false, true) => SpreadReading::AccountsForMost,
+        (true, true) => SpreadReading::Undecided,
+        (true, false) => SpreadReading::DoesNotAccount,
+        (false, false) if slope.estimate < -2.0 => SpreadReading::SteeperThanExpected,
+        (false, false) => SpreadReading::AccountsForPart,
+    };
+    let model_sds: Vec<f64> = used.iter().map(|&i| sds[i]).collect();
+    let rows = used.iter().map(|&i| sub.records[i].row).collect();
+    Ok(ScoreSpread {
+        metric,
+        rows,
+        excluded,
+        names,
+        slope,
+        p_zero: slope.p,
+        statistic_minus_two: stat2,
+        p_minus_two,
+        tau2_without,
+        tau2_share,
+        reading,
+        typical_sd: median(&model_sds),
+        sds: model_sds,
+        fit,
+        others: base,
+    })
+}
+
+fn excluded_note(excluded: &[ExcludedRow]) -> String {
+    if excluded.is_empty() {
+        String::new()
+    } else {
+        format!(
+            " ({} row(s) were left out, mostly for an SD that cannot be converted; see \
+             docs/coding-sheet.md on sd, sd_metric and the scale range)",
+            excluded.len()
+        )
+    }
+}
+
+fn median(xs: &[f64]) -> f64 {
+    let mut s = xs.to_vec();
+    s.sort_by(|a, b| a.total_cmp(b));
+    let n = s.len();
+    if n == 0 {
+        f64::NAN
+    } else if n % 2 == 1 {
+        s[n / 2]
+    } else {
+        0.5 * (s[n / 2 - 1] + s[n / 2])
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn sds_are_put_on_one_metric() {
+        // A sum-score SD of 6 over 10 items is a per-item SD of 0.6; on a 1–5 scale that
+        // is 15 POMP units.
+        let h = harmonize(Some(6.0), Some(SdMetric::Sum), Some(10), Some(1.0), Some(5.0));
+        assert!((h.per_item.unwrap() - 0.6).abs() < 1e-12);
+        assert!((h.pomp.unwrap() - 15.0).abs() < 1e-12);
+        let h = harmonize(Some(0.6), Some(SdMetric::Mean), Some(6), None, None);
+        assert_eq!(h.per_item, Some(0.6));
+        assert!(h.pomp.is_none() && h.problem.is_some());
+        assert!(harmonize(Some(6.0), None, Some(10), None, None).per_item.is_none());
+        assert!(harmonize(None, Some(SdMetric::Mean), None, None, None).problem.is_some());
+        assert!(harmonize(Some(6.0), Some(SdMetric::Sum), None, None, None).per_item.is_none());
+    }
+}

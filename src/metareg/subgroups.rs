@@ -1,0 +1,138 @@
+//! Subgroup benchmarks: one benchmark per level of a column, and tests of the difference
+//! between groups.
+
+use super::design::{ExcludedRow, ModeratorKind, ModeratorSpec, build_design};
+use super::{OmnibusTest, explain};
+use crate::benchmark::{Benchmark, Prepared, from_prepared};
+use crate::dist::chi2_sf;
+use crate::error::Result;
+use crate::pool::{FitOptions, PoolOptions};
+
+/// One group.
+#[derive(Debug, Clone)]
+pub struct Group {
+    /// The column's value.
+    pub level: String,
+    /// Spreadsheet rows in the group.
+    pub rows: Vec<usize>,
+    /// The group's benchmark, or why there is none.
+    pub result: std::result::Result<Box<Benchmark>, String>,
+}
+
+/// The test of the difference between groups from their separate benchmarks.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct BetweenGroups {
+    /// Q_between = Σ w_g (μ̂_g − μ̄)², w_g = 1/SE_g² (model-based SEs, separate τ² per group).
+    pub q: f64,
+    /// Groups compared minus 1.
+    pub df: f64,
+    /// P(χ²(df) > Q).
+    pub p: f64,
+}
+
+/// Subgroup benchmarks by a column.
+#[derive(Debug, Clone)]
+pub struct Subgroups {
+    /// The column.
+    pub column: String,
+    /// The groups in order of first appearance.
+    pub groups: Vec<Group>,
+    /// Rows without a value in the column.
+    pub excluded: Vec<ExcludedRow>,
+    /// Q_between over the groups with at least two studies (separate τ² per group).
+    pub between: Option<BetweenGroups>,
+    /// The meta-regression test of the column as a categorical moderator (one τ² for all).
+    pub moderator_test: Option<OmnibusTest>,
+    /// Why the meta-regression test is missing, when it is.
+    pub moderator_test_note: Option<String>,
+}
+
+/// A benchmark per level of `column`.
+///
+/// # References
+/// Borenstein, M., Hedges, L. V., Higgins, J. P. T., & Rothstein, H. R. (2009).
+/// *Introduction to meta-analysis*, chapter 19. Chichester: Wiley.
+pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Subgroups> {
+    // The design of the column as a categorical moderator gives its levels and the rows
+    // without a value; it is fitted below for the common-τ² test.
+    let spec = ModeratorSpec {
+        name: column.to_string(),
+        kind: ModeratorKind::Categorical,
+        reference: None,
+    };
+    let values = super::design::column_values(p, column)?;
+    let mut order: Vec<String> = Vec::new();
+    let mut excluded = Vec::new();
+    for (i, v) in values.iter().enumerate() {
+        match v {
+            Some(v) => {
+                if !order.contains(v) {
+                    order.push(v.clone());
+                }
+            }
+            None => excluded.push(ExcludedRow {
+                row: p.records[i].row,
+                reasons: vec![format!("column {column}: the value is missing")],
+            }),
+        }
+    }
+    let mut groups = Vec::new();
+    let mut pooled: Vec<(f64, f64)> = Vec::new();
+    for level in &order {
+        let idx: Vec<usize> = values
+            .iter()
+            .enumerate()
+            .filter(|(_, v)| v.as_deref() == Some(level.as_str()))
+            .map(|(i, _)| i)
+            .collect();
+        let rows = idx.iter().map(|&i| p.records[i].row).collect();
+        let result = if idx.len() < 2 {
+            Err(format!(
+                "a single study (coefficient {}): nothing to pool",
+                p.records[idx[0]].coef
+            ))
+        } else {
+            match from_prepared(p.subset(&idx), options) {
+                Ok(b) => {
+                    pooled.push((b.pool.estimate, b.pool.se_wald));
+                    Ok(Box::new(b))
+                }
+                Err(e) => Err(e.to_string()),
+            }
+        };
+        groups.push(Group {
+            level: level.clone(),
+            rows,
+            result,
+        });
+    }
+    let between = if pooled.len() >= 2 {
+        let w: Vec<f64> = pooled.iter().map(|(_, se)| 1.0 / (se * se)).collect();
+        let sw: f64 = w.iter().sum();
+        let mean = pooled.iter().zip(&w).map(|((m, _), w)| w * m).sum::<f64>() / sw;
+        let q: f64 = pooled.iter().zip(&w).map(|((m, _), w)| w * (m - mean).powi(2)).sum();
+        let df = (pooled.len() - 1) as f64;
+        Some(BetweenGroups { q, df, p: chi2_sf(q, df) })
+    } else {
+        None
+    };
+    let fit_options = FitOptions {
+        model: options.model,
+        ci: options.ci,
+        level: options.level,
+        tau2_interval: false,
+    };
+    let (moderator_test, moderator_test_note) =
+        match build_design(p, &[spec]).and_then(|d| explain(p, d, &fit_options)) {
+            Ok(ex) => (ex.omnibus, None),
+            Err(e) => (None, Some(e.to_string())),
+        };
+    Ok(Subgroups {
+        column: column.to_string(),
+        groups,
+        excluded,
+        between,
+        moderator_test,
+        moderator_test_note,
+    })
+}

@@ -1,0 +1,221 @@
+//! The general fit behind pooling and meta-regression: τ² by the chosen estimator,
+//! coefficients with standard errors under the chosen interval method, residual
+//! heterogeneity, and the Q-profile interval for τ².
+
+use super::data::MetaData;
+use super::heterogeneity::Heterogeneity;
+use super::qprofile::{Tau2Interval, q_profile};
+use super::tau2::{TAU2_MAX_ITERATIONS, Tau2Fit, Termination};
+use super::{CiMethod, Interval, Model};
+use crate::dist::{normal_quantile, normal_two_sided_p, t_quantile, t_two_sided_p};
+use crate::error::{Error, Result};
+use crate::warning::Warning;
+use nalgebra::{DMatrix, DVector};
+
+/// Options of a model fit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct FitOptions {
+    /// Common-effect or random-effects with an estimator.
+    pub model: Model,
+    /// Interval method.
+    pub ci: CiMethod,
+    /// Confidence level.
+    pub level: f64,
+    /// Compute the Q-profile interval for τ² (skipped inside permutation loops).
+    pub tau2_interval: bool,
+}
+
+/// One coefficient of a fitted model.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Coefficient {
+    /// Estimate.
+    pub estimate: f64,
+    /// Standard error under the interval method.
+    pub se: f64,
+    /// z or t statistic for the coefficient = 0.
+    pub statistic: f64,
+    /// Two-sided p value.
+    pub p: f64,
+    /// Confidence interval.
+    pub ci: Interval,
+}
+
+/// A fitted (mixed-effects) model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModelFit {
+    /// Studies.
+    pub k: usize,
+    /// Coefficients, intercept included.
+    pub p: usize,
+    /// The options used.
+    pub options: FitOptions,
+    /// τ² and how it was reached.
+    pub tau2: Tau2Fit,
+    /// Q-profile interval for τ² (random-effects model, when asked for).
+    pub tau2_ci: Option<Tau2Interval>,
+    /// The coefficients.
+    pub beta: DVector<f64>,
+    /// Their covariance under the interval method (Knapp–Hartung scaled when chosen).
+    pub cov: DMatrix<f64>,
+    /// Their model-based covariance, (XᵀWX)⁻¹.
+    pub cov_wald: DMatrix<f64>,
+    /// Each coefficient with SE, test and CI.
+    pub coefficients: Vec<Coefficient>,
+    /// Degrees of freedom of t quantiles (Knapp–Hartung: k − p); `None` for z.
+    pub df: Option<f64>,
+    /// Knapp–Hartung scale factor Σw e²/(k − p).
+    pub kh_scale: Option<f64>,
+    /// Residual heterogeneity (Q_E with k − p df) and s².
+    pub heterogeneity: Heterogeneity,
+    /// (Residual) I² in percent.
+    pub i2: f64,
+    /// (Residual) H².
+    pub h2: f64,
+    /// Weights 1/(vᵢ + τ²).
+    pub weights: Vec<f64>,
+    /// Residuals yᵢ − xᵢβ̂.
+    pub residuals: Vec<f64>,
+    /// Warnings about the fit.
+    pub warnings: Vec<Warning>,
+}
+
+impl ModelFit {
+    /// The quantile multiplying standard errors for a two-sided interval.
+    pub fn critical_value(&self) -> f64 {
+        let a = 1.0 - self.options.level;
+        match self.df {
+            Some(df) => t_quantile(1.0 - a / 2.0, df),
+            None => normal_quantile(1.0 - a / 2.0),
+        }
+    }
+
+    /// Two-sided p value of a statistic under the fit's reference distribution.
+    pub fn two_sided_p(&self, statistic: f64) -> f64 {
+        match self.df {
+            Some(df) => t_two_sided_p(statistic, df),
+            None => normal_two_sided_p(statistic),
+        }
+    }
+
+    /// The fitted value at a row of the design and its variance (under the interval method).
+    pub fn predict(&self, x0: &[f64]) -> (f64, f64) {
+        let x = DVector::from_column_slice(x0);
+        let value = x.dot(&self.beta);
+        let var = (x.transpose() * &self.cov * &x)[(0, 0)];
+        (value, var.max(0.0))
+    }
+}
+
+/// Check a confidence level.
+pub fn check_level(level: f64) -> Result<()> {
+    if level > 0.0 && level < 1.0 {
+        Ok(())
+    } else {
+        Err(Error::InvalidOption(format!(
+            "the confidence level must lie strictly between 0 and 1 (got {level})"
+        )))
+    }
+}
+
+/// Fit the model to the data.
+///
+/// # References
+/// Knapp, G., & Hartung, J. (2003). Improved tests for a random effects meta-regression
+/// with a single covariate. *Statistics in Medicine*, 22(17), 2693–2710.
+/// Viechtbauer, W. (2005). *Journal of Educational and Behavioral Statistics*, 30(3), 261–293.
+pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
+    check_level(options.level)?;
+    let (k, p) = (d.k(), d.p());
+    if k <= p {
+        return Err(Error::CannotAnalyse(format!(
+            "{k} studies cannot support a model with {p} coefficient(s): at least {} are needed",
+            p + 1
+        )));
+    }
+    let mut warnings = Vec::new();
+    let heterogeneity = Heterogeneity::of(d)?;
+    let (tau2, tau2_ci) = match options.model {
+        Model::Common => (
+            Tau2Fit {
+                tau2: 0.0,
+                iterations: 0,
+                termination: Termination::ClosedForm,
+                at_zero: true,
+            },
+            None,
+        ),
+        Model::Random(est) => {
+            let fit = est.estimate(d)?;
+            if !fit.converged() {
+                warnings.push(Warning::NotConverged {
+                    what: format!("the {} estimate of τ²", est.name()),
+                    iterations: fit.iterations,
+                });
+            }
+            if fit.at_zero {
+                warnings.push(Warning::Tau2AtZero {
+                    estimator: est.label().to_string(),
+                });
+            }
+            let ci = if options.tau2_interval {
+                let ci = q_profile(d, options.level)?;
+                if !ci.converged {
+                    warnings.push(Warning::NotConverged {
+                        what: "the Q-profile interval for τ²".into(),
+                        iterations: TAU2_MAX_ITERATIONS,
+                    });
+                }
+                Some(ci)
+            } else {
+                None
+            };
+            (fit, ci)
+        }
+    };
+    let fit = d.fit_at(tau2.tau2)?;
+    let df_resid = (k - p) as f64;
+    let (cov, df, kh_scale) = match options.ci {
+        CiMethod::Wald => (fit.xtwx_inv.clone(), None, None),
+        CiMethod::KnappHartung => {
+            let scale = fit.q / df_resid;
+            (&fit.xtwx_inv * scale, Some(df_resid), Some(scale))
+        }
+    };
+    let (i2, h2) = match options.model {
+        Model::Common => (heterogeneity.i2_from_q(), heterogeneity.h2_from_q()),
+        Model::Random(_) => (heterogeneity.i2(tau2.tau2), heterogeneity.h2(tau2.tau2)),
+    };
+    let mut out = ModelFit {
+        k,
+        p,
+        options: *options,
+        tau2,
+        tau2_ci,
+        beta: fit.beta.clone(),
+        cov,
+        cov_wald: fit.xtwx_inv.clone(),
+        coefficients: Vec::with_capacity(p),
+        df,
+        kh_scale,
+        heterogeneity,
+        i2,
+        h2,
+        weights: fit.w,
+        residuals: fit.resid,
+        warnings,
+    };
+    let crit = out.critical_value();
+    for j in 0..p {
+        let estimate = out.beta[j];
+        let se = out.cov[(j, j)].max(0.0).sqrt();
+        let statistic = estimate / se;
+        out.coefficients.push(Coefficient {
+            estimate,
+            se,
+            statistic,
+            p: out.two_sided_p(statistic),
+            ci: Interval::around(estimate, crit * se),
+        });
+    }
+    Ok(out)
+}
