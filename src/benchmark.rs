@@ -55,6 +55,8 @@ pub struct CoefficientScale {
     pub ci: BackInterval,
     /// The back-transformed prediction interval, when there is one.
     pub pi: Option<BackInterval>,
+    /// With τ² at zero: the prediction interval at the upper end of τ²'s CI, back-transformed.
+    pub pi_at_tau2_upper: Option<BackInterval>,
 }
 
 /// A benchmark: the pooled coefficients of prior studies and the expected range for a
@@ -197,27 +199,64 @@ pub fn prepare(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepare
     // Check every parsed row against the transform.
     let mut problems = sheet.problems.clone();
     let mut usable = Vec::new();
+    let role_of = |f: InputField| match f {
+        InputField::Coef => Role::Coef,
+        InputField::N => Role::N,
+        InputField::Items => Role::Items,
+        InputField::Var => Role::Var,
+    };
     for rec in &sheet.records {
-        let input = study_input(rec);
-        let unmet = tr.check(&input);
+        let unmet = tr.check(&study_input(rec));
         if unmet.is_empty() {
             usable.push(rec.clone());
-        } else {
-            for u in unmet {
-                let role = match u.field {
-                    InputField::Coef => Role::Coef,
-                    InputField::N => Role::N,
-                    InputField::Items => Role::Items,
-                    InputField::Var => Role::Var,
-                };
+        }
+        for u in unmet {
+            let label = sheet.column_label(role_of(u.field));
+            problems.push(CellProblem::cell(rec.row, label, u.reason));
+        }
+    }
+    // Rows that did not parse: check what could be read, so that every problem of the
+    // file is reported at once (a placeholder coefficient stands in for one that failed).
+    for part in &sheet.partial {
+        let input = StudyInput {
+            coef: part.coef.unwrap_or(0.5),
+            n: part.n.map(|n| n as f64),
+            items: part.items.map(f64::from),
+            var: part.var,
+        };
+        for u in tr.check(&input) {
+            let role = role_of(u.field);
+            let placeholder = role == Role::Coef && part.coef.is_none();
+            if !placeholder && !part.failed.contains(&role) {
                 problems.push(CellProblem::cell(
-                    rec.row,
+                    part.row,
                     sheet.column_label(role),
                     u.reason,
                 ));
             }
         }
     }
+    problems.sort_by_key(|p| p.row);
+    // Every study must end up with a finite value and a positive, finite variance.
+    let mut values = Vec::with_capacity(usable.len());
+    usable.retain(|rec| {
+        let input = study_input(rec);
+        let (y, v) = (tr.effect(&input).0, tr.variance(&input));
+        if y.is_finite() && v.is_finite() && v > 0.0 {
+            values.push((y, v));
+            true
+        } else {
+            problems.push(CellProblem::row(
+                rec.row,
+                format!(
+                    "the study's value on the {} scale ({y}) or its sampling variance ({v}) cannot \
+                     be computed; check coef, n and items",
+                    transform.name()
+                ),
+            ));
+            false
+        }
+    });
     problems.sort_by_key(|p| p.row);
     if !problems.is_empty() && !options.skip_invalid {
         return Err(Error::InvalidSheet {
@@ -254,9 +293,7 @@ pub fn prepare(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepare
 
     sheet_warnings(&sheet, &usable, transform, &mut warnings);
 
-    let inputs: Vec<StudyInput> = usable.iter().map(study_input).collect();
-    let y: Vec<f64> = inputs.iter().map(|s| tr.effect(s).0).collect();
-    let v: Vec<f64> = inputs.iter().map(|s| tr.variance(s)).collect();
+    let (y, v): (Vec<f64>, Vec<f64>) = values.into_iter().unzip();
     Ok(Prepared {
         file: sheet.file.clone(),
         delimiter: sheet.delimiter,
@@ -517,10 +554,19 @@ fn coefficient_scale(
             interval: "prediction interval".into(),
         });
     }
+    if let Some(i) = pi
+        && i.lower < 0.0
+    {
+        warnings.push(Warning::RangeBelowZero { lower: i.lower });
+    }
+    let pi_at_tau2_upper = pooled
+        .prediction_at_tau2_upper
+        .and_then(|p| back_interval(tr, Transformed(p.lower), Transformed(p.upper)));
     Some(CoefficientScale {
         estimate: estimate.min(crate::transform::COEFFICIENT_MAX),
         ci,
         pi,
+        pi_at_tau2_upper,
     })
 }
 

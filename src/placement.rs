@@ -230,16 +230,30 @@ pub fn place(
         back_interval(tr, Transformed(i.lower), Transformed(i.upper))
             .expect("coefficient transforms have a coefficient scale")
     };
-    let expected = tr.back(Transformed(expected_t)).expect("a coefficient scale").0;
+    let expected = tr
+        .back(Transformed(expected_t))
+        .expect("a coefficient scale")
+        .0;
     let (ci, pi, pi_observed) = (back(ci_t), back(pi_t), back(pi_observed_t));
-    for (name, i) in [("confidence interval", ci), ("prediction interval", pi), ("range for an observed coefficient", pi_observed)] {
+    for (name, i) in [
+        ("confidence interval", ci),
+        ("prediction interval", pi),
+        ("range for an observed coefficient", pi_observed),
+    ] {
         if i.capped {
-            warnings.push(Warning::IntervalCapped { interval: name.into() });
+            warnings.push(Warning::IntervalCapped {
+                interval: name.into(),
+            });
         }
     }
     let z = (new_effect - expected_t) / sd_obs;
     let below_share = 1.0 - t_sf(z, pi_df);
-    let percentile = 100.0 * if tr.increasing() { below_share } else { 1.0 - below_share };
+    let percentile = 100.0
+        * if tr.increasing() {
+            below_share
+        } else {
+            1.0 - below_share
+        };
     let verdict = if study.coef < pi_observed.lower {
         Verdict::Below
     } else if study.coef > pi_observed.upper {
@@ -250,7 +264,15 @@ pub fn place(
 
     let spread = match study.sd {
         None => None,
-        Some(sd) => Some(spread_shortfall(p, study, sd, moderators, at, spread_metric, options)?),
+        Some(sd) => Some(spread_shortfall(
+            p,
+            study,
+            sd,
+            moderators,
+            at,
+            spread_metric,
+            options,
+        )?),
     };
 
     Ok(Placement {
@@ -288,7 +310,13 @@ fn spread_shortfall(
     options: &FitOptions,
 ) -> Result<SpreadShortfall> {
     let model = score_spread(p, metric, moderators, options)?;
-    let h = harmonize(Some(sd), study.sd_metric, study.items, study.scale_min, study.scale_max);
+    let h = harmonize(
+        Some(sd),
+        study.sd_metric,
+        study.items,
+        study.scale_min,
+        study.scale_max,
+    );
     let own = match model.metric {
         SpreadMetric::PerItem => h.per_item,
         SpreadMetric::Pomp => h.pomp,
@@ -297,7 +325,9 @@ fn spread_shortfall(
         let need = match (study.sd_metric, model.metric) {
             (None, _) => "--sd-metric (sum or mean)",
             (Some(SdMetric::Sum), _) if study.items.is_none() => "--items",
-            (_, SpreadMetric::Pomp) => "--scale-min and --scale-max (the benchmark's SDs are on the POMP metric)",
+            (_, SpreadMetric::Pomp) => {
+                "--scale-min and --scale-max (the benchmark's SDs are on the POMP metric)"
+            }
             _ => "--sd-metric",
         };
         Error::InvalidOption(format!(

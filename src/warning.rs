@@ -62,6 +62,16 @@ pub enum Warning {
         /// Why.
         why: String,
     },
+    /// The Knapp–Hartung scale factor is below 1: its interval is narrower than Wald's.
+    KnappHartungBelowOne {
+        /// The scale factor q.
+        scale: f64,
+    },
+    /// The expected range reaches below a coefficient of 0.
+    RangeBelowZero {
+        /// Its lower end.
+        lower: f64,
+    },
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
         /// Spreadsheet rows.
@@ -116,6 +126,8 @@ impl Warning {
             Warning::CommonEffectAssumed => "common_effect_assumed",
             Warning::CommonEffectContradicted { .. } => "common_effect_contradicted",
             Warning::Tau2OutsideInterval { .. } => "tau2_outside_interval",
+            Warning::KnappHartungBelowOne { .. } => "knapp_hartung_below_one",
+            Warning::RangeBelowZero { .. } => "range_below_zero",
             Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
             Warning::DuplicateLabel { .. } => "duplicate_label",
@@ -199,6 +211,26 @@ impl fmt::Display for Warning {
                 crate::report::format::significant(*lower, 3),
                 crate::report::format::significant(*upper, 3)
             ),
+            Warning::KnappHartungBelowOne { scale } => write!(
+                f,
+                "the Knapp–Hartung scale factor is {} (below 1): the studies agree more closely \
+                 than their sampling variances predict (coefficients rounded to two decimals \
+                 can do this), so its intervals are narrower than the Wald intervals{}; \
+                 --ci knapp-hartung-floor keeps the factor at 1 or more",
+                crate::report::format::significant(*scale, 3),
+                if *scale < 1e-6 {
+                    " and here have almost no width"
+                } else {
+                    ""
+                }
+            ),
+            Warning::RangeBelowZero { lower } => write!(
+                f,
+                "the prediction interval reaches down to a coefficient of {} (below 0): the \
+                 studies differ so much that the benchmark says little about a new setting; \
+                 look for moderators that explain the differences",
+                crate::report::format::fixed(*lower, 2)
+            ),
             Warning::RowsLeftOutOfModel { rows, why } => write!(
                 f,
                 "{} left out of the model because {why}; they are listed with the results",
@@ -207,8 +239,8 @@ impl fmt::Display for Warning {
             Warning::NegativeCoefficients { rows } => write!(
                 f,
                 "negative coefficients on {}: a negative alpha is a valid estimate but usually \
-                 means mis-keyed (not reverse-scored) items or a coding error; check the \
-                 source studies",
+                 means items that were not reverse-scored, and a negative retest or inter-rater \
+                 correlation a coding error; check the source studies",
                 list_rows(rows)
             ),
             Warning::DuplicateLabel { label, rows } => write!(

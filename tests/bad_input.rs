@@ -180,6 +180,24 @@ fn cases() -> Vec<Case> {
             &[],
             &["row 1", "items"],
         ),
+        case(
+            "thousands separator in a tab sheet (issue 2 review)",
+            "study\tcoef\tn\titems\nA\t0.81\t10,000\t6\nB\t0.75\t300\t6\n",
+            &[],
+            &["row 2, column n:", "thousands separator"],
+        ),
+        case(
+            "thousands separator with a point",
+            "study;coef;n;items\nA;0,81;12.000;6\nB;0,75;300;6\n",
+            &[],
+            &["row 2, column n:", "thousands separator"],
+        ),
+        case(
+            "coefficient below -1",
+            "study,coef,n,items\nA,-1e300,100,6\nB,0.7,50,6\n",
+            &[],
+            &["row 2, column coef:", "above −1"],
+        ),
     ];
     v.push(Case {
         name: "very long label",
@@ -264,16 +282,20 @@ fn all_problems_are_listed() {
     let path = write_file(
         &dir,
         "s.csv",
-        b"study,coef,n,items\nA,1.2,100,6\nB,0.8,x,6\nC,0.7,50,1\nD,0.75,80,6\n",
+        b"study,coef,n,items\nA,1.2,100,6\nB,0.8,x,6\nC,0.7,50,1\nD,0.75,80,6\nE,x,2,1\n",
     );
     let out = relyard(&["pool", &path]);
     let err = String::from_utf8_lossy(&out.stderr);
     assert_eq!(out.status.code(), Some(2));
-    assert!(err.contains("3 problems found"), "{err}");
+    // A row that fails to parse is still checked for its other problems (issue 2 review).
+    assert!(err.contains("6 problems found"), "{err}");
     for frag in [
         "row 2, column coef",
         "row 3, column n",
         "row 4, column items",
+        "row 6, column coef: \"x\"",
+        "row 6, column n: a sample size of 2",
+        "row 6, column items: 1 item(s)",
     ] {
         assert!(err.contains(frag), "missing {frag} in {err}");
     }

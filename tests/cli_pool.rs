@@ -310,7 +310,7 @@ fn bad_options_give_status_2() {
 #[test]
 fn every_estimator_and_interval_runs_on_the_demo() {
     for tau2 in ["reml", "ml", "dl", "pm", "sj", "he", "common"] {
-        for ci in ["wald", "knapp-hartung"] {
+        for ci in ["wald", "knapp-hartung", "knapp-hartung-floor"] {
             for tr in ["bonett", "hakstian-whalen", "raw"] {
                 let j = json_of(&relyard(&[
                     "pool",
@@ -323,15 +323,25 @@ fn every_estimator_and_interval_runs_on_the_demo() {
                     "--transform",
                     tr,
                 ]));
+                assert_eq!(j["tau2_method"], tau2);
                 let rel = &j["reliability"];
-                let ci = floats(&rel["ci"]);
+                let est = rel["estimate"].as_f64().unwrap();
+                let cint = floats(&rel["ci"]);
+                assert!(
+                    cint[0] <= est && est <= cint[1],
+                    "{tau2} {ci} {tr}: estimate in CI"
+                );
+                if tau2 == "common" {
+                    // The common-effect model states no range for a new setting.
+                    assert!(j["pi"].is_null() && rel["pi"].is_null(), "{tau2} {ci} {tr}");
+                    continue;
+                }
                 let pi = floats(&rel["pi"]);
                 assert!(
-                    pi[0] <= ci[0] && ci[1] <= pi[1],
-                    "{tau2} {tr}: CI inside PI"
+                    pi[0] <= cint[0] && cint[1] <= pi[1],
+                    "{tau2} {ci} {tr}: CI inside PI"
                 );
-                assert!(pi[1] <= 1.0, "{tau2} {tr}: PI above 1");
-                assert_eq!(j["tau2_method"], tau2);
+                assert!(pi[1] <= 1.0, "{tau2} {ci} {tr}: PI above 1");
             }
         }
     }
@@ -413,4 +423,50 @@ fn help_and_version_exit_0() {
         assert_eq!(out.status.code(), Some(0), "{args:?}");
         assert!(!out.stdout.is_empty());
     }
+}
+
+/// The paragraph says what the data show about heterogeneity: τ² at 0 (with the range at
+/// the upper end of its interval), τ² above 0 but not clearly, and rows left out.
+#[test]
+fn paragraph_wording_follows_the_evidence() {
+    let dir = scratch("wording");
+    let flat = write_file(
+        &dir,
+        "flat.csv",
+        b"study,coef,n,items\nA,0.80,100,6\nB,0.82,120,6\nC,0.79,90,6\nD,0.81,150,6\nE,0.80,110,6\n",
+    );
+    let j = json_of(&relyard(&["pool", &flat, "--json"]));
+    let text = j["paragraph"].as_str().unwrap();
+    assert!(text.contains("no more than sampling error"), "{text}");
+    assert!(
+        text.contains("at the upper end of τ²'s interval it would be"),
+        "{text}"
+    );
+    assert!(!j["reliability"]["pi_at_tau2_upper"].is_null());
+
+    let mild = write_file(
+        &dir,
+        "mild.csv",
+        b"study,coef,n,items\nA,0.78,60,6\nB,0.84,70,6\nC,0.74,65,6\nD,0.83,80,6\nE,0.77,75,6\nF,0.86,50,6\n",
+    );
+    let j = json_of(&relyard(&["pool", &mild, "--json"]));
+    let text = j["paragraph"].as_str().unwrap();
+    let t = floats(&j["tau2_ci"]);
+    assert!(
+        j["tau2"].as_f64().unwrap() > 0.0 && t[0] == 0.0,
+        "the sheet no longer tests the case"
+    );
+    assert!(text.contains("not clearly beyond sampling error"), "{text}");
+
+    let skipped = write_file(
+        &dir,
+        "skipped.csv",
+        b"study,coef,n,items\nA,0.81,120,8\nB,1.3,95,8\nC,0.85,300,8\nE,0.79,150,8\n",
+    );
+    let j = json_of(&relyard(&["pool", &skipped, "--json", "--skip-invalid"]));
+    let text = j["paragraph"].as_str().unwrap();
+    assert!(
+        text.contains("one further coded row was left out"),
+        "{text}"
+    );
 }

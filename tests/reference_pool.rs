@@ -26,7 +26,11 @@ fn every_estimator_matches_the_reference_fits() {
         let (y, v, level, name) = case_data(c);
         for est in Tau2Estimator::ALL {
             let r = &c["estimators"][est.name()];
-            for ci in [CiMethod::Wald, CiMethod::KnappHartung] {
+            for ci in [
+                CiMethod::Wald,
+                CiMethod::KnappHartung,
+                CiMethod::KnappHartungFloor,
+            ] {
                 let opts = PoolOptions {
                     model: Model::Random(est),
                     ci,
@@ -54,6 +58,7 @@ fn every_estimator_matches_the_reference_fits() {
                 let (se_key, ci_key, pi_key) = match ci {
                     CiMethod::Wald => ("se_wald", "ci_wald", "pi_wald"),
                     CiMethod::KnappHartung => ("se_kh", "ci_kh", "pi_kh"),
+                    CiMethod::KnappHartungFloor => ("se_khf", "ci_khf", "pi_khf"),
                 };
                 assert_close(
                     got.se,
@@ -124,7 +129,9 @@ fn every_estimator_matches_the_reference_fits() {
                             &what("pi upper"),
                         );
                     }
-                    Prediction::TooFewStudies => panic!("{}: no prediction interval", what("pi")),
+                    Prediction::TooFewStudies | Prediction::CommonEffect => {
+                        panic!("{}: no prediction interval", what("pi"))
+                    }
                 }
                 let qp = floats(&c["tau2_ci"]);
                 let t = got.tau2_ci.unwrap();

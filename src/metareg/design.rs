@@ -110,7 +110,11 @@ impl Design {
     }
 
     /// The design row for given moderator values (`name` → value as text).
-    pub fn row_for(&self, values: &BTreeMap<String, String>, decimal_comma: bool) -> Result<Vec<f64>> {
+    pub fn row_for(
+        &self,
+        values: &BTreeMap<String, String>,
+        decimal_comma: bool,
+    ) -> Result<Vec<f64>> {
         let mut row = vec![0.0; self.x.ncols()];
         row[0] = 1.0;
         let mut missing = Vec::new();
@@ -121,9 +125,8 @@ impl Design {
             };
             match m {
                 Moderator::Numeric { name, column } => {
-                    row[*column] = parse_number(text, decimal_comma).map_err(|e| {
-                        Error::InvalidOption(format!("--at {name}={text}: {e}"))
-                    })?;
+                    row[*column] = parse_number(text, decimal_comma)
+                        .map_err(|e| Error::InvalidOption(format!("--at {name}={text}: {e}")))?;
                 }
                 Moderator::Categorical {
                     name,
@@ -168,16 +171,28 @@ impl Design {
 }
 
 /// The standard columns that can serve as numeric moderators.
-const NUMERIC_ROLES: [Role; 5] = [Role::N, Role::Items, Role::Sd, Role::ScaleMin, Role::ScaleMax];
+const NUMERIC_ROLES: [Role; 5] = [
+    Role::N,
+    Role::Items,
+    Role::Sd,
+    Role::ScaleMin,
+    Role::ScaleMax,
+];
 
 /// A moderator's value in one study, as text, or `None` when missing.
 fn value_of(p: &Prepared, rec: &StudyRecord, name: &str) -> Result<Option<String>> {
-    if let Some(i) = p.extra_columns.iter().position(|c| c.eq_ignore_ascii_case(name)) {
+    if let Some(i) = p
+        .extra_columns
+        .iter()
+        .position(|c| c.eq_ignore_ascii_case(name))
+    {
         return Ok(rec.extra[i].clone());
     }
     for role in NUMERIC_ROLES {
         let header = p.columns.get(&role).map(String::as_str);
-        if role.name().eq_ignore_ascii_case(name) || header.is_some_and(|h| h.eq_ignore_ascii_case(name)) {
+        if role.name().eq_ignore_ascii_case(name)
+            || header.is_some_and(|h| h.eq_ignore_ascii_case(name))
+        {
             let v = match role {
                 Role::N => rec.n.map(|x| x as f64),
                 Role::Items => rec.items.map(f64::from),
@@ -190,10 +205,19 @@ fn value_of(p: &Prepared, rec: &StudyRecord, name: &str) -> Result<Option<String
         }
     }
     let mut available: Vec<String> = p.extra_columns.clone();
-    available.extend(NUMERIC_ROLES.iter().filter(|r| p.columns.contains_key(r)).map(|r| r.name().to_string()));
+    available.extend(
+        NUMERIC_ROLES
+            .iter()
+            .filter(|r| p.columns.contains_key(r))
+            .map(|r| r.name().to_string()),
+    );
     Err(Error::InvalidOption(format!(
         "{name}: the sheet has no such column (columns available as moderators: {})",
-        if available.is_empty() { "none".to_string() } else { available.join(", ") }
+        if available.is_empty() {
+            "none".to_string()
+        } else {
+            available.join(", ")
+        }
     )))
 }
 
@@ -213,14 +237,18 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
     let mut seen: Vec<String> = Vec::new();
     for s in specs {
         if seen.iter().any(|n| n.eq_ignore_ascii_case(&s.name)) {
-            return Err(Error::InvalidOption(format!("--moderator {} is given twice", s.name)));
+            return Err(Error::InvalidOption(format!(
+                "--moderator {} is given twice",
+                s.name
+            )));
         }
         seen.push(s.name.clone());
     }
     // Values, and which rows lack one.
     let mut values: Vec<Vec<Option<String>>> = Vec::with_capacity(specs.len());
     for s in specs {
-        let col: Result<Vec<Option<String>>> = p.records.iter().map(|r| value_of(p, r, &s.name)).collect();
+        let col: Result<Vec<Option<String>>> =
+            p.records.iter().map(|r| value_of(p, r, &s.name)).collect();
         values.push(col?);
     }
     let mut used = Vec::new();
@@ -235,7 +263,10 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
         if reasons.is_empty() {
             used.push(i);
         } else {
-            excluded.push(ExcludedRow { row: rec.row, reasons });
+            excluded.push(ExcludedRow {
+                row: rec.row,
+                reasons,
+            });
         }
     }
     let decimal_comma = p.delimiter != b',';
@@ -247,12 +278,20 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
     for (s, col) in specs.iter().zip(&values) {
         let cells: Vec<(usize, &str)> = used
             .iter()
-            .map(|&i| (p.records[i].row, col[i].as_deref().expect("used rows have values")))
+            .map(|&i| {
+                (
+                    p.records[i].row,
+                    col[i].as_deref().expect("used rows have values"),
+                )
+            })
             .collect();
-        let parsed: Vec<std::result::Result<f64, String>> =
-            cells.iter().map(|(_, t)| parse_number(t, decimal_comma)).collect();
+        let parsed: Vec<std::result::Result<f64, String>> = cells
+            .iter()
+            .map(|(_, t)| parse_number(t, decimal_comma))
+            .collect();
         let n_numeric = parsed.iter().filter(|r| r.is_ok()).count();
-        let numeric = s.kind == ModeratorKind::Auto && n_numeric * 2 >= cells.len() && !cells.is_empty();
+        let numeric =
+            s.kind == ModeratorKind::Auto && n_numeric * 2 >= cells.len() && !cells.is_empty();
         if numeric {
             if n_numeric < cells.len() {
                 for ((row, _), r) in cells.iter().zip(&parsed) {
@@ -325,7 +364,11 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
                 None => {
                     // The level with most studies (the first such in sheet order).
                     let max = counts.values().copied().max().unwrap_or(0);
-                    order.iter().find(|l| counts[*l] == max).cloned().expect("a level")
+                    order
+                        .iter()
+                        .find(|l| counts[*l] == max)
+                        .cloned()
+                        .expect("a level")
                 }
             };
             let mut levels = Vec::new();
@@ -363,7 +406,10 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
             if excluded.is_empty() {
                 String::new()
             } else {
-                format!("; {} row(s) were left out for missing moderator values", excluded.len())
+                format!(
+                    "; {} row(s) were left out for missing moderator values",
+                    excluded.len()
+                )
             }
         )));
     }

@@ -124,7 +124,9 @@ pub fn explain(p: &Prepared, design: Design, options: &FitOptions) -> Result<Exp
     )?;
     let tau2_0 = base_fit.tau2.tau2;
     let r2 = match options.model {
-        Model::Random(_) if tau2_0 > 0.0 => Some((100.0 * (tau2_0 - fit.tau2.tau2) / tau2_0).max(0.0)),
+        Model::Random(_) if tau2_0 > 0.0 => {
+            Some((100.0 * (tau2_0 - fit.tau2.tau2) / tau2_0).max(0.0))
+        }
         _ => None,
     };
     let columns: Vec<usize> = (1..design.x.ncols()).collect();

@@ -71,7 +71,9 @@ pub fn permutation_test(
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<PermutationResult> {
     if permutations == 0 {
-        return Err(Error::InvalidOption("--permutations must be at least 1".into()));
+        return Err(Error::InvalidOption(
+            "--permutations must be at least 1".into(),
+        ));
     }
     let columns = ex.moderator_columns();
     if columns.is_empty() {

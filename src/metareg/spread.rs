@@ -49,7 +49,9 @@ impl FromStr for SpreadMetric {
         match s.trim().to_ascii_lowercase().as_str() {
             "per-item" | "per_item" => Ok(SpreadMetric::PerItem),
             "pomp" => Ok(SpreadMetric::Pomp),
-            _ => Err(format!("unknown SD metric \"{s}\" (choose per-item or pomp)")),
+            _ => Err(format!(
+                "unknown SD metric \"{s}\" (choose per-item or pomp)"
+            )),
         }
     }
 }
@@ -73,7 +75,13 @@ pub struct HarmonizedSd {
 /// # References
 /// Cohen, P., Cohen, J., Aiken, L. S., & West, S. G. (1999). The problem of units and the
 /// circumstance for POMP. *Multivariate Behavioral Research*, 34(3), 315–346.
-pub fn harmonize(sd: Option<f64>, metric: Option<SdMetric>, items: Option<u32>, min: Option<f64>, max: Option<f64>) -> HarmonizedSd {
+pub fn harmonize(
+    sd: Option<f64>,
+    metric: Option<SdMetric>,
+    items: Option<u32>,
+    min: Option<f64>,
+    max: Option<f64>,
+) -> HarmonizedSd {
     let fail = |why: &str| HarmonizedSd {
         per_item: None,
         pomp: None,
@@ -83,7 +91,11 @@ pub fn harmonize(sd: Option<f64>, metric: Option<SdMetric>, items: Option<u32>, 
         return fail("no SD is reported");
     };
     let per_item = match metric {
-        None => return fail("sd_metric is missing, so it is unknown whether the SD is for sum or mean scores"),
+        None => {
+            return fail(
+                "sd_metric is missing, so it is unknown whether the SD is for sum or mean scores",
+            );
+        }
         Some(SdMetric::Mean) => sd,
         Some(SdMetric::Sum) => match items {
             Some(k) if k >= 1 => sd / f64::from(k),
@@ -92,7 +104,10 @@ pub fn harmonize(sd: Option<f64>, metric: Option<SdMetric>, items: Option<u32>, 
     };
     let (pomp, problem) = match (min, max) {
         (Some(lo), Some(hi)) if hi > lo => (Some(100.0 * per_item / (hi - lo)), None),
-        _ => (None, Some("scale_min or scale_max is missing, so there is no POMP value".to_string())),
+        _ => (
+            None,
+            Some("scale_min or scale_max is missing, so there is no POMP value".to_string()),
+        ),
     };
     HarmonizedSd {
         per_item: Some(per_item),
@@ -248,7 +263,11 @@ pub fn score_spread(
             .iter()
             .filter(|h| h.per_item.is_some())
             .all(|h| h.pomp.is_some());
-        if all_pomp { SpreadMetric::Pomp } else { SpreadMetric::PerItem }
+        if all_pomp {
+            SpreadMetric::Pomp
+        } else {
+            SpreadMetric::PerItem
+        }
     });
     let mut keep = Vec::new();
     let mut excluded = Vec::new();
@@ -271,13 +290,18 @@ pub fn score_spread(
                 if sd.is_none() {
                     reasons.push(format!(
                         "column sd: {}",
-                        h.problem.clone().unwrap_or_else(|| "the SD cannot be converted".into())
+                        h.problem
+                            .clone()
+                            .unwrap_or_else(|| "the SD cannot be converted".into())
                     ));
                 }
                 if let Err(e) = b {
                     reasons.push(format!("column coef: {e}"));
                 }
-                excluded.push(ExcludedRow { row: r.row, reasons });
+                excluded.push(ExcludedRow {
+                    row: r.row,
+                    reasons,
+                });
             }
         }
     }
@@ -330,7 +354,13 @@ pub fn score_spread(
     let data = MetaData::with_design(y.clone(), v.clone(), x)?;
     let fit = fit_model(&data, options)?;
     let without = MetaData::with_design(y, v, base.x.clone())?;
-    let fit_without = fit_model(&without, &FitOptions { tau2_interval: false, ..*options })?;
+    let fit_without = fit_model(
+        &without,
+        &FitOptions {
+            tau2_interval: false,
+            ..*options
+        },
+    )?;
     let slope = fit.coefficients[1];
     let stat2 = (slope.estimate + 2.0) / slope.se;
     let p_minus_two = fit.two_sided_p(stat2);
@@ -403,14 +433,32 @@ mod tests {
     fn sds_are_put_on_one_metric() {
         // A sum-score SD of 6 over 10 items is a per-item SD of 0.6; on a 1–5 scale that
         // is 15 POMP units.
-        let h = harmonize(Some(6.0), Some(SdMetric::Sum), Some(10), Some(1.0), Some(5.0));
+        let h = harmonize(
+            Some(6.0),
+            Some(SdMetric::Sum),
+            Some(10),
+            Some(1.0),
+            Some(5.0),
+        );
         assert!((h.per_item.unwrap() - 0.6).abs() < 1e-12);
         assert!((h.pomp.unwrap() - 15.0).abs() < 1e-12);
         let h = harmonize(Some(0.6), Some(SdMetric::Mean), Some(6), None, None);
         assert_eq!(h.per_item, Some(0.6));
         assert!(h.pomp.is_none() && h.problem.is_some());
-        assert!(harmonize(Some(6.0), None, Some(10), None, None).per_item.is_none());
-        assert!(harmonize(None, Some(SdMetric::Mean), None, None, None).problem.is_some());
-        assert!(harmonize(Some(6.0), Some(SdMetric::Sum), None, None, None).per_item.is_none());
+        assert!(
+            harmonize(Some(6.0), None, Some(10), None, None)
+                .per_item
+                .is_none()
+        );
+        assert!(
+            harmonize(None, Some(SdMetric::Mean), None, None, None)
+                .problem
+                .is_some()
+        );
+        assert!(
+            harmonize(Some(6.0), Some(SdMetric::Sum), None, None, None)
+                .per_item
+                .is_none()
+        );
     }
 }

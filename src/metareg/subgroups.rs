@@ -110,9 +110,17 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         let w: Vec<f64> = pooled.iter().map(|(_, se)| 1.0 / (se * se)).collect();
         let sw: f64 = w.iter().sum();
         let mean = pooled.iter().zip(&w).map(|((m, _), w)| w * m).sum::<f64>() / sw;
-        let q: f64 = pooled.iter().zip(&w).map(|((m, _), w)| w * (m - mean).powi(2)).sum();
+        let q: f64 = pooled
+            .iter()
+            .zip(&w)
+            .map(|((m, _), w)| w * (m - mean).powi(2))
+            .sum();
         let df = (pooled.len() - 1) as f64;
-        Some(BetweenGroups { q, df, p: chi2_sf(q, df) })
+        Some(BetweenGroups {
+            q,
+            df,
+            p: chi2_sf(q, df),
+        })
     } else {
         None
     };

@@ -75,6 +75,29 @@ impl MetaData {
         &self.x
     }
 
+    /// The same data with effects divided by √s and variances by s, s the median sampling
+    /// variance; returns the rescaled data and s. τ² on the rescaled data times s is τ² on
+    /// the original scale, so that tolerances hold relative to the typical variance.
+    pub(crate) fn rescaled(&self) -> (MetaData, f64) {
+        let mut sorted = self.v.clone();
+        sorted.sort_by(|a, b| a.total_cmp(b));
+        let n = sorted.len();
+        let s = if n % 2 == 1 {
+            sorted[n / 2]
+        } else {
+            0.5 * (sorted[n / 2 - 1] + sorted[n / 2])
+        };
+        let root = s.sqrt();
+        (
+            MetaData {
+                y: self.y.iter().map(|y| y / root).collect(),
+                v: self.v.iter().map(|v| v / s).collect(),
+                x: self.x.clone(),
+            },
+            s,
+        )
+    }
+
     /// Weighted least squares with weights 1 / (vᵢ + τ²).
     pub(crate) fn fit_at(&self, tau2: f64) -> Result<WeightedFit> {
         let w: Vec<f64> = self.v.iter().map(|vi| 1.0 / (vi + tau2)).collect();

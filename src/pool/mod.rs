@@ -8,8 +8,8 @@ mod qprofile;
 pub mod tau2;
 
 pub use data::MetaData;
-pub use model::{Coefficient, FitOptions, ModelFit, check_level, fit_model};
 pub use heterogeneity::Heterogeneity;
+pub use model::{Coefficient, FitOptions, ModelFit, check_level, fit_model};
 pub use qprofile::{Tau2Interval, q_profile};
 pub use tau2::{Tau2Estimator, Tau2Fit, Termination};
 
@@ -66,8 +66,11 @@ pub enum CiMethod {
     /// Normal quantiles with the model-based standard error.
     Wald,
     /// t quantiles with k − p df and the standard error scaled by the weighted residual
-    /// mean square.
+    /// mean square q.
     KnappHartung,
+    /// As Knapp–Hartung, with the scale factor not allowed below 1 (max(1, q)), so that
+    /// the interval is never narrower than the Wald interval with t quantiles.
+    KnappHartungFloor,
 }
 
 impl CiMethod {
@@ -76,6 +79,7 @@ impl CiMethod {
         match self {
             CiMethod::Wald => "wald",
             CiMethod::KnappHartung => "knapp-hartung",
+            CiMethod::KnappHartungFloor => "knapp-hartung-floor",
         }
     }
 }
@@ -92,8 +96,10 @@ impl FromStr for CiMethod {
         match s.trim().to_ascii_lowercase().as_str() {
             "wald" => Ok(CiMethod::Wald),
             "knapp-hartung" | "knapp_hartung" => Ok(CiMethod::KnappHartung),
+            "knapp-hartung-floor" | "knapp_hartung_floor" => Ok(CiMethod::KnappHartungFloor),
             _ => Err(format!(
-                "unknown interval method \"{s}\" (choose wald or knapp-hartung)"
+                "unknown interval method \"{s}\" (choose knapp-hartung, knapp-hartung-floor or \
+                 wald)"
             )),
         }
     }
@@ -162,6 +168,9 @@ pub enum Prediction {
     },
     /// k = 2: the t quantile would have no degrees of freedom.
     TooFewStudies,
+    /// The common-effect model assumes one true value: it states no range for a new
+    /// setting beyond the confidence interval.
+    CommonEffect,
 }
 
 impl Prediction {
@@ -169,7 +178,7 @@ impl Prediction {
     pub fn interval(&self) -> Option<Interval> {
         match self {
             Prediction::Available { interval, .. } => Some(*interval),
-            Prediction::TooFewStudies => None,
+            Prediction::TooFewStudies | Prediction::CommonEffect => None,
         }
     }
 }
@@ -207,6 +216,8 @@ pub struct PoolResult {
     pub i2_ci: Option<Interval>,
     /// Prediction interval for the true value in a new setting.
     pub prediction: Prediction,
+    /// When τ² is estimated at 0: the prediction interval at the upper end of τ²'s CI.
+    pub prediction_at_tau2_upper: Option<Interval>,
     /// Relative weight of each study, in percent, in input order.
     pub weights_percent: Vec<f64>,
     /// Warnings about the result.
@@ -278,17 +289,29 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
         lower: het.i2(t.lower),
         upper: het.i2(t.upper),
     });
-    let prediction = if k >= 3 {
-        let alpha = 1.0 - options.level;
-        let pdf = (k - 2) as f64;
-        let t = t_quantile(1.0 - alpha / 2.0, pdf);
+    let alpha = 1.0 - options.level;
+    let pi_at = |tau2: f64| {
+        let t = t_quantile(1.0 - alpha / 2.0, (k - 2) as f64);
+        Interval::around(c.estimate, t * (tau2 + c.se * c.se).sqrt())
+    };
+    let prediction = if options.model == Model::Common {
+        Prediction::CommonEffect
+    } else if k >= 3 {
         Prediction::Available {
-            interval: Interval::around(c.estimate, t * (fit.tau2.tau2 + c.se * c.se).sqrt()),
-            df: pdf,
+            interval: pi_at(fit.tau2.tau2),
+            df: (k - 2) as f64,
         }
     } else {
         warnings.push(Warning::NoPredictionInterval { k });
         Prediction::TooFewStudies
+    };
+    // With τ² at zero the PI shrinks to about the CI; show what the upper end of τ²'s
+    // interval would imply.
+    let prediction_at_tau2_upper = match (&prediction, fit.tau2_ci) {
+        (Prediction::Available { .. }, Some(ci)) if fit.tau2.at_zero && ci.upper > 0.0 => {
+            Some(pi_at(ci.upper))
+        }
+        _ => None,
     };
     if k < FEW_STUDIES {
         warnings.push(Warning::FewStudies { k });
@@ -311,6 +334,7 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
         h2: fit.h2,
         i2_ci,
         prediction,
+        prediction_at_tau2_upper,
         weights_percent,
         warnings,
     })

@@ -176,8 +176,13 @@ pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
     let df_resid = (k - p) as f64;
     let (cov, df, kh_scale) = match options.ci {
         CiMethod::Wald => (fit.xtwx_inv.clone(), None, None),
-        CiMethod::KnappHartung => {
-            let scale = fit.q / df_resid;
+        CiMethod::KnappHartung | CiMethod::KnappHartungFloor => {
+            let mut scale = fit.q / df_resid;
+            if options.ci == CiMethod::KnappHartungFloor {
+                scale = scale.max(1.0);
+            } else if scale < 1.0 {
+                warnings.push(Warning::KnappHartungBelowOne { scale });
+            }
             (&fit.xtwx_inv * scale, Some(df_resid), Some(scale))
         }
     };

@@ -31,6 +31,9 @@ pub struct Tau2Interval {
 /// Viechtbauer, W. (2007). Confidence intervals for the amount of heterogeneity in
 /// meta-analysis. *Statistics in Medicine*, 26(1), 37–52.
 pub fn q_profile(d: &MetaData, level: f64) -> Result<Tau2Interval> {
+    // Work on data rescaled by the median variance (tolerances are relative to it).
+    let (scaled, s) = d.rescaled();
+    let d = &scaled;
     let df = (d.k() - d.p()) as f64;
     let alpha = 1.0 - level;
     let q_hi = chi2_quantile(1.0 - alpha / 2.0, df);
@@ -56,8 +59,8 @@ pub fn q_profile(d: &MetaData, level: f64) -> Result<Tau2Interval> {
         (solve(q_lo)?, false)
     };
     Ok(Tau2Interval {
-        lower,
-        upper,
+        lower: lower * s,
+        upper: upper * s,
         lower_at_zero,
         upper_at_zero,
         converged,

@@ -85,6 +85,8 @@ pub struct PoolDocument {
     pub pi: Option<[f64; 2]>,
     /// Degrees of freedom of the PI's t quantile.
     pub pi_df: Option<f64>,
+    /// When τ² is estimated at 0: the PI at the upper end of τ²'s CI (else null).
+    pub pi_at_tau2_upper: Option<[f64; 2]>,
     /// The results on the coefficient scale (null for --transform none).
     pub reliability: Option<ReliabilityRecord>,
     /// Every pooled study.
@@ -147,6 +149,8 @@ pub struct ReliabilityRecord {
     pub ci: [f64; 2],
     /// Back-transformed PI (null when k = 2).
     pub pi: Option<[f64; 2]>,
+    /// Back-transformed PI at the upper end of τ²'s CI, when τ² is estimated at 0.
+    pub pi_at_tau2_upper: Option<[f64; 2]>,
 }
 
 /// One pooled study.
@@ -249,12 +253,16 @@ impl PoolDocument {
             pi: p.prediction.interval().map(pair),
             pi_df: match p.prediction {
                 crate::pool::Prediction::Available { df, .. } => Some(df),
-                crate::pool::Prediction::TooFewStudies => None,
+                crate::pool::Prediction::TooFewStudies | crate::pool::Prediction::CommonEffect => {
+                    None
+                }
             },
+            pi_at_tau2_upper: p.prediction_at_tau2_upper.map(pair),
             reliability: b.coefficient.map(|c| ReliabilityRecord {
                 estimate: c.estimate,
                 ci: back_pair(c.ci),
                 pi: c.pi.map(back_pair),
+                pi_at_tau2_upper: c.pi_at_tau2_upper.map(back_pair),
             }),
             studies: b
                 .studies

@@ -35,6 +35,9 @@ const REF_HE: &str = "Hedges, L. V., & Olkin, I. (1985). Statistical methods for
 meta-analysis. Orlando, FL: Academic Press.";
 const REF_KH: &str = "Knapp, G., & Hartung, J. (2003). Improved tests for a random effects \
 meta-regression with a single covariate. Statistics in Medicine, 22(17), 2693–2710.";
+const REF_ROVER: &str = "Röver, C., Knapp, G., & Friede, T. (2015). Hartung-Knapp-Sidik-Jonkman \
+approach and its modification for random-effects meta-analysis with few studies. BMC Medical \
+Research Methodology, 15, 99.";
 const REF_HTS: &str = "Higgins, J. P. T., Thompson, S. G., & Spiegelhalter, D. J. (2009). A \
 re-evaluation of random-effects meta-analysis. Journal of the Royal Statistical Society, \
 Series A, 172(1), 137–159.";
@@ -70,15 +73,20 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     } else {
         String::new()
     };
+    let left_out = match b.skipped.len() {
+        0 => String::new(),
+        1 => "; one further coded row was left out because of a coding problem".to_string(),
+        m => format!("; {m} further coded rows were left out because of coding problems"),
+    };
     if on_coef {
         s.push_str(&format!(
             "We judged the reliability of {measure} against a benchmark built from k = {} prior \
-             administrations{n_part}. ",
+             administrations{n_part}{left_out}. ",
             p.k
         ));
     } else {
         s.push_str(&format!(
-            "We pooled the effects of k = {} studies{n_part}. ",
+            "We pooled the effects of k = {} studies{n_part}{left_out}. ",
             p.k
         ));
     }
@@ -123,11 +131,17 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         }
     };
     let ci_part = match opts.ci {
-        CiMethod::KnappHartung => {
+        CiMethod::KnappHartung | CiMethod::KnappHartungFloor => {
             refs.push(REF_KH);
+            let floor = if opts.ci == CiMethod::KnappHartungFloor {
+                refs.push(REF_ROVER);
+                " with its scale factor kept at 1 or more (Röver, Knapp, & Friede, 2015)"
+            } else {
+                ""
+            };
             format!(
                 "; the {level} confidence interval of the pooled {noun} used the Knapp–Hartung \
-                 method (Knapp & Hartung, 2003)"
+                 method (Knapp & Hartung, 2003){floor}"
             )
         }
         CiMethod::Wald => {
@@ -172,16 +186,24 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             } else {
                 " on the transformed scale"
             };
+            let clear = p.tau2_ci.is_some_and(|t| t.lower > 0.0);
             if p.tau2.at_zero {
                 s.push_str(&format!(
                     "The {what} varied no more than sampling error would predict (τ² = 0{ci}; \
-                     I² = 0% [Higgins & Thompson, 2002]), so the expected range below reflects mainly the uncertainty of \
-                     the pooled value. "
+                     I² = 0% [Higgins & Thompson, 2002]). "
                 ));
-            } else {
+            } else if clear {
                 s.push_str(&format!(
                     "The {what} varied between studies beyond sampling error (τ² = {}{scale}{ci}; \
                      I² = {}% [Higgins & Thompson, 2002]). ",
+                    significant(p.tau2.tau2, 2),
+                    fixed(p.i2, 0)
+                ));
+            } else {
+                s.push_str(&format!(
+                    "The {what} varied somewhat between studies, but not clearly beyond sampling \
+                     error (τ² = {}{scale}{ci}, an interval that includes 0; I² = {}% \
+                     [Higgins & Thompson, 2002]). ",
                     significant(p.tau2.tau2, 2),
                     fixed(p.i2, 0)
                 ));
@@ -224,6 +246,17 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
                  expected to lie between {lo} and {hi}; {article} {noun} observed in a single new \
                  sample will vary somewhat more because of that sample's own sampling error."
             ));
+            let wider = match (&b.coefficient, p.prediction_at_tau2_upper) {
+                (Some(cs), _) => cs.pi_at_tau2_upper.map(|i| (c(i.lower), c(i.upper))),
+                (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
+                _ => None,
+            };
+            if let Some((wl, wh)) = wider {
+                s.push_str(&format!(
+                    " Because τ² was estimated at 0, this range reflects only the uncertainty of \
+                     the pooled {noun}; at the upper end of τ²'s interval it would be {wl} to {wh}."
+                ));
+            }
         }
         None => s.push_str(
             "With only two studies no prediction interval can be given, so the benchmark states \

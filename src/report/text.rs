@@ -66,7 +66,11 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
         Model::Random(e) => {
             let how = match p.tau2.termination {
                 Termination::ClosedForm => "closed form".to_string(),
-                Termination::Converged => format!("converged in {} iterations", p.tau2.iterations),
+                Termination::Converged => format!(
+                    "converged in {} iteration{}",
+                    p.tau2.iterations,
+                    if p.tau2.iterations == 1 { "" } else { "s" }
+                ),
                 Termination::IterationLimit => {
                     format!("NOT converged after {} iterations", p.tau2.iterations)
                 }
@@ -80,8 +84,13 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
     };
     let _ = writeln!(o, "  model         {model}");
     let interval = match opts.ci {
-        CiMethod::KnappHartung => format!(
-            "Knapp–Hartung (t with {} df, SE scaled by {})",
+        CiMethod::KnappHartung | CiMethod::KnappHartungFloor => format!(
+            "Knapp–Hartung{} (t with {} df, SE scaled by {})",
+            if opts.ci == CiMethod::KnappHartungFloor {
+                ", factor at least 1"
+            } else {
+                ""
+            },
             p.k - 1,
             fixed(p.kh_scale.unwrap_or(1.0).sqrt(), 3)
         ),
@@ -151,6 +160,13 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
             let _ = writeln!(
                 o,
                 "  {:<28}none: k = 2 leaves the t quantile no degrees of freedom",
+                format!("{level} prediction interval")
+            );
+        }
+        Prediction::CommonEffect => {
+            let _ = writeln!(
+                o,
+                "  {:<28}none: the common-effect model assumes one true coefficient",
                 format!("{level} prediction interval")
             );
         }

@@ -67,6 +67,14 @@ pub fn parse_whole(
     max: u64,
     what: &str,
 ) -> Result<u64, String> {
+    if looks_grouped(cell.trim()) {
+        return Err(format!(
+            "{} looks like a number with a thousands separator, which is ambiguous (it could \
+             be a decimal mark); write it without separators, e.g. {}",
+            quote(cell),
+            cell.trim().replace([',', '.'], "")
+        ));
+    }
     let x = parse_number(cell, decimal_comma)?;
     if x.fract() != 0.0 {
         return Err(format!(
@@ -87,6 +95,23 @@ pub fn parse_whole(
         ));
     }
     Ok(x as u64)
+}
+
+/// True for text such as `10,000`, `1.200` or `12,345,678`: one to three digits, then
+/// groups of a separator and exactly three digits.
+fn looks_grouped(t: &str) -> bool {
+    let t = t.trim_start_matches(['+', '-']);
+    let mut parts = t.split([',', '.']);
+    let Some(first) = parts.next() else {
+        return false;
+    };
+    let rest: Vec<&str> = parts.collect();
+    !rest.is_empty()
+        && (1..=3).contains(&first.len())
+        && first.chars().all(|c| c.is_ascii_digit())
+        && rest
+            .iter()
+            .all(|g| g.len() == 3 && g.chars().all(|c| c.is_ascii_digit()))
 }
 
 #[cfg(test)]
@@ -125,6 +150,11 @@ mod tests {
         assert!(parse_whole("120.5", false, 1, 1000, "sample size").is_err());
         assert!(parse_whole("0", false, 1, 1000, "sample size").is_err());
         assert!(parse_whole("1e12", false, 1, 1000, "sample size").is_err());
+        for grouped in ["10,000", "1.200", "12,345,678", "2.500"] {
+            let e = parse_whole(grouped, true, 1, u64::MAX, "sample size").unwrap_err();
+            assert!(e.contains("thousands separator"), "{grouped}: {e}");
+        }
+        assert_eq!(parse_whole("120,0", true, 1, 1000, "sample size"), Ok(120));
     }
 
     #[test]

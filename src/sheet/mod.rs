@@ -61,6 +61,25 @@ pub struct StudyRecord {
     pub extra: Vec<Option<String>>,
 }
 
+/// The cells that could be read from a row with problems.
+#[derive(Debug, Clone, PartialEq)]
+pub struct PartialRecord {
+    /// Spreadsheet row.
+    pub row: usize,
+    /// The coefficient, if it parsed.
+    pub coef: Option<f64>,
+    /// The coefficient type, if it parsed.
+    pub coef_type: Option<CoefType>,
+    /// The sample size, if it parsed.
+    pub n: Option<u64>,
+    /// The number of items, if it parsed.
+    pub items: Option<u32>,
+    /// The sampling variance, if it parsed.
+    pub var: Option<f64>,
+    /// Columns whose problems are already reported.
+    pub failed: Vec<Role>,
+}
+
 /// A coding sheet after reading: the rows that parsed, and the problems of the rest.
 #[derive(Debug, Clone)]
 pub struct CodingSheet {
@@ -76,6 +95,9 @@ pub struct CodingSheet {
     pub records: Vec<StudyRecord>,
     /// Problems of rows that did not parse (a row may have several).
     pub problems: Vec<CellProblem>,
+    /// What could be read of the rows that did not parse, so that the transform's checks
+    /// can report their other problems too.
+    pub partial: Vec<PartialRecord>,
     /// Number of non-empty data rows in the file.
     pub rows_read: usize,
     /// Entirely empty rows between data rows.
@@ -125,10 +147,14 @@ pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> R
     let decimal_comma = table.delimiter != b',';
     let mut records = Vec::with_capacity(table.rows.len());
     let mut problems = Vec::new();
+    let mut partial = Vec::new();
     for raw in &table.rows {
         match layout.parse_row(raw, decimal_comma) {
             Ok(r) => records.push(r),
-            Err(mut p) => problems.append(&mut p),
+            Err((mut p, part)) => {
+                problems.append(&mut p);
+                partial.extend(part);
+            }
         }
     }
     if table.rows.is_empty() {
@@ -147,6 +173,7 @@ pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> R
         extra_columns: layout.extra.iter().map(|(_, n)| n.clone()).collect(),
         records,
         problems,
+        partial,
         rows_read: table.rows.len(),
         empty_rows: table.empty_rows,
     })
@@ -267,7 +294,7 @@ impl Layout {
         &self,
         raw: &read::RawRow,
         decimal_comma: bool,
-    ) -> std::result::Result<StudyRecord, Vec<CellProblem>> {
+    ) -> std::result::Result<StudyRecord, (Vec<CellProblem>, Option<PartialRecord>)> {
         let row = raw.row;
         let names = self.names();
         let label_of = |role: Role| column_label(&names, role);
@@ -284,7 +311,7 @@ impl Layout {
                     self.width
                 ),
             ));
-            return Err(problems);
+            return Err((problems, None));
         }
         if n_cells > self.width {
             let surplus_filled = raw.cells[self.width..]
@@ -299,7 +326,7 @@ impl Layout {
                         self.width
                     ),
                 ));
-                return Err(problems);
+                return Err((problems, None));
             }
         }
         // Text of each cell, or a UTF-8 problem.
@@ -316,9 +343,13 @@ impl Layout {
                 }
             }
         };
+        let mut failed: Vec<Role> = Vec::new();
         let mut cell_of = |role: Role| -> Option<String> {
             let (i, _) = self.roles.get(&role)?;
-            let s = text(*i, label_of(role))?;
+            let Some(s) = text(*i, label_of(role)) else {
+                failed.push(role);
+                return None;
+            };
             if is_missing(&s) { None } else { Some(s) }
         };
         let study = cell_of(Role::Study);
@@ -356,13 +387,16 @@ impl Layout {
         }
         problems.append(&mut orphans);
 
+        let coef_unreadable = failed.contains(&Role::Coef);
         let mut push = |role: Role, reason: String| {
+            failed.push(role);
             problems.push(CellProblem::cell(row, label_of(role), reason));
         };
 
         let label = match &study {
             Some(s) => {
-                let t = s.trim().to_string();
+                // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
+                let t = s.split_whitespace().collect::<Vec<_>>().join(" ");
                 let chars = t.chars().count();
                 if chars > MAX_LABEL_CHARS {
                     push(
@@ -385,6 +419,7 @@ impl Layout {
             None => format!("row {row}"),
         };
         let coef = match &coef_s {
+            None if coef_unreadable => None,
             None => {
                 push(Role::Coef, "the coefficient is missing".into());
                 None
@@ -474,7 +509,16 @@ impl Layout {
         }
 
         if !problems.is_empty() {
-            return Err(problems);
+            let partial = PartialRecord {
+                row,
+                coef,
+                coef_type,
+                n,
+                items,
+                var,
+                failed,
+            };
+            return Err((problems, Some(partial)));
         }
         Ok(StudyRecord {
             row,

@@ -2,7 +2,7 @@
 
 use super::{
     Coefficient, CoefficientTransform, InputField, StudyInput, TransformKind, Transformed, Unmet,
-    check_below_one, fmt_value,
+    check_below_one,
 };
 
 /// Fisher's z, z = atanh(r), with sampling variance 1 / (n − 3); for test–retest and
@@ -36,15 +36,6 @@ impl CoefficientTransform for FisherZ {
     fn check(&self, s: &StudyInput) -> Vec<Unmet> {
         let mut out = Vec::new();
         check_below_one(s.coef, &mut out);
-        if s.coef <= -1.0 {
-            out.push(Unmet::new(
-                InputField::Coef,
-                format!(
-                    "{} is not a correlation (Fisher's z needs a value above −1)",
-                    fmt_value(s.coef)
-                ),
-            ));
-        }
         match s.n {
             None => out.push(Unmet::new(InputField::N, "the sample size is missing")),
             Some(n) if n < 4.0 => out.push(Unmet::new(

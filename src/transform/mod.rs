@@ -291,6 +291,16 @@ fn check_alpha_type(s: &StudyInput) -> Vec<Unmet> {
 }
 
 fn check_below_one(coef: f64, out: &mut Vec<Unmet>) {
+    if coef <= -1.0 {
+        out.push(Unmet::new(
+            InputField::Coef,
+            format!(
+                "{} is outside the range of a reported reliability coefficient (above −1 and \
+                 below 1); check the coding",
+                fmt_value(coef)
+            ),
+        ));
+    }
     if coef >= 1.0 {
         let hint = if (10.0..=100.0).contains(&coef) {
             " (if the sheet holds percentages, divide them by 100)"

@@ -112,20 +112,35 @@ def upper_bracket(f, start):
     return hi
 
 
-def solve_score(score, y, v):
-    if score(y, v, 0.0) <= 0:
-        return 0.0
-    f = lambda t: score(y, v, t)
-    hi = upper_bracket(f, float(np.var(y)) + float(np.max(v)))
-    return optimize.brentq(f, 0.0, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500)
+def solve_score(score, negloglik, y, v):
+    """The global maximum of the (restricted) likelihood over tau2 >= 0: every sign change
+    of the score on a fine log-spaced grid is refined by brentq, and the root (or the
+    boundary 0) with the highest likelihood is kept."""
+    top = 100.0 * (float(np.var(y)) + float(np.max(v)))
+    grid = np.concatenate([[0.0], np.geomspace(1e-10 * top, top, 4000)])
+    s = np.array([score(y, v, t) for t in grid])
+    candidates = [0.0]
+    for i in range(len(grid) - 1):
+        if s[i] > 0 and s[i + 1] <= 0:
+            f = lambda t: score(y, v, t)
+            candidates.append(optimize.brentq(f, grid[i], grid[i + 1], xtol=1e-15,
+                                              rtol=4 * np.finfo(float).eps, maxiter=500))
+    return min(candidates, key=lambda t: negloglik(y, v, t))
 
 
 def check_maximum(negloglik, y, v, t_hat):
-    """The score root must also be where the likelihood is highest."""
-    hi = max(10 * t_hat, float(np.var(y)) * 10 + 1.0)
-    r = optimize.minimize_scalar(lambda t: negloglik(y, v, t), bounds=(0.0, hi),
-                                 method="bounded", options={"xatol": 1e-12})
-    assert abs(r.x - t_hat) < 1e-5 * max(1.0, t_hat), (r.x, t_hat)
+    """The chosen score root must be where the likelihood is highest: no point of a dense
+    grid, nor a bounded local search started from the best grid point, does better."""
+    top = 100.0 * (float(np.var(y)) + float(np.max(v)))
+    grid = np.concatenate([[0.0], np.geomspace(1e-12 * top, top, 20000)])
+    values = np.array([negloglik(y, v, t) for t in grid])
+    best = negloglik(y, v, t_hat)
+    assert best <= values.min() + 1e-9 * max(1.0, abs(best)), (t_hat, grid[values.argmin()])
+    i = int(values.argmin())
+    lo, hi = grid[max(i - 1, 0)], grid[min(i + 1, len(grid) - 1)]
+    r = optimize.minimize_scalar(lambda t: negloglik(y, v, t), bounds=(lo, hi),
+                                 method="bounded", options={"xatol": 1e-14})
+    assert best <= r.fun + 1e-9 * max(1.0, abs(best)), (t_hat, r.x)
 
 
 def pm_direct(y, v):
@@ -160,6 +175,8 @@ def summarize(y, v, tau2, level):
     se = 1 / math.sqrt(np.sum(w))
     q_scale = np.sum(w * (y - mu) ** 2) / (k - 1)
     se_kh = se * math.sqrt(q_scale)
+    # The "floored" variant keeps the scale factor at 1 or more (Roever, Knapp & Friede 2015).
+    se_khf = se * math.sqrt(max(1.0, q_scale))
     z = stats.norm.ppf(1 - a / 2)
     t = stats.t.ppf(1 - a / 2, k - 1)
     w0 = 1 / v
@@ -173,6 +190,8 @@ def summarize(y, v, tau2, level):
         "se_kh": se_kh,
         "ci_wald": [mu - z * se, mu + z * se],
         "ci_kh": [mu - t * se_kh, mu + t * se_kh],
+        "se_khf": se_khf,
+        "ci_khf": [mu - t * se_khf, mu + t * se_khf],
         "q": q,
         "q_p": float(stats.chi2.sf(q, k - 1)),
         "i2": 100 * tau2 / (tau2 + s2),
@@ -182,6 +201,7 @@ def summarize(y, v, tau2, level):
         tp = stats.t.ppf(1 - a / 2, k - 2)
         res["pi_wald"] = [mu - tp * math.sqrt(tau2 + se**2), mu + tp * math.sqrt(tau2 + se**2)]
         res["pi_kh"] = [mu - tp * math.sqrt(tau2 + se_kh**2), mu + tp * math.sqrt(tau2 + se_kh**2)]
+        res["pi_khf"] = [mu - tp * math.sqrt(tau2 + se_khf**2), mu + tp * math.sqrt(tau2 + se_khf**2)]
     return {k2: (float(x) if not isinstance(x, list) else [float(e) for e in x])
             for k2, x in res.items()}
 
@@ -198,8 +218,8 @@ def pool_case(name, y, v, level, source):
     k = len(y)
     out = {"name": name, "source": source, "level": level, "y": y.tolist(), "v": v.tolist(),
            "estimators": {}}
-    reml = solve_score(reml_score, y, v)
-    ml = solve_score(ml_score, y, v)
+    reml = solve_score(reml_score, reml_negloglik, y, v)
+    ml = solve_score(ml_score, ml_negloglik, y, v)
     if reml > 0:
         check_maximum(reml_negloglik, y, v, reml)
     if ml > 0:
@@ -210,9 +230,11 @@ def pool_case(name, y, v, level, source):
     dl = max(0.0, float(sm_dl.tau2))
     pm = max(0.0, float(sm_pm.tau2))
     pm_check = pm_direct(y, v)
-    # statsmodels' Paule-Mandel iteration stops at 0 when a step overshoots (it then
-    # reports no convergence); use it only when it reached the root.
-    sm_pm_reached = not (pm == 0.0 and q_gen(y, v, 0.0) > k - 1)
+    # statsmodels' Paule-Mandel iteration can stop short (at 0 when a step overshoots, or
+    # at its iteration limit); use it only when it reached the root of Q(tau2) = k - 1.
+    q0 = q_gen(y, v, 0.0)
+    sm_pm_reached = (pm == 0.0 and q0 <= k - 1) or \
+        (pm > 0.0 and abs(q_gen(y, v, pm) - (k - 1)) < 1e-8 * (k - 1))
     if sm_pm_reached:
         assert abs(pm - pm_check) < 1e-8 * max(1.0, pm), (pm, pm_check)
     w = 1 / v
@@ -278,6 +300,14 @@ def pool_fixture():
         y, v = bonett_sheet(rng, k, tau, lo, hi)
         cases.append(pool_case(f"bonett_k{k}_tau{tau}", y, v, level,
                                "numpy draws on the Bonett scale (seed 20261201)"))
+    # Untransformed alphas whose restricted likelihood has two local maxima (the lower
+    # one near zero): the estimators must find the higher one.
+    alphas = np.array([0.999, 0.9999, 0.5, -0.3])
+    n = np.array([30.0, 40.0, 35.0, 25.0])
+    items = np.array([6.0, 6.0, 6.0, 4.0])
+    cases.append(pool_case("two_maxima_raw", alphas,
+                           2 * items * (1 - alphas) ** 2 / ((items - 1) * (n - 2)), 0.95,
+                           "hand-made: raw alphas with a bimodal restricted likelihood"))
     # Effects identical up to rounding: every estimator at or next to zero.
     cases.append(pool_case("homogeneous", [0.4, 0.41, 0.39, 0.4, 0.405],
                            [0.01, 0.02, 0.015, 0.03, 0.01], 0.95, "hand-made, nearly equal"))

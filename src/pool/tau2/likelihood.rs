@@ -1,7 +1,7 @@
 //! Fisher scoring for the (restricted) likelihood of the random-effects model, shared
 //! by the ML and REML estimators.
 
-use super::{TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Tau2Fit, Termination};
+use super::{TAU2_FLOOR, TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Tau2Fit, Termination};
 use crate::error::{Error, Result};
 use crate::pool::data::{MetaData, WeightedFit, cross_product};
 
@@ -44,8 +44,43 @@ fn score_and_information(d: &MetaData, fit: &WeightedFit, restricted: bool) -> (
     (0.5 * (ypp_y - tr_p), 0.5 * tr_pp)
 }
 
+/// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring from several
+/// starting values (the likelihood can have more than one local maximum), keeping the
+/// highest maximum found.
+pub(super) fn maximize(d: &MetaData, starts: &[f64], restricted: bool) -> Result<Tau2Fit> {
+    let mut best: Option<(Tau2Fit, f64)> = None;
+    let mut tried: Vec<f64> = Vec::new();
+    for &s in starts {
+        let s = s.max(0.0);
+        if !s.is_finite()
+            || tried
+                .iter()
+                .any(|t| (t - s).abs() <= TAU2_TOLERANCE * t.max(1.0))
+        {
+            continue;
+        }
+        tried.push(s);
+        let fit = fisher_scoring(d, s, restricted)?;
+        let ll = log_lik(d, &d.fit_at(fit.tau2)?, fit.tau2, restricted);
+        let better = match &best {
+            None => true,
+            Some((b, bll)) => {
+                ll > *bll + 1e-12 * bll.abs().max(1.0) || (!b.converged() && fit.converged())
+            }
+        };
+        if better {
+            let iterations = best.map(|(b, _)| b.iterations).unwrap_or(0) + fit.iterations;
+            best = Some((Tau2Fit { iterations, ..fit }, ll));
+        } else if let Some((b, _)) = &mut best {
+            b.iterations += fit.iterations;
+        }
+    }
+    best.map(|(f, _)| f)
+        .ok_or_else(|| Error::Numerical("no starting value for τ² could be used".into()))
+}
+
 /// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring with step halving.
-pub(super) fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<Tau2Fit> {
+fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<Tau2Fit> {
     let mut tau2 = start.max(0.0);
     let mut fit = d.fit_at(tau2)?;
     let mut ll = log_lik(d, &fit, tau2, restricted);
@@ -72,7 +107,7 @@ pub(super) fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Resu
         tau2 = next;
         fit = next_fit;
         ll = next_ll;
-        if change < TAU2_TOLERANCE * tau2.max(1.0) {
+        if change < TAU2_TOLERANCE * tau2.max(TAU2_FLOOR) {
             return Ok(Tau2Fit {
                 tau2,
                 iterations: it,

@@ -1,10 +1,11 @@
 //! Maximum likelihood.
 
-use super::{Tau2Fit, dl, likelihood::fisher_scoring};
+use super::{Tau2Fit, dl, likelihood::maximize, sj};
 use crate::error::Result;
 use crate::pool::data::MetaData;
 
-/// ML estimate of τ² by Fisher scoring from the DerSimonian–Laird value, truncated at 0.
+/// ML estimate of τ² by Fisher scoring (truncated at 0) from the DerSimonian–Laird and the
+/// Sidik–Jonkman values, keeping the higher maximum.
 /// Biased downwards with few studies (it ignores the degrees of freedom used by the
 /// fixed effects).
 ///
@@ -13,6 +14,6 @@ use crate::pool::data::MetaData;
 /// random effects. *Statistics in Medicine*, 15(6), 619–629.
 /// Viechtbauer, W. (2005). *Journal of Educational and Behavioral Statistics*, 30(3), 261–293.
 pub(super) fn estimate(d: &MetaData) -> Result<Tau2Fit> {
-    let start = dl::estimate(d)?.tau2;
-    fisher_scoring(d, start, false)
+    let starts = [dl::estimate(d)?.tau2, sj::estimate(d)?.tau2];
+    maximize(d, &starts, false)
 }

@@ -15,9 +15,14 @@ use serde::Serialize;
 use std::fmt;
 use std::str::FromStr;
 
-/// Convergence tolerance of the iterative estimators: they stop when τ² changes by
-/// less than this times max(1, τ²).
+/// Convergence tolerance of the iterative estimators: on data rescaled by the median
+/// sampling variance, they stop when τ² changes by less than this times
+/// max(τ², [`TAU2_FLOOR`]), i.e. to 1e-10 relative unless τ² is tiny.
 pub const TAU2_TOLERANCE: f64 = 1e-10;
+
+/// Below this (in units of the median sampling variance) τ² is resolved absolutely, to
+/// TAU2_TOLERANCE × TAU2_FLOOR = 1e-14.
+pub const TAU2_FLOOR: f64 = 1e-4;
 
 /// Iteration limit of the iterative estimators.
 pub const TAU2_MAX_ITERATIONS: usize = 1000;
@@ -98,16 +103,21 @@ impl Tau2Estimator {
         }
     }
 
-    /// Estimate τ² from the data.
+    /// Estimate τ² from the data. The estimators work on data rescaled by the median
+    /// sampling variance, so that their tolerances are relative to it.
     pub fn estimate(self, d: &MetaData) -> Result<Tau2Fit> {
-        match self {
+        let (scaled, s) = d.rescaled();
+        let d = &scaled;
+        let mut fit = match self {
             Tau2Estimator::Reml => reml::estimate(d),
             Tau2Estimator::Ml => ml::estimate(d),
             Tau2Estimator::Dl => dl::estimate(d),
             Tau2Estimator::Pm => pm::estimate(d),
             Tau2Estimator::Sj => sj::estimate(d),
             Tau2Estimator::He => he::estimate(d),
-        }
+        }?;
+        fit.tau2 *= s;
+        Ok(fit)
     }
 }
 

@@ -1,6 +1,6 @@
 //! Paule–Mandel.
 
-use super::{TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Tau2Fit, Termination};
+use super::{TAU2_FLOOR, TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Tau2Fit, Termination};
 use crate::error::{Error, Result};
 use crate::numeric::{RootStop, brent_root};
 use crate::pool::data::MetaData;
@@ -68,7 +68,8 @@ pub(crate) fn root_of_q(
             f64::NAN
         }
     };
-    let xtol = TAU2_TOLERANCE * hi.max(1.0) * 1e-2;
+    // Brent adds a relative tolerance of 2ε|τ²| to this absolute one (rescaled units).
+    let xtol = TAU2_TOLERANCE * TAU2_FLOOR;
     let root = brent_root(f, lo, hi, xtol, TAU2_MAX_ITERATIONS);
     if let Some(e) = failure {
         return Err(e);

@@ -1,0 +1,149 @@
+//! Invariants of pooling that must hold for any data (property tests), and the
+//! regressions they guard (issue 2 review: scale, multiple maxima, degenerate agreement).
+
+mod common;
+use common::*;
+use proptest::prelude::*;
+use relyard::pool::{CiMethod, Model, PoolOptions, Tau2Estimator, pool};
+
+fn options(est: Tau2Estimator, ci: CiMethod) -> PoolOptions {
+    PoolOptions {
+        model: Model::Random(est),
+        ci,
+        level: 0.95,
+    }
+}
+
+fn data() -> impl Strategy<Value = (Vec<f64>, Vec<f64>)> {
+    (3usize..30).prop_flat_map(|k| {
+        (
+            prop::collection::vec(-3.0f64..3.0, k),
+            prop::collection::vec(0.001f64..2.0, k),
+        )
+    })
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(64))]
+
+    /// τ² ≥ 0, I² in [0, 100], the CI inside the prediction interval, the Q-profile
+    /// interval ordered — for every estimator and interval method.
+    #[test]
+    fn basic_invariants((y, v) in data()) {
+        for est in Tau2Estimator::ALL {
+            for ci in [CiMethod::Wald, CiMethod::KnappHartung, CiMethod::KnappHartungFloor] {
+                let r = pool(&y, &v, &options(est, ci)).unwrap();
+                prop_assert!(r.tau2.tau2 >= 0.0);
+                prop_assert!(r.tau2.converged());
+                prop_assert!((0.0..=100.0).contains(&r.i2));
+                prop_assert!(r.h2 >= 1.0 - 1e-12);
+                let pi = r.prediction.interval().unwrap();
+                prop_assert!(pi.lower <= r.ci.lower + 1e-12 && r.ci.upper <= pi.upper + 1e-12);
+                let t = r.tau2_ci.unwrap();
+                prop_assert!(0.0 <= t.lower && t.lower <= t.upper);
+            }
+        }
+    }
+
+    /// The order of the rows does not change the result.
+    #[test]
+    fn row_order_does_not_matter((y, v) in data(), seed in 0u64..1000) {
+        let k = y.len();
+        let mut idx: Vec<usize> = (0..k).collect();
+        idx.sort_by_key(|i| (i.wrapping_mul(2654435761) ^ seed as usize) % 1009);
+        let y2: Vec<f64> = idx.iter().map(|&i| y[i]).collect();
+        let v2: Vec<f64> = idx.iter().map(|&i| v[i]).collect();
+        for est in Tau2Estimator::ALL {
+            let a = pool(&y, &v, &options(est, CiMethod::KnappHartung)).unwrap();
+            let b = pool(&y2, &v2, &options(est, CiMethod::KnappHartung)).unwrap();
+            prop_assert!((a.tau2.tau2 - b.tau2.tau2).abs() <= 1e-8 * a.tau2.tau2.max(1e-6));
+            prop_assert!((a.estimate - b.estimate).abs() <= 1e-9 * a.estimate.abs().max(1.0));
+        }
+    }
+
+    /// With τ² = 0 assumed, the random-effects formulas give the common-effect result.
+    #[test]
+    fn common_effect_is_random_effects_at_zero((y, v) in data()) {
+        let c = pool(&y, &v, &PoolOptions { model: Model::Common, ci: CiMethod::Wald, level: 0.95 }).unwrap();
+        let w: Vec<f64> = v.iter().map(|x| 1.0 / x).collect();
+        let sw: f64 = w.iter().sum();
+        let mean = w.iter().zip(&y).map(|(w, y)| w * y).sum::<f64>() / sw;
+        prop_assert!((c.estimate - mean).abs() <= 1e-12 * mean.abs().max(1.0));
+        prop_assert!((c.se - sw.powf(-0.5)).abs() <= 1e-12);
+    }
+}
+
+/// Results scale with the data: effects × a and variances × a² give τ² × a² (regression:
+/// tolerances used to be absolute, so tiny variances gave wrong "converged" answers).
+#[test]
+fn estimates_scale_with_the_data() {
+    let f = fixture("pool.json");
+    for c in f["cases"].as_array().unwrap() {
+        let y = floats(&c["y"]);
+        let v = floats(&c["v"]);
+        let name = c["name"].as_str().unwrap();
+        for a in [1e-9, 1e6] {
+            let ys: Vec<f64> = y.iter().map(|x| x * a).collect();
+            let vs: Vec<f64> = v.iter().map(|x| x * a * a).collect();
+            for est in Tau2Estimator::ALL {
+                let base = pool(&y, &v, &options(est, CiMethod::Wald)).unwrap();
+                let scaled = pool(&ys, &vs, &options(est, CiMethod::Wald)).unwrap();
+                let what = format!("{name} {} ×{a}", est.name());
+                assert_close(
+                    scaled.tau2.tau2 / (a * a),
+                    base.tau2.tau2,
+                    1e-7,
+                    1e-12,
+                    &what,
+                );
+                assert_close(scaled.estimate / a, base.estimate, 1e-9, 1e-12, &what);
+                let (b, s) = (base.tau2_ci.unwrap(), scaled.tau2_ci.unwrap());
+                assert_close(s.upper / (a * a), b.upper, 1e-7, 1e-12, &what);
+                assert_close(s.lower / (a * a), b.lower, 1e-7, 1e-12, &what);
+            }
+        }
+    }
+}
+
+/// Identical coefficients: Knapp–Hartung's scale factor is 0 and its interval has no
+/// width — a warning says so; the floored variant gives the Wald width with t quantiles.
+#[test]
+fn identical_coefficients_and_the_knapp_hartung_floor() {
+    let y = vec![-1.6094379124341003; 4];
+    let v = vec![0.02, 0.015, 0.03, 0.01];
+    let kh = pool(
+        &y,
+        &v,
+        &options(Tau2Estimator::Reml, CiMethod::KnappHartung),
+    )
+    .unwrap();
+    assert!(
+        kh.warnings
+            .iter()
+            .any(|w| w.code() == "knapp_hartung_below_one")
+    );
+    let floor = pool(
+        &y,
+        &v,
+        &options(Tau2Estimator::Reml, CiMethod::KnappHartungFloor),
+    )
+    .unwrap();
+    assert!(
+        !floor
+            .warnings
+            .iter()
+            .any(|w| w.code() == "knapp_hartung_below_one")
+    );
+    let sw: f64 = v.iter().map(|x| 1.0 / x).sum();
+    let t = relyard::dist::t_quantile(0.975, 3.0);
+    assert_close(
+        floor.ci.upper - floor.ci.lower,
+        2.0 * t / sw.sqrt(),
+        1e-12,
+        0.0,
+        "floored width",
+    );
+    // Q(0) = 0 lies below even the lower χ² quantile: both ends of τ²'s interval are 0.
+    assert!(floor.tau2_ci.unwrap().upper_at_zero);
+    assert!(floor.prediction_at_tau2_upper.is_none());
+}
