@@ -17,6 +17,10 @@ pub struct Cli {
 pub enum Command {
     /// Pool the coefficients of a coding sheet into a benchmark with an expected range.
     Pool(PoolArgs),
+    /// Explain differences between studies: moderators, score spread, subgroups, influence.
+    Explain(ExplainArgs),
+    /// Place a new study against the benchmark: expected range, percentile and verdict.
+    Check(CheckArgs),
     /// Write an empty coding sheet and its data dictionary.
     Template(TemplateArgs),
 }
@@ -44,11 +48,9 @@ pub struct SheetArgs {
     pub skip_invalid: bool,
 }
 
+/// The benchmark model, shared by the commands that fit one.
 #[derive(Debug, Args)]
-pub struct PoolArgs {
-    #[command(flatten)]
-    pub sheet: SheetArgs,
-
+pub struct ModelArgs {
     /// Analysis scale: bonett, hakstian-whalen, fisher-z, raw, or none (the sheet's coef
     /// and var columns already hold the effect and its sampling variance)
     /// [default: bonett for internal-consistency coefficients, fisher-z for retest and
@@ -61,7 +63,8 @@ pub struct PoolArgs {
     #[arg(long, value_name = "METHOD", default_value = "reml")]
     pub tau2: String,
 
-    /// Confidence interval for the pooled value: knapp-hartung or wald.
+    /// Confidence intervals: knapp-hartung, knapp-hartung-floor (its scale factor kept at
+    /// 1 or more) or wald.
     #[arg(long, value_name = "METHOD", default_value = "knapp-hartung")]
     pub ci: String,
 
@@ -73,6 +76,40 @@ pub struct PoolArgs {
     /// --transform).
     #[arg(long)]
     pub allow_mixed_types: bool,
+}
+
+/// Moderators of a meta-regression, shared by explain and check.
+#[derive(Debug, Args)]
+pub struct ModeratorArgs {
+    /// A column that may explain differences between studies (repeatable). Numeric when
+    /// every value is a number, categorical otherwise (treatment coding against a
+    /// reference level). The standard columns n, items, sd, scale_min and scale_max can
+    /// serve too.
+    #[arg(long = "moderator", value_name = "NAME")]
+    pub moderators: Vec<String>,
+
+    /// Treat this moderator as categorical even if its values are numbers (repeatable).
+    #[arg(long = "categorical", value_name = "NAME")]
+    pub categorical: Vec<String>,
+
+    /// Reference level of a categorical moderator, NAME=LEVEL (repeatable) [default: the
+    /// level with most studies].
+    #[arg(long = "reference", value_name = "NAME=LEVEL")]
+    pub references: Vec<String>,
+
+    /// Metric the score SDs are put on for the score-spread model: per-item or pomp
+    /// [default: pomp when every study gives its response scale, else per-item].
+    #[arg(long, value_name = "METRIC")]
+    pub spread_metric: Option<String>,
+}
+
+#[derive(Debug, Args)]
+pub struct PoolArgs {
+    #[command(flatten)]
+    pub sheet: SheetArgs,
+
+    #[command(flatten)]
+    pub model: ModelArgs,
 
     /// Name of the measure, used in the paragraph (e.g. "the Team Candor Scale").
     #[arg(long, value_name = "NAME")]
@@ -81,6 +118,103 @@ pub struct PoolArgs {
     /// Also list every pooled study with its transformed value, variance and weight.
     #[arg(long)]
     pub studies: bool,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ExplainArgs {
+    #[command(flatten)]
+    pub sheet: SheetArgs,
+
+    #[command(flatten)]
+    pub model: ModelArgs,
+
+    #[command(flatten)]
+    pub moderators: ModeratorArgs,
+
+    /// Test whether differences in score spread explain the differences between
+    /// coefficients (regression of ln(1 − coefficient) on ln(SD); always on the Bonett
+    /// scale).
+    #[arg(long)]
+    pub score_spread: bool,
+
+    /// A benchmark per value of this column, with a test of the difference between groups.
+    #[arg(long, value_name = "COLUMN")]
+    pub by: Option<String>,
+
+    /// Leave each study out in turn: studentized residuals, Cook's distances, outliers.
+    #[arg(long)]
+    pub influence: bool,
+
+    /// Permutation test of the moderators with this many permutations (spread over all
+    /// cores; a progress bar shows on a terminal).
+    #[arg(long, value_name = "N")]
+    pub permutations: Option<usize>,
+
+    /// Seed of the permutations (results are the same for a seed whatever the number of
+    /// threads).
+    #[arg(long, value_name = "SEED", default_value_t = 1)]
+    pub seed: u64,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct CheckArgs {
+    #[command(flatten)]
+    pub sheet: SheetArgs,
+
+    #[command(flatten)]
+    pub model: ModelArgs,
+
+    #[command(flatten)]
+    pub moderators: ModeratorArgs,
+
+    /// The new study's observed coefficient.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub coef: f64,
+
+    /// The new study's sample size.
+    #[arg(long, value_name = "N")]
+    pub n: u64,
+
+    /// The new study's number of items (needed for internal-consistency coefficients).
+    #[arg(long, value_name = "K")]
+    pub items: Option<u32>,
+
+    /// The kind of the new study's coefficient [default: alpha].
+    #[arg(long, value_name = "TYPE", default_value = "alpha")]
+    pub coef_type: String,
+
+    /// The new study's score SD (then --sd-metric, and for the POMP metric --scale-min and
+    /// --scale-max): says how much of a shortfall its score spread accounts for.
+    #[arg(long, value_name = "S")]
+    pub sd: Option<f64>,
+
+    /// Whether --sd is for sum or mean scores.
+    #[arg(long, value_name = "METRIC")]
+    pub sd_metric: Option<String>,
+
+    /// Lowest possible response to one item of the new study's scale.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub scale_min: Option<f64>,
+
+    /// Highest possible response to one item of the new study's scale.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub scale_max: Option<f64>,
+
+    /// The new study's value of a moderator, NAME=VALUE (repeatable; one per --moderator).
+    #[arg(long = "at", value_name = "NAME=VALUE")]
+    pub at: Vec<String>,
+
+    /// Name of the measure, used in the paragraph.
+    #[arg(long, value_name = "NAME")]
+    pub measure: Option<String>,
 
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]

@@ -2,9 +2,12 @@
 //! configuration (`config`) before any work runs; each command has its own module.
 
 mod args;
+mod check;
 mod config;
+mod explain;
 mod output;
 mod pool;
+mod progress;
 mod template;
 
 use clap::Parser;
@@ -33,6 +36,10 @@ pub fn run() -> i32 {
     };
     let result = match cli.command {
         args::Command::Pool(a) => config::PoolConfig::from_args(a).and_then(|c| pool::run(&c)),
+        args::Command::Explain(a) => {
+            config::ExplainConfig::from_args(a).and_then(|c| explain::run(&c))
+        }
+        args::Command::Check(a) => config::CheckConfig::from_args(a).and_then(|c| check::run(&c)),
         args::Command::Template(a) => {
             config::TemplateConfig::from_args(a).and_then(|c| template::run(&c))
         }

@@ -2,6 +2,8 @@
 //! researcher can adapt for a paper. Everything here builds strings or serialisable
 //! values; printing is the binary's job.
 
+pub mod check;
+pub mod explain;
 pub mod format;
 pub mod json;
 pub mod paragraph;

@@ -1,0 +1,33 @@
+//! `relyard check`: place a new study against the benchmark.
+
+use super::config::{CheckConfig, fit_options};
+use super::output::{Failure, print, warn_all};
+use relyard::benchmark::prepare;
+use relyard::placement::place;
+use relyard::report::check::{CheckDocument, check_paragraph, check_summary};
+use relyard::sheet::read_coding_sheet;
+
+pub fn run(c: &CheckConfig) -> Result<(), Failure> {
+    let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
+    let prepared = prepare(sheet, &c.benchmark)?;
+    let opts = fit_options(&c.benchmark);
+    let pl = place(
+        &prepared,
+        &c.study,
+        &c.moderators.specs,
+        &c.at,
+        c.moderators.spread_metric,
+        &opts,
+    )?;
+    let paragraph = check_paragraph(&prepared, &pl, c.measure.as_deref());
+    warn_all(&pl.warnings);
+    if c.json {
+        let doc = CheckDocument::new(&prepared, &pl, &paragraph, &pl.warnings);
+        let mut text = serde_json::to_string_pretty(&doc)
+            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
+        text.push('\n');
+        print(&text)
+    } else {
+        print(&check_summary(&prepared, &pl, &paragraph))
+    }
+}

@@ -1,0 +1,74 @@
+//! `relyard explain`: moderators, score spread, subgroups and influence.
+
+use super::config::{ExplainConfig, fit_options};
+use super::output::{Failure, print, warn_all};
+use super::progress::bar;
+use relyard::benchmark::prepare;
+use relyard::metareg::influence::influence;
+use relyard::metareg::permutation::permutation_test;
+use relyard::metareg::spread::score_spread;
+use relyard::metareg::subgroups::subgroups;
+use relyard::metareg::{build_design, explain};
+use relyard::report::explain::{ExplainDocument, ExplainParts, explain_summary};
+use relyard::sheet::read_coding_sheet;
+
+pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
+    let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
+    let prepared = prepare(sheet, &c.benchmark)?;
+    let opts = fit_options(&c.benchmark);
+    let design = build_design(&prepared, &c.moderators.specs)?;
+    let main = explain(&prepared, design, &opts)?;
+    let mut warnings = prepared.warnings.clone();
+    warnings.extend(main.warnings.iter().cloned());
+
+    let permutation = match c.permutations {
+        Some(n) => {
+            let pb = bar(n, "permutations");
+            let r = permutation_test(&prepared, &main, n, c.seed, &|d| pb.inc(d as u64))?;
+            pb.finish_and_clear();
+            Some(r)
+        }
+        None => None,
+    };
+    let spread = if c.score_spread {
+        let s = score_spread(&prepared, c.moderators.spread_metric, &c.moderators.specs, &opts)?;
+        warnings.extend(s.fit.warnings.iter().cloned());
+        if !s.excluded.is_empty() {
+            warnings.push(relyard::Warning::RowsLeftOutOfModel {
+                rows: s.excluded.iter().map(|e| e.row).collect(),
+                why: "their SD cannot be put on a common metric (score-spread model)".into(),
+            });
+        }
+        Some(s)
+    } else {
+        None
+    };
+    let groups = match &c.by {
+        Some(col) => Some(subgroups(&prepared, col, &c.benchmark.pool)?),
+        None => None,
+    };
+    let infl = if c.influence {
+        Some(influence(&main.data(&prepared)?, &main.fit)?)
+    } else {
+        None
+    };
+    warn_all(&warnings);
+    let parts = ExplainParts {
+        prepared: &prepared,
+        main: &main,
+        permutation: permutation.as_ref(),
+        spread: spread.as_ref(),
+        subgroups: groups.as_ref(),
+        influence: infl.as_deref(),
+        warnings: &warnings,
+    };
+    if c.json {
+        let doc = ExplainDocument::new(&parts);
+        let mut text = serde_json::to_string_pretty(&doc)
+            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
+        text.push('\n');
+        print(&text)
+    } else {
+        print(&explain_summary(&parts))
+    }
+}
