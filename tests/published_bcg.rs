@@ -106,3 +106,130 @@ fn bcg_through_the_command_line() {
     assert_eq!(j["k"], 13);
     assert!(j["reliability"].is_null());
 }
+
+fn latitude_design(k: usize) -> nalgebra::DMatrix<f64> {
+    let trials = bcg_trials();
+    nalgebra::DMatrix::from_fn(k, 2, |i, j| if j == 0 { 1.0 } else { trials[i][4] })
+}
+
+/// Meta-regression on absolute latitude (issue 3). Log odds ratios by ML against van
+/// Houwelingen, Arends & Stijnen (2002) — from memory of that paper, confirmed by the
+/// independent numpy computation in tests/reference/fixtures/metareg.json
+/// (case bcg_or_latitude): intercept 0.371, latitude −0.033, residual τ² = 0.004.
+#[test]
+fn latitude_meta_regression_of_log_odds_ratios_by_ml() {
+    use relyard::pool::{FitOptions, MetaData, fit_model};
+    let (y, v) = bcg_log_or();
+    let d = MetaData::with_design(y, v, latitude_design(13)).unwrap();
+    let opts = FitOptions {
+        model: Model::Random(Tau2Estimator::Ml),
+        ci: CiMethod::Wald,
+        level: 0.95,
+        tau2_interval: false,
+    };
+    let f = fit_model(&d, &opts).unwrap();
+    assert_close(f.beta[0], 0.371, 0.0, PRINTED_3DP, "intercept");
+    assert_close(f.beta[1], -0.033, 0.0, PRINTED_3DP, "latitude");
+    assert_close(f.tau2.tau2, 0.004, 0.0, PRINTED_3DP, "residual tau2");
+}
+
+/// Log risk ratios on latitude by REML with Wald tests, values computed independently
+/// with numpy/scipy for this issue: intercept 0.251468 (SE 0.249095), latitude −0.029102
+/// (SE 0.007195), residual τ² = 0.076348, Q_E(11) = 30.7331, QM = 16.358, R² = 75.63%;
+/// with Knapp–Hartung the latitude SE is 0.008201. Run through the command line.
+#[test]
+fn latitude_meta_regression_of_log_risk_ratios_by_reml() {
+    let dir = scratch("bcg-latitude");
+    let (y, v) = bcg_log_rr();
+    let trials = bcg_trials();
+    let mut text = String::from("study,coef,var,ablat\n");
+    for i in 0..13 {
+        text.push_str(&format!(
+            "trial {},{:.17e},{:.17e},{}\n",
+            i + 1,
+            y[i],
+            v[i],
+            trials[i][4]
+        ));
+    }
+    let path = write_file(&dir, "bcg.csv", text.as_bytes());
+    let run = |ci: &str| {
+        let out = relyard(&[
+            "explain",
+            &path,
+            "--transform",
+            "none",
+            "--moderator",
+            "ablat",
+            "--ci",
+            ci,
+            "--json",
+        ]);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice::<serde_json::Value>(&out.stdout).unwrap()
+    };
+    let j = run("wald");
+    let six = 5e-7;
+    let c = &j["coefficients"];
+    assert_eq!(c[1]["name"], "ablat");
+    assert_close(
+        c[0]["estimate"].as_f64().unwrap(),
+        0.251468,
+        0.0,
+        six,
+        "intercept",
+    );
+    assert_close(
+        c[0]["se"].as_f64().unwrap(),
+        0.249095,
+        0.0,
+        six,
+        "intercept SE",
+    );
+    assert_close(
+        c[1]["estimate"].as_f64().unwrap(),
+        -0.029102,
+        0.0,
+        six,
+        "latitude",
+    );
+    assert_close(
+        c[1]["se"].as_f64().unwrap(),
+        0.007195,
+        0.0,
+        six,
+        "latitude SE",
+    );
+    assert_close(
+        j["tau2"].as_f64().unwrap(),
+        0.076348,
+        0.0,
+        six,
+        "residual tau2",
+    );
+    assert_close(j["qe"].as_f64().unwrap(), 30.7331, 0.0, 5e-5, "Q_E");
+    assert_eq!(j["qe_df"], 11.0);
+    assert_close(
+        j["omnibus"]["statistic"].as_f64().unwrap(),
+        16.358,
+        0.0,
+        5e-4,
+        "QM",
+    );
+    assert_eq!(j["omnibus"]["df"], 1.0);
+    assert_close(j["r2"].as_f64().unwrap(), 75.63, 0.0, 5e-3, "R2");
+    let kh = run("knapp-hartung");
+    assert_close(
+        kh["coefficients"][1]["se"].as_f64().unwrap(),
+        0.008201,
+        0.0,
+        six,
+        "KH latitude SE",
+    );
+    assert_eq!(kh["omnibus"]["df2"], 11.0);
+}

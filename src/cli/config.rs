@@ -105,12 +105,20 @@ pub struct ModeratorConfig {
 
 impl ModeratorConfig {
     fn from_args(a: ModeratorArgs) -> Result<Self, Failure> {
-        let mut specs: Vec<ModeratorSpec> = a.moderators.iter().map(|m| ModeratorSpec::auto(m.trim())).collect();
+        let mut specs: Vec<ModeratorSpec> = a
+            .moderators
+            .iter()
+            .map(|m| ModeratorSpec::auto(m.trim()))
+            .collect();
         for c in &a.categorical {
             let spec = specs
                 .iter_mut()
                 .find(|s| s.name.eq_ignore_ascii_case(c.trim()))
-                .ok_or_else(|| bad(format!("--categorical {c}: {c} is not given as --moderator")))?;
+                .ok_or_else(|| {
+                    bad(format!(
+                        "--categorical {c}: {c} is not given as --moderator"
+                    ))
+                })?;
             spec.kind = ModeratorKind::Categorical;
         }
         for r in &a.references {
@@ -120,7 +128,11 @@ impl ModeratorConfig {
             let spec = specs
                 .iter_mut()
                 .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
-                .ok_or_else(|| bad(format!("--reference {r}: {name} is not given as --moderator")))?;
+                .ok_or_else(|| {
+                    bad(format!(
+                        "--reference {r}: {name} is not given as --moderator"
+                    ))
+                })?;
             if spec.reference.is_some() {
                 return Err(bad(format!("--reference for {name} is given twice")));
             }
@@ -194,7 +206,9 @@ impl ExplainConfig {
         }
         if let Some(n) = a.permutations {
             if moderators.specs.is_empty() {
-                return Err(bad("--permutations tests moderators; give at least one --moderator"));
+                return Err(bad(
+                    "--permutations tests moderators; give at least one --moderator",
+                ));
             }
             if n == 0 {
                 return Err(bad("--permutations must be at least 1"));
@@ -258,8 +272,11 @@ impl CheckConfig {
         {
             return Err(bad(format!("--sd must be a number above 0 (got {sd})")));
         }
-        if a.sd.is_none() && (sd_metric.is_some() || a.scale_min.is_some() || a.scale_max.is_some()) {
-            return Err(bad("--sd-metric, --scale-min and --scale-max describe --sd; give --sd too"));
+        if a.sd.is_none() && (sd_metric.is_some() || a.scale_min.is_some() || a.scale_max.is_some())
+        {
+            return Err(bad(
+                "--sd-metric, --scale-min and --scale-max describe --sd; give --sd too",
+            ));
         }
         if let (Some(lo), Some(hi)) = (a.scale_min, a.scale_max)
             && lo >= hi

@@ -31,7 +31,12 @@ pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
         None => None,
     };
     let spread = if c.score_spread {
-        let s = score_spread(&prepared, c.moderators.spread_metric, &c.moderators.specs, &opts)?;
+        let s = score_spread(
+            &prepared,
+            c.moderators.spread_metric,
+            &c.moderators.specs,
+            &opts,
+        )?;
         warnings.extend(s.fit.warnings.iter().cloned());
         if !s.excluded.is_empty() {
             warnings.push(relyard::Warning::RowsLeftOutOfModel {

@@ -202,6 +202,10 @@ pub struct ScoreSpread {
     pub typical_sd: f64,
     /// The studies' SDs on the chosen metric, in model order.
     pub sds: Vec<f64>,
+    /// Reliability of ln(SD) across the studies: 1 − (mean sampling variance of ln SD,
+    /// 1/(2(n − 1))) / (variance of ln SD between studies). The slope is attenuated
+    /// towards 0 by about this factor; `None` when it cannot be computed.
+    pub sd_reliability: Option<f64>,
     /// The design of the other moderators over the studies with an SD (for predictions).
     pub others: super::design::Design,
 }
@@ -380,6 +384,22 @@ pub fn score_spread(
         (false, false) => SpreadReading::AccountsForPart,
     };
     let model_sds: Vec<f64> = used.iter().map(|&i| sds[i]).collect();
+    let sd_reliability = {
+        let n = log_sd.len() as f64;
+        let mean = log_sd.iter().sum::<f64>() / n;
+        let between = log_sd.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
+        let errors: Vec<f64> = used
+            .iter()
+            .filter_map(|&i| sub.records[i].n)
+            .filter(|&m| m > 1)
+            .map(|m| 1.0 / (2.0 * (m as f64 - 1.0)))
+            .collect();
+        if errors.len() == used.len() && between > 0.0 {
+            Some((1.0 - errors.iter().sum::<f64>() / errors.len() as f64 / between).max(0.0))
+        } else {
+            None
+        }
+    };
     let rows = used.iter().map(|&i| sub.records[i].row).collect();
     Ok(ScoreSpread {
         metric,
@@ -395,6 +415,7 @@ pub fn score_spread(
         reading,
         typical_sd: median(&model_sds),
         sds: model_sds,
+        sd_reliability,
         fit,
         others: base,
     })

@@ -138,7 +138,10 @@ pub fn check_paragraph(p: &Prepared, pl: &Placement, measure: Option<&str>) -> P
     }
     let _ = p;
     refs.sort();
-    Paragraph { text: s, references: refs }
+    Paragraph {
+        text: s,
+        references: refs,
+    }
 }
 
 /// Render the check summary.
@@ -157,14 +160,22 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
         p.rows_read,
         p.records.len()
     );
-    let _ = writeln!(o, "  scale         {}: {}", pl.transform.label(), pl.transform.get().formula());
+    let _ = writeln!(
+        o,
+        "  scale         {}: {}",
+        pl.transform.label(),
+        pl.transform.get().formula()
+    );
     let _ = writeln!(
         o,
         "  new study     {} = {}, n = {}{}",
         pl.study.coef_type.name(),
         c3(pl.study.coef),
         thousands(pl.study.n),
-        pl.study.items.map(|k| format!(", {k} items")).unwrap_or_default()
+        pl.study
+            .items
+            .map(|k| format!(", {k} items"))
+            .unwrap_or_default()
     );
     if !pl.at.is_empty() {
         let parts: Vec<String> = pl.at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
@@ -172,7 +183,12 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
     }
     let _ = writeln!(o);
     let _ = writeln!(o, "  {:<44}{}", "expected coefficient", c3(pl.expected));
-    let _ = writeln!(o, "  {:<44}{}", format!("{level} confidence interval"), r(pl.ci));
+    let _ = writeln!(
+        o,
+        "  {:<44}{}",
+        format!("{level} confidence interval"),
+        r(pl.ci)
+    );
     let _ = writeln!(
         o,
         "  {:<44}{}   (t with {} df)",
@@ -183,10 +199,18 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
     let _ = writeln!(
         o,
         "  {:<44}{}",
-        format!("{level} range for an observed coefficient (n = {})", thousands(pl.study.n)),
+        format!(
+            "{level} range for an observed coefficient (n = {})",
+            thousands(pl.study.n)
+        ),
         r(pl.pi_observed)
     );
-    let _ = writeln!(o, "  {:<44}{}", "percentile of the new study", ordinal(pl.percentile));
+    let _ = writeln!(
+        o,
+        "  {:<44}{}",
+        "percentile of the new study",
+        ordinal(pl.percentile)
+    );
     let verdict = match pl.verdict {
         Verdict::Below => "BELOW the expected range",
         Verdict::Within => "within the expected range",
@@ -195,8 +219,17 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
     let _ = writeln!(o, "  {:<44}{}", "verdict", verdict);
     if let Some(sp) = &pl.spread {
         let _ = writeln!(o);
-        let _ = writeln!(o, "  Score spread (Bonett scale; SD on the {} metric)", sp.metric);
-        let _ = writeln!(o, "    new study's SD {}, typical SD {}", significant(sp.sd, 3), significant(sp.typical_sd, 3));
+        let _ = writeln!(
+            o,
+            "  Score spread (Bonett scale; SD on the {} metric)",
+            sp.metric
+        );
+        let _ = writeln!(
+            o,
+            "    new study's SD {}, typical SD {}",
+            significant(sp.sd, 3),
+            significant(sp.typical_sd, 3)
+        );
         let _ = writeln!(
             o,
             "    expected coefficient at its SD {}, at the typical SD {}: score spread accounts for {}",
@@ -209,7 +242,11 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
             "    observed shortfall against the typical SD's expectation: {}",
             c3(sp.observed_shortfall)
         );
-        o.push_str(&wrap(&format!("Reading: {}.", sp.model.reading.sentence()), 84, "    "));
+        o.push_str(&wrap(
+            &format!("Reading: {}.", sp.model.reading.sentence()),
+            84,
+            "    ",
+        ));
     }
     let _ = writeln!(o);
     let _ = writeln!(o, "For your paper (adapt as needed)");

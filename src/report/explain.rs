@@ -54,23 +54,44 @@ fn model_line(fit: &ModelFit) -> String {
     let o = fit.options;
     let model = match o.model {
         Model::Common => "common effect (τ² = 0 assumed)".to_string(),
-        Model::Random(e) => format!("mixed effects; residual τ² by {} ({})", e.label(), e.abbreviation()),
+        Model::Random(e) => format!(
+            "mixed effects; residual τ² by {} ({})",
+            e.label(),
+            e.abbreviation()
+        ),
     };
     let tests = match o.ci {
         CiMethod::Wald => "Wald tests (z; omnibus χ²)".to_string(),
         CiMethod::KnappHartung | CiMethod::KnappHartungFloor => format!(
             "Knapp–Hartung tests (t with {} df; omnibus F){}",
             fit.k - fit.p,
-            if o.ci == CiMethod::KnappHartungFloor { ", factor at least 1" } else { "" }
+            if o.ci == CiMethod::KnappHartungFloor {
+                ", factor at least 1"
+            } else {
+                ""
+            }
         ),
     };
     format!("{model}; {tests}; level {}", percent_level(o.level))
 }
 
 /// The coefficient table of a fit.
-fn coefficient_table(o: &mut String, names: &[String], fit: &ModelFit, perm: Option<&[Option<f64>]>) {
+fn coefficient_table(
+    o: &mut String,
+    names: &[String],
+    fit: &ModelFit,
+    perm: Option<&[Option<f64>]>,
+) {
     let level = percent_level(fit.options.level);
-    let _ = write!(o, "  {:<34} {:>9} {:>8} {:>22} {:>9}", "", "estimate", "SE", format!("{level} CI"), "p");
+    let _ = write!(
+        o,
+        "  {:<34} {:>9} {:>8} {:>22} {:>9}",
+        "",
+        "estimate",
+        "SE",
+        format!("{level} CI"),
+        "p"
+    );
     if perm.is_some() {
         let _ = write!(o, " {:>9}", "perm. p");
     }
@@ -87,7 +108,11 @@ fn coefficient_table(o: &mut String, names: &[String], fit: &ModelFit, perm: Opt
             p_value(c.p).replace("= ", "")
         );
         if let Some(pp) = perm {
-            let _ = write!(o, " {:>9}", pp[j].map(|p| fixed(p, 4)).unwrap_or_else(|| "–".into()));
+            let _ = write!(
+                o,
+                " {:>9}",
+                pp[j].map(|p| fixed(p, 4)).unwrap_or_else(|| "–".into())
+            );
         }
         let _ = writeln!(o);
     }
@@ -101,7 +126,11 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
     let level = percent_level(fit.options.level);
     let mut o = String::new();
     let rule = "─".repeat(72);
-    let _ = writeln!(o, "Explaining differences between {} coded studies", p.records.len());
+    let _ = writeln!(
+        o,
+        "Explaining differences between {} coded studies",
+        p.records.len()
+    );
     let _ = writeln!(o, "{rule}");
     let _ = writeln!(
         o,
@@ -112,7 +141,12 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
         p.records.len(),
         p.skipped.len()
     );
-    let _ = writeln!(o, "  scale         {}: {}", p.transform.label(), p.transform.get().formula());
+    let _ = writeln!(
+        o,
+        "  scale         {}: {}",
+        p.transform.label(),
+        p.transform.get().formula()
+    );
     let _ = writeln!(o, "  model         {}", model_line(fit));
 
     if !ex.design.moderators.is_empty() {
@@ -123,8 +157,14 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
                 Moderator::Numeric { name, .. } => {
                     let _ = writeln!(o, "  {name}: numeric");
                 }
-                Moderator::Categorical { name, reference, counts, .. } => {
-                    let levels: Vec<String> = counts.iter().map(|(l, k)| format!("{l} ({k})")).collect();
+                Moderator::Categorical {
+                    name,
+                    reference,
+                    counts,
+                    ..
+                } => {
+                    let levels: Vec<String> =
+                        counts.iter().map(|(l, k)| format!("{l} ({k})")).collect();
                     let _ = writeln!(
                         o,
                         "  {name}: categorical, reference level \"{reference}\"; levels (studies): {}",
@@ -135,7 +175,12 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
         }
         let _ = writeln!(o);
         let _ = writeln!(o, "  ({})", scale_note(p.transform));
-        coefficient_table(&mut o, &ex.design.names, fit, parts.permutation.map(|r| r.coefficient_p.as_slice()));
+        coefficient_table(
+            &mut o,
+            &ex.design.names,
+            fit,
+            parts.permutation.map(|r| r.coefficient_p.as_slice()),
+        );
         let _ = writeln!(o);
         if let Some(om) = ex.omnibus {
             let (name, df) = match om.df2 {
@@ -164,7 +209,10 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
                 );
             }
             None => {
-                let _ = writeln!(o, "  R²                          not defined: τ² without moderators is 0");
+                let _ = writeln!(
+                    o,
+                    "  R²                          not defined: τ² without moderators is 0"
+                );
             }
         }
     }
@@ -172,7 +220,12 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
     let _ = writeln!(o, "  Residual heterogeneity");
     let tau_ci = fit
         .tau2_ci
-        .map(|c| format!("   {level} CI {} (Q-profile)", range(c.lower, c.upper, |x| significant(x, 3))))
+        .map(|c| {
+            format!(
+                "   {level} CI {} (Q-profile)",
+                range(c.lower, c.upper, |x| significant(x, 3))
+            )
+        })
         .unwrap_or_default();
     let _ = writeln!(o, "    τ²   {}{tau_ci}", significant(fit.tau2.tau2, 3));
     let _ = writeln!(o, "    I²   {}%", fixed(fit.i2, 1));
@@ -189,9 +242,17 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
         } else {
             String::new()
         };
-        let _ = writeln!(o, "  Permutation test: {} permutations, seed {}{failed}", r.permutations, r.seed);
+        let _ = writeln!(
+            o,
+            "  Permutation test: {} permutations, seed {}{failed}",
+            r.permutations, r.seed
+        );
     }
-    list_excluded(&mut o, "Rows left out of the model (missing moderator value)", &ex.design.excluded);
+    list_excluded(
+        &mut o,
+        "Rows left out of the model (missing moderator value)",
+        &ex.design.excluded,
+    );
 
     if let Some(s) = parts.spread {
         spread_section(&mut o, s, &level);
@@ -224,13 +285,20 @@ fn list_excluded(o: &mut String, title: &str, rows: &[crate::metareg::ExcludedRo
 
 fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
     let _ = writeln!(o);
-    let _ = writeln!(o, "Score spread (always on the Bonett scale, ln(1 − coefficient), whatever --transform says)");
+    let _ = writeln!(
+        o,
+        "Score spread (always on the Bonett scale, ln(1 − coefficient), whatever --transform says)"
+    );
     let _ = writeln!(
         o,
         "  model: ln(1 − coefficient) on ln(SD), SD on the {} metric; {} studies{}",
         s.metric,
         s.rows.len(),
-        if s.names.len() > 2 { format!("; also {}", s.names[2..].join(", ")) } else { String::new() }
+        if s.names.len() > 2 {
+            format!("; also {}", s.names[2..].join(", "))
+        } else {
+            String::new()
+        }
     );
     let _ = writeln!(
         o,
@@ -240,7 +308,11 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
         range(s.slope.ci.lower, s.slope.ci.upper, |x| fixed(x, 3))
     );
     let _ = writeln!(o, "  test slope = 0      p {}", p_value(s.p_zero));
-    let _ = writeln!(o, "  test slope = −2     p {}   (−2: constant error variance)", p_value(s.p_minus_two));
+    let _ = writeln!(
+        o,
+        "  test slope = −2     p {}   (−2: constant error variance)",
+        p_value(s.p_minus_two)
+    );
     match s.tau2_share {
         Some(sh) => {
             let _ = writeln!(
@@ -252,12 +324,33 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
             );
         }
         None => {
-            let _ = writeln!(o, "  share of τ² explained: not defined (τ² without ln(SD) is 0)");
+            let _ = writeln!(
+                o,
+                "  share of τ² explained: not defined (τ² without ln(SD) is 0)"
+            );
         }
     }
-    let _ = writeln!(o, "  typical (median) SD {} on the {} metric", significant(s.typical_sd, 3), s.metric);
+    let _ = writeln!(
+        o,
+        "  typical (median) SD {} on the {} metric",
+        significant(s.typical_sd, 3),
+        s.metric
+    );
+    if let Some(rel) = s.sd_reliability {
+        let _ = writeln!(
+            o,
+            "  reliability of ln(SD) across studies {}: sampling error in the reported SDs \
+             flattens the slope by about {}%",
+            fixed(rel, 3),
+            fixed(100.0 * (1.0 - rel), 1)
+        );
+    }
     let _ = writeln!(o);
-    o.push_str(&super::format::wrap(&format!("Reading: {}.", s.reading.sentence()), 86, "  "));
+    o.push_str(&super::format::wrap(
+        &format!("Reading: {}.", s.reading.sentence()),
+        86,
+        "  ",
+    ));
     list_excluded(o, "Rows left out of the score-spread model", &s.excluded);
 }
 
@@ -267,17 +360,27 @@ fn subgroup_section(o: &mut String, g: &Subgroups, level: &str) {
     let _ = writeln!(
         o,
         "  {:<24} {:>4}  {:>8}  {:>16}  {:>16}  {:>8}  {:>6}",
-        "group", "k", "pooled", format!("{level} CI"), format!("{level} PI"), "τ²", "I²"
+        "group",
+        "k",
+        "pooled",
+        format!("{level} CI"),
+        format!("{level} PI"),
+        "τ²",
+        "I²"
     );
     for grp in &g.groups {
         let name: String = grp.level.chars().take(24).collect();
         match &grp.result {
             Ok(b) => {
                 let c = b.coefficient;
-                let pooled = c.map(|c| fixed(c.estimate, 3)).unwrap_or_else(|| significant(b.pool.estimate, 3));
+                let pooled = c
+                    .map(|c| fixed(c.estimate, 3))
+                    .unwrap_or_else(|| significant(b.pool.estimate, 3));
                 let ci = c
                     .map(|c| range(c.ci.lower, c.ci.upper, |x| fixed(x, 3)))
-                    .unwrap_or_else(|| range(b.pool.ci.lower, b.pool.ci.upper, |x| significant(x, 3)));
+                    .unwrap_or_else(|| {
+                        range(b.pool.ci.lower, b.pool.ci.upper, |x| significant(x, 3))
+                    });
                 let pi = c
                     .and_then(|c| c.pi)
                     .map(|i| range(i.lower, i.upper, |x| fixed(x, 3)))
@@ -349,10 +452,20 @@ fn influence_section(o: &mut String, p: &Prepared, ex: &Explanation, inf: &[Stud
             "  {:>5}  {:<26} {:>10} {:>9} {:>12} {:>10}  {}",
             rec.row,
             label,
-            s.rstudent.map(|r| fixed(r, 2)).unwrap_or_else(|| "–".into()),
-            s.cooks_distance.map(|d| fixed(d, 3)).unwrap_or_else(|| "–".into()),
-            s.without.as_ref().map(|w| fixed(w.beta[0], 4)).unwrap_or_else(|| "–".into()),
-            s.without.as_ref().map(|w| significant(w.tau2, 3)).unwrap_or_else(|| "–".into()),
+            s.rstudent
+                .map(|r| fixed(r, 2))
+                .unwrap_or_else(|| "–".into()),
+            s.cooks_distance
+                .map(|d| fixed(d, 3))
+                .unwrap_or_else(|| "–".into()),
+            s.without
+                .as_ref()
+                .map(|w| fixed(w.beta[0], 4))
+                .unwrap_or_else(|| "–".into()),
+            s.without
+                .as_ref()
+                .map(|w| significant(w.tau2, 3))
+                .unwrap_or_else(|| "–".into()),
             flags.join(", ")
         );
     }
@@ -472,6 +585,8 @@ pub struct SpreadRecord {
     pub reading_text: &'static str,
     /// Median SD on the metric.
     pub typical_sd: f64,
+    /// Reliability of ln(SD) across studies (the slope's attenuation factor).
+    pub sd_reliability: Option<f64>,
     /// All coefficients of the model.
     pub coefficients: Vec<CoefficientRecord>,
     /// Rows left out.
@@ -623,7 +738,11 @@ pub struct PermutationRecord {
     pub failed: usize,
 }
 
-fn coefficients(names: &[String], fit: &ModelFit, perm: Option<&[Option<f64>]>) -> Vec<CoefficientRecord> {
+fn coefficients(
+    names: &[String],
+    fit: &ModelFit,
+    perm: Option<&[Option<f64>]>,
+) -> Vec<CoefficientRecord> {
     names
         .iter()
         .zip(&fit.coefficients)
@@ -692,13 +811,21 @@ impl ExplainDocument {
                         reference: None,
                         levels: Vec::new(),
                     },
-                    Moderator::Categorical { name, reference, counts, .. } => ModeratorRecord {
+                    Moderator::Categorical {
+                        name,
+                        reference,
+                        counts,
+                        ..
+                    } => ModeratorRecord {
                         name: name.clone(),
                         kind: "categorical",
                         reference: Some(reference.clone()),
                         levels: counts
                             .iter()
-                            .map(|(l, k)| LevelRecord { level: l.clone(), k: *k })
+                            .map(|(l, k)| LevelRecord {
+                                level: l.clone(),
+                                k: *k,
+                            })
                             .collect(),
                     },
                 })
@@ -750,6 +877,7 @@ impl ExplainDocument {
                 reading: s.reading,
                 reading_text: s.reading.sentence(),
                 typical_sd: s.typical_sd,
+                sd_reliability: s.sd_reliability,
                 coefficients: coefficients(&s.names, &s.fit, None),
                 excluded_rows: excluded(&s.excluded),
             }),

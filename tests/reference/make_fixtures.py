@@ -16,7 +16,10 @@ Sources of the computations:
   * Sidik-Jonkman and Hedges: their closed forms in numpy;
   * Q-profile interval: scipy.optimize.brentq on the generalized Q statistic against
     scipy.stats.chi2 quantiles;
-  * transform variances: numpy Monte Carlo of item data under compound symmetry.
+  * transform variances: numpy Monte Carlo of item data under compound symmetry;
+  * meta-regression: explicit k x k matrices in numpy (score equations solved by brentq),
+    with statsmodels WLS (coefficients, Knapp-Hartung SEs, F test, predictions) at the
+    fitted tau2; an exact permutation distribution by enumerating all orderings.
 """
 
 import json
@@ -314,6 +317,325 @@ def pool_fixture():
     return {"made_by": stamp(), "cases": cases}
 
 
+# ---------------------------------------------------------------- meta-regression
+# An independent implementation with explicit k x k matrices (P = W - WX(X'WX)^-1 X'W),
+# with statsmodels WLS for the coefficients at the fitted tau2.
+import statsmodels.api as sm
+
+
+def mr_parts(y, v, X, t):
+    w = 1.0 / (v + t)
+    W = np.diag(w)
+    A = np.linalg.inv(X.T @ W @ X)
+    P = W - W @ X @ A @ X.T @ W
+    beta = A @ X.T @ W @ y
+    return w, W, A, P, beta
+
+
+def mr_reml_score(y, v, X, t):
+    w, W, A, P, beta = mr_parts(y, v, X, t)
+    return 0.5 * (y @ P @ P @ y - np.trace(P))
+
+
+def mr_ml_score(y, v, X, t):
+    w, W, A, P, beta = mr_parts(y, v, X, t)
+    e = y - X @ beta
+    return 0.5 * (np.sum(w**2 * e**2) - np.sum(w))
+
+
+def mr_reml_nll(y, v, X, t):
+    w, W, A, P, beta = mr_parts(y, v, X, t)
+    return 0.5 * (np.sum(np.log(v + t)) - np.log(np.linalg.det(A)) + y @ P @ y)
+
+
+def mr_ml_nll(y, v, X, t):
+    w, W, A, P, beta = mr_parts(y, v, X, t)
+    return 0.5 * (np.sum(np.log(v + t)) + y @ P @ y)
+
+
+def mr_q(y, v, X, t):
+    w, W, A, P, beta = mr_parts(y, v, X, t)
+    return float(y @ P @ y)
+
+
+def mr_solve(score, nll, y, v, X):
+    top = 100.0 * (float(np.var(y)) + float(np.max(v)))
+    grid = np.concatenate([[0.0], np.geomspace(1e-10 * top, top, 3000)])
+    sc = np.array([score(y, v, X, t) for t in grid])
+    cands = [0.0]
+    for i in range(len(grid) - 1):
+        if sc[i] > 0 and sc[i + 1] <= 0:
+            cands.append(optimize.brentq(lambda t: score(y, v, X, t), grid[i], grid[i + 1],
+                                         xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500))
+    return min(cands, key=lambda t: nll(y, v, X, t))
+
+
+def mr_root_q(y, v, X, target):
+    if mr_q(y, v, X, 0.0) <= target:
+        return 0.0
+    f = lambda t: mr_q(y, v, X, t) - target
+    hi = upper_bracket(f, float(np.var(y)) + float(np.max(v)))
+    return optimize.brentq(f, 0.0, hi, xtol=1e-15, rtol=4 * np.finfo(float).eps, maxiter=500)
+
+
+def mr_tau2(est, y, v, X):
+    k, p = X.shape
+    if est == "reml":
+        return mr_solve(mr_reml_score, mr_reml_nll, y, v, X)
+    if est == "ml":
+        return mr_solve(mr_ml_score, mr_ml_nll, y, v, X)
+    if est == "dl":
+        w, W, A, P, beta = mr_parts(y, v, X, 0.0)
+        return max(0.0, (float(y @ P @ y) - (k - p)) / np.trace(P))
+    if est == "pm":
+        return mr_root_q(y, v, X, k - p)
+    ols = sm.OLS(y, X).fit()
+    if est == "he":
+        H = X @ np.linalg.inv(X.T @ X) @ X.T
+        return max(0.0, (float(np.sum(ols.resid**2)) - float(np.sum(v * (1 - np.diag(H))))) / (k - p))
+    if est == "sj":
+        t0 = float(np.sum(ols.resid**2)) / k
+        return t0 * mr_q(y, v, X, t0) / (k - p)
+    raise ValueError(est)
+
+
+def mr_summary(y, v, X, t, level, tau2_0):
+    k, p = X.shape
+    a = 1 - level
+    fit = sm.WLS(y, X, weights=1.0 / (v + t)).fit()
+    scale = float(fit.scale)  # = sum w e^2 / (k - p): the Knapp-Hartung factor
+    se_kh = np.asarray(fit.bse)
+    se_wald = se_kh / math.sqrt(scale)
+    z = stats.norm.ppf(1 - a / 2)
+    tq = stats.t.ppf(1 - a / 2, k - p)
+    beta = np.asarray(fit.params)
+    out = {"tau2": t, "beta": beta.tolist(), "se_wald": se_wald.tolist(), "se_kh": se_kh.tolist(),
+           "kh_scale": scale,
+           "ci_wald": [[float(b - z * s), float(b + z * s)] for b, s in zip(beta, se_wald)],
+           "ci_kh": [[float(b - tq * s), float(b + tq * s)] for b, s in zip(beta, se_kh)],
+           "p_wald": [float(2 * stats.norm.sf(abs(b / s))) for b, s in zip(beta, se_wald)],
+           "p_kh": [float(2 * stats.t.sf(abs(b / s), k - p)) for b, s in zip(beta, se_kh)]}
+    if p > 1:
+        R = np.eye(p)[1:]
+        ft = fit.f_test(R)  # uses the scaled covariance: the Knapp-Hartung F
+        out["omnibus_kh"] = {"statistic": float(np.squeeze(ft.fvalue)), "df": p - 1,
+                             "df2": k - p, "p": float(np.squeeze(ft.pvalue))}
+        b = beta[1:]
+        V = np.linalg.inv(X.T @ np.diag(1 / (v + t)) @ X)[1:, 1:]
+        qm = float(b @ np.linalg.inv(V) @ b)
+        out["omnibus_wald"] = {"statistic": qm, "df": p - 1, "p": float(stats.chi2.sf(qm, p - 1))}
+    w0, W0, A0, P0, b0 = mr_parts(y, v, X, 0.0)
+    qe = float(y @ P0 @ y)
+    s2 = (k - p) / np.trace(P0)
+    out.update({"qe": qe, "qe_df": k - p, "qe_p": float(stats.chi2.sf(qe, k - p)),
+                "i2": 100 * t / (t + s2), "h2": (t + s2) / s2,
+                "r2": None if tau2_0 <= 0 else max(0.0, 100 * (tau2_0 - t) / tau2_0)})
+    return out
+
+
+def mr_case(name, y, v, X, names, level, source):
+    y = np.asarray(y, float)
+    v = np.asarray(v, float)
+    X = np.asarray(X, float)
+    k, p = X.shape
+    case = {"name": name, "source": source, "level": level, "y": y.tolist(), "v": v.tolist(),
+            "x": X.tolist(), "names": names, "estimators": {}}
+    ones = np.ones((k, 1))
+    for est in ["reml", "ml", "dl", "pm", "sj", "he"]:
+        t = float(mr_tau2(est, y, v, X))
+        t0 = float(mr_tau2(est, y, v, ones))
+        case["estimators"][est] = mr_summary(y, v, X, t, level, t0)
+    a = 1 - level
+    case["tau2_ci"] = [mr_root_q(y, v, X, stats.chi2.ppf(1 - a / 2, k - p)),
+                       mr_root_q(y, v, X, stats.chi2.ppf(a / 2, k - p))]
+    return case
+
+
+def exact_permutation_case():
+    """All 720 orderings of one moderator over 6 studies; DL tau2, Wald z of the slope."""
+    import itertools
+    y = np.array([-1.9, -1.4, -1.7, -1.1, -1.5, -0.9])
+    v = np.array([0.02, 0.05, 0.03, 0.04, 0.06, 0.05])
+    x = np.array([0.4, 1.3, 0.9, 0.5, 0.7, 1.6])
+
+    def z_of(xs):
+        X = np.column_stack([np.ones(6), xs])
+        t = mr_tau2("dl", y, v, X)
+        w, W, A, P, beta = mr_parts(y, v, X, t)
+        return abs(beta[1] / math.sqrt(A[1, 1]))
+
+    obs = z_of(x)
+    perms = [z_of(x[list(o)]) for o in itertools.permutations(range(6))]
+    exact = sum(1 for z in perms if z >= obs - 1e-12 * obs) / len(perms)
+    return {"y": y.tolist(), "v": v.tolist(), "x": x.tolist(), "estimator": "dl", "ci": "wald",
+            "observed_z": obs, "permutations": len(perms), "exact_p": exact}
+
+
+def reml_intercept(y, v):
+    return solve_score(reml_score, reml_negloglik, y, v)
+
+
+def influence_case(y, v, source):
+    """Leave-one-out refits of the intercept-only REML model."""
+    y = np.asarray(y, float)
+    v = np.asarray(v, float)
+    k = len(y)
+    t = reml_intercept(y, v)
+    w, mu = wls(y, v, t)
+    xtwx = float(np.sum(w))
+    out = []
+    for i in range(k):
+        keep = [j for j in range(k) if j != i]
+        yi, vi = y[keep], v[keep]
+        ti = reml_intercept(yi, vi)
+        wi, mui = wls(yi, vi, ti)
+        var_mu = 1 / float(np.sum(wi))
+        rstudent = (y[i] - mui) / math.sqrt(v[i] + ti + var_mu)
+        cook = (mu - mui) ** 2 * xtwx  # p = 1
+        out.append({"tau2": ti, "estimate": mui, "rstudent": rstudent, "cooks_distance": cook})
+    return {"y": y.tolist(), "v": v.tolist(), "source": source, "tau2": t, "estimate": mu,
+            "leave_one_out": out}
+
+
+def subgroup_case(y, v, groups, source):
+    y = np.asarray(y, float)
+    v = np.asarray(v, float)
+    levels = []
+    for g in groups:
+        if g not in levels:
+            levels.append(g)
+    res = []
+    for g in levels:
+        idx = [i for i, x in enumerate(groups) if x == g]
+        t = reml_intercept(y[idx], v[idx])
+        w, mu = wls(y[idx], v[idx], t)
+        res.append({"level": g, "k": len(idx), "tau2": t, "estimate": mu,
+                    "se_wald": 1 / math.sqrt(float(np.sum(w)))})
+    wg = np.array([1 / r["se_wald"] ** 2 for r in res])
+    mg = np.array([r["estimate"] for r in res])
+    mean = float(np.sum(wg * mg) / np.sum(wg))
+    q = float(np.sum(wg * (mg - mean) ** 2))
+    return {"y": y.tolist(), "v": v.tolist(), "groups": groups, "source": source,
+            "levels": res, "q_between": q, "df": len(res) - 1,
+            "p": float(stats.chi2.sf(q, len(res) - 1))}
+
+
+def alpha_sheet(rng, k):
+    """A coding sheet of alphas with a numeric moderator and score SDs (numpy draws)."""
+    items = rng.choice([6, 8, 10], size=k)
+    n = rng.integers(60, 600, size=k)
+    x = np.round(rng.uniform(0, 10, size=k), 1)
+    sd_true = np.exp(rng.normal(np.log(0.6), 0.25, size=k))  # SD of the mean score, 1-5 scale
+    err = 0.8 / items
+    alpha = sd_true**2 / (sd_true**2 + err)
+    var = 2 * items / ((items - 1) * (n - 2))
+    obs = 1 - np.exp(np.log(1 - alpha) + 0.05 * x / 10 + np.sqrt(var) * rng.standard_normal(k))
+    sd_obs = np.sqrt(sd_true**2 + err) * (1 + rng.standard_normal(k) / np.sqrt(2 * n))
+    metric = np.where(rng.uniform(size=k) < 0.5, "mean", "sum")
+    sd_rep = np.where(metric == "sum", sd_obs * items, sd_obs)
+    rows = [{"study": f"S{i + 1:02d}", "coef": round(float(obs[i]), 4), "n": int(n[i]),
+             "items": int(items[i]), "x": float(x[i]), "sd": round(float(sd_rep[i]), 4),
+             "sd_metric": str(metric[i]), "scale_min": 1, "scale_max": 5} for i in range(k)]
+    return rows
+
+
+def bonett_values(rows):
+    y = np.array([math.log(1 - r["coef"]) for r in rows])
+    v = np.array([2 * r["items"] / ((r["items"] - 1) * (r["n"] - 2)) for r in rows])
+    return y, v
+
+
+def placement_case(rows, new, x0, level):
+    """relyard check: the expected coefficient at x0, its CI (Knapp-Hartung), the range for
+    the true and for an observed coefficient, and the percentile."""
+    y, v = bonett_values(rows)
+    k = len(rows)
+    if x0 is None:
+        X = np.ones((k, 1))
+        xn = np.array([1.0])
+    else:
+        X = np.column_stack([np.ones(k), [r["x"] for r in rows]])
+        xn = np.array([1.0, x0])
+    p = X.shape[1]
+    t = mr_tau2("reml", y, v, X)
+    fit = sm.WLS(y, X, weights=1 / (v + t)).fit()
+    pred = fit.get_prediction(xn.reshape(1, -1))
+    mu = float(pred.predicted_mean[0])
+    se = float(pred.se_mean[0])  # scaled by the Knapp-Hartung factor
+    a = 1 - level
+    tq_ci = stats.t.ppf(1 - a / 2, k - p)
+    tq = stats.t.ppf(1 - a / 2, k - p - 1)
+    yn = math.log(1 - new["coef"])
+    vn = 2 * new["items"] / ((new["items"] - 1) * (new["n"] - 2))
+    sd_obs = math.sqrt(t + se**2 + vn)
+    back = lambda z: 1 - math.exp(z)
+    pct = 100 * (1 - stats.t.cdf((yn - mu) / sd_obs, k - p - 1))
+    return {"x0": x0, "new": new, "tau2": t, "expected": back(mu),
+            "ci": sorted([back(mu - tq_ci * se), back(mu + tq_ci * se)]),
+            "pi": sorted([back(mu - tq * math.sqrt(t + se**2)), back(mu + tq * math.sqrt(t + se**2))]),
+            "pi_observed": sorted([back(mu - tq * sd_obs), back(mu + tq * sd_obs)]),
+            "percentile": pct}
+
+
+def spread_case(rows, level):
+    """The score-variance test: ln(1 - alpha) on ln(POMP SD), REML, Knapp-Hartung."""
+    y, v = bonett_values(rows)
+    per_item = np.array([r["sd"] / r["items"] if r["sd_metric"] == "sum" else r["sd"] for r in rows])
+    pomp = 100 * per_item / 4.0
+    k = len(rows)
+    X = np.column_stack([np.ones(k), np.log(pomp)])
+    t = mr_tau2("reml", y, v, X)
+    t0 = mr_tau2("reml", y, v, np.ones((k, 1)))
+    fit = sm.WLS(y, X, weights=1 / (v + t)).fit()
+    b, se = float(fit.params[1]), float(fit.bse[1])
+    a = 1 - level
+    tq = stats.t.ppf(1 - a / 2, k - 2)
+    return {"slope": b, "se": se, "ci": [b - tq * se, b + tq * se],
+            "p_zero": float(2 * stats.t.sf(abs(b / se), k - 2)),
+            "p_minus_two": float(2 * stats.t.sf(abs((b + 2) / se), k - 2)),
+            "tau2": t, "tau2_without": t0,
+            "tau2_share": None if t0 <= 0 else max(0.0, 100 * (t0 - t) / t0),
+            "typical_sd": float(np.median(pomp))}
+
+
+def metareg_fixture():
+    rng = np.random.default_rng(31415)
+    lrr, vrr, lor, vor = bcg()
+    here = os.path.dirname(os.path.abspath(__file__))
+    with open(os.path.join(here, "..", "data", "bcg-trials.csv"), encoding="utf-8") as fh:
+        lat = np.array([float(l.strip().split(",")[6]) for l in fh.readlines()[1:]])
+    X_lat = np.column_stack([np.ones(13), lat])
+    cases = [
+        mr_case("bcg_rr_latitude", lrr, vrr, X_lat, ["intercept", "ablat"], 0.95,
+                "Colditz et al. (1994), 13 BCG trials; log risk ratio on absolute latitude"),
+        mr_case("bcg_or_latitude", lor, vor, X_lat, ["intercept", "ablat"], 0.95,
+                "Colditz et al. (1994), 13 BCG trials; log odds ratio on absolute latitude"),
+    ]
+    for k, tau, level in [(40, 0.2, 0.95), (12, 0.1, 0.90)]:
+        x1 = rng.normal(0, 1, k)
+        g = rng.integers(0, 3, k)
+        X = np.column_stack([np.ones(k), x1, (g == 1).astype(float), (g == 2).astype(float)])
+        if k == 12:
+            X = X[:, :2]
+        v = 2 * 8 / (7 * (rng.integers(50, 500, k) - 2))
+        beta = np.array([-1.6, 0.15, -0.2, 0.3])[: X.shape[1]]
+        y = X @ beta + tau * rng.standard_normal(k) + np.sqrt(v) * rng.standard_normal(k)
+        names = ["intercept", "x1", "g=1", "g=2"][: X.shape[1]]
+        cases.append(mr_case(f"sim_k{k}", y, v, X, names, level,
+                             "numpy draws (seed 31415)"))
+    groups = ["north" if l > 40 else ("middle" if l >= 25 else "south") for l in lat]
+    sheet = alpha_sheet(rng, 24)
+    new = {"coef": 0.72, "n": 150, "items": 8}
+    return {"made_by": stamp(), "cases": cases,
+            "exact_permutation": exact_permutation_case(),
+            "influence": influence_case(lrr, vrr, "BCG log risk ratios, REML"),
+            "subgroups": subgroup_case(lrr, vrr, groups, "BCG log risk ratios by latitude band, REML"),
+            "alpha_sheet": sheet,
+            "placement": [placement_case(sheet, new, None, 0.95),
+                          placement_case(sheet, new, 7.5, 0.95)],
+            "score_spread": spread_case(sheet, 0.95)}
+
+
 # ---------------------------------------------------------------- transforms
 def simulate_alpha(rng, k, n, alpha, reps):
     c = alpha / (k - alpha * (k - 1))  # common covariance of unit-variance items
@@ -366,7 +688,7 @@ def main():
     out_dir = sys.argv[1] if len(sys.argv) > 1 else os.path.join(here, "fixtures")
     os.makedirs(out_dir, exist_ok=True)
     for name, make in [("quantiles.json", quantile_fixture), ("pool.json", pool_fixture),
-                       ("transforms.json", transform_fixture)]:
+                       ("transforms.json", transform_fixture), ("metareg.json", metareg_fixture)]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

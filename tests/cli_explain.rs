@@ -1,0 +1,385 @@
+//! `relyard explain` and `relyard check` run as a user runs them: the demo, and the
+//! errors of issue 3 (singular designs, too few studies, unknown levels, missing values).
+
+mod common;
+use common::*;
+
+fn demo() -> String {
+    std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("datasets-demo/candor-benchmark.csv")
+        .to_string_lossy()
+        .into_owned()
+}
+
+fn ok_json(args: &[&str]) -> serde_json::Value {
+    let out = relyard(args);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("one JSON object")
+}
+
+fn fails_with(args: &[&str], fragments: &[&str]) {
+    let out = relyard(args);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
+    assert!(!err.contains("panicked"), "{err}");
+    for f in fragments {
+        assert!(err.contains(f), "{args:?}: missing {f:?} in {err}");
+    }
+}
+
+#[test]
+fn explain_on_the_demo_reads_well() {
+    let out = relyard(&[
+        "explain",
+        &demo(),
+        "--moderator",
+        "population",
+        "--moderator",
+        "language",
+        "--score-spread",
+        "--by",
+        "field_maturity",
+        "--influence",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    for frag in [
+        "Explaining differences between 36 coded studies",
+        "reference level",
+        "all moderators together",
+        "R² (share of τ² explained)",
+        "Q_E",
+        "Score spread (always on the Bonett scale",
+        "slope of ln(SD)",
+        "test slope = −2",
+        "Reading: score spread",
+        "Benchmarks by field_maturity",
+        "Q_between",
+        "Influence (each study left out in turn)",
+        "row 16: column sd: no SD is reported",
+    ] {
+        assert!(text.contains(frag), "missing {frag:?} in\n{text}");
+    }
+}
+
+#[test]
+fn explain_json_has_the_contracted_keys() {
+    let j = ok_json(&[
+        "explain",
+        &demo(),
+        "--moderator",
+        "language",
+        "--score-spread",
+        "--json",
+    ]);
+    for c in j["coefficients"].as_array().unwrap() {
+        for key in ["name", "estimate", "se", "ci", "p"] {
+            assert!(!c[key].is_null(), "coefficient key {key}");
+        }
+    }
+    for key in ["tau2", "r2", "qe", "qe_df", "qe_p"] {
+        assert!(j[key].is_number(), "{key}");
+    }
+    assert_eq!(floats(&j["tau2_ci"]).len(), 2);
+    for key in ["statistic", "df", "p"] {
+        assert!(j["omnibus"][key].is_number(), "omnibus {key}");
+    }
+    let s = &j["score_spread"];
+    for key in ["slope", "se", "p_zero", "p_minus_two", "tau2_share"] {
+        assert!(s[key].is_number(), "score_spread {key}");
+    }
+    assert_eq!(floats(&s["ci"]).len(), 2);
+    // Six rows without an SD are listed, not dropped in silence.
+    assert_eq!(s["excluded_rows"].as_array().unwrap().len(), 6);
+    assert!(
+        warning_codes(&j)
+            .iter()
+            .any(|c| c == "rows_left_out_of_model")
+    );
+}
+
+/// The score-spread test works on the Bonett scale whatever --transform says.
+#[test]
+fn score_spread_ignores_the_transform() {
+    let a = ok_json(&["explain", &demo(), "--score-spread", "--json"]);
+    let b = ok_json(&[
+        "explain",
+        &demo(),
+        "--score-spread",
+        "--json",
+        "--transform",
+        "hakstian-whalen",
+    ]);
+    assert_eq!(a["score_spread"]["slope"], b["score_spread"]["slope"]);
+    assert_ne!(
+        a["coefficients"][0]["estimate"],
+        b["coefficients"][0]["estimate"]
+    );
+}
+
+#[test]
+fn model_errors_are_clear() {
+    let dir = scratch("explain-errors");
+    let collinear = write_file(
+        &dir,
+        "collinear.csv",
+        b"coef,n,items,x,x2\n0.8,100,6,1,2\n0.7,90,6,2,4\n0.75,80,6,3,6\n0.85,120,6,4,8\n0.78,60,6,5,10\n",
+    );
+    fails_with(
+        &[
+            "explain",
+            &collinear,
+            "--moderator",
+            "x",
+            "--moderator",
+            "x2",
+        ],
+        &["collinear", "x", "x2"],
+    );
+    let constant = write_file(
+        &dir,
+        "constant.csv",
+        b"coef,n,items,x\n0.8,100,6,1\n0.7,90,6,1\n0.75,80,6,1\n0.85,120,6,1\n",
+    );
+    fails_with(&["explain", &constant, "--moderator", "x"], &["same value"]);
+    let few = write_file(
+        &dir,
+        "few.csv",
+        b"coef,n,items,x\n0.8,100,6,1\n0.7,90,6,2\n0.75,80,6,3\n",
+    );
+    fails_with(
+        &["explain", &few, "--moderator", "x"],
+        &["3 studies", "at least 4"],
+    );
+    fails_with(
+        &["explain", &few, "--moderator", "nosuch"],
+        &["nosuch", "columns available"],
+    );
+    let texty = write_file(
+        &dir,
+        "texty.csv",
+        b"coef,n,items,year\n0.8,100,6,2001\n0.7,90,6,2003\n0.75,80,6,n/r\n0.85,120,6,2010\n0.8,70,6,2012\n",
+    );
+    fails_with(
+        &["explain", &texty, "--moderator", "year"],
+        &["row 4, column year:", "--categorical year"],
+    );
+    fails_with(
+        &[
+            "explain",
+            &demo(),
+            "--moderator",
+            "population",
+            "--reference",
+            "population=pilots",
+        ],
+        &["pilots", "no study"],
+    );
+    fails_with(&["explain", &demo()], &["nothing to explain"]);
+    fails_with(
+        &["explain", &demo(), "--permutations", "10"],
+        &["--moderator"],
+    );
+    fails_with(&["explain", &demo(), "--by", "nosuch"], &["nosuch"]);
+}
+
+/// Rows without a moderator value leave the model and are listed.
+#[test]
+fn missing_moderator_values_are_listed() {
+    let dir = scratch("missing-mod");
+    let path = write_file(
+        &dir,
+        "m.csv",
+        b"study,coef,n,items,x\nA,0.8,100,6,1\nB,0.7,90,6,\nC,0.75,80,6,3\nD,0.85,120,6,4\nE,0.78,60,6,5\nF,0.72,70,6,NA\n",
+    );
+    let j = ok_json(&["explain", &path, "--moderator", "x", "--json"]);
+    assert_eq!(j["k"], 4);
+    let rows: Vec<u64> = j["excluded_rows"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["row"].as_u64().unwrap())
+        .collect();
+    assert_eq!(rows, vec![3, 7]);
+}
+
+#[test]
+fn check_on_the_demo() {
+    let j = ok_json(&[
+        "check",
+        &demo(),
+        "--coef",
+        "0.62",
+        "--n",
+        "150",
+        "--items",
+        "10",
+        "--json",
+    ]);
+    for key in ["expected", "percentile"] {
+        assert!(j[key].is_number(), "{key}");
+    }
+    for key in ["ci", "pi", "pi_observed"] {
+        let pair = floats(&j[key]);
+        assert!(pair[0] < pair[1], "{key}");
+    }
+    let (pi, po) = (floats(&j["pi"]), floats(&j["pi_observed"]));
+    assert!(
+        po[0] < pi[0] && pi[1] < po[1],
+        "the observed range is wider"
+    );
+    assert!(["below", "within", "above"].contains(&j["verdict"].as_str().unwrap()));
+    // Orientation: a higher coefficient has a higher percentile.
+    let hi = ok_json(&[
+        "check",
+        &demo(),
+        "--coef",
+        "0.95",
+        "--n",
+        "150",
+        "--items",
+        "10",
+        "--json",
+    ]);
+    assert!(hi["percentile"].as_f64().unwrap() > j["percentile"].as_f64().unwrap());
+    assert_eq!(hi["verdict"], "above");
+    let lo = ok_json(&[
+        "check",
+        &demo(),
+        "--coef",
+        "0.2",
+        "--n",
+        "150",
+        "--items",
+        "10",
+        "--json",
+    ]);
+    assert_eq!(lo["verdict"], "below");
+    assert!(lo["percentile"].as_f64().unwrap() < 2.5);
+    // Conditional on a moderator, and with the new study's SD.
+    let c = ok_json(&[
+        "check",
+        &demo(),
+        "--coef",
+        "0.62",
+        "--n",
+        "150",
+        "--items",
+        "10",
+        "--moderator",
+        "language",
+        "--at",
+        "language=translated",
+        "--sd",
+        "0.5",
+        "--sd-metric",
+        "mean",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    assert_eq!(c["at"]["language"], "translated");
+    let s = &c["score_spread"];
+    assert!(s["explained_shortfall"].is_number() && s["expected_at_own_sd"].is_number());
+    let text = String::from_utf8_lossy(
+        &relyard(&[
+            "check",
+            &demo(),
+            "--coef",
+            "0.62",
+            "--n",
+            "150",
+            "--items",
+            "10",
+        ])
+        .stdout,
+    )
+    .into_owned();
+    for frag in [
+        "expected coefficient",
+        "range for an observed coefficient",
+        "verdict",
+        "For your paper",
+        "professional testing standards",
+    ] {
+        assert!(text.contains(frag), "missing {frag:?}");
+    }
+}
+
+#[test]
+fn check_errors_are_clear() {
+    let base = [
+        "check", "SHEET", "--coef", "0.7", "--n", "150", "--items", "10",
+    ];
+    let with = |extra: &[&str]| {
+        let d = demo();
+        let mut v: Vec<String> = base.iter().map(|s| s.to_string()).collect();
+        v[1] = d;
+        v.extend(extra.iter().map(|s| s.to_string()));
+        v
+    };
+    let run = |extra: &[&str], frags: &[&str]| {
+        let v = with(extra);
+        let args: Vec<&str> = v.iter().map(String::as_str).collect();
+        fails_with(&args, frags);
+    };
+    run(&["--moderator", "language"], &["--at", "language"]);
+    run(
+        &["--moderator", "language", "--at", "language=klingon"],
+        &["klingon", "levels"],
+    );
+    run(&["--at", "language=original"], &["no --moderator"]);
+    run(
+        &[
+            "--moderator",
+            "language",
+            "--at",
+            "language=original",
+            "--at",
+            "year=2020",
+        ],
+        &["year"],
+    );
+    run(&["--coef-type", "retest"], &["compare like with like"]);
+    run(&["--sd", "0.5"], &["--sd-metric"]);
+    run(&["--sd-metric", "mean"], &["give --sd too"]);
+    let v = vec![
+        "check", "x.csv", "--coef", "1.2", "--n", "150", "--items", "10",
+    ];
+    let out = relyard(&v);
+    assert_eq!(out.status.code(), Some(2));
+    let d = demo();
+    fails_with(
+        &["check", &d, "--coef", "1.2", "--n", "150", "--items", "10"],
+        &["--coef", "below 1"],
+    );
+    fails_with(&["check", &d, "--coef", "0.7", "--n", "150"], &["--items"]);
+}
+
+/// A progress bar appears only on a terminal: piped runs keep stderr clean.
+#[test]
+fn no_progress_bar_when_piped() {
+    let out = relyard(&[
+        "explain",
+        &demo(),
+        "--moderator",
+        "language",
+        "--permutations",
+        "200",
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(!err.contains("permutations ["), "{err}");
+}
