@@ -11,17 +11,6 @@ fn demo() -> String {
         .into_owned()
 }
 
-fn ok_json(args: &[&str]) -> serde_json::Value {
-    let out = relyard(args);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{args:?}: {}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).expect("one JSON object")
-}
-
 fn fails_with(args: &[&str], fragments: &[&str]) {
     let out = relyard(args);
     let err = String::from_utf8_lossy(&out.stderr);
@@ -74,7 +63,7 @@ fn explain_on_the_demo_reads_well() {
 
 #[test]
 fn explain_json_has_the_contracted_keys() {
-    let j = ok_json(&[
+    let j = json_ok(&[
         "explain",
         &demo(),
         "--moderator",
@@ -111,8 +100,8 @@ fn explain_json_has_the_contracted_keys() {
 /// The score-spread test works on the Bonett scale whatever --transform says.
 #[test]
 fn score_spread_ignores_the_transform() {
-    let a = ok_json(&["explain", &demo(), "--score-spread", "--json"]);
-    let b = ok_json(&[
+    let a = json_ok(&["explain", &demo(), "--score-spread", "--json"]);
+    let b = json_ok(&[
         "explain",
         &demo(),
         "--score-spread",
@@ -202,7 +191,7 @@ fn missing_moderator_values_are_listed() {
         "m.csv",
         b"study,coef,n,items,x\nA,0.8,100,6,1\nB,0.7,90,6,\nC,0.75,80,6,3\nD,0.85,120,6,4\nE,0.78,60,6,5\nF,0.72,70,6,NA\n",
     );
-    let j = ok_json(&["explain", &path, "--moderator", "x", "--json"]);
+    let j = json_ok(&["explain", &path, "--moderator", "x", "--json"]);
     assert_eq!(j["k"], 4);
     let rows: Vec<u64> = j["excluded_rows"]
         .as_array()
@@ -215,7 +204,7 @@ fn missing_moderator_values_are_listed() {
 
 #[test]
 fn check_on_the_demo() {
-    let j = ok_json(&[
+    let j = json_ok(&[
         "check",
         &demo(),
         "--coef",
@@ -240,7 +229,7 @@ fn check_on_the_demo() {
     );
     assert!(["below", "within", "above"].contains(&j["verdict"].as_str().unwrap()));
     // Orientation: a higher coefficient has a higher percentile.
-    let hi = ok_json(&[
+    let hi = json_ok(&[
         "check",
         &demo(),
         "--coef",
@@ -253,7 +242,7 @@ fn check_on_the_demo() {
     ]);
     assert!(hi["percentile"].as_f64().unwrap() > j["percentile"].as_f64().unwrap());
     assert_eq!(hi["verdict"], "above");
-    let lo = ok_json(&[
+    let lo = json_ok(&[
         "check",
         &demo(),
         "--coef",
@@ -267,7 +256,7 @@ fn check_on_the_demo() {
     assert_eq!(lo["verdict"], "below");
     assert!(lo["percentile"].as_f64().unwrap() < 2.5);
     // Conditional on a moderator, and with the new study's SD.
-    let c = ok_json(&[
+    let c = json_ok(&[
         "check",
         &demo(),
         "--coef",

@@ -45,7 +45,7 @@ fn demo_sheet_gives_a_readable_benchmark() {
 /// results are the back-transformed transformed-scale results.
 #[test]
 fn json_output_has_the_contracted_keys() {
-    let j = json_of(&relyard(&["pool", &demo(), "--json"]));
+    let j = json_ok(&["pool", &demo(), "--json"]);
     for key in [
         "k", "estimate", "se", "tau2", "i2", "h2", "q", "q_df", "q_p",
     ] {
@@ -120,7 +120,7 @@ fn delimiters_and_decimal_commas_are_read_alike() {
     let tab = text.replace(',', "\t");
     let p_semi = write_file(&dir, "semi.csv", semi.as_bytes());
     let p_tab = write_file(&dir, "tab.tsv", tab.as_bytes());
-    let base = json_of(&relyard(&["pool", &demo(), "--json"]));
+    let base = json_ok(&["pool", &demo(), "--json"]);
     for (path, extra) in [
         (&p_semi, None),
         (&p_tab, None),
@@ -132,20 +132,8 @@ fn delimiters_and_decimal_commas_are_read_alike() {
             args.extend(["--delimiter", d]);
         }
         let j = json_of(&relyard(&args));
-        assert_close(
-            j["estimate"].as_f64().unwrap(),
-            base["estimate"].as_f64().unwrap(),
-            1e-12,
-            0.0,
-            path,
-        );
-        assert_close(
-            j["tau2"].as_f64().unwrap(),
-            base["tau2"].as_f64().unwrap(),
-            1e-10,
-            0.0,
-            path,
-        );
+        assert_json_close(&j["estimate"], &base["estimate"], 1e-12, 0.0, path);
+        assert_json_close(&j["tau2"], &base["tau2"], 1e-10, 0.0, path);
     }
 }
 
@@ -157,7 +145,7 @@ fn columns_can_be_mapped_from_the_sheets_own_names() {
         "m.csv",
         b"Label,Reported alpha,Sample,Item count\nA,0.81,120,8\nB,0.77,95,8\nC,0.85,300,8\nD,0.72,60,8\n",
     );
-    let j = json_of(&relyard(&[
+    let j = json_ok(&[
         "pool",
         &path,
         "--json",
@@ -169,7 +157,7 @@ fn columns_can_be_mapped_from_the_sheets_own_names() {
         "n=Sample",
         "--column",
         "items=Item count",
-    ]));
+    ]);
     assert_eq!(j["k"], 4);
     assert_eq!(j["studies"][0]["study"], "A");
 }
@@ -312,7 +300,7 @@ fn every_estimator_and_interval_runs_on_the_demo() {
     for tau2 in ["reml", "ml", "dl", "pm", "sj", "he", "common"] {
         for ci in ["wald", "knapp-hartung", "knapp-hartung-floor"] {
             for tr in ["bonett", "hakstian-whalen", "raw"] {
-                let j = json_of(&relyard(&[
+                let j = json_ok(&[
                     "pool",
                     &demo(),
                     "--json",
@@ -322,7 +310,7 @@ fn every_estimator_and_interval_runs_on_the_demo() {
                     ci,
                     "--transform",
                     tr,
-                ]));
+                ]);
                 assert_eq!(j["tau2_method"], tau2);
                 let rel = &j["reliability"];
                 let est = rel["estimate"].as_f64().unwrap();
@@ -380,7 +368,7 @@ fn template_writes_a_sheet_and_dictionary_and_does_not_overwrite() {
     let mut filled = std::fs::read_to_string(&path).unwrap();
     filled.push_str("A,0.8,100,6,,,,,,\nB,0.75,90,6,,,,,,\nC,0.85,150,6,,,,,,\n");
     std::fs::write(&path, filled).unwrap();
-    let j = json_of(&relyard(&["pool", &p, "--json"]));
+    let j = json_ok(&["pool", &p, "--json"]);
     assert_eq!(j["k"], 3);
 }
 
@@ -435,7 +423,7 @@ fn paragraph_wording_follows_the_evidence() {
         "flat.csv",
         b"study,coef,n,items\nA,0.80,100,6\nB,0.82,120,6\nC,0.79,90,6\nD,0.81,150,6\nE,0.80,110,6\n",
     );
-    let j = json_of(&relyard(&["pool", &flat, "--json"]));
+    let j = json_ok(&["pool", &flat, "--json"]);
     let text = j["paragraph"].as_str().unwrap();
     assert!(text.contains("no more than sampling error"), "{text}");
     assert!(
@@ -449,7 +437,7 @@ fn paragraph_wording_follows_the_evidence() {
         "mild.csv",
         b"study,coef,n,items\nA,0.78,60,6\nB,0.84,70,6\nC,0.74,65,6\nD,0.83,80,6\nE,0.77,75,6\nF,0.86,50,6\n",
     );
-    let j = json_of(&relyard(&["pool", &mild, "--json"]));
+    let j = json_ok(&["pool", &mild, "--json"]);
     let text = j["paragraph"].as_str().unwrap();
     let t = floats(&j["tau2_ci"]);
     assert!(
@@ -463,7 +451,7 @@ fn paragraph_wording_follows_the_evidence() {
         "skipped.csv",
         b"study,coef,n,items\nA,0.81,120,8\nB,1.3,95,8\nC,0.85,300,8\nE,0.79,150,8\n",
     );
-    let j = json_of(&relyard(&["pool", &skipped, "--json", "--skip-invalid"]));
+    let j = json_ok(&["pool", &skipped, "--json", "--skip-invalid"]);
     let text = j["paragraph"].as_str().unwrap();
     assert!(
         text.contains("one further coded row was left out"),

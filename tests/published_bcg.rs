@@ -79,7 +79,7 @@ fn bcg_through_the_command_line() {
         text.push_str(&format!("trial {},{yi:.17e},{vi:.17e}\n", i + 1));
     }
     let path = write_file(&dir, "bcg.csv", text.as_bytes());
-    let out = relyard(&[
+    let j = json_ok(&[
         "pool",
         &path,
         "--transform",
@@ -88,13 +88,6 @@ fn bcg_through_the_command_line() {
         "wald",
         "--json",
     ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_close(
         j["estimate"].as_f64().unwrap(),
         -0.714532,
@@ -154,7 +147,7 @@ fn latitude_meta_regression_of_log_risk_ratios_by_reml() {
     }
     let path = write_file(&dir, "bcg.csv", text.as_bytes());
     let run = |ci: &str| {
-        let out = relyard(&[
+        json_ok(&[
             "explain",
             &path,
             "--transform",
@@ -164,14 +157,7 @@ fn latitude_meta_regression_of_log_risk_ratios_by_reml() {
             "--ci",
             ci,
             "--json",
-        ]);
-        assert_eq!(
-            out.status.code(),
-            Some(0),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        serde_json::from_slice::<serde_json::Value>(&out.stdout).unwrap()
+        ])
     };
     let j = run("wald");
     let six = 5e-7;

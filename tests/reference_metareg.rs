@@ -218,9 +218,9 @@ fn explain_reports_the_reference_values() {
             let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
             let r = &c["estimators"][est];
             let what = |k: &str| format!("{name} {est} {ci} {k}");
-            assert_close(
-                j["tau2"].as_f64().unwrap(),
-                r["tau2"].as_f64().unwrap(),
+            assert_json_close(
+                &j["tau2"],
+                &r["tau2"],
                 FIXTURE_REL,
                 FIXTURE_ABS,
                 &what("tau2"),
@@ -234,20 +234,14 @@ fn explain_reports_the_reference_values() {
             } else {
                 "omnibus_kh"
             };
-            assert_close(
-                j["omnibus"]["statistic"].as_f64().unwrap(),
-                r[key]["statistic"].as_f64().unwrap(),
+            assert_json_close(
+                &j["omnibus"]["statistic"],
+                &r[key]["statistic"],
                 1e-7,
                 1e-10,
                 &what("omnibus"),
             );
-            assert_close(
-                j["qe"].as_f64().unwrap(),
-                r["qe"].as_f64().unwrap(),
-                FIXTURE_REL,
-                FIXTURE_ABS,
-                &what("qe"),
-            );
+            assert_json_close(&j["qe"], &r["qe"], FIXTURE_REL, FIXTURE_ABS, &what("qe"));
             assert_eq!(j["qe_df"].as_f64().unwrap(), r["qe_df"].as_f64().unwrap());
             let beta = floats(&r["beta"]);
             for (b, coef) in beta.iter().zip(j["coefficients"].as_array().unwrap()) {
@@ -354,7 +348,7 @@ fn influence_matches_leave_one_out_refits() {
         text.push_str(&format!("s{i},{:.17e},{:.17e}\n", y[i], v[i]));
     }
     let path = write_file(&dir, "inf.csv", text.as_bytes());
-    let out = relyard(&[
+    let j = json_ok(&[
         "explain",
         &path,
         "--transform",
@@ -364,35 +358,28 @@ fn influence_matches_leave_one_out_refits() {
         "--ci",
         "wald",
     ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let got = j["influence"].as_array().unwrap();
     let want = r["leave_one_out"].as_array().unwrap();
     assert_eq!(got.len(), want.len());
     for (i, (g, w)) in got.iter().zip(want).enumerate() {
         let what = |k: &str| format!("study {i} {k}");
-        assert_close(
-            g["rstudent"].as_f64().unwrap(),
-            w["rstudent"].as_f64().unwrap(),
+        assert_json_close(
+            &g["rstudent"],
+            &w["rstudent"],
             1e-7,
             1e-9,
             &what("rstudent"),
         );
-        assert_close(
-            g["cooks_distance"].as_f64().unwrap(),
-            w["cooks_distance"].as_f64().unwrap(),
+        assert_json_close(
+            &g["cooks_distance"],
+            &w["cooks_distance"],
             1e-6,
             1e-10,
             &what("cook"),
         );
-        assert_close(
-            g["without_tau2"].as_f64().unwrap(),
-            w["tau2"].as_f64().unwrap(),
+        assert_json_close(
+            &g["without_tau2"],
+            &w["tau2"],
             FIXTURE_REL,
             FIXTURE_ABS,
             &what("tau2"),
@@ -432,7 +419,7 @@ fn subgroups_match_separate_fits() {
         text.push_str(&format!("s{i},{:.17e},{:.17e},{}\n", y[i], v[i], groups[i]));
     }
     let path = write_file(&dir, "sub.csv", text.as_bytes());
-    let out = relyard(&[
+    let j = json_ok(&[
         "explain",
         &path,
         "--transform",
@@ -441,48 +428,23 @@ fn subgroups_match_separate_fits() {
         "band",
         "--json",
     ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let got = j["subgroups"]["groups"].as_array().unwrap();
     for want in r["levels"].as_array().unwrap() {
         let level = want["level"].as_str().unwrap();
         let g = got.iter().find(|g| g["level"] == level).unwrap();
         assert_eq!(g["k"], want["k"]);
-        assert_close(
-            g["estimate"].as_f64().unwrap(),
-            want["estimate"].as_f64().unwrap(),
+        assert_json_close(
+            &g["estimate"],
+            &want["estimate"],
             FIXTURE_REL,
             FIXTURE_ABS,
             level,
         );
-        assert_close(
-            g["tau2"].as_f64().unwrap(),
-            want["tau2"].as_f64().unwrap(),
-            FIXTURE_REL,
-            FIXTURE_ABS,
-            level,
-        );
+        assert_json_close(&g["tau2"], &want["tau2"], FIXTURE_REL, FIXTURE_ABS, level);
     }
     let qb = &j["subgroups"]["q_between"];
-    assert_close(
-        qb["statistic"].as_f64().unwrap(),
-        r["q_between"].as_f64().unwrap(),
-        1e-7,
-        1e-10,
-        "Q between",
-    );
-    assert_close(
-        qb["p"].as_f64().unwrap(),
-        r["p"].as_f64().unwrap(),
-        1e-6,
-        1e-12,
-        "Q between p",
-    );
+    assert_json_close(&qb["statistic"], &r["q_between"], 1e-7, 1e-10, "Q between");
+    assert_json_close(&qb["p"], &r["p"], 1e-6, 1e-12, "Q between p");
     assert!(j["subgroups"]["moderator_test"]["statistic"].is_number());
 }
 
@@ -545,9 +507,9 @@ fn check_matches_the_reference_placement() {
         );
         let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
         let what = |k: &str| format!("x0 {} {k}", case["x0"]);
-        assert_close(
-            j["expected"].as_f64().unwrap(),
-            case["expected"].as_f64().unwrap(),
+        assert_json_close(
+            &j["expected"],
+            &case["expected"],
             1e-8,
             1e-10,
             &what("expected"),
@@ -557,9 +519,9 @@ fn check_matches_the_reference_placement() {
             assert_close(g[0], w[0], 1e-7, 1e-10, &what(key));
             assert_close(g[1], w[1], 1e-7, 1e-10, &what(key));
         }
-        assert_close(
-            j["percentile"].as_f64().unwrap(),
-            case["percentile"].as_f64().unwrap(),
+        assert_json_close(
+            &j["percentile"],
+            &case["percentile"],
             1e-6,
             1e-8,
             &what("percentile"),
@@ -591,14 +553,7 @@ fn score_spread_matches_the_reference() {
     let f = fixture("metareg.json");
     let dir = scratch("spread-ref");
     let path = alpha_sheet(&dir, &f["alpha_sheet"]);
-    let out = relyard(&["explain", &path, "--score-spread", "--json"]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let j = json_ok(&["explain", &path, "--score-spread", "--json"]);
     let s = &j["score_spread"];
     let r = &f["score_spread"];
     assert_eq!(s["metric"], "pomp");
@@ -611,13 +566,7 @@ fn score_spread_matches_the_reference() {
         "tau2_share",
         "typical_sd",
     ] {
-        assert_close(
-            s[key].as_f64().unwrap(),
-            r[key].as_f64().unwrap(),
-            1e-6,
-            1e-12,
-            key,
-        );
+        assert_json_close(&s[key], &r[key], 1e-6, 1e-12, key);
     }
     let (g, w) = (floats(&s["ci"]), floats(&r["ci"]));
     assert_close(g[0], w[0], 1e-7, 1e-10, "ci lower");

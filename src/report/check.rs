@@ -2,7 +2,7 @@
 
 use super::INDIVIDUAL_DECISIONS_CAUTION;
 use super::format::{fixed, percent_level, range, significant, thousands, wrap};
-use super::json::{InputSummary, SCHEMA_VERSION};
+use super::json::{DocumentHead, InputSummary};
 use super::paragraph::Paragraph;
 use crate::benchmark::Prepared;
 use crate::metareg::spread::SpreadReading;
@@ -289,24 +289,9 @@ pub struct CheckSpreadRecord {
 /// `relyard check --json`.
 #[derive(Debug, Clone, Serialize)]
 pub struct CheckDocument {
-    /// Layout version.
-    pub schema_version: &'static str,
-    /// "check".
-    pub command: &'static str,
-    /// relyard version.
-    pub relyard_version: &'static str,
-    /// Input.
-    pub input: InputSummary,
-    /// Transform.
-    pub transform: &'static str,
-    /// Which keys are on which scale.
-    pub scales: &'static str,
-    /// τ² method.
-    pub tau2_method: &'static str,
-    /// CI method.
-    pub ci_method: &'static str,
-    /// Level.
-    pub level: f64,
+    /// The header shared by every document.
+    #[serde(flatten)]
+    pub head: DocumentHead,
     /// Studies in the benchmark model.
     pub k: usize,
     /// Moderator values the expectation is conditional on.
@@ -367,22 +352,16 @@ impl CheckDocument {
     pub fn new(p: &Prepared, pl: &Placement, paragraph: &Paragraph, warnings: &[Warning]) -> Self {
         let pair = |i: BackInterval| [i.lower, i.upper];
         CheckDocument {
-            schema_version: SCHEMA_VERSION,
-            command: "check",
-            relyard_version: env!("CARGO_PKG_VERSION"),
-            input: InputSummary {
-                file: p.file.clone(),
-                delimiter: delimiter_name(p.delimiter),
-                rows_read: p.rows_read,
-                rows_used: p.records.len(),
-                rows_skipped: p.skipped.len(),
-            },
-            transform: pl.transform.name(),
-            scales: "expected, ci, pi, pi_observed and percentile are on the coefficient scale; \
-                     transformed holds the analysis scale",
-            tau2_method: pl.fit.options.model.name(),
-            ci_method: pl.fit.options.ci.name(),
-            level: pl.fit.options.level,
+            head: DocumentHead::new(
+                "check",
+                InputSummary::of(p),
+                pl.transform,
+                "expected, ci, pi, pi_observed and percentile are on the coefficient scale; \
+                 transformed holds the analysis scale",
+                pl.fit.options.model,
+                pl.fit.options.ci,
+                pl.fit.options.level,
+            ),
             k: pl.fit.k,
             at: pl.at.clone(),
             coef: pl.study.coef,

@@ -1,7 +1,7 @@
 //! Output of `relyard explain`: the readable summary and the JSON document.
 
 use super::format::{fixed, p_value, percent_level, range, significant};
-use super::json::{InputSummary, SCHEMA_VERSION, SkippedRecord, Tau2FitRecord, TestRecord};
+use super::json::{DocumentHead, InputSummary, SkippedRecord, Tau2FitRecord, TestRecord};
 use crate::benchmark::Prepared;
 use crate::metareg::influence::StudyInfluence;
 use crate::metareg::permutation::PermutationResult;
@@ -661,28 +661,9 @@ pub struct InfluenceRecord {
 /// `relyard explain --json`.
 #[derive(Debug, Clone, Serialize)]
 pub struct ExplainDocument {
-    /// Layout version.
-    pub schema_version: &'static str,
-    /// "explain".
-    pub command: &'static str,
-    /// relyard version.
-    pub relyard_version: &'static str,
-    /// Input.
-    pub input: InputSummary,
-    /// Transform of the main model.
-    pub transform: &'static str,
-    /// Its formula.
-    pub transform_formula: &'static str,
-    /// Scales note.
-    pub scales: &'static str,
-    /// "random" or "common".
-    pub model: &'static str,
-    /// τ² method.
-    pub tau2_method: &'static str,
-    /// CI method.
-    pub ci_method: &'static str,
-    /// Level.
-    pub level: f64,
+    /// The header shared by every document.
+    #[serde(flatten)]
+    pub head: DocumentHead,
     /// Studies in the main model.
     pub k: usize,
     /// Moderators.
@@ -778,27 +759,16 @@ impl ExplainDocument {
         let fit = &ex.fit;
         let perm = parts.permutation.map(|r| r.coefficient_p.as_slice());
         ExplainDocument {
-            schema_version: SCHEMA_VERSION,
-            command: "explain",
-            relyard_version: env!("CARGO_PKG_VERSION"),
-            input: InputSummary {
-                file: p.file.clone(),
-                delimiter: delimiter_name(p.delimiter),
-                rows_read: p.rows_read,
-                rows_used: p.records.len(),
-                rows_skipped: p.skipped.len(),
-            },
-            transform: p.transform.name(),
-            transform_formula: p.transform.get().formula(),
-            scales: "coefficients, tau2 and qe are on the transformed scale named by transform; \
-                     score_spread is always on the Bonett scale",
-            model: match fit.options.model {
-                Model::Common => "common",
-                Model::Random(_) => "random",
-            },
-            tau2_method: fit.options.model.name(),
-            ci_method: fit.options.ci.name(),
-            level: fit.options.level,
+            head: DocumentHead::new(
+                "explain",
+                InputSummary::of(p),
+                p.transform,
+                "coefficients, tau2 and qe are on the transformed scale named by transform; \
+                 score_spread is always on the Bonett scale",
+                fit.options.model,
+                fit.options.ci,
+                fit.options.level,
+            ),
             k: fit.k,
             moderators: ex
                 .design

@@ -5,9 +5,9 @@
 use super::INDIVIDUAL_DECISIONS_CAUTION;
 use super::paragraph::Paragraph;
 use crate::benchmark::Benchmark;
-use crate::pool::{Interval, Model, Termination};
+use crate::pool::{CiMethod, Interval, Model, Termination};
 use crate::sheet::delimiter_name;
-use crate::transform::BackInterval;
+use crate::transform::{BackInterval, TransformKind};
 use crate::warning::{Warning, WarningRecord};
 use serde::Serialize;
 
@@ -17,28 +17,9 @@ pub const SCHEMA_VERSION: &str = "1.0";
 /// `relyard pool --json`.
 #[derive(Debug, Clone, Serialize)]
 pub struct PoolDocument {
-    /// Layout version.
-    pub schema_version: &'static str,
-    /// The command that produced the document.
-    pub command: &'static str,
-    /// relyard version.
-    pub relyard_version: &'static str,
-    /// The input sheet.
-    pub input: InputSummary,
-    /// Transform name.
-    pub transform: &'static str,
-    /// The analysis scale as a formula.
-    pub transform_formula: &'static str,
-    /// Which keys are on which scale.
-    pub scales: &'static str,
-    /// "random" or "common".
-    pub model: &'static str,
-    /// τ² estimator name, or "common".
-    pub tau2_method: &'static str,
-    /// CI method name.
-    pub ci_method: &'static str,
-    /// Confidence level.
-    pub level: f64,
+    /// The header shared by every document.
+    #[serde(flatten)]
+    pub head: DocumentHead,
     /// Number of studies pooled.
     pub k: usize,
     /// Sum of the sample sizes of the pooled studies that report one.
@@ -101,6 +82,76 @@ pub struct PoolDocument {
     pub references: Vec<String>,
     /// The caution about decisions on individuals.
     pub caution: &'static str,
+}
+
+/// The keys every document starts with: layout version, command, input and model.
+#[derive(Debug, Clone, Serialize)]
+pub struct DocumentHead {
+    /// Layout version.
+    pub schema_version: &'static str,
+    /// The command that produced the document.
+    pub command: &'static str,
+    /// relyard version.
+    pub relyard_version: &'static str,
+    /// The input sheet.
+    pub input: InputSummary,
+    /// Transform name.
+    pub transform: &'static str,
+    /// The analysis scale as a formula.
+    pub transform_formula: &'static str,
+    /// Which keys are on which scale.
+    pub scales: &'static str,
+    /// "random" or "common".
+    pub model: &'static str,
+    /// τ² estimator name, or "common".
+    pub tau2_method: &'static str,
+    /// CI method name.
+    pub ci_method: &'static str,
+    /// Confidence level.
+    pub level: f64,
+}
+
+impl DocumentHead {
+    /// The head of a document.
+    pub fn new(
+        command: &'static str,
+        input: InputSummary,
+        transform: TransformKind,
+        scales: &'static str,
+        model: Model,
+        ci: CiMethod,
+        level: f64,
+    ) -> Self {
+        DocumentHead {
+            schema_version: SCHEMA_VERSION,
+            command,
+            relyard_version: env!("CARGO_PKG_VERSION"),
+            input,
+            transform: transform.name(),
+            transform_formula: transform.get().formula(),
+            scales,
+            model: match model {
+                Model::Common => "common",
+                Model::Random(_) => "random",
+            },
+            tau2_method: model.name(),
+            ci_method: ci.name(),
+            level,
+        }
+    }
+}
+
+impl InputSummary {
+    /// The input summary of prepared studies.
+    pub fn of(p: &crate::benchmark::Prepared) -> Self {
+        InputSummary {
+            file: p.file.clone(),
+            delimiter: delimiter_name(p.delimiter),
+            rows_read: p.rows_read,
+            rows_used: p.records.len(),
+            rows_skipped: p.skipped.len(),
+        }
+    }
 }
 
 /// The input file.
@@ -197,30 +248,24 @@ impl PoolDocument {
     /// Build the document from a benchmark and its paragraph.
     pub fn new(b: &Benchmark, paragraph: &Paragraph, warnings: &[Warning]) -> Self {
         let p = &b.pool;
-        let tr = b.transform.get();
         PoolDocument {
-            schema_version: SCHEMA_VERSION,
-            command: "pool",
-            relyard_version: env!("CARGO_PKG_VERSION"),
-            input: InputSummary {
-                file: b.file.clone(),
-                delimiter: delimiter_name(b.delimiter),
-                rows_read: b.rows_read,
-                rows_used: b.studies.len(),
-                rows_skipped: b.skipped.len(),
-            },
-            transform: b.transform.name(),
-            transform_formula: tr.formula(),
-            scales: "estimate, se, ci, test, tau2, tau2_ci, tau, q and pi are on the transformed \
-                     scale named by transform; reliability holds the same results on the \
-                     coefficient's own scale",
-            model: match p.options.model {
-                Model::Common => "common",
-                Model::Random(_) => "random",
-            },
-            tau2_method: p.options.model.name(),
-            ci_method: p.options.ci.name(),
-            level: p.options.level,
+            head: DocumentHead::new(
+                "pool",
+                InputSummary {
+                    file: b.file.clone(),
+                    delimiter: delimiter_name(b.delimiter),
+                    rows_read: b.rows_read,
+                    rows_used: b.studies.len(),
+                    rows_skipped: b.skipped.len(),
+                },
+                b.transform,
+                "estimate, se, ci, test, tau2, tau2_ci, tau, q and pi are on the transformed \
+                 scale named by transform; reliability holds the same results on the \
+                 coefficient's own scale",
+                p.options.model,
+                p.options.ci,
+                p.options.level,
+            ),
             k: p.k,
             n_total: b.n_total,
             n_missing: b.n_missing,

@@ -120,3 +120,34 @@ pub fn warning_codes(j: &serde_json::Value) -> Vec<String> {
         .map(|w| w["code"].as_str().expect("a code").to_string())
         .collect()
 }
+
+/// Run the binary, require exit status 0, and parse its stdout as one JSON object.
+#[track_caller]
+pub fn json_ok(args: &[&str]) -> serde_json::Value {
+    let out = relyard(args);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).expect("stdout is one JSON object")
+}
+
+/// [`assert_close`] for two JSON numbers.
+#[track_caller]
+pub fn assert_json_close(
+    actual: &serde_json::Value,
+    expected: &serde_json::Value,
+    rel: f64,
+    abs: f64,
+    what: &str,
+) {
+    let a = actual
+        .as_f64()
+        .unwrap_or_else(|| panic!("{what}: {actual} is not a number"));
+    let e = expected
+        .as_f64()
+        .unwrap_or_else(|| panic!("{what}: {expected} is not a number"));
+    assert_close(a, e, rel, abs, what);
+}
