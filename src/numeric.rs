@@ -138,3 +138,171 @@ mod tests {
         assert!(brent_root(|x| x * x + 1.0, -1.0, 1.0, 1e-12, 100).is_none());
     }
 }
+
+/// Why a minimization stopped.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum MinimizeStop {
+    /// The largest gradient component fell below the tolerance.
+    GradientSmall,
+    /// The objective stopped changing (relative change below machine precision).
+    NoProgress,
+    /// No step along the search direction lowered the objective.
+    LineSearchFailed,
+    /// The iteration limit was reached first.
+    IterationLimit,
+}
+
+impl MinimizeStop {
+    /// True when the result can be trusted as a minimum.
+    pub fn converged(self) -> bool {
+        matches!(self, MinimizeStop::GradientSmall | MinimizeStop::NoProgress)
+    }
+}
+
+/// A minimum found by [`bfgs`].
+#[derive(Debug, Clone, PartialEq)]
+pub struct Minimum {
+    /// The minimizer.
+    pub x: Vec<f64>,
+    /// The objective there.
+    pub value: f64,
+    /// The largest absolute gradient component there.
+    pub gradient_max: f64,
+    /// Iterations used.
+    pub iterations: usize,
+    /// Why the search stopped.
+    pub stop: MinimizeStop,
+}
+
+/// Minimize a smooth function by BFGS (a dense inverse-Hessian update) with a
+/// backtracking (Armijo) line search. `f` returns the value and the gradient; a value
+/// that is not finite counts as too large. Stops when every gradient component is below
+/// `gtol`.
+///
+/// # References
+/// Nocedal, J., & Wright, S. J. (2006). *Numerical Optimization* (2nd ed.), algorithm 6.1
+/// and section 3.1. New York: Springer.
+pub fn bfgs<F: FnMut(&[f64]) -> (f64, Vec<f64>)>(
+    mut f: F,
+    x0: &[f64],
+    gtol: f64,
+    max_iter: usize,
+) -> Minimum {
+    let n = x0.len();
+    let mut x = x0.to_vec();
+    let (mut fx, mut g) = f(&x);
+    let mut h = nalgebra::DMatrix::<f64>::identity(n, n);
+    let max_abs = |v: &[f64]| v.iter().fold(0.0f64, |m, e| m.max(e.abs()));
+    let mut stalls = 0;
+    for it in 0..max_iter {
+        let gmax = max_abs(&g);
+        if gmax < gtol {
+            return Minimum {
+                x,
+                value: fx,
+                gradient_max: gmax,
+                iterations: it,
+                stop: MinimizeStop::GradientSmall,
+            };
+        }
+        let gv = nalgebra::DVector::from_column_slice(&g);
+        let mut d = -(&h * &gv);
+        let mut slope = d.dot(&gv);
+        if slope.is_nan() || slope >= 0.0 {
+            // Not a descent direction: restart from steepest descent.
+            h = nalgebra::DMatrix::identity(n, n);
+            d = -gv.clone();
+            slope = d.dot(&gv);
+        }
+        let mut step = 1.0;
+        let mut accepted = None;
+        for _ in 0..60 {
+            let trial: Vec<f64> = x.iter().zip(d.iter()).map(|(a, b)| a + step * b).collect();
+            let (ft, gt) = f(&trial);
+            if ft.is_finite() && ft <= fx + 1e-4 * step * slope {
+                accepted = Some((trial, ft, gt));
+                break;
+            }
+            step *= 0.5;
+        }
+        let Some((xn, fnew, gnew)) = accepted else {
+            return Minimum {
+                x,
+                value: fx,
+                gradient_max: gmax,
+                iterations: it,
+                stop: MinimizeStop::LineSearchFailed,
+            };
+        };
+        let s = nalgebra::DVector::from_iterator(n, xn.iter().zip(&x).map(|(a, b)| a - b));
+        let y = nalgebra::DVector::from_iterator(n, gnew.iter().zip(&g).map(|(a, b)| a - b));
+        let sy = s.dot(&y);
+        if sy > 1e-12 * s.norm() * y.norm() {
+            let rho = 1.0 / sy;
+            let hy = &h * &y;
+            let yhy = y.dot(&hy);
+            // H ← (I − ρsyᵀ)H(I − ρysᵀ) + ρssᵀ, expanded.
+            h = &h - (&hy * s.transpose() + &s * hy.transpose()) * rho
+                + (&s * s.transpose()) * (rho * rho * yhy + rho);
+        }
+        let change = (fx - fnew).abs();
+        x = xn;
+        g = gnew;
+        let previous = fx;
+        fx = fnew;
+        if change <= 4.0 * f64::EPSILON * previous.abs().max(1e-300) {
+            stalls += 1;
+            if stalls >= 3 {
+                let gmax = max_abs(&g);
+                return Minimum {
+                    x,
+                    value: fx,
+                    gradient_max: gmax,
+                    iterations: it + 1,
+                    stop: MinimizeStop::NoProgress,
+                };
+            }
+        } else {
+            stalls = 0;
+        }
+    }
+    let gmax = max_abs(&g);
+    Minimum {
+        x,
+        value: fx,
+        gradient_max: gmax,
+        iterations: max_iter,
+        stop: MinimizeStop::IterationLimit,
+    }
+}
+
+#[cfg(test)]
+mod bfgs_tests {
+    use super::*;
+
+    /// The Rosenbrock function's minimum at (1, 1) (Nocedal & Wright 2006, p. 27).
+    #[test]
+    fn finds_the_rosenbrock_minimum() {
+        let m = bfgs(
+            |x| {
+                let (a, b) = (x[0], x[1]);
+                let f = 100.0 * (b - a * a).powi(2) + (1.0 - a).powi(2);
+                let g = vec![
+                    -400.0 * a * (b - a * a) - 2.0 * (1.0 - a),
+                    200.0 * (b - a * a),
+                ];
+                (f, g)
+            },
+            &[-1.2, 1.0],
+            1e-10,
+            1000,
+        );
+        assert!(m.stop.converged(), "{:?}", m.stop);
+        assert!(
+            (m.x[0] - 1.0).abs() < 1e-7 && (m.x[1] - 1.0).abs() < 1e-7,
+            "{:?}",
+            m.x
+        );
+    }
+}

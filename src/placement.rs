@@ -71,10 +71,15 @@ pub struct SpreadShortfall {
     pub expected_at_own_sd: f64,
     /// Expected coefficient at the typical SD.
     pub expected_at_typical_sd: f64,
-    /// expected_at_typical_sd − expected_at_own_sd: the shortfall the spread accounts for.
+    /// expected_at_typical_sd − expected_at_own_sd: the shortfall the spread accounts for
+    /// (negative when the study's scores spread more than typical).
     pub explained_shortfall: f64,
-    /// expected_at_typical_sd − observed coefficient.
+    /// The same at the ends of the slope's confidence interval (ordered).
+    pub explained_shortfall_ci: (f64, f64),
+    /// The placement's expected coefficient minus the observed one (positive: a shortfall).
     pub observed_shortfall: f64,
+    /// True when the study's SD lies outside the SDs of the benchmark studies.
+    pub sd_outside_benchmark: bool,
     /// The score-spread model behind it.
     pub model: Box<ScoreSpread>,
 }
@@ -181,7 +186,6 @@ pub fn place(
         return Err(Error::InvalidOption(format!("{opt}: {}", u.reason)));
     }
     let new_effect = tr.effect(&input).0;
-    let new_variance = tr.variance(&input);
 
     let mut warnings = p.warnings.clone();
     let (fit, design, x0) = if moderators.is_empty() {
@@ -214,7 +218,38 @@ pub fn place(
             k as i64 - np as i64 - 1
         )));
     }
+    if k < crate::pool::FEW_STUDIES + np - 1 {
+        warnings.push(Warning::FewStudies { k });
+    }
+    // Moderator values outside the range the benchmark studies cover.
+    if let Some(d) = &design {
+        for m in &d.moderators {
+            if let crate::metareg::Moderator::Numeric { name, column } = m {
+                let col = d.x.column(*column);
+                let (lo, hi) = (col.min(), col.max());
+                let v = x0[*column];
+                if v < lo || v > hi {
+                    warnings.push(Warning::Extrapolation {
+                        what: format!("{name} = {v}"),
+                        lower: lo,
+                        upper: hi,
+                    });
+                }
+            }
+        }
+    }
     let (expected_t, var_t) = fit.predict(&x0);
+    // The new study's sampling variance at the expected coefficient, so that the range
+    // does not depend on the coefficient being judged (it would for raw and
+    // Hakstian–Whalen, whose variances depend on the coefficient).
+    let expected_coef = tr
+        .back(Transformed(expected_t))
+        .expect("a coefficient scale")
+        .0;
+    let new_variance = tr.variance(&StudyInput {
+        coef: expected_coef.min(1.0 - 1e-12),
+        ..input
+    });
     let se_t = var_t.sqrt();
     let ci_t = Interval::around(expected_t, fit.critical_value() * se_t);
     let pi_df = (k - np - 1) as f64;
@@ -262,17 +297,56 @@ pub fn place(
         Verdict::Within
     };
 
+    // A failing score-spread model leaves the placement standing, with a note.
     let spread = match study.sd {
         None => None,
-        Some(sd) => Some(spread_shortfall(
-            p,
-            study,
-            sd,
-            moderators,
-            at,
-            spread_metric,
-            options,
-        )?),
+        Some(sd) => {
+            match spread_shortfall(
+                p,
+                study,
+                sd,
+                &SpreadConditions {
+                    moderators,
+                    at,
+                    metric: spread_metric,
+                    options,
+                },
+                expected,
+            ) {
+                Ok(s) => {
+                    if s.sd_outside_benchmark {
+                        let (lo, hi) = s
+                            .model
+                            .sds
+                            .iter()
+                            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                                (a.min(x), b.max(x))
+                            });
+                        warnings.push(Warning::Extrapolation {
+                            what: format!(
+                                "the SD {} ({} metric)",
+                                crate::report::format::significant(s.sd, 3),
+                                s.metric
+                            ),
+                            lower: lo,
+                            upper: hi,
+                        });
+                    }
+                    Some(s)
+                }
+                Err(e)
+                    if e.is_bad_input()
+                        && !matches!(e, Error::InvalidOption(ref m) if m.starts_with("--sd")) =>
+                {
+                    warnings.push(Warning::PartFailed {
+                        what: "the score-spread comparison".into(),
+                        why: e.to_string(),
+                    });
+                    None
+                }
+                Err(e) => return Err(e),
+            }
+        }
     };
 
     Ok(Placement {
@@ -300,15 +374,22 @@ pub fn place(
     })
 }
 
+/// What the score-spread comparison is conditional on.
+struct SpreadConditions<'a> {
+    moderators: &'a [ModeratorSpec],
+    at: &'a BTreeMap<String, String>,
+    metric: Option<SpreadMetric>,
+    options: &'a FitOptions,
+}
+
 fn spread_shortfall(
     p: &Prepared,
     study: &NewStudy,
     sd: f64,
-    moderators: &[ModeratorSpec],
-    at: &BTreeMap<String, String>,
-    metric: Option<SpreadMetric>,
-    options: &FitOptions,
+    cond: &SpreadConditions,
+    expected: f64,
 ) -> Result<SpreadShortfall> {
+    let (moderators, at, metric, options) = (cond.moderators, cond.at, cond.metric, cond.options);
     let model = score_spread(p, metric, moderators, options)?;
     let h = harmonize(
         Some(sd),
@@ -323,15 +404,19 @@ fn spread_shortfall(
     };
     let own = own.ok_or_else(|| {
         let need = match (study.sd_metric, model.metric) {
-            (None, _) => "--sd-metric (sum or mean)",
-            (Some(SdMetric::Sum), _) if study.items.is_none() => "--items",
-            (_, SpreadMetric::Pomp) => {
-                "--scale-min and --scale-max (the benchmark's SDs are on the POMP metric)"
+            (None, _) => "add --sd-metric (sum or mean)".to_string(),
+            (Some(SdMetric::Sum), _) if study.items.is_none() => "add --items".to_string(),
+            (_, SpreadMetric::Pomp) if study.scale_min.is_none() || study.scale_max.is_none() => {
+                "add --scale-min and --scale-max (the benchmark's SDs are on the POMP metric)"
+                    .into()
             }
-            _ => "--sd-metric",
+            _ => h
+                .problem
+                .clone()
+                .unwrap_or_else(|| "check --sd-metric".into()),
         };
         Error::InvalidOption(format!(
-            "--sd {sd}: the SD cannot be put on the benchmark's {} metric; add {need}",
+            "--sd {sd}: the SD cannot be put on the benchmark's {} metric: {need}",
             model.metric
         ))
     })?;
@@ -341,8 +426,22 @@ fn spread_shortfall(
         model.others.row_for(at, p.delimiter != b',')?[1..].to_vec()
     };
     let back = |t: f64| -(t.exp_m1());
-    let at_own = back(model.predict(own, &others).0);
-    let at_typical = back(model.predict(model.typical_sd, &others).0);
+    let (t_own, _) = model.predict(own, study.items, &others)?;
+    let (t_typ, _) = model.predict(model.typical_sd, study.items, &others)?;
+    let (at_own, at_typical) = (back(t_own), back(t_typ));
+    // The difference on the Bonett scale is slope × (ln own − ln typical); its interval
+    // follows from the slope's.
+    let dl = own.ln() - model.typical_sd.ln();
+    let ends =
+        [model.slope.ci.lower, model.slope.ci.upper].map(|b| at_typical - back(t_typ + b * dl));
+    let lo = ends[0].min(ends[1]);
+    let hi = ends[0].max(ends[1]);
+    let (min_sd, max_sd) = model
+        .sds
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
     Ok(SpreadShortfall {
         metric: model.metric,
         sd: own,
@@ -350,7 +449,9 @@ fn spread_shortfall(
         expected_at_own_sd: at_own,
         expected_at_typical_sd: at_typical,
         explained_shortfall: at_typical - at_own,
-        observed_shortfall: at_typical - study.coef,
+        explained_shortfall_ci: (lo, hi),
+        observed_shortfall: expected - study.coef,
+        sd_outside_benchmark: own < min_sd || own > max_sd,
         model: Box::new(model),
     })
 }

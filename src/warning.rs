@@ -72,6 +72,22 @@ pub enum Warning {
         /// Its lower end.
         lower: f64,
     },
+    /// A value lies outside the range the benchmark studies cover.
+    Extrapolation {
+        /// What (e.g. "year = 1900").
+        what: String,
+        /// Lowest value among the benchmark studies.
+        lower: f64,
+        /// Highest value among the benchmark studies.
+        upper: f64,
+    },
+    /// An optional part of a run could not be done; the rest stands.
+    PartFailed {
+        /// Which part.
+        what: String,
+        /// Why.
+        why: String,
+    },
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
         /// Spreadsheet rows.
@@ -128,6 +144,8 @@ impl Warning {
             Warning::Tau2OutsideInterval { .. } => "tau2_outside_interval",
             Warning::KnappHartungBelowOne { .. } => "knapp_hartung_below_one",
             Warning::RangeBelowZero { .. } => "range_below_zero",
+            Warning::Extrapolation { .. } => "extrapolation",
+            Warning::PartFailed { .. } => "part_failed",
             Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
             Warning::DuplicateLabel { .. } => "duplicate_label",
@@ -213,7 +231,7 @@ impl fmt::Display for Warning {
             ),
             Warning::KnappHartungBelowOne { scale } => write!(
                 f,
-                "the Knapp–Hartung scale factor is {} (below 1): the studies agree more closely \
+                "the Knapp–Hartung scale factor is {} (below 0.95): the studies agree more closely \
                  than their sampling variances predict (coefficients rounded to two decimals \
                  can do this), so its intervals are narrower than the Wald intervals{}; \
                  --ci knapp-hartung-floor keeps the factor at 1 or more",
@@ -231,6 +249,17 @@ impl fmt::Display for Warning {
                  look for moderators that explain the differences",
                 crate::report::format::fixed(*lower, 2)
             ),
+            Warning::Extrapolation { what, lower, upper } => write!(
+                f,
+                "{what} lies outside the range of the benchmark studies ({} to {}): the \
+                 expectation there is an extrapolation and rests on the model's form, not on \
+                 studies like this one",
+                crate::report::format::significant(*lower, 4),
+                crate::report::format::significant(*upper, 4)
+            ),
+            Warning::PartFailed { what, why } => {
+                write!(f, "{what} could not be done, the rest stands: {why}")
+            }
             Warning::RowsLeftOutOfModel { rows, why } => write!(
                 f,
                 "{} left out of the model because {why}; they are listed with the results",

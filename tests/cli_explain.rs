@@ -372,3 +372,184 @@ fn no_progress_bar_when_piped() {
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(!err.contains("permutations ["), "{err}");
 }
+
+/// Regressions from the issue 3 review.
+mod review {
+    use super::*;
+
+    /// A positive slope is not read as "between 0 and −2".
+    #[test]
+    fn readings_follow_the_slope_and_the_share() {
+        use relyard::metareg::spread::{SpreadReading::*, read_slope};
+        assert_eq!(read_slope(1.2, 1.6, 1.4, Some(40.0)), OppositeDirection);
+        assert_eq!(read_slope(-2.7, -1.2, -1.9, Some(30.0)), ConsistentButMinor);
+        assert_eq!(read_slope(-2.7, -1.2, -1.9, Some(60.0)), AccountsForMost);
+        assert_eq!(read_slope(-1.5, -0.5, -1.0, Some(60.0)), AccountsForPart);
+        assert_eq!(
+            read_slope(-3.5, -2.5, -3.0, Some(60.0)),
+            SteeperThanExpected
+        );
+        assert_eq!(read_slope(-0.5, 0.5, 0.0, Some(10.0)), DoesNotAccount);
+        assert_eq!(read_slope(-2.5, 0.5, -1.0, Some(10.0)), Undecided);
+        assert_eq!(read_slope(-2.5, -1.5, -2.0, None), NothingToExplain);
+    }
+
+    /// The range for an observed coefficient does not depend on the coefficient judged,
+    /// even on scales whose variance depends on the coefficient.
+    #[test]
+    fn observed_range_does_not_depend_on_the_coefficient() {
+        for tr in ["raw", "hakstian-whalen", "bonett"] {
+            let a = json_ok(&[
+                "check",
+                &demo(),
+                "--coef",
+                "0.55",
+                "--n",
+                "60",
+                "--items",
+                "10",
+                "--transform",
+                tr,
+                "--json",
+            ]);
+            let b = json_ok(&[
+                "check",
+                &demo(),
+                "--coef",
+                "0.95",
+                "--n",
+                "60",
+                "--items",
+                "10",
+                "--transform",
+                tr,
+                "--json",
+            ]);
+            assert_eq!(a["pi_observed"], b["pi_observed"], "{tr}");
+        }
+    }
+
+    /// An SD larger than a bounded scale allows is listed, not used; a new study's impossible
+    /// SD is refused; a value outside the benchmark's range draws a warning.
+    #[test]
+    fn impossible_and_extreme_values() {
+        let dir = scratch("review3");
+        let mut text = std::fs::read_to_string(demo()).unwrap();
+        text = text.replacen(
+            "Sample 01,2009,0.85,alpha,572,10,0.76,mean",
+            "Sample 01,2009,0.85,alpha,572,10,7.6,mean",
+            1,
+        );
+        let path = write_file(&dir, "bad-sd.csv", text.as_bytes());
+        let j = json_ok(&["explain", &path, "--score-spread", "--json"]);
+        let excluded = j["score_spread"]["excluded_rows"].as_array().unwrap();
+        let row2 = excluded
+            .iter()
+            .find(|e| e["row"] == 2)
+            .expect("row 2 listed");
+        assert!(
+            row2["reasons"][0]
+                .as_str()
+                .unwrap()
+                .contains("exceeds the largest possible")
+        );
+        fails_with(
+            &[
+                "check",
+                &demo(),
+                "--coef",
+                "0.7",
+                "--n",
+                "150",
+                "--items",
+                "10",
+                "--sd",
+                "3",
+                "--sd-metric",
+                "mean",
+                "--scale-min",
+                "1",
+                "--scale-max",
+                "5",
+            ],
+            &["--sd 3", "exceeds the largest possible"],
+        );
+        let out = relyard(&[
+            "check",
+            &demo(),
+            "--coef",
+            "0.7",
+            "--n",
+            "150",
+            "--items",
+            "10",
+            "--moderator",
+            "year",
+            "--at",
+            "year=1900",
+        ]);
+        assert_eq!(out.status.code(), Some(0));
+        assert!(
+            String::from_utf8_lossy(&out.stderr).contains("year = 1900 lies outside the range")
+        );
+        let out = relyard(&[
+            "check",
+            &demo(),
+            "--coef",
+            "0.1",
+            "--n",
+            "150",
+            "--items",
+            "10",
+        ]);
+        assert!(String::from_utf8_lossy(&out.stdout).contains("below the 1st"));
+    }
+
+    /// A score-spread model that cannot be fitted leaves the main results standing.
+    #[test]
+    fn a_failing_spread_model_is_not_fatal() {
+        let dir = scratch("review3-site");
+        let path = write_file(
+            &dir,
+            "site.csv",
+            b"study,coef,n,items,site,sd,sd_metric,scale_min,scale_max\n\
+A,0.80,100,6,a,0.6,mean,1,5\nB,0.70,90,6,b,0.5,mean,1,5\nC,0.75,80,6,a,0.55,mean,1,5\n\
+D,0.85,120,6,b,0.7,mean,1,5\nE,0.78,60,6,a,0.62,mean,1,5\nF,0.72,70,6,c,,,1,5\nG,0.74,75,6,c,,,1,5\n",
+        );
+        let out = relyard(&[
+            "explain",
+            &path,
+            "--moderator",
+            "site",
+            "--reference",
+            "site=c",
+            "--score-spread",
+            "--json",
+        ]);
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let j: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert!(j["score_spread"].is_null());
+        assert!(warning_codes(&j).iter().any(|c| c == "part_failed"));
+        assert_eq!(j["coefficients"].as_array().unwrap().len(), 3);
+    }
+
+    #[test]
+    fn other_errors() {
+        let dir = scratch("review3-errors");
+        let path = write_file(
+            &dir,
+            "empty-by.csv",
+            b"coef,n,items,g\n0.8,100,6,\n0.7,90,6,\n0.75,80,6,\n",
+        );
+        fails_with(&["explain", &path, "--by", "g"], &["no values"]);
+        fails_with(
+            &["explain", &demo(), "--moderator", "sd"],
+            &["not all on one metric", "--score-spread"],
+        );
+    }
+}

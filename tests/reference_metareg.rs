@@ -572,3 +572,35 @@ fn score_spread_matches_the_reference() {
     assert_close(g[0], w[0], 1e-7, 1e-10, "ci lower");
     assert_close(g[1], w[1], 1e-7, 1e-10, "ci upper");
 }
+
+/// The score-variance test on test–retest correlations: ln(1 − r) with the delta-method
+/// variance (1 + r)²/(n − 3) (numpy/statsmodels reference).
+#[test]
+fn score_spread_on_retest_correlations() {
+    let f = fixture("metareg.json");
+    let r = &f["retest_spread"];
+    let dir = scratch("retest-spread");
+    let mut text = String::from("study,coef,n,coef_type,sd,sd_metric,scale_min,scale_max\n");
+    for row in r["rows"].as_array().unwrap() {
+        text.push_str(&format!(
+            "{},{},{},retest,{},{},{},{}\n",
+            row["study"].as_str().unwrap(),
+            row["coef"],
+            row["n"],
+            row["sd"],
+            row["sd_metric"].as_str().unwrap(),
+            row["scale_min"],
+            row["scale_max"]
+        ));
+    }
+    let path = write_file(&dir, "retest.csv", text.as_bytes());
+    let j = json_ok(&["explain", &path, "--score-spread", "--json"]);
+    let s = &j["score_spread"];
+    assert_eq!(
+        j["transform"], "fisher-z",
+        "the main model keeps its own transform"
+    );
+    assert_json_close(&s["slope"], &r["slope"], 1e-6, 1e-10, "slope");
+    assert_json_close(&s["se"], &r["se"], 1e-6, 1e-10, "se");
+    assert_json_close(&s["tau2"], &r["tau2"], 1e-6, 1e-10, "tau2");
+}

@@ -30,21 +30,37 @@ pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
         }
         None => None,
     };
+    // A score-spread model that cannot be fitted leaves the other results standing.
     let spread = if c.score_spread {
-        let s = score_spread(
+        match score_spread(
             &prepared,
             c.moderators.spread_metric,
             &c.moderators.specs,
             &opts,
-        )?;
-        warnings.extend(s.fit.warnings.iter().cloned());
-        if !s.excluded.is_empty() {
-            warnings.push(relyard::Warning::RowsLeftOutOfModel {
-                rows: s.excluded.iter().map(|e| e.row).collect(),
-                why: "their SD cannot be put on a common metric (score-spread model)".into(),
-            });
+        ) {
+            Ok(s) => {
+                for w in &s.fit.warnings {
+                    if w.code() == "not_converged" {
+                        warnings.push(w.clone());
+                    }
+                }
+                if !s.excluded.is_empty() {
+                    warnings.push(relyard::Warning::RowsLeftOutOfModel {
+                        rows: s.excluded.iter().map(|e| e.row).collect(),
+                        why: "their SD cannot be used (score-spread model)".into(),
+                    });
+                }
+                Some(s)
+            }
+            Err(e) if e.is_bad_input() => {
+                warnings.push(relyard::Warning::PartFailed {
+                    what: "the score-spread test".into(),
+                    why: e.to_string(),
+                });
+                None
+            }
+            Err(e) => return Err(e.into()),
         }
-        Some(s)
     } else {
         None
     };

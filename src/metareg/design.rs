@@ -193,6 +193,16 @@ fn value_of(p: &Prepared, rec: &StudyRecord, name: &str) -> Result<Option<String
         if role.name().eq_ignore_ascii_case(name)
             || header.is_some_and(|h| h.eq_ignore_ascii_case(name))
         {
+            if role == Role::Sd {
+                let first = p.records.first().and_then(|r| r.sd_metric);
+                if first.is_none() || p.records.iter().any(|r| r.sd_metric != first) {
+                    return Err(Error::InvalidOption(format!(
+                        "--moderator {name}: the sheet's SDs are not all on one metric (sd_metric \
+                         missing or mixed sum and mean), so they cannot be compared as they \
+                         are; use --score-spread, which puts them on one metric"
+                    )));
+                }
+            }
             let v = match role {
                 Role::N => rec.n.map(|x| x as f64),
                 Role::Items => rec.items.map(f64::from),

@@ -147,13 +147,16 @@ pub fn permutation_test(
     let p_of = |count: usize| (count as f64 + 1.0) / (tally.done as f64 + 1.0);
     let mut coefficient_p = vec![None; ex.fit.p];
     for (slot, &j) in columns.iter().enumerate() {
-        coefficient_p[j] = Some(p_of(tally.coefficients[slot]));
+        if obs_coef[slot].is_finite() {
+            coefficient_p[j] = Some(p_of(tally.coefficients[slot]));
+        }
     }
     Ok(PermutationResult {
         permutations,
         seed,
         failed: tally.failed,
-        omnibus_p: Some(p_of(tally.omnibus)),
+        // Without an observed omnibus statistic there is nothing to compare.
+        omnibus_p: obs_omnibus.is_finite().then(|| p_of(tally.omnibus)),
         coefficient_p,
     })
 }

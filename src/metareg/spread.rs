@@ -102,6 +102,18 @@ pub fn harmonize(
             _ => return fail("the SD is for sum scores but the number of items is missing"),
         },
     };
+    if let (Some(lo), Some(hi)) = (min, max)
+        && hi > lo
+        && per_item > (hi - lo) / 2.0
+    {
+        // A variable bounded by lo and hi has an SD of at most (hi − lo)/2.
+        return fail(&format!(
+            "a per-item SD of {} exceeds the largest possible on a {lo}–{hi} scale ({}); check \
+             sd and sd_metric",
+            crate::report::format::significant(per_item, 3),
+            (hi - lo) / 2.0
+        ));
+    }
     let (pomp, problem) = match (min, max) {
         (Some(lo), Some(hi)) if hi > lo => (Some(100.0 * per_item / (hi - lo)), None),
         _ => (
@@ -125,17 +137,29 @@ pub fn harmonize_record(r: &StudyRecord) -> HarmonizedSd {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
 pub enum SpreadReading {
-    /// The slope's interval excludes 0 and includes −2.
+    /// The slope's interval excludes 0 and includes −2, and ln(SD) explains at least half
+    /// of τ².
     AccountsForMost,
+    /// The slope's interval excludes 0 and includes −2, but ln(SD) explains less than half
+    /// of τ².
+    ConsistentButMinor,
     /// The slope's interval excludes 0 and −2, with the slope between them.
     AccountsForPart,
     /// The slope is steeper than −2.
     SteeperThanExpected,
+    /// The slope is positive: coefficients are higher where scores spread less.
+    OppositeDirection,
     /// The interval includes 0 but not −2.
     DoesNotAccount,
     /// The interval includes both 0 and −2.
     Undecided,
+    /// The coefficients do not vary beyond sampling error (τ² without ln(SD) is 0).
+    NothingToExplain,
 }
+
+/// Share of τ² that ln(SD) must explain for "most" (common practice, no source: a
+/// majority).
+pub const MOST_SHARE: f64 = 50.0;
 
 impl SpreadReading {
     /// The sentence for reports.
@@ -143,9 +167,15 @@ impl SpreadReading {
         match self {
             SpreadReading::AccountsForMost => {
                 "score spread accounts for most of the differences between samples: the slope \
-                 is consistent with a constant error variance (−2), so a sample with a narrower \
-                 spread of scores is expected to have a lower coefficient even when the \
-                 measurement is equally precise"
+                 is consistent with a constant error variance (−2) and ln(SD) explains at least \
+                 half of the between-sample variance, so a sample with a narrower spread of \
+                 scores is expected to have a lower coefficient even when the measurement is \
+                 equally precise"
+            }
+            SpreadReading::ConsistentButMinor => {
+                "the slope is consistent with a constant error variance (−2), but score spread \
+                 explains less than half of the between-sample variance: other differences \
+                 between samples matter more"
             }
             SpreadReading::AccountsForPart => {
                 "score spread accounts for part of the differences between samples: the slope \
@@ -157,6 +187,11 @@ impl SpreadReading {
                  variance predicts (slope below −2): samples with narrow spread also measured \
                  less precisely"
             }
+            SpreadReading::OppositeDirection => {
+                "score spread does not account for the differences in the way a constant error \
+                 variance predicts: coefficients are HIGHER where scores spread less (positive \
+                 slope), so check the coding of sd and sd_metric, or look for another cause"
+            }
             SpreadReading::DoesNotAccount => {
                 "score spread does not account for the differences between samples: the slope \
                  is not distinguishable from 0 and differs from the −2 that a constant error \
@@ -167,7 +202,39 @@ impl SpreadReading {
                  samples: the slope's interval includes both 0 and −2 (too few studies, or too \
                  little variation in SD)"
             }
+            SpreadReading::NothingToExplain => {
+                "the coefficients of the samples with a usable SD do not vary beyond sampling \
+                 error, so there are no differences for score spread to explain"
+            }
         }
+    }
+
+    /// True when the benchmark shows that coefficients fall with narrower spread.
+    pub fn spread_matters(self) -> bool {
+        matches!(
+            self,
+            SpreadReading::AccountsForMost
+                | SpreadReading::ConsistentButMinor
+                | SpreadReading::AccountsForPart
+                | SpreadReading::SteeperThanExpected
+        )
+    }
+}
+
+/// The reading of a slope's interval and the τ² share.
+pub fn read_slope(lower: f64, upper: f64, estimate: f64, tau2_share: Option<f64>) -> SpreadReading {
+    let Some(share) = tau2_share else {
+        return SpreadReading::NothingToExplain;
+    };
+    let covers = |x: f64| lower <= x && x <= upper;
+    match (covers(0.0), covers(-2.0)) {
+        (_, _) if lower > 0.0 => SpreadReading::OppositeDirection,
+        (false, true) if share >= MOST_SHARE => SpreadReading::AccountsForMost,
+        (false, true) => SpreadReading::ConsistentButMinor,
+        (true, true) => SpreadReading::Undecided,
+        (true, false) => SpreadReading::DoesNotAccount,
+        (false, false) if estimate < -2.0 => SpreadReading::SteeperThanExpected,
+        (false, false) => SpreadReading::AccountsForPart,
     }
 }
 
@@ -206,17 +273,29 @@ pub struct ScoreSpread {
     /// 1/(2(n − 1))) / (variance of ln SD between studies). The slope is attenuated
     /// towards 0 by about this factor; `None` when it cannot be computed.
     pub sd_reliability: Option<f64>,
+    /// True when ln(items) is in the model (the number of items varies).
+    pub log_items_column: bool,
     /// The design of the other moderators over the studies with an SD (for predictions).
     pub others: super::design::Design,
 }
 
 impl ScoreSpread {
-    /// Expected Bonett-scale value at an SD (other moderators at the given design values,
-    /// which follow the intercept and ln SD), with its variance.
-    pub fn predict(&self, sd: f64, others: &[f64]) -> (f64, f64) {
+    /// Expected Bonett-scale value at an SD (with `items` when ln(items) is in the model,
+    /// other moderators at the given design values), with its variance.
+    pub fn predict(&self, sd: f64, items: Option<u32>, others: &[f64]) -> Result<(f64, f64)> {
         let mut x0 = vec![1.0, sd.ln()];
+        if self.log_items_column {
+            let k = items.ok_or_else(|| {
+                Error::InvalidOption(
+                    "the score-spread model includes ln(items) (the benchmark's forms differ in \
+                     length); give --items"
+                        .into(),
+                )
+            })?;
+            x0.push(f64::from(k).ln());
+        }
         x0.extend_from_slice(others);
-        self.fit.predict(&x0)
+        Ok(self.fit.predict(&x0))
     }
 }
 
@@ -247,8 +326,22 @@ pub fn bonett_scale(r: &StudyRecord) -> std::result::Result<(f64, f64), String> 
 
 /// Run the score-variance test: regress the Bonett-transformed coefficients on ln(SD)
 /// (SD on `metric`, or POMP when every usable study has a scale range, else per-item),
-/// with other moderators if given.
+/// with ln(items) when the number of items varies (the error variance of a mean score
+/// shrinks with the number of items), and with other moderators if given.
 pub fn score_spread(
+    p: &Prepared,
+    metric: Option<SpreadMetric>,
+    others: &[ModeratorSpec],
+    options: &FitOptions,
+) -> Result<ScoreSpread> {
+    score_spread_inner(p, metric, others, options).map_err(|e| match e {
+        Error::CannotAnalyse(m) => Error::CannotAnalyse(format!("score-spread model: {m}")),
+        Error::InvalidOption(m) => Error::InvalidOption(format!("score-spread model: {m}")),
+        other => other,
+    })
+}
+
+fn score_spread_inner(
     p: &Prepared,
     metric: Option<SpreadMetric>,
     others: &[ModeratorSpec],
@@ -261,6 +354,28 @@ pub fn score_spread(
                 .into(),
         ));
     }
+    // Reference levels come from all usable studies, as in the main model, so that the
+    // two models name their coefficients alike.
+    let others: Vec<ModeratorSpec> = if others.is_empty() {
+        Vec::new()
+    } else {
+        let full = build_design(p, others)?;
+        others
+            .iter()
+            .map(|spec| {
+                let reference = full.moderators.iter().find_map(|m| match m {
+                    super::design::Moderator::Categorical {
+                        name, reference, ..
+                    } if name.eq_ignore_ascii_case(&spec.name) => Some(reference.clone()),
+                    _ => None,
+                });
+                ModeratorSpec {
+                    reference: spec.reference.clone().or(reference),
+                    ..spec.clone()
+                }
+            })
+            .collect()
+    };
     let harmonized: Vec<HarmonizedSd> = p.records.iter().map(harmonize_record).collect();
     let metric = metric.unwrap_or_else(|| {
         let all_pomp = harmonized
@@ -313,51 +428,67 @@ pub fn score_spread(
     let mut sub = p.subset(&keep);
     sub.y = bonett.iter().map(|b| b.0).collect();
     sub.v = bonett.iter().map(|b| b.1).collect();
-    let base = build_design(&sub, others).map_err(|e| match e {
-        Error::CannotAnalyse(m) => Error::CannotAnalyse(format!(
-            "score-spread model: {m}{}",
-            excluded_note(&excluded)
+    let note = excluded_note(&excluded);
+    let base = build_design(&sub, &others).map_err(|e| match e {
+        Error::CannotAnalyse(m) => Error::CannotAnalyse(format!("{m}{note}")),
+        Error::InvalidOption(m) => Error::InvalidOption(format!(
+            "{m} among the {} studies with a usable SD{note}",
+            keep.len()
         )),
         other => other,
     })?;
-    // Rows without a moderator value leave the model too.
     for e in &base.excluded {
         excluded.push(e.clone());
     }
     excluded.sort_by_key(|e| e.row);
     let used = base.used.clone();
-    let used = &used;
     let k = used.len();
-    let cols = base.x.ncols() + 1;
+    let log_sd: Vec<f64> = used.iter().map(|&i| sds[i].ln()).collect();
+    // ln(items) enters when every study gives its items and they differ.
+    let items: Vec<Option<u32>> = used.iter().map(|&i| sub.records[i].items).collect();
+    let log_items: Option<Vec<f64>> = if items.iter().all(Option::is_some) {
+        let v: Vec<f64> = items
+            .iter()
+            .map(|k| f64::from(k.expect("checked")).ln())
+            .collect();
+        v.iter().any(|x| (x - v[0]).abs() > 1e-12).then_some(v)
+    } else {
+        None
+    };
+    let extra = usize::from(log_items.is_some());
+    let cols = base.x.ncols() + 1 + extra;
     if k <= cols + 1 {
         return Err(Error::CannotAnalyse(format!(
-            "the score-spread model has {cols} coefficients but only {k} studies with a usable \
-             SD; at least {} are needed{}",
-            cols + 2,
-            excluded_note(&excluded)
+            "the model has {cols} coefficients but only {k} studies with a usable SD; at least {} \
+             are needed{note}",
+            cols + 2
         )));
     }
-    let log_sd: Vec<f64> = used.iter().map(|&i| sds[i].ln()).collect();
-    let x = DMatrix::from_fn(k, cols, |i, j| match j {
-        0 => 1.0,
-        1 => log_sd[i],
-        _ => base.x[(i, j - 1)],
-    });
-    let mut names = vec!["intercept".to_string(), "ln_sd".to_string()];
-    names.extend(base.names.iter().skip(1).cloned());
     if log_sd.iter().all(|v| (*v - log_sd[0]).abs() < 1e-12) {
         return Err(Error::CannotAnalyse(
-            "every study in the score-spread model reports the same SD, so its effect cannot be \
-             estimated"
+            "every study in the model reports the same SD, so its effect cannot be estimated"
                 .into(),
         ));
     }
+    let x = DMatrix::from_fn(k, cols, |i, j| match j {
+        0 => 1.0,
+        1 => log_sd[i],
+        2 if extra == 1 => log_items.as_ref().expect("present")[i],
+        _ => base.x[(i, j - 1 - extra)],
+    });
+    let mut names = vec!["intercept".to_string(), "ln_sd".to_string()];
+    if extra == 1 {
+        names.push("ln_items".to_string());
+    }
+    names.extend(base.names.iter().skip(1).cloned());
     check_rank(&x, &names)?;
     let y: Vec<f64> = used.iter().map(|&i| sub.y[i]).collect();
     let v: Vec<f64> = used.iter().map(|&i| sub.v[i]).collect();
-    let data = MetaData::with_design(y.clone(), v.clone(), x)?;
+    let data = MetaData::with_design(y.clone(), v.clone(), x.clone())?;
     let fit = fit_model(&data, options)?;
-    let without = MetaData::with_design(y, v, base.x.clone())?;
+    // The same model without ln(SD), for the share of τ² it explains.
+    let keep_cols: Vec<usize> = (0..cols).filter(|&j| j != 1).collect();
+    let without = MetaData::with_design(y, v, x.select_columns(&keep_cols))?;
     let fit_without = fit_model(
         &without,
         &FitOptions {
@@ -375,16 +506,10 @@ pub fn score_spread(
         }
         _ => None,
     };
-    let covers = |x: f64| slope.ci.lower <= x && x <= slope.ci.upper;
-    let reading = match (covers(0.0), covers(-2.0)) {
-        (false, true) => SpreadReading::AccountsForMost,
-        (true, true) => SpreadReading::Undecided,
-        (true, false) => SpreadReading::DoesNotAccount,
-        (false, false) if slope.estimate < -2.0 => SpreadReading::SteeperThanExpected,
-        (false, false) => SpreadReading::AccountsForPart,
-    };
+    let reading = read_slope(slope.ci.lower, slope.ci.upper, slope.estimate, tau2_share);
     let model_sds: Vec<f64> = used.iter().map(|&i| sds[i]).collect();
-    let sd_reliability = {
+    // The attenuation factor is exact only when ln(SD) is alone in the model.
+    let sd_reliability = if cols == 2 {
         let n = log_sd.len() as f64;
         let mean = log_sd.iter().sum::<f64>() / n;
         let between = log_sd.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
@@ -394,11 +519,10 @@ pub fn score_spread(
             .filter(|&m| m > 1)
             .map(|m| 1.0 / (2.0 * (m as f64 - 1.0)))
             .collect();
-        if errors.len() == used.len() && between > 0.0 {
-            Some((1.0 - errors.iter().sum::<f64>() / errors.len() as f64 / between).max(0.0))
-        } else {
-            None
-        }
+        (errors.len() == used.len() && between > 0.0)
+            .then(|| (1.0 - errors.iter().sum::<f64>() / errors.len() as f64 / between).max(0.0))
+    } else {
+        None
     };
     let rows = used.iter().map(|&i| sub.records[i].row).collect();
     Ok(ScoreSpread {
@@ -416,6 +540,7 @@ pub fn score_spread(
         typical_sd: median(&model_sds),
         sds: model_sds,
         sd_reliability,
+        log_items_column: extra == 1,
         fit,
         others: base,
     })
@@ -426,8 +551,8 @@ fn excluded_note(excluded: &[ExcludedRow]) -> String {
         String::new()
     } else {
         format!(
-            " ({} row(s) were left out, mostly for an SD that cannot be converted; see \
-             docs/coding-sheet.md on sd, sd_metric and the scale range)",
+            " ({} row(s) were left out for an SD that cannot be used; see docs/coding-sheet.md \
+             on sd, sd_metric and the scale range)",
             excluded.len()
         )
     }

@@ -5,7 +5,7 @@ use super::design::{ExcludedRow, ModeratorKind, ModeratorSpec, build_design};
 use super::{OmnibusTest, explain};
 use crate::benchmark::{Benchmark, Prepared, from_prepared};
 use crate::dist::chi2_sf;
-use crate::error::Result;
+use crate::error::{Error, Result};
 use crate::pool::{FitOptions, PoolOptions};
 
 /// One group.
@@ -75,6 +75,11 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
                 reasons: vec![format!("column {column}: the value is missing")],
             }),
         }
+    }
+    if order.is_empty() {
+        return Err(Error::CannotAnalyse(format!(
+            "--by {column}: the column has no values among the usable studies"
+        )));
     }
     let mut groups = Vec::new();
     let mut pooled: Vec<(f64, f64)> = Vec::new();

@@ -14,7 +14,15 @@ use crate::warning::{Warning, WarningRecord};
 use serde::Serialize;
 use std::fmt::Write;
 
+/// A percentile as an ordinal, with the extremes written as "below the 1st" and "above
+/// the 99th" rather than "0th" and "100th".
 fn ordinal(x: f64) -> String {
+    if x < 0.5 {
+        return "below the 1st".into();
+    }
+    if x > 99.5 {
+        return "above the 99th".into();
+    }
     let n = x.round() as i64;
     let suffix = match (n % 10, n % 100) {
         (_, 11..=13) => "th",
@@ -24,6 +32,83 @@ fn ordinal(x: f64) -> String {
         _ => "th",
     };
     format!("{n}{suffix}")
+}
+
+/// The sentence on score spread for the paragraph; its claim follows the benchmark's
+/// reading and the direction of the difference.
+fn spread_sentence(sp: &crate::placement::SpreadShortfall) -> String {
+    let c2 = |x: f64| fixed(x, 2);
+    let sd = format!(
+        "Our sample's score SD ({} on the {} metric) compares with a median of {} in the \
+         benchmark studies",
+        significant(sp.sd, 3),
+        sp.metric,
+        significant(sp.typical_sd, 3)
+    );
+    let slope = format!(
+        "slope of ln(1 − coefficient) on ln(SD): {}, {} CI {}",
+        fixed(sp.model.slope.estimate, 2),
+        percent_level(sp.model.fit.options.level),
+        range(sp.model.slope.ci.lower, sp.model.slope.ci.upper, |x| fixed(
+            x, 2
+        ))
+    );
+    if !sp.model.reading.spread_matters() {
+        let why = match sp.model.reading {
+            SpreadReading::OppositeDirection => {
+                "show coefficients rising, not falling, where scores spread less"
+            }
+            SpreadReading::NothingToExplain => "do not differ beyond sampling error",
+            SpreadReading::DoesNotAccount => {
+                "show no clear link between score spread and the coefficient"
+            }
+            _ => "leave open whether score spread affects the coefficient",
+        };
+        return format!(
+            "{sd}; but the benchmark studies {why} ({slope}), so no part of the difference is \
+             attributed to score spread."
+        );
+    }
+    let (lo, hi) = sp.explained_shortfall_ci;
+    let direction = if sp.explained_shortfall >= 0.0 {
+        format!(
+            "lowers the expected coefficient by {}",
+            c2(sp.explained_shortfall)
+        )
+    } else {
+        format!(
+            "raises the expected coefficient by {}",
+            c2(-sp.explained_shortfall)
+        )
+    };
+    let observed = if sp.observed_shortfall > 0.0 {
+        format!(
+            "; our coefficient lies {} below its expected value",
+            c2(sp.observed_shortfall)
+        )
+    } else {
+        String::new()
+    };
+    format!(
+        "{sd}. In the benchmark studies coefficients are lower where scores spread less ({slope}); \
+         at our SD this {direction} (CI {} to {}){observed}.",
+        c2(lo),
+        c2(hi)
+    )
+}
+
+/// The kind of coefficient in words.
+fn coefficient_words(t: crate::sheet::CoefType) -> &'static str {
+    use crate::sheet::CoefType::*;
+    match t {
+        Alpha => "coefficient alpha",
+        AlphaStd => "standardized alpha",
+        Kr20 => "KR-20 coefficient",
+        Omega => "omega coefficient",
+        Retest => "test–retest correlation",
+        Interrater => "inter-rater correlation",
+        SplitHalf => "split-half coefficient",
+    }
 }
 
 fn conditions(pl: &Placement) -> String {
@@ -51,7 +136,7 @@ pub fn check_paragraph(p: &Prepared, pl: &Placement, measure: Option<&str>) -> P
     let mut s = format!(
         "We compared the {} of {} observed in our sample (n = {}) with a benchmark from k = {} \
          prior administrations{}. ",
-        pl.study.coef_type.name(),
+        coefficient_words(pl.study.coef_type),
         measure,
         thousands(pl.study.n),
         pl.fit.k,
@@ -89,38 +174,8 @@ pub fn check_paragraph(p: &Prepared, pl: &Placement, measure: Option<&str>) -> P
         ordinal(pl.percentile)
     ));
     if let Some(sp) = &pl.spread {
-        let shortfall = sp.observed_shortfall;
-        let reading = match sp.model.reading {
-            SpreadReading::AccountsForMost | SpreadReading::AccountsForPart => {
-                "the benchmark studies show that coefficients are lower where scores spread less"
-            }
-            SpreadReading::SteeperThanExpected => {
-                "the benchmark studies show coefficients falling steeply where scores spread less"
-            }
-            SpreadReading::DoesNotAccount => {
-                "the benchmark studies show no clear link between score spread and the coefficient"
-            }
-            SpreadReading::Undecided => {
-                "the benchmark studies leave open whether score spread affects the coefficient"
-            }
-        };
-        s.push_str(&format!(
-            " Our sample's score SD ({} on the {} metric) compares with a typical {} in the \
-             benchmark; {reading} (slope of ln(1 − coefficient) on ln(SD): {}), so at our SD the \
-             expected coefficient is {} against {} at the typical SD — a difference of {}{}",
-            significant(sp.sd, 3),
-            sp.metric,
-            significant(sp.typical_sd, 3),
-            fixed(sp.model.slope.estimate, 2),
-            c2(sp.expected_at_own_sd),
-            c2(sp.expected_at_typical_sd),
-            c2(sp.explained_shortfall),
-            if shortfall > 0.0 {
-                format!(", against the {} by which our coefficient falls short of the typical expectation.", c2(shortfall))
-            } else {
-                ".".to_string()
-            }
-        ));
+        s.push(' ');
+        s.push_str(&spread_sentence(sp));
     }
     if pl.fit.options.ci != CiMethod::Wald {
         refs.push(
@@ -182,23 +237,23 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
         let _ = writeln!(o, "  conditional   on {}", parts.join(", "));
     }
     let _ = writeln!(o);
-    let _ = writeln!(o, "  {:<44}{}", "expected coefficient", c3(pl.expected));
+    let _ = writeln!(o, "  {:<50}{}", "expected coefficient", c3(pl.expected));
     let _ = writeln!(
         o,
-        "  {:<44}{}",
+        "  {:<50}{}",
         format!("{level} confidence interval"),
         r(pl.ci)
     );
     let _ = writeln!(
         o,
-        "  {:<44}{}   (t with {} df)",
+        "  {:<50}{}   (t with {} df)",
         format!("{level} range for the true coefficient"),
         r(pl.pi),
         pl.pi_df
     );
     let _ = writeln!(
         o,
-        "  {:<44}{}",
+        "  {:<50}{}",
         format!(
             "{level} range for an observed coefficient (n = {})",
             thousands(pl.study.n)
@@ -207,7 +262,7 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
     );
     let _ = writeln!(
         o,
-        "  {:<44}{}",
+        "  {:<50}{}",
         "percentile of the new study",
         ordinal(pl.percentile)
     );
@@ -216,7 +271,7 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
         Verdict::Within => "within the expected range",
         Verdict::Above => "ABOVE the expected range",
     };
-    let _ = writeln!(o, "  {:<44}{}", "verdict", verdict);
+    let _ = writeln!(o, "  {:<50}{}", "verdict", verdict);
     if let Some(sp) = &pl.spread {
         let _ = writeln!(o);
         let _ = writeln!(
@@ -226,20 +281,34 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
         );
         let _ = writeln!(
             o,
-            "    new study's SD {}, typical SD {}",
+            "    new study's SD {}; benchmark studies' median SD {}",
             significant(sp.sd, 3),
             significant(sp.typical_sd, 3)
         );
         let _ = writeln!(
             o,
-            "    expected coefficient at its SD {}, at the typical SD {}: score spread accounts for {}",
+            "    score-spread model's expected coefficient at the study's SD {}, at the median SD {}{}",
             c3(sp.expected_at_own_sd),
             c3(sp.expected_at_typical_sd),
-            c3(sp.explained_shortfall)
+            if sp.model.log_items_column {
+                pl.study
+                    .items
+                    .map(|k| format!(" (for {k} items)"))
+                    .unwrap_or_default()
+            } else {
+                String::new()
+            }
+        );
+        let (lo, hi) = sp.explained_shortfall_ci;
+        let _ = writeln!(
+            o,
+            "    difference due to score spread {} ({level} CI {})",
+            c3(sp.explained_shortfall),
+            range(lo, hi, c3)
         );
         let _ = writeln!(
             o,
-            "    observed shortfall against the typical SD's expectation: {}",
+            "    the study's coefficient below its expected value by {}",
             c3(sp.observed_shortfall)
         );
         o.push_str(&wrap(
@@ -278,8 +347,14 @@ pub struct CheckSpreadRecord {
     pub expected_at_typical_sd: f64,
     /// The shortfall score spread accounts for.
     pub explained_shortfall: f64,
-    /// The observed shortfall.
+    /// Its interval from the slope's confidence interval.
+    pub explained_shortfall_ci: [f64; 2],
+    /// The placement's expected coefficient minus the observed one.
     pub observed_shortfall: f64,
+    /// True when the study's SD lies outside the benchmark studies' SDs.
+    pub sd_outside_benchmark: bool,
+    /// The score-spread model's reading.
+    pub reading: SpreadReading,
     /// Slope of ln(SD) on the Bonett scale.
     pub slope: f64,
     /// Its CI.
@@ -389,7 +464,10 @@ impl CheckDocument {
                 expected_at_own_sd: s.expected_at_own_sd,
                 expected_at_typical_sd: s.expected_at_typical_sd,
                 explained_shortfall: s.explained_shortfall,
+                explained_shortfall_ci: [s.explained_shortfall_ci.0, s.explained_shortfall_ci.1],
                 observed_shortfall: s.observed_shortfall,
+                sd_outside_benchmark: s.sd_outside_benchmark,
+                reading: s.model.reading,
                 slope: s.model.slope.estimate,
                 slope_ci: [s.model.slope.ci.lower, s.model.slope.ci.upper],
             }),

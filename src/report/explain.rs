@@ -336,6 +336,13 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
         significant(s.typical_sd, 3),
         s.metric
     );
+    if s.log_items_column {
+        let _ = writeln!(
+            o,
+            "  ln(items) is in the model: the forms differ in length, and a mean score's error \
+             variance shrinks with the number of items"
+        );
+    }
     if let Some(rel) = s.sd_reliability {
         let _ = writeln!(
             o,
@@ -442,7 +449,7 @@ fn influence_section(o: &mut String, p: &Prepared, ex: &Explanation, inf: &[Stud
         let label: String = rec.label.chars().take(26).collect();
         let mut flags = Vec::new();
         if s.outlier {
-            flags.push("outlier");
+            flags.push("possible outlier");
         }
         if s.influential {
             flags.push("influential");
@@ -471,8 +478,10 @@ fn influence_section(o: &mut String, p: &Prepared, ex: &Explanation, inf: &[Stud
     }
     let _ = writeln!(
         o,
-        "  outlier: |rstudent| above 1.96 (common practice, no source); influential: Cook's D \
-         above the median of F(p, k − p) (Cook 1977)"
+        "  possible outlier: |rstudent| above 1.96 (common practice, no source; about 1 study in \
+         20 exceeds it by chance); influential: Cook's D above the median of F(p, k − p) (Cook \
+         1977); b0: the intercept without the study (transformed scale); –: the model could not \
+         be refitted without the study"
     );
 }
 

@@ -583,19 +583,43 @@ def spread_case(rows, level):
     per_item = np.array([r["sd"] / r["items"] if r["sd_metric"] == "sum" else r["sd"] for r in rows])
     pomp = 100 * per_item / 4.0
     k = len(rows)
-    X = np.column_stack([np.ones(k), np.log(pomp)])
+    items = np.array([r["items"] for r in rows], float)
+    # ln(items) joins the model when the forms differ in length.
+    X = np.column_stack([np.ones(k), np.log(pomp), np.log(items)])
     t = mr_tau2("reml", y, v, X)
-    t0 = mr_tau2("reml", y, v, np.ones((k, 1)))
+    t0 = mr_tau2("reml", y, v, X[:, [0, 2]])
     fit = sm.WLS(y, X, weights=1 / (v + t)).fit()
     b, se = float(fit.params[1]), float(fit.bse[1])
     a = 1 - level
-    tq = stats.t.ppf(1 - a / 2, k - 2)
+    tq = stats.t.ppf(1 - a / 2, k - X.shape[1])
     return {"slope": b, "se": se, "ci": [b - tq * se, b + tq * se],
-            "p_zero": float(2 * stats.t.sf(abs(b / se), k - 2)),
-            "p_minus_two": float(2 * stats.t.sf(abs((b + 2) / se), k - 2)),
+            "p_zero": float(2 * stats.t.sf(abs(b / se), k - X.shape[1])),
+            "p_minus_two": float(2 * stats.t.sf(abs((b + 2) / se), k - X.shape[1])),
+            "ln_items_slope": float(fit.params[2]),
             "tau2": t, "tau2_without": t0,
             "tau2_share": None if t0 <= 0 else max(0.0, 100 * (t0 - t) / t0),
             "typical_sd": float(np.median(pomp))}
+
+
+def retest_spread_case(rng, k, level):
+    """The score-variance test on test-retest correlations: ln(1 - r) with the
+    delta-method variance (1 + r)^2 / (n - 3), on ln(POMP SD)."""
+    n = rng.integers(60, 400, size=k)
+    sd_true = np.exp(rng.normal(np.log(0.6), 0.3, size=k))
+    r_true = sd_true**2 / (sd_true**2 + 0.12)
+    z = np.arctanh(r_true) + rng.standard_normal(k) / np.sqrt(n - 3)
+    r = np.round(np.tanh(z), 4)
+    sd_obs = np.round(np.sqrt(sd_true**2 + 0.12) * (1 + rng.standard_normal(k) / np.sqrt(2 * n)), 4)
+    rows = [{"study": f"R{i + 1:02d}", "coef": float(r[i]), "n": int(n[i]), "sd": float(sd_obs[i]),
+             "sd_metric": "mean", "scale_min": 1, "scale_max": 5} for i in range(k)]
+    y = np.log(1 - r)
+    v = (1 + r) ** 2 / (n - 3)
+    X = np.column_stack([np.ones(k), np.log(100 * sd_obs / 4.0)])
+    t = mr_tau2("reml", y, v, X)
+    fit = sm.WLS(y, X, weights=1 / (v + t)).fit()
+    b, se = float(fit.params[1]), float(fit.bse[1])
+    tq = stats.t.ppf(1 - (1 - level) / 2, k - 2)
+    return {"rows": rows, "slope": b, "se": se, "ci": [b - tq * se, b + tq * se], "tau2": t}
 
 
 def metareg_fixture():
@@ -633,7 +657,8 @@ def metareg_fixture():
             "alpha_sheet": sheet,
             "placement": [placement_case(sheet, new, None, 0.95),
                           placement_case(sheet, new, 7.5, 0.95)],
-            "score_spread": spread_case(sheet, 0.95)}
+            "score_spread": spread_case(sheet, 0.95),
+            "retest_spread": retest_spread_case(rng, 20, 0.95)}
 
 
 # ---------------------------------------------------------------- transforms

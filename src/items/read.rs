@@ -1,0 +1,333 @@
+//! Reading raw item data (respondents in rows, items in columns) in one streaming pass.
+
+use super::moments::{Listwise, Moments, Pairwise};
+use crate::error::{CellProblem, Error, Result};
+use crate::sheet::{detect_delimiter, is_missing, parse_number};
+use std::io::{BufRead, BufReader, Read, Seek, SeekFrom};
+use std::path::Path;
+
+/// How missing responses are handled.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Missing {
+    /// Only respondents who answered every item are used.
+    #[default]
+    Listwise,
+    /// Each covariance uses the respondents who answered both items.
+    Pairwise,
+}
+
+/// How to read an item file.
+#[derive(Debug, Clone, Default)]
+pub struct ItemReadOptions {
+    /// The delimiter; detected from the header when `None`.
+    pub delimiter: Option<u8>,
+    /// The item columns to use, by name; every column when `None`.
+    pub items: Option<Vec<String>>,
+    /// Items to reverse-key (needs `scale`).
+    pub reverse: Vec<String>,
+    /// Lowest and highest possible response, for reverse-keying and range checks.
+    pub scale: Option<(f64, f64)>,
+    /// Listwise or pairwise.
+    pub missing: Missing,
+    /// Keep the complete rows in memory (for the bootstrap).
+    pub keep_rows: bool,
+}
+
+/// Most problems listed one by one before the rest are counted.
+const MAX_LISTED: usize = 50;
+
+/// Item data after one pass.
+#[derive(Debug, Clone)]
+pub struct ItemData {
+    /// The file as named.
+    pub file: String,
+    /// Item names, in the order used.
+    pub names: Vec<String>,
+    /// Which items were reverse-keyed.
+    pub reversed: Vec<bool>,
+    /// Data rows read (blank rows excluded).
+    pub rows_read: u64,
+    /// Respondents with every item answered.
+    pub complete_rows: u64,
+    /// Missing cells among the items used.
+    pub missing_cells: u64,
+    /// How missing responses were handled.
+    pub missing: Missing,
+    /// Means and covariances.
+    pub moments: Moments,
+    /// Complete rows, row-major, when kept.
+    pub rows: Option<Vec<f64>>,
+}
+
+impl ItemData {
+    /// Respondents behind the statistics: complete rows (listwise) or the smallest pairwise n.
+    pub fn n_used(&self) -> u64 {
+        match self.missing {
+            Missing::Listwise => self.complete_rows,
+            Missing::Pairwise => self.moments.n_min(),
+        }
+    }
+}
+
+/// Parse a response: a fast path for small whole numbers, else the general parser.
+#[inline]
+fn parse_response(cell: &[u8], decimal_comma: bool) -> std::result::Result<f64, String> {
+    if !cell.is_empty() && cell.len() <= 3 && cell.iter().all(u8::is_ascii_digit) {
+        let mut v = 0u32;
+        for &c in cell {
+            v = v * 10 + u32::from(c - b'0');
+        }
+        return Ok(f64::from(v));
+    }
+    let text = std::str::from_utf8(cell).map_err(|_| "the cell is not valid UTF-8 text".to_string())?;
+    parse_number(text, decimal_comma)
+}
+
+fn missing_cell(cell: &[u8]) -> bool {
+    cell.is_empty()
+        || std::str::from_utf8(cell).map(is_missing).unwrap_or(false)
+}
+
+/// Read an item file in one pass.
+pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
+    let file = path.display().to_string();
+    let mut handle = std::fs::File::open(path).map_err(|e| match e.kind() {
+        std::io::ErrorKind::NotFound => {
+            Error::InvalidOption(format!("{file}: no such file; check the path of the item data"))
+        }
+        _ => Error::io(format!("reading {file}"), e),
+    })?;
+    let fail = |row: usize, reason: String| Error::InvalidSheet {
+        file: file.clone(),
+        problems: vec![CellProblem::row(row, reason)],
+    };
+    // Peek at the start: BOM, encoding, delimiter.
+    let mut head = Vec::with_capacity(64 * 1024);
+    (&mut handle)
+        .take(64 * 1024)
+        .read_to_end(&mut head)
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
+        return Err(fail(1, "the file is UTF-16 encoded; save it as UTF-8".into()));
+    }
+    let bom = if head.starts_with(b"\xEF\xBB\xBF") { 3 } else { 0 };
+    if head[bom..].iter().all(u8::is_ascii_whitespace) {
+        return Err(fail(1, "the file is empty; item data need a header row of item names and one row per respondent".into()));
+    }
+    let delimiter = options.delimiter.unwrap_or_else(|| detect_delimiter(&head[bom..]));
+    handle
+        .seek(SeekFrom::Start(bom as u64))
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    let buffered: Box<dyn BufRead> = Box::new(BufReader::with_capacity(1 << 20, handle));
+    let mut reader = csv::ReaderBuilder::new()
+        .delimiter(delimiter)
+        .has_headers(false)
+        .flexible(true)
+        .from_reader(buffered);
+    let decimal_comma = delimiter != b',';
+
+    let mut record = csv::ByteRecord::new();
+    let read_err = |e: csv::Error| Error::io(format!("reading {file}"), std::io::Error::other(e.to_string()));
+    // Header.
+    let mut row_number = 0usize;
+    loop {
+        if !reader.read_byte_record(&mut record).map_err(read_err)? {
+            return Err(fail(1, "the file has no header row".into()));
+        }
+        let start = record.position().map(|p| p.line()).unwrap_or(1);
+        let consumed = reader.position().line().saturating_sub(start) as usize;
+        row_number += consumed.max(1);
+        break;
+    }
+    let header: Vec<String> = record
+        .iter()
+        .map(|c| String::from_utf8_lossy(c).trim().to_string())
+        .collect();
+    let find = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .or_else(|| header.iter().position(|h| h.eq_ignore_ascii_case(name.trim())))
+    };
+    let columns: Vec<usize> = match &options.items {
+        Some(names) => {
+            let mut idx = Vec::new();
+            let mut unknown = Vec::new();
+            for n in names {
+                match find(n) {
+                    Some(i) if idx.contains(&i) => {
+                        return Err(Error::InvalidOption(format!("--items names {n} twice")));
+                    }
+                    Some(i) => idx.push(i),
+                    None => unknown.push(n.clone()),
+                }
+            }
+            if !unknown.is_empty() {
+                return Err(fail(
+                    1,
+                    format!(
+                        "--items names column(s) the file does not have: {} (its columns are: {})",
+                        unknown.join(", "),
+                        header.join(", ")
+                    ),
+                ));
+            }
+            idx
+        }
+        None => (0..header.len()).collect(),
+    };
+    if columns.len() < 2 {
+        return Err(Error::InvalidOption(format!(
+            "{file}: {} item column(s) selected; reliability needs at least 2 items",
+            columns.len()
+        )));
+    }
+    let names: Vec<String> = columns.iter().map(|&i| header[i].clone()).collect();
+    for (i, n) in names.iter().enumerate() {
+        if n.is_empty() {
+            return Err(fail(1, format!("column {} has no name in the header", columns[i] + 1)));
+        }
+    }
+    let mut reversed = vec![false; names.len()];
+    for r in &options.reverse {
+        let Some(pos) = names.iter().position(|n| n.eq_ignore_ascii_case(r.trim())) else {
+            return Err(Error::InvalidOption(format!(
+                "--reverse {r}: not among the items used ({})",
+                names.join(", ")
+            )));
+        };
+        reversed[pos] = true;
+    }
+    if !options.reverse.is_empty() && options.scale.is_none() {
+        return Err(Error::InvalidOption(
+            "--reverse needs --scale-min and --scale-max (a reversed response is min + max − x)"
+                .into(),
+        ));
+    }
+
+    let k = names.len();
+    let mut listwise = Listwise::new(k);
+    let mut pairwise = (options.missing == Missing::Pairwise).then(|| Pairwise::new(k));
+    let mut rows = options.keep_rows.then(Vec::new);
+    let mut problems: Vec<CellProblem> = Vec::new();
+    let mut unlisted = 0usize;
+    let mut rows_read = 0u64;
+    let mut missing_cells = 0u64;
+    let mut values = vec![0.0; k];
+    let mut optional: Vec<Option<f64>> = vec![None; k];
+    let width = header.len();
+    while reader.read_byte_record(&mut record).map_err(read_err)? {
+        // Spreadsheet row: blank lines before the record count as rows.
+        let start = record.position().map(|p| p.line()).unwrap_or(0);
+        let consumed = reader.position().line().saturating_sub(start) as usize;
+        let embedded: usize = record.iter().map(|f| f.iter().filter(|&&c| c == b'\n').count()).sum();
+        let blank = consumed.saturating_sub(1 + embedded);
+        row_number += blank + 1;
+        if record.iter().all(|c| c.iter().all(u8::is_ascii_whitespace)) {
+            continue;
+        }
+        rows_read += 1;
+        let mut push = |p: CellProblem| {
+            if problems.len() < MAX_LISTED {
+                problems.push(p);
+            } else {
+                unlisted += 1;
+            }
+        };
+        if record.len() != width && !(record.len() > width && record.iter().skip(width).all(|c| c.is_empty())) {
+            push(CellProblem::row(
+                row_number,
+                format!("the row has {} cells but the header has {width} columns", record.len()),
+            ));
+            continue;
+        }
+        let mut complete = true;
+        let mut bad = false;
+        for (slot, &col) in columns.iter().enumerate() {
+            let cell = record.get(col).unwrap_or(b"");
+            let trimmed = cell.trim_ascii();
+            if missing_cell(trimmed) {
+                complete = false;
+                missing_cells += 1;
+                optional[slot] = None;
+                continue;
+            }
+            match parse_response(trimmed, decimal_comma) {
+                Ok(mut x) => {
+                    if let Some((lo, hi)) = options.scale {
+                        if x < lo || x > hi {
+                            push(CellProblem::cell(
+                                row_number,
+                                names[slot].clone(),
+                                format!("{x} lies outside the response scale {lo} to {hi}"),
+                            ));
+                            bad = true;
+                            continue;
+                        }
+                        if reversed[slot] {
+                            x = lo + hi - x;
+                        }
+                    }
+                    values[slot] = x;
+                    optional[slot] = Some(x);
+                }
+                Err(e) => {
+                    push(CellProblem::cell(
+                        row_number,
+                        names[slot].clone(),
+                        format!("{e}; a response must be a number (mark a missing one empty, NA or .)"),
+                    ));
+                    bad = true;
+                }
+            }
+        }
+        if bad {
+            continue;
+        }
+        if let Some(p) = pairwise.as_mut() {
+            p.add(&optional);
+        }
+        if complete {
+            listwise.add(&values);
+            if let Some(r) = rows.as_mut() {
+                r.extend_from_slice(&values);
+            }
+        }
+    }
+    if unlisted > 0 {
+        problems.push(CellProblem::file(format!("… and {unlisted} more problem(s) of the same kinds")));
+    }
+    if !problems.is_empty() {
+        return Err(Error::InvalidSheet { file, problems });
+    }
+    if rows_read == 0 {
+        return Err(fail(1, "the file has a header row but no respondents below it".into()));
+    }
+    let moments = match &pairwise {
+        Some(p) => p.finish(),
+        None => listwise.finish(),
+    }
+    .ok_or_else(|| {
+        Error::CannotAnalyse(format!(
+            "{file}: fewer than 2 respondents {} ({} row(s) read, {} complete)",
+            match options.missing {
+                Missing::Listwise => "answered every item",
+                Missing::Pairwise => "answered some pair of items",
+            },
+            rows_read,
+            listwise.n()
+        ))
+    })?;
+    Ok(ItemData {
+        file,
+        names,
+        reversed,
+        rows_read,
+        complete_rows: listwise.n(),
+        missing_cells,
+        missing: options.missing,
+        moments,
+        rows,
+    })
+}
