@@ -1,6 +1,7 @@
 //! Generates the invented demo coding sheet in datasets-demo/.
 //!
-//! Run: `cargo run --example make_demo_data` (writes datasets-demo/candor-benchmark.csv).
+//! Run: `cargo run --example make_demo_data` (writes datasets-demo/candor-benchmark.csv
+//! and datasets-demo/candor-items.csv).
 //!
 //! The scenario is invented: the "Brindlewood Team Candor Inventory" is a fictional
 //! scale, and every sample, number and label below is made up by this program. The
@@ -127,4 +128,45 @@ fn main() {
         .join("candor-benchmark.csv");
     std::fs::write(&path, generate()).expect("write the demo sheet");
     println!("wrote {}", path.display());
+    let items = path.with_file_name("candor-items.csv");
+    std::fs::write(&items, generate_items()).expect("write the demo item data");
+    println!("wrote {}", items.display());
+}
+
+/// Invented item responses for the demo scale: 300 respondents × 10 items on a 1–5 scale,
+/// one factor with unequal loadings (so alpha is a lower bound), items 4 and 9 worded in
+/// reverse, and a few missing answers. Same generator and seed family as the sheet.
+pub fn generate_items() -> String {
+    let mut rng = SplitMix64(SEED ^ 0x1715);
+    let loadings = [0.78, 0.71, 0.66, 0.58, 0.74, 0.52, 0.69, 0.61, 0.45, 0.70];
+    let reversed = [
+        false, false, false, true, false, false, false, false, true, false,
+    ];
+    let mut out = String::from("respondent");
+    for i in 1..=10 {
+        out.push_str(&format!(",btci_{i:02}"));
+    }
+    out.push('\n');
+    for r in 0..300 {
+        out.push_str(&format!("R{:03}", r + 1));
+        let trait_score = rng.normal();
+        for (i, l) in loadings.iter().enumerate() {
+            let latent = l * trait_score + (1.0 - l * l).sqrt() * rng.normal();
+            // Thresholds turn the latent response into 1–5.
+            let mut x = 1 + [-1.6, -0.6, 0.3, 1.2]
+                .iter()
+                .filter(|&&t| latent > t)
+                .count() as i32;
+            if reversed[i] {
+                x = 6 - x;
+            }
+            if rng.uniform() < 0.01 {
+                out.push(',');
+            } else {
+                out.push_str(&format!(",{x}"));
+            }
+        }
+        out.push('\n');
+    }
+    out
 }

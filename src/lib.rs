@@ -9,11 +9,14 @@
 #![warn(missing_docs)]
 
 pub mod benchmark;
+pub mod compare;
 pub mod dist;
 pub mod error;
+pub mod items;
 pub mod metareg;
 pub mod numeric;
 pub mod placement;
+pub mod plan;
 pub mod pool;
 pub mod random;
 pub mod report;

@@ -88,6 +88,13 @@ pub enum Warning {
         /// Why.
         why: String,
     },
+    /// Alpha computed from the items is negative.
+    NegativeAlpha {
+        /// Its value.
+        alpha: f64,
+    },
+    /// An item loads negatively on the common factor.
+    NegativeLoading,
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
         /// Spreadsheet rows.
@@ -145,6 +152,8 @@ impl Warning {
             Warning::KnappHartungBelowOne { .. } => "knapp_hartung_below_one",
             Warning::RangeBelowZero { .. } => "range_below_zero",
             Warning::Extrapolation { .. } => "extrapolation",
+            Warning::NegativeAlpha { .. } => "negative_alpha",
+            Warning::NegativeLoading => "negative_loading",
             Warning::PartFailed { .. } => "part_failed",
             Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
@@ -256,6 +265,18 @@ impl fmt::Display for Warning {
                  studies like this one",
                 crate::report::format::significant(*lower, 4),
                 crate::report::format::significant(*upper, 4)
+            ),
+            Warning::NegativeAlpha { alpha } => write!(
+                f,
+                "alpha is negative ({}): the items correlate negatively on average, which \
+                 usually means items that should be reverse-scored were not (use --reverse with \
+                 --scale-min and --scale-max)",
+                crate::report::format::fixed(*alpha, 3)
+            ),
+            Warning::NegativeLoading => write!(
+                f,
+                "an item loads negatively on the common factor: it probably needs reverse \
+                 scoring (--reverse), and the sum score's omega is lowered by it"
             ),
             Warning::PartFailed { what, why } => {
                 write!(f, "{what} could not be done, the rest stands: {why}")

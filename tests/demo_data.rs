@@ -16,3 +16,15 @@ fn committed_demo_sheet_matches_its_generator() {
          `cargo run --example make_demo_data` and commit the result"
     );
 }
+
+#[test]
+fn committed_demo_items_match_their_generator() {
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets-demo/candor-items.csv");
+    let committed = std::fs::read_to_string(path).expect("the demo item data exist");
+    assert_eq!(
+        committed,
+        generator::generate_items(),
+        "run `cargo run --example make_demo_data`"
+    );
+}

@@ -21,6 +21,12 @@ pub enum Command {
     Explain(ExplainArgs),
     /// Place a new study against the benchmark: expected range, percentile and verdict.
     Check(CheckArgs),
+    /// Reliability from raw item data: alpha, omega, tau-equivalence, item statistics.
+    Items(ItemsArgs),
+    /// Test whether independent alphas are equal (Feldt; Hakstian–Whalen).
+    Compare(CompareArgs),
+    /// Sample size for estimating or testing coefficient alpha.
+    Plan(PlanArgs),
     /// Write an empty coding sheet and its data dictionary.
     Template(TemplateArgs),
 }
@@ -215,6 +221,115 @@ pub struct CheckArgs {
     /// Name of the measure, used in the paragraph.
     #[arg(long, value_name = "NAME")]
     pub measure: Option<String>,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ItemsArgs {
+    /// The item data: one row per respondent, one column per item, a header of item names
+    /// (CSV: comma, semicolon or tab delimited; UTF-8). Read in one pass.
+    #[arg(value_name = "DATA")]
+    pub data: PathBuf,
+
+    /// The item columns to use, comma-separated [default: every column].
+    #[arg(long, value_name = "A,B,C", value_delimiter = ',')]
+    pub items: Vec<String>,
+
+    /// Items to reverse-key, comma-separated (needs --scale-min and --scale-max; a
+    /// reversed response is min + max − x).
+    #[arg(long, value_name = "X,Y", value_delimiter = ',')]
+    pub reverse: Vec<String>,
+
+    /// Lowest possible response (responses outside the scale are errors).
+    #[arg(long, value_name = "MIN", allow_negative_numbers = true)]
+    pub scale_min: Option<f64>,
+
+    /// Highest possible response.
+    #[arg(long, value_name = "MAX", allow_negative_numbers = true)]
+    pub scale_max: Option<f64>,
+
+    /// Use each pair of items' complete responses for their covariance, instead of only
+    /// respondents who answered every item.
+    #[arg(long)]
+    pub pairwise: bool,
+
+    /// Bootstrap interval for omega with this many replicates. The bootstrap keeps the
+    /// complete rows in memory (the rest of the analysis does not); runs on all cores.
+    #[arg(long, value_name = "N")]
+    pub bootstrap: Option<usize>,
+
+    /// Seed of the bootstrap (the same seed gives the same interval on any machine).
+    #[arg(long, value_name = "SEED", default_value_t = 1)]
+    pub seed: u64,
+
+    /// Confidence level of the intervals, between 0 and 1.
+    #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
+    pub level: f64,
+
+    /// The file's delimiter: comma, semicolon or tab [default: detected from the header row].
+    #[arg(long, value_name = "DELIMITER")]
+    pub delimiter: Option<String>,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct CompareArgs {
+    /// A coding sheet whose rows are the samples (columns study, coef, n, items).
+    #[arg(value_name = "SHEET")]
+    pub sheet: Option<PathBuf>,
+
+    /// A sample as ALPHA,N,ITEMS or LABEL=ALPHA,N,ITEMS (repeatable; at least two in all).
+    #[arg(long = "sample", value_name = "ALPHA,N,ITEMS")]
+    pub samples: Vec<String>,
+
+    /// Use the sheet's own column name for a standard column, e.g. coef=reported_alpha.
+    #[arg(long = "column", value_name = "ROLE=NAME")]
+    pub columns: Vec<String>,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct PlanArgs {
+    /// Number of items.
+    #[arg(long, value_name = "K")]
+    pub items: u32,
+
+    /// The planning value of alpha (the value expected; a conservative, low one is safer).
+    #[arg(long, value_name = "ALPHA", allow_negative_numbers = true)]
+    pub planning: f64,
+
+    /// Desired width of the confidence interval (upper minus lower limit).
+    #[arg(long, value_name = "W", conflicts_with_all = ["null", "power"])]
+    pub width: Option<f64>,
+
+    /// Confidence level for --width, between 0 and 1.
+    #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
+    pub level: f64,
+
+    /// The alpha to test against (a test of alpha = NULL with power at the planning value).
+    #[arg(long, value_name = "ALPHA", allow_negative_numbers = true)]
+    pub null: Option<f64>,
+
+    /// Desired power of the test.
+    #[arg(long, value_name = "POWER", default_value_t = 0.8)]
+    pub power: f64,
+
+    /// Significance level of the test.
+    #[arg(long, value_name = "A", default_value_t = 0.05)]
+    pub significance: f64,
+
+    /// A one-sided test (the default is two-sided).
+    #[arg(long)]
+    pub one_sided: bool,
 
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]

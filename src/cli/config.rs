@@ -1,11 +1,12 @@
 //! Validated configurations built from the raw arguments before any work runs.
 
 use super::args::{
-    CheckArgs, ExplainArgs, ModelArgs, ModeratorArgs, PoolArgs, SheetArgs, TemplateArgs,
+    CheckArgs, ExplainArgs, ItemsArgs, ModelArgs, ModeratorArgs, PoolArgs, SheetArgs, TemplateArgs,
 };
 use super::output::Failure;
 use relyard::Error;
 use relyard::benchmark::BenchmarkOptions;
+use relyard::items::{ItemReadOptions, Missing};
 use relyard::metareg::spread::SpreadMetric;
 use relyard::metareg::{ModeratorKind, ModeratorSpec};
 use relyard::placement::NewStudy;
@@ -314,6 +315,75 @@ impl CheckConfig {
             },
             at,
             measure: measure_name(a.measure),
+            json: a.json,
+        })
+    }
+}
+
+/// `relyard items`.
+#[derive(Debug)]
+pub struct ItemsConfig {
+    pub path: PathBuf,
+    pub read: ItemReadOptions,
+    pub bootstrap: Option<usize>,
+    pub seed: u64,
+    pub level: f64,
+    pub json: bool,
+}
+
+impl ItemsConfig {
+    pub fn from_args(a: ItemsArgs) -> Result<Self, Failure> {
+        let delimiter = a
+            .delimiter
+            .as_deref()
+            .map(parse_delimiter)
+            .transpose()
+            .map_err(|e| bad(format!("--delimiter: {e}")))?;
+        let scale = match (a.scale_min, a.scale_max) {
+            (Some(lo), Some(hi)) if lo < hi => Some((lo, hi)),
+            (Some(_), Some(_)) => return Err(bad("--scale-max must be above --scale-min")),
+            (None, None) => None,
+            _ => return Err(bad("give both --scale-min and --scale-max, or neither")),
+        };
+        if !(a.level > 0.0 && a.level < 1.0) {
+            return Err(bad(format!(
+                "--level must lie strictly between 0 and 1 (got {})",
+                a.level
+            )));
+        }
+        if a.bootstrap.is_some_and(|b| b < 2) {
+            return Err(bad(
+                "--bootstrap needs at least 2 replicates (1,000 or more for an interval)",
+            ));
+        }
+        let items: Vec<String> = a
+            .items
+            .iter()
+            .map(|s| s.trim().to_string())
+            .filter(|s| !s.is_empty())
+            .collect();
+        Ok(ItemsConfig {
+            path: a.data,
+            read: ItemReadOptions {
+                delimiter,
+                items: (!items.is_empty()).then_some(items),
+                reverse: a
+                    .reverse
+                    .iter()
+                    .map(|s| s.trim().to_string())
+                    .filter(|s| !s.is_empty())
+                    .collect(),
+                scale,
+                missing: if a.pairwise {
+                    Missing::Pairwise
+                } else {
+                    Missing::Listwise
+                },
+                keep_rows: a.bootstrap.is_some(),
+            },
+            bootstrap: a.bootstrap,
+            seed: a.seed,
+            level: a.level,
             json: a.json,
         })
     }

@@ -3,9 +3,12 @@
 
 mod args;
 mod check;
+mod compare;
 mod config;
 mod explain;
+mod items;
 mod output;
+mod plan;
 mod pool;
 mod progress;
 mod template;
@@ -40,6 +43,9 @@ pub fn run() -> i32 {
             config::ExplainConfig::from_args(a).and_then(|c| explain::run(&c))
         }
         args::Command::Check(a) => config::CheckConfig::from_args(a).and_then(|c| check::run(&c)),
+        args::Command::Items(a) => config::ItemsConfig::from_args(a).and_then(|c| items::run(&c)),
+        args::Command::Compare(a) => compare::run(a),
+        args::Command::Plan(a) => plan::run(a),
         args::Command::Template(a) => {
             config::TemplateConfig::from_args(a).and_then(|c| template::run(&c))
         }

@@ -18,7 +18,9 @@ pub fn alpha(cov: &DMatrix<f64>) -> f64 {
 /// The correlation matrix of a covariance matrix.
 pub fn correlation(cov: &DMatrix<f64>) -> DMatrix<f64> {
     let sd: Vec<f64> = (0..cov.nrows()).map(|i| cov[(i, i)].sqrt()).collect();
-    DMatrix::from_fn(cov.nrows(), cov.ncols(), |i, j| cov[(i, j)] / (sd[i] * sd[j]))
+    DMatrix::from_fn(cov.nrows(), cov.ncols(), |i, j| {
+        cov[(i, j)] / (sd[i] * sd[j])
+    })
 }
 
 /// Standardized alpha: alpha of the correlation matrix, k r̄ / (1 + (k − 1) r̄).
@@ -100,7 +102,8 @@ pub fn bonett_interval(alpha: f64, n: f64, k: f64, level: f64) -> (f64, f64) {
     let z = normal_quantile(1.0 - (1.0 - level) / 2.0);
     let centre = (1.0 - alpha).ln() - (n / (n - 1.0)).ln();
     let half = z * (2.0 * k / ((k - 1.0) * (n - 2.0))).sqrt();
-    (1.0 - (centre - half).exp(), 1.0 - (centre + half).exp())
+    // 1 − exp(·) decreases: the upper end of ln(1 − α) gives the lower limit of α.
+    (1.0 - (centre + half).exp(), 1.0 - (centre - half).exp())
 }
 
 #[cfg(test)]
@@ -120,8 +123,17 @@ mod tests {
     /// A published worked example: n = 15, k = 10, α̂ = 0.5917 gives the 95% Feldt
     /// interval (0.195, 0.840) (quoted in issue 4; confirmed with scipy's F quantiles).
     #[test]
+    fn bonett_interval_is_ordered_and_contains_the_estimate() {
+        let (lo, hi) = bonett_interval(0.85, 275.0, 10.0, 0.95);
+        assert!(lo < 0.85 && 0.85 < hi, "{lo} {hi}");
+    }
+
+    #[test]
     fn feldt_worked_example() {
         let (lo, hi) = feldt_interval(0.5917, 15.0, 10.0, 0.95);
-        assert!((lo - 0.195).abs() < 5e-4 && (hi - 0.840).abs() < 5e-4, "{lo} {hi}");
+        assert!(
+            (lo - 0.195).abs() < 5e-4 && (hi - 0.840).abs() < 5e-4,
+            "{lo} {hi}"
+        );
     }
 }

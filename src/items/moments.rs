@@ -72,8 +72,8 @@ impl Listwise {
         }
         self.n += 1;
         let k = self.k;
-        for a in 0..k {
-            self.d[a] = row[a] - self.shift[a];
+        for ((d, x), s) in self.d.iter_mut().zip(row).zip(&self.shift) {
+            *d = x - s;
         }
         let mut idx = 0;
         for a in 0..k {
@@ -112,8 +112,8 @@ impl Listwise {
                     + n * delta[a] * delta[b];
             }
         }
-        for a in 0..k {
-            self.sum[a] += other.sum[a] + n * delta[a];
+        for ((s, o), d) in self.sum.iter_mut().zip(&other.sum).zip(&delta) {
+            *s += o + n * d;
         }
         self.n += other.n;
     }
@@ -175,11 +175,11 @@ impl Pairwise {
                 self.shift[a] = Some(*x);
             }
         }
-        for a in 0..k {
-            let Some(xa) = row[a] else { continue };
+        for (a, va) in row.iter().enumerate() {
+            let Some(xa) = va else { continue };
             let da = xa - self.shift[a].expect("set above");
-            for b in a..k {
-                let Some(xb) = row[b] else { continue };
+            for (b, vb) in row.iter().enumerate().skip(a) {
+                let Some(xb) = vb else { continue };
                 let db = xb - self.shift[b].expect("set above");
                 let i = packed(k, a, b);
                 self.n[i] += 1;
@@ -240,9 +240,14 @@ mod tests {
     fn direct(rows: &[Vec<f64>]) -> DMatrix<f64> {
         let n = rows.len() as f64;
         let k = rows[0].len();
-        let mean: Vec<f64> = (0..k).map(|a| rows.iter().map(|r| r[a]).sum::<f64>() / n).collect();
+        let mean: Vec<f64> = (0..k)
+            .map(|a| rows.iter().map(|r| r[a]).sum::<f64>() / n)
+            .collect();
         DMatrix::from_fn(k, k, |a, b| {
-            rows.iter().map(|r| (r[a] - mean[a]) * (r[b] - mean[b])).sum::<f64>() / (n - 1.0)
+            rows.iter()
+                .map(|r| (r[a] - mean[a]) * (r[b] - mean[b]))
+                .sum::<f64>()
+                / (n - 1.0)
         })
     }
 
@@ -267,7 +272,8 @@ mod tests {
     fn pairwise_equals_listwise_without_missing() {
         let r = rows();
         let mut acc = Pairwise::new(3);
-        r.iter().for_each(|x| acc.add(&x.iter().map(|v| Some(*v)).collect::<Vec<_>>()));
+        r.iter()
+            .for_each(|x| acc.add(&x.iter().map(|v| Some(*v)).collect::<Vec<_>>()));
         let m = acc.finish().unwrap();
         assert!((m.cov - direct(&r)).abs().max() < 1e-12);
     }

@@ -80,22 +80,22 @@ fn parse_response(cell: &[u8], decimal_comma: bool) -> std::result::Result<f64, 
         }
         return Ok(f64::from(v));
     }
-    let text = std::str::from_utf8(cell).map_err(|_| "the cell is not valid UTF-8 text".to_string())?;
+    let text =
+        std::str::from_utf8(cell).map_err(|_| "the cell is not valid UTF-8 text".to_string())?;
     parse_number(text, decimal_comma)
 }
 
 fn missing_cell(cell: &[u8]) -> bool {
-    cell.is_empty()
-        || std::str::from_utf8(cell).map(is_missing).unwrap_or(false)
+    cell.is_empty() || std::str::from_utf8(cell).map(is_missing).unwrap_or(false)
 }
 
 /// Read an item file in one pass.
 pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
     let file = path.display().to_string();
     let mut handle = std::fs::File::open(path).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => {
-            Error::InvalidOption(format!("{file}: no such file; check the path of the item data"))
-        }
+        std::io::ErrorKind::NotFound => Error::InvalidOption(format!(
+            "{file}: no such file; check the path of the item data"
+        )),
         _ => Error::io(format!("reading {file}"), e),
     })?;
     let fail = |row: usize, reason: String| Error::InvalidSheet {
@@ -109,13 +109,22 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
         .read_to_end(&mut head)
         .map_err(|e| Error::io(format!("reading {file}"), e))?;
     if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
-        return Err(fail(1, "the file is UTF-16 encoded; save it as UTF-8".into()));
+        return Err(fail(
+            1,
+            "the file is UTF-16 encoded; save it as UTF-8".into(),
+        ));
     }
-    let bom = if head.starts_with(b"\xEF\xBB\xBF") { 3 } else { 0 };
+    let bom = if head.starts_with(b"\xEF\xBB\xBF") {
+        3
+    } else {
+        0
+    };
     if head[bom..].iter().all(u8::is_ascii_whitespace) {
         return Err(fail(1, "the file is empty; item data need a header row of item names and one row per respondent".into()));
     }
-    let delimiter = options.delimiter.unwrap_or_else(|| detect_delimiter(&head[bom..]));
+    let delimiter = options
+        .delimiter
+        .unwrap_or_else(|| detect_delimiter(&head[bom..]));
     handle
         .seek(SeekFrom::Start(bom as u64))
         .map_err(|e| Error::io(format!("reading {file}"), e))?;
@@ -128,27 +137,28 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
     let decimal_comma = delimiter != b',';
 
     let mut record = csv::ByteRecord::new();
-    let read_err = |e: csv::Error| Error::io(format!("reading {file}"), std::io::Error::other(e.to_string()));
+    let read_err = |e: csv::Error| {
+        Error::io(
+            format!("reading {file}"),
+            std::io::Error::other(e.to_string()),
+        )
+    };
     // Header.
-    let mut row_number = 0usize;
-    loop {
-        if !reader.read_byte_record(&mut record).map_err(read_err)? {
-            return Err(fail(1, "the file has no header row".into()));
-        }
-        let start = record.position().map(|p| p.line()).unwrap_or(1);
-        let consumed = reader.position().line().saturating_sub(start) as usize;
-        row_number += consumed.max(1);
-        break;
+    if !reader.read_byte_record(&mut record).map_err(read_err)? {
+        return Err(fail(1, "the file has no header row".into()));
     }
+    let start = record.position().map(|p| p.line()).unwrap_or(1);
+    let mut row_number = (reader.position().line().saturating_sub(start) as usize).max(1);
     let header: Vec<String> = record
         .iter()
         .map(|c| String::from_utf8_lossy(c).trim().to_string())
         .collect();
     let find = |name: &str| {
-        header
-            .iter()
-            .position(|h| h == name)
-            .or_else(|| header.iter().position(|h| h.eq_ignore_ascii_case(name.trim())))
+        header.iter().position(|h| h == name).or_else(|| {
+            header
+                .iter()
+                .position(|h| h.eq_ignore_ascii_case(name.trim()))
+        })
     };
     let columns: Vec<usize> = match &options.items {
         Some(names) => {
@@ -186,7 +196,10 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
     let names: Vec<String> = columns.iter().map(|&i| header[i].clone()).collect();
     for (i, n) in names.iter().enumerate() {
         if n.is_empty() {
-            return Err(fail(1, format!("column {} has no name in the header", columns[i] + 1)));
+            return Err(fail(
+                1,
+                format!("column {} has no name in the header", columns[i] + 1),
+            ));
         }
     }
     let mut reversed = vec![false; names.len()];
@@ -221,7 +234,10 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
         // Spreadsheet row: blank lines before the record count as rows.
         let start = record.position().map(|p| p.line()).unwrap_or(0);
         let consumed = reader.position().line().saturating_sub(start) as usize;
-        let embedded: usize = record.iter().map(|f| f.iter().filter(|&&c| c == b'\n').count()).sum();
+        let embedded: usize = record
+            .iter()
+            .map(|f| f.iter().filter(|&&c| c == b'\n').count())
+            .sum();
         let blank = consumed.saturating_sub(1 + embedded);
         row_number += blank + 1;
         if record.iter().all(|c| c.iter().all(u8::is_ascii_whitespace)) {
@@ -235,10 +251,15 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
                 unlisted += 1;
             }
         };
-        if record.len() != width && !(record.len() > width && record.iter().skip(width).all(|c| c.is_empty())) {
+        if record.len() != width
+            && !(record.len() > width && record.iter().skip(width).all(|c| c.is_empty()))
+        {
             push(CellProblem::row(
                 row_number,
-                format!("the row has {} cells but the header has {width} columns", record.len()),
+                format!(
+                    "the row has {} cells but the header has {width} columns",
+                    record.len()
+                ),
             ));
             continue;
         }
@@ -276,13 +297,44 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
                     push(CellProblem::cell(
                         row_number,
                         names[slot].clone(),
-                        format!("{e}; a response must be a number (mark a missing one empty, NA or .)"),
+                        format!(
+                            "{e}; a response must be a number (mark a missing one empty, NA or .)"
+                        ),
                     ));
                     bad = true;
                 }
             }
         }
         if bad {
+            // Without --items, a text column in the first row is most likely an identifier:
+            // say so once instead of listing every row.
+            if options.items.is_none() && rows_read == 1 {
+                let text: Vec<String> = columns
+                    .iter()
+                    .filter(|&&c| {
+                        let cell = record.get(c).unwrap_or(b"").trim_ascii();
+                        !missing_cell(cell) && parse_response(cell, decimal_comma).is_err()
+                    })
+                    .map(|&c| header[c].clone())
+                    .collect();
+                let numeric: Vec<String> = names
+                    .iter()
+                    .filter(|n| !text.contains(n))
+                    .cloned()
+                    .collect();
+                return Err(Error::InvalidSheet {
+                    file: file.clone(),
+                    problems: vec![CellProblem::row(
+                        row_number,
+                        format!(
+                            "column(s) {} hold text, so not every column is an item; name the \
+                             item columns with --items, e.g. --items {}",
+                            text.join(", "),
+                            numeric.join(",")
+                        ),
+                    )],
+                });
+            }
             continue;
         }
         if let Some(p) = pairwise.as_mut() {
@@ -296,13 +348,18 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
         }
     }
     if unlisted > 0 {
-        problems.push(CellProblem::file(format!("… and {unlisted} more problem(s) of the same kinds")));
+        problems.push(CellProblem::file(format!(
+            "… and {unlisted} more problem(s) of the same kinds"
+        )));
     }
     if !problems.is_empty() {
         return Err(Error::InvalidSheet { file, problems });
     }
     if rows_read == 0 {
-        return Err(fail(1, "the file has a header row but no respondents below it".into()));
+        return Err(fail(
+            1,
+            "the file has a header row but no respondents below it".into(),
+        ));
     }
     let moments = match &pairwise {
         Some(p) => p.finish(),

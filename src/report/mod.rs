@@ -5,6 +5,7 @@
 pub mod check;
 pub mod explain;
 pub mod format;
+pub mod items;
 pub mod json;
 pub mod paragraph;
 pub mod text;

@@ -43,6 +43,12 @@ def main():
     committed, fresh = sys.argv[1], sys.argv[2]
     problems = []
     for name in sorted(os.listdir(committed)):
+        if name.endswith(".csv"):
+            fresh_path = os.path.join(fresh, name)
+            with open(os.path.join(committed, name), "rb") as a, open(fresh_path, "rb") as b:
+                if a.read() != b.read():
+                    problems.append(f"{name}: the fresh data file differs")
+            continue
         if not name.endswith(".json"):
             continue
         with open(os.path.join(committed, name), encoding="utf-8") as fh:

