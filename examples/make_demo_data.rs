@@ -1,7 +1,7 @@
 //! Generates the invented demo coding sheet in datasets-demo/.
 //!
 //! Run: `cargo run --example make_demo_data` (writes datasets-demo/candor-benchmark.csv
-//! and datasets-demo/candor-items.csv).
+//! datasets-demo/candor-items.csv and datasets-demo/candor-study.csv).
 //!
 //! The scenario is invented: the "Brindlewood Team Candor Inventory" is a fictional
 //! scale, and every sample, number and label below is made up by this program. The
@@ -131,6 +131,9 @@ fn main() {
     let items = path.with_file_name("candor-items.csv");
     std::fs::write(&items, generate_items()).expect("write the demo item data");
     println!("wrote {}", items.display());
+    let study = path.with_file_name("candor-study.csv");
+    std::fs::write(&study, generate_study()).expect("write the demo study");
+    println!("wrote {}", study.display());
 }
 
 /// Invented item responses for the demo scale: 300 respondents × 10 items on a 1–5 scale,
@@ -167,6 +170,26 @@ pub fn generate_items() -> String {
             }
         }
         out.push('\n');
+    }
+    out
+}
+
+/// An invented study for the correction demo: 250 "respondents" with three scale scores —
+/// candor (reliability about 0.80), safety (about 0.70) and engagement (about 0.85) —
+/// built from true scores plus error.
+pub fn generate_study() -> String {
+    let mut rng = SplitMix64(SEED ^ 0x5707);
+    let mut out = String::from("respondent,candor,safety,engagement\n");
+    for r in 0..250 {
+        let t1 = rng.normal();
+        let t2 = 0.4 * t1 + (1.0f64 - 0.16).sqrt() * rng.normal();
+        let ty = 0.35 * t1 + 0.25 * t2 + 0.85 * rng.normal();
+        // Error variances giving the stated reliabilities for unit true-score variances
+        // (the outcome's true-score variance is about 0.94).
+        let x1 = 3.4 + 0.6 * (t1 + (0.25f64).sqrt() * rng.normal());
+        let x2 = 3.1 + 0.5 * (t2 + (0.4286f64).sqrt() * rng.normal());
+        let y = 3.6 + 0.55 * (ty + (0.166f64).sqrt() * rng.normal());
+        out.push_str(&format!("R{:03},{x1:.3},{x2:.3},{y:.3}\n", r + 1));
     }
     out
 }

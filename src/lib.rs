@@ -10,6 +10,7 @@
 
 pub mod benchmark;
 pub mod compare;
+pub mod correct;
 pub mod dist;
 pub mod error;
 pub mod items;

@@ -95,6 +95,23 @@ pub enum Warning {
     },
     /// An item loads negatively on the common factor.
     NegativeLoading,
+    /// A corrected value is impossible (beyond ±1, or a non-positive-definite matrix).
+    Inadmissible {
+        /// What.
+        what: String,
+        /// Why.
+        why: String,
+    },
+    /// Some Monte Carlo or bootstrap draws gave an impossible correction.
+    InadmissibleDraws {
+        /// Their share.
+        share: f64,
+    },
+    /// A reliability is a lower bound (coefficient alpha or its kin).
+    LowerBoundReliability {
+        /// Which variable.
+        which: String,
+    },
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
         /// Spreadsheet rows.
@@ -153,6 +170,9 @@ impl Warning {
             Warning::RangeBelowZero { .. } => "range_below_zero",
             Warning::Extrapolation { .. } => "extrapolation",
             Warning::NegativeAlpha { .. } => "negative_alpha",
+            Warning::Inadmissible { .. } => "inadmissible",
+            Warning::InadmissibleDraws { .. } => "inadmissible_draws",
+            Warning::LowerBoundReliability { .. } => "lower_bound_reliability",
             Warning::NegativeLoading => "negative_loading",
             Warning::PartFailed { .. } => "part_failed",
             Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
@@ -265,6 +285,27 @@ impl fmt::Display for Warning {
                  studies like this one",
                 crate::report::format::significant(*lower, 4),
                 crate::report::format::significant(*upper, 4)
+            ),
+            Warning::Inadmissible { what, why } => write!(
+                f,
+                "the {what} is impossible: {why}. The likely causes are reliabilities that are too \
+                 low (for example coefficient alpha, a lower bound, when the items are not \
+                 tau-equivalent) or a sample too small for the observed value; no corrected \
+                 number is reported as if it were fine"
+            ),
+            Warning::InadmissibleDraws { share } => write!(
+                f,
+                "{}% of the draws gave an impossible correction (beyond ±1, or an impossible \
+                 true-score matrix): the reliabilities' uncertainty reaches values too low for \
+                 these data, so read the intervals with care",
+                crate::report::format::fixed(100.0 * share, 1)
+            ),
+            Warning::LowerBoundReliability { which } => write!(
+                f,
+                "the reliability of {which} is coefficient alpha (or a kin of it), a lower bound \
+                 unless the items are tau-equivalent: the correction is then too large \
+                 (over-correction); if the item data are at hand, relyard items says whether \
+                 omega should be used instead"
             ),
             Warning::NegativeAlpha { alpha } => write!(
                 f,

@@ -28,3 +28,15 @@ fn committed_demo_items_match_their_generator() {
         "run `cargo run --example make_demo_data`"
     );
 }
+
+#[test]
+fn committed_demo_study_matches_its_generator() {
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets-demo/candor-study.csv");
+    let committed = std::fs::read_to_string(path).expect("the demo study exists");
+    assert_eq!(
+        committed,
+        generator::generate_study(),
+        "run `cargo run --example make_demo_data`"
+    );
+}

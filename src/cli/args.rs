@@ -27,6 +27,8 @@ pub enum Command {
     Compare(CompareArgs),
     /// Sample size for estimating or testing coefficient alpha.
     Plan(PlanArgs),
+    /// What-if correction for measurement error: a correlation or a regression's slopes.
+    Correct(CorrectArgs),
     /// Write an empty coding sheet and its data dictionary.
     Template(TemplateArgs),
 }
@@ -350,4 +352,71 @@ pub struct TemplateArgs {
     /// Replace files that already exist.
     #[arg(long)]
     pub force: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct CorrectArgs {
+    /// An observed correlation to correct (with --n, --rel-x and --rel-y).
+    #[arg(long, value_name = "R", allow_negative_numbers = true)]
+    pub r: Option<f64>,
+
+    /// Sample size (of the correlation, or of the study behind --summary).
+    #[arg(long, value_name = "N")]
+    pub n: Option<u64>,
+
+    /// Reliability of x: a value (0.78), an estimate with its sample (0.78,n=180,items=10),
+    /// or a benchmark (sheet=PATH, optionally ,at=NAME:VALUE); add ,kind=alpha when it is
+    /// coefficient alpha.
+    #[arg(long, value_name = "SPEC")]
+    pub rel_x: Option<String>,
+
+    /// Reliability of y, as for --rel-x.
+    #[arg(long, value_name = "SPEC")]
+    pub rel_y: Option<String>,
+
+    /// A study's raw data (CSV: one row per respondent, scale scores in columns).
+    #[arg(long, value_name = "FILE", conflicts_with = "summary")]
+    pub data: Option<PathBuf>,
+
+    /// A study's summary: a CSV with a header `variable,<names>…[,sd]` and a covariance (or
+    /// correlation) matrix, one row per variable (needs --n).
+    #[arg(long, value_name = "FILE")]
+    pub summary: Option<PathBuf>,
+
+    /// The regression's outcome (a column of --data or a variable of --summary).
+    #[arg(long, value_name = "NAME")]
+    pub outcome: Option<String>,
+
+    /// A predictor (repeatable).
+    #[arg(long = "predictor", value_name = "NAME")]
+    pub predictors: Vec<String>,
+
+    /// Reliability of a variable, NAME=SPEC (repeatable; one per predictor, and optionally
+    /// the outcome; NAME=1 for a variable measured without error).
+    #[arg(long = "rel", value_name = "NAME=SPEC")]
+    pub rels: Vec<String>,
+
+    /// Monte Carlo draws (or bootstrap samples for --data); spread over all cores.
+    #[arg(long, value_name = "N", default_value_t = 10_000)]
+    pub draws: usize,
+
+    /// Seed of the draws (the same seed gives the same intervals on any machine).
+    #[arg(long, value_name = "SEED", default_value_t = 1)]
+    pub seed: u64,
+
+    /// Confidence level of the intervals.
+    #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
+    pub level: f64,
+
+    /// Points per reliability in the sensitivity table.
+    #[arg(long, value_name = "N", default_value_t = 5)]
+    pub grid: usize,
+
+    /// Delimiter of --data: comma, semicolon or tab [default: detected].
+    #[arg(long, value_name = "DELIMITER")]
+    pub delimiter: Option<String>,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
 }

@@ -5,6 +5,7 @@ mod args;
 mod check;
 mod compare;
 mod config;
+mod correct;
 mod explain;
 mod items;
 mod output;
@@ -46,6 +47,7 @@ pub fn run() -> i32 {
         args::Command::Items(a) => config::ItemsConfig::from_args(a).and_then(|c| items::run(&c)),
         args::Command::Compare(a) => compare::run(a),
         args::Command::Plan(a) => plan::run(a),
+        args::Command::Correct(a) => correct::run(a),
         args::Command::Template(a) => {
             config::TemplateConfig::from_args(a).and_then(|c| template::run(&c))
         }

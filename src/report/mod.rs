@@ -3,6 +3,7 @@
 //! values; printing is the binary's job.
 
 pub mod check;
+pub mod correct;
 pub mod explain;
 pub mod format;
 pub mod items;

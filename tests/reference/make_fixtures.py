@@ -782,6 +782,34 @@ def items_fixture(out_dir):
     }
 
 
+def correction_fixture():
+    """Spearman's correction and errors-in-variables regression with numpy."""
+    corr = []
+    for r, n, rx, ry, level in [(0.32, 180, 0.78, 0.85, 0.95), (-0.25, 60, 0.65, 0.9, 0.90)]:
+        z = stats.norm.ppf(1 - (1 - level) / 2)
+        zr, se = math.atanh(r), 1 / math.sqrt(n - 3)
+        att = math.sqrt(rx * ry)
+        corr.append({"r": r, "n": n, "rel_x": rx, "rel_y": ry, "level": level,
+                     "corrected": r / att,
+                     "ci": [math.tanh(zr - z * se) / att, math.tanh(zr + z * se) / att]})
+    names = ["x1", "x2", "y"]
+    S = np.array([[1.44, 0.42, 0.50], [0.42, 0.81, 0.30], [0.50, 0.30, 1.21]])
+    rel = np.array([0.80, 0.70])
+    rel_y = 0.85
+    Sxx, sxy, syy = S[:2, :2], S[:2, 2], S[2, 2]
+    b_ols = np.linalg.solve(Sxx, sxy)
+    M = Sxx - np.diag((1 - rel) * np.diag(Sxx))
+    b = np.linalg.solve(M, sxy)
+    std = b * np.sqrt(rel * np.diag(Sxx)) / math.sqrt(rel_y * syy)
+    return {"correlation": corr,
+            "regression": {"names": names, "cov": S.tolist(), "rel": rel.tolist(), "rel_y": rel_y,
+                           "n": 250, "ols": b_ols.tolist(),
+                           "ols_standardized": (b_ols * np.sqrt(np.diag(Sxx)) / math.sqrt(syy)).tolist(),
+                           "r2_observed": float(sxy @ b_ols / syy),
+                           "corrected": b.tolist(), "corrected_standardized": std.tolist(),
+                           "r2_corrected": float(b @ M @ b / (rel_y * syy))}}
+
+
 def inference_fixture():
     """Feldt's two-sample test, the Hakstian-Whalen k-sample test and Bonett's sample
     sizes, computed with scipy."""
@@ -822,7 +850,7 @@ def inference_fixture():
                  "power": power, "population_discrepancy": float(f_pop),
                  "omega": float(lam.sum() ** 2 / (lam.sum() ** 2 + (1 - lam**2).sum())),
                  "alpha": float(np_alpha(pop))}
-    return {"made_by": stamp(), "tau_power": tau_power,
+    return {"made_by": stamp(), "tau_power": tau_power, "correction": correction_fixture(),
             "feldt": {"samples": samples[:2], "w": w, "p": float(2 * min(upper, 1 - upper))},
             "hakstian_whalen": {"samples": samples, "chi2": chi2, "df": 2,
                                 "p": float(stats.chi2.sf(chi2, 2))},

@@ -1,0 +1,387 @@
+//! A reliability as the correction uses it: a point value, an estimate with its sampling
+//! distribution, or a benchmark's predictive distribution for a new setting.
+
+use crate::benchmark::{BenchmarkOptions, prepare};
+use crate::dist::t_quantile;
+use crate::error::{Error, Result};
+use crate::metareg::{ModeratorSpec, build_design};
+use crate::pool::{FitOptions, MetaData, fit_model};
+use crate::random::draw;
+use crate::sheet::{SheetOptions, read_coding_sheet};
+use crate::transform::{CoefficientFamily, TransformKind, Transformed};
+use rand::Rng;
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+/// How a reliability was given on the command line.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ReliabilitySpec {
+    /// A fixed value.
+    Point {
+        /// The value.
+        value: f64,
+        /// Its kind, when stated (e.g. alpha).
+        kind: Option<String>,
+    },
+    /// An estimate from n respondents and k items (sampling distribution on the Bonett scale).
+    Estimate {
+        /// The estimate.
+        value: f64,
+        /// Respondents.
+        n: u64,
+        /// Items.
+        items: u32,
+        /// Its kind, when stated.
+        kind: Option<String>,
+    },
+    /// A benchmark from a coding sheet, optionally at moderator values.
+    Benchmark {
+        /// The sheet.
+        path: PathBuf,
+        /// Moderator values (`NAME` → `VALUE`).
+        at: BTreeMap<String, String>,
+    },
+}
+
+impl ReliabilitySpec {
+    /// Parse `0.78`, `0.78,n=180,items=10`, `0.78,kind=alpha`, or `sheet=PATH[,at=NAME:VALUE…]`.
+    pub fn parse(spec: &str) -> std::result::Result<Self, String> {
+        let parts: Vec<&str> = spec.split(',').map(str::trim).collect();
+        let usage = || {
+            format!(
+                "\"{spec}\" is not a reliability: write a value (0.78), an estimate with its sample \
+                 (0.78,n=180,items=10), or a benchmark (sheet=PATH, optionally ,at=NAME:VALUE)"
+            )
+        };
+        if let Some(path) = parts[0].strip_prefix("sheet=") {
+            let mut at = BTreeMap::new();
+            for p in &parts[1..] {
+                let (name, value) = p
+                    .strip_prefix("at=")
+                    .and_then(|r| r.split_once(':'))
+                    .ok_or_else(usage)?;
+                at.insert(name.trim().to_string(), value.trim().to_string());
+            }
+            return Ok(ReliabilitySpec::Benchmark {
+                path: PathBuf::from(path),
+                at,
+            });
+        }
+        let value: f64 = parts[0].parse().map_err(|_| usage())?;
+        let (mut n, mut items, mut kind) = (None, None, None);
+        for p in &parts[1..] {
+            let (key, v) = p.split_once('=').ok_or_else(usage)?;
+            match key.trim() {
+                "n" => n = Some(v.trim().parse::<u64>().map_err(|_| usage())?),
+                "items" | "k" => items = Some(v.trim().parse::<u32>().map_err(|_| usage())?),
+                "kind" => kind = Some(v.trim().to_ascii_lowercase()),
+                _ => return Err(usage()),
+            }
+        }
+        // 1 is allowed for a fixed value: a variable measured without error.
+        let upper_ok = if n.is_none() && items.is_none() {
+            value <= 1.0
+        } else {
+            value < 1.0
+        };
+        if !(value.is_finite() && value > 0.0 && upper_ok) {
+            return Err(format!(
+                "a reliability must lie above 0 and at most 1 (got {value})"
+            ));
+        }
+        match (n, items) {
+            (None, None) => Ok(ReliabilitySpec::Point { value, kind }),
+            (Some(n), Some(items)) if n >= 3 && items >= 2 => Ok(ReliabilitySpec::Estimate {
+                value,
+                n,
+                items,
+                kind,
+            }),
+            (Some(_), Some(_)) => Err("an estimate needs n ≥ 3 and at least 2 items".into()),
+            _ => Err(format!("\"{spec}\": give both n= and items= (or neither)")),
+        }
+    }
+}
+
+/// A reliability resolved into something that can be drawn from.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ReliabilitySource {
+    /// Fixed.
+    Point {
+        /// Value.
+        value: f64,
+        /// Kind, when stated.
+        kind: Option<String>,
+    },
+    /// ln(1 − ρ) ~ N(ln(1 − ρ̂), 2k/((k − 1)(n − 2))) (Bonett 2002).
+    Estimate {
+        /// Estimate.
+        value: f64,
+        /// Respondents.
+        n: u64,
+        /// Items.
+        items: u32,
+        /// Kind, when stated.
+        kind: Option<String>,
+    },
+    /// The predictive distribution of the true coefficient in a new setting: on the
+    /// benchmark's scale, mean + scale × t(df).
+    Benchmark {
+        /// Where it came from (file and moderator values).
+        label: String,
+        /// The benchmark's transform.
+        transform: TransformKind,
+        /// Expected value on the transformed scale.
+        mean: f64,
+        /// √(τ² + SE²).
+        scale: f64,
+        /// Degrees of freedom.
+        df: f64,
+        /// Studies behind it.
+        k: usize,
+        /// True when the benchmark pools lower-bound coefficients (alpha and its kin).
+        lower_bound: bool,
+    },
+}
+
+impl ReliabilitySource {
+    /// The value used for the point correction.
+    pub fn point(&self) -> f64 {
+        match self {
+            ReliabilitySource::Point { value, .. } | ReliabilitySource::Estimate { value, .. } => {
+                *value
+            }
+            ReliabilitySource::Benchmark {
+                transform, mean, ..
+            } => back(*transform, *mean),
+        }
+    }
+
+    /// One draw from the reliability's distribution.
+    pub fn draw<R: Rng>(&self, rng: &mut R) -> f64 {
+        match self {
+            ReliabilitySource::Point { value, .. } => *value,
+            ReliabilitySource::Estimate {
+                value, n, items, ..
+            } => {
+                let k = f64::from(*items);
+                let sd = (2.0 * k / ((k - 1.0) * (*n as f64 - 2.0))).sqrt();
+                -((-value).ln_1p() + sd * draw::normal(rng)).exp_m1()
+            }
+            ReliabilitySource::Benchmark {
+                transform,
+                mean,
+                scale,
+                df,
+                ..
+            } => back(*transform, mean + scale * draw::student_t(rng, *df)),
+        }
+    }
+
+    /// The central interval of the distribution at `level` (a point has none).
+    pub fn interval(&self, level: f64) -> Option<(f64, f64)> {
+        let a = 1.0 - level;
+        match self {
+            ReliabilitySource::Point { .. } => None,
+            ReliabilitySource::Estimate {
+                value, n, items, ..
+            } => {
+                let k = f64::from(*items);
+                let sd = (2.0 * k / ((k - 1.0) * (*n as f64 - 2.0))).sqrt();
+                let z = crate::dist::normal_quantile(1.0 - a / 2.0);
+                let t = (-value).ln_1p();
+                Some(ordered(-(t + z * sd).exp_m1(), -(t - z * sd).exp_m1()))
+            }
+            ReliabilitySource::Benchmark {
+                transform,
+                mean,
+                scale,
+                df,
+                ..
+            } => {
+                let q = t_quantile(1.0 - a / 2.0, *df);
+                Some(ordered(
+                    back(*transform, mean - q * scale),
+                    back(*transform, mean + q * scale),
+                ))
+            }
+        }
+    }
+
+    /// True when the reliability is (or pools) coefficient alpha or its kin, a lower bound
+    /// to reliability unless the items are tau-equivalent.
+    pub fn is_lower_bound(&self) -> bool {
+        let alpha_kind = |k: &Option<String>| {
+            k.as_deref()
+                .is_some_and(|k| matches!(k, "alpha" | "alpha_std" | "kr20" | "split_half"))
+        };
+        match self {
+            ReliabilitySource::Point { kind, .. } | ReliabilitySource::Estimate { kind, .. } => {
+                alpha_kind(kind)
+            }
+            ReliabilitySource::Benchmark { lower_bound, .. } => *lower_bound,
+        }
+    }
+
+    /// A description for reports.
+    pub fn describe(&self) -> String {
+        let f3 = |x: f64| crate::report::format::fixed(x, 3);
+        match self {
+            ReliabilitySource::Point { value, .. } => format!("{} (fixed)", f3(*value)),
+            ReliabilitySource::Estimate {
+                value, n, items, ..
+            } => {
+                format!("{} (estimate from n = {n}, {items} items)", f3(*value))
+            }
+            ReliabilitySource::Benchmark { label, k, .. } => {
+                format!("{} (benchmark of {k} studies, {label})", f3(self.point()))
+            }
+        }
+    }
+}
+
+fn ordered(a: f64, b: f64) -> (f64, f64) {
+    if a <= b { (a, b) } else { (b, a) }
+}
+
+fn back(t: TransformKind, x: f64) -> f64 {
+    t.get()
+        .back(Transformed(x))
+        .map(|c| c.0)
+        .unwrap_or(f64::NAN)
+        .min(1.0)
+}
+
+/// Resolve a spec, reading and pooling a benchmark sheet when one is named. Benchmarks use
+/// the transform appropriate to their coefficients and the given fit options.
+pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<ReliabilitySource> {
+    match spec {
+        ReliabilitySpec::Point { value, kind } => Ok(ReliabilitySource::Point {
+            value: *value,
+            kind: kind.clone(),
+        }),
+        ReliabilitySpec::Estimate {
+            value,
+            n,
+            items,
+            kind,
+        } => Ok(ReliabilitySource::Estimate {
+            value: *value,
+            n: *n,
+            items: *items,
+            kind: kind.clone(),
+        }),
+        ReliabilitySpec::Benchmark { path, at } => {
+            let sheet = read_coding_sheet(path, &SheetOptions::default())?;
+            let mut bopts = BenchmarkOptions::default();
+            bopts.pool.model = options.model;
+            bopts.pool.ci = options.ci;
+            bopts.pool.level = options.level;
+            let p = prepare(sheet, &bopts)?;
+            if p.transform == TransformKind::None {
+                return Err(Error::InvalidOption(
+                    "a reliability benchmark needs coefficients, not effects".into(),
+                ));
+            }
+            let specs: Vec<ModeratorSpec> = at.keys().map(ModeratorSpec::auto).collect();
+            let (fit, x0) = if specs.is_empty() {
+                let d = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
+                (fit_model(&d, options)?, vec![1.0])
+            } else {
+                let design = build_design(&p, &specs)?;
+                let x0 = design.row_for(at, p.delimiter != b',')?;
+                let (y, v) = design.effects(&p.y, &p.v);
+                (
+                    fit_model(&MetaData::with_design(y, v, design.x.clone())?, options)?,
+                    x0,
+                )
+            };
+            if fit.k < fit.p + 2 {
+                return Err(Error::CannotAnalyse(format!(
+                    "{}: {} studies leave no degrees of freedom for a predictive distribution",
+                    path.display(),
+                    fit.k
+                )));
+            }
+            let (mean, var) = fit.predict(&x0);
+            let at_text: Vec<String> = at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+            let label = if at_text.is_empty() {
+                path.display().to_string()
+            } else {
+                format!("{} at {}", path.display(), at_text.join(", "))
+            };
+            let lower_bound = p.records.iter().all(|r| {
+                r.coef_type.family() == CoefficientFamily::InternalConsistency
+                    && !matches!(r.coef_type, crate::sheet::CoefType::Omega)
+            });
+            Ok(ReliabilitySource::Benchmark {
+                label,
+                transform: p.transform,
+                mean,
+                scale: (fit.tau2.tau2 + var).sqrt(),
+                df: (fit.k - fit.p - 1) as f64,
+                k: fit.k,
+                lower_bound,
+            })
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn specs_parse() {
+        assert_eq!(
+            ReliabilitySpec::parse("0.78").unwrap(),
+            ReliabilitySpec::Point {
+                value: 0.78,
+                kind: None
+            }
+        );
+        assert!(matches!(
+            ReliabilitySpec::parse("0.78,n=180,items=10,kind=alpha").unwrap(),
+            ReliabilitySpec::Estimate {
+                n: 180,
+                items: 10,
+                ..
+            }
+        ));
+        assert!(matches!(
+            ReliabilitySpec::parse("sheet=b.csv,at=lang:original").unwrap(),
+            ReliabilitySpec::Benchmark { .. }
+        ));
+        assert!(ReliabilitySpec::parse("1").is_ok());
+        for bad in [
+            "1.2",
+            "0",
+            "x",
+            "0.8,n=10",
+            "0.8,q=1",
+            "0.8,n=2,items=5",
+            "1,n=100,items=5",
+        ] {
+            assert!(ReliabilitySpec::parse(bad).is_err(), "{bad}");
+        }
+    }
+
+    #[test]
+    fn estimate_draws_centre_on_the_estimate() {
+        let s = ReliabilitySource::Estimate {
+            value: 0.8,
+            n: 200,
+            items: 10,
+            kind: None,
+        };
+        let mut rng = crate::random::stream(3, 0);
+        let draws: Vec<f64> = (0..20_000).map(|_| s.draw(&mut rng)).collect();
+        let mut sorted = draws.clone();
+        sorted.sort_by(|a, b| a.total_cmp(b));
+        let median = sorted[10_000];
+        assert!((median - 0.8).abs() < 0.003, "{median}");
+        let (lo, hi) = s.interval(0.95).unwrap();
+        let inside = draws.iter().filter(|d| lo <= **d && **d <= hi).count() as f64 / 20_000.0;
+        assert!((inside - 0.95).abs() < 0.01, "{inside}");
+    }
+}
