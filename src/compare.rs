@@ -46,15 +46,20 @@ impl AlphaSample {
 pub struct FeldtTest {
     /// W = (1 − α̂₁)/(1 − α̂₂).
     pub w: f64,
-    /// n₁ − 1.
+    /// Numerator degrees of freedom, n₂ − 1.
     pub df1: f64,
-    /// n₂ − 1.
+    /// Denominator degrees of freedom, n₁ − 1.
     pub df2: f64,
     /// Two-sided p value: 2 min(P(F ≤ W), P(F ≥ W)).
     pub p: f64,
 }
 
-/// Feldt's two-sample test: W = (1 − α̂₁)/(1 − α̂₂) against F(n₁ − 1, n₂ − 1).
+/// Feldt's two-sample test: W = (1 − α̂₁)/(1 − α̂₂) against F(n₂ − 1, n₁ − 1).
+///
+/// Since (1 − α)/(1 − α̂) ~ F(n − 1, (n − 1)(k − 1)), 1 − α̂ behaves like (1 − α) over a
+/// χ²(n − 1)/(n − 1) variable, so the ratio W puts sample 2's χ² in the numerator: its
+/// degrees of freedom are (n₂ − 1, n₁ − 1). (The order F(n₁ − 1, n₂ − 1) that the issue
+/// quoted from memory gives a test of the wrong size when the samples differ in size.)
 ///
 /// # References
 /// Feldt, L. S. (1969). A test of the hypothesis that Cronbach's alpha or Kuder-Richardson
@@ -63,7 +68,7 @@ pub fn feldt_two_sample(a: &AlphaSample, b: &AlphaSample) -> Result<FeldtTest> {
     a.check()?;
     b.check()?;
     let w = (1.0 - a.alpha) / (1.0 - b.alpha);
-    let (df1, df2) = ((a.n - 1) as f64, (b.n - 1) as f64);
+    let (df1, df2) = ((b.n - 1) as f64, (a.n - 1) as f64);
     let upper = f_sf(w, df1, df2);
     let p = (2.0 * upper.min(1.0 - upper)).min(1.0);
     Ok(FeldtTest { w, df1, df2, p })

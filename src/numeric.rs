@@ -154,7 +154,8 @@ pub enum MinimizeStop {
 }
 
 impl MinimizeStop {
-    /// True when the result can be trusted as a minimum.
+    /// True when the search stopped at a point it accepts as a minimum (a `NoProgress`
+    /// stop is returned only when the gradient there is small; see [`bfgs`]).
     pub fn converged(self) -> bool {
         matches!(self, MinimizeStop::GradientSmall | MinimizeStop::NoProgress)
     }
@@ -255,12 +256,18 @@ pub fn bfgs<F: FnMut(&[f64]) -> (f64, Vec<f64>)>(
             stalls += 1;
             if stalls >= 3 {
                 let gmax = max_abs(&g);
+                // Stalling far from a stationary point is not convergence.
+                let stop = if gmax < gtol.sqrt() {
+                    MinimizeStop::NoProgress
+                } else {
+                    MinimizeStop::LineSearchFailed
+                };
                 return Minimum {
                     x,
                     value: fx,
                     gradient_max: gmax,
                     iterations: it + 1,
-                    stop: MinimizeStop::NoProgress,
+                    stop,
                 };
             }
         } else {

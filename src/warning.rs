@@ -93,8 +93,11 @@ pub enum Warning {
         /// Its value.
         alpha: f64,
     },
-    /// An item loads negatively on the common factor.
-    NegativeLoading,
+    /// Items load negatively on the common factor.
+    NegativeLoading {
+        /// The items.
+        items: Vec<String>,
+    },
     /// A corrected value is impossible (beyond ±1, or a non-positive-definite matrix).
     Inadmissible {
         /// What.
@@ -111,6 +114,18 @@ pub enum Warning {
     LowerBoundReliability {
         /// Which variable.
         which: String,
+    },
+    /// A column counts 1, 2, 3, … like a respondent number.
+    IdentifierColumn {
+        /// The column.
+        column: String,
+    },
+    /// An item has a value far from its others (a missing-value code?).
+    ExtremeResponse {
+        /// The column.
+        column: String,
+        /// The value.
+        value: f64,
     },
     /// Negative coefficients were reported: valid, but unusual.
     NegativeCoefficients {
@@ -170,10 +185,12 @@ impl Warning {
             Warning::RangeBelowZero { .. } => "range_below_zero",
             Warning::Extrapolation { .. } => "extrapolation",
             Warning::NegativeAlpha { .. } => "negative_alpha",
+            Warning::IdentifierColumn { .. } => "identifier_column",
+            Warning::ExtremeResponse { .. } => "extreme_response",
             Warning::Inadmissible { .. } => "inadmissible",
             Warning::InadmissibleDraws { .. } => "inadmissible_draws",
             Warning::LowerBoundReliability { .. } => "lower_bound_reliability",
-            Warning::NegativeLoading => "negative_loading",
+            Warning::NegativeLoading { .. } => "negative_loading",
             Warning::PartFailed { .. } => "part_failed",
             Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
@@ -307,6 +324,17 @@ impl fmt::Display for Warning {
                  (over-correction); if the item data are at hand, relyard items says whether \
                  omega should be used instead"
             ),
+            Warning::IdentifierColumn { column } => write!(
+                f,
+                "column {column} counts 1, 2, 3, … like a respondent number, yet it is analysed \
+                 as an item; leave it out with --items"
+            ),
+            Warning::ExtremeResponse { column, value } => write!(
+                f,
+                "item {column} has the value {value}, far from its other answers: if it is a \
+                 missing-value code (such as −99 or 999), mark those cells empty, or declare \
+                 the response scale with --scale-min and --scale-max to have them reported"
+            ),
             Warning::NegativeAlpha { alpha } => write!(
                 f,
                 "alpha is negative ({}): the items correlate negatively on average, which \
@@ -314,10 +342,11 @@ impl fmt::Display for Warning {
                  --scale-min and --scale-max)",
                 crate::report::format::fixed(*alpha, 3)
             ),
-            Warning::NegativeLoading => write!(
+            Warning::NegativeLoading { items } => write!(
                 f,
-                "an item loads negatively on the common factor: it probably needs reverse \
-                 scoring (--reverse), and the sum score's omega is lowered by it"
+                "{} load(s) negatively on the common factor: probably worded in reverse and in \
+                 need of reverse scoring (--reverse with --scale-min and --scale-max)",
+                items.join(", ")
             ),
             Warning::PartFailed { what, why } => {
                 write!(f, "{what} could not be done, the rest stands: {why}")

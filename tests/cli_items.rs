@@ -264,3 +264,101 @@ fn compare_and_plan_usage() {
         &["--items"],
     );
 }
+
+/// Regressions from the issue 4 review.
+mod review {
+    use super::*;
+
+    #[test]
+    fn the_reading_handles_unreversed_and_unrelated_items() {
+        let d = demo_items();
+        let raw = json_ok(&["items", &d, "--items", ITEMS, "--json"]);
+        assert_eq!(
+            raw["recommendation"], "reverse_key_first",
+            "{}",
+            raw["reading"]
+        );
+        assert!(raw["reading"].as_str().unwrap().contains("btci_04"));
+        // Four unrelated items.
+        let mut text = String::from("a,b,c,d\n");
+        let mut state = 12345u64;
+        for _ in 0..200 {
+            let cells: Vec<String> = (0..4)
+                .map(|_| {
+                    state = state
+                        .wrapping_mul(6364136223846793005)
+                        .wrapping_add(1442695040888963407);
+                    ((state >> 33) % 5 + 1).to_string()
+                })
+                .collect();
+            text.push_str(&cells.join(","));
+            text.push('\n');
+        }
+        let dir = scratch("review4-unrelated");
+        let path = write_file(&dir, "u.csv", text.as_bytes());
+        let j = json_ok(&["items", &path, "--json"]);
+        assert!(
+            ["no_common_variance", "reverse_key_first"]
+                .contains(&j["recommendation"].as_str().unwrap()),
+            "{}",
+            j["reading"]
+        );
+    }
+
+    #[test]
+    fn columns_that_are_not_items() {
+        let dir = scratch("review4-columns");
+        let total = write_file(
+            &dir,
+            "total.csv",
+            b"a,b,c,total\n1,2,3,6\n2,2,3,7\n3,3,4,10\n4,2,1,7\n2,4,4,10\n5,4,3,12\n",
+        );
+        fails_with(&["items", &total], &["column total", "total score"]);
+        let empty = write_file(
+            &dir,
+            "empty.csv",
+            b"a,b,c,d\n1,2,3,\n2,2,3,\n3,3,4,\n4,2,1,\n",
+        );
+        fails_with(&["items", &empty], &["column d has no answers"]);
+        let dup = write_file(&dir, "dup.csv", b"a,b,a\n1,2,3\n2,2,3\n3,3,4\n");
+        fails_with(&["items", &dup], &["\"a\" appears twice"]);
+        let trailing = write_file(
+            &dir,
+            "trailing.csv",
+            b"a,b,c,\n1,2,3,\n2,3,3,\n3,3,4,\n4,2,1,\n2,4,5,\n",
+        );
+        let j = json_ok(&["items", &trailing, "--json"]);
+        assert_eq!(j["items"], 3);
+        let ids = write_file(
+            &dir,
+            "ids.csv",
+            b"id,a,b,c\n1,1,2,3\n2,2,2,3\n3,3,3,4\n4,4,2,1\n5,2,4,5\n6,5,4,3\n",
+        );
+        let j = json_ok(&["items", &ids, "--json"]);
+        assert!(warning_codes(&j).iter().any(|c| c == "identifier_column"));
+        let codes = write_file(&dir, "codes.csv", b"a,b,c\n1,2,3\n2,2,3\n3,3,4\n4,2,1\n2,4,5\n5,4,3\n3,3,3\n2,3,4\n4,4,4\n1,2,2\n3,2,3\n2,-99,3\n4,5,5\n3,3,2\n2,2,2\n4,4,5\n5,5,4\n1,1,2\n3,4,3\n2,3,3\n4,3,4\n3,4,4\n2,2,3\n3,3,3\n4,4,3\n3,2,4\n2,3,2\n4,3,3\n3,4,5\n2,2,1\n");
+        let j = json_ok(&["items", &codes, "--json"]);
+        assert!(
+            warning_codes(&j).iter().any(|c| c == "extreme_response"),
+            "{:?}",
+            warning_codes(&j)
+        );
+        // A typo in the first row is a located cell error, not "a column of text".
+        let typo = write_file(&dir, "typo.csv", b"a,b,c\n1,3x,3\n2,2,3\n3,3,4\n");
+        fails_with(&["items", &typo], &["row 2, column b:", "\"3x\""]);
+    }
+
+    #[test]
+    fn compare_says_what_it_found() {
+        let out = relyard(&[
+            "compare",
+            "--sample",
+            "0.81,120,10",
+            "--sample",
+            "0.74,95,8",
+        ]);
+        let text = String::from_utf8_lossy(&out.stdout);
+        assert!(text.contains("The alphas span 0.070"), "{text}");
+        assert!(text.contains("forms of different lengths"), "{text}");
+    }
+}

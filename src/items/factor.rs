@@ -251,6 +251,25 @@ pub fn fit_indices(cov: &DMatrix<f64>, fit: &FactorFit, n: f64) -> ModelFitIndic
     }
 }
 
+/// p value of Bartlett's test that the items are uncorrelated:
+/// χ² = −(n − 1 − (2k + 5)/6)·ln|R| with k(k − 1)/2 df.
+///
+/// # References
+/// Bartlett, M. S. (1950). Tests of significance in factor analysis. *British Journal of
+/// Psychology, Statistical Section*, 3(2), 77–85.
+pub fn independence_test(cov: &DMatrix<f64>, n: f64) -> f64 {
+    let k = cov.nrows() as f64;
+    let r = super::alpha::correlation(cov);
+    match r.cholesky() {
+        Some(c) => {
+            let log_det: f64 = 2.0 * c.l().diagonal().iter().map(|d| d.ln()).sum::<f64>();
+            let chi2 = -(n - 1.0 - (2.0 * k + 5.0) / 6.0) * log_det;
+            chi2_sf(chi2, k * (k - 1.0) / 2.0)
+        }
+        None => 0.0,
+    }
+}
+
 /// The likelihood-ratio test of tau-equivalence against the congeneric model:
 /// χ² = (n − 1)(F_tau − F_cong) with k − 1 df.
 #[derive(Debug, Clone, Copy, PartialEq)]

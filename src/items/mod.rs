@@ -42,6 +42,10 @@ pub enum Recommendation {
     AlphaOnly,
     /// The one-factor solution is improper (Heywood case); alpha, with caution.
     AlphaWithCaution,
+    /// Some items run against the others: reverse-key them before any coefficient.
+    ReverseKeyFirst,
+    /// The items share too little variance for a scale score.
+    NoCommonVariance,
 }
 
 /// The one-factor part of an analysis.
@@ -55,6 +59,9 @@ pub struct FactorPart {
     pub tau_test: TauEquivalenceTest,
     /// Fit of the one-factor model.
     pub fit: ModelFitIndices,
+    /// p value of the test that the items are uncorrelated (Bartlett's χ² of the
+    /// correlation matrix).
+    pub independence_p: f64,
 }
 
 /// Everything `relyard items` reports.
@@ -102,12 +109,17 @@ pub fn analyze(data: &ItemData, level: f64) -> Result<ItemAnalysis> {
     let k = data.moments.k();
     let n_used = data.n_used();
     let n = n_used as f64;
-    let mut warnings = Vec::new();
+    let mut warnings = data.notes.clone();
     if let Some(i) = (0..k).find(|&i| cov[(i, i)].is_nan() || cov[(i, i)] <= 0.0) {
         return Err(crate::Error::CannotAnalyse(format!(
             "item {} has no variance (every respondent gave the same answer), so reliability \
              cannot be computed; leave it out with --items",
             data.names[i]
+        )));
+    }
+    if n_used < 3 {
+        return Err(crate::Error::CannotAnalyse(format!(
+            "only {n_used} respondent(s) can be used; reliability needs at least 3"
         )));
     }
     let a = alpha(cov);
@@ -116,8 +128,17 @@ pub fn analyze(data: &ItemData, level: f64) -> Result<ItemAnalysis> {
     }
     let mean: Vec<f64> = data.moments.mean.iter().copied().collect();
     let stats = item_statistics(&mean, cov);
-    let factor = fit_factor(cov, n, &mut warnings);
-    let (recommendation, reading) = read(a, factor.as_ref().ok(), &data.names, k);
+    // A column that is (nearly) the sum of the others is a total score, not an item.
+    if let Some(i) = stats.iter().position(|s| s.corrected_item_total > 0.9999) {
+        return Err(crate::Error::CannotAnalyse(format!(
+            "column {} correlates {} with the sum of the other columns: it looks like a total \
+             score rather than an item; leave it out with --items",
+            data.names[i],
+            crate::report::format::fixed(stats[i].corrected_item_total, 4)
+        )));
+    }
+    let factor = fit_factor(cov, n, &data.names, data.missing, &mut warnings);
+    let (recommendation, reading) = read(a, &factor, &data.names, k);
     Ok(ItemAnalysis {
         n_used,
         k,
@@ -138,10 +159,23 @@ pub fn analyze(data: &ItemData, level: f64) -> Result<ItemAnalysis> {
 fn fit_factor(
     cov: &nalgebra::DMatrix<f64>,
     n: f64,
+    names: &[String],
+    missing: Missing,
     warnings: &mut Vec<Warning>,
 ) -> std::result::Result<FactorPart, String> {
-    let cong = fit_one_factor(cov, FactorModel::Congeneric).map_err(|e| e.to_string())?;
-    let tau = fit_one_factor(cov, FactorModel::TauEquivalent).map_err(|e| e.to_string())?;
+    let reason = |e: crate::Error| {
+        let m = e.to_string();
+        if missing == Missing::Pairwise && m.contains("singular") {
+            "the pairwise covariance matrix is not positive definite (pairwise deletion can give \
+             a matrix no complete data set could have), so the one-factor model cannot be \
+             fitted; try listwise deletion"
+                .to_string()
+        } else {
+            m
+        }
+    };
+    let cong = fit_one_factor(cov, FactorModel::Congeneric).map_err(reason)?;
+    let tau = fit_one_factor(cov, FactorModel::TauEquivalent).map_err(reason)?;
     for (name, f) in [
         ("the congeneric one-factor model", &cong),
         ("the tau-equivalent model", &tau),
@@ -153,61 +187,127 @@ fn fit_factor(
             });
         }
     }
-    if cong.loadings.iter().any(|l| *l < 0.0) {
-        warnings.push(Warning::NegativeLoading);
+    let negative: Vec<String> = cong
+        .loadings
+        .iter()
+        .zip(names)
+        .filter(|(l, _)| **l < 0.0)
+        .map(|(_, n)| n.clone())
+        .collect();
+    if !negative.is_empty() {
+        warnings.push(Warning::NegativeLoading { items: negative });
     }
     let k = cov.nrows();
     Ok(FactorPart {
         tau_test: tau_equivalence_test(&cong, &tau, n, k),
         fit: fit_indices(cov, &cong, n),
+        independence_p: factor::independence_test(cov, n),
         congeneric: cong,
         tau_equivalent: tau,
     })
 }
 
-fn read(a: f64, f: Option<&FactorPart>, names: &[String], k: usize) -> (Recommendation, String) {
-    let Some(f) = f else {
-        return (
-            Recommendation::AlphaOnly,
-            format!(
-                "with {k} items the one-factor model is not identified, so only alpha ({}) is \
-                 available; it is a lower bound to reliability unless the items are \
-                 tau-equivalent",
-                crate::report::format::fixed(a, 3)
-            ),
-        );
+fn read(
+    a: f64,
+    factor: &std::result::Result<FactorPart, String>,
+    names: &[String],
+    k: usize,
+) -> (Recommendation, String) {
+    let fx = |x: f64| crate::report::format::fixed(x, 3);
+    let f = match factor {
+        Ok(f) => f,
+        Err(why) => {
+            let text = if k < 3 {
+                format!(
+                    "with {k} items the one-factor model is not identified, so only alpha ({}) is \
+                     available; it is a lower bound to reliability unless the items are \
+                     tau-equivalent",
+                    fx(a)
+                )
+            } else {
+                format!(
+                    "the one-factor model could not be fitted ({why}); alpha is {}",
+                    fx(a)
+                )
+            };
+            let rec = if a > 0.0 {
+                Recommendation::AlphaOnly
+            } else {
+                Recommendation::ReverseKeyFirst
+            };
+            return (rec, text);
+        }
     };
     let omega = f.congeneric.omega();
-    let fx = |x: f64| crate::report::format::fixed(x, 3);
-    if !f.congeneric.heywood.is_empty() {
-        let items: Vec<&str> = f
-            .congeneric
-            .heywood
-            .iter()
-            .map(|&i| names[i].as_str())
-            .collect();
+    // 1. Items that run against the others.
+    let negative: Vec<&str> = f
+        .congeneric
+        .loadings
+        .iter()
+        .zip(names)
+        .filter(|(l, _)| **l < 0.0)
+        .map(|(_, n)| n.as_str())
+        .collect();
+    if a <= 0.0 || !negative.is_empty() {
+        let which = if negative.is_empty() {
+            "some items".to_string()
+        } else {
+            negative.join(", ")
+        };
         return (
-            Recommendation::AlphaWithCaution,
+            Recommendation::ReverseKeyFirst,
             format!(
-                "the one-factor solution is improper: the uniqueness of {} is at zero (a Heywood \
-                 case), so omega ({}) is not trustworthy; report alpha ({}) as a lower bound \
-                 and examine those items",
-                items.join(", "),
-                fx(omega),
+                "{which} run against the other items (negative loading{}): reverse-key them \
+                 (--reverse with --scale-min and --scale-max) before computing any coefficient; \
+                 neither alpha ({}) nor omega means anything until then",
+                if a <= 0.0 {
+                    ", and alpha is not above 0"
+                } else {
+                    ""
+                },
                 fx(a)
             ),
         );
     }
+    // 2. Items that share (almost) nothing.
+    if f.independence_p >= TAU_TEST_LEVEL {
+        return (
+            Recommendation::NoCommonVariance,
+            format!(
+                "the items share too little variance to be distinguished from unrelated items \
+                 (test of zero correlations p {}): they do not form a scale here, so neither \
+                 alpha ({}) nor omega ({}) describes a score's reliability",
+                crate::report::format::p_value(f.independence_p),
+                fx(a),
+                fx(omega)
+            ),
+        );
+    }
+    let heywood: Vec<&str> = f
+        .congeneric
+        .heywood
+        .iter()
+        .map(|&i| names[i].as_str())
+        .collect();
     let fits = match (f.fit.cfi, f.fit.rmsea) {
         (Some(cfi), Some(rmsea)) => cfi >= CFI_GOOD && rmsea <= RMSEA_GOOD,
         _ => true, // three items: the model fits exactly (0 df)
     };
+    // 3. One factor does not describe the items.
     if !fits {
+        let hw = if heywood.is_empty() {
+            String::new()
+        } else {
+            format!(
+                "; the solution is also improper (a Heywood case for {})",
+                heywood.join(", ")
+            )
+        };
         return (
             Recommendation::CheckDimensionality,
             format!(
                 "one factor does not describe these items well (CFI {}, RMSEA {}; common limits \
-                 CFI ≥ 0.95, RMSEA ≤ 0.06): neither alpha ({}) nor omega ({}) is then the \
+                 CFI ≥ 0.95, RMSEA ≤ 0.06){hw}: neither alpha ({}) nor omega ({}) is then the \
                  reliability of a single trait; examine the items' dimensionality before \
                  carrying either into a benchmark or a correction",
                 f.fit.cfi.map(fx).unwrap_or_default(),
@@ -217,8 +317,30 @@ fn read(a: f64, f: Option<&FactorPart>, names: &[String], k: usize) -> (Recommen
             ),
         );
     }
+    // 4. An improper solution.
+    if !heywood.is_empty() {
+        return (
+            Recommendation::AlphaWithCaution,
+            format!(
+                "the one-factor solution is improper: the uniqueness of {} is at zero (a Heywood \
+                 case), so omega ({}) is not trustworthy; report alpha ({}) as a lower bound \
+                 and examine those items",
+                heywood.join(", "),
+                fx(omega),
+                fx(a)
+            ),
+        );
+    }
+    // 5. Tau-equivalence.
+    let test = format!(
+        "χ²({}) = {}, p {}",
+        f.tau_test.df,
+        crate::report::format::fixed(f.tau_test.chi2, 2),
+        crate::report::format::p_value(f.tau_test.p)
+    );
+    let gap = (omega - a).abs();
     if f.tau_test.p < TAU_TEST_LEVEL {
-        let size = if omega - a < 0.01 {
+        let size = if gap < 0.01 {
             " — though here the two differ by less than 0.01, so the choice matters little"
         } else {
             ""
@@ -226,12 +348,9 @@ fn read(a: f64, f: Option<&FactorPart>, names: &[String], k: usize) -> (Recommen
         (
             Recommendation::Omega,
             format!(
-                "the items are not tau-equivalent (χ²({}) = {}, p {}): their loadings differ, so \
-                 alpha ({}) is a lower bound here; report omega ({}) and carry omega into a \
-                 benchmark or a correction for measurement error (alpha would over-correct){size}",
-                f.tau_test.df,
-                crate::report::format::fixed(f.tau_test.chi2, 2),
-                crate::report::format::p_value(f.tau_test.p),
+                "the items are not tau-equivalent ({test}): their loadings differ, so alpha ({}) \
+                 is a lower bound here; report omega ({}) and carry omega into a benchmark or a \
+                 correction for measurement error (alpha would over-correct){size}",
                 fx(a),
                 fx(omega)
             ),
@@ -240,14 +359,13 @@ fn read(a: f64, f: Option<&FactorPart>, names: &[String], k: usize) -> (Recommen
         (
             Recommendation::Either,
             format!(
-                "tau-equivalence is not rejected (χ²({}) = {}, p {}) and one factor fits: alpha \
-                 ({}) and omega ({}) estimate the same reliability; either may be carried into a \
-                 benchmark or a correction",
-                f.tau_test.df,
-                crate::report::format::fixed(f.tau_test.chi2, 2),
-                crate::report::format::p_value(f.tau_test.p),
+                "one factor fits and the test does not show unequal loadings ({test}); alpha ({}) \
+                 and omega ({}) differ by {} here, so either may be carried into a benchmark or \
+                 a correction (a test that does not reject is not proof of equal loadings: with \
+                 few respondents, prefer omega)",
                 fx(a),
-                fx(omega)
+                fx(omega),
+                fx(gap)
             ),
         )
     }

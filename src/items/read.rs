@@ -58,6 +58,8 @@ pub struct ItemData {
     pub moments: Moments,
     /// Complete rows, row-major, when kept.
     pub rows: Option<Vec<f64>>,
+    /// Things noticed while reading (identifier-like columns, extreme values).
+    pub notes: Vec<crate::Warning>,
 }
 
 impl ItemData {
@@ -160,6 +162,25 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
                 .position(|h| h.eq_ignore_ascii_case(name.trim()))
         })
     };
+    // Every named column must be named once.
+    for (i, h) in header.iter().enumerate() {
+        if !h.is_empty()
+            && let Some(j) = header[..i].iter().position(|g| g.eq_ignore_ascii_case(h))
+        {
+            return Err(fail(
+                1,
+                format!(
+                    "the column name \"{h}\" appears twice (columns {} and {}); every column \
+                     needs its own name",
+                    j + 1,
+                    i + 1
+                ),
+            ));
+        }
+    }
+    let unnamed: Vec<usize> = (0..header.len())
+        .filter(|&i| header[i].is_empty())
+        .collect();
     let columns: Vec<usize> = match &options.items {
         Some(names) => {
             let mut idx = Vec::new();
@@ -185,7 +206,8 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
             }
             idx
         }
-        None => (0..header.len()).collect(),
+        // Without --items every named column is an item; unnamed ones must stay empty.
+        None => (0..header.len()).filter(|i| !unnamed.contains(i)).collect(),
     };
     if columns.len() < 2 {
         return Err(Error::InvalidOption(format!(
@@ -221,6 +243,13 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
 
     let k = names.len();
     let mut listwise = Listwise::new(k);
+    // Per item: answers seen, range, and whether it counts 1, 2, 3, … like an identifier.
+    let mut seen = vec![0u64; k];
+    // The two lowest and two highest answers of each item (for missing-value codes).
+    let mut lowest = vec![[f64::INFINITY; 2]; k];
+    let mut highest = vec![[f64::NEG_INFINITY; 2]; k];
+    let mut counting = vec![true; k];
+    let mut previous: Vec<Option<f64>> = vec![None; k];
     let mut pairwise = (options.missing == Missing::Pairwise).then(|| Pairwise::new(k));
     let mut rows = options.keep_rows.then(Vec::new);
     let mut problems: Vec<CellProblem> = Vec::new();
@@ -263,6 +292,15 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
             ));
             continue;
         }
+        for &u in &unnamed {
+            if record.get(u).is_some_and(|c| !c.trim_ascii().is_empty()) {
+                push(CellProblem::cell(
+                    row_number,
+                    format!("{} (unnamed)", u + 1),
+                    "the cell holds a value but its column has no name in the header",
+                ));
+            }
+        }
         let mut complete = true;
         let mut bad = false;
         for (slot, &col) in columns.iter().enumerate() {
@@ -292,6 +330,27 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
                     }
                     values[slot] = x;
                     optional[slot] = Some(x);
+                    seen[slot] += 1;
+                    let lo = &mut lowest[slot];
+                    if x < lo[0] {
+                        lo[1] = lo[0];
+                        lo[0] = x;
+                    } else if x < lo[1] {
+                        lo[1] = x;
+                    }
+                    let hi = &mut highest[slot];
+                    if x > hi[0] {
+                        hi[1] = hi[0];
+                        hi[0] = x;
+                    } else if x > hi[1] {
+                        hi[1] = x;
+                    }
+                    if let Some(p) = previous[slot]
+                        && x != p + 1.0
+                    {
+                        counting[slot] = false;
+                    }
+                    previous[slot] = Some(x);
                 }
                 Err(e) => {
                     push(CellProblem::cell(
@@ -309,11 +368,14 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
             // Without --items, a text column in the first row is most likely an identifier:
             // say so once instead of listing every row.
             if options.items.is_none() && rows_read == 1 {
+                // Identifier-like text: it starts with a letter (R001, P1, anna).
                 let text: Vec<String> = columns
                     .iter()
                     .filter(|&&c| {
                         let cell = record.get(c).unwrap_or(b"").trim_ascii();
-                        !missing_cell(cell) && parse_response(cell, decimal_comma).is_err()
+                        !missing_cell(cell)
+                            && parse_response(cell, decimal_comma).is_err()
+                            && cell.first().is_some_and(u8::is_ascii_alphabetic)
                     })
                     .map(|&c| header[c].clone())
                     .collect();
@@ -322,6 +384,9 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
                     .filter(|n| !text.contains(n))
                     .cloned()
                     .collect();
+                if text.is_empty() {
+                    continue;
+                }
                 return Err(Error::InvalidSheet {
                     file: file.clone(),
                     problems: vec![CellProblem::row(
@@ -361,6 +426,20 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
             "the file has a header row but no respondents below it".into(),
         ));
     }
+    if let Some(i) = seen.iter().position(|&c| c == 0) {
+        return Err(Error::CannotAnalyse(format!(
+            "{file}: column {} has no answers at all; leave it out with --items",
+            names[i]
+        )));
+    }
+    let mut notes = Vec::new();
+    for i in 0..k {
+        if counting[i] && seen[i] >= 3 {
+            notes.push(crate::Warning::IdentifierColumn {
+                column: names[i].clone(),
+            });
+        }
+    }
     let moments = match &pairwise {
         Some(p) => p.finish(),
         None => listwise.finish(),
@@ -376,7 +455,29 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
             listwise.n()
         ))
     })?;
+    // An answer far beyond all the others (e.g. −99 or 999 missing-value codes): its gap
+    // to the next answer is more than twice the range of the rest.
+    if options.scale.is_none() {
+        for i in 0..k {
+            let ([l0, l1], [h0, h1]) = (lowest[i], highest[i]);
+            if seen[i] < 4 {
+                continue;
+            }
+            if l1 - l0 > 2.0 * (h0 - l1) && h0 > l1 {
+                notes.push(crate::Warning::ExtremeResponse {
+                    column: names[i].clone(),
+                    value: l0,
+                });
+            } else if h0 - h1 > 2.0 * (h1 - l0) && h1 > l0 {
+                notes.push(crate::Warning::ExtremeResponse {
+                    column: names[i].clone(),
+                    value: h0,
+                });
+            }
+        }
+    }
     Ok(ItemData {
+        notes,
         file,
         names,
         reversed,

@@ -16,12 +16,25 @@ pub fn items_summary(d: &ItemData, a: &ItemAnalysis, boot: Option<&OmegaBootstra
     let level = percent_level(a.level);
     let c3 = |x: f64| fixed(x, 3);
     let mut o = String::new();
-    let _ = writeln!(
-        o,
-        "Reliability of {} items from {} respondents",
-        a.k,
-        thousands(a.n_used)
-    );
+    match d.missing {
+        Missing::Listwise => {
+            let _ = writeln!(
+                o,
+                "Reliability of {} items from {} respondents",
+                a.k,
+                thousands(a.n_used)
+            );
+        }
+        Missing::Pairwise => {
+            let _ = writeln!(
+                o,
+                "Reliability of {} items from {} respondents (pairwise; n = {} is the smallest pair count)",
+                a.k,
+                thousands(d.rows_read),
+                thousands(a.n_used)
+            );
+        }
+    }
     let _ = writeln!(o, "{}", "─".repeat(72));
     let _ = writeln!(
         o,
@@ -80,8 +93,23 @@ pub fn items_summary(d: &ItemData, a: &ItemAnalysis, boot: Option<&OmegaBootstra
         Ok(f) => {
             let ci = boot
                 .map(|b| {
+                    let mut notes = Vec::new();
+                    if b.failed > 0 {
+                        notes.push(format!("{} not fitted", b.failed));
+                    }
+                    if b.heywood > 0 {
+                        notes.push(format!("{} with a Heywood case", b.heywood));
+                    }
+                    if d.missing == Missing::Pairwise {
+                        notes.push("from the complete respondents only".into());
+                    }
+                    let extra = if notes.is_empty() {
+                        String::new()
+                    } else {
+                        format!("; {}", notes.join(", "))
+                    };
                     format!(
-                        "{} (bootstrap, {} replicates)",
+                        "{} (bootstrap, {} replicates{extra})",
                         range(b.interval.0, b.interval.1, c3),
                         b.replicates
                     )
@@ -133,8 +161,9 @@ pub fn items_summary(d: &ItemData, a: &ItemAnalysis, boot: Option<&OmegaBootstra
             };
             let _ = writeln!(
                 o,
-                "    estimation         maximum likelihood; {}",
-                conv(f.congeneric.stop, f.congeneric.iterations)
+                "    estimation         maximum likelihood; free loadings {}; equal loadings {}",
+                conv(f.congeneric.stop, f.congeneric.iterations),
+                conv(f.tau_equivalent.stop, f.tau_equivalent.iterations)
             );
         }
         Err(why) => {
@@ -151,10 +180,20 @@ pub fn items_summary(d: &ItemData, a: &ItemAnalysis, boot: Option<&OmegaBootstra
     for (i, s) in a.item_statistics.iter().enumerate() {
         let name: String = d.names[i].chars().take(20).collect();
         let (ld, sld) = match &a.factor {
-            Ok(f) => (
-                c3(f.congeneric.loadings[i]),
-                c3(f.congeneric.loadings[i] / cov[(i, i)].sqrt()),
-            ),
+            Ok(f) => {
+                let flag = if f.congeneric.heywood.contains(&i) {
+                    " (Heywood)"
+                } else {
+                    ""
+                };
+                (
+                    c3(f.congeneric.loadings[i]),
+                    format!(
+                        "{}{flag}",
+                        c3(f.congeneric.loadings[i] / cov[(i, i)].sqrt())
+                    ),
+                )
+            }
             Err(_) => ("–".into(), "–".into()),
         };
         let _ = writeln!(
@@ -176,6 +215,10 @@ pub fn items_summary(d: &ItemData, a: &ItemAnalysis, boot: Option<&OmegaBootstra
         Recommendation::CheckDimensionality => "neither yet: check the dimensionality",
         Recommendation::AlphaOnly => "alpha (a lower bound)",
         Recommendation::AlphaWithCaution => "alpha, as a lower bound",
+        Recommendation::ReverseKeyFirst => {
+            "none yet: reverse-key the items that run against the others"
+        }
+        Recommendation::NoCommonVariance => "none: the items do not form a scale here",
     };
     let _ = writeln!(o, "Which coefficient to report: {which}");
     o.push_str(&wrap(&format!("{}.", a.reading), 86, "  "));
@@ -547,6 +590,41 @@ pub fn compare_summary(
         fixed(hw.chi2, 3),
         p_value(hw.p)
     );
+    let _ = writeln!(o);
+    let lo = samples
+        .iter()
+        .map(|s| s.alpha)
+        .fold(f64::INFINITY, f64::min);
+    let hi = samples
+        .iter()
+        .map(|s| s.alpha)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let p = feldt.map(|f| f.p).unwrap_or(hw.p);
+    let verdict = if p < 0.05 {
+        "the alphas differ by more than sampling error explains"
+    } else {
+        "the data do not show a difference beyond sampling error (which is not proof that the \
+         alphas are equal)"
+    };
+    o.push_str(&wrap(
+        &format!(
+            "The alphas span {} ({} to {}); at the 5% level {verdict}.",
+            fixed(hi - lo, 3),
+            fixed(lo, 3),
+            fixed(hi, 3)
+        ),
+        86,
+        "  ",
+    ));
+    if samples.windows(2).any(|w| w[0].items != w[1].items) {
+        o.push_str(&wrap(
+            "Note: the samples used forms of different lengths; these tests compare one test \
+             given to different samples, so a difference may reflect the forms rather than the \
+             samples.",
+            86,
+            "  ",
+        ));
+    }
     o
 }
 

@@ -817,7 +817,9 @@ def inference_fixture():
     a1, n1, _ = samples[0]
     a2, n2, _ = samples[1]
     w = (1 - a1) / (1 - a2)
-    upper = stats.f.sf(w, n1 - 1, n2 - 1)
+    # W = (1 - a1)/(1 - a2) behaves like [chi2(n2-1)/(n2-1)] / [chi2(n1-1)/(n1-1)]:
+    # F with (n2 - 1, n1 - 1) degrees of freedom.
+    upper = stats.f.sf(w, n2 - 1, n1 - 1)
     t = np.array([(1 - a) ** (1 / 3) for a, _, _ in samples])
     v = np.array([18 * k * (n - 1) * (1 - a) ** (2 / 3) / ((k - 1) * (9 * n - 11) ** 2)
                   for a, n, k in samples])
