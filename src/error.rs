@@ -100,6 +100,27 @@ impl Error {
         )
     }
 
+    /// Reword an option name inside a message, for when a library routine written for
+    /// one command is reached through another command's options (e.g. the item reader's
+    /// `--items` when the columns came from `--predictor`/`--outcome`).
+    pub fn reword_option(self, from: &str, to: &str) -> Self {
+        match self {
+            Error::InvalidOption(m) => Error::InvalidOption(m.replace(from, to)),
+            Error::CannotAnalyse(m) => Error::CannotAnalyse(m.replace(from, to)),
+            Error::InvalidSheet { file, problems } => Error::InvalidSheet {
+                file,
+                problems: problems
+                    .into_iter()
+                    .map(|mut p| {
+                        p.reason = p.reason.replace(from, to);
+                        p
+                    })
+                    .collect(),
+            },
+            other => other,
+        }
+    }
+
     /// Shorthand for an I/O error with context.
     pub fn io(context: impl Into<String>, source: std::io::Error) -> Self {
         Error::Io {

@@ -114,6 +114,18 @@ pub enum Warning {
     LowerBoundReliability {
         /// Which variable.
         which: String,
+        /// Share of it that is alpha-type (1 for a single value; a benchmark's share).
+        share: f64,
+    },
+    /// The corrected regression is unstable (standardized slopes beyond ±1, or many
+    /// impossible draws).
+    UnstableCorrection,
+    /// Rows of raw data were left out for missing values.
+    RowsWithMissingValues {
+        /// Rows left out.
+        rows: u64,
+        /// Missing cells.
+        cells: u64,
     },
     /// A column counts 1, 2, 3, … like a respondent number.
     IdentifierColumn {
@@ -190,6 +202,8 @@ impl Warning {
             Warning::Inadmissible { .. } => "inadmissible",
             Warning::InadmissibleDraws { .. } => "inadmissible_draws",
             Warning::LowerBoundReliability { .. } => "lower_bound_reliability",
+            Warning::UnstableCorrection => "unstable_correction",
+            Warning::RowsWithMissingValues { .. } => "rows_with_missing_values",
             Warning::NegativeLoading { .. } => "negative_loading",
             Warning::PartFailed { .. } => "part_failed",
             Warning::RowsLeftOutOfModel { .. } => "rows_left_out_of_model",
@@ -312,17 +326,36 @@ impl fmt::Display for Warning {
             ),
             Warning::InadmissibleDraws { share } => write!(
                 f,
-                "{}% of the draws gave an impossible correction (beyond ±1, or an impossible \
-                 true-score matrix): the reliabilities' uncertainty reaches values too low for \
-                 these data, so read the intervals with care",
+                "{}% of the draws gave an impossible correction (beyond ±1, an impossible \
+                 true-score matrix, or a resample that could not be fitted); read the intervals \
+                 with care",
                 crate::report::format::fixed(100.0 * share, 1)
             ),
-            Warning::LowerBoundReliability { which } => write!(
+            Warning::LowerBoundReliability { which, share } => write!(
                 f,
-                "the reliability of {which} is coefficient alpha (or a kin of it), a lower bound \
-                 unless the items are tau-equivalent: the correction is then too large \
+                "the reliability of {which} is {}coefficient alpha (or a kin of it), a lower \
+                 bound unless the items are tau-equivalent: the correction is then too large \
                  (over-correction); if the item data are at hand, relyard items says whether \
-                 omega should be used instead"
+                 omega should be used instead",
+                if *share < 1.0 {
+                    format!(
+                        "in part ({}% of the benchmark's studies) ",
+                        crate::report::format::fixed(100.0 * share, 0)
+                    )
+                } else {
+                    String::new()
+                }
+            ),
+            Warning::UnstableCorrection => write!(
+                f,
+                "the correction is unstable here: with correlated, unreliable predictors it \
+                 amplifies small differences (standardized slopes beyond ±1 or many impossible \
+                 draws); report it as a what-if, not as an estimate"
+            ),
+            Warning::RowsWithMissingValues { rows, cells } => write!(
+                f,
+                "{rows} respondent(s) were left out for {cells} missing value(s) (only complete \
+                 rows are used)"
             ),
             Warning::IdentifierColumn { column } => write!(
                 f,

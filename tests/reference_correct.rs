@@ -260,7 +260,20 @@ fn inadmissible_corrections_are_flagged() {
         "200",
         "--json",
     ]);
-    assert!(j["coefficients"][0]["corrected"].is_null());
+    // No number and no interval around an impossible point correction.
+    for c in j["coefficients"].as_array().unwrap() {
+        for key in [
+            "corrected",
+            "corrected_standardized",
+            "se",
+            "ci",
+            "ci_standardized",
+        ] {
+            assert!(c[key].is_null(), "{key}: {c}");
+        }
+    }
+    assert!(j["r2"]["corrected"].is_null());
+    assert!(j["r2"]["corrected_ci"].is_null());
     assert!(
         j["inadmissible_reason"]
             .as_str()

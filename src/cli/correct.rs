@@ -67,6 +67,11 @@ pub fn run(a: CorrectArgs) -> Result<(), Failure> {
 fn correlation(a: CorrectArgs) -> Result<(), Failure> {
     let n =
         a.n.ok_or_else(|| bad("--r needs --n, the correlation's sample size"))?;
+    if a.draws < 100 {
+        return Err(bad(
+            "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
+        ));
+    }
     let (Some(rx), Some(ry)) = (&a.rel_x, &a.rel_y) else {
         return Err(bad(
             "--r needs --rel-x and --rel-y, the reliabilities of the two scores",
@@ -104,8 +109,11 @@ fn correlation(a: CorrectArgs) -> Result<(), Failure> {
         });
     }
     for (name, r) in [("x", &input.rel_x), ("y", &input.rel_y)] {
-        if r.is_lower_bound() {
-            warnings.push(Warning::LowerBoundReliability { which: name.into() });
+        if let Some(share) = r.lower_bound_share() {
+            warnings.push(Warning::LowerBoundReliability {
+                which: name.into(),
+                share,
+            });
         }
     }
     warn_all(&warnings);
@@ -136,6 +144,21 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
         .ok_or_else(|| bad("a regression needs --outcome"))?;
     if a.predictors.is_empty() {
         return Err(bad("a regression needs at least one --predictor"));
+    }
+    for (i, p) in a.predictors.iter().enumerate() {
+        if a.predictors[..i].contains(p) {
+            return Err(bad(format!("--predictor {p} is given twice")));
+        }
+    }
+    if a.predictors.contains(&outcome) {
+        return Err(bad(format!(
+            "{outcome} is both the outcome and a predictor"
+        )));
+    }
+    if a.draws < 100 {
+        return Err(bad(
+            "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
+        ));
     }
     if a.rel_x.is_some() || a.rel_y.is_some() {
         return Err(bad(
@@ -172,6 +195,7 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
     }
     let mut names = a.predictors.clone();
     names.push(outcome.clone());
+    let mut extra_warnings: Vec<Warning> = Vec::new();
     let input = if let Some(path) = &a.data {
         if a.n.is_some() {
             return Err(bad("--n comes from the data with --data; leave it out"));
@@ -192,7 +216,14 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
                 missing: Missing::Listwise,
                 keep_rows: true,
             },
-        )?;
+        )
+        .map_err(|e| e.reword_option("--items", "--predictor/--outcome"))?;
+        if data.missing_cells > 0 {
+            extra_warnings.push(Warning::RowsWithMissingValues {
+                rows: data.rows_read - data.complete_rows,
+                cells: data.missing_cells,
+            });
+        }
         RegressionInput {
             predictors: a.predictors.clone(),
             outcome: outcome.clone(),
@@ -202,6 +233,21 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
             rel_y,
             rows: data.rows.clone(),
             standardized_only: false,
+            data_note: Some(format!(
+                "{}: {} rows read; {} respondents with every variable used{}",
+                path.display(),
+                data.rows_read,
+                data.complete_rows,
+                if data.missing_cells > 0 {
+                    format!(
+                        " ({} left out for {} missing cell(s))",
+                        data.rows_read - data.complete_rows,
+                        data.missing_cells
+                    )
+                } else {
+                    String::new()
+                }
+            )),
         }
     } else {
         let path = a.summary.as_ref().expect("checked");
@@ -233,8 +279,20 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
             rel_y,
             rows: None,
             standardized_only: s.standardized_only,
+            data_note: None,
         }
     };
+    let variables = input.predictors.len() + 1;
+    if input.n < variables as u64 + 3 {
+        return Err(bad(format!(
+            "n = {} is too small for {} variables: a regression with {} predictor(s) needs at least \
+             {} respondents",
+            input.n,
+            variables,
+            input.predictors.len(),
+            variables + 3
+        )));
+    }
     let pb = bar(
         a.draws,
         if input.rows.is_some() {
@@ -247,7 +305,12 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
         pb.inc(d as u64)
     })?;
     pb.finish_and_clear();
-    let mut warnings = Vec::new();
+    let mut warnings = extra_warnings;
+    if let Ok(k) = &c.estimate.corrected
+        && (k.standardized.iter().any(|s| s.abs() > 1.0) || c.inadmissible_share > 0.2)
+    {
+        warnings.push(Warning::UnstableCorrection);
+    }
     if let Err(why) = &c.estimate.corrected {
         warnings.push(Warning::Inadmissible {
             what: "corrected regression".into(),
@@ -259,10 +322,12 @@ fn regression(a: CorrectArgs) -> Result<(), Failure> {
             share: c.inadmissible_share,
         });
     }
-    for (name, r) in input.predictors.iter().zip(&input.rel) {
-        if r.is_lower_bound() {
+    let outcome_rel = input.rel_y.as_ref().map(|r| (&input.outcome, r));
+    for (name, r) in input.predictors.iter().zip(&input.rel).chain(outcome_rel) {
+        if let Some(share) = r.lower_bound_share() {
             warnings.push(Warning::LowerBoundReliability {
                 which: name.clone(),
+                share,
             });
         }
     }

@@ -1,7 +1,7 @@
 //! Spearman's correction of a correlation for unreliability.
 
 use super::reliability::ReliabilitySource;
-use super::{grid, parallel_draws, percentile_interval, sensitivity_range};
+use super::{parallel_draws, percentile_interval, sensitivity_grid};
 use crate::dist::normal_quantile;
 use crate::error::{Error, Result};
 use crate::random::draw;
@@ -39,14 +39,18 @@ pub struct CorrelationCorrection {
     pub corrected_value: f64,
     /// True when |corrected| ≤ 1.
     pub admissible: bool,
-    /// Fisher-z interval of r, each end corrected the same way (capped at ±1, flagged).
-    pub ci: (f64, f64),
+    /// Fisher-z interval of r, each end corrected the same way (cut at ±1 and flagged;
+    /// `None` when it lies entirely beyond ±1).
+    pub ci: Option<(f64, f64)>,
     /// True when an end of `ci` was capped.
     pub ci_capped: bool,
     /// Monte Carlo percentile interval (r and the reliabilities drawn; draws beyond ±1
     /// counted at ±1).
     pub mc_ci: Option<(f64, f64)>,
-    /// Share of draws beyond ±1 or with a reliability at or below 0.
+    /// True for an end of `mc_ci` that is the bound ±1 itself (more than the tail share of
+    /// draws beyond it): (lower, upper).
+    pub mc_bound: (bool, bool),
+    /// Share of draws beyond ±1 (a reliability at or below 0 counts as beyond).
     pub inadmissible_share: f64,
     /// Draws made.
     pub draws: usize,
@@ -98,40 +102,46 @@ pub fn correct_correlation(
         (zr - z * se).tanh() / attenuation,
         (zr + z * se).tanh() / attenuation,
     );
+    // An interval entirely beyond ±1 is no interval at all; one end beyond is cut there.
+    let ci = if lo > 1.0 || hi < -1.0 {
+        None
+    } else {
+        Some((lo.max(-1.0), hi.min(1.0)))
+    };
     let ci_capped = lo < -1.0 || hi > 1.0;
-    let ci = (lo.max(-1.0), hi.min(1.0));
 
-    let results: Vec<Option<f64>> = parallel_draws(draws, seed, progress, |rng| {
+    let results: Vec<f64> = parallel_draws(draws, seed, progress, |rng| {
         let r = (zr + se * draw::normal(rng)).tanh();
         let (a, b) = (input.rel_x.draw(rng), input.rel_y.draw(rng));
+        // A reliability at or below 0 makes the correction unbounded: beyond ±1 too.
         if a <= 0.0 || b <= 0.0 {
-            return None;
+            return r.signum() * f64::INFINITY;
         }
-        Some(r / (a * b).sqrt())
+        r / (a * b).sqrt()
     });
     let mut values: Vec<f64> = Vec::with_capacity(draws);
-    let mut inadmissible = 0usize;
-    for v in results {
-        match v {
-            Some(x) if x.abs() <= 1.0 => values.push(x),
-            Some(x) => {
-                inadmissible += 1;
-                values.push(x.signum());
-            }
-            None => inadmissible += 1,
+    let (mut below, mut above) = (0usize, 0usize);
+    for x in results {
+        if x > 1.0 {
+            above += 1;
+            values.push(1.0);
+        } else if x < -1.0 {
+            below += 1;
+            values.push(-1.0);
+        } else {
+            values.push(x);
         }
     }
-    let mc_ci = if draws > 0 {
-        percentile_interval(&mut values, level)
-    } else {
-        None
-    };
+    let inadmissible = below + above;
+    // Draws beyond a bound sit at the bound; when more than the tail share of draws is
+    // there, that end of the interval is the bound itself.
+    let tail = (1.0 - level) / 2.0 * draws as f64;
+    let mc_ci = percentile_interval(&mut values, level);
+    let mc_bound = (below as f64 > tail, above as f64 > tail);
 
-    let (xl, xh) = sensitivity_range(&input.rel_x, level);
-    let (yl, yh) = sensitivity_range(&input.rel_y, level);
     let mut sensitivity = Vec::new();
-    for a in grid(xl, xh, grid_points) {
-        for b in grid(yl, yh, grid_points) {
+    for a in sensitivity_grid(&input.rel_x, level, grid_points) {
+        for b in sensitivity_grid(&input.rel_y, level, grid_points) {
             let c = input.r / (a * b).sqrt();
             sensitivity.push(SensitivityCell {
                 rel_x: a,
@@ -147,6 +157,7 @@ pub fn correct_correlation(
         ci,
         ci_capped,
         mc_ci,
+        mc_bound,
         inadmissible_share: if draws > 0 {
             inadmissible as f64 / draws as f64
         } else {

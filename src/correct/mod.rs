@@ -64,6 +64,22 @@ pub(crate) fn grid(lo: f64, hi: f64, points: usize) -> Vec<f64> {
         .collect()
 }
 
+/// The grid of a reliability's values for a sensitivity table: over its range, with its
+/// own value included; a value of 1 (no measurement error) stays fixed.
+pub fn sensitivity_grid(r: &ReliabilitySource, level: f64, points: usize) -> Vec<f64> {
+    let v = r.point();
+    if matches!(r, ReliabilitySource::Point { .. }) && v >= 1.0 {
+        return vec![1.0];
+    }
+    let (lo, hi) = sensitivity_range(r, level);
+    let mut g = grid(lo, hi, points);
+    if !g.iter().any(|x| (x - v).abs() < 1e-9) {
+        g.push(v);
+        g.sort_by(|a, b| a.total_cmp(b));
+    }
+    g
+}
+
 /// The range a sensitivity grid spans for a reliability: its interval at `level` when it
 /// has one (the benchmark's prediction interval, an estimate's interval), else the value
 /// ± 0.10, within 0.05 to 0.99.

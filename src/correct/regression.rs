@@ -2,7 +2,7 @@
 //! predictors were measured without error.
 
 use super::reliability::ReliabilitySource;
-use super::{grid, parallel_draws, percentile_interval, sensitivity_range};
+use super::{parallel_draws, percentile_interval, sensitivity_grid};
 use crate::error::{Error, Result};
 use crate::items::moments::Listwise;
 use crate::random::draw;
@@ -28,6 +28,8 @@ pub struct RegressionInput {
     pub rows: Option<Vec<f64>>,
     /// True when only correlations are known (slopes are then standardized).
     pub standardized_only: bool,
+    /// What happened to the raw data's rows (e.g. respondents left out for missing values).
+    pub data_note: Option<String>,
 }
 
 /// One fit of the model.
@@ -140,6 +142,9 @@ pub struct RegressionCorrection {
     pub r2_spread: Option<Spread>,
     /// Share of draws without an admissible correction.
     pub inadmissible_share: f64,
+    /// False when the corrected intervals are left out: the point correction is impossible,
+    /// or more than the tail share (1 − level)/2 of the draws was.
+    pub intervals_determined: bool,
     /// "bootstrap" (raw data) or "monte-carlo" (summary).
     pub method: &'static str,
     /// Draws.
@@ -196,6 +201,13 @@ pub fn correct_regression(
             }
             None => draw::sample_covariance(rng, chol.as_ref()?, n),
         };
+        // With correlations only, each draw is refitted as a correlation matrix, like the
+        // point estimate.
+        let cov = if input.standardized_only {
+            crate::items::alpha::correlation(&cov)
+        } else {
+            cov
+        };
         let rel: Vec<f64> = input.rel.iter().map(|r| r.draw(rng)).collect();
         let ry = input.rel_y.as_ref().map(|r| r.draw(rng)).unwrap_or(1.0);
         eiv(&cov, &rel, ry).ok()
@@ -228,8 +240,7 @@ pub fn correct_regression(
     }
     let mut sensitivity = Vec::with_capacity(p);
     for j in 0..p {
-        let (lo, hi) = sensitivity_range(&input.rel[j], level);
-        let row = grid(lo, hi, grid_points)
+        let row = sensitivity_grid(&input.rel[j], level, grid_points)
             .into_iter()
             .map(|g| {
                 let mut rel = rel_point.clone();
@@ -243,17 +254,33 @@ pub fn correct_regression(
             .collect();
         sensitivity.push(row);
     }
+    // Intervals for the correction only when the point correction is possible and no more
+    // than the tail share of draws was impossible (else the interval's ends are not
+    // determined by the admissible draws).
+    let tail = (1.0 - level) / 2.0;
+    let share = if draws > 0 {
+        inadmissible as f64 / draws as f64
+    } else {
+        0.0
+    };
+    let determined = estimate.corrected.is_ok() && share <= tail;
+    let spreads = |v: &mut Vec<Vec<f64>>| -> Vec<Option<Spread>> {
+        v.iter_mut()
+            .map(|x| if determined { spread(x, level) } else { None })
+            .collect()
+    };
     Ok(RegressionCorrection {
-        estimate,
         ols_spread: ols.iter_mut().map(|v| spread(v, level)).collect(),
-        corrected_spread: corr.iter_mut().map(|v| spread(v, level)).collect(),
-        corrected_standardized_spread: corr_std.iter_mut().map(|v| spread(v, level)).collect(),
-        r2_spread: spread(&mut r2, level),
-        inadmissible_share: if draws > 0 {
-            inadmissible as f64 / draws as f64
+        corrected_spread: spreads(&mut corr),
+        corrected_standardized_spread: spreads(&mut corr_std),
+        r2_spread: if determined {
+            spread(&mut r2, level)
         } else {
-            0.0
+            None
         },
+        intervals_determined: determined,
+        estimate,
+        inadmissible_share: share,
         method: if input.rows.is_some() {
             "bootstrap"
         } else {

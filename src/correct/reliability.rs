@@ -8,7 +8,7 @@ use crate::metareg::{ModeratorSpec, build_design};
 use crate::pool::{FitOptions, MetaData, fit_model};
 use crate::random::draw;
 use crate::sheet::{SheetOptions, read_coding_sheet};
-use crate::transform::{CoefficientFamily, TransformKind, Transformed};
+use crate::transform::{TransformKind, Transformed};
 use rand::Rng;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
@@ -74,20 +74,27 @@ impl ReliabilitySpec {
             match key.trim() {
                 "n" => n = Some(v.trim().parse::<u64>().map_err(|_| usage())?),
                 "items" | "k" => items = Some(v.trim().parse::<u32>().map_err(|_| usage())?),
-                "kind" => kind = Some(v.trim().to_ascii_lowercase()),
+                "kind" => {
+                    let t = crate::sheet::CoefType::parse_cell(v).ok_or_else(|| {
+                        format!(
+                            "kind={}: not a coefficient type (alpha, alpha_std, kr20, omega, \
+                             retest, interrater, split_half)",
+                            v.trim()
+                        )
+                    })?;
+                    kind = Some(t.name().to_string());
+                }
                 _ => return Err(usage()),
             }
         }
         // 1 is allowed for a fixed value: a variable measured without error.
-        let upper_ok = if n.is_none() && items.is_none() {
-            value <= 1.0
-        } else {
-            value < 1.0
-        };
-        if !(value.is_finite() && value > 0.0 && upper_ok) {
+        if !(value.is_finite() && value > 0.0 && value <= 1.0) {
             return Err(format!(
                 "a reliability must lie above 0 and at most 1 (got {value})"
             ));
+        }
+        if (n.is_some() || items.is_some()) && value >= 1.0 {
+            return Err("an estimate with its sample must lie below 1".into());
         }
         match (n, items) {
             (None, None) => Ok(ReliabilitySpec::Point { value, kind }),
@@ -139,8 +146,8 @@ pub enum ReliabilitySource {
         df: f64,
         /// Studies behind it.
         k: usize,
-        /// True when the benchmark pools lower-bound coefficients (alpha and its kin).
-        lower_bound: bool,
+        /// Share of the pooled coefficients that are lower bounds (alpha and its kin).
+        lower_bound_share: f64,
     },
 }
 
@@ -164,9 +171,8 @@ impl ReliabilitySource {
             ReliabilitySource::Estimate {
                 value, n, items, ..
             } => {
-                let k = f64::from(*items);
-                let sd = (2.0 * k / ((k - 1.0) * (*n as f64 - 2.0))).sqrt();
-                -((-value).ln_1p() + sd * draw::normal(rng)).exp_m1()
+                let (centre, sd) = bonett_centre(*value, *n, *items);
+                -(centre + sd * draw::normal(rng)).exp_m1()
             }
             ReliabilitySource::Benchmark {
                 transform,
@@ -186,10 +192,8 @@ impl ReliabilitySource {
             ReliabilitySource::Estimate {
                 value, n, items, ..
             } => {
-                let k = f64::from(*items);
-                let sd = (2.0 * k / ((k - 1.0) * (*n as f64 - 2.0))).sqrt();
+                let (t, sd) = bonett_centre(*value, *n, *items);
                 let z = crate::dist::normal_quantile(1.0 - a / 2.0);
-                let t = (-value).ln_1p();
                 Some(ordered(-(t + z * sd).exp_m1(), -(t - z * sd).exp_m1()))
             }
             ReliabilitySource::Benchmark {
@@ -208,19 +212,23 @@ impl ReliabilitySource {
         }
     }
 
-    /// True when the reliability is (or pools) coefficient alpha or its kin, a lower bound
-    /// to reliability unless the items are tau-equivalent.
-    pub fn is_lower_bound(&self) -> bool {
-        let alpha_kind = |k: &Option<String>| {
-            k.as_deref()
-                .is_some_and(|k| matches!(k, "alpha" | "alpha_std" | "kr20" | "split_half"))
-        };
-        match self {
+    /// The share (0–1) of the reliability that is coefficient alpha or its kin, a lower
+    /// bound to reliability unless the items are tau-equivalent: 1 for a value marked
+    /// kind=alpha, the share of such coefficients in a benchmark; `None` when none is.
+    pub fn lower_bound_share(&self) -> Option<f64> {
+        let share = match self {
             ReliabilitySource::Point { kind, .. } | ReliabilitySource::Estimate { kind, .. } => {
-                alpha_kind(kind)
+                if kind.as_deref().is_some_and(is_lower_bound_kind) {
+                    1.0
+                } else {
+                    0.0
+                }
             }
-            ReliabilitySource::Benchmark { lower_bound, .. } => *lower_bound,
-        }
+            ReliabilitySource::Benchmark {
+                lower_bound_share, ..
+            } => *lower_bound_share,
+        };
+        (share > 0.0).then_some(share)
     }
 
     /// A description for reports.
@@ -238,6 +246,21 @@ impl ReliabilitySource {
             }
         }
     }
+}
+
+/// Bonett's (2002) centre and SD for the true ln(1 − ρ) given an estimate:
+/// ln(1 − ρ̂) − ln(n/(n − 1)) and √(2k/((k − 1)(n − 2))).
+fn bonett_centre(value: f64, n: u64, items: u32) -> (f64, f64) {
+    let (nf, k) = (n as f64, f64::from(items));
+    (
+        (-value).ln_1p() - (nf / (nf - 1.0)).ln(),
+        (2.0 * k / ((k - 1.0) * (nf - 2.0))).sqrt(),
+    )
+}
+
+/// Coefficients that are lower bounds to reliability unless the items are tau-equivalent.
+fn is_lower_bound_kind(kind: &str) -> bool {
+    matches!(kind, "alpha" | "alpha_std" | "kr20" | "split_half")
 }
 
 fn ordered(a: f64, b: f64) -> (f64, f64) {
@@ -310,10 +333,12 @@ pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<Reliabili
             } else {
                 format!("{} at {}", path.display(), at_text.join(", "))
             };
-            let lower_bound = p.records.iter().all(|r| {
-                r.coef_type.family() == CoefficientFamily::InternalConsistency
-                    && !matches!(r.coef_type, crate::sheet::CoefType::Omega)
-            });
+            let lower = p
+                .records
+                .iter()
+                .filter(|r| is_lower_bound_kind(r.coef_type.name()))
+                .count();
+            let lower_bound_share = lower as f64 / p.records.len() as f64;
             Ok(ReliabilitySource::Benchmark {
                 label,
                 transform: p.transform,
@@ -321,7 +346,7 @@ pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<Reliabili
                 scale: (fit.tau2.tau2 + var).sqrt(),
                 df: (fit.k - fit.p - 1) as f64,
                 k: fit.k,
-                lower_bound,
+                lower_bound_share,
             })
         }
     }

@@ -125,8 +125,9 @@ impl Design {
             };
             match m {
                 Moderator::Numeric { name, column } => {
-                    row[*column] = parse_number(text, decimal_comma)
-                        .map_err(|e| Error::InvalidOption(format!("--at {name}={text}: {e}")))?;
+                    row[*column] = parse_number(text, decimal_comma).map_err(|e| {
+                        Error::InvalidOption(format!("the value given for moderator {name}: {e}"))
+                    })?;
                 }
                 Moderator::Categorical {
                     name,
@@ -140,8 +141,8 @@ impl Design {
                             let mut all = vec![reference.clone()];
                             all.extend(levels.iter().map(|(l, _)| l.clone()));
                             return Err(Error::InvalidOption(format!(
-                                "--at {name}={t}: no study in the model has this level, so the \
-                                 model says nothing about it (levels: {})",
+                                "the level {t} given for moderator {name}: no study in the model has this \
+                                 level, so the model says nothing about it (levels: {})",
                                 all.join(", ")
                             )));
                         };

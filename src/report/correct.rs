@@ -63,10 +63,15 @@ pub struct CorrelationDocument {
     pub corrected: Option<f64>,
     /// r/√(r_xx r_yy), whatever its size.
     pub corrected_value: f64,
-    /// Classical interval.
-    pub ci: [f64; 2],
+    /// Classical interval (null when it lies entirely beyond ±1).
+    pub ci: Option<[f64; 2]>,
+    /// True when an end of `ci` was cut at ±1.
+    pub ci_capped: bool,
     /// Monte Carlo interval.
     pub mc_ci: Option<[f64; 2]>,
+    /// For each end of `mc_ci`, true when it is the bound ±1 itself (more draws beyond it
+    /// than the tail share).
+    pub mc_ci_at_bound: [bool; 2],
     /// Share of draws with an impossible correction.
     pub inadmissible_share: f64,
     /// Draws.
@@ -112,8 +117,10 @@ impl CorrelationDocument {
             observed: c.observed,
             corrected: c.admissible.then_some(c.corrected_value),
             corrected_value: c.corrected_value,
-            ci: [c.ci.0, c.ci.1],
+            ci: c.ci.map(|(a, b)| [a, b]),
+            ci_capped: c.ci_capped,
             mc_ci: c.mc_ci.map(|(a, b)| [a, b]),
+            mc_ci_at_bound: [c.mc_bound.0, c.mc_bound.1],
             inadmissible_share: c.inadmissible_share,
             draws: c.draws,
             seed: c.seed,
@@ -173,26 +180,47 @@ pub fn correlation_summary(
             c3(c.corrected_value)
         );
     }
-    let _ = writeln!(
-        o,
-        "  {:<26}{}   Fisher-z interval of r, corrected{}",
-        format!("{lv} CI (classical)"),
-        range(c.ci.0, c.ci.1, c3),
-        if c.ci_capped {
-            "; an end was cut at ±1"
+    let bound = |x: f64, at: bool| {
+        if at {
+            format!("{} (bound)", c3(x))
         } else {
-            ""
+            c3(x)
         }
-    );
+    };
+    match c.ci {
+        Some((a, b)) => {
+            let _ = writeln!(
+                o,
+                "  {:<26}{} to {}   Fisher-z interval of r, corrected",
+                format!("{lv} CI (classical)"),
+                bound(a, c.ci_capped && a <= -1.0),
+                bound(b, c.ci_capped && b >= 1.0)
+            );
+        }
+        None => {
+            let _ = writeln!(
+                o,
+                "  {:<26}none: the whole corrected interval lies beyond ±1",
+                format!("{lv} CI (classical)")
+            );
+        }
+    }
     if let Some((a, b)) = c.mc_ci {
         let _ = writeln!(
             o,
-            "  {:<26}{}   {} draws of r and the reliabilities, seed {}; {}% beyond ±1",
+            "  {:<26}{} to {}   {} draws of r and the reliabilities, seed {}; {}% beyond ±1",
             format!("{lv} CI (Monte Carlo)"),
-            range(a, b, c3),
+            bound(a, c.mc_bound.0),
+            bound(b, c.mc_bound.1),
             thousands(c.draws as u64),
             c.seed,
             fixed(100.0 * c.inadmissible_share, 1)
+        );
+    }
+    if c.mc_bound.0 || c.mc_bound.1 || (c.ci_capped) {
+        let _ = writeln!(
+            o,
+            "  (bound): the end is ±1 itself — the data do not limit the corrected correlation there"
         );
     }
     let _ = writeln!(o);
@@ -416,6 +444,9 @@ pub fn regression_summary(input: &RegressionInput, c: &RegressionCorrection, lev
         input.outcome
     );
     let _ = writeln!(o, "{}", "─".repeat(72));
+    if let Some(note) = &input.data_note {
+        let _ = writeln!(o, "  {note}");
+    }
     let _ = writeln!(
         o,
         "  n = {}; intervals from {} {} (seed {}){}",
@@ -440,41 +471,74 @@ pub fn regression_summary(input: &RegressionInput, c: &RegressionCorrection, lev
         let _ = writeln!(o, "  reliability of {:<16}{}", input.outcome, ry.describe());
     }
     let _ = writeln!(o);
+    let corr = e.corrected.as_ref().ok();
+    let interval = |s: Option<crate::correct::regression::Spread>| {
+        s.map(|s| range(s.ci.0, s.ci.1, c3))
+            .unwrap_or_else(|| "not determined".into())
+    };
+    let _ = writeln!(o, "  Slopes");
     let _ = writeln!(
         o,
-        "  {:<18} {:>9} {:>20} {:>10} {:>20} {:>10}",
+        "  {:<18} {:>9} {:>20} {:>10} {:>20} {:>8}",
         "predictor",
         "OLS",
         format!("{lv} CI"),
         "corrected",
         format!("{lv} CI"),
-        "std. corr."
+        "SE"
     );
-    let corr = e.corrected.as_ref().ok();
     for (j, name) in input.predictors.iter().enumerate() {
         let short: String = name.chars().take(18).collect();
-        let ols_ci = c.ols_spread[j]
-            .map(|s| range(s.ci.0, s.ci.1, c3))
-            .unwrap_or_default();
-        let (cv, cci, cs) = match corr {
+        let (cv, cci, se) = match corr {
             Some(k) => (
                 c3(k.slopes[j]),
+                interval(c.corrected_spread[j]),
                 c.corrected_spread[j]
-                    .map(|s| range(s.ci.0, s.ci.1, c3))
-                    .unwrap_or_default(),
-                c3(k.standardized[j]),
+                    .map(|s| c3(s.se))
+                    .unwrap_or_else(|| "–".into()),
             ),
             None => ("impossible".into(), String::new(), String::new()),
         };
         let _ = writeln!(
             o,
-            "  {:<18} {:>9} {:>20} {:>10} {:>20} {:>10}",
+            "  {:<18} {:>9} {:>20} {:>10} {:>20} {:>8}",
             short,
             c3(e.ols[j]),
-            ols_ci,
+            interval(c.ols_spread[j]),
             cv,
             cci,
-            cs
+            se
+        );
+    }
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "  Standardized slopes (corrected: on the true-score SDs)"
+    );
+    let _ = writeln!(
+        o,
+        "  {:<18} {:>9} {:>10} {:>20}",
+        "predictor",
+        "OLS",
+        "corrected",
+        format!("{lv} CI")
+    );
+    for (j, name) in input.predictors.iter().enumerate() {
+        let short: String = name.chars().take(18).collect();
+        let (cs, ci) = match corr {
+            Some(k) => (
+                c3(k.standardized[j]),
+                interval(c.corrected_standardized_spread[j]),
+            ),
+            None => ("impossible".into(), String::new()),
+        };
+        let _ = writeln!(
+            o,
+            "  {:<18} {:>9} {:>10} {:>20}",
+            short,
+            c3(e.ols_standardized[j]),
+            cs,
+            ci
         );
     }
     let _ = writeln!(o);
@@ -494,9 +558,36 @@ pub fn regression_summary(input: &RegressionInput, c: &RegressionCorrection, lev
     if c.inadmissible_share > 0.0 {
         let _ = writeln!(
             o,
-            "  {}% of the draws gave an impossible correction and are left out of the intervals.",
-            fixed(100.0 * c.inadmissible_share, 1)
+            "  {}% of the draws gave an impossible correction{}.",
+            fixed(100.0 * c.inadmissible_share, 1),
+            if c.intervals_determined {
+                "; they are left out of the intervals"
+            } else {
+                " — more than the intervals' tail share, so the corrected intervals are not determined"
+            }
         );
+    }
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "  Corrected slopes as one predictor's reliability varies (others at their values)"
+    );
+    for (j, name) in input.predictors.iter().enumerate() {
+        let row: Vec<String> = c.sensitivity[j]
+            .iter()
+            .map(|(r, slopes)| {
+                let v = slopes
+                    .as_ref()
+                    .map(|s| c3(s[j]))
+                    .unwrap_or_else(|| "–".into());
+                format!("{}→{v}", fixed(*r, 2))
+            })
+            .collect();
+        o.push_str(&super::format::wrap(
+            &format!("{name}: {}", row.join("  ")),
+            86,
+            "    ",
+        ));
     }
     let _ = writeln!(o);
     o.push_str(&super::format::wrap(SEM_NOTE, 86, "  "));
