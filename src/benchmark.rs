@@ -165,7 +165,7 @@ impl Prepared {
 ///
 /// Fails, listing every problem, unless `skip_invalid` is set; fails also when fewer than
 /// two studies remain.
-pub fn prepare(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepared> {
+pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepared> {
     let mut warnings = Vec::new();
     let (transform, transform_chosen) = choose_transform(&sheet, options, &mut warnings)?;
     let tr = transform.get();
@@ -198,21 +198,22 @@ pub fn prepare(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepare
 
     // Check every parsed row against the transform.
     let mut problems = sheet.problems.clone();
-    let mut usable = Vec::new();
+    let mut usable = Vec::with_capacity(sheet.records.len());
     let role_of = |f: InputField| match f {
         InputField::Coef => Role::Coef,
         InputField::N => Role::N,
         InputField::Items => Role::Items,
         InputField::Var => Role::Var,
     };
-    for rec in &sheet.records {
-        let unmet = tr.check(&study_input(rec));
-        if unmet.is_empty() {
-            usable.push(rec.clone());
-        }
-        for u in unmet {
+    let records = std::mem::take(&mut sheet.records);
+    for rec in records {
+        let unmet = tr.check(&study_input(&rec));
+        for u in &unmet {
             let label = sheet.column_label(role_of(u.field));
-            problems.push(CellProblem::cell(rec.row, label, u.reason));
+            problems.push(CellProblem::cell(rec.row, label, u.reason.clone()));
+        }
+        if unmet.is_empty() {
+            usable.push(rec);
         }
     }
     // Rows that did not parse: check what could be read, so that every problem of the
@@ -512,14 +513,22 @@ fn sheet_warnings(
             });
         }
     }
-    let mut by_label: BTreeMap<&str, Vec<usize>> = BTreeMap::new();
+    // First row of each label; rows of the labels seen more than once.
+    let mut first: std::collections::HashMap<&str, usize> =
+        std::collections::HashMap::with_capacity(usable.len());
+    let mut repeated: BTreeMap<&str, Vec<usize>> = BTreeMap::new();
     for r in usable.iter().filter(|r| r.label_given) {
-        by_label.entry(r.label.as_str()).or_default().push(r.row);
+        match first.entry(r.label.as_str()) {
+            std::collections::hash_map::Entry::Vacant(e) => {
+                e.insert(r.row);
+            }
+            std::collections::hash_map::Entry::Occupied(e) => repeated
+                .entry(r.label.as_str())
+                .or_insert_with(|| vec![*e.get()])
+                .push(r.row),
+        }
     }
-    let mut dups: Vec<(&str, Vec<usize>)> = by_label
-        .into_iter()
-        .filter(|(_, rows)| rows.len() > 1)
-        .collect();
+    let mut dups: Vec<(&str, Vec<usize>)> = repeated.into_iter().collect();
     dups.sort_by_key(|(_, rows)| rows[0]);
     for (label, rows) in dups {
         warnings.push(Warning::DuplicateLabel {

@@ -40,11 +40,11 @@ pub mod draw {
     use nalgebra::DMatrix;
     use rand::{Rng, RngExt};
 
-    /// A standard normal draw (Box–Muller; one of the pair is used).
+    /// A standard normal draw (the ziggurat method of `rand_distr`; Marsaglia & Tsang
+    /// 2000, The ziggurat method for generating random variables, Journal of Statistical
+    /// Software 5(8)).
     pub fn normal<R: Rng>(rng: &mut R) -> f64 {
-        let u1: f64 = 1.0 - rng.random::<f64>();
-        let u2: f64 = rng.random::<f64>();
-        (-2.0 * u1.ln()).sqrt() * (2.0 * std::f64::consts::PI * u2).cos()
+        rng.sample(rand_distr::StandardNormal)
     }
 
     /// A Gamma(shape, 1) draw (Marsaglia & Tsang 2000; shape < 1 by the boost

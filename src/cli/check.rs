@@ -1,7 +1,7 @@
 //! `relyard check`: place a new study against the benchmark.
 
 use super::config::{CheckConfig, fit_options};
-use super::output::{Failure, print, warn_all};
+use super::output::{Failure, print, print_json, warn_all};
 use relyard::benchmark::prepare;
 use relyard::placement::place;
 use relyard::report::check::{CheckDocument, check_paragraph, check_summary};
@@ -23,10 +23,7 @@ pub fn run(c: &CheckConfig) -> Result<(), Failure> {
     warn_all(&pl.warnings);
     if c.json {
         let doc = CheckDocument::new(&prepared, &pl, &paragraph, &pl.warnings);
-        let mut text = serde_json::to_string_pretty(&doc)
-            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
-        text.push('\n');
-        print(&text)
+        print_json(&doc)
     } else {
         print(&check_summary(&prepared, &pl, &paragraph))
     }

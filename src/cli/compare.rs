@@ -1,7 +1,7 @@
 //! `relyard compare`: tests of equality for independent alphas.
 
 use super::args::CompareArgs;
-use super::output::{Failure, print};
+use super::output::{Failure, print, print_json};
 use relyard::Error;
 use relyard::compare::{AlphaSample, feldt_two_sample, hakstian_whalen_test};
 use relyard::report::items::{CompareDocument, compare_summary};
@@ -89,10 +89,7 @@ pub fn run(a: CompareArgs) -> Result<(), Failure> {
     };
     if a.json {
         let doc = CompareDocument::new(&samples, feldt.as_ref(), &hw);
-        let mut text = serde_json::to_string_pretty(&doc)
-            .map_err(|e| Error::Numerical(format!("could not write JSON: {e}")))?;
-        text.push('\n');
-        print(&text)
+        print_json(&doc)
     } else {
         print(&compare_summary(&samples, feldt.as_ref(), &hw))
     }

@@ -1,7 +1,7 @@
 //! `relyard correct`: what-if correction for measurement error.
 
 use super::args::CorrectArgs;
-use super::output::{Failure, print, warn_all};
+use super::output::{Failure, print, print_json, warn_all};
 use super::progress::bar;
 use relyard::correct::correlation::{CorrelationInput, correct_correlation};
 use relyard::correct::regression::{RegressionInput, correct_regression};
@@ -35,10 +35,7 @@ fn source(option: &str, spec: &str, level: f64) -> Result<ReliabilitySource, Fai
 }
 
 fn emit<T: serde::Serialize>(doc: &T) -> Result<(), Failure> {
-    let mut text = serde_json::to_string_pretty(doc)
-        .map_err(|e| Error::Numerical(format!("could not write JSON: {e}")))?;
-    text.push('\n');
-    print(&text)
+    print_json(doc)
 }
 
 pub fn run(a: CorrectArgs) -> Result<(), Failure> {

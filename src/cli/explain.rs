@@ -1,7 +1,7 @@
 //! `relyard explain`: moderators, score spread, subgroups and influence.
 
 use super::config::{ExplainConfig, fit_options};
-use super::output::{Failure, print, warn_all};
+use super::output::{Failure, print, print_json, warn_all};
 use super::progress::bar;
 use relyard::benchmark::prepare;
 use relyard::metareg::influence::influence;
@@ -85,10 +85,7 @@ pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
     };
     if c.json {
         let doc = ExplainDocument::new(&parts);
-        let mut text = serde_json::to_string_pretty(&doc)
-            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
-        text.push('\n');
-        print(&text)
+        print_json(&doc)
     } else {
         print(&explain_summary(&parts))
     }

@@ -1,7 +1,7 @@
 //! `relyard items`: reliability from raw item data.
 
 use super::config::ItemsConfig;
-use super::output::{Failure, print, warn_all};
+use super::output::{Failure, print, print_json, warn_all};
 use super::progress::bar;
 use relyard::items::bootstrap::bootstrap_omega;
 use relyard::items::{analyze, read_items};
@@ -33,10 +33,7 @@ pub fn run(c: &ItemsConfig) -> Result<(), Failure> {
     if c.json {
         let mut doc = ItemsDocument::new(&data, &analysis, boot.as_ref());
         doc.warnings = relyard::report::items::warning_records(&warnings);
-        let mut text = serde_json::to_string_pretty(&doc)
-            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
-        text.push('\n');
-        print(&text)
+        print_json(&doc)
     } else {
         print(&items_summary(&data, &analysis, boot.as_ref()))
     }

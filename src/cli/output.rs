@@ -35,6 +35,20 @@ pub fn print(text: &str) -> Result<(), Failure> {
         })
 }
 
+/// Write a JSON document to stdout in relyard's layout (see `relyard::report::layout`),
+/// streamed through a buffer rather than built in memory first.
+pub fn print_json<T: serde::Serialize + ?Sized>(doc: &T) -> Result<(), Failure> {
+    let stdout = io::stdout();
+    let w = io::BufWriter::with_capacity(1 << 16, stdout.lock());
+    relyard::report::layout::write_json(w, doc).map_err(|e| {
+        if e.kind() == io::ErrorKind::BrokenPipe {
+            Failure::ClosedPipe
+        } else {
+            Failure::Lib(Error::io("writing to standard output", e))
+        }
+    })
+}
+
 /// Print warnings to stderr, one per line.
 pub fn warn_all(warnings: &[Warning]) {
     let stderr = io::stderr();

@@ -1,7 +1,7 @@
 //! `relyard plan`: sample sizes for coefficient alpha.
 
 use super::args::PlanArgs;
-use super::output::{Failure, print};
+use super::output::{Failure, print, print_json};
 use relyard::Error;
 use relyard::plan::{n_for_test, n_for_width};
 use relyard::report::items::{PlanDocument, plan_summary};
@@ -57,10 +57,7 @@ pub fn run(a: PlanArgs) -> Result<(), Failure> {
             n_exact: size.exact,
             inputs: inputs.iter().copied().collect::<BTreeMap<_, _>>(),
         };
-        let mut text = serde_json::to_string_pretty(&doc)
-            .map_err(|e| Error::Numerical(format!("could not write JSON: {e}")))?;
-        text.push('\n');
-        print(&text)
+        print_json(&doc)
     } else {
         let shown: Vec<(&str, String)> = inputs.iter().map(|(k, v)| (*k, format!("{v}"))).collect();
         let title = if goal == "width" {

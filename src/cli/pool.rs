@@ -1,7 +1,7 @@
 //! `relyard pool`: coding sheet in, benchmark out.
 
 use super::config::PoolConfig;
-use super::output::{Failure, print, warn_all};
+use super::output::{Failure, print, print_json, warn_all};
 use relyard::benchmark::build;
 use relyard::report::json::PoolDocument;
 use relyard::report::paragraph::benchmark_paragraph;
@@ -15,10 +15,7 @@ pub fn run(c: &PoolConfig) -> Result<(), Failure> {
     warn_all(&b.warnings);
     if c.json {
         let doc = PoolDocument::new(&b, &paragraph, &b.warnings);
-        let mut text = serde_json::to_string_pretty(&doc)
-            .map_err(|e| relyard::Error::Numerical(format!("could not write JSON: {e}")))?;
-        text.push('\n');
-        print(&text)
+        print_json(&doc)
     } else {
         print(&benchmark_summary(&b, &paragraph, c.show_studies))
     }

@@ -1,10 +1,11 @@
 //! Spearman's correction of a correlation for unreliability.
 
 use super::reliability::ReliabilitySource;
-use super::{parallel_draws, percentile_interval, sensitivity_grid};
+use super::{parallel_fill, percentile_interval, sensitivity_grid};
 use crate::dist::normal_quantile;
 use crate::error::{Error, Result};
 use crate::random::draw;
+use rayon::prelude::*;
 
 /// A correlation and the reliabilities of its two scores.
 #[derive(Debug, Clone)]
@@ -110,28 +111,32 @@ pub fn correct_correlation(
     };
     let ci_capped = lo < -1.0 || hi > 1.0;
 
-    let results: Vec<f64> = parallel_draws(draws, seed, progress, |rng| {
+    let (sx, sy) = (input.rel_x.sampler(), input.rel_y.sampler());
+    let mut values = vec![0.0; draws];
+    parallel_fill(&mut values, seed, progress, |rng| {
         let r = (zr + se * draw::normal(rng)).tanh();
-        let (a, b) = (input.rel_x.draw(rng), input.rel_y.draw(rng));
+        let (a, b) = (sx.draw(rng), sy.draw(rng));
         // A reliability at or below 0 makes the correction unbounded: beyond ±1 too.
         if a <= 0.0 || b <= 0.0 {
             return r.signum() * f64::INFINITY;
         }
         r / (a * b).sqrt()
     });
-    let mut values: Vec<f64> = Vec::with_capacity(draws);
-    let (mut below, mut above) = (0usize, 0usize);
-    for x in results {
-        if x > 1.0 {
-            above += 1;
-            values.push(1.0);
-        } else if x < -1.0 {
-            below += 1;
-            values.push(-1.0);
-        } else {
-            values.push(x);
-        }
-    }
+    // Draws beyond ±1 are counted and set at the bound.
+    let (below, above) = values
+        .par_iter_mut()
+        .map(|x| {
+            if *x > 1.0 {
+                *x = 1.0;
+                (0, 1)
+            } else if *x < -1.0 {
+                *x = -1.0;
+                (1, 0)
+            } else {
+                (0, 0)
+            }
+        })
+        .reduce(|| (0usize, 0usize), |a, b| (a.0 + b.0, a.1 + b.1));
     let inadmissible = below + above;
     // Draws beyond a bound sit at the bound; when more than the tail share of draws is
     // there, that end of the interval is the bound itself.

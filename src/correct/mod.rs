@@ -11,47 +11,58 @@ pub use reliability::{ReliabilitySource, ReliabilitySpec, resolve};
 
 use rayon::prelude::*;
 
-/// Draws handled between two progress reports.
-const CHUNK: usize = 1024;
+pub(crate) use crate::numeric::percentile_interval;
 
-/// Run `draws` independent draws in parallel, each with its own random stream (seed and
-/// index), collecting their results in index order.
+/// Draws in one block: the draws of a block share one random stream (seed and block
+/// index), and blocks are the unit of parallel work and of progress reports. The block
+/// size is fixed, so results depend on the seed alone, never on the number of threads.
+const BLOCK: usize = 1024;
+
+/// Run `draws` independent draws in parallel, block by block (each block with its own
+/// random stream), collecting their results in draw order.
 pub(crate) fn parallel_draws<T: Send>(
     draws: usize,
     seed: u64,
     progress: &(dyn Fn(usize) + Sync),
     one: impl Fn(&mut rand::rngs::ChaCha8Rng) -> T + Sync,
 ) -> Vec<T> {
-    (0..draws.div_ceil(CHUNK))
+    let blocks: Vec<Vec<T>> = (0..draws.div_ceil(BLOCK))
         .into_par_iter()
-        .flat_map_iter(|c| {
-            let start = c * CHUNK;
-            let end = (start + CHUNK).min(draws);
-            let out: Vec<T> = (start..end)
-                .map(|b| one(&mut crate::random::stream(seed, b as u64)))
-                .collect();
+        .map(|c| {
+            let start = c * BLOCK;
+            let end = (start + BLOCK).min(draws);
+            let mut rng = crate::random::stream(seed, c as u64);
+            let out: Vec<T> = (start..end).map(|_| one(&mut rng)).collect();
             progress(end - start);
             out
         })
-        .collect()
-}
-
-/// The type-7 quantile of sorted values.
-pub(crate) fn quantile(sorted: &[f64], p: f64) -> f64 {
-    let h = (sorted.len() - 1) as f64 * p;
-    let lo = h.floor() as usize;
-    let hi = h.ceil() as usize;
-    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
-}
-
-/// A percentile interval of values at `level`.
-pub(crate) fn percentile_interval(values: &mut [f64], level: f64) -> Option<(f64, f64)> {
-    if values.len() < 2 {
-        return None;
+        .collect();
+    let mut all = Vec::with_capacity(draws);
+    for b in blocks {
+        all.extend(b);
     }
-    values.sort_by(|a, b| a.total_cmp(b));
-    let a = 1.0 - level;
-    Some((quantile(values, a / 2.0), quantile(values, 1.0 - a / 2.0)))
+    all
+}
+
+/// Fill `values` with one draw each, in parallel block by block, exactly as
+/// [`parallel_draws`] would return them (the same blocks and streams), without the
+/// intermediate vectors.
+pub(crate) fn parallel_fill(
+    values: &mut [f64],
+    seed: u64,
+    progress: &(dyn Fn(usize) + Sync),
+    one: impl Fn(&mut rand::rngs::ChaCha8Rng) -> f64 + Sync,
+) {
+    values
+        .par_chunks_mut(BLOCK)
+        .enumerate()
+        .for_each(|(c, chunk)| {
+            let mut rng = crate::random::stream(seed, c as u64);
+            for v in chunk.iter_mut() {
+                *v = one(&mut rng);
+            }
+            progress(chunk.len());
+        });
 }
 
 /// Grid points spanning [lo, hi].

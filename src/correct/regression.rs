@@ -188,6 +188,8 @@ pub fn correct_regression(
     let n = input.n as f64;
     let chol = input.cov.clone().cholesky().map(|c| c.l());
     let width = p + 1;
+    let samplers: Vec<_> = input.rel.iter().map(ReliabilitySource::sampler).collect();
+    let sampler_y = input.rel_y.as_ref().map(ReliabilitySource::sampler);
     let results: Vec<Option<Estimate>> = parallel_draws(draws, seed, progress, |rng| {
         let cov = match &input.rows {
             Some(rows) => {
@@ -208,8 +210,8 @@ pub fn correct_regression(
         } else {
             cov
         };
-        let rel: Vec<f64> = input.rel.iter().map(|r| r.draw(rng)).collect();
-        let ry = input.rel_y.as_ref().map(|r| r.draw(rng)).unwrap_or(1.0);
+        let rel: Vec<f64> = samplers.iter().map(|s| s.draw(rng)).collect();
+        let ry = sampler_y.map(|s| s.draw(rng)).unwrap_or(1.0);
         eiv(&cov, &rel, ry).ok()
     });
     let mut ols: Vec<Vec<f64>> = vec![Vec::new(); p];

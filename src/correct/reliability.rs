@@ -151,6 +151,50 @@ pub enum ReliabilitySource {
     },
 }
 
+/// A reliability's distribution, ready for drawing (see [`ReliabilitySource::sampler`]).
+#[derive(Debug, Clone, Copy)]
+pub enum Sampler {
+    /// Always the same value.
+    Fixed(f64),
+    /// 1 − exp(centre + sd·Z) with Z standard normal.
+    Bonett {
+        /// Centre on the ln(1 − ρ) scale.
+        centre: f64,
+        /// SD on that scale.
+        sd: f64,
+    },
+    /// The benchmark's transform undone at mean + scale·t(df).
+    Predictive {
+        /// The benchmark's transform.
+        transform: TransformKind,
+        /// Mean on the transformed scale.
+        mean: f64,
+        /// Scale of the t distribution.
+        scale: f64,
+        /// Its degrees of freedom.
+        df: f64,
+    },
+}
+
+impl Sampler {
+    /// One draw.
+    #[inline]
+    pub fn draw<R: Rng>(&self, rng: &mut R) -> f64 {
+        match *self {
+            Sampler::Fixed(v) => v,
+            // exp(x) − 1 directly: x is ln(1 − ρ) well away from 0 for any reliability a
+            // correction would use, so nothing is lost to cancellation.
+            Sampler::Bonett { centre, sd } => 1.0 - (centre + sd * draw::normal(rng)).exp(),
+            Sampler::Predictive {
+                transform,
+                mean,
+                scale,
+                df,
+            } => back(transform, mean + scale * draw::student_t(rng, df)),
+        }
+    }
+}
+
 impl ReliabilitySource {
     /// The value used for the point correction.
     pub fn point(&self) -> f64 {
@@ -166,13 +210,18 @@ impl ReliabilitySource {
 
     /// One draw from the reliability's distribution.
     pub fn draw<R: Rng>(&self, rng: &mut R) -> f64 {
+        self.sampler().draw(rng)
+    }
+
+    /// The distribution's constants worked out once, for drawing many times.
+    pub fn sampler(&self) -> Sampler {
         match self {
-            ReliabilitySource::Point { value, .. } => *value,
+            ReliabilitySource::Point { value, .. } => Sampler::Fixed(*value),
             ReliabilitySource::Estimate {
                 value, n, items, ..
             } => {
                 let (centre, sd) = bonett_centre(*value, *n, *items);
-                -(centre + sd * draw::normal(rng)).exp_m1()
+                Sampler::Bonett { centre, sd }
             }
             ReliabilitySource::Benchmark {
                 transform,
@@ -180,7 +229,12 @@ impl ReliabilitySource {
                 scale,
                 df,
                 ..
-            } => back(*transform, mean + scale * draw::student_t(rng, *df)),
+            } => Sampler::Predictive {
+                transform: *transform,
+                mean: *mean,
+                scale: *scale,
+                df: *df,
+            },
         }
     }
 

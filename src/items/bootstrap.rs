@@ -26,14 +26,6 @@ pub struct OmegaBootstrap {
     pub heywood: usize,
 }
 
-/// The type-7 quantile (linear interpolation) of sorted values.
-fn quantile(sorted: &[f64], p: f64) -> f64 {
-    let h = (sorted.len() - 1) as f64 * p;
-    let lo = h.floor() as usize;
-    let hi = h.ceil() as usize;
-    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
-}
-
 /// Bootstrap omega from complete rows (row-major, k per row).
 ///
 /// # References
@@ -99,12 +91,12 @@ pub fn bootstrap_omega(
             "too few bootstrap replicates could be fitted for an interval".into(),
         ));
     }
-    omegas.sort_by(|a, b| a.total_cmp(b));
-    let a = 1.0 - level;
+    let interval = crate::numeric::percentile_interval(&mut omegas, level)
+        .ok_or_else(|| Error::Numerical("too few bootstrap replicates".into()))?;
     Ok(OmegaBootstrap {
         replicates,
         seed,
-        interval: (quantile(&omegas, a / 2.0), quantile(&omegas, 1.0 - a / 2.0)),
+        interval,
         failed,
         heywood,
     })

@@ -37,12 +37,7 @@ pub fn omnibus(fit: &ModelFit, columns: &[usize]) -> Option<OmnibusTest> {
     if m == 0 {
         return None;
     }
-    let b = DVector::from_iterator(m, columns.iter().map(|&j| fit.beta[j]));
-    let v = DMatrix::from_fn(m, m, |a, c| fit.cov[(columns[a], columns[c])]);
-    let q = match v.clone().cholesky() {
-        Some(ch) => (b.transpose() * ch.inverse() * &b)[(0, 0)],
-        None => f64::NAN,
-    };
+    let q = wald_statistic(&fit.beta, &fit.cov, columns);
     Some(match fit.df {
         Some(df2) => {
             let f = q / m as f64;
@@ -60,6 +55,18 @@ pub fn omnibus(fit: &ModelFit, columns: &[usize]) -> Option<OmnibusTest> {
             p: chi2_sf(q, m as f64),
         },
     })
+}
+
+/// The Wald statistic bᵀV⁻¹b of the coefficients in `columns` (NaN when their covariance
+/// is singular).
+pub(crate) fn wald_statistic(beta: &DVector<f64>, cov: &DMatrix<f64>, columns: &[usize]) -> f64 {
+    let m = columns.len();
+    let b = DVector::from_iterator(m, columns.iter().map(|&j| beta[j]));
+    let v = DMatrix::from_fn(m, m, |a, c| cov[(columns[a], columns[c])]);
+    match v.cholesky() {
+        Some(ch) => b.dot(&ch.solve(&b)),
+        None => f64::NAN,
+    }
 }
 
 /// A fitted meta-regression.

@@ -2,10 +2,11 @@
 //! (each study keeping its effect and variance), the model refitted, and the observed
 //! statistics compared with their permutation distribution.
 
-use super::{Explanation, omnibus};
+use super::{Explanation, wald_statistic};
 use crate::benchmark::Prepared;
 use crate::error::{Error, Result};
-use crate::pool::{FitOptions, MetaData, fit_model};
+use crate::pool::fit_coefficients;
+use crate::pool::{FitOptions, MetaData};
 use crate::random::stream;
 use rand::seq::SliceRandom;
 use rayon::prelude::*;
@@ -88,6 +89,12 @@ pub fn permutation_test(
         ..ex.fit.options
     };
     let obs_omnibus = ex.omnibus.map(|o| o.statistic).unwrap_or(f64::NAN);
+    // The omnibus statistic is F = Q/m under Knapp–Hartung and Q under Wald.
+    let omnibus_divisor = if ex.fit.df.is_some() {
+        columns.len() as f64
+    } else {
+        1.0
+    };
     let obs_coef: Vec<f64> = columns
         .iter()
         .map(|&j| ex.fit.coefficients[j].statistic.abs())
@@ -116,17 +123,17 @@ pub fn permutation_test(
                     }
                 }
                 let refit = MetaData::with_design(data.y().to_vec(), data.v().to_vec(), x)
-                    .and_then(|d| fit_model(&d, &opts));
+                    .and_then(|d| fit_coefficients(&d, &opts));
                 match refit {
-                    Ok(f) => {
+                    Ok((beta, cov)) => {
                         t.done += 1;
-                        if let Some(o) = omnibus(&f, &columns)
-                            && at_least(o.statistic, obs_omnibus)
-                        {
+                        let o = wald_statistic(&beta, &cov, &columns) / omnibus_divisor;
+                        if at_least(o, obs_omnibus) {
                             t.omnibus += 1;
                         }
                         for (slot, (&j, &obs)) in columns.iter().zip(&obs_coef).enumerate() {
-                            if at_least(f.coefficients[j].statistic.abs(), obs) {
+                            let z = beta[j] / cov[(j, j)].max(0.0).sqrt();
+                            if at_least(z.abs(), obs) {
                                 t.coefficients[slot] += 1;
                             }
                         }

@@ -29,7 +29,7 @@ impl Heterogeneity {
     pub fn of(d: &MetaData) -> Result<Self> {
         let fit = d.fit_at(0.0)?;
         let df = (d.k() - d.p()) as f64;
-        let tr_p = fit.trace_p(d.x());
+        let tr_p = fit.trace_p(d.design());
         Ok(Heterogeneity {
             q: fit.q,
             df,

@@ -9,6 +9,7 @@ pub mod tau2;
 
 pub use data::MetaData;
 pub use heterogeneity::Heterogeneity;
+pub(crate) use model::fit_coefficients;
 pub use model::{Coefficient, FitOptions, ModelFit, check_level, fit_model};
 pub use qprofile::{Tau2Interval, q_profile};
 pub use tau2::{Tau2Estimator, Tau2Fit, Termination};

@@ -121,6 +121,80 @@ pub fn check_level(level: f64) -> Result<()> {
     }
 }
 
+/// τ², the weighted fit at τ² and the coefficients' covariance under the interval method:
+/// what every fit needs, shared by [`fit_model`] and the resampling loops.
+pub(crate) struct CoreFit {
+    pub tau2: Tau2Fit,
+    pub fit: super::data::WeightedFit,
+    pub cov: DMatrix<f64>,
+    pub df: Option<f64>,
+    pub kh_scale: Option<f64>,
+    pub warnings: Vec<Warning>,
+}
+
+pub(crate) fn core_fit(d: &MetaData, options: &FitOptions) -> Result<CoreFit> {
+    let mut warnings = Vec::new();
+    let tau2 = match options.model {
+        Model::Common => Tau2Fit {
+            tau2: 0.0,
+            iterations: 0,
+            termination: Termination::ClosedForm,
+            at_zero: true,
+        },
+        Model::Random(est) => {
+            let fit = est.estimate(d)?;
+            if !fit.converged() {
+                warnings.push(Warning::NotConverged {
+                    what: format!("the {} estimate of τ²", est.name()),
+                    iterations: fit.iterations,
+                });
+            }
+            if fit.at_zero {
+                warnings.push(Warning::Tau2AtZero {
+                    estimator: est.label().to_string(),
+                });
+            }
+            fit
+        }
+    };
+    let fit = d.fit_at(tau2.tau2)?;
+    let df_resid = (d.k() - d.p()) as f64;
+    let (cov, df, kh_scale) = match options.ci {
+        CiMethod::Wald => (fit.xtwx_inv.clone(), None, None),
+        CiMethod::KnappHartung | CiMethod::KnappHartungFloor => {
+            let mut scale = fit.q / df_resid;
+            if options.ci == CiMethod::KnappHartungFloor {
+                scale = scale.max(1.0);
+            } else if scale < KH_WARN_BELOW {
+                warnings.push(Warning::KnappHartungBelowOne { scale });
+            }
+            (&fit.xtwx_inv * scale, Some(df_resid), Some(scale))
+        }
+    };
+    Ok(CoreFit {
+        tau2,
+        fit,
+        cov,
+        df,
+        kh_scale,
+        warnings,
+    })
+}
+
+/// The coefficients and their covariance under the interval method, without the rest of
+/// a [`ModelFit`] (heterogeneity, p values, intervals): for permutation loops, where
+/// only the test statistics are compared.
+pub(crate) fn fit_coefficients(
+    d: &MetaData,
+    options: &FitOptions,
+) -> Result<(DVector<f64>, DMatrix<f64>)> {
+    if d.k() <= d.p() {
+        return Err(Error::CannotAnalyse("too few studies for the model".into()));
+    }
+    let core = core_fit(d, options)?;
+    Ok((core.fit.beta, core.cov))
+}
+
 /// Fit the model to the data.
 ///
 /// # References
@@ -136,59 +210,27 @@ pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
             p + 1
         )));
     }
-    let mut warnings = Vec::new();
     let heterogeneity = Heterogeneity::of(d)?;
-    let (tau2, tau2_ci) = match options.model {
-        Model::Common => (
-            Tau2Fit {
-                tau2: 0.0,
-                iterations: 0,
-                termination: Termination::ClosedForm,
-                at_zero: true,
-            },
-            None,
-        ),
-        Model::Random(est) => {
-            let fit = est.estimate(d)?;
-            if !fit.converged() {
+    let CoreFit {
+        tau2,
+        fit,
+        cov,
+        df,
+        kh_scale,
+        mut warnings,
+    } = core_fit(d, options)?;
+    let tau2_ci = match options.model {
+        Model::Random(_) if options.tau2_interval => {
+            let ci = q_profile(d, options.level)?;
+            if !ci.converged {
                 warnings.push(Warning::NotConverged {
-                    what: format!("the {} estimate of τ²", est.name()),
-                    iterations: fit.iterations,
+                    what: "the Q-profile interval for τ²".into(),
+                    iterations: TAU2_MAX_ITERATIONS,
                 });
             }
-            if fit.at_zero {
-                warnings.push(Warning::Tau2AtZero {
-                    estimator: est.label().to_string(),
-                });
-            }
-            let ci = if options.tau2_interval {
-                let ci = q_profile(d, options.level)?;
-                if !ci.converged {
-                    warnings.push(Warning::NotConverged {
-                        what: "the Q-profile interval for τ²".into(),
-                        iterations: TAU2_MAX_ITERATIONS,
-                    });
-                }
-                Some(ci)
-            } else {
-                None
-            };
-            (fit, ci)
+            Some(ci)
         }
-    };
-    let fit = d.fit_at(tau2.tau2)?;
-    let df_resid = (k - p) as f64;
-    let (cov, df, kh_scale) = match options.ci {
-        CiMethod::Wald => (fit.xtwx_inv.clone(), None, None),
-        CiMethod::KnappHartung | CiMethod::KnappHartungFloor => {
-            let mut scale = fit.q / df_resid;
-            if options.ci == CiMethod::KnappHartungFloor {
-                scale = scale.max(1.0);
-            } else if scale < KH_WARN_BELOW {
-                warnings.push(Warning::KnappHartungBelowOne { scale });
-            }
-            (&fit.xtwx_inv * scale, Some(df_resid), Some(scale))
-        }
+        _ => None,
     };
     let (i2, h2) = match options.model {
         Model::Common => (heterogeneity.i2_from_q(), heterogeneity.h2_from_q()),

@@ -8,6 +8,7 @@ pub mod explain;
 pub mod format;
 pub mod items;
 pub mod json;
+pub mod layout;
 pub mod paragraph;
 pub mod text;
 

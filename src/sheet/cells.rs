@@ -31,12 +31,11 @@ pub fn parse_number(cell: &str, decimal_comma: bool) -> Result<f64, String> {
         } else {
             t
         };
-    let lower = text.to_ascii_lowercase();
-    let bare = lower.trim_start_matches(['+', '-']);
-    if bare == "nan" {
+    let bare = text.trim_start_matches(['+', '-']);
+    if bare.eq_ignore_ascii_case("nan") {
         return Err(format!("{} is not a number", quote(t)));
     }
-    if bare == "inf" || bare == "infinity" {
+    if bare.eq_ignore_ascii_case("inf") || bare.eq_ignore_ascii_case("infinity") {
         return Err(format!("{} is not a finite number", quote(t)));
     }
     // Only plain decimal notation: digits, one point, an optional exponent.
@@ -101,17 +100,16 @@ pub fn parse_whole(
 /// groups of a separator and exactly three digits.
 fn looks_grouped(t: &str) -> bool {
     let t = t.trim_start_matches(['+', '-']);
+    if !t.contains([',', '.']) {
+        return false;
+    }
     let mut parts = t.split([',', '.']);
     let Some(first) = parts.next() else {
         return false;
     };
-    let rest: Vec<&str> = parts.collect();
-    !rest.is_empty()
-        && (1..=3).contains(&first.len())
+    (1..=3).contains(&first.len())
         && first.chars().all(|c| c.is_ascii_digit())
-        && rest
-            .iter()
-            .all(|g| g.len() == 3 && g.chars().all(|c| c.is_ascii_digit()))
+        && parts.all(|g| g.len() == 3 && g.chars().all(|c| c.is_ascii_digit()))
 }
 
 #[cfg(test)]

@@ -142,14 +142,15 @@ pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSh
 
 /// Read and check a coding sheet from its bytes; `file` names it in messages.
 pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> Result<CodingSheet> {
-    let table = read::read_table(file, bytes, options.delimiter)?;
+    let mut table = read::TableReader::open(file, bytes, options.delimiter)?;
     let layout = Layout::resolve(file, &table.header, &options.columns)?;
     let decimal_comma = table.delimiter != b',';
-    let mut records = Vec::with_capacity(table.rows.len());
+    let lines = bytes.iter().filter(|&&b| b == b'\n').count();
+    let mut records = Vec::with_capacity(lines + 1);
     let mut problems = Vec::new();
     let mut partial = Vec::new();
-    for raw in &table.rows {
-        match layout.parse_row(raw, decimal_comma) {
+    while let Some(raw) = table.next_row()? {
+        match layout.parse_row(&raw, decimal_comma) {
             Ok(r) => records.push(r),
             Err((mut p, part)) => {
                 problems.append(&mut p);
@@ -157,7 +158,8 @@ pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> R
             }
         }
     }
-    if table.rows.is_empty() {
+
+    if table.rows_read() == 0 {
         return Err(Error::InvalidSheet {
             file: file.to_string(),
             problems: vec![CellProblem::row(
@@ -174,8 +176,8 @@ pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> R
         records,
         problems,
         partial,
-        rows_read: table.rows.len(),
-        empty_rows: table.empty_rows,
+        rows_read: table.rows_read(),
+        empty_rows: table.empty_rows(),
     })
 }
 
@@ -183,6 +185,8 @@ pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> R
 struct Layout {
     width: usize,
     roles: BTreeMap<Role, (usize, String)>,
+    /// The header name of each standard column (for messages).
+    names: BTreeMap<Role, String>,
     extra: Vec<(usize, String)>,
     /// Unnamed columns (empty header cell), which must stay empty.
     unnamed: Vec<usize>,
@@ -275,8 +279,10 @@ impl Layout {
                 extra.push((i, h.clone()));
             }
         }
+        let names = roles.iter().map(|(r, (_, n))| (*r, n.clone())).collect();
         Ok(Layout {
             width: header.len(),
+            names,
             roles,
             extra,
             unnamed,
@@ -284,24 +290,20 @@ impl Layout {
     }
 
     fn names(&self) -> BTreeMap<Role, String> {
-        self.roles
-            .iter()
-            .map(|(r, (_, n))| (*r, n.clone()))
-            .collect()
+        self.names.clone()
     }
 
     fn parse_row(
         &self,
-        raw: &read::RawRow,
+        raw: &read::RawRow<'_>,
         decimal_comma: bool,
     ) -> std::result::Result<StudyRecord, (Vec<CellProblem>, Option<PartialRecord>)> {
         let row = raw.row;
-        let names = self.names();
-        let label_of = |role: Role| column_label(&names, role);
+        let label_of = |role: Role| column_label(&self.names, role);
         let mut problems = Vec::new();
 
         // Shape: ragged rows are an error unless the surplus cells are empty.
-        let n_cells = raw.cells.len();
+        let n_cells = raw.n_cells();
         if n_cells < self.width {
             problems.push(CellProblem::row(
                 row,
@@ -314,9 +316,8 @@ impl Layout {
             return Err((problems, None));
         }
         if n_cells > self.width {
-            let surplus_filled = raw.cells[self.width..]
-                .iter()
-                .any(|c| c.as_ref().map(|s| !s.trim().is_empty()).unwrap_or(true));
+            let surplus_filled = (self.width..n_cells)
+                .any(|i| raw.cell(i).map(|s| !s.trim().is_empty()).unwrap_or(true));
             if surplus_filled {
                 problems.push(CellProblem::row(
                     row,
@@ -330,13 +331,14 @@ impl Layout {
             }
         }
         // Text of each cell, or a UTF-8 problem.
-        let mut text = |i: usize, column: String| -> Option<String> {
-            match &raw.cells[i] {
-                Ok(s) => Some(s.clone()),
+        // The column's name is only worked out when there is a problem to report.
+        let mut text = |i: usize, column: &dyn Fn() -> String| -> Option<&str> {
+            match raw.cell(i) {
+                Ok(s) => Some(s),
                 Err(()) => {
                     problems.push(CellProblem::cell(
                         row,
-                        column,
+                        column(),
                         "the cell is not valid UTF-8 text; save the sheet as UTF-8",
                     ));
                     None
@@ -344,13 +346,13 @@ impl Layout {
             }
         };
         let mut failed: Vec<Role> = Vec::new();
-        let mut cell_of = |role: Role| -> Option<String> {
+        let mut cell_of = |role: Role| -> Option<&str> {
             let (i, _) = self.roles.get(&role)?;
-            let Some(s) = text(*i, label_of(role)) else {
+            let Some(s) = text(*i, &|| label_of(role)) else {
                 failed.push(role);
                 return None;
             };
-            if is_missing(&s) { None } else { Some(s) }
+            if is_missing(s) { None } else { Some(s) }
         };
         let study = cell_of(Role::Study);
         let coef_s = cell_of(Role::Coef);
@@ -364,14 +366,14 @@ impl Layout {
         let var_s = cell_of(Role::Var);
         let mut extra = Vec::with_capacity(self.extra.len());
         for (i, name) in &self.extra {
-            let v = text(*i, name.clone())
+            let v = text(*i, &|| name.clone())
                 .filter(|s| !is_missing(s))
                 .map(|s| s.trim().to_string());
             extra.push(v);
         }
         let mut orphans = Vec::new();
         for &i in &self.unnamed {
-            if let Some(s) = text(i, format!("{} (unnamed)", i + 1))
+            if let Some(s) = text(i, &|| format!("{} (unnamed)", i + 1))
                 && !s.trim().is_empty()
             {
                 orphans.push(CellProblem::cell(
@@ -380,7 +382,7 @@ impl Layout {
                     format!(
                         "the cell holds {} but its column has no name in the header; name \
                          the column so the value is not lost",
-                        cells::quote(&s)
+                        cells::quote(s)
                     ),
                 ));
             }
@@ -396,7 +398,17 @@ impl Layout {
         let label = match &study {
             Some(s) => {
                 // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
-                let t = s.split_whitespace().collect::<Vec<_>>().join(" ");
+                let trimmed = s.trim();
+                let plain = !trimmed
+                    .as_bytes()
+                    .windows(2)
+                    .any(|w| w[0].is_ascii_whitespace() && w[1].is_ascii_whitespace())
+                    && !trimmed.contains(|c: char| c.is_whitespace() && c != ' ');
+                let t = if plain {
+                    trimmed.to_string()
+                } else {
+                    s.split_whitespace().collect::<Vec<_>>().join(" ")
+                };
                 let chars = t.chars().count();
                 if chars > MAX_LABEL_CHARS {
                     push(
@@ -432,12 +444,12 @@ impl Layout {
                 }
             },
         };
-        let n = n_s.as_deref().and_then(|s| {
+        let n = n_s.and_then(|s| {
             cells::parse_whole(s, decimal_comma, 1, MAX_N, "sample size")
                 .map_err(|e| push(Role::N, e))
                 .ok()
         });
-        let items = items_s.as_deref().and_then(|s| {
+        let items = items_s.and_then(|s| {
             cells::parse_whole(s, decimal_comma, 1, MAX_ITEMS as u64, "number of items")
                 .map_err(|e| push(Role::Items, e))
                 .ok()
@@ -461,7 +473,7 @@ impl Layout {
                 t
             }
         };
-        let positive = |role: Role, s: &Option<String>, push: &mut dyn FnMut(Role, String)| {
+        let positive = |role: Role, s: &Option<&str>, push: &mut dyn FnMut(Role, String)| {
             s.as_deref()
                 .and_then(|s| match cells::parse_number(s, decimal_comma) {
                     Ok(x) if x > 0.0 => Some(x),
@@ -480,7 +492,7 @@ impl Layout {
         };
         let sd = positive(Role::Sd, &sd_s, &mut push);
         let var = positive(Role::Var, &var_s, &mut push);
-        let sd_metric = metric_s.as_deref().and_then(|s| {
+        let sd_metric = metric_s.and_then(|s| {
             let m = SdMetric::parse_cell(s);
             if m.is_none() {
                 push(
@@ -490,7 +502,7 @@ impl Layout {
             }
             m
         });
-        let mut number = |role: Role, s: &Option<String>| {
+        let mut number = |role: Role, s: &Option<&str>| {
             s.as_deref().and_then(|s| {
                 cells::parse_number(s, decimal_comma)
                     .map_err(|e| push(role, e))

@@ -31,139 +31,179 @@ pub fn parse_delimiter(s: &str) -> std::result::Result<u8, String> {
     }
 }
 
-/// One data row: its spreadsheet row number and its cells (a cell that is not valid
-/// UTF-8 is kept as an error).
-#[derive(Debug, Clone)]
-pub struct RawRow {
+/// One data row: its spreadsheet row number and its cells, as the reader's record.
+#[derive(Debug, Clone, Copy)]
+pub struct RawRow<'a> {
     /// Row number as a spreadsheet shows it (the header is row 1).
     pub row: usize,
-    /// Cells, in column order.
-    pub cells: Vec<std::result::Result<String, ()>>,
+    record: &'a csv::ByteRecord,
 }
 
-/// A file read as a header and rows of text cells.
-#[derive(Debug, Clone)]
-pub struct RawTable {
+impl RawRow<'_> {
+    /// Number of cells.
+    pub fn n_cells(&self) -> usize {
+        self.record.len()
+    }
+
+    /// Cell `i` as text; `Err(())` when it is not valid UTF-8, `Ok("")` beyond the row's end.
+    pub fn cell(&self, i: usize) -> std::result::Result<&str, ()> {
+        self.record
+            .get(i)
+            .map_or(Ok(""), |b| std::str::from_utf8(b).map_err(|_| ()))
+    }
+}
+
+/// A delimited file read one row at a time (memory does not grow with the number of
+/// rows): the header first, then each non-blank data row with its spreadsheet row number.
+pub struct TableReader<'a> {
+    file: String,
+    body: &'a [u8],
+    reader: csv::Reader<&'a [u8]>,
+    record: csv::ByteRecord,
+    row_number: usize,
+    empty_rows: Vec<usize>,
+    last_data: usize,
+    rows_read: usize,
     /// Header cells, trimmed.
     pub header: Vec<String>,
-    /// Data rows, blank rows removed.
-    pub rows: Vec<RawRow>,
-    /// Spreadsheet rows that were entirely empty.
-    pub empty_rows: Vec<usize>,
     /// The delimiter used.
     pub delimiter: u8,
 }
 
-/// Read `bytes` (the contents of `file`) as a delimited table.
-pub fn read_table(file: &str, bytes: &[u8], delimiter: Option<u8>) -> Result<RawTable> {
-    let fail = |reason: String| Error::InvalidSheet {
-        file: file.to_string(),
-        problems: vec![CellProblem::row(1, reason)],
-    };
-    if bytes.starts_with(b"\xFF\xFE") || bytes.starts_with(b"\xFE\xFF") {
-        return Err(fail(
-            "the file is UTF-16 encoded; save it as UTF-8 (\"CSV UTF-8\" in a spreadsheet's \
-             save dialog)"
-                .into(),
-        ));
-    }
-    let body = bytes.strip_prefix(UTF8_BOM).unwrap_or(bytes);
-    if body.iter().all(|b| b.is_ascii_whitespace()) {
-        return Err(fail(
-            "the file is empty; a coding sheet needs a header row and at least one data row".into(),
-        ));
-    }
-    let delimiter = delimiter.unwrap_or_else(|| detect_delimiter(body));
-    let mut reader = csv::ReaderBuilder::new()
-        .delimiter(delimiter)
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(body);
-
-    let mut header: Option<Vec<String>> = None;
-    let mut rows = Vec::new();
-    let mut empty_rows = Vec::new();
-    let mut row_number = 0usize;
-    let mut record = csv::ByteRecord::new();
-    loop {
-        let more = reader
-            .read_byte_record(&mut record)
-            .map_err(|e| Error::InvalidSheet {
-                file: file.to_string(),
-                problems: vec![CellProblem::row(
-                    row_number + 1,
-                    format!("the file could not be read as delimited text: {e}"),
-                )],
-            })?;
-        if !more {
-            break;
+impl<'a> TableReader<'a> {
+    /// Open `bytes` (the contents of `file`) and read its header row.
+    pub fn open(file: &str, bytes: &'a [u8], delimiter: Option<u8>) -> Result<Self> {
+        let fail = |reason: String| Error::InvalidSheet {
+            file: file.to_string(),
+            problems: vec![CellProblem::row(1, reason)],
+        };
+        if bytes.starts_with(b"\xFF\xFE") || bytes.starts_with(b"\xFE\xFF") {
+            return Err(fail(
+                "the file is UTF-16 encoded; save it as UTF-8 (\"CSV UTF-8\" in a spreadsheet's \
+                 save dialog)"
+                    .into(),
+            ));
         }
-        // Blank lines are skipped by the reader but shown as rows by a spreadsheet.
-        let start = record.position().map(|p| p.byte() as usize).unwrap_or(0);
-        let skipped_blank = blank_lines_before(body, start);
-        for b in 0..skipped_blank {
-            if header.is_some() {
-                empty_rows.push(row_number + b + 1);
-            }
+        let body = bytes.strip_prefix(UTF8_BOM).unwrap_or(bytes);
+        if body.iter().all(|b| b.is_ascii_whitespace()) {
+            return Err(fail(
+                "the file is empty; a coding sheet needs a header row and at least one data row"
+                    .into(),
+            ));
         }
-        row_number += skipped_blank + 1;
-
-        let cells: Vec<std::result::Result<String, ()>> = record
-            .iter()
-            .map(|f| std::str::from_utf8(f).map(str::to_string).map_err(|_| ()))
-            .collect();
-        match header {
-            None => {
-                let mut names = Vec::with_capacity(cells.len());
-                for (i, c) in cells.iter().enumerate() {
-                    match c {
-                        Ok(s) => names.push(s.trim().to_string()),
-                        Err(()) => {
-                            return Err(Error::InvalidSheet {
-                                file: file.to_string(),
-                                problems: vec![CellProblem::row(
-                                    row_number,
-                                    format!(
-                                        "the header's column {} is not valid UTF-8 text; save \
-                                         the sheet as UTF-8",
-                                        i + 1
-                                    ),
-                                )],
-                            });
-                        }
-                    }
-                }
-                if row_number != 1 {
-                    // Blank lines above the header: number rows as the spreadsheet does.
-                    empty_rows.clear();
-                }
-                header = Some(names);
-            }
-            Some(_) => {
-                let blank = cells
-                    .iter()
-                    .all(|c| c.as_ref().map(|s| s.trim().is_empty()).unwrap_or(false));
-                if blank {
-                    empty_rows.push(row_number);
-                } else {
-                    rows.push(RawRow {
-                        row: row_number,
-                        cells,
+        let delimiter = delimiter.unwrap_or_else(|| detect_delimiter(body));
+        let reader = csv::ReaderBuilder::new()
+            .delimiter(delimiter)
+            .has_headers(false)
+            .flexible(true)
+            .from_reader(body);
+        let mut t = TableReader {
+            file: file.to_string(),
+            body,
+            reader,
+            record: csv::ByteRecord::new(),
+            row_number: 0,
+            empty_rows: Vec::new(),
+            last_data: 0,
+            rows_read: 0,
+            header: Vec::new(),
+            delimiter,
+        };
+        if !t.advance()? {
+            return Err(fail("the file has no header row".into()));
+        }
+        let mut names = Vec::with_capacity(t.record.len());
+        for (i, c) in t.record.iter().enumerate() {
+            match std::str::from_utf8(c) {
+                Ok(s) => names.push(s.trim().to_string()),
+                Err(_) => {
+                    return Err(Error::InvalidSheet {
+                        file: file.to_string(),
+                        problems: vec![CellProblem::row(
+                            t.row_number,
+                            format!(
+                                "the header's column {} is not valid UTF-8 text; save the sheet \
+                                 as UTF-8",
+                                i + 1
+                            ),
+                        )],
                     });
                 }
             }
         }
+        // Blank lines above the header are numbered as the spreadsheet does, not reported.
+        t.empty_rows.clear();
+        t.header = names;
+        Ok(t)
     }
-    let header = header.ok_or_else(|| fail("the file has no header row".into()))?;
-    // Trailing empty rows are normal at the end of an export; only report inner ones.
-    let last_data = rows.last().map(|r| r.row).unwrap_or(0);
-    empty_rows.retain(|&r| r < last_data);
-    Ok(RawTable {
-        header,
-        rows,
-        empty_rows,
-        delimiter,
-    })
+
+    /// Read the next record into the buffer, counting the blank lines before it.
+    fn advance(&mut self) -> Result<bool> {
+        let more = self
+            .reader
+            .read_byte_record(&mut self.record)
+            .map_err(|e| Error::InvalidSheet {
+                file: self.file.clone(),
+                problems: vec![CellProblem::row(
+                    self.row_number + 1,
+                    format!("the file could not be read as delimited text: {e}"),
+                )],
+            })?;
+        if !more {
+            return Ok(false);
+        }
+        // Blank lines are skipped by the reader but shown as rows by a spreadsheet.
+        let start = self
+            .record
+            .position()
+            .map(|p| p.byte() as usize)
+            .unwrap_or(0);
+        let skipped_blank = blank_lines_before(self.body, start);
+        for b in 0..skipped_blank {
+            self.empty_rows.push(self.row_number + b + 1);
+        }
+        self.row_number += skipped_blank + 1;
+        Ok(true)
+    }
+
+    /// The next non-blank data row, or `None` at the end of the file.
+    pub fn next_row(&mut self) -> Result<Option<RawRow<'_>>> {
+        loop {
+            if !self.advance()? {
+                return Ok(None);
+            }
+            let blank = self
+                .record
+                .iter()
+                .all(|c| std::str::from_utf8(c).is_ok_and(|s| s.trim().is_empty()));
+            if blank {
+                self.empty_rows.push(self.row_number);
+                continue;
+            }
+            self.last_data = self.row_number;
+            self.rows_read += 1;
+            return Ok(Some(RawRow {
+                row: self.row_number,
+                record: &self.record,
+            }));
+        }
+    }
+
+    /// Non-blank data rows read so far.
+    pub fn rows_read(&self) -> usize {
+        self.rows_read
+    }
+
+    /// Entirely empty rows between data rows (trailing empty rows, normal at the end of
+    /// an export, are not reported).
+    pub fn empty_rows(&self) -> Vec<usize> {
+        let last = self.last_data;
+        self.empty_rows
+            .iter()
+            .copied()
+            .filter(|&r| r < last)
+            .collect()
+    }
 }
 
 /// Count the empty lines between the end of the previous record and the record whose
@@ -230,26 +270,32 @@ mod tests {
         assert_eq!(detect_delimiter(b"abc\n"), b',');
     }
 
+    /// Data row numbers and inner empty rows of a whole file.
+    fn rows_of(bytes: &[u8]) -> (Vec<usize>, Vec<usize>) {
+        let mut t = TableReader::open("t.csv", bytes, None).unwrap();
+        let mut rows = Vec::new();
+        while let Some(r) = t.next_row().unwrap() {
+            rows.push(r.row);
+        }
+        (rows, t.empty_rows())
+    }
+
     #[test]
     fn numbers_rows_like_a_spreadsheet() {
-        let t = read_table("t.csv", b"a,b\n1,2\n\n3,4\n,\n5,\"x\ny\"\n6,7\n", None).unwrap();
-        let rows: Vec<usize> = t.rows.iter().map(|r| r.row).collect();
+        let (rows, empty) = rows_of(b"a,b\n1,2\n\n3,4\n,\n5,\"x\ny\"\n6,7\n\n");
         assert_eq!(rows, vec![2, 4, 6, 7]);
-        assert_eq!(t.empty_rows, vec![3, 5]);
+        assert_eq!(empty, vec![3, 5]);
         let crlf = b"a,b\r\n1,2\r\n\r\n3,4\r\n,\r\n5,\"x\r\ny\"\r\n6,7\r\n";
-        let t = read_table("t.csv", crlf, None).unwrap();
-        let rows: Vec<usize> = t.rows.iter().map(|r| r.row).collect();
-        assert_eq!(rows, vec![2, 4, 6, 7]);
-        let t = read_table("t.csv", b"\n\na,b\n1,2\n", None).unwrap();
-        assert_eq!(t.rows[0].row, 4);
+        assert_eq!(rows_of(crlf).0, vec![2, 4, 6, 7]);
+        assert_eq!(rows_of(b"\n\na,b\n1,2\n").0, vec![4]);
     }
 
     #[test]
     fn strips_bom_and_flags_bad_utf8() {
-        let t = read_table("t.csv", b"\xEF\xBB\xBFcoef,n\n0.8,\xFF\n", None).unwrap();
+        let mut t = TableReader::open("t.csv", b"\xEF\xBB\xBFcoef,n\n0.8,\xFF\n", None).unwrap();
         assert_eq!(t.header, vec!["coef", "n"]);
-        assert!(t.rows[0].cells[1].is_err());
-        assert!(read_table("t.csv", b"", None).is_err());
-        assert!(read_table("t.csv", b"\xFF\xFEa", None).is_err());
+        assert!(t.next_row().unwrap().unwrap().cell(1).is_err());
+        assert!(TableReader::open("t.csv", b"", None).is_err());
+        assert!(TableReader::open("t.csv", b"\xFF\xFEa", None).is_err());
     }
 }

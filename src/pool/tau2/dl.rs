@@ -13,6 +13,6 @@ use crate::pool::data::MetaData;
 pub(super) fn estimate(d: &MetaData) -> Result<Tau2Fit> {
     let fit = d.fit_at(0.0)?;
     let df = (d.k() - d.p()) as f64;
-    let tr_p = fit.trace_p(d.x());
+    let tr_p = fit.trace_p(d.design());
     Ok(Tau2Fit::closed_form((fit.q - df) / tr_p))
 }

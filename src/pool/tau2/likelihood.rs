@@ -3,7 +3,7 @@
 
 use super::{TAU2_FLOOR, TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Tau2Fit, Termination};
 use crate::error::{Error, Result};
-use crate::pool::data::{MetaData, WeightedFit, cross_product};
+use crate::pool::data::{MetaData, WeightedFit, cross_products};
 
 /// Step halvings allowed when a scoring step lowers the likelihood.
 const MAX_HALVINGS: usize = 60;
@@ -25,20 +25,22 @@ fn log_lik(d: &MetaData, fit: &WeightedFit, tau2: f64, restricted: bool) -> f64 
 /// tr P = Σw − tr(A·XᵀW²X) and tr(PP) = Σw² − 2tr(A·XᵀW³X) + tr((A·XᵀW²X)²),
 /// A = (XᵀWX)⁻¹, yᵀPPy = Σw²e² — all O(k·p²).
 fn score_and_information(d: &MetaData, fit: &WeightedFit, restricted: bool) -> (f64, f64) {
-    let ypp_y: f64 = fit
-        .w
-        .iter()
-        .zip(&fit.resid)
-        .map(|(w, e)| w * w * e * e)
-        .sum();
-    let sum_w: f64 = fit.w.iter().sum();
-    let sum_w2: f64 = fit.w.iter().map(|w| w * w).sum();
+    let (mut ypp_y, mut sum_w, mut sum_w2) = (0.0, 0.0, 0.0);
+    for (w, e) in fit.w.iter().zip(&fit.resid) {
+        let w2 = w * w;
+        ypp_y += w2 * e * e;
+        sum_w += w;
+        sum_w2 += w2;
+    }
     if !restricted {
         return (0.5 * (ypp_y - sum_w), 0.5 * sum_w2);
     }
     let a = &fit.xtwx_inv;
-    let ab2 = a * cross_product(d.x(), &fit.w, 2);
-    let ab3 = a * cross_product(d.x(), &fit.w, 3);
+    let w2: Vec<f64> = fit.w.iter().map(|w| w * w).collect();
+    let w3: Vec<f64> = fit.w.iter().zip(&w2).map(|(w, w2)| w * w2).collect();
+    let [b2, b3] = cross_products(d.design(), [&w2, &w3]);
+    let ab2 = a * b2;
+    let ab3 = a * b3;
     let tr_p = sum_w - ab2.trace();
     let tr_pp = sum_w2 - 2.0 * ab3.trace() + (&ab2 * &ab2).trace();
     (0.5 * (ypp_y - tr_p), 0.5 * tr_pp)
@@ -60,8 +62,7 @@ pub(super) fn maximize(d: &MetaData, starts: &[f64], restricted: bool) -> Result
             continue;
         }
         tried.push(s);
-        let fit = fisher_scoring(d, s, restricted)?;
-        let ll = log_lik(d, &d.fit_at(fit.tau2)?, fit.tau2, restricted);
+        let (fit, ll) = fisher_scoring(d, s, restricted)?;
         let better = match &best {
             None => true,
             Some((b, bll)) => {
@@ -79,8 +80,9 @@ pub(super) fn maximize(d: &MetaData, starts: &[f64], restricted: bool) -> Result
         .ok_or_else(|| Error::Numerical("no starting value for τ² could be used".into()))
 }
 
-/// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring with step halving.
-fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<Tau2Fit> {
+/// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring with step halving;
+/// returns the fit and the log-likelihood reached.
+fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<(Tau2Fit, f64)> {
     let mut tau2 = start.max(0.0);
     let mut fit = d.fit_at(tau2)?;
     let mut ll = log_lik(d, &fit, tau2, restricted);
@@ -108,18 +110,20 @@ fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<Tau2Fit>
         fit = next_fit;
         ll = next_ll;
         if change < TAU2_TOLERANCE * tau2.max(TAU2_FLOOR) {
-            return Ok(Tau2Fit {
+            let fit = Tau2Fit {
                 tau2,
                 iterations: it,
                 termination: Termination::Converged,
                 at_zero: tau2 == 0.0,
-            });
+            };
+            return Ok((fit, ll));
         }
     }
-    Ok(Tau2Fit {
+    let fit = Tau2Fit {
         tau2,
         iterations: TAU2_MAX_ITERATIONS,
         termination: Termination::IterationLimit,
         at_zero: tau2 == 0.0,
-    })
+    };
+    Ok((fit, ll))
 }
