@@ -5,6 +5,7 @@
 pub mod alpha;
 pub mod bootstrap;
 pub mod factor;
+mod fast;
 pub mod moments;
 pub mod read;
 

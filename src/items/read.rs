@@ -74,7 +74,7 @@ impl ItemData {
 
 /// Parse a response: a fast path for small whole numbers, else the general parser.
 #[inline]
-fn parse_response(cell: &[u8], decimal_comma: bool) -> std::result::Result<f64, String> {
+pub(super) fn parse_response(cell: &[u8], decimal_comma: bool) -> std::result::Result<f64, String> {
     if !cell.is_empty() && cell.len() <= 3 && cell.iter().all(u8::is_ascii_digit) {
         let mut v = 0u32;
         for &c in cell {
@@ -87,12 +87,22 @@ fn parse_response(cell: &[u8], decimal_comma: bool) -> std::result::Result<f64, 
     parse_number(text, decimal_comma)
 }
 
-fn missing_cell(cell: &[u8]) -> bool {
+pub(super) fn missing_cell(cell: &[u8]) -> bool {
     cell.is_empty() || std::str::from_utf8(cell).map(is_missing).unwrap_or(false)
 }
 
 /// Read an item file in one pass.
 pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
+    read_items_with(path, options, Some(super::fast::PART_BYTES))
+}
+
+/// [`read_items`], with the parallel fast path (in parts of the given size) or without it;
+/// tests compare the two.
+fn read_items_with(
+    path: &Path,
+    options: &ItemReadOptions,
+    fast_parts: Option<usize>,
+) -> Result<ItemData> {
     let file = path.display().to_string();
     let mut handle = std::fs::File::open(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => Error::InvalidOption(format!(
@@ -259,7 +269,47 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
     let mut values = vec![0.0; k];
     let mut optional: Vec<Option<f64>> = vec![None; k];
     let width = header.len();
-    while reader.read_byte_record(&mut record).map_err(read_err)? {
+    // Clean files under listwise deletion take the parallel fast path; anything it does
+    // not handle is read below, from the row after the header, by the careful reader.
+    let mut fast_done = false;
+    if let (Some(part_bytes), Missing::Listwise) = (fast_parts, options.missing) {
+        let mut slot_of = vec![None; width];
+        for (slot, &c) in columns.iter().enumerate() {
+            slot_of[c] = Some(slot);
+        }
+        let layout = super::fast::Layout {
+            width,
+            slot_of,
+            unnamed: &unnamed,
+            k,
+            delimiter,
+            decimal_comma,
+            scale: options.scale,
+            reversed: &reversed,
+            keep_rows: options.keep_rows,
+            part_bytes,
+        };
+        let data_start = bom as u64 + reader.position().byte();
+        let mut again =
+            std::fs::File::open(path).map_err(|e| Error::io(format!("reading {file}"), e))?;
+        again
+            .seek(SeekFrom::Start(data_start))
+            .map_err(|e| Error::io(format!("reading {file}"), e))?;
+        let outcome = super::fast::read_rows(again, &layout)
+            .map_err(|e| Error::io(format!("reading {file}"), e))?;
+        if let Ok(t) = outcome {
+            listwise = t.listwise;
+            seen = t.seen;
+            lowest = t.lowest;
+            highest = t.highest;
+            counting = t.counting;
+            rows_read = t.rows_read;
+            missing_cells = t.missing_cells;
+            rows = t.rows;
+            fast_done = true;
+        }
+    }
+    while !fast_done && reader.read_byte_record(&mut record).map_err(read_err)? {
         // Spreadsheet row: blank lines before the record count as rows.
         let start = record.position().map(|p| p.line()).unwrap_or(0);
         let consumed = reader.position().line().saturating_sub(start) as usize;
@@ -488,4 +538,118 @@ pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
         moments,
         rows,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn write(name: &str, text: &str) -> std::path::PathBuf {
+        let dir = std::env::temp_dir().join(format!("relyard-items-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let p = dir.join(name);
+        std::fs::write(&p, text).unwrap();
+        p
+    }
+
+    /// Both readers, with the same options: equal results, or the same error.
+    fn both(path: &Path, options: &ItemReadOptions) -> std::result::Result<ItemData, String> {
+        // Small parts, so that the tallies are merged across many part boundaries.
+        let fast = read_items_with(path, options, Some(997));
+        let careful = read_items_with(path, options, None);
+        match (fast, careful) {
+            (Ok(a), Ok(b)) => {
+                assert_eq!(a.rows_read, b.rows_read);
+                assert_eq!(a.complete_rows, b.complete_rows);
+                assert_eq!(a.missing_cells, b.missing_cells);
+                assert_eq!(a.notes, b.notes);
+                assert_eq!(a.rows, b.rows);
+                assert!((a.moments.cov.clone() - b.moments.cov.clone()).abs().max() < 1e-12);
+                assert!(
+                    (a.moments.mean.clone() - b.moments.mean.clone())
+                        .abs()
+                        .max()
+                        < 1e-12
+                );
+                Ok(a)
+            }
+            (Err(a), Err(b)) => {
+                assert_eq!(a.to_string(), b.to_string());
+                Err(a.to_string())
+            }
+            (a, b) => panic!("the readers disagree: {:?} / {:?}", a.err(), b.err()),
+        }
+    }
+
+    /// A file long enough to be split among threads, with the things clean files hold:
+    /// blank lines, CRLF, missing cells, spaces, an empty trailing column, a counting
+    /// identifier column and an answer far off the others.
+    #[test]
+    fn fast_and_careful_readers_agree() {
+        let mut text = String::from("id,a,b,c,\r\n");
+        let mut id = 0;
+        for i in 1..=3000 {
+            let (a, b, c) = (i % 5 + 1, (i * 7) % 5 + 1, (i * 3 + i / 7) % 5 + 1);
+            if i % 97 < 4 && i % 97 >= 2 {
+                text.push_str(if i % 97 == 2 { "\r\n" } else { ",,,,\r\n" });
+                continue;
+            }
+            id += 1;
+            match i % 97 {
+                0 => text.push_str(&format!("{id},{a},,{c},\r\n")),
+                1 => text.push_str(&format!("{id}, {a} ,NA,{c},\r\n")),
+                _ => text.push_str(&format!("{id},{a},{b},{c},\r\n")),
+            }
+        }
+        text.push_str(&format!("{},99,1,1,", id + 1));
+        let p = write("agree.csv", &text);
+        let d = both(&p, &ItemReadOptions::default()).unwrap();
+        assert!(
+            d.notes
+                .iter()
+                .any(|w| matches!(w, crate::Warning::IdentifierColumn { .. }))
+        );
+        assert!(
+            d.notes
+                .iter()
+                .any(|w| matches!(w, crate::Warning::ExtremeResponse { .. }))
+        );
+        let chosen = ItemReadOptions {
+            items: Some(vec!["a".into(), "b".into(), "c".into()]),
+            reverse: vec!["b".into()],
+            scale: Some((1.0, 99.0)),
+            keep_rows: true,
+            ..ItemReadOptions::default()
+        };
+        let d = both(&p, &chosen).unwrap();
+        assert_eq!(
+            d.rows.as_ref().map(|r| r.len()),
+            Some(3 * d.complete_rows as usize)
+        );
+    }
+
+    /// Whatever the fast path declines (quotes, text, ragged rows, values off the scale,
+    /// lone carriage returns) gives the careful reader's own result or message.
+    #[test]
+    fn declined_files_read_as_before() {
+        let cases = [
+            ("quoted.csv", "a,b\n\"1\",2\n3,4\n5,1\n"),
+            ("text.csv", "a,b\n1,2\n3,x\n5,1\n"),
+            ("ragged.csv", "a,b\n1,2\n3\n5,1\n"),
+            ("extra.csv", "a,b\n1,2\n3,4,5\n5,1\n"),
+            ("lone-cr.csv", "a,b\r1,2\r3,4\r5,1\r"),
+            ("unnamed.csv", "a,,b\n1,,2\n3,9,4\n5,,1\n"),
+        ];
+        for (name, text) in cases {
+            let p = write(name, text);
+            let _ = both(&p, &ItemReadOptions::default());
+        }
+        let p = write("scale.csv", "a,b\n1,2\n3,7\n5,1\n");
+        let opts = ItemReadOptions {
+            scale: Some((1.0, 5.0)),
+            ..ItemReadOptions::default()
+        };
+        let err = both(&p, &opts).unwrap_err();
+        assert!(err.contains("row 3, column b"), "{err}");
+    }
 }

@@ -1,0 +1,310 @@
+//! The fast path for clean item files: blocks of lines parsed in parallel, complete rows
+//! accumulated by matrix products, partial results merged in file order.
+//!
+//! It takes files whose rows are plain delimited numbers (no quoted cells, lines ended
+//! by `\n` or `\r\n`) under listwise deletion. At the first thing it does not handle —
+//! a quote, a cell that is not a number or a missing mark, a row of the wrong width, a
+//! value off the response scale — it stops and the careful reader in `read.rs` reads the
+//! file instead, so that every message (with its row and column) comes from one place.
+//! Memory stays bounded: one block of the file at a time.
+
+use super::moments::Listwise;
+use super::read::{missing_cell, parse_response};
+use rayon::prelude::*;
+use std::io::Read;
+
+/// Bytes read per block.
+const BLOCK_BYTES: usize = 8 << 20;
+/// Bytes per part of a block: parts are parsed in parallel and merged in file order.
+/// Their size is fixed (not set by the number of threads), so the sums, and every
+/// result, are the same on any machine.
+pub(super) const PART_BYTES: usize = 1 << 20;
+/// Complete rows gathered before one matrix-product update.
+const BATCH_ROWS: usize = 512;
+
+/// What the fast path needs to know about the columns.
+pub(super) struct Layout<'a> {
+    /// Number of columns in the header.
+    pub width: usize,
+    /// For each column of the file, its item slot (None: not an item).
+    pub slot_of: Vec<Option<usize>>,
+    /// Columns without a name (must stay empty).
+    pub unnamed: &'a [usize],
+    /// Number of items.
+    pub k: usize,
+    /// Delimiter.
+    pub delimiter: u8,
+    /// Decimal comma allowed.
+    pub decimal_comma: bool,
+    /// Response scale (range check and reverse keying).
+    pub scale: Option<(f64, f64)>,
+    /// Reverse-keyed items.
+    pub reversed: &'a [bool],
+    /// Keep the complete rows.
+    pub keep_rows: bool,
+    /// Bytes per part ([`PART_BYTES`]; smaller in tests, to cross part boundaries).
+    pub part_bytes: usize,
+}
+
+/// What one pass gathered (the same tallies as the careful reader keeps).
+#[derive(Debug, Clone)]
+pub(super) struct Tallies {
+    pub listwise: Listwise,
+    pub seen: Vec<u64>,
+    pub lowest: Vec<[f64; 2]>,
+    pub highest: Vec<[f64; 2]>,
+    /// Whether each item counts 1, 2, 3, … down the rows, with its first and last value.
+    pub counting: Vec<bool>,
+    pub first: Vec<Option<f64>>,
+    pub last: Vec<Option<f64>>,
+    pub rows_read: u64,
+    pub missing_cells: u64,
+    pub rows: Option<Vec<f64>>,
+}
+
+impl Tallies {
+    fn new(k: usize, keep_rows: bool) -> Self {
+        Tallies {
+            listwise: Listwise::new(k),
+            seen: vec![0; k],
+            lowest: vec![[f64::INFINITY; 2]; k],
+            highest: vec![[f64::NEG_INFINITY; 2]; k],
+            counting: vec![true; k],
+            first: vec![None; k],
+            last: vec![None; k],
+            rows_read: 0,
+            missing_cells: 0,
+            rows: keep_rows.then(Vec::new),
+        }
+    }
+
+    /// Note an answer of item `slot`.
+    #[inline]
+    fn answer(&mut self, slot: usize, x: f64) {
+        self.seen[slot] += 1;
+        let lo = &mut self.lowest[slot];
+        if x < lo[0] {
+            lo[1] = lo[0];
+            lo[0] = x;
+        } else if x < lo[1] {
+            lo[1] = x;
+        }
+        let hi = &mut self.highest[slot];
+        if x > hi[0] {
+            hi[1] = hi[0];
+            hi[0] = x;
+        } else if x > hi[1] {
+            hi[1] = x;
+        }
+        match self.last[slot] {
+            Some(p) if x != p + 1.0 => self.counting[slot] = false,
+            None => self.first[slot] = Some(x),
+            _ => {}
+        }
+        self.last[slot] = Some(x);
+    }
+
+    /// Append the tallies of the rows that follow these in the file.
+    fn append(&mut self, next: Tallies) {
+        self.listwise.merge(&next.listwise);
+        for i in 0..self.seen.len() {
+            self.seen[i] += next.seen[i];
+            let mut lows = [self.lowest[i], next.lowest[i]].concat();
+            lows.sort_by(|a, b| a.total_cmp(b));
+            self.lowest[i] = [lows[0], lows[1]];
+            let mut highs = [self.highest[i], next.highest[i]].concat();
+            highs.sort_by(|a, b| b.total_cmp(a));
+            self.highest[i] = [highs[0], highs[1]];
+            let joined = match (self.last[i], next.first[i]) {
+                (Some(l), Some(f)) => f == l + 1.0,
+                _ => true,
+            };
+            self.counting[i] = self.counting[i] && next.counting[i] && joined;
+            if self.first[i].is_none() {
+                self.first[i] = next.first[i];
+            }
+            if next.last[i].is_some() {
+                self.last[i] = next.last[i];
+            }
+        }
+        self.rows_read += next.rows_read;
+        self.missing_cells += next.missing_cells;
+        if let (Some(r), Some(n)) = (self.rows.as_mut(), next.rows) {
+            r.extend(n);
+        }
+    }
+}
+
+/// Why the fast path stopped: the careful reader takes over.
+pub(super) struct Declined;
+
+/// Read the data rows of `reader` (positioned at the first byte after the header row).
+/// `Ok(Err(Declined))` when the file needs the careful reader.
+pub(super) fn read_rows(
+    mut reader: impl Read,
+    layout: &Layout<'_>,
+) -> std::io::Result<Result<Tallies, Declined>> {
+    let mut total = Tallies::new(layout.k, layout.keep_rows);
+    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK_BYTES + (64 << 10));
+    let mut at_end = false;
+    while !at_end {
+        // Fill the block, then keep back the incomplete last line for the next one.
+        let start = buf.len();
+        buf.resize(BLOCK_BYTES.max(start + (64 << 10)), 0);
+        let mut filled = start;
+        while filled < buf.len() {
+            let got = reader.read(&mut buf[filled..])?;
+            if got == 0 {
+                at_end = true;
+                break;
+            }
+            filled += got;
+        }
+        buf.truncate(filled);
+        let cut = if at_end {
+            buf.len()
+        } else {
+            match buf.iter().rposition(|&b| b == b'\n') {
+                Some(i) => i + 1,
+                // One line longer than a block: not a plain item file.
+                None => return Ok(Err(Declined)),
+            }
+        };
+        let block = &buf[..cut];
+        if block.contains(&b'"') {
+            return Ok(Err(Declined));
+        }
+        let parts = split_lines(block, block.len().div_ceil(layout.part_bytes.max(1)).max(1));
+        let results: Vec<Result<Tallies, Declined>> = parts
+            .par_iter()
+            .map(|part| read_part(part, layout))
+            .collect();
+        for r in results {
+            match r {
+                Ok(t) => total.append(t),
+                Err(d) => return Ok(Err(d)),
+            }
+        }
+        buf.drain(..cut);
+    }
+    Ok(Ok(total))
+}
+
+/// Split `block` into about `parts` pieces at line ends.
+fn split_lines(block: &[u8], parts: usize) -> Vec<&[u8]> {
+    let mut out = Vec::with_capacity(parts);
+    let mut rest = block;
+    for i in (1..parts).rev() {
+        let target = rest.len() / (i + 1);
+        match rest[target..].iter().position(|&b| b == b'\n') {
+            Some(j) => {
+                let (a, b) = rest.split_at(target + j + 1);
+                out.push(a);
+                rest = b;
+            }
+            None => break,
+        }
+    }
+    out.push(rest);
+    out
+}
+
+/// Parse one piece of whole lines.
+fn read_part(part: &[u8], layout: &Layout<'_>) -> Result<Tallies, Declined> {
+    let k = layout.k;
+    let mut t = Tallies::new(k, layout.keep_rows);
+    let mut batch: Vec<f64> = Vec::with_capacity(BATCH_ROWS * k);
+    let mut scratch = Vec::new();
+    let mut values = vec![0.0; k];
+    let flush = |t: &mut Tallies, batch: &mut Vec<f64>, scratch: &mut Vec<f64>| {
+        if let Some(r) = t.rows.as_mut() {
+            r.extend_from_slice(batch);
+        }
+        t.listwise.add_block(batch, scratch);
+        batch.clear();
+    };
+    for line in part.split(|&b| b == b'\n') {
+        let line = line.strip_suffix(b"\r").unwrap_or(line);
+        if line.contains(&b'\r') {
+            // A lone carriage return ends a row for the careful reader.
+            return Err(Declined);
+        }
+        // Blank: nothing but spaces and delimiters (as the careful reader judges it).
+        if line
+            .iter()
+            .all(|&b| b.is_ascii_whitespace() || b == layout.delimiter)
+        {
+            continue;
+        }
+        t.rows_read += 1;
+        let mut complete = true;
+        let mut cells = 0usize;
+        for (col, cell) in line.split(|&b| b == layout.delimiter).enumerate() {
+            cells += 1;
+            let slot = match layout.slot_of.get(col) {
+                Some(Some(s)) => *s,
+                Some(None) => {
+                    if layout.unnamed.contains(&col) && !cell.trim_ascii().is_empty() {
+                        return Err(Declined);
+                    }
+                    continue;
+                }
+                // Beyond the header: allowed only when empty.
+                None => {
+                    if cell.is_empty() {
+                        continue;
+                    }
+                    return Err(Declined);
+                }
+            };
+            let x = match cell {
+                [d @ b'0'..=b'9'] => f64::from(d - b'0'),
+                _ => {
+                    let trimmed = cell.trim_ascii();
+                    if missing_cell(trimmed) {
+                        complete = false;
+                        t.missing_cells += 1;
+                        continue;
+                    }
+                    parse_response(trimmed, layout.decimal_comma).map_err(|_| Declined)?
+                }
+            };
+            let x = match layout.scale {
+                Some((lo, hi)) if x < lo || x > hi => return Err(Declined),
+                Some((lo, hi)) if layout.reversed[slot] => lo + hi - x,
+                _ => x,
+            };
+            values[slot] = x;
+            t.answer(slot, x);
+        }
+        if cells < layout.width {
+            return Err(Declined);
+        }
+        if complete {
+            batch.extend_from_slice(&values);
+            if batch.len() == BATCH_ROWS * k {
+                flush(&mut t, &mut batch, &mut scratch);
+            }
+        }
+    }
+    flush(&mut t, &mut batch, &mut scratch);
+    Ok(t)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn splits_at_line_ends() {
+        let block = b"a\nbb\nccc\ndddd\n";
+        for parts in 1..6 {
+            let p = split_lines(block, parts);
+            assert_eq!(p.concat(), block.to_vec());
+            assert!(
+                p.iter().all(|x| x.is_empty() || x.ends_with(b"\n")),
+                "{p:?}"
+            );
+        }
+    }
+}
