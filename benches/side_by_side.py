@@ -232,18 +232,18 @@ def run(d, repeat):
     py = sys.executable
     cases = [
         ("a. pool, k = 100,000",
-         [exe, "pool", f"{d}/pool-100k.csv", "--json"],
+         [exe, "pool", f"{d}/pool-100k.csv"],
          [py, "-c", BASELINE_POOL, f"{d}/pool-100k.csv"], 0.15, 5),
         ("b. explain, 5 moderators, 10,000 permutations",
          [exe, "explain", f"{d}/explain-300.csv"] + sum([["--moderator", f"m{j}"] for j in range(1, 6)], [])
-         + ["--permutations", "10000", "--json"],
+         + ["--permutations", "10000"],
          [py, "-c", BASELINE_EXPLAIN, f"{d}/explain-300.csv", "10000"], 1.0, 5),
         ("c. items, 1,000,000 x 40",
-         [exe, "items", f"{d}/items-1m-40.csv", "--json"],
+         [exe, "items", f"{d}/items-1m-40.csv"],
          [py, "-c", BASELINE_ITEMS, f"{d}/items-1m-40.csv"], 1.0, 3),
         ("d. correct, 1,000,000 draws",
          [exe, "correct", "--r", "0.3", "--n", "200", "--rel-x", "0.8,n=200,items=10",
-          "--rel-y", "0.7,n=200,items=8", "--draws", "1000000", "--json"],
+          "--rel-y", "0.7,n=200,items=8", "--draws", "1000000"],
          [py, "-c", BASELINE_CORRECT, "1000000"], 0.1, 5),
     ]
     rows = []

@@ -198,24 +198,23 @@ pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Pre
 
     // Check every parsed row against the transform.
     let mut problems = sheet.problems.clone();
-    let mut usable = Vec::with_capacity(sheet.records.len());
+    let mut usable;
     let role_of = |f: InputField| match f {
         InputField::Coef => Role::Coef,
         InputField::N => Role::N,
         InputField::Items => Role::Items,
         InputField::Var => Role::Var,
     };
-    let records = std::mem::take(&mut sheet.records);
-    for rec in records {
-        let unmet = tr.check(&study_input(&rec));
+    // Filtered in place: the records are not copied.
+    usable = std::mem::take(&mut sheet.records);
+    usable.retain(|rec| {
+        let unmet = tr.check(&study_input(rec));
         for u in &unmet {
             let label = sheet.column_label(role_of(u.field));
             problems.push(CellProblem::cell(rec.row, label, u.reason.clone()));
         }
-        if unmet.is_empty() {
-            usable.push(rec);
-        }
-    }
+        unmet.is_empty()
+    });
     // Rows that did not parse: check what could be read, so that every problem of the
     // file is reported at once (a placeholder coefficient stands in for one that failed).
     for part in &sheet.partial {

@@ -11,6 +11,31 @@ pub struct MetaData {
     y: Vec<f64>,
     v: Vec<f64>,
     x: DMatrix<f64>,
+    /// The products of every pair of design columns (a ≤ b), each pair's k products
+    /// contiguous, so that XᵀWX is p(p + 1)/2 dot products with the weights; formed once
+    /// per data set (when it fits in [`PAIR_PRODUCTS_MAX`] values).
+    pairs: Option<Vec<f64>>,
+}
+
+/// Most values held for the pairwise column products (32 MB); larger designs form the
+/// products on the fly.
+const PAIR_PRODUCTS_MAX: usize = 4 << 20;
+
+fn pair_products(x: &DMatrix<f64>) -> Option<Vec<f64>> {
+    let (k, p) = x.shape();
+    let cells = p * (p + 1) / 2;
+    if p == 1 || cells.saturating_mul(k) > PAIR_PRODUCTS_MAX {
+        return None;
+    }
+    let cols = x.as_slice();
+    let mut out = Vec::with_capacity(cells * k);
+    for a in 0..p {
+        for b in 0..=a {
+            let (ca, cb) = (&cols[a * k..(a + 1) * k], &cols[b * k..(b + 1) * k]);
+            out.extend(ca.iter().zip(cb).map(|(u, v)| u * v));
+        }
+    }
+    Some(out)
 }
 
 impl MetaData {
@@ -47,7 +72,8 @@ impl MetaData {
                 "the design matrix holds a value that is not a finite number".into(),
             ));
         }
-        Ok(MetaData { y, v, x })
+        let pairs = pair_products(&x);
+        Ok(MetaData { y, v, x, pairs })
     }
 
     /// Number of studies.
@@ -79,6 +105,7 @@ impl MetaData {
     pub(crate) fn design(&self) -> Design<'_> {
         Design {
             cols: self.x.as_slice(),
+            pairs: self.pairs.as_deref(),
             k: self.x.nrows(),
             p: self.x.ncols(),
         }
@@ -95,6 +122,7 @@ impl MetaData {
                 y: self.y.iter().map(|y| y / root).collect(),
                 v: self.v.iter().map(|v| v / s).collect(),
                 x: self.x.clone(),
+                pairs: self.pairs.clone(),
             },
             s,
         )
@@ -138,6 +166,7 @@ pub(crate) struct WeightedFit {
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Design<'a> {
     cols: &'a [f64],
+    pairs: Option<&'a [f64]>,
     k: usize,
     p: usize,
 }
@@ -152,40 +181,53 @@ impl Design<'_> {
 /// instructions and hide the latency of each addition.
 const LANES: usize = 8;
 
-/// Σᵢ wᵢ aᵢ bᵢ with [`LANES`] running sums, then the remainder.
-fn dot3(w: &[f64], a: &[f64], b: &[f64]) -> f64 {
-    let [s] = dots([w], a, b);
+/// Σᵢ aᵢ bᵢ with [`LANES`] running sums, then the remainder.
+#[inline]
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let body = n / LANES * LANES;
+    let mut acc = [0.0; LANES];
+    for (ac, bc) in a[..body]
+        .chunks_exact(LANES)
+        .zip(b[..body].chunks_exact(LANES))
+    {
+        for j in 0..LANES {
+            acc[j] += ac[j] * bc[j];
+        }
+    }
+    let mut s = acc.iter().sum::<f64>();
+    for i in body..n {
+        s += a[i] * b[i];
+    }
     s
 }
 
-/// Σᵢ w_mᵢ aᵢ bᵢ for each of M weight vectors in one pass over a and b.
-fn dots<const M: usize>(ws: [&[f64]; M], a: &[f64], b: &[f64]) -> [f64; M] {
-    let n = ws
-        .iter()
-        .map(|w| w.len())
-        .fold(a.len().min(b.len()), usize::min);
+/// Σᵢ wᵢ xᵢ² with [`LANES`] running sums.
+fn dot_weighted_square(w: &[f64], x: &[f64]) -> f64 {
+    let n = w.len().min(x.len());
+    let (w, x) = (&w[..n], &x[..n]);
     let body = n / LANES * LANES;
-    let mut acc = [[0.0; LANES]; M];
-    for start in (0..body).step_by(LANES) {
-        let (ac, bc) = (&a[start..start + LANES], &b[start..start + LANES]);
-        let mut ab = [0.0; LANES];
+    let mut acc = [0.0; LANES];
+    for (wc, xc) in w[..body]
+        .chunks_exact(LANES)
+        .zip(x[..body].chunks_exact(LANES))
+    {
         for j in 0..LANES {
-            ab[j] = ac[j] * bc[j];
-        }
-        for (accm, w) in acc.iter_mut().zip(ws) {
-            let wc = &w[start..start + LANES];
-            for j in 0..LANES {
-                accm[j] += wc[j] * ab[j];
-            }
+            acc[j] += wc[j] * xc[j] * xc[j];
         }
     }
-    std::array::from_fn(|m| {
-        let mut s = acc[m].iter().sum::<f64>();
-        for i in body..n {
-            s += ws[m][i] * a[i] * b[i];
-        }
-        s
-    })
+    let mut s = acc.iter().sum::<f64>();
+    for i in body..n {
+        s += w[i] * x[i] * x[i];
+    }
+    s
+}
+
+/// Σᵢ wᵢ aᵢ bᵢ.
+fn dot3(w: &[f64], a: &[f64], b: &[f64]) -> f64 {
+    let ab: Vec<f64> = a.iter().zip(b).map(|(x, y)| x * y).collect();
+    dot(w, &ab)
 }
 
 /// Σᵢ wᵢ xᵢ xᵢᵀ for each weight vector in `weights`: p(p + 1)/2 weighted dot products of
@@ -194,15 +236,35 @@ pub(crate) fn cross_products<const M: usize>(
     d: Design<'_>,
     weights: [&[f64]; M],
 ) -> [DMatrix<f64>; M] {
-    let p = d.p;
+    let (p, k) = (d.p, d.k);
+    if p == 1 && d.pairs.is_none() {
+        // One column (plain pooling): Σ wᵢ xᵢ² directly.
+        let x = d.col(0);
+        return weights.map(|w| {
+            let wx: f64 = dot_weighted_square(w, x);
+            DMatrix::from_element(1, 1, wx)
+        });
+    }
     let mut out: [DMatrix<f64>; M] = std::array::from_fn(|_| DMatrix::zeros(p, p));
+    // The product of two columns (formed once per data set, or here) weighted M ways.
+    let mut scratch = Vec::new();
+    let mut t = 0;
     for a in 0..p {
         for b in 0..=a {
-            let s = dots(weights, d.col(a), d.col(b));
-            for (o, sm) in out.iter_mut().zip(s) {
-                o[(a, b)] = sm;
-                o[(b, a)] = sm;
+            let ab: &[f64] = match d.pairs {
+                Some(pairs) => &pairs[t * k..(t + 1) * k],
+                None => {
+                    scratch.clear();
+                    scratch.extend(d.col(a).iter().zip(d.col(b)).map(|(x, y)| x * y));
+                    &scratch
+                }
+            };
+            for (o, w) in out.iter_mut().zip(weights) {
+                let s = dot(w, ab);
+                o[(a, b)] = s;
+                o[(b, a)] = s;
             }
+            t += 1;
         }
     }
     out
@@ -221,7 +283,8 @@ pub(crate) fn cross_product(d: Design<'_>, w: &[f64], power: i32) -> DMatrix<f64
 
 /// Σᵢ wᵢ xᵢ yᵢ.
 fn cross_with(d: Design<'_>, w: &[f64], y: &[f64]) -> DVector<f64> {
-    DVector::from_iterator(d.p, (0..d.p).map(|a| dot3(w, d.col(a), y)))
+    let wy: Vec<f64> = w.iter().zip(y).map(|(w, y)| w * y).collect();
+    DVector::from_iterator(d.p, (0..d.p).map(|a| dot(&wy, d.col(a))))
 }
 
 /// The residuals y − Xβ.
