@@ -202,7 +202,7 @@ r, n = 0.3, 200
 z = rng.normal(np.arctanh(r), 1 / np.sqrt(n - 3), N)
 def rel(value, n, k):
     s = np.sqrt(2 * k / ((k - 1) * (n - 2)))
-    return 1 - np.exp(rng.normal(np.log(1 - value), s, N))
+    return 1 - np.exp(rng.normal(np.log(1 - value) - np.log(n / (n - 1)), s, N))
 rx, ry = rel(0.8, 200, 10), rel(0.7, 200, 8)
 ok = (rx > 0) & (ry > 0)
 c = np.where(ok, np.tanh(z) / np.sqrt(np.abs(rx * ry)), np.sign(z))

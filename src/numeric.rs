@@ -144,9 +144,70 @@ pub fn percentile_interval(values: &mut [f64], level: f64) -> Option<(f64, f64)>
         return None;
     }
     let a = 1.0 - level;
+    if values.len() >= PARALLEL_SELECTION_MIN {
+        let lo = bracketed_quantile(values, a / 2.0);
+        let hi = bracketed_quantile(values, 1.0 - a / 2.0);
+        if let (Some(lo), Some(hi)) = (lo, hi) {
+            return Some((lo, hi));
+        }
+    }
     let lo = select_quantile(values, a / 2.0);
     let hi = select_quantile(values, 1.0 - a / 2.0);
     Some((lo, hi))
+}
+
+/// From this many values on, quantiles are found by [`bracketed_quantile`].
+const PARALLEL_SELECTION_MIN: usize = 200_000;
+
+/// The type-7 quantile of many values without reordering them: a systematic sample
+/// brackets the quantile, one parallel pass counts the values below the bracket and
+/// gathers those inside it, and selection among those few gives the exact order
+/// statistics. `None` when the bracket misses (then the caller selects in full).
+fn bracketed_quantile(values: &[f64], p: f64) -> Option<f64> {
+    use rayon::prelude::*;
+    let n = values.len();
+    let h = (n - 1) as f64 * p;
+    let lo = h.floor() as usize;
+    let frac = h - lo as f64;
+    // Every 32nd value; the bracket spans the sample quantile ± 6 binomial SDs.
+    let mut sample: Vec<f64> = values.iter().step_by(32).copied().collect();
+    sample.sort_by(|a, b| a.total_cmp(b));
+    let m = sample.len() as f64;
+    let half = 6.0 * (m * p * (1.0 - p)).sqrt() + 2.0;
+    let at = |r: f64| sample[(r.max(0.0) as usize).min(sample.len() - 1)];
+    let (low, high) = (at(m * p - half), at(m * p + half));
+    let (below, mut inside) = values
+        .par_chunks(1 << 16)
+        .map(|c| {
+            let mut inside = Vec::new();
+            let mut below = 0usize;
+            for &x in c {
+                if x.total_cmp(&low).is_lt() {
+                    below += 1;
+                } else if x.total_cmp(&high).is_le() {
+                    inside.push(x);
+                }
+            }
+            (below, inside)
+        })
+        .reduce(
+            || (0, Vec::new()),
+            |mut a, b| {
+                a.0 += b.0;
+                a.1.extend(b.1);
+                a
+            },
+        );
+    // Both order statistics (lo and lo + 1) must fall inside the bracket.
+    if below > lo || below + inside.len() < lo + 2 {
+        return None;
+    }
+    let (_, &mut x_lo, above) = inside.select_nth_unstable_by(lo - below, |a, b| a.total_cmp(b));
+    if frac == 0.0 {
+        return Some(x_lo);
+    }
+    let x_hi = above.iter().copied().fold(f64::INFINITY, f64::min);
+    Some(x_lo + frac * (x_hi - x_lo))
 }
 
 #[cfg(test)]
@@ -155,6 +216,40 @@ mod tests {
     /// Selection gives the type-7 (linear) quantile of the sorted values: numpy's
     /// documented example `np.percentile([[10, 7, 4], [3, 2, 1]], 50)` is 3.5 (numpy
     /// reference for `percentile`, from memory), and random arrays agree with sorting.
+    /// The bracketed quantile of many values is exactly the type-7 quantile, ties and
+    /// values at a bound included.
+    #[test]
+    fn bracketed_quantiles_are_exact() {
+        let mut state = 99u64;
+        let mut v: Vec<f64> = (0..300_001)
+            .map(|_| {
+                state = state
+                    .wrapping_mul(6364136223846793005)
+                    .wrapping_add(1442695040888963407);
+                let u = (state >> 11) as f64 / (1u64 << 53) as f64;
+                // A tenth of the values sit at the bound 1, as capped draws do.
+                if u > 0.9 {
+                    1.0
+                } else {
+                    (u * 1000.0).round() / 1000.0
+                }
+            })
+            .collect();
+        for p in [0.025, 0.5, 0.975, 0.999] {
+            let want = select_quantile(&mut v.clone(), p);
+            assert_eq!(bracketed_quantile(&v, p), Some(want), "p {p}");
+        }
+        let mut w = v.clone();
+        let both = percentile_interval(&mut w, 0.95).unwrap();
+        v.sort_by(|a, b| a.total_cmp(b));
+        let h = (v.len() - 1) as f64 * 0.025;
+        assert_eq!(
+            both.0,
+            v[h.floor() as usize]
+                + (h - h.floor()) * (v[h.ceil() as usize] - v[h.floor() as usize])
+        );
+    }
+
     #[test]
     fn selection_quantiles_match_sorting() {
         let mut a = [10.0, 7.0, 4.0, 3.0, 2.0, 1.0];

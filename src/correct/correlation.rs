@@ -7,6 +7,20 @@ use crate::error::{Error, Result};
 use crate::random::draw;
 use rayon::prelude::*;
 
+/// tanh z as 1 − 2/(e^{2z} + 1): one exponential, about twice as fast as the library
+/// tanh in the draw loop, and within 1e-15 of it in absolute terms (the loss of relative
+/// precision near z = 0 does not matter for percentiles of corrected correlations).
+#[inline]
+fn tanh_by_exp(z: f64) -> f64 {
+    if z > 20.0 {
+        1.0
+    } else if z < -20.0 {
+        -1.0
+    } else {
+        1.0 - 2.0 / ((2.0 * z).exp() + 1.0)
+    }
+}
+
 /// A correlation and the reliabilities of its two scores.
 #[derive(Debug, Clone)]
 pub struct CorrelationInput {
@@ -114,7 +128,7 @@ pub fn correct_correlation(
     let (sx, sy) = (input.rel_x.sampler(), input.rel_y.sampler());
     let mut values = vec![0.0; draws];
     parallel_fill(&mut values, seed, progress, |rng| {
-        let r = (zr + se * draw::normal(rng)).tanh();
+        let r = tanh_by_exp(zr + se * draw::normal(rng));
         let (a, b) = (sx.draw(rng), sy.draw(rng));
         // A reliability at or below 0 makes the correction unbounded: beyond ±1 too.
         if a <= 0.0 || b <= 0.0 {
@@ -172,4 +186,18 @@ pub fn correct_correlation(
         seed,
         sensitivity,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The draw loop's tanh agrees with the standard library's (libm) to 1e-15.
+    #[test]
+    fn tanh_by_exp_matches_the_library() {
+        for i in -4000..=4000 {
+            let z = f64::from(i) / 100.0;
+            assert!((tanh_by_exp(z) - z.tanh()).abs() < 1e-15, "{z}");
+        }
+    }
 }
