@@ -145,22 +145,14 @@ pub(super) fn read_rows(
     layout: &Layout<'_>,
 ) -> std::io::Result<Result<Tallies, Declined>> {
     let mut total = Tallies::new(layout.k, layout.keep_rows);
-    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK_BYTES + (64 << 10));
+    let mut buf: Vec<u8> = Vec::new();
     let mut at_end = false;
     while !at_end {
-        // Fill the block, then keep back the incomplete last line for the next one.
-        let start = buf.len();
-        buf.resize(BLOCK_BYTES.max(start + (64 << 10)), 0);
-        let mut filled = start;
-        while filled < buf.len() {
-            let got = reader.read(&mut buf[filled..])?;
-            if got == 0 {
-                at_end = true;
-                break;
-            }
-            filled += got;
-        }
-        buf.truncate(filled);
+        // Fill the block (the buffer grows only as far as the file goes), then keep back
+        // the incomplete last line for the next one.
+        let want = BLOCK_BYTES.saturating_sub(buf.len()).max(64 << 10);
+        let got = (&mut reader).take(want as u64).read_to_end(&mut buf)?;
+        at_end = got < want;
         let cut = if at_end {
             buf.len()
         } else {

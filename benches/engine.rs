@@ -1,0 +1,157 @@
+//! Criterion benchmarks of the four heavy workloads, in process (no start-up, no file
+//! output): pooling 100,000 coefficients, a permutation test, reading item data, and
+//! Monte Carlo corrections. Inputs are generated here with a fixed seed (invented
+//! values). Whole-process timings against Python baselines: benches/side_by_side.py.
+//!
+//!     cargo bench --bench engine
+
+use criterion::{Criterion, criterion_group, criterion_main};
+use relyard::benchmark::{BenchmarkOptions, from_prepared, prepare};
+use relyard::correct::ReliabilitySource;
+use relyard::correct::correlation::{CorrelationInput, correct_correlation};
+use relyard::items::{ItemReadOptions, read_items};
+use relyard::metareg::{ModeratorSpec, build_design, explain, permutation::permutation_test};
+use relyard::sheet::parse_coding_sheet;
+use std::fmt::Write;
+use std::hint::black_box;
+
+/// A small deterministic generator (SplitMix64), so the inputs need no extra crate.
+struct Gen(u64);
+
+impl Gen {
+    fn next(&mut self) -> f64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        ((z ^ (z >> 31)) >> 11) as f64 / (1u64 << 53) as f64
+    }
+    fn normal(&mut self) -> f64 {
+        let (u, v) = (1.0 - self.next(), self.next());
+        (-2.0 * u.ln()).sqrt() * (std::f64::consts::TAU * v).cos()
+    }
+}
+
+/// A coding sheet of `k` alpha coefficients with `moderators` numeric moderators.
+fn sheet(k: usize, moderators: usize) -> String {
+    let mut g = Gen(7);
+    let mut s = String::from("study,coef,n,items");
+    for j in 1..=moderators {
+        write!(s, ",m{j}").unwrap();
+    }
+    s.push('\n');
+    for i in 0..k {
+        let n = 80 + (g.next() * 1400.0) as u64;
+        let items = 4 + (g.next() * 20.0) as u64;
+        let mods: Vec<f64> = (0..moderators).map(|_| g.normal()).collect();
+        let v = 2.0 * items as f64 / ((items as f64 - 1.0) * (n as f64 - 2.0));
+        let t = (0.18f64).ln()
+            + 0.1 * mods.first().copied().unwrap_or(0.0)
+            + 0.25 * g.normal()
+            + v.sqrt() * g.normal();
+        write!(s, "s{i},{:.4},{n},{items}", 1.0 - t.exp()).unwrap();
+        for m in mods {
+            write!(s, ",{m:.4}").unwrap();
+        }
+        s.push('\n');
+    }
+    s
+}
+
+fn pooling(c: &mut Criterion) {
+    let text = sheet(100_000, 0);
+    let opts = BenchmarkOptions::default();
+    c.bench_function("pool 100,000 coefficients (REML, KH, Q-profile, PI)", |b| {
+        b.iter(|| {
+            let s = parse_coding_sheet("bench.csv", text.as_bytes(), &Default::default()).unwrap();
+            let p = prepare(s, &opts).unwrap();
+            black_box(from_prepared(p, &opts.pool).unwrap())
+        })
+    });
+}
+
+fn permutations(c: &mut Criterion) {
+    let text = sheet(300, 5);
+    let opts = BenchmarkOptions::default();
+    let s = parse_coding_sheet("bench.csv", text.as_bytes(), &Default::default()).unwrap();
+    let p = prepare(s, &opts).unwrap();
+    let specs: Vec<ModeratorSpec> = (1..=5)
+        .map(|j| ModeratorSpec::auto(format!("m{j}")))
+        .collect();
+    let design = build_design(&p, &specs).unwrap();
+    let fit_options = relyard::pool::FitOptions {
+        model: opts.pool.model,
+        ci: opts.pool.ci,
+        level: 0.95,
+        tau2_interval: true,
+    };
+    let ex = explain(&p, design, &fit_options).unwrap();
+    let mut group = c.benchmark_group("explain");
+    group.sample_size(10);
+    group.bench_function("1,000 permutations, k = 300, 5 moderators", |b| {
+        b.iter(|| black_box(permutation_test(&p, &ex, 1000, 1, &|_| {}).unwrap()))
+    });
+    group.finish();
+}
+
+fn item_data(c: &mut Criterion) {
+    let mut g = Gen(11);
+    let mut text = String::new();
+    let k = 40;
+    text.push_str(
+        &(1..=k)
+            .map(|j| format!("q{j}"))
+            .collect::<Vec<_>>()
+            .join(","),
+    );
+    text.push('\n');
+    for _ in 0..100_000 {
+        let eta = g.normal();
+        let row: Vec<String> = (0..k)
+            .map(|j| {
+                let l = 0.4 + 0.4 * j as f64 / k as f64;
+                let x = l * eta + (1.0 - l * l).sqrt() * g.normal();
+                (((x + 2.5).floor()).clamp(0.0, 4.0) as u8 + 1).to_string()
+            })
+            .collect();
+        text.push_str(&row.join(","));
+        text.push('\n');
+    }
+    let path = std::env::temp_dir().join(format!("relyard-bench-items-{}.csv", std::process::id()));
+    std::fs::write(&path, text).unwrap();
+    let mut group = c.benchmark_group("items");
+    group.sample_size(10);
+    group.bench_function("read 100,000 x 40 five-point items", |b| {
+        b.iter(|| black_box(read_items(&path, &ItemReadOptions::default()).unwrap()))
+    });
+    group.finish();
+    let _ = std::fs::remove_file(&path);
+}
+
+fn monte_carlo(c: &mut Criterion) {
+    let input = CorrelationInput {
+        r: 0.3,
+        n: 200,
+        rel_x: ReliabilitySource::Estimate {
+            value: 0.8,
+            n: 200,
+            items: 10,
+            kind: None,
+        },
+        rel_y: ReliabilitySource::Estimate {
+            value: 0.7,
+            n: 200,
+            items: 8,
+            kind: None,
+        },
+    };
+    let mut group = c.benchmark_group("correct");
+    group.sample_size(20);
+    group.bench_function("1,000,000 Monte Carlo draws", |b| {
+        b.iter(|| black_box(correct_correlation(&input, 1_000_000, 1, 0.95, 5, &|_| {}).unwrap()))
+    });
+    group.finish();
+}
+
+criterion_group!(engine, pooling, permutations, item_data, monte_carlo);
+criterion_main!(engine);
