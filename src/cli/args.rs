@@ -50,6 +50,11 @@ pub struct SheetArgs {
     #[arg(long, value_name = "DELIMITER")]
     pub delimiter: Option<String>,
 
+    /// For a workbook (.xlsx, .xlsm, .xlsb, .xls, .ods): the worksheet holding the coding
+    /// sheet [default: the first].
+    #[arg(long, value_name = "NAME")]
+    pub worksheet: Option<String>,
+
     /// Pool the valid rows and list each row left out with its reason, instead of
     /// stopping at the first bad sheet.
     #[arg(long)]

@@ -47,8 +47,8 @@ pub fn run(a: CompareArgs) -> Result<(), Failure> {
         let sheet = read_coding_sheet(
             path,
             &SheetOptions {
-                delimiter: None,
                 columns,
+                ..SheetOptions::default()
             },
         )?;
         if !sheet.problems.is_empty() {

@@ -42,7 +42,11 @@ impl SheetConfig {
             .map_err(|e| bad(format!("--delimiter: {e}")))?;
         Ok(SheetConfig {
             path: a.sheet,
-            options: SheetOptions { delimiter, columns },
+            options: SheetOptions {
+                delimiter,
+                columns,
+                worksheet: a.worksheet,
+            },
             skip_invalid: a.skip_invalid,
         })
     }

@@ -8,7 +8,6 @@ use crate::benchmark::Prepared;
 use crate::metareg::spread::SpreadReading;
 use crate::placement::{Placement, Verdict};
 use crate::pool::{CiMethod, Model};
-use crate::sheet::delimiter_name;
 use crate::transform::BackInterval;
 use crate::warning::{Warning, WarningRecord};
 use serde::Serialize;
@@ -209,9 +208,9 @@ pub fn check_summary(p: &Prepared, pl: &Placement, paragraph: &Paragraph) -> Str
     let _ = writeln!(o, "{}", "─".repeat(72));
     let _ = writeln!(
         o,
-        "  sheet         {} ({} delimited; {} rows read, {} usable)",
+        "  sheet         {} ({}; {} rows read, {} usable)",
         p.file,
-        delimiter_name(p.delimiter),
+        crate::report::format::sheet_kind(p.delimiter),
         p.rows_read,
         p.records.len()
     );

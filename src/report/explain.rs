@@ -9,7 +9,6 @@ use crate::metareg::spread::ScoreSpread;
 use crate::metareg::subgroups::Subgroups;
 use crate::metareg::{Explanation, Moderator};
 use crate::pool::{CiMethod, Model, ModelFit};
-use crate::sheet::delimiter_name;
 use crate::transform::TransformKind;
 use crate::warning::{Warning, WarningRecord};
 use serde::Serialize;
@@ -134,9 +133,9 @@ pub fn explain_summary(parts: &ExplainParts) -> String {
     let _ = writeln!(o, "{rule}");
     let _ = writeln!(
         o,
-        "  sheet         {} ({} delimited; {} rows read, {} usable, {} left out)",
+        "  sheet         {} ({}; {} rows read, {} usable, {} left out)",
         p.file,
-        delimiter_name(p.delimiter),
+        crate::report::format::sheet_kind(p.delimiter),
         p.rows_read,
         p.records.len(),
         p.skipped.len()

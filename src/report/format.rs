@@ -99,6 +99,15 @@ pub fn wrap(text: &str, width: usize, prefix: &str) -> String {
     out
 }
 
+/// How a sheet was stored, for the summary's first line: "comma-delimited", "workbook", …
+pub fn sheet_kind(delimiter: u8) -> String {
+    if delimiter == crate::sheet::WORKBOOK {
+        "workbook".to_string()
+    } else {
+        format!("{}-delimited", crate::sheet::delimiter_name(delimiter))
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

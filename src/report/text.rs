@@ -5,7 +5,6 @@ use super::format::{fixed, p_value, percent_level, range, significant, thousands
 use super::paragraph::Paragraph;
 use crate::benchmark::{Benchmark, describe_types};
 use crate::pool::{CiMethod, Model, Prediction, Termination};
-use crate::sheet::delimiter_name;
 use std::fmt::Write;
 
 /// Width the text is wrapped to.
@@ -28,9 +27,9 @@ pub fn benchmark_summary(b: &Benchmark, paragraph: &Paragraph, show_studies: boo
     let _ = writeln!(o, "{rule}");
     let _ = writeln!(
         o,
-        "  sheet         {} ({} delimited; {} rows read, {} pooled, {} left out)",
+        "  sheet         {} ({}; {} rows read, {} pooled, {} left out)",
         b.file,
-        delimiter_name(b.delimiter),
+        crate::report::format::sheet_kind(b.delimiter),
         b.rows_read,
         b.studies.len(),
         b.skipped.len()

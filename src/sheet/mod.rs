@@ -10,9 +10,10 @@ mod cells;
 mod read;
 mod schema;
 pub mod template;
+mod workbook;
 
 pub use cells::{is_missing, parse_number};
-pub use read::{DELIMITERS, delimiter_name, detect_delimiter, parse_delimiter};
+pub use read::{DELIMITERS, WORKBOOK, delimiter_name, detect_delimiter, parse_delimiter};
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 
 use crate::error::{CellProblem, Error, Result};
@@ -26,6 +27,8 @@ pub struct SheetOptions {
     pub delimiter: Option<u8>,
     /// The sheet's own names for the standard columns.
     pub columns: ColumnMap,
+    /// The worksheet to read from a workbook (the first when `None`).
+    pub worksheet: Option<String>,
 }
 
 /// One coded study as read from the sheet (values checked for type and range, not yet
@@ -137,16 +140,42 @@ pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSh
         )),
         _ => Error::io(format!("reading {file}"), e),
     })?;
+    if workbook::is_workbook(path, &bytes) {
+        if options.delimiter.is_some() {
+            return Err(Error::InvalidOption(format!(
+                "--delimiter applies to text files; {file} is a workbook"
+            )));
+        }
+        let mut rows = workbook::WorkbookRows::read(&file, bytes, options.worksheet.as_deref())?;
+        let expected = rows.data_rows();
+        return parse_rows(&file, &mut rows, options, expected);
+    }
+    if options.worksheet.is_some() {
+        return Err(Error::InvalidOption(format!(
+            "--worksheet applies to workbooks (.xlsx, .xls, .ods); {file} is a text file"
+        )));
+    }
     parse_coding_sheet(&file, &bytes, options)
 }
 
 /// Read and check a coding sheet from its bytes; `file` names it in messages.
 pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> Result<CodingSheet> {
     let mut table = read::TableReader::open(file, bytes, options.delimiter)?;
-    let layout = Layout::resolve(file, &table.header, &options.columns)?;
-    let decimal_comma = table.delimiter != b',';
     let lines = bytes.iter().filter(|&&b| b == b'\n').count();
-    let mut records = Vec::with_capacity(lines + 1);
+    parse_rows(file, &mut table, options, lines + 1)
+}
+
+/// Check every row of a sheet, from whichever source.
+fn parse_rows(
+    file: &str,
+    table: &mut dyn read::RowSource,
+    options: &SheetOptions,
+    expected_rows: usize,
+) -> Result<CodingSheet> {
+    let layout = Layout::resolve(file, table.header(), &options.columns)?;
+    let delimiter = table.delimiter();
+    let decimal_comma = delimiter != b',';
+    let mut records = Vec::with_capacity(expected_rows);
     let mut problems = Vec::new();
     let mut partial = Vec::new();
     while let Some(raw) = table.next_row()? {
@@ -170,7 +199,7 @@ pub fn parse_coding_sheet(file: &str, bytes: &[u8], options: &SheetOptions) -> R
     }
     Ok(CodingSheet {
         file: file.to_string(),
-        delimiter: table.delimiter,
+        delimiter,
         columns: layout.names(),
         extra_columns: layout.extra.iter().map(|(_, n)| n.clone()).collect(),
         records,

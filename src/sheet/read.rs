@@ -15,9 +15,13 @@ pub fn delimiter_name(d: u8) -> &'static str {
         b',' => "comma",
         b';' => "semicolon",
         b'\t' => "tab",
+        WORKBOOK => "none (workbook)",
         _ => "other",
     }
 }
+
+/// The "delimiter" of a sheet read from a workbook (.xlsx, .ods, …): none.
+pub const WORKBOOK: u8 = 0;
 
 /// Parse a `--delimiter` value: `,` `;` `tab` (or the words comma, semicolon).
 pub fn parse_delimiter(s: &str) -> std::result::Result<u8, String> {
@@ -39,7 +43,12 @@ pub struct RawRow<'a> {
     record: &'a csv::ByteRecord,
 }
 
-impl RawRow<'_> {
+impl<'a> RawRow<'a> {
+    /// A row from any source of records (a delimited file, a workbook).
+    pub(crate) fn new(row: usize, record: &'a csv::ByteRecord) -> Self {
+        RawRow { row, record }
+    }
+
     /// Number of cells.
     pub fn n_cells(&self) -> usize {
         self.record.len()
@@ -50,6 +59,38 @@ impl RawRow<'_> {
         self.record
             .get(i)
             .map_or(Ok(""), |b| std::str::from_utf8(b).map_err(|_| ()))
+    }
+}
+
+/// Where a coding sheet's rows come from: a delimited text file or a workbook.
+pub(crate) trait RowSource {
+    /// The header cells, trimmed.
+    fn header(&self) -> &[String];
+    /// The delimiter (0 for a workbook); a decimal comma is accepted unless it is a comma.
+    fn delimiter(&self) -> u8;
+    /// The next non-blank data row, or `None` at the end.
+    fn next_row(&mut self) -> Result<Option<RawRow<'_>>>;
+    /// Non-blank data rows read so far.
+    fn rows_read(&self) -> usize;
+    /// Entirely empty rows between data rows.
+    fn empty_rows(&self) -> Vec<usize>;
+}
+
+impl RowSource for TableReader<'_> {
+    fn header(&self) -> &[String] {
+        &self.header
+    }
+    fn delimiter(&self) -> u8 {
+        self.delimiter
+    }
+    fn next_row(&mut self) -> Result<Option<RawRow<'_>>> {
+        TableReader::next_row(self)
+    }
+    fn rows_read(&self) -> usize {
+        TableReader::rows_read(self)
+    }
+    fn empty_rows(&self) -> Vec<usize> {
+        TableReader::empty_rows(self)
     }
 }
 

@@ -1,0 +1,299 @@
+//! Coding sheets in workbooks (.xlsx, .ods): the same results as the CSV export of the
+//! same sheet, and the same row/column messages. The workbooks are written here, cell by
+//! cell, in the minimal form of each format (Office Open XML, ECMA-376 Part 1, §18.3;
+//! OpenDocument 1.2, Part 1, §9.1), so the tests need no spreadsheet program.
+
+mod common;
+use common::*;
+use std::io::Write;
+
+/// A cell: a number, a text, or empty.
+#[derive(Clone)]
+enum Cell {
+    Num(f64),
+    Text(&'static str),
+    Empty,
+}
+use Cell::{Empty, Num, Text};
+
+fn zip_file(path: &std::path::Path, parts: &[(&str, String)]) {
+    let file = std::fs::File::create(path).unwrap();
+    let mut z = zip::ZipWriter::new(file);
+    for (name, body) in parts {
+        // The ODS mimetype must come first and stored uncompressed.
+        let opts = zip::write::SimpleFileOptions::default()
+            .compression_method(zip::CompressionMethod::Stored);
+        z.start_file(*name, opts).unwrap();
+        z.write_all(body.as_bytes()).unwrap();
+    }
+    z.finish().unwrap();
+}
+
+fn column_letter(i: usize) -> String {
+    let mut s = String::new();
+    let mut n = i + 1;
+    while n > 0 {
+        let r = (n - 1) % 26;
+        s.insert(0, (b'A' + r as u8) as char);
+        n = (n - 1) / 26;
+    }
+    s
+}
+
+/// An .xlsx with one worksheet per (name, rows); `first_row` is the spreadsheet row of
+/// rows[0] (rows above it are left empty).
+fn write_xlsx(path: &std::path::Path, sheets: &[(&str, usize, Vec<Vec<Cell>>)]) {
+    let mut content_types = String::from(
+        r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types"><Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/><Default Extension="xml" ContentType="application/xml"/><Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>"#,
+    );
+    let mut book = String::from(
+        r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><workbook xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main" xmlns:r="http://schemas.openxmlformats.org/officeDocument/2006/relationships"><sheets>"#,
+    );
+    let mut rels = String::from(
+        r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">"#,
+    );
+    let mut parts = Vec::new();
+    for (i, (name, first_row, rows)) in sheets.iter().enumerate() {
+        let n = i + 1;
+        content_types.push_str(&format!(
+            r#"<Override PartName="/xl/worksheets/sheet{n}.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>"#
+        ));
+        book.push_str(&format!(
+            r#"<sheet name="{name}" sheetId="{n}" r:id="rId{n}"/>"#
+        ));
+        rels.push_str(&format!(
+            r#"<Relationship Id="rId{n}" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet{n}.xml"/>"#
+        ));
+        let mut data = String::from(
+            r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>"#,
+        );
+        for (r, row) in rows.iter().enumerate() {
+            let rn = first_row + r;
+            data.push_str(&format!(r#"<row r="{rn}">"#));
+            for (c, cell) in row.iter().enumerate() {
+                let at = format!("{}{rn}", column_letter(c));
+                match cell {
+                    Num(x) => data.push_str(&format!(r#"<c r="{at}"><v>{x}</v></c>"#)),
+                    Text(t) => data.push_str(&format!(
+                        r#"<c r="{at}" t="inlineStr"><is><t>{t}</t></is></c>"#
+                    )),
+                    Empty => {}
+                }
+            }
+            data.push_str("</row>");
+        }
+        data.push_str("</sheetData></worksheet>");
+        parts.push((format!("xl/worksheets/sheet{n}.xml"), data));
+    }
+    content_types.push_str("</Types>");
+    book.push_str("</sheets></workbook>");
+    rels.push_str("</Relationships>");
+    let root_rels = r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships"><Relationship Id="rId1" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/officeDocument" Target="xl/workbook.xml"/></Relationships>"#;
+    let mut all: Vec<(&str, String)> = vec![
+        ("[Content_Types].xml", content_types),
+        ("_rels/.rels", root_rels.to_string()),
+        ("xl/workbook.xml", book),
+        ("xl/_rels/workbook.xml.rels", rels),
+    ];
+    for (n, d) in &parts {
+        all.push((n.as_str(), d.clone()));
+    }
+    zip_file(path, &all);
+}
+
+/// An .ods with one table.
+fn write_ods(path: &std::path::Path, name: &str, rows: &[Vec<Cell>]) {
+    let mut table = format!(r#"<table:table table:name="{name}">"#);
+    for row in rows {
+        table.push_str("<table:table-row>");
+        for cell in row {
+            match cell {
+                Num(x) => table.push_str(&format!(
+                    r#"<table:table-cell office:value-type="float" office:value="{x}"><text:p>{x}</text:p></table:table-cell>"#
+                )),
+                Text(t) => table.push_str(&format!(
+                    r#"<table:table-cell office:value-type="string"><text:p>{t}</text:p></table:table-cell>"#
+                )),
+                Empty => table.push_str("<table:table-cell/>"),
+            }
+        }
+        table.push_str("</table:table-row>");
+    }
+    table.push_str("</table:table>");
+    let content = format!(
+        r#"<?xml version="1.0" encoding="UTF-8"?><office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0" office:version="1.2"><office:body><office:spreadsheet>{table}</office:spreadsheet></office:body></office:document-content>"#
+    );
+    let manifest = r#"<?xml version="1.0" encoding="UTF-8"?><manifest:manifest xmlns:manifest="urn:oasis:names:tc:opendocument:xmlns:manifest:1.0" manifest:version="1.2"><manifest:file-entry manifest:full-path="/" manifest:media-type="application/vnd.oasis.opendocument.spreadsheet"/><manifest:file-entry manifest:full-path="content.xml" manifest:media-type="text/xml"/></manifest:manifest>"#;
+    zip_file(
+        path,
+        &[
+            (
+                "mimetype",
+                "application/vnd.oasis.opendocument.spreadsheet".to_string(),
+            ),
+            ("META-INF/manifest.xml", manifest.to_string()),
+            ("content.xml", content),
+        ],
+    );
+}
+
+/// The demo coding sheet's first columns as cells, with the header.
+fn demo_rows() -> (Vec<Vec<Cell>>, String) {
+    let text = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("datasets-demo/candor-benchmark.csv"),
+    )
+    .unwrap();
+    let mut lines = text.lines();
+    let header: Vec<&str> = lines.next().unwrap().split(',').collect();
+    let keep: Vec<usize> = [
+        "study",
+        "coef",
+        "n",
+        "items",
+        "sd",
+        "sd_metric",
+        "field_maturity",
+    ]
+    .iter()
+    .filter_map(|c| header.iter().position(|h| h == c))
+    .collect();
+    let mut rows = vec![
+        keep.iter()
+            .map(|&i| Text(Box::leak(header[i].to_string().into_boxed_str())))
+            .collect(),
+    ];
+    let mut csv = keep
+        .iter()
+        .map(|&i| header[i])
+        .collect::<Vec<_>>()
+        .join(",");
+    csv.push('\n');
+    for l in lines {
+        let f: Vec<&str> = l.split(',').collect();
+        rows.push(
+            keep.iter()
+                .map(|&i| match f[i].parse::<f64>() {
+                    Ok(x) => Num(x),
+                    Err(_) if f[i].is_empty() => Empty,
+                    Err(_) => Text(Box::leak(f[i].to_string().into_boxed_str())),
+                })
+                .collect(),
+        );
+        csv.push_str(&keep.iter().map(|&i| f[i]).collect::<Vec<_>>().join(","));
+        csv.push('\n');
+    }
+    (rows, csv)
+}
+
+fn pool_json(path: &str) -> serde_json::Value {
+    json_ok(&["pool", path, "--json"])
+}
+
+/// The same sheet as .xlsx, .ods and CSV gives the same benchmark.
+#[test]
+fn workbooks_pool_like_their_csv() {
+    let dir = scratch("workbooks");
+    let (rows, csv) = demo_rows();
+    let csv_path = write_file(&dir, "demo.csv", csv.as_bytes());
+    let xlsx = dir.join("demo.xlsx");
+    write_xlsx(&xlsx, &[("Studies", 1, rows.clone())]);
+    let ods = dir.join("demo.ods");
+    write_ods(&ods, "Studies", &rows);
+    let want = pool_json(&csv_path);
+    for p in [&xlsx, &ods] {
+        let got = pool_json(p.to_str().unwrap());
+        for key in ["k", "estimate", "se", "tau2", "i2", "q"] {
+            assert_eq!(got[key], want[key], "{}: {key}", p.display());
+        }
+        assert_eq!(got["reliability"], want["reliability"]);
+        assert_eq!(got["input"]["delimiter"], "none (workbook)");
+        assert_eq!(got["studies"][3]["row"], want["studies"][3]["row"]);
+    }
+}
+
+/// Problems are located as the spreadsheet shows them: row numbers count the empty rows
+/// above the header, and columns are named.
+#[test]
+fn workbook_problems_name_row_and_column() {
+    let dir = scratch("workbook-problems");
+    let rows = vec![
+        vec![Text("study"), Text("coef"), Text("n"), Text("items")],
+        vec![Text("A"), Num(0.81), Num(120.0), Num(8.0)],
+        vec![Text("B"), Text("high"), Num(95.0), Num(8.0)],
+        vec![Text("C"), Num(1.2), Num(150.0), Num(8.0)],
+        vec![Text("D"), Num(0.77), Num(88.5), Num(8.0)],
+    ];
+    let xlsx = dir.join("bad.xlsx");
+    // Two empty rows above the header: the header is spreadsheet row 3.
+    write_xlsx(&xlsx, &[("Coding", 3, rows.clone())]);
+    let out = relyard(&["pool", xlsx.to_str().unwrap()]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("row 5, column coef"), "{err}");
+    assert!(err.contains("row 6, column coef"), "{err}");
+    assert!(err.contains("row 7, column n"), "{err}");
+    let ods = dir.join("bad.ods");
+    write_ods(&ods, "Coding", &rows);
+    let err =
+        String::from_utf8_lossy(&relyard(&["pool", ods.to_str().unwrap()]).stderr).into_owned();
+    assert!(err.contains("row 3, column coef"), "{err}");
+}
+
+/// `--worksheet` picks a worksheet by name; an unknown name lists the worksheets.
+#[test]
+fn worksheets_are_chosen_by_name() {
+    let dir = scratch("worksheets");
+    let good = vec![
+        vec![Text("study"), Text("coef"), Text("n"), Text("items")],
+        vec![Text("A"), Num(0.81), Num(120.0), Num(8.0)],
+        vec![Text("B"), Num(0.74), Num(95.0), Num(8.0)],
+        vec![Text("C"), Num(0.86), Num(300.0), Num(8.0)],
+    ];
+    let notes = vec![vec![Text("read me first")]];
+    let xlsx = dir.join("two.xlsx");
+    write_xlsx(&xlsx, &[("Notes", 1, notes), ("Data", 1, good)]);
+    let p = xlsx.to_str().unwrap();
+    let j = json_ok(&["pool", p, "--worksheet", "Data", "--json"]);
+    assert_eq!(j["k"], 3);
+    let out = relyard(&["pool", p, "--worksheet", "Summary"]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(err.contains("Notes, Data"), "{err}");
+    // The first worksheet holds no coef column: said plainly.
+    let out = relyard(&["pool", p]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("no coef column"));
+    // A text file with --worksheet, a workbook with --delimiter: refused.
+    let csv = write_file(&dir, "s.csv", b"coef,n,items\n0.8,100,5\n0.7,90,5\n");
+    assert_eq!(
+        relyard(&["pool", &csv, "--worksheet", "Data"])
+            .status
+            .code(),
+        Some(2)
+    );
+    assert_eq!(
+        relyard(&["pool", p, "--worksheet", "Data", "--delimiter", "comma"])
+            .status
+            .code(),
+        Some(2)
+    );
+}
+
+/// A damaged workbook is an error with the file named, not a panic.
+#[test]
+fn damaged_workbooks_are_refused() {
+    let dir = scratch("damaged");
+    let p = write_file(
+        &dir,
+        "broken.xlsx",
+        b"PK\x03\x04 this is not really a workbook",
+    );
+    let out = relyard(&["pool", &p]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(
+        err.contains("broken.xlsx") && err.contains("workbook"),
+        "{err}"
+    );
+    assert!(!err.contains("panicked"));
+}
