@@ -18,6 +18,7 @@ pub mod metareg;
 pub mod numeric;
 pub mod placement;
 pub mod plan;
+pub mod plot;
 pub mod pool;
 pub mod random;
 pub mod report;

@@ -31,10 +31,13 @@ pub enum Command {
     Correct(CorrectArgs),
     /// Write an empty coding sheet and its data dictionary.
     Template(TemplateArgs),
+    /// Write a shareable report (HTML, Markdown, JSON and figures) of a benchmark, its
+    /// moderators, a new study's placement and a correction.
+    Report(ReportArgs),
 }
 
 /// Options for reading a coding sheet, shared by the commands that read one.
-#[derive(Debug, Args)]
+#[derive(Debug, Clone, Args)]
 pub struct SheetArgs {
     /// The coding sheet (CSV: comma, semicolon or tab delimited; UTF-8).
     #[arg(value_name = "SHEET")]
@@ -62,7 +65,7 @@ pub struct SheetArgs {
 }
 
 /// The benchmark model, shared by the commands that fit one.
-#[derive(Debug, Args)]
+#[derive(Debug, Clone, Args)]
 pub struct ModelArgs {
     /// Analysis scale: bonett, hakstian-whalen, fisher-z, raw, or none (the sheet's coef
     /// and var columns already hold the effect and its sampling variance)
@@ -92,7 +95,7 @@ pub struct ModelArgs {
 }
 
 /// Moderators of a meta-regression, shared by explain and check.
-#[derive(Debug, Args)]
+#[derive(Debug, Clone, Args)]
 pub struct ModeratorArgs {
     /// A column that may explain differences between studies (repeatable). Numeric when
     /// every value is a number, categorical otherwise (treatment coding against a
@@ -424,4 +427,88 @@ pub struct CorrectArgs {
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]
     pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct ReportArgs {
+    #[command(flatten)]
+    pub sheet: SheetArgs,
+
+    #[command(flatten)]
+    pub model: ModelArgs,
+
+    #[command(flatten)]
+    pub moderators: ModeratorArgs,
+
+    /// Include the score-variance test (do differences in score spread explain the
+    /// differences between coefficients?).
+    #[arg(long)]
+    pub score_spread: bool,
+
+    /// The new study's observed coefficient: adds where it falls against the benchmark.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub coef: Option<f64>,
+
+    /// The new study's sample size (with --coef or --r).
+    #[arg(long, value_name = "N")]
+    pub n: Option<u64>,
+
+    /// The new study's number of items.
+    #[arg(long, value_name = "K")]
+    pub items: Option<u32>,
+
+    /// The kind of the new study's coefficient.
+    #[arg(long, value_name = "TYPE", default_value = "alpha")]
+    pub coef_type: String,
+
+    /// The new study's score SD (as for relyard check).
+    #[arg(long, value_name = "S")]
+    pub sd: Option<f64>,
+
+    /// Whether --sd is for sum or mean scores.
+    #[arg(long, value_name = "METRIC")]
+    pub sd_metric: Option<String>,
+
+    /// Lowest possible response to one item of the new study's scale.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub scale_min: Option<f64>,
+
+    /// Highest possible response to one item of the new study's scale.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub scale_max: Option<f64>,
+
+    /// The new study's value of a moderator, NAME=VALUE (repeatable).
+    #[arg(long = "at", value_name = "NAME=VALUE")]
+    pub at: Vec<String>,
+
+    /// The new study's observed correlation of this measure with another score: adds a
+    /// what-if correction (with --n and --rel-y). The measure's reliability is the new
+    /// study's --coef (with --n and --items) when given, else the benchmark.
+    #[arg(long, value_name = "R", allow_negative_numbers = true)]
+    pub r: Option<f64>,
+
+    /// Reliability of the other score, as for relyard correct --rel-y.
+    #[arg(long, value_name = "SPEC")]
+    pub rel_y: Option<String>,
+
+    /// Monte Carlo draws for the correction.
+    #[arg(long, value_name = "N", default_value_t = 10000)]
+    pub draws: usize,
+
+    /// Seed of the draws.
+    #[arg(long, value_name = "SEED", default_value_t = 1)]
+    pub seed: u64,
+
+    /// Name of the measure, used in the title and the paragraphs.
+    #[arg(long, value_name = "NAME")]
+    pub measure: Option<String>,
+
+    /// Folder to write report.html, report.md, results.json and figures/ into (created
+    /// when missing).
+    #[arg(long, value_name = "DIR")]
+    pub out: PathBuf,
+
+    /// Replace an existing report in the folder.
+    #[arg(long)]
+    pub force: bool,
 }

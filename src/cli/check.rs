@@ -2,12 +2,14 @@
 
 use super::config::{CheckConfig, fit_options};
 use super::output::{Failure, print, print_json, warn_all};
-use relyard::benchmark::prepare;
-use relyard::placement::place;
+use relyard::benchmark::{Prepared, prepare};
+use relyard::placement::{Placement, place};
 use relyard::report::check::{CheckDocument, check_paragraph, check_summary};
+use relyard::report::paragraph::Paragraph;
 use relyard::sheet::read_coding_sheet;
 
-pub fn run(c: &CheckConfig) -> Result<(), Failure> {
+/// The prepared studies, the placement and its paragraph (shared with `relyard report`).
+pub fn compute(c: &CheckConfig) -> Result<(Prepared, Placement, Paragraph), Failure> {
     let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
     let prepared = prepare(sheet, &c.benchmark)?;
     let opts = fit_options(&c.benchmark);
@@ -20,6 +22,11 @@ pub fn run(c: &CheckConfig) -> Result<(), Failure> {
         &opts,
     )?;
     let paragraph = check_paragraph(&prepared, &pl, c.measure.as_deref());
+    Ok((prepared, pl, paragraph))
+}
+
+pub fn run(c: &CheckConfig) -> Result<(), Failure> {
+    let (prepared, pl, paragraph) = compute(c)?;
     warn_all(&pl.warnings);
     if c.json {
         let doc = CheckDocument::new(&prepared, &pl, &paragraph, &pl.warnings);

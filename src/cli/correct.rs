@@ -61,34 +61,33 @@ pub fn run(a: CorrectArgs) -> Result<(), Failure> {
     }
 }
 
-fn correlation(a: CorrectArgs) -> Result<(), Failure> {
-    let n =
-        a.n.ok_or_else(|| bad("--r needs --n, the correlation's sample size"))?;
-    if a.draws < 100 {
-        return Err(bad(
-            "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
-        ));
-    }
-    let (Some(rx), Some(ry)) = (&a.rel_x, &a.rel_y) else {
-        return Err(bad(
-            "--r needs --rel-x and --rel-y, the reliabilities of the two scores",
-        ));
-    };
-    if !a.predictors.is_empty() || a.outcome.is_some() || !a.rels.is_empty() {
-        return Err(bad(
-            "--predictor, --outcome and --rel belong to a regression (--data or --summary)",
-        ));
-    }
+/// The corrected correlation and its warnings (shared with `relyard report`); the
+/// reliabilities are specifications as `--rel-x` and `--rel-y` take them.
+#[allow(clippy::too_many_arguments)]
+pub fn correlation_result(
+    r: f64,
+    n: u64,
+    (rx, ry): (&str, &str),
+    draws: usize,
+    seed: u64,
+    level: f64,
+    grid: usize,
+) -> Result<
+    (
+        CorrelationInput,
+        relyard::correct::correlation::CorrelationCorrection,
+        Vec<Warning>,
+    ),
+    Failure,
+> {
     let input = CorrelationInput {
-        r: a.r.expect("checked"),
+        r,
         n,
-        rel_x: source("--rel-x", rx, a.level)?,
-        rel_y: source("--rel-y", ry, a.level)?,
+        rel_x: source("--rel-x", rx, level)?,
+        rel_y: source("--rel-y", ry, level)?,
     };
-    let pb = bar(a.draws, "draws");
-    let c = correct_correlation(&input, a.draws, a.seed, a.level, a.grid, &|d| {
-        pb.inc(d as u64)
-    })?;
+    let pb = bar(draws, "draws");
+    let c = correct_correlation(&input, draws, seed, level, grid, &|d| pb.inc(d as u64))?;
     pb.finish_and_clear();
     let mut warnings = Vec::new();
     if !c.admissible {
@@ -113,6 +112,36 @@ fn correlation(a: CorrectArgs) -> Result<(), Failure> {
             });
         }
     }
+    Ok((input, c, warnings))
+}
+
+fn correlation(a: CorrectArgs) -> Result<(), Failure> {
+    let n =
+        a.n.ok_or_else(|| bad("--r needs --n, the correlation's sample size"))?;
+    if a.draws < 100 {
+        return Err(bad(
+            "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
+        ));
+    }
+    let (Some(rx), Some(ry)) = (&a.rel_x, &a.rel_y) else {
+        return Err(bad(
+            "--r needs --rel-x and --rel-y, the reliabilities of the two scores",
+        ));
+    };
+    if !a.predictors.is_empty() || a.outcome.is_some() || !a.rels.is_empty() {
+        return Err(bad(
+            "--predictor, --outcome and --rel belong to a regression (--data or --summary)",
+        ));
+    }
+    let (input, c, warnings) = correlation_result(
+        a.r.expect("checked"),
+        n,
+        (rx, ry),
+        a.draws,
+        a.seed,
+        a.level,
+        a.grid,
+    )?;
     warn_all(&warnings);
     if a.json {
         emit(&CorrelationDocument::new(

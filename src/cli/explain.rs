@@ -3,16 +3,41 @@
 use super::config::{ExplainConfig, fit_options};
 use super::output::{Failure, print, print_json, warn_all};
 use super::progress::bar;
-use relyard::benchmark::prepare;
-use relyard::metareg::influence::influence;
-use relyard::metareg::permutation::permutation_test;
-use relyard::metareg::spread::score_spread;
-use relyard::metareg::subgroups::subgroups;
-use relyard::metareg::{build_design, explain};
+use relyard::benchmark::{Prepared, prepare};
+use relyard::metareg::influence::{StudyInfluence, influence};
+use relyard::metareg::permutation::{PermutationResult, permutation_test};
+use relyard::metareg::spread::{ScoreSpread, score_spread};
+use relyard::metareg::subgroups::{Subgroups, subgroups};
+use relyard::metareg::{Explanation, build_design, explain};
 use relyard::report::explain::{ExplainDocument, ExplainParts, explain_summary};
 use relyard::sheet::read_coding_sheet;
 
-pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
+/// Everything `relyard explain` computes (shared with `relyard report`).
+pub struct Explained {
+    pub prepared: Prepared,
+    pub main: Explanation,
+    pub permutation: Option<PermutationResult>,
+    pub spread: Option<ScoreSpread>,
+    pub groups: Option<Subgroups>,
+    pub influence: Option<Vec<StudyInfluence>>,
+    pub warnings: Vec<relyard::Warning>,
+}
+
+impl Explained {
+    pub fn parts(&self) -> ExplainParts<'_> {
+        ExplainParts {
+            prepared: &self.prepared,
+            main: &self.main,
+            permutation: self.permutation.as_ref(),
+            spread: self.spread.as_ref(),
+            subgroups: self.groups.as_ref(),
+            influence: self.influence.as_deref(),
+            warnings: &self.warnings,
+        }
+    }
+}
+
+pub fn compute(c: &ExplainConfig) -> Result<Explained, Failure> {
     let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
     let prepared = prepare(sheet, &c.benchmark)?;
     let opts = fit_options(&c.benchmark);
@@ -73,16 +98,21 @@ pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
     } else {
         None
     };
-    warn_all(&warnings);
-    let parts = ExplainParts {
-        prepared: &prepared,
-        main: &main,
-        permutation: permutation.as_ref(),
-        spread: spread.as_ref(),
-        subgroups: groups.as_ref(),
-        influence: infl.as_deref(),
-        warnings: &warnings,
-    };
+    Ok(Explained {
+        prepared,
+        main,
+        permutation,
+        spread,
+        groups,
+        influence: infl,
+        warnings,
+    })
+}
+
+pub fn run(c: &ExplainConfig) -> Result<(), Failure> {
+    let e = compute(c)?;
+    warn_all(&e.warnings);
+    let parts = e.parts();
     if c.json {
         let doc = ExplainDocument::new(&parts);
         print_json(&doc)

@@ -12,6 +12,8 @@ mod output;
 mod plan;
 mod pool;
 mod progress;
+mod report;
+
 mod template;
 
 use clap::Parser;
@@ -51,6 +53,7 @@ pub fn run() -> i32 {
         args::Command::Template(a) => {
             config::TemplateConfig::from_args(a).and_then(|c| template::run(&c))
         }
+        args::Command::Report(a) => report::run(a),
     };
     match result {
         Ok(()) => EXIT_OK,

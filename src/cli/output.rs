@@ -61,6 +61,11 @@ pub fn warn_all(warnings: &[Warning]) {
 /// Write a new file atomically (a temporary file beside it, then a rename); an
 /// existing file is replaced only with `force`.
 pub fn write_new_file(path: &Path, contents: &str, force: bool) -> Result<(), Failure> {
+    write_new_bytes(path, contents.as_bytes(), force)
+}
+
+/// [`write_new_file`] for bytes (images).
+pub fn write_new_bytes(path: &Path, contents: &[u8], force: bool) -> Result<(), Failure> {
     let shown = path.display().to_string();
     if path.exists() && !force {
         return Err(Failure::Lib(Error::InvalidOption(format!(

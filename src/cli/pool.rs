@@ -2,16 +2,22 @@
 
 use super::config::PoolConfig;
 use super::output::{Failure, print, print_json, warn_all};
-use relyard::benchmark::build;
+use relyard::benchmark::{Benchmark, build};
 use relyard::report::json::PoolDocument;
-use relyard::report::paragraph::benchmark_paragraph;
+use relyard::report::paragraph::{Paragraph, benchmark_paragraph};
 use relyard::report::text::benchmark_summary;
 use relyard::sheet::read_coding_sheet;
 
-pub fn run(c: &PoolConfig) -> Result<(), Failure> {
+/// The benchmark and its paragraph (shared with `relyard report`).
+pub fn compute(c: &PoolConfig) -> Result<(Benchmark, Paragraph), Failure> {
     let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
     let b = build(sheet, &c.benchmark)?;
     let paragraph = benchmark_paragraph(&b, c.measure.as_deref());
+    Ok((b, paragraph))
+}
+
+pub fn run(c: &PoolConfig) -> Result<(), Failure> {
+    let (b, paragraph) = compute(c)?;
     warn_all(&b.warnings);
     if c.json {
         let doc = PoolDocument::new(&b, &paragraph, &b.warnings);

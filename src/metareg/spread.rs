@@ -277,6 +277,9 @@ pub struct ScoreSpread {
     pub log_items_column: bool,
     /// The design of the other moderators over the studies with an SD (for predictions).
     pub others: super::design::Design,
+    /// The model's design matrix (intercept, ln SD, [ln items], other moderators), one row
+    /// per study in `rows`.
+    pub x: DMatrix<f64>,
 }
 
 impl ScoreSpread {
@@ -543,6 +546,7 @@ fn score_spread_inner(
         log_items_column: extra == 1,
         fit,
         others: base,
+        x,
     })
 }
 

@@ -4,12 +4,15 @@
 
 pub mod check;
 pub mod correct;
+pub mod document;
 pub mod explain;
+pub mod figures;
 pub mod format;
 pub mod items;
 pub mod json;
 pub mod layout;
 pub mod paragraph;
+pub mod regema;
 pub mod text;
 
 /// The caution printed with every benchmark.

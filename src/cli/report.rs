@@ -1,0 +1,228 @@
+//! `relyard report`: the benchmark, its moderators, a new study's placement and a
+//! correction, written as report.html, report.md, results.json and figure files.
+//!
+//! Each part is computed by the same code as its own command (`pool`, `explain`, `check`,
+//! `correct`), and the report is written from those commands' JSON documents.
+
+use super::args::{CheckArgs, ExplainArgs, PoolArgs, ReportArgs};
+use super::config::{CheckConfig, ExplainConfig, PoolConfig, fit_options};
+use super::output::{Failure, print, warn_all, write_new_bytes, write_new_file};
+use relyard::Error;
+use relyard::metareg::Moderator;
+use relyard::report::check::CheckDocument;
+use relyard::report::correct::CorrelationDocument;
+use relyard::report::document::{RenderedFigure, ReportContent};
+use relyard::report::explain::ExplainDocument;
+use relyard::report::figures;
+use relyard::report::json::PoolDocument;
+use relyard::report::regema::{RunScope, checklist};
+use sha2::{Digest, Sha256};
+
+fn bad(msg: impl Into<String>) -> Failure {
+    Failure::Lib(Error::InvalidOption(msg.into()))
+}
+
+fn value<T: serde::Serialize>(doc: &T) -> Result<serde_json::Value, Failure> {
+    serde_json::to_value(doc)
+        .map_err(|e| Failure::Lib(Error::Numerical(format!("could not form JSON: {e}"))))
+}
+
+pub fn run(a: ReportArgs) -> Result<(), Failure> {
+    let options: Vec<String> = std::env::args().skip(1).collect();
+    let out = a.out.clone();
+    let names = ["report.html", "report.md", "results.json"];
+    if !a.force
+        && let Some(existing) = names.iter().map(|n| out.join(n)).find(|p| p.exists())
+    {
+        return Err(bad(format!(
+            "{} already exists; choose another --out folder or pass --force to replace the report",
+            existing.display()
+        )));
+    }
+    if (a.r.is_some() || a.coef.is_some()) && a.n.is_none() {
+        return Err(bad("--coef and --r need --n, the new study's sample size"));
+    }
+    if a.r.is_some() && a.rel_y.is_none() {
+        return Err(bad(
+            "--r needs --rel-y, the reliability of the other score (e.g. 0.85, or 0.85,n=200,items=6)",
+        ));
+    }
+    if a.rel_y.is_some() && a.r.is_none() {
+        return Err(bad("--rel-y belongs to a correction: give --r too"));
+    }
+    let bytes = std::fs::read(&a.sheet.sheet).map_err(|e| match e.kind() {
+        std::io::ErrorKind::NotFound => bad(format!(
+            "{}: no such file; check the path of the coding sheet",
+            a.sheet.sheet.display()
+        )),
+        _ => Failure::Lib(Error::io(format!("reading {}", a.sheet.sheet.display()), e)),
+    })?;
+    let sha256: String = Sha256::digest(&bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect();
+
+    // The benchmark, as relyard pool.
+    let pool_config = PoolConfig::from_args(PoolArgs {
+        sheet: a.sheet.clone(),
+        model: a.model.clone(),
+        measure: a.measure.clone(),
+        studies: false,
+        json: true,
+    })?;
+    let (bench, paragraph) = super::pool::compute(&pool_config)?;
+    let mut warnings = bench.warnings.clone();
+    let benchmark = value(&PoolDocument::new(&bench, &paragraph, &bench.warnings))?;
+    let mut figs = vec![figures::forest(&bench), figures::funnel(&bench)];
+    let level = pool_config.benchmark.pool.level;
+
+    // Moderators and score spread, as relyard explain.
+    let mut scope = RunScope::default();
+    let explain = if !a.moderators.moderators.is_empty() || a.score_spread {
+        let config = ExplainConfig::from_args(ExplainArgs {
+            sheet: a.sheet.clone(),
+            model: a.model.clone(),
+            moderators: a.moderators.clone(),
+            score_spread: a.score_spread,
+            by: None,
+            influence: false,
+            permutations: None,
+            seed: a.seed,
+            json: true,
+        })?;
+        let e = super::explain::compute(&config)?;
+        warnings.extend(e.warnings.iter().cloned());
+        scope.moderators = !a.moderators.moderators.is_empty();
+        scope.score_spread = e.spread.is_some();
+        let opts = fit_options(&config.benchmark);
+        for m in &e.main.design.moderators {
+            if let Moderator::Numeric { name, .. } = m {
+                figs.push(figures::moderator(&e.prepared, name, &opts)?);
+            }
+        }
+        if let Some(s) = &e.spread {
+            figs.push(figures::score_spread(&e.prepared, s));
+        }
+        Some(value(&ExplainDocument::new(&e.parts()))?)
+    } else {
+        None
+    };
+
+    // The new study, as relyard check.
+    let placement = match (a.coef, a.n) {
+        (Some(coef), Some(n)) => {
+            let config = CheckConfig::from_args(CheckArgs {
+                sheet: a.sheet.clone(),
+                model: a.model.clone(),
+                moderators: a.moderators.clone(),
+                coef,
+                n,
+                items: a.items,
+                coef_type: a.coef_type.clone(),
+                sd: a.sd,
+                sd_metric: a.sd_metric.clone(),
+                scale_min: a.scale_min,
+                scale_max: a.scale_max,
+                at: a.at.clone(),
+                measure: a.measure.clone(),
+                json: true,
+            })?;
+            let (prepared, pl, paragraph) = super::check::compute(&config)?;
+            warnings.extend(pl.warnings.iter().cloned());
+            figs.push(figures::placement(&pl));
+            Some(value(&CheckDocument::new(
+                &prepared,
+                &pl,
+                &paragraph,
+                &pl.warnings,
+            ))?)
+        }
+        _ => None,
+    };
+
+    // The correction, as relyard correct.
+    let correction = match (a.r, a.n, &a.rel_y) {
+        (Some(r), Some(n), Some(rel_y)) => {
+            let rel_x = match (a.coef, a.items) {
+                (Some(c), Some(k)) => format!("{c},n={n},items={k},kind={}", a.coef_type),
+                (Some(c), None) => format!("{c},kind={}", a.coef_type),
+                _ => format!("sheet={}", a.sheet.sheet.display()),
+            };
+            let (input, c, w) = super::correct::correlation_result(
+                r,
+                n,
+                (&rel_x, rel_y),
+                a.draws,
+                a.seed,
+                level,
+                5,
+            )?;
+            warnings.extend(w.iter().cloned());
+            figs.push(figures::sensitivity(
+                &c,
+                input.rel_x.point(),
+                input.rel_y.point(),
+            ));
+            Some(value(&CorrelationDocument::new(
+                &c,
+                n,
+                &input.rel_x,
+                &input.rel_y,
+                level,
+                &w,
+            ))?)
+        }
+        _ => None,
+    };
+    warn_all(&warnings);
+
+    let rendered = figs
+        .into_iter()
+        .map(|figure| {
+            let svg = figure.svg()?;
+            Ok(RenderedFigure { figure, svg })
+        })
+        .collect::<relyard::Result<Vec<_>>>()?;
+    let title = match &a.measure {
+        Some(m) => format!("Reliability benchmark report: {m}"),
+        None => format!("Reliability benchmark report: {}", bench.file),
+    };
+    let content = ReportContent {
+        title,
+        input_file: bench.file.clone(),
+        input_sha256: sha256,
+        options,
+        benchmark,
+        explain,
+        placement,
+        correction,
+        figures: rendered,
+        checklist: checklist(scope),
+    };
+
+    let fig_dir = out.join("figures");
+    std::fs::create_dir_all(&fig_dir)
+        .map_err(|e| Failure::Lib(Error::io(format!("creating {}", fig_dir.display()), e)))?;
+    for f in &content.figures {
+        write_new_file(
+            &fig_dir.join(format!("{}.svg", f.figure.name)),
+            &f.svg,
+            true,
+        )?;
+        write_new_bytes(
+            &fig_dir.join(format!("{}.png", f.figure.name)),
+            &f.figure.png()?,
+            true,
+        )?;
+    }
+    let results = relyard::report::layout::to_json_string(&content.results());
+    write_new_file(&out.join("results.json"), &results, a.force)?;
+    write_new_file(&out.join("report.md"), &content.markdown(), a.force)?;
+    write_new_file(&out.join("report.html"), &content.html(), a.force)?;
+    print(&format!(
+        "wrote {} (open it in a browser), report.md, results.json and {} figures in {}\n",
+        out.join("report.html").display(),
+        content.figures.len(),
+        fig_dir.display()
+    ))
+}
