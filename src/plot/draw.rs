@@ -231,6 +231,18 @@ impl Figure {
     }
 }
 
+/// A tick label: whole numbers without decimals, others with up to three, a true minus.
+fn tick(v: f64) -> String {
+    let v = if v.abs() < 1e-12 { 0.0 } else { v };
+    let s = if (v - v.round()).abs() < 1e-9 {
+        format!("{}", v.round() as i64)
+    } else {
+        let s = format!("{v:.3}");
+        s.trim_end_matches('0').to_string()
+    };
+    s.replace('-', "−")
+}
+
 fn label_font(scale: f64) -> TextStyle<'static> {
     (FONT, 14.0 * scale).into_font().color(&INK)
 }
@@ -258,6 +270,8 @@ macro_rules! axes {
             .light_line_style(ShapeStyle::from(&WHITE).stroke_width(0))
             .x_labels(7)
             .y_labels(7)
+            .x_label_formatter(&|v| tick(*v))
+            .y_label_formatter(&|v| tick(*v))
             .draw()?;
         chart
     }};
@@ -301,6 +315,7 @@ fn forest<DB: DrawingBackend>(
         .disable_y_mesh()
         .disable_y_axis()
         .x_labels(7)
+        .x_label_formatter(&|v| tick(*v))
         .draw()?;
     let y_of = |i: f64| n - 0.5 - i;
     let max_w = rows.iter().map(|r| r.weight).fold(0.0, f64::max).max(1e-12);
@@ -679,10 +694,8 @@ fn funnel<DB: DrawingBackend>(
         .axis_style(ShapeStyle::from(&INK).stroke_width(1))
         .bold_line_style(ShapeStyle::from(&GRID).stroke_width(1))
         .light_line_style(ShapeStyle::from(&WHITE).stroke_width(0))
-        .y_label_formatter(&|v| {
-            let se = -v;
-            format!("{:.3}", if se.abs() < 1e-12 { 0.0 } else { se })
-        })
+        .x_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick(-v))
         .x_labels(7)
         .y_labels(6)
         .draw()?;
@@ -705,4 +718,29 @@ fn funnel<DB: DrawingBackend>(
         )
     }))?;
     Ok(())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn tick_labels_are_short() {
+        assert_eq!(tick(2010.0), "2010");
+        assert_eq!(tick(-0.5), "−0.5");
+        assert_eq!(tick(0.05), "0.05");
+        assert_eq!(tick(-1e-15), "0");
+        assert_eq!(tick(0.1234), "0.123");
+    }
+
+    #[test]
+    fn padded_ranges_have_room() {
+        assert!(padded(1.0, 1.0).0 < 1.0);
+        let (a, b) = padded(0.0, 10.0);
+        assert!(a < 0.0 && b > 10.0);
+        assert_eq!(
+            finite_range([f64::NAN, 2.0, -1.0].into_iter()),
+            Some((-1.0, 2.0))
+        );
+    }
 }

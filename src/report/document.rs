@@ -290,7 +290,7 @@ impl ReportContent {
                     s["tau2_share"]
                         .as_f64()
                         .map_or("–".into(), |v| format!("{v:.0}%")),
-                    esc(&text(&s["reading_text"])),
+                    esc(&capitalized(&text(&s["reading_text"]))),
                 )));
             }
             for (i, f) in self.figures.iter().enumerate() {
@@ -582,6 +582,15 @@ fn coverage_mark(c: Coverage) -> String {
         Coverage::NotRun => "notrun",
     };
     format!("<span class=\"{class}\">{}</span>", c.label())
+}
+
+/// The first letter in upper case.
+fn capitalized(s: &str) -> String {
+    let mut c = s.chars();
+    match c.next() {
+        Some(f) => f.to_uppercase().chain(c).collect(),
+        None => String::new(),
+    }
 }
 
 /// The interval method in words.
