@@ -112,21 +112,36 @@ pub fn forest(b: &Benchmark) -> Figure {
     }
 }
 
+/// Most studies drawn in the precision plot.
+const PRECISION_POINTS_MAX: usize = 5000;
+
 /// Transformed coefficients against their standard errors (small-study patterns).
 pub fn funnel(b: &Benchmark) -> Figure {
+    // Very large benchmarks: every m-th study, so the figure stays a readable size.
+    let step = b.studies.len().div_ceil(PRECISION_POINTS_MAX).max(1);
     let points: Vec<(f64, f64)> = b
         .studies
         .iter()
+        .step_by(step)
         .map(|s| (s.effect, s.variance.sqrt()))
         .collect();
+    let drawn = if step > 1 {
+        format!(
+            " ({} of the {} studies drawn: every {step}th in sheet order)",
+            points.len(),
+            b.studies.len()
+        )
+    } else {
+        String::new()
+    };
     Figure {
         name: "precision".into(),
         title: "Coefficients against their standard errors".into(),
         description: format!(
-            "Each study's value on the {} scale against its standard error (most precise at \
-             the top), with the pooled value {:.3} and lines at ±1.96 standard errors around \
-             it. An asymmetric cloud, with small studies on one side only, suggests \
-             small-study effects or selective reporting.",
+            "Each study's value on the {} scale against its standard error{drawn} (most \
+             precise at the top), with the pooled value {:.3} and lines at ±1.96 standard \
+             errors around it. An asymmetric cloud, with small studies on one side only, \
+             suggests small-study effects or selective reporting.",
             b.transform.name(),
             b.pool.estimate
         ),
