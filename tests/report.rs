@@ -170,7 +170,11 @@ fn the_page_is_self_contained() {
         }
     }
     assert_eq!(html.matches("<svg").count(), figures.len());
-    assert_eq!(html.matches("<title id=\"t\">").count(), figures.len());
+    assert_eq!(html.matches("<title id=").count(), figures.len());
+    // Ids are unique on the page (one title and one description per figure).
+    for f in &figures {
+        assert_eq!(html.matches(&format!("id=\"{f}-title\"")).count(), 1, "{f}");
+    }
     for forbidden in ["<script", "<link", "<img", "<iframe", "@import", "url("] {
         assert!(!html.contains(forbidden), "{forbidden}");
     }
@@ -179,9 +183,23 @@ fn the_page_is_self_contained() {
         let around = &html[i.saturating_sub(8)..(i + 40).min(html.len())];
         assert!(around.contains("www.w3.org"), "external address: {around}");
     }
-    // PNGs are PNGs, at twice the SVG's size.
-    let png = std::fs::read(dir.join("figures/forest.png")).unwrap();
-    assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+    // PNGs are PNGs, at twice the SVG's size (PNG specification: the IHDR chunk holds the
+    // width and height as big-endian 32-bit numbers at bytes 16–23).
+    for f in &figures {
+        let png = std::fs::read(dir.join(format!("figures/{f}.png"))).unwrap();
+        assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+        let be = |i: usize| u32::from_be_bytes([png[i], png[i + 1], png[i + 2], png[i + 3]]);
+        let svg = std::fs::read_to_string(dir.join(format!("figures/{f}.svg"))).unwrap();
+        let attr = |name: &str| -> u32 {
+            let i = svg.find(&format!(" {name}=\"")).unwrap() + name.len() + 3;
+            svg[i..].split('"').next().unwrap().parse().unwrap()
+        };
+        assert_eq!(
+            (be(16), be(20)),
+            (2 * attr("width"), 2 * attr("height")),
+            "{f}"
+        );
+    }
 }
 
 /// An existing report is not replaced without --force.
@@ -372,4 +390,94 @@ fn renders_in_a_browser() {
             assert!(fig.contains(label), "{name}: label {label} missing");
         }
     }
+}
+
+/// Small and unusual benchmarks still give a report: two studies (no prediction interval)
+/// and a common-effect model (no between-setting variation); the methods say so.
+#[test]
+fn small_and_common_effect_reports() {
+    let dir = scratch("small");
+    let sheet = write_file(
+        &dir,
+        "two.csv",
+        b"study,coef,n,items\nA,0.81,120,8\nB,0.74,95,8\n",
+    );
+    let out_dir = dir.join("two");
+    let out = relyard(&["report", &sheet, "--out", out_dir.to_str().unwrap()]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
+    assert!(
+        html.contains("None is stated"),
+        "no prediction interval said"
+    );
+    let sheet = demo_sheet();
+    let out_dir = dir.join("common");
+    let out = relyard(&[
+        "report",
+        &sheet,
+        "--tau2",
+        "common",
+        "--ci",
+        "wald",
+        "--out",
+        out_dir.to_str().unwrap(),
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
+    assert!(html.contains("common-effect model (τ² = 0 assumed)"));
+    assert!(!html.contains("τ² by COMMON"));
+    assert!(html.contains("normal quantiles"));
+    assert!(!html.contains("Knapp–Hartung: t with"));
+}
+
+/// The correction's reliability, when the new study gives none, is the benchmark the
+/// report shows: the same sheet options (here a mapped column name) and model.
+#[test]
+fn the_correction_uses_the_reports_benchmark() {
+    let dir = scratch("correction-benchmark");
+    let text = std::fs::read_to_string(demo_sheet()).unwrap();
+    let renamed = text.replacen("coef", "reported_alpha", 1);
+    let sheet = write_file(&dir, "renamed.csv", renamed.as_bytes());
+    let out_dir = dir.join("out");
+    let out = relyard(&[
+        "report",
+        &sheet,
+        "--column",
+        "coef=reported_alpha",
+        "--tau2",
+        "dl",
+        "--r",
+        "0.3",
+        "--n",
+        "200",
+        "--rel-y",
+        "0.8",
+        "--draws",
+        "500",
+        "--out",
+        out_dir.to_str().unwrap(),
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let r = read_json(&out_dir.join("results.json"));
+    assert_eq!(r["benchmark"]["tau2_method"], "dl");
+    let used = r["correction"]["reliabilities"][0]["value"]
+        .as_f64()
+        .unwrap();
+    let shown = r["benchmark"]["reliability"]["estimate"].as_f64().unwrap();
+    assert!((used - shown).abs() < 1e-12, "{used} vs {shown}");
 }

@@ -297,3 +297,65 @@ fn damaged_workbooks_are_refused() {
     );
     assert!(!err.contains("panicked"));
 }
+
+/// A report straight from a workbook, and header problems at the header's own row.
+#[test]
+fn reports_from_workbooks_and_header_rows() {
+    let dir = scratch("workbook-report");
+    let (rows, _) = demo_rows();
+    let xlsx = dir.join("demo.xlsx");
+    write_xlsx(&xlsx, &[("Studies", 1, rows)]);
+    let out_dir = dir.join("report");
+    let out = relyard(&[
+        "report",
+        xlsx.to_str().unwrap(),
+        "--out",
+        out_dir.to_str().unwrap(),
+    ]);
+    assert_eq!(
+        out.status.code(),
+        Some(0),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(out_dir.join("results.json")).unwrap())
+            .unwrap();
+    assert_eq!(r["benchmark"]["k"], 36);
+    // No coef column, header on row 4: the message names row 4.
+    let bad = dir.join("nocoef.xlsx");
+    write_xlsx(
+        &bad,
+        &[(
+            "S",
+            4,
+            vec![
+                vec![Text("study"), Text("alpha"), Text("n")],
+                vec![Text("A"), Num(0.8), Num(100.0)],
+            ],
+        )],
+    );
+    let err =
+        String::from_utf8_lossy(&relyard(&["pool", bad.to_str().unwrap()]).stderr).into_owned();
+    assert!(
+        err.contains("row 4") && err.contains("no coef column"),
+        "{err}"
+    );
+    // A text cell with a comma is not read as a decimal comma in a workbook.
+    let comma = dir.join("comma.xlsx");
+    write_xlsx(
+        &comma,
+        &[(
+            "S",
+            1,
+            vec![
+                vec![Text("coef"), Text("n"), Text("items")],
+                vec![Text("0,85"), Num(100.0), Num(5.0)],
+                vec![Num(0.8), Num(90.0), Num(5.0)],
+            ],
+        )],
+    );
+    let err =
+        String::from_utf8_lossy(&relyard(&["pool", comma.to_str().unwrap()]).stderr).into_owned();
+    assert!(err.contains("row 2, column coef"), "{err}");
+}

@@ -29,7 +29,7 @@ fn benchmark_fit(level: f64) -> FitOptions {
     }
 }
 
-fn source(option: &str, spec: &str, level: f64) -> Result<ReliabilitySource, Failure> {
+pub fn source(option: &str, spec: &str, level: f64) -> Result<ReliabilitySource, Failure> {
     let parsed = ReliabilitySpec::parse(spec).map_err(|e| bad(format!("{option}: {e}")))?;
     Ok(resolve(&parsed, &benchmark_fit(level))?)
 }
@@ -61,13 +61,12 @@ pub fn run(a: CorrectArgs) -> Result<(), Failure> {
     }
 }
 
-/// The corrected correlation and its warnings (shared with `relyard report`); the
-/// reliabilities are specifications as `--rel-x` and `--rel-y` take them.
+/// The corrected correlation and its warnings (shared with `relyard report`).
 #[allow(clippy::too_many_arguments)]
 pub fn correlation_result(
     r: f64,
     n: u64,
-    (rx, ry): (&str, &str),
+    (rel_x, rel_y): (ReliabilitySource, ReliabilitySource),
     draws: usize,
     seed: u64,
     level: f64,
@@ -80,12 +79,7 @@ pub fn correlation_result(
     ),
     Failure,
 > {
-    let input = CorrelationInput {
-        r,
-        n,
-        rel_x: source("--rel-x", rx, level)?,
-        rel_y: source("--rel-y", ry, level)?,
-    };
+    let input = CorrelationInput { r, n, rel_x, rel_y };
     let pb = bar(draws, "draws");
     let c = correct_correlation(&input, draws, seed, level, grid, &|d| pb.inc(d as u64))?;
     pb.finish_and_clear();
@@ -136,7 +130,10 @@ fn correlation(a: CorrectArgs) -> Result<(), Failure> {
     let (input, c, warnings) = correlation_result(
         a.r.expect("checked"),
         n,
-        (rx, ry),
+        (
+            source("--rel-x", rx, a.level)?,
+            source("--rel-y", ry, a.level)?,
+        ),
         a.draws,
         a.seed,
         a.level,

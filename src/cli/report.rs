@@ -27,8 +27,31 @@ fn value<T: serde::Serialize>(doc: &T) -> Result<serde_json::Value, Failure> {
         .map_err(|e| Failure::Lib(Error::Numerical(format!("could not form JSON: {e}"))))
 }
 
+/// A file stem not yet taken (moderator names that differ only in punctuation).
+fn unique(name: String, taken: &mut Vec<String>) -> String {
+    let mut candidate = name.clone();
+    let mut i = 2;
+    while taken.contains(&candidate) {
+        candidate = format!("{name}-{i}");
+        i += 1;
+    }
+    taken.push(candidate.clone());
+    candidate
+}
+
+/// Stems of the figures relyard writes (earlier ones are cleared with --force).
+fn is_report_figure(stem: &str) -> bool {
+    matches!(
+        stem,
+        "forest" | "precision" | "score-spread" | "placement" | "correction"
+    ) || stem.starts_with("moderator-")
+}
+
 pub fn run(a: ReportArgs) -> Result<(), Failure> {
-    let options: Vec<String> = std::env::args().skip(1).collect();
+    let options: Vec<String> = std::env::args_os()
+        .skip(1)
+        .map(|s| s.to_string_lossy().into_owned())
+        .collect();
     let out = a.out.clone();
     let names = ["report.html", "report.md", "results.json"];
     if !a.force
@@ -49,6 +72,40 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
     }
     if a.rel_y.is_some() && a.r.is_none() {
         return Err(bad("--rel-y belongs to a correction: give --r too"));
+    }
+    if a.coef.is_none() {
+        for (given, name) in [
+            (a.items.is_some(), "--items"),
+            (a.sd.is_some(), "--sd"),
+            (a.sd_metric.is_some(), "--sd-metric"),
+            (
+                a.scale_min.is_some() || a.scale_max.is_some(),
+                "--scale-min/--scale-max",
+            ),
+        ] {
+            if given {
+                return Err(bad(format!(
+                    "{name} describes the new study: give its --coef and --n too"
+                )));
+            }
+        }
+        if !a.at.is_empty() && a.r.is_none() {
+            return Err(bad(
+                "--at gives the new study's moderator values: give its --coef and --n, or --r",
+            ));
+        }
+    }
+    if a.r.is_some() && a.draws < 100 {
+        return Err(bad(
+            "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
+        ));
+    }
+    let mut at = std::collections::BTreeMap::new();
+    for spec in &a.at {
+        let (k, v) = spec
+            .split_once('=')
+            .ok_or_else(|| bad(format!("--at {spec}: write NAME=VALUE")))?;
+        at.insert(k.trim().to_string(), v.trim().to_string());
     }
     let bytes = std::fs::read(&a.sheet.sheet).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => bad(format!(
@@ -95,9 +152,12 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
         scope.moderators = !a.moderators.moderators.is_empty();
         scope.score_spread = e.spread.is_some();
         let opts = fit_options(&config.benchmark);
+        let mut taken = Vec::new();
         for m in &e.main.design.moderators {
             if let Moderator::Numeric { name, .. } = m {
-                figs.push(figures::moderator(&e.prepared, name, &opts)?);
+                let mut f = figures::moderator(&e.prepared, name, &opts)?;
+                f.name = unique(f.name, &mut taken);
+                figs.push(f);
             }
         }
         if let Some(s) = &e.spread {
@@ -143,15 +203,37 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
     // The correction, as relyard correct.
     let correction = match (a.r, a.n, &a.rel_y) {
         (Some(r), Some(n), Some(rel_y)) => {
+            // The measure's reliability: the new study's own coefficient when given, else
+            // the benchmark shown in this report (same sheet options and model, at the
+            // new study's moderator values when given).
             let rel_x = match (a.coef, a.items) {
-                (Some(c), Some(k)) => format!("{c},n={n},items={k},kind={}", a.coef_type),
-                (Some(c), None) => format!("{c},kind={}", a.coef_type),
-                _ => format!("sheet={}", a.sheet.sheet.display()),
+                (Some(c), Some(k)) => super::correct::source(
+                    "--coef",
+                    &format!("{c},n={n},items={k},kind={}", a.coef_type),
+                    level,
+                )?,
+                (Some(c), None) => {
+                    super::correct::source("--coef", &format!("{c},kind={}", a.coef_type), level)?
+                }
+                _ => {
+                    let sheet = relyard::sheet::read_coding_sheet(
+                        &pool_config.sheet.path,
+                        &pool_config.sheet.options,
+                    )?;
+                    let prepared = relyard::benchmark::prepare(sheet, &pool_config.benchmark)?;
+                    relyard::correct::reliability::benchmark_source(
+                        &prepared,
+                        &at,
+                        &fit_options(&pool_config.benchmark),
+                        &bench.file,
+                    )?
+                }
             };
+            let rel_y = super::correct::source("--rel-y", rel_y, level)?;
             let (input, c, w) = super::correct::correlation_result(
                 r,
                 n,
-                (&rel_x, rel_y),
+                (rel_x, rel_y),
                 a.draws,
                 a.seed,
                 level,
@@ -203,16 +285,47 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
     let fig_dir = out.join("figures");
     std::fs::create_dir_all(&fig_dir)
         .map_err(|e| Failure::Lib(Error::io(format!("creating {}", fig_dir.display()), e)))?;
+    let files: Vec<std::path::PathBuf> = content
+        .figures
+        .iter()
+        .flat_map(|f| ["svg", "png"].map(|x| fig_dir.join(format!("{}.{x}", f.figure.name))))
+        .collect();
+    if !a.force
+        && let Some(p) = files.iter().find(|p| p.exists())
+    {
+        return Err(bad(format!(
+            "{} already exists; choose another --out folder or pass --force to replace the report",
+            p.display()
+        )));
+    }
+    if a.force {
+        // Figures of an earlier report that this one does not have would be stale.
+        if let Ok(entries) = std::fs::read_dir(&fig_dir) {
+            for e in entries.flatten() {
+                let p = e.path();
+                let ours = p
+                    .extension()
+                    .and_then(|x| x.to_str())
+                    .is_some_and(|x| x == "svg" || x == "png")
+                    && p.file_stem()
+                        .and_then(|s| s.to_str())
+                        .is_some_and(is_report_figure);
+                if ours && !files.contains(&p) {
+                    let _ = std::fs::remove_file(&p);
+                }
+            }
+        }
+    }
     for f in &content.figures {
         write_new_file(
             &fig_dir.join(format!("{}.svg", f.figure.name)),
             &f.svg,
-            true,
+            a.force,
         )?;
         write_new_bytes(
             &fig_dir.join(format!("{}.png", f.figure.name)),
             &f.figure.png()?,
-            true,
+            a.force,
         )?;
     }
     let results = relyard::report::layout::to_json_string(&content.results());

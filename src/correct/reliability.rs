@@ -1,7 +1,7 @@
 //! A reliability as the correction uses it: a point value, an estimate with its sampling
 //! distribution, or a benchmark's predictive distribution for a new setting.
 
-use crate::benchmark::{BenchmarkOptions, prepare};
+use crate::benchmark::{BenchmarkOptions, Prepared, prepare};
 use crate::dist::t_quantile;
 use crate::error::{Error, Result};
 use crate::metareg::{ModeratorSpec, build_design};
@@ -360,50 +360,70 @@ pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<Reliabili
                     "a reliability benchmark needs coefficients, not effects".into(),
                 ));
             }
-            let specs: Vec<ModeratorSpec> = at.keys().map(ModeratorSpec::auto).collect();
-            let (fit, x0) = if specs.is_empty() {
-                let d = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
-                (fit_model(&d, options)?, vec![1.0])
-            } else {
-                let design = build_design(&p, &specs)?;
-                let x0 = design.row_for(at, p.delimiter != b',')?;
-                let (y, v) = design.effects(&p.y, &p.v);
-                (
-                    fit_model(&MetaData::with_design(y, v, design.x.clone())?, options)?,
-                    x0,
-                )
-            };
-            if fit.k < fit.p + 2 {
-                return Err(Error::CannotAnalyse(format!(
-                    "{}: {} studies leave no degrees of freedom for a predictive distribution",
-                    path.display(),
-                    fit.k
-                )));
-            }
-            let (mean, var) = fit.predict(&x0);
-            let at_text: Vec<String> = at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
-            let label = if at_text.is_empty() {
-                path.display().to_string()
-            } else {
-                format!("{} at {}", path.display(), at_text.join(", "))
-            };
-            let lower = p
-                .records
-                .iter()
-                .filter(|r| is_lower_bound_kind(r.coef_type.name()))
-                .count();
-            let lower_bound_share = lower as f64 / p.records.len() as f64;
-            Ok(ReliabilitySource::Benchmark {
-                label,
-                transform: p.transform,
-                mean,
-                scale: (fit.tau2.tau2 + var).sqrt(),
-                df: (fit.k - fit.p - 1) as f64,
-                k: fit.k,
-                lower_bound_share,
-            })
+            benchmark_source(&p, at, options, &path.display().to_string())
         }
     }
+}
+
+/// The predictive distribution of the true coefficient in a new setting, from studies
+/// already prepared (with whatever sheet and model options the caller used), at the given
+/// moderator values (none: the pooled benchmark). `label` names the sheet in messages.
+pub fn benchmark_source(
+    p: &Prepared,
+    at: &BTreeMap<String, String>,
+    options: &FitOptions,
+    label: &str,
+) -> Result<ReliabilitySource> {
+    if p.transform == TransformKind::None {
+        return Err(Error::InvalidOption(
+            "a reliability benchmark needs coefficients, not effects".into(),
+        ));
+    }
+    let options = FitOptions {
+        tau2_interval: false,
+        ..*options
+    };
+    let specs: Vec<ModeratorSpec> = at.keys().map(ModeratorSpec::auto).collect();
+    let (fit, x0) = if specs.is_empty() {
+        let d = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
+        (fit_model(&d, &options)?, vec![1.0])
+    } else {
+        let design = build_design(p, &specs)?;
+        let x0 = design.row_for(at, p.delimiter != b',')?;
+        let (y, v) = design.effects(&p.y, &p.v);
+        (
+            fit_model(&MetaData::with_design(y, v, design.x.clone())?, &options)?,
+            x0,
+        )
+    };
+    if fit.k < fit.p + 2 {
+        return Err(Error::CannotAnalyse(format!(
+            "{label}: {} studies leave no degrees of freedom for a predictive distribution",
+            fit.k
+        )));
+    }
+    let (mean, var) = fit.predict(&x0);
+    let at_text: Vec<String> = at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+    let label = if at_text.is_empty() {
+        label.to_string()
+    } else {
+        format!("{label} at {}", at_text.join(", "))
+    };
+    let lower = p
+        .records
+        .iter()
+        .filter(|r| is_lower_bound_kind(r.coef_type.name()))
+        .count();
+    let lower_bound_share = lower as f64 / p.records.len().max(1) as f64;
+    Ok(ReliabilitySource::Benchmark {
+        label,
+        transform: p.transform,
+        mean,
+        scale: (fit.tau2.tau2 + var).sqrt(),
+        df: (fit.k - fit.p - 1) as f64,
+        k: fit.k,
+        lower_bound_share,
+    })
 }
 
 #[cfg(test)]

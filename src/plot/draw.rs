@@ -288,7 +288,8 @@ fn forest<DB: DrawingBackend>(
     omitted: usize,
     x_label: &str,
 ) -> DrawResult<DB> {
-    // Rows from the top: studies, a gap, the pooled value, the expected range.
+    // Rows from the top: studies, a gap, the pooled value, the expected range. Marker
+    // area is proportional to weight.
     let n = rows.len() as f64 + 3.0;
     let all = rows
         .iter()
@@ -331,7 +332,8 @@ fn forest<DB: DrawingBackend>(
             vec![(r.lower, y), (r.upper, y)],
             ShapeStyle::from(&INK).stroke_width(line),
         )))?;
-        let half = ((2.0 + 5.0 * (r.weight / max_w).sqrt()) * scale) as i32;
+        // Marker area proportional to weight (a floor keeps the lightest visible).
+        let half = ((7.0 * (r.weight / max_w).sqrt()).max(1.5) * scale) as i32;
         chart.draw_series(std::iter::once(
             EmptyElement::at((r.estimate, y))
                 + Rectangle::new([(-half, -half), (half, half)], BLUE.filled()),
@@ -379,7 +381,7 @@ fn forest<DB: DrawingBackend>(
         ))
     };
     for (i, r) in rows.iter().enumerate() {
-        put(&shorten(&r.label, 28), y_of(i as f64), &font)?;
+        put(&shorten(&r.label, 24), y_of(i as f64), &font)?;
     }
     let pooled_label = if omitted > 0 {
         format!("Pooled ({} studies)", rows.len() + omitted)
@@ -501,7 +503,7 @@ fn bubble<DB: DrawingBackend>(
         .fold(0.0, f64::max)
         .max(1e-12);
     chart.draw_series(points.iter().map(|p| {
-        let r = ((2.5 + 7.0 * (p.weight / max_w).sqrt()) * scale) as i32;
+        let r = ((10.0 * (p.weight / max_w).sqrt()).max(2.0) * scale) as i32;
         Circle::new((p.x, p.y), r, ShapeStyle::from(&INK.mix(0.55)).filled())
     }))?;
     chart
@@ -612,7 +614,7 @@ fn sensitivity<DB: DrawingBackend>(
             0.0
         };
         let mix = |a: u8, b: u8| (f64::from(a) + t * (f64::from(b) - f64::from(a))).round() as u8;
-        RGBColor(mix(0x0d, 0x8f), mix(0x3b, 0xc3), mix(0x57, 0xdb))
+        RGBColor(mix(0x0d, 0x4f), mix(0x3b, 0x95), mix(0x57, 0xb8))
     };
     for (i, s) in series.iter().enumerate() {
         let colour = shade(i, series.len());

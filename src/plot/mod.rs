@@ -63,7 +63,7 @@ impl Figure {
             self.draw(&root, 1.0).map_err(drawing_error(&self.title))?;
             root.present().map_err(drawing_error(&self.title))?;
         }
-        Ok(label_svg(&out, &self.title, &self.description))
+        Ok(label_svg(&out, &self.name, &self.title, &self.description))
     }
 
     /// The figure as a PNG image, at twice the SVG's size (for print).
@@ -104,8 +104,9 @@ pub fn xml_escape(s: &str) -> String {
         .replace('"', "&quot;")
 }
 
-/// Add `role="img"`, a `<title>` and a `<desc>` to an SVG document.
-fn label_svg(svg: &str, title: &str, description: &str) -> String {
+/// Add `role="img"`, a `<title>` and a `<desc>` to an SVG document, with ids built from
+/// the figure's name so that several figures can share one page.
+fn label_svg(svg: &str, name: &str, title: &str, description: &str) -> String {
     let Some(open_end) = svg
         .find("<svg")
         .and_then(|i| svg[i..].find('>').map(|j| i + j))
@@ -113,8 +114,9 @@ fn label_svg(svg: &str, title: &str, description: &str) -> String {
         return svg.to_string();
     };
     let (head, rest) = svg.split_at(open_end);
+    let id = xml_escape(name);
     format!(
-        "{head} role=\"img\" aria-labelledby=\"t d\"><title id=\"t\">{}</title><desc id=\"d\">{}</desc>{}",
+        "{head} role=\"img\" aria-labelledby=\"{id}-title {id}-desc\"><title id=\"{id}-title\">{}</title><desc id=\"{id}-desc\">{}</desc>{}",
         xml_escape(title),
         xml_escape(description),
         &rest[1..]

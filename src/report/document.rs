@@ -82,6 +82,27 @@ pub struct InputRecord<'a> {
 }
 
 impl ReportContent {
+    /// The settings in effect, defaults included (the options list shows only what was
+    /// typed).
+    pub fn settings(&self) -> String {
+        let b = &self.benchmark;
+        let mut parts = vec![
+            format!("transform {}", text(&b["transform"])),
+            format!("model {}", text(&b["model"])),
+            format!("τ² estimator {}", text(&b["tau2_method"])),
+            format!("interval {}", text(&b["ci_method"])),
+            format!("level {}", num(&b["level"], 2)),
+        ];
+        if let Some(k) = &self.correction {
+            parts.push(format!(
+                "Monte Carlo draws {}, seed {}",
+                num(&k["draws"], 0),
+                num(&k["seed"], 0)
+            ));
+        }
+        parts.join("; ")
+    }
+
     /// The results document.
     pub fn results(&self) -> ResultsDocument<'_> {
         ResultsDocument {
@@ -160,19 +181,17 @@ impl ReportContent {
             Note(text(&b["caution"])),
             Heading(2, "Benchmark".into()),
             Para(format!(
-                "{} studies (total N = {}) from {}, pooled on the {} scale ({}) with a {} model; \
-                 τ² by {}; confidence interval by {}.",
+                "{} studies (total N = {}; coefficients: {}) from {}, pooled on the {} scale \
+                 ({}) with a {}; confidence interval by {}.",
                 num(&b["k"], 0),
                 b["n_total"]
                     .as_u64()
                     .map_or("–".into(), super::format::thousands),
+                esc(&type_counts(b)),
                 esc(&self.input_file),
                 text(&b["transform"]),
                 esc(&text(&b["transform_formula"])),
-                text(&b["model"])
-                    .replace("random", "random-effects")
-                    .replace("common", "common-effect"),
-                text(&b["tau2_method"]).to_uppercase(),
+                model_words(b),
                 ci_method_words(&text(&b["ci_method"])),
             )),
             Table(
@@ -331,6 +350,14 @@ impl ReportContent {
                 vec![
                     vec!["observed correlation".into(), num(&k["observed"], 3)],
                     vec![
+                        "reliability of the measure (x)".into(),
+                        esc(&text(&k["reliabilities"][0]["description"])),
+                    ],
+                    vec![
+                        "reliability of the other score (y)".into(),
+                        esc(&text(&k["reliabilities"][1]["description"])),
+                    ],
+                    vec![
                         "corrected correlation".into(),
                         if k["corrected"].is_null() {
                             format!("impossible ({} beyond ±1)", num(&k["corrected_value"], 3))
@@ -387,6 +414,14 @@ impl ReportContent {
             .flat_map(|d| d["references"].as_array().cloned().unwrap_or_default())
             .map(|r| text(&r))
             .chain(EXTRA_REFERENCES.iter().map(|r| r.to_string()))
+            .chain(
+                self.correction
+                    .is_some()
+                    .then_some([REF_SPEARMAN, REF_HUNTER_SCHMIDT])
+                    .into_iter()
+                    .flatten()
+                    .map(str::to_string),
+            )
             .collect();
         refs.sort();
         refs.dedup();
@@ -394,8 +429,10 @@ impl ReportContent {
         out.push(Heading(2, "Reporting checklist (REGEMA)".into()));
         out.push(Para(
             "Items of the reporting guideline for reliability generalization meta-analyses \
-             (Sánchez-Meca et al., 2021), with what this report covers. The items' wording is \
-             paraphrased; check it against the published checklist."
+             (Sánchez-Meca et al., 2021), with what this report covers. The guideline's 30 \
+             items and their sections are as published; the items' order and wording here are \
+             our paraphrase and were not checked against the paper's table, so check them \
+             before citing item numbers."
                 .into(),
         ));
         out.push(Table(
@@ -436,6 +473,7 @@ impl ReportContent {
                     "options".into(),
                     format!("<code>{}</code>", esc(&self.options.join(" "))),
                 ],
+                vec!["settings in effect".into(), esc(&self.settings())],
             ],
         ));
         out
@@ -557,7 +595,9 @@ impl ReportContent {
 
 /// HTML fragments back to plain text for Markdown.
 fn plain(s: &str) -> String {
-    s.replace("<sub>", "")
+    s.replace("<strong>", "**")
+        .replace("</strong>", "**")
+        .replace("<sub>", "")
         .replace("</sub>", "")
         .replace("<code>", "`")
         .replace("</code>", "`")
@@ -593,6 +633,31 @@ fn capitalized(s: &str) -> String {
     }
 }
 
+/// The model and its τ² estimator in words.
+fn model_words(b: &Value) -> String {
+    if text(&b["model"]) == "common" {
+        "common-effect model (τ² = 0 assumed)".into()
+    } else {
+        format!(
+            "random-effects model, τ² by {}",
+            text(&b["tau2_method"]).to_uppercase()
+        )
+    }
+}
+
+/// Coefficient types and their counts, from the studies' list.
+fn type_counts(b: &Value) -> String {
+    let mut counts: std::collections::BTreeMap<String, usize> = Default::default();
+    for s in b["studies"].as_array().into_iter().flatten() {
+        *counts.entry(text(&s["coef_type"])).or_default() += 1;
+    }
+    counts
+        .iter()
+        .map(|(t, n)| format!("{t} {n}"))
+        .collect::<Vec<_>>()
+        .join(", ")
+}
+
 /// The interval method in words.
 fn ci_method_words(m: &str) -> String {
     match m {
@@ -602,6 +667,9 @@ fn ci_method_words(m: &str) -> String {
         other => other.into(),
     }
 }
+
+const REF_SPEARMAN: &str = "Spearman, C. (1904). The proof and measurement of association between two things. American Journal of Psychology, 15(1), 72–101.";
+const REF_HUNTER_SCHMIDT: &str = "Hunter, J. E., & Schmidt, F. L. (2004). Methods of meta-analysis: Correcting error and bias in research findings (2nd ed.). Thousand Oaks, CA: Sage.";
 
 /// References the methods section cites beyond the commands' own lists.
 const EXTRA_REFERENCES: [&str; 2] = [
@@ -620,29 +688,49 @@ fn methods(c: &ReportContent) -> Vec<String> {
         text(&b["transform"]),
         esc(&text(&b["transform_formula"]))
     )];
-    m.push(format!(
-        "<strong>Model.</strong> A {} model: Tᵢ = μ + uᵢ + eᵢ with eᵢ ~ N(0, vᵢ) and \
-         between-setting variation uᵢ ~ N(0, τ²); τ² estimated by {}; the pooled value μ̂ = \
-         Σwᵢ Tᵢ / Σwᵢ with weights wᵢ = 1/(vᵢ + τ̂²); its {level:.0}% confidence interval by {} \
-         (Knapp–Hartung: t with k − 1 df, the variance scaled by the weighted residual mean \
-         square).",
-        text(&b["model"])
-            .replace("random", "random-effects")
-            .replace("common", "common-effect"),
-        text(&b["tau2_method"]).to_uppercase(),
-        ci_method_words(&text(&b["ci_method"]))
-    ));
+    let common = text(&b["model"]) == "common";
+    let ci = text(&b["ci_method"]);
+    let ci_detail = if ci.starts_with("knapp-hartung") {
+        " (t with k − 1 df, the variance scaled by the weighted residual mean square)"
+    } else {
+        " (normal quantiles)"
+    };
+    m.push(if common {
+        format!(
+            "<strong>Model.</strong> A common-effect model: Tᵢ = μ + eᵢ with eᵢ ~ N(0, vᵢ) \
+             (one true value, τ² = 0 assumed); the pooled value μ̂ = ΣwᵢTᵢ/Σwᵢ with weights \
+             wᵢ = 1/vᵢ; its {level:.0}% confidence interval by {}{ci_detail}.",
+            ci_method_words(&ci)
+        )
+    } else {
+        format!(
+            "<strong>Model.</strong> A random-effects model: Tᵢ = μ + uᵢ + eᵢ with eᵢ ~ N(0, \
+             vᵢ) and between-setting variation uᵢ ~ N(0, τ²); τ² estimated by {}; the pooled \
+             value μ̂ = ΣwᵢTᵢ/Σwᵢ with weights wᵢ = 1/(vᵢ + τ̂²); its {level:.0}% confidence \
+             interval by {}{ci_detail}.",
+            text(&b["tau2_method"]).to_uppercase(),
+            ci_method_words(&ci)
+        )
+    });
     m.push(
         "<strong>Heterogeneity.</strong> Q = Σwᵢ(Tᵢ − μ̂)² with weights 1/vᵢ; I² = 100·τ̂²/(τ̂² + s²) \
          and H² = (τ̂² + s²)/s² with the typical within-study variance s² = (k − 1)/tr(P); a \
          Q-profile confidence interval for τ² (Viechtbauer, 2007)."
             .into(),
     );
-    m.push(format!(
-        "<strong>Expected range.</strong> The {level:.0}% prediction interval for the true \
-         coefficient in a new setting, μ̂ ± t<sub>k−2</sub>·√(τ̂² + SE²) (Higgins, Thompson \
-         & Spiegelhalter, 2009), transformed back."
-    ));
+    if !b["pi"].is_null() {
+        m.push(format!(
+            "<strong>Expected range.</strong> The {level:.0}% prediction interval for the true \
+             coefficient in a new setting, μ̂ ± t<sub>k−2</sub>·√(τ̂² + SE²) (Higgins, \
+             Thompson & Spiegelhalter, 2009), transformed back."
+        ));
+    } else {
+        m.push(
+            "<strong>Expected range.</strong> None is stated: the model or the number of \
+             studies leaves no room for a prediction interval (see the warnings)."
+                .into(),
+        );
+    }
     m.push(
         "<strong>Small-study patterns.</strong> The precision plot shows each study's \
          transformed value against its standard error with lines at ±1.96 SE around the \

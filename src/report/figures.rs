@@ -34,7 +34,14 @@ fn scale_label(kind: TransformKind) -> String {
 /// The coded studies with their 95% intervals, the pooled value and the expected range.
 pub fn forest(b: &Benchmark) -> Figure {
     let tr = b.transform.get();
-    let z = normal_quantile(0.975);
+    let study_level = b.pool.options.level;
+    let z = normal_quantile(0.5 + study_level / 2.0);
+    // Study intervals on the coefficient scale end at 1, as every other interval does.
+    let top = if b.transform == TransformKind::None {
+        f64::INFINITY
+    } else {
+        crate::transform::COEFFICIENT_MAX
+    };
     // The heaviest studies when there are too many to draw, in sheet order.
     let mut order: Vec<usize> = (0..b.studies.len()).collect();
     let cap = forest_capacity();
@@ -53,6 +60,7 @@ pub fn forest(b: &Benchmark) -> Figure {
             let s = &b.studies[i];
             let half = z * s.variance.sqrt();
             let (lower, upper) = ordered(back(tr, s.effect - half), back(tr, s.effect + half));
+            let (lower, upper) = (lower.min(top), upper.min(top));
             ForestRow {
                 label: s.record.label.clone(),
                 estimate: back(tr, s.effect),
@@ -82,7 +90,7 @@ pub fn forest(b: &Benchmark) -> Figure {
         name: "forest".into(),
         title: format!("Coded studies and the benchmark (k = {})", b.studies.len()),
         description: format!(
-            "Each study's coefficient with its 95% interval ({} drawn{}); the pooled value \
+            "Each study's coefficient with its {level:.0}% interval ({} drawn{}); the pooled value \
              {:.3} with its {level:.0}% confidence interval {:.3} to {:.3}{}.",
             rows.len(),
             if omitted > 0 {
@@ -160,25 +168,35 @@ fn bands(
     xs: impl Iterator<Item = f64>,
     predict: impl Fn(f64) -> (f64, f64),
     crit: f64,
-    pi_t: f64,
+    pi_t: Option<f64>,
     tau2: f64,
     map: impl Fn(f64) -> f64,
 ) -> Vec<FitBand> {
     xs.map(|x| {
         let (fit, var) = predict(x);
         let ci = ordered(map(fit - crit * var.sqrt()), map(fit + crit * var.sqrt()));
-        let pi = ordered(
-            map(fit - pi_t * (var + tau2).sqrt()),
-            map(fit + pi_t * (var + tau2).sqrt()),
-        );
+        let pi = pi_t.map(|t| {
+            ordered(
+                map(fit - t * (var + tau2).sqrt()),
+                map(fit + t * (var + tau2).sqrt()),
+            )
+        });
         FitBand {
             x,
             fit: map(fit),
             ci,
-            pi: Some(pi),
+            pi,
         }
     })
     .collect()
+}
+
+/// The t quantile of a prediction band, or `None` where the pooled results give no
+/// prediction interval either (common-effect model, or no degrees of freedom left).
+fn prediction_t(fit: &crate::pool::ModelFit) -> Option<f64> {
+    let df = fit.k as f64 - fit.p as f64 - 1.0;
+    let random = matches!(fit.options.model, crate::pool::Model::Random(_));
+    (random && df >= 1.0).then(|| t_quantile(0.5 + fit.options.level / 2.0, df))
 }
 
 fn grid(lo: f64, hi: f64, n: usize) -> impl Iterator<Item = f64> {
@@ -207,14 +225,12 @@ pub fn moderator(p: &Prepared, name: &str, options: &FitOptions) -> Result<Figur
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
             (a.min(x), b.max(x))
         });
-    let k = ex.fit.k as f64;
     let level = ex.fit.options.level;
-    let pi_t = t_quantile(0.5 + level / 2.0, (k - ex.fit.p as f64 - 1.0).max(1.0));
     let fit = bands(
         grid(lo, hi, 60),
         |x| ex.fit.predict(&[1.0, x]),
         ex.fit.critical_value(),
-        pi_t,
+        prediction_t(&ex.fit),
         ex.fit.tau2.tau2,
         |t| back(tr, t),
     );
@@ -290,15 +306,11 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
         s.fit.predict(&x0)
     };
     let level = s.fit.options.level;
-    let pi_t = t_quantile(
-        0.5 + level / 2.0,
-        (s.fit.k as f64 - s.fit.p as f64 - 1.0).max(1.0),
-    );
     let fit = bands(
         grid(lo, hi, 60),
         predict,
         s.fit.critical_value(),
-        pi_t,
+        prediction_t(&s.fit),
         s.fit.tau2.tau2,
         |t| t,
     );
@@ -349,13 +361,16 @@ pub fn placement(pl: &Placement) -> Figure {
     let (a, b) = (pl.pi_observed.lower, pl.pi_observed.upper);
     let width = (b - a).max(1e-3);
     let lo = a - 0.35 * width;
-    let hi = (b + 0.35 * width).min(if pl.transform == TransformKind::None {
-        f64::INFINITY
-    } else {
-        0.999
-    });
+    let hi = b + 0.35 * width;
     let lo = lo.min(pl.study.coef - 0.05 * width);
     let hi = hi.max(pl.study.coef + 0.05 * width);
+    // Coefficients end at 1: the density is drawn up to just below it.
+    let hi = if pl.transform == TransformKind::None {
+        hi
+    } else {
+        hi.min(1.0 - 1e-6)
+    };
+    let lo = if lo < hi { lo } else { hi - 0.1 };
     let mut curve = Vec::new();
     for c in grid(lo, hi, 240) {
         let f = |c: f64| tr.forward(crate::transform::Coefficient(c)).0;

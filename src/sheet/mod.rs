@@ -172,9 +172,10 @@ fn parse_rows(
     options: &SheetOptions,
     expected_rows: usize,
 ) -> Result<CodingSheet> {
-    let layout = Layout::resolve(file, table.header(), &options.columns)?;
+    let layout = Layout::resolve(file, table.header(), table.header_row(), &options.columns)?;
     let delimiter = table.delimiter();
-    let decimal_comma = delimiter != b',';
+    // Workbook cells are typed; a text cell such as "1,250" is not read as 1.25.
+    let decimal_comma = delimiter != b',' && delimiter != WORKBOOK;
     let mut records = Vec::with_capacity(expected_rows);
     let mut problems = Vec::new();
     let mut partial = Vec::new();
@@ -222,7 +223,12 @@ struct Layout {
 }
 
 impl Layout {
-    fn resolve(file: &str, header: &[String], map: &ColumnMap) -> Result<Layout> {
+    fn resolve(
+        file: &str,
+        header: &[String],
+        header_row: usize,
+        map: &ColumnMap,
+    ) -> Result<Layout> {
         let mut problems = Vec::new();
         // Duplicated names (case-insensitive).
         let mut seen: BTreeMap<String, usize> = BTreeMap::new();
@@ -232,7 +238,7 @@ impl Layout {
             }
             if let Some(first) = seen.insert(h.to_lowercase(), i) {
                 problems.push(CellProblem::row(
-                    1,
+                    header_row,
                     format!(
                         "the column name \"{h}\" appears twice (columns {} and {}); every column \
                          needs its own name",
@@ -257,7 +263,7 @@ impl Layout {
                         roles.insert(role, (i, header[i].clone()));
                     }
                     None => problems.push(CellProblem::row(
-                        1,
+                        header_row,
                         format!(
                             "--column {role}={name} names a column the sheet does not have \
                              (its columns are: {})",
@@ -281,7 +287,7 @@ impl Layout {
         }
         if !roles.contains_key(&Role::Coef) && map.get(Role::Coef).is_none() {
             problems.push(CellProblem::row(
-                1,
+                header_row,
                 format!(
                     "the sheet has no coef column (its columns are: {}); name the column of \
                      reported coefficients coef, or map it with --column coef=NAME",

@@ -66,6 +66,8 @@ impl<'a> RawRow<'a> {
 pub(crate) trait RowSource {
     /// The header cells, trimmed.
     fn header(&self) -> &[String];
+    /// The header's spreadsheet row (1 unless empty rows stand above it).
+    fn header_row(&self) -> usize;
     /// The delimiter (0 for a workbook); a decimal comma is accepted unless it is a comma.
     fn delimiter(&self) -> u8;
     /// The next non-blank data row, or `None` at the end.
@@ -79,6 +81,9 @@ pub(crate) trait RowSource {
 impl RowSource for TableReader<'_> {
     fn header(&self) -> &[String] {
         &self.header
+    }
+    fn header_row(&self) -> usize {
+        self.header_row
     }
     fn delimiter(&self) -> u8 {
         self.delimiter
@@ -107,6 +112,8 @@ pub struct TableReader<'a> {
     rows_read: usize,
     /// Header cells, trimmed.
     pub header: Vec<String>,
+    /// The header's spreadsheet row.
+    pub header_row: usize,
     /// The delimiter used.
     pub delimiter: u8,
 }
@@ -148,6 +155,7 @@ impl<'a> TableReader<'a> {
             last_data: 0,
             rows_read: 0,
             header: Vec::new(),
+            header_row: 1,
             delimiter,
         };
         if !t.advance()? {
@@ -175,6 +183,7 @@ impl<'a> TableReader<'a> {
         // Blank lines above the header are numbered as the spreadsheet does, not reported.
         t.empty_rows.clear();
         t.header = names;
+        t.header_row = t.row_number;
         Ok(t)
     }
 

@@ -25,6 +25,7 @@ pub fn is_workbook(path: &Path, bytes: &[u8]) -> bool {
 /// The rows of one worksheet.
 pub struct WorkbookRows {
     header: Vec<String>,
+    header_row: usize,
     rows: Vec<(usize, csv::ByteRecord)>,
     next: usize,
     empty_rows: Vec<usize>,
@@ -87,6 +88,7 @@ impl WorkbookRows {
             )));
         };
         let mut header = None;
+        let mut header_row = 1;
         let mut rows = Vec::new();
         let mut empty_rows = Vec::new();
         for (i, cells) in range.rows().enumerate() {
@@ -100,6 +102,7 @@ impl WorkbookRows {
                         .map(|t| t.trim().to_string())
                         .collect::<Vec<_>>(),
                 );
+                header_row = row;
                 continue;
             }
             if texts.iter().all(|t| t.trim().is_empty()) {
@@ -113,6 +116,7 @@ impl WorkbookRows {
         empty_rows.retain(|&r| r < last);
         Ok(WorkbookRows {
             header,
+            header_row,
             rows,
             next: 0,
             empty_rows,
@@ -128,6 +132,9 @@ impl WorkbookRows {
 impl RowSource for WorkbookRows {
     fn header(&self) -> &[String] {
         &self.header
+    }
+    fn header_row(&self) -> usize {
+        self.header_row
     }
     fn delimiter(&self) -> u8 {
         WORKBOOK
