@@ -21,7 +21,7 @@ fn demo_sheet() -> String {
 fn full_report(name: &str) -> PathBuf {
     let dir = scratch(name).join("out");
     let sheet = demo_sheet();
-    let out = relyard(&[
+    run_ok(&[
         "report",
         &sheet,
         "--moderator",
@@ -48,12 +48,6 @@ fn full_report(name: &str) -> PathBuf {
         "--out",
         dir.to_str().unwrap(),
     ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
     dir
 }
 
@@ -403,13 +397,7 @@ fn small_and_common_effect_reports() {
         b"study,coef,n,items\nA,0.81,120,8\nB,0.74,95,8\n",
     );
     let out_dir = dir.join("two");
-    let out = relyard(&["report", &sheet, "--out", out_dir.to_str().unwrap()]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    run_ok(&["report", &sheet, "--out", out_dir.to_str().unwrap()]);
     let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
     assert!(
         html.contains("None is stated"),
@@ -417,7 +405,7 @@ fn small_and_common_effect_reports() {
     );
     let sheet = demo_sheet();
     let out_dir = dir.join("common");
-    let out = relyard(&[
+    run_ok(&[
         "report",
         &sheet,
         "--tau2",
@@ -427,12 +415,6 @@ fn small_and_common_effect_reports() {
         "--out",
         out_dir.to_str().unwrap(),
     ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
     let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
     assert!(html.contains("common-effect model (τ² = 0 assumed)"));
     assert!(!html.contains("τ² by COMMON"));
@@ -449,7 +431,7 @@ fn the_correction_uses_the_reports_benchmark() {
     let renamed = text.replacen("coef", "reported_alpha", 1);
     let sheet = write_file(&dir, "renamed.csv", renamed.as_bytes());
     let out_dir = dir.join("out");
-    let out = relyard(&[
+    run_ok(&[
         "report",
         &sheet,
         "--column",
@@ -467,12 +449,6 @@ fn the_correction_uses_the_reports_benchmark() {
         "--out",
         out_dir.to_str().unwrap(),
     ]);
-    assert_eq!(
-        out.status.code(),
-        Some(0),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
     let r = read_json(&out_dir.join("results.json"));
     assert_eq!(r["benchmark"]["tau2_method"], "dl");
     let used = r["correction"]["reliabilities"][0]["value"]

@@ -124,6 +124,13 @@ pub fn warning_codes(j: &serde_json::Value) -> Vec<String> {
 /// Run the binary, require exit status 0, and parse its stdout as one JSON object.
 #[track_caller]
 pub fn json_ok(args: &[&str]) -> serde_json::Value {
+    let out = run_ok(args);
+    serde_json::from_slice(&out.stdout).expect("stdout is one JSON object")
+}
+
+/// Run the binary and require success (exit status 0), showing stderr otherwise.
+#[track_caller]
+pub fn run_ok(args: &[&str]) -> Output {
     let out = relyard(args);
     assert_eq!(
         out.status.code(),
@@ -131,7 +138,7 @@ pub fn json_ok(args: &[&str]) -> serde_json::Value {
         "{args:?}: {}",
         String::from_utf8_lossy(&out.stderr)
     );
-    serde_json::from_slice(&out.stdout).expect("stdout is one JSON object")
+    out
 }
 
 /// [`assert_close`] for two JSON numbers.
