@@ -39,7 +39,8 @@ pub enum Command {
 /// Options for reading a coding sheet, shared by the commands that read one.
 #[derive(Debug, Clone, Args)]
 pub struct SheetArgs {
-    /// The coding sheet (CSV: comma, semicolon or tab delimited; UTF-8).
+    /// The coding sheet: CSV (comma, semicolon or tab delimited; UTF-8) or a workbook (.xlsx,
+    /// .xls, .ods).
     #[arg(value_name = "SHEET")]
     pub sheet: PathBuf,
 
@@ -199,34 +200,8 @@ pub struct CheckArgs {
     #[arg(long, value_name = "N")]
     pub n: u64,
 
-    /// The new study's number of items (needed for internal-consistency coefficients).
-    #[arg(long, value_name = "K")]
-    pub items: Option<u32>,
-
-    /// The kind of the new study's coefficient [default: alpha].
-    #[arg(long, value_name = "TYPE", default_value = "alpha")]
-    pub coef_type: String,
-
-    /// The new study's score SD (then --sd-metric, and for the POMP metric --scale-min and
-    /// --scale-max): says how much of a shortfall its score spread accounts for.
-    #[arg(long, value_name = "S")]
-    pub sd: Option<f64>,
-
-    /// Whether --sd is for sum or mean scores.
-    #[arg(long, value_name = "METRIC")]
-    pub sd_metric: Option<String>,
-
-    /// Lowest possible response to one item of the new study's scale.
-    #[arg(long, value_name = "X", allow_negative_numbers = true)]
-    pub scale_min: Option<f64>,
-
-    /// Highest possible response to one item of the new study's scale.
-    #[arg(long, value_name = "X", allow_negative_numbers = true)]
-    pub scale_max: Option<f64>,
-
-    /// The new study's value of a moderator, NAME=VALUE (repeatable; one per --moderator).
-    #[arg(long = "at", value_name = "NAME=VALUE")]
-    pub at: Vec<String>,
+    #[command(flatten)]
+    pub study: StudyArgs,
 
     /// Name of the measure, used in the paragraph.
     #[arg(long, value_name = "NAME")]
@@ -453,33 +428,8 @@ pub struct ReportArgs {
     #[arg(long, value_name = "N")]
     pub n: Option<u64>,
 
-    /// The new study's number of items.
-    #[arg(long, value_name = "K")]
-    pub items: Option<u32>,
-
-    /// The kind of the new study's coefficient.
-    #[arg(long, value_name = "TYPE", default_value = "alpha")]
-    pub coef_type: String,
-
-    /// The new study's score SD (as for relyard check).
-    #[arg(long, value_name = "S")]
-    pub sd: Option<f64>,
-
-    /// Whether --sd is for sum or mean scores.
-    #[arg(long, value_name = "METRIC")]
-    pub sd_metric: Option<String>,
-
-    /// Lowest possible response to one item of the new study's scale.
-    #[arg(long, value_name = "X", allow_negative_numbers = true)]
-    pub scale_min: Option<f64>,
-
-    /// Highest possible response to one item of the new study's scale.
-    #[arg(long, value_name = "X", allow_negative_numbers = true)]
-    pub scale_max: Option<f64>,
-
-    /// The new study's value of a moderator, NAME=VALUE (repeatable).
-    #[arg(long = "at", value_name = "NAME=VALUE")]
-    pub at: Vec<String>,
+    #[command(flatten)]
+    pub study: StudyArgs,
 
     /// The new study's observed correlation of this measure with another score: adds a
     /// what-if correction (with --n and --rel-y). The measure's reliability is the new
@@ -511,4 +461,38 @@ pub struct ReportArgs {
     /// Replace an existing report in the folder.
     #[arg(long)]
     pub force: bool,
+}
+
+/// What else is known of the new study besides its coefficient and sample size (shared by
+/// `check` and `report`).
+#[derive(Debug, Clone, Args)]
+pub struct StudyArgs {
+    /// The new study's number of items (needed for internal-consistency coefficients).
+    #[arg(long, value_name = "K")]
+    pub items: Option<u32>,
+
+    /// The kind of the new study's coefficient [default: alpha].
+    #[arg(long, value_name = "TYPE", default_value = "alpha")]
+    pub coef_type: String,
+
+    /// The new study's score SD (then --sd-metric, and for the POMP metric --scale-min and
+    /// --scale-max): says how much of a shortfall its score spread accounts for.
+    #[arg(long, value_name = "S")]
+    pub sd: Option<f64>,
+
+    /// Whether --sd is for sum or mean scores.
+    #[arg(long, value_name = "METRIC")]
+    pub sd_metric: Option<String>,
+
+    /// Lowest possible response to one item of the new study's scale.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub scale_min: Option<f64>,
+
+    /// Highest possible response to one item of the new study's scale.
+    #[arg(long, value_name = "X", allow_negative_numbers = true)]
+    pub scale_max: Option<f64>,
+
+    /// The new study's value of a moderator, NAME=VALUE (repeatable; one per --moderator).
+    #[arg(long = "at", value_name = "NAME=VALUE")]
+    pub at: Vec<String>,
 }

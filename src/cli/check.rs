@@ -11,7 +11,14 @@ use relyard::sheet::read_coding_sheet;
 /// The prepared studies, the placement and its paragraph (shared with `relyard report`).
 pub fn compute(c: &CheckConfig) -> Result<(Prepared, Placement, Paragraph), Failure> {
     let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
-    let prepared = prepare(sheet, &c.benchmark)?;
+    compute_from(c, prepare(sheet, &c.benchmark)?)
+}
+
+/// [`compute`] from studies already prepared with `c`'s options (`relyard report`).
+pub fn compute_from(
+    c: &CheckConfig,
+    prepared: Prepared,
+) -> Result<(Prepared, Placement, Paragraph), Failure> {
     let opts = fit_options(&c.benchmark);
     let pl = place(
         &prepared,

@@ -108,8 +108,32 @@ pub struct ModeratorConfig {
     pub spread_metric: Option<SpreadMetric>,
 }
 
+/// The new study's moderator values from `--at NAME=VALUE` options (names matched to the
+/// moderators ignoring case).
+pub fn at_values(
+    specs: &[String],
+    moderators: &ModeratorConfig,
+) -> Result<BTreeMap<String, String>, Failure> {
+    let mut at = BTreeMap::new();
+    for spec in specs {
+        let (name, value) = spec
+            .split_once('=')
+            .ok_or_else(|| bad(format!("--at takes NAME=VALUE (got \"{spec}\")")))?;
+        let name = moderators
+            .specs
+            .iter()
+            .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
+            .map(|s| s.name.clone())
+            .unwrap_or_else(|| name.trim().to_string());
+        if at.insert(name.clone(), value.trim().to_string()).is_some() {
+            return Err(bad(format!("--at {name} is given twice")));
+        }
+    }
+    Ok(at)
+}
+
 impl ModeratorConfig {
-    fn from_args(a: ModeratorArgs) -> Result<Self, Failure> {
+    pub fn from_args(a: ModeratorArgs) -> Result<Self, Failure> {
         let mut specs: Vec<ModeratorSpec> = a
             .moderators
             .iter()
@@ -256,15 +280,16 @@ impl CheckConfig {
         if !a.coef.is_finite() {
             return Err(bad("--coef must be a finite number"));
         }
-        let coef_type = CoefType::parse_cell(&a.coef_type).ok_or_else(|| {
+        let coef_type = CoefType::parse_cell(&a.study.coef_type).ok_or_else(|| {
             let names: Vec<&str> = CoefType::ALL.iter().map(|t| t.name()).collect();
             bad(format!(
                 "--coef-type {}: unknown coefficient type (use one of: {})",
-                a.coef_type,
+                a.study.coef_type,
                 names.join(", ")
             ))
         })?;
         let sd_metric = a
+            .study
             .sd_metric
             .as_deref()
             .map(|m| {
@@ -272,37 +297,24 @@ impl CheckConfig {
                     .ok_or_else(|| bad(format!("--sd-metric {m}: use sum or mean")))
             })
             .transpose()?;
-        if let Some(sd) = a.sd
+        if let Some(sd) = a.study.sd
             && !(sd.is_finite() && sd > 0.0)
         {
             return Err(bad(format!("--sd must be a number above 0 (got {sd})")));
         }
-        if a.sd.is_none() && (sd_metric.is_some() || a.scale_min.is_some() || a.scale_max.is_some())
+        if a.study.sd.is_none()
+            && (sd_metric.is_some() || a.study.scale_min.is_some() || a.study.scale_max.is_some())
         {
             return Err(bad(
                 "--sd-metric, --scale-min and --scale-max describe --sd; give --sd too",
             ));
         }
-        if let (Some(lo), Some(hi)) = (a.scale_min, a.scale_max)
+        if let (Some(lo), Some(hi)) = (a.study.scale_min, a.study.scale_max)
             && lo >= hi
         {
             return Err(bad("--scale-max must be above --scale-min"));
         }
-        let mut at = BTreeMap::new();
-        for spec in &a.at {
-            let (name, value) = spec
-                .split_once('=')
-                .ok_or_else(|| bad(format!("--at takes NAME=VALUE (got \"{spec}\")")))?;
-            let name = moderators
-                .specs
-                .iter()
-                .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
-                .map(|s| s.name.clone())
-                .unwrap_or_else(|| name.trim().to_string());
-            if at.insert(name.clone(), value.trim().to_string()).is_some() {
-                return Err(bad(format!("--at {name} is given twice")));
-            }
-        }
+        let at = at_values(&a.study.at, &moderators)?;
         Ok(CheckConfig {
             sheet,
             benchmark,
@@ -311,11 +323,11 @@ impl CheckConfig {
                 coef: a.coef,
                 coef_type,
                 n: a.n,
-                items: a.items,
-                sd: a.sd,
+                items: a.study.items,
+                sd: a.study.sd,
                 sd_metric,
-                scale_min: a.scale_min,
-                scale_max: a.scale_max,
+                scale_min: a.study.scale_min,
+                scale_max: a.study.scale_max,
             },
             at,
             measure: measure_name(a.measure),

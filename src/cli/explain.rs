@@ -39,7 +39,11 @@ impl Explained {
 
 pub fn compute(c: &ExplainConfig) -> Result<Explained, Failure> {
     let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
-    let prepared = prepare(sheet, &c.benchmark)?;
+    compute_from(c, prepare(sheet, &c.benchmark)?)
+}
+
+/// [`compute`] from studies already prepared with `c`'s options (`relyard report`).
+pub fn compute_from(c: &ExplainConfig, prepared: Prepared) -> Result<Explained, Failure> {
     let opts = fit_options(&c.benchmark);
     let design = build_design(&prepared, &c.moderators.specs)?;
     let main = explain(&prepared, design, &opts)?;

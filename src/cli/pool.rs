@@ -2,16 +2,21 @@
 
 use super::config::PoolConfig;
 use super::output::{Failure, print, print_json, warn_all};
-use relyard::benchmark::{Benchmark, build};
+use relyard::benchmark::{Benchmark, Prepared, from_prepared, prepare};
 use relyard::report::json::PoolDocument;
 use relyard::report::paragraph::{Paragraph, benchmark_paragraph};
 use relyard::report::text::benchmark_summary;
 use relyard::sheet::read_coding_sheet;
 
-/// The benchmark and its paragraph (shared with `relyard report`).
+/// The benchmark and its paragraph.
 pub fn compute(c: &PoolConfig) -> Result<(Benchmark, Paragraph), Failure> {
     let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
-    let b = build(sheet, &c.benchmark)?;
+    compute_from(c, prepare(sheet, &c.benchmark)?)
+}
+
+/// [`compute`] from studies already prepared with `c`'s options (`relyard report`).
+pub fn compute_from(c: &PoolConfig, prepared: Prepared) -> Result<(Benchmark, Paragraph), Failure> {
+    let b = from_prepared(prepared, &c.benchmark.pool)?;
     let paragraph = benchmark_paragraph(&b, c.measure.as_deref());
     Ok((b, paragraph))
 }

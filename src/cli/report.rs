@@ -5,7 +5,9 @@
 //! `correct`), and the report is written from those commands' JSON documents.
 
 use super::args::{CheckArgs, ExplainArgs, PoolArgs, ReportArgs};
-use super::config::{CheckConfig, ExplainConfig, PoolConfig, fit_options};
+use super::config::{
+    CheckConfig, ExplainConfig, ModeratorConfig, PoolConfig, at_values, fit_options,
+};
 use super::output::{Failure, print, warn_all, write_new_bytes, write_new_file};
 use relyard::Error;
 use relyard::metareg::Moderator;
@@ -75,11 +77,11 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
     }
     if a.coef.is_none() {
         for (given, name) in [
-            (a.items.is_some(), "--items"),
-            (a.sd.is_some(), "--sd"),
-            (a.sd_metric.is_some(), "--sd-metric"),
+            (a.study.items.is_some(), "--items"),
+            (a.study.sd.is_some(), "--sd"),
+            (a.study.sd_metric.is_some(), "--sd-metric"),
             (
-                a.scale_min.is_some() || a.scale_max.is_some(),
+                a.study.scale_min.is_some() || a.study.scale_max.is_some(),
                 "--scale-min/--scale-max",
             ),
         ] {
@@ -89,7 +91,7 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
                 )));
             }
         }
-        if !a.at.is_empty() && a.r.is_none() {
+        if !a.study.at.is_empty() && a.r.is_none() {
             return Err(bad(
                 "--at gives the new study's moderator values: give its --coef and --n, or --r",
             ));
@@ -100,20 +102,11 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
             "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
         ));
     }
-    let mut at = std::collections::BTreeMap::new();
-    for spec in &a.at {
-        let (k, v) = spec
-            .split_once('=')
-            .ok_or_else(|| bad(format!("--at {spec}: write NAME=VALUE")))?;
-        at.insert(k.trim().to_string(), v.trim().to_string());
-    }
-    let bytes = std::fs::read(&a.sheet.sheet).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => bad(format!(
-            "{}: no such file; check the path of the coding sheet",
-            a.sheet.sheet.display()
-        )),
-        _ => Failure::Lib(Error::io(format!("reading {}", a.sheet.sheet.display()), e)),
-    })?;
+    let at = at_values(
+        &a.study.at,
+        &ModeratorConfig::from_args(a.moderators.clone())?,
+    )?;
+    let bytes = relyard::sheet::read_sheet_bytes(&a.sheet.sheet)?;
     let sha256: String = Sha256::digest(&bytes)
         .iter()
         .map(|b| format!("{b:02x}"))
@@ -127,7 +120,15 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
         studies: false,
         json: true,
     })?;
-    let (bench, paragraph) = super::pool::compute(&pool_config)?;
+    // The sheet is read and its studies prepared once; every part starts from them (the
+    // parts' options for the sheet and the model are the same).
+    let sheet = relyard::sheet::coding_sheet_from_bytes(
+        &pool_config.sheet.path,
+        bytes,
+        &pool_config.sheet.options,
+    )?;
+    let prepared = relyard::benchmark::prepare(sheet, &pool_config.benchmark)?;
+    let (bench, paragraph) = super::pool::compute_from(&pool_config, prepared.clone())?;
     let mut warnings = bench.warnings.clone();
     let benchmark = value(&PoolDocument::new(&bench, &paragraph, &bench.warnings))?;
     let mut figs = vec![figures::forest(&bench), figures::funnel(&bench)];
@@ -147,7 +148,7 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
             seed: a.seed,
             json: true,
         })?;
-        let e = super::explain::compute(&config)?;
+        let e = super::explain::compute_from(&config, prepared.clone())?;
         warnings.extend(e.warnings.iter().cloned());
         scope.moderators = !a.moderators.moderators.is_empty();
         scope.score_spread = e.spread.is_some();
@@ -177,21 +178,15 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
                 moderators: a.moderators.clone(),
                 coef,
                 n,
-                items: a.items,
-                coef_type: a.coef_type.clone(),
-                sd: a.sd,
-                sd_metric: a.sd_metric.clone(),
-                scale_min: a.scale_min,
-                scale_max: a.scale_max,
-                at: a.at.clone(),
+                study: a.study.clone(),
                 measure: a.measure.clone(),
                 json: true,
             })?;
-            let (prepared, pl, paragraph) = super::check::compute(&config)?;
+            let (checked, pl, paragraph) = super::check::compute_from(&config, prepared.clone())?;
             warnings.extend(pl.warnings.iter().cloned());
             figs.push(figures::placement(&pl));
             Some(value(&CheckDocument::new(
-                &prepared,
+                &checked,
                 &pl,
                 &paragraph,
                 &pl.warnings,
@@ -206,28 +201,23 @@ pub fn run(a: ReportArgs) -> Result<(), Failure> {
             // The measure's reliability: the new study's own coefficient when given, else
             // the benchmark shown in this report (same sheet options and model, at the
             // new study's moderator values when given).
-            let rel_x = match (a.coef, a.items) {
+            let rel_x = match (a.coef, a.study.items) {
                 (Some(c), Some(k)) => super::correct::source(
                     "--coef",
-                    &format!("{c},n={n},items={k},kind={}", a.coef_type),
+                    &format!("{c},n={n},items={k},kind={}", a.study.coef_type),
                     level,
                 )?,
-                (Some(c), None) => {
-                    super::correct::source("--coef", &format!("{c},kind={}", a.coef_type), level)?
-                }
-                _ => {
-                    let sheet = relyard::sheet::read_coding_sheet(
-                        &pool_config.sheet.path,
-                        &pool_config.sheet.options,
-                    )?;
-                    let prepared = relyard::benchmark::prepare(sheet, &pool_config.benchmark)?;
-                    relyard::correct::reliability::benchmark_source(
-                        &prepared,
-                        &at,
-                        &fit_options(&pool_config.benchmark),
-                        &bench.file,
-                    )?
-                }
+                (Some(c), None) => super::correct::source(
+                    "--coef",
+                    &format!("{c},kind={}", a.study.coef_type),
+                    level,
+                )?,
+                _ => relyard::correct::reliability::benchmark_source(
+                    &prepared,
+                    &at,
+                    &fit_options(&pool_config.benchmark),
+                    &bench.file,
+                )?,
             };
             let rel_y = super::correct::source("--rel-y", rel_y, level)?;
             let (input, c, w) = super::correct::correlation_result(

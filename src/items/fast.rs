@@ -46,7 +46,7 @@ pub(super) struct Layout<'a> {
     pub part_bytes: usize,
 }
 
-/// What one pass gathered (the same tallies as the careful reader keeps).
+/// What one pass gathered, by either reader.
 #[derive(Debug, Clone)]
 pub(super) struct Tallies {
     pub listwise: Listwise,
@@ -63,7 +63,8 @@ pub(super) struct Tallies {
 }
 
 impl Tallies {
-    fn new(k: usize, keep_rows: bool) -> Self {
+    /// Empty tallies for k items.
+    pub(super) fn new(k: usize, keep_rows: bool) -> Self {
         Tallies {
             listwise: Listwise::new(k),
             seen: vec![0; k],
@@ -78,9 +79,9 @@ impl Tallies {
         }
     }
 
-    /// Note an answer of item `slot`.
+    /// Note an answer of item `slot` (rows in file order).
     #[inline]
-    fn answer(&mut self, slot: usize, x: f64) {
+    pub(super) fn answer(&mut self, slot: usize, x: f64) {
         self.seen[slot] += 1;
         let lo = &mut self.lowest[slot];
         if x < lo[0] {

@@ -1,6 +1,7 @@
 //! Reading raw item data (respondents in rows, items in columns) in one streaming pass.
 
-use super::moments::{Listwise, Moments, Pairwise};
+use super::fast::Tallies;
+use super::moments::{Moments, Pairwise};
 use crate::error::{CellProblem, Error, Result};
 use crate::sheet::{detect_delimiter, is_missing, parse_number};
 use std::io::{BufRead, BufReader, Read, Seek, SeekFrom};
@@ -252,20 +253,12 @@ fn read_items_with(
     }
 
     let k = names.len();
-    let mut listwise = Listwise::new(k);
-    // Per item: answers seen, range, and whether it counts 1, 2, 3, … like an identifier.
-    let mut seen = vec![0u64; k];
-    // The two lowest and two highest answers of each item (for missing-value codes).
-    let mut lowest = vec![[f64::INFINITY; 2]; k];
-    let mut highest = vec![[f64::NEG_INFINITY; 2]; k];
-    let mut counting = vec![true; k];
-    let mut previous: Vec<Option<f64>> = vec![None; k];
+    // Per item: answers seen, the two lowest and highest (for missing-value codes), and
+    // whether it counts 1, 2, 3, … like an identifier; the listwise sums and rows.
+    let mut t = Tallies::new(k, options.keep_rows);
     let mut pairwise = (options.missing == Missing::Pairwise).then(|| Pairwise::new(k));
-    let mut rows = options.keep_rows.then(Vec::new);
     let mut problems: Vec<CellProblem> = Vec::new();
     let mut unlisted = 0usize;
-    let mut rows_read = 0u64;
-    let mut missing_cells = 0u64;
     let mut values = vec![0.0; k];
     let mut optional: Vec<Option<f64>> = vec![None; k];
     let width = header.len();
@@ -297,15 +290,8 @@ fn read_items_with(
             .map_err(|e| Error::io(format!("reading {file}"), e))?;
         let outcome = super::fast::read_rows(again, &layout)
             .map_err(|e| Error::io(format!("reading {file}"), e))?;
-        if let Ok(t) = outcome {
-            listwise = t.listwise;
-            seen = t.seen;
-            lowest = t.lowest;
-            highest = t.highest;
-            counting = t.counting;
-            rows_read = t.rows_read;
-            missing_cells = t.missing_cells;
-            rows = t.rows;
+        if let Ok(fast) = outcome {
+            t = fast;
             fast_done = true;
         }
     }
@@ -322,7 +308,7 @@ fn read_items_with(
         if record.iter().all(|c| c.iter().all(u8::is_ascii_whitespace)) {
             continue;
         }
-        rows_read += 1;
+        t.rows_read += 1;
         let mut push = |p: CellProblem| {
             if problems.len() < MAX_LISTED {
                 problems.push(p);
@@ -358,7 +344,7 @@ fn read_items_with(
             let trimmed = cell.trim_ascii();
             if missing_cell(trimmed) {
                 complete = false;
-                missing_cells += 1;
+                t.missing_cells += 1;
                 optional[slot] = None;
                 continue;
             }
@@ -380,27 +366,7 @@ fn read_items_with(
                     }
                     values[slot] = x;
                     optional[slot] = Some(x);
-                    seen[slot] += 1;
-                    let lo = &mut lowest[slot];
-                    if x < lo[0] {
-                        lo[1] = lo[0];
-                        lo[0] = x;
-                    } else if x < lo[1] {
-                        lo[1] = x;
-                    }
-                    let hi = &mut highest[slot];
-                    if x > hi[0] {
-                        hi[1] = hi[0];
-                        hi[0] = x;
-                    } else if x > hi[1] {
-                        hi[1] = x;
-                    }
-                    if let Some(p) = previous[slot]
-                        && x != p + 1.0
-                    {
-                        counting[slot] = false;
-                    }
-                    previous[slot] = Some(x);
+                    t.answer(slot, x);
                 }
                 Err(e) => {
                     push(CellProblem::cell(
@@ -417,7 +383,7 @@ fn read_items_with(
         if bad {
             // Without --items, a text column in the first row is most likely an identifier:
             // say so once instead of listing every row.
-            if options.items.is_none() && rows_read == 1 {
+            if options.items.is_none() && t.rows_read == 1 {
                 // Identifier-like text: it starts with a letter (R001, P1, anna).
                 let text: Vec<String> = columns
                     .iter()
@@ -456,8 +422,8 @@ fn read_items_with(
             p.add(&optional);
         }
         if complete {
-            listwise.add(&values);
-            if let Some(r) = rows.as_mut() {
+            t.listwise.add(&values);
+            if let Some(r) = t.rows.as_mut() {
                 r.extend_from_slice(&values);
             }
         }
@@ -470,6 +436,17 @@ fn read_items_with(
     if !problems.is_empty() {
         return Err(Error::InvalidSheet { file, problems });
     }
+    let Tallies {
+        listwise,
+        seen,
+        lowest,
+        highest,
+        counting,
+        rows_read,
+        missing_cells,
+        rows,
+        ..
+    } = t;
     if rows_read == 0 {
         return Err(fail(
             1,

@@ -1,7 +1,9 @@
 //! The figures' data and their drawing on any plotters backend.
 
 use super::{BAND, BAND_LIGHT, BLUE, FONT, GRID, INK, MUTED, ORANGE};
+use plotters::chart::MeshStyle;
 use plotters::coord::Shift;
+use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
@@ -251,6 +253,40 @@ fn tick_font(scale: f64) -> TextStyle<'static> {
     (FONT, 12.0 * scale).into_font().color(&INK)
 }
 
+type Chart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
+
+/// relyard's axes: labels in slate ink, a faint grid, no minor lines.
+fn house_mesh<'m, 'a, 'b, X, Y, DB>(
+    mesh: &'m mut MeshStyle<'a, 'b, X, Y, DB>,
+    scale: f64,
+) -> &'m mut MeshStyle<'a, 'b, X, Y, DB>
+where
+    X: Ranged<ValueType: std::fmt::Debug>,
+    Y: Ranged<ValueType: std::fmt::Debug>,
+    DB: DrawingBackend,
+{
+    mesh.axis_desc_style(label_font(scale))
+        .label_style(tick_font(scale))
+        .axis_style(ShapeStyle::from(&INK).stroke_width(1))
+        .bold_line_style(ShapeStyle::from(&GRID).stroke_width(1))
+        .light_line_style(ShapeStyle::from(&WHITE).stroke_width(0))
+}
+
+/// The legend box, in the same style on every figure.
+fn legend<'c, 'a: 'c, DB: DrawingBackend + 'a>(
+    chart: &'c mut Chart<'a, DB>,
+    scale: f64,
+    position: SeriesLabelPosition,
+) -> DrawResult<DB> {
+    chart
+        .configure_series_labels()
+        .label_font(tick_font(scale))
+        .background_style(WHITE.mix(0.85))
+        .border_style(GRID)
+        .position(position)
+        .draw()
+}
+
 /// A chart with relyard's axes: labels, a faint grid, slate ink.
 macro_rules! axes {
     ($area:expr, $scale:expr, $x:expr, $y:expr, $xl:expr, $yl:expr, $left:expr) => {{
@@ -259,15 +295,9 @@ macro_rules! axes {
             .x_label_area_size((44.0 * $scale) as i32)
             .y_label_area_size(($left * $scale) as i32)
             .build_cartesian_2d($x.0..$x.1, $y.0..$y.1)?;
-        chart
-            .configure_mesh()
+        house_mesh(&mut chart.configure_mesh(), $scale)
             .x_desc($xl)
             .y_desc($yl)
-            .axis_desc_style(label_font($scale))
-            .label_style(tick_font($scale))
-            .axis_style(ShapeStyle::from(&INK).stroke_width(1))
-            .bold_line_style(ShapeStyle::from(&GRID).stroke_width(1))
-            .light_line_style(ShapeStyle::from(&WHITE).stroke_width(0))
             .x_labels(7)
             .y_labels(7)
             .x_label_formatter(&|v| tick(*v))
@@ -305,14 +335,8 @@ fn forest<DB: DrawingBackend>(
         .x_label_area_size((44.0 * scale) as i32)
         .y_label_area_size(0)
         .build_cartesian_2d(x.0..x.1, 0.0..n)?;
-    chart
-        .configure_mesh()
+    house_mesh(&mut chart.configure_mesh(), scale)
         .x_desc(x_label)
-        .axis_desc_style(label_font(scale))
-        .label_style(tick_font(scale))
-        .axis_style(ShapeStyle::from(&INK).stroke_width(1))
-        .bold_line_style(ShapeStyle::from(&GRID).stroke_width(1))
-        .light_line_style(ShapeStyle::from(&WHITE).stroke_width(0))
         .disable_y_mesh()
         .disable_y_axis()
         .x_labels(7)
@@ -506,13 +530,7 @@ fn bubble<DB: DrawingBackend>(
         let r = ((10.0 * (p.weight / max_w).sqrt()).max(2.0) * scale) as i32;
         Circle::new((p.x, p.y), r, ShapeStyle::from(&INK.mix(0.55)).filled())
     }))?;
-    chart
-        .configure_series_labels()
-        .label_font(tick_font(scale))
-        .background_style(WHITE.mix(0.85))
-        .border_style(GRID)
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()?;
+    legend(&mut chart, scale, SeriesLabelPosition::UpperRight)?;
     Ok(())
 }
 
@@ -579,13 +597,7 @@ fn placement<DB: DrawingBackend>(
                 ShapeStyle::from(&ORANGE).stroke_width(line + 1),
             )
         });
-    chart
-        .configure_series_labels()
-        .label_font(tick_font(scale))
-        .background_style(WHITE.mix(0.85))
-        .border_style(GRID)
-        .position(SeriesLabelPosition::UpperLeft)
-        .draw()?;
+    legend(&mut chart, scale, SeriesLabelPosition::UpperLeft)?;
     Ok(())
 }
 
@@ -656,13 +668,7 @@ fn sensitivity<DB: DrawingBackend>(
             .label("the values used")
             .legend(|(x, y)| Circle::new((x + 8, y), 5, ORANGE.filled()));
     }
-    chart
-        .configure_series_labels()
-        .label_font(tick_font(scale))
-        .background_style(WHITE.mix(0.85))
-        .border_style(GRID)
-        .position(SeriesLabelPosition::UpperRight)
-        .draw()?;
+    legend(&mut chart, scale, SeriesLabelPosition::UpperRight)?;
     Ok(())
 }
 
@@ -687,15 +693,9 @@ fn funnel<DB: DrawingBackend>(
         .x_label_area_size((44.0 * scale) as i32)
         .y_label_area_size((64.0 * scale) as i32)
         .build_cartesian_2d(x.0..x.1, -max_se..0.0)?;
-    chart
-        .configure_mesh()
+    house_mesh(&mut chart.configure_mesh(), scale)
         .x_desc(x_label)
         .y_desc(y_label)
-        .axis_desc_style(label_font(scale))
-        .label_style(tick_font(scale))
-        .axis_style(ShapeStyle::from(&INK).stroke_width(1))
-        .bold_line_style(ShapeStyle::from(&GRID).stroke_width(1))
-        .light_line_style(ShapeStyle::from(&WHITE).stroke_width(0))
         .x_label_formatter(&|v| tick(*v))
         .y_label_formatter(&|v| tick(-v))
         .x_labels(7)

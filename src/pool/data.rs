@@ -224,12 +224,6 @@ fn dot_weighted_square(w: &[f64], x: &[f64]) -> f64 {
     s
 }
 
-/// Σᵢ wᵢ aᵢ bᵢ.
-fn dot3(w: &[f64], a: &[f64], b: &[f64]) -> f64 {
-    let ab: Vec<f64> = a.iter().zip(b).map(|(x, y)| x * y).collect();
-    dot(w, &ab)
-}
-
 /// Σᵢ wᵢ xᵢ xᵢᵀ for each weight vector in `weights`: p(p + 1)/2 weighted dot products of
 /// the design's columns per weight vector.
 pub(crate) fn cross_products<const M: usize>(
@@ -268,17 +262,6 @@ pub(crate) fn cross_products<const M: usize>(
         }
     }
     out
-}
-
-/// Σᵢ wᵢ^power xᵢ xᵢᵀ.
-pub(crate) fn cross_product(d: Design<'_>, w: &[f64], power: i32) -> DMatrix<f64> {
-    if power == 1 {
-        let [m] = cross_products(d, [w]);
-        return m;
-    }
-    let wp: Vec<f64> = w.iter().map(|x| x.powi(power)).collect();
-    let [m] = cross_products(d, [&wp]);
-    m
 }
 
 /// Σᵢ wᵢ xᵢ yᵢ.
@@ -320,7 +303,7 @@ pub(crate) fn weighted_fit(y: &[f64], x: Design<'_>, w: Vec<f64>) -> Result<Weig
     let xtwx_inv = chol.inverse();
     let beta = &xtwx_inv * xtwy;
     let resid = residuals(x, y, &beta);
-    let q = dot3(&w, &resid, &resid);
+    let q = dot_weighted_square(&w, &resid);
     Ok(WeightedFit {
         w,
         beta,
@@ -338,14 +321,15 @@ fn q_statistic(y: &[f64], v: &[f64], x: Design<'_>, tau2: f64) -> Result<f64> {
     let xtwy = cross_with(x, &w, y);
     let beta = xtwx.cholesky().ok_or_else(singular)?.solve(&xtwy);
     let e = residuals(x, y, &beta);
-    Ok(dot3(&w, &e, &e))
+    Ok(dot_weighted_square(&w, &e))
 }
 
 impl WeightedFit {
     /// tr(P) with P = W − WX(XᵀWX)⁻¹XᵀW, in O(k·p²).
     pub(crate) fn trace_p(&self, x: Design<'_>) -> f64 {
         let sum_w: f64 = self.w.iter().sum();
-        let b2 = cross_product(x, &self.w, 2);
+        let w2: Vec<f64> = self.w.iter().map(|w| w * w).collect();
+        let [b2] = cross_products(x, [&w2]);
         sum_w - (&self.xtwx_inv * b2).trace()
     }
 }

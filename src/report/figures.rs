@@ -469,3 +469,62 @@ pub fn file_safe(name: &str) -> String {
     let s = s.trim_matches('-').to_string();
     if s.is_empty() { "moderator".into() } else { s }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::benchmark::{BenchmarkOptions, prepare};
+    use crate::placement::{NewStudy, place};
+    use crate::sheet::{CoefType, read_coding_sheet};
+
+    /// The placement curve is the t distribution of the observed value carried to the
+    /// coefficient scale: its area over the expected range is the interval's level (the t
+    /// probability between ±t_q by definition; statrs for the density), to the accuracy of
+    /// the trapezoid rule on the drawing grid.
+    #[test]
+    fn placement_density_holds_the_level_over_the_range() {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("datasets-demo/candor-benchmark.csv");
+        let opts = BenchmarkOptions::default();
+        let p = prepare(
+            read_coding_sheet(&path, &Default::default()).unwrap(),
+            &opts,
+        )
+        .unwrap();
+        let fit = FitOptions {
+            model: opts.pool.model,
+            ci: opts.pool.ci,
+            level: 0.9,
+            tau2_interval: false,
+        };
+        let study = NewStudy {
+            coef: 0.72,
+            coef_type: CoefType::Alpha,
+            n: 150,
+            items: Some(10),
+            sd: None,
+            sd_metric: None,
+            scale_min: None,
+            scale_max: None,
+        };
+        let pl = place(&p, &study, &[], &Default::default(), None, &fit).unwrap();
+        let Kind::Placement { curve, range, .. } = placement(&pl).kind else {
+            panic!("not a placement figure");
+        };
+        let inside: Vec<&(f64, f64)> = curve
+            .iter()
+            .filter(|(c, _)| *c >= range.0 && *c <= range.1)
+            .collect();
+        let area: f64 = inside
+            .windows(2)
+            .map(|w| (w[1].0 - w[0].0) * (w[0].1 + w[1].1) / 2.0)
+            .sum();
+        // The grid stops up to one step short of each end of the range.
+        assert!((area - 0.9).abs() < 0.02, "area {area}");
+        let total: f64 = curve
+            .windows(2)
+            .map(|w| (w[1].0 - w[0].0) * (w[0].1 + w[1].1) / 2.0)
+            .sum();
+        assert!(total > area && total <= 1.0 + 1e-3, "total {total}");
+    }
+}

@@ -130,8 +130,13 @@ fn column_label(columns: &BTreeMap<Role, String>, role: Role) -> String {
 
 /// Read and check a coding sheet from a file.
 pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSheet> {
+    coding_sheet_from_bytes(path, read_sheet_bytes(path)?, options)
+}
+
+/// The bytes of a coding sheet file, with the usual messages for a wrong path.
+pub fn read_sheet_bytes(path: &Path) -> Result<Vec<u8>> {
     let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| match e.kind() {
+    std::fs::read(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => Error::InvalidOption(format!(
             "{file}: no such file; check the path of the coding sheet"
         )),
@@ -139,7 +144,17 @@ pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSh
             "{file} is a folder; give the path of the coding sheet itself"
         )),
         _ => Error::io(format!("reading {file}"), e),
-    })?;
+    })
+}
+
+/// Check a coding sheet already read into memory (a text file or a workbook, told apart
+/// by content and name); `path` names it in messages.
+pub fn coding_sheet_from_bytes(
+    path: &Path,
+    bytes: Vec<u8>,
+    options: &SheetOptions,
+) -> Result<CodingSheet> {
+    let file = path.display().to_string();
     if workbook::is_workbook(path, &bytes) {
         if options.delimiter.is_some() {
             return Err(Error::InvalidOption(format!(
