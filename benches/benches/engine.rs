@@ -3,7 +3,7 @@
 //! Monte Carlo corrections. Inputs are generated here with a fixed seed (invented
 //! values). Whole-process timings against Python baselines: benches/side_by_side.py.
 //!
-//!     cargo bench --bench engine
+//!     cargo bench -p relyard-benches
 
 use criterion::{Criterion, criterion_group, criterion_main};
 use relyard::benchmark::{BenchmarkOptions, from_prepared, prepare};

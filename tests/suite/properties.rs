@@ -1,8 +1,7 @@
 //! Invariants of pooling that must hold for any data (property tests), and the
 //! regressions they guard (issue 2 review: scale, multiple maxima, degenerate agreement).
 
-mod common;
-use common::*;
+use crate::common::*;
 use proptest::prelude::*;
 use relyard::pool::{CiMethod, Model, PoolOptions, Tau2Estimator, pool};
 

@@ -1,8 +1,7 @@
 //! Quantiles and tail areas against scipy.stats (fixture made by
 //! tests/reference/make_fixtures.py; versions stamped in the fixture).
 
-mod common;
-use common::*;
+use crate::common::*;
 use relyard::dist;
 
 #[test]

@@ -5,8 +5,7 @@
 //! statsmodels WLS (coefficients, Knapp–Hartung SEs, F test, predictions) at the fitted
 //! τ², scipy.stats tail areas, and an exact permutation distribution.
 
-mod common;
-use common::*;
+use crate::common::*;
 use nalgebra::DMatrix;
 use relyard::metareg::omnibus;
 use relyard::pool::{CiMethod, FitOptions, MetaData, Model, Tau2Estimator, fit_model};

@@ -1,8 +1,7 @@
 //! Malformed coding sheets: every one gives exit status 2 and a message that names the
 //! row (as a spreadsheet numbers it, header = row 1) and the column — never a panic.
 
-mod common;
-use common::*;
+use crate::common::*;
 
 struct Case {
     name: &'static str,

@@ -3,8 +3,7 @@
 //! is impossible, and the warnings that must appear. The numerical checks against
 //! numpy live in reference_correct.rs.
 
-mod common;
-use common::*;
+use crate::common::*;
 
 fn run_summary(path: &str, extra: &[&str]) -> std::process::Output {
     let mut args = vec![

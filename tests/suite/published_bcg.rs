@@ -6,8 +6,7 @@
 //! multivariate approach and meta-regression. Statistics in Medicine, 21(4), 589–624,
 //! Table I (tests/data/bcg-trials.csv).
 
-mod common;
-use common::*;
+use crate::common::*;
 use relyard::pool::{CiMethod, Model, PoolOptions, Tau2Estimator, pool};
 
 fn opts(est: Tau2Estimator, ci: CiMethod) -> PoolOptions {

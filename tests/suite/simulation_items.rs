@@ -6,8 +6,7 @@
 //!   tests/reference/fixtures/inference.json), and omega lands closer to the true
 //!   reliability than alpha does.
 
-mod common;
-use common::*;
+use crate::common::*;
 use rand::RngExt;
 use relyard::items::alpha::{alpha, feldt_interval};
 use relyard::items::factor::{FactorModel, fit_one_factor, tau_equivalence_test};

@@ -3,8 +3,7 @@
 //! items under compound symmetry for each case; 20,000 bivariate-normal samples for
 //! Fisher's z) and against the delta method; round trips of every transform.
 
-mod common;
-use common::*;
+use crate::common::*;
 use relyard::transform::{
     Bonett, Coefficient, CoefficientTransform, FisherZ, HakstianWhalen, RawCoefficient, StudyInput,
     TransformKind,

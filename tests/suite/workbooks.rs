@@ -3,8 +3,7 @@
 //! cell, in the minimal form of each format (Office Open XML, ECMA-376 Part 1, §18.3;
 //! OpenDocument 1.2, Part 1, §9.1), so the tests need no spreadsheet program.
 
-mod common;
-use common::*;
+use crate::common::*;
 use std::io::Write;
 
 /// A cell: a number, a text, or empty.

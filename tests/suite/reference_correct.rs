@@ -2,8 +2,7 @@
 //! a formula check of Spearman's correction, a seeded simulation with known true scores,
 //! and the contract of issue 5.
 
-mod common;
-use common::*;
+use crate::common::*;
 use relyard::correct::regression::eiv;
 use relyard::random::{draw, stream};
 use std::process::Command;

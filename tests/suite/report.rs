@@ -2,8 +2,7 @@
 //! its figures have their structure (checked against committed snapshots), and the page
 //! renders in a real browser (headless Chromium) with no console errors.
 
-mod common;
-use common::*;
+use crate::common::*;
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 use std::process::Command;

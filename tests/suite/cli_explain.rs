@@ -1,8 +1,7 @@
 //! `relyard explain` and `relyard check` run as a user runs them: the demo, and the
 //! errors of issue 3 (singular designs, too few studies, unknown levels, missing values).
 
-mod common;
-use common::*;
+use crate::common::*;
 
 fn demo() -> String {
     std::path::Path::new(env!("CARGO_MANIFEST_DIR"))

@@ -1,7 +1,7 @@
 //! The committed demo sheet is exactly what its documented generator writes.
 
 #[allow(dead_code)]
-#[path = "../examples/make_demo_data.rs"]
+#[path = "../../examples/make_demo_data.rs"]
 mod generator;
 
 #[test]

@@ -4,8 +4,7 @@
 //! from statsmodels' combine_effects (PM cross-checked by brentq); SJ and HE closed
 //! forms in numpy; Q-profile limits by brentq against scipy.stats.chi2 quantiles.
 
-mod common;
-use common::*;
+use crate::common::*;
 use relyard::pool::{CiMethod, Model, PoolOptions, Prediction, Tau2Estimator, pool};
 
 fn case_data(c: &serde_json::Value) -> (Vec<f64>, Vec<f64>, f64, String) {

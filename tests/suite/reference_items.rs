@@ -5,8 +5,7 @@
 //! pairwise covariances; scikit-learn's maximum-likelihood FactorAnalysis and
 //! scipy.optimize for the one-factor model; scipy.stats for F, χ² and normal quantiles.
 
-mod common;
-use common::*;
+use crate::common::*;
 
 fn bfi_args() -> Vec<String> {
     let path = test_path("reference/fixtures/bfi_agreeableness.csv");

@@ -1,7 +1,6 @@
 //! `relyard pool` and `relyard template` run as a user runs them.
 
-mod common;
-use common::*;
+use crate::common::*;
 use std::io::Read;
 use std::process::{Command, Stdio};
 

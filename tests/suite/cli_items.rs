@@ -1,8 +1,7 @@
 //! `relyard items`, `compare` and `plan` run as a user runs them: the demo item data,
 //! bad input located by row and column, and reproducible bootstraps.
 
-mod common;
-use common::*;
+use crate::common::*;
 use std::process::Command;
 
 fn demo_items() -> String {

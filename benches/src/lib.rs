@@ -1,0 +1,1 @@
+//! Criterion benchmarks of relyard live in `benches/engine.rs`; this crate holds nothing else.

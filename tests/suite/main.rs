@@ -1,0 +1,25 @@
+//! relyard's integration tests, in one test binary (one link instead of one per file).
+//!
+//! Each module is one former test file: CLI tests run the real binary; reference tests
+//! compare with published values and with the committed fixtures of `tests/reference/`.
+
+mod common;
+
+mod bad_input;
+mod cli_correct;
+mod cli_explain;
+mod cli_items;
+mod cli_pool;
+mod demo_data;
+mod properties;
+mod published_bcg;
+mod reference_correct;
+mod reference_items;
+mod reference_metareg;
+mod reference_pool;
+mod reference_quantiles;
+mod reference_transforms;
+mod report;
+mod simulation_items;
+mod simulation_spread;
+mod workbooks;
