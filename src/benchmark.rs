@@ -2,8 +2,10 @@
 //! coefficient, pool, and map the results back to the coefficient scale.
 
 use crate::error::{CellProblem, Error, Result};
+use crate::msg;
 use crate::pool::{PoolOptions, PoolResult, pool};
-use crate::sheet::{CodingSheet, Role, StudyRecord};
+use crate::setting::{Message, Setting, given};
+use crate::sheet::{CodingSheet, Role, SheetSummary, StudyRecord};
 use crate::transform::{
     BackInterval, CoefficientFamily, CoefficientTransform, InputField, StudyInput, TransformKind,
     Transformed, back_interval,
@@ -37,13 +39,13 @@ pub struct StudyEffect {
     pub weight_percent: f64,
 }
 
-/// A row left out with `--skip-invalid`, with every reason.
+/// A row left out at the user's request (invalid rows skipped), with every reason.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SkippedRow {
     /// Spreadsheet row number.
     pub row: usize,
     /// Each problem, as `column X: reason` (or the bare reason for a whole-row problem).
-    pub reasons: Vec<String>,
+    pub reasons: Vec<Message>,
 }
 
 /// Results on the coefficient's own scale.
@@ -63,10 +65,8 @@ pub struct CoefficientScale {
 /// new study.
 #[derive(Debug, Clone)]
 pub struct Benchmark {
-    /// The sheet's file name.
-    pub file: String,
-    /// The sheet's delimiter.
-    pub delimiter: u8,
+    /// The sheet and how much of it was used.
+    pub source: SheetSummary,
     /// Transform used.
     pub transform: TransformKind,
     /// Whether the transform was chosen by the user.
@@ -79,8 +79,6 @@ pub struct Benchmark {
     pub studies: Vec<StudyEffect>,
     /// Rows left out, in sheet order.
     pub skipped: Vec<SkippedRow>,
-    /// Non-empty data rows in the sheet.
-    pub rows_read: usize,
     /// Sum of the sample sizes of the pooled studies that report one.
     pub n_total: u64,
     /// Pooled studies without a sample size.
@@ -96,10 +94,8 @@ pub struct Benchmark {
 /// The studies of a coding sheet, checked against the transform and put on its scale.
 #[derive(Debug, Clone)]
 pub struct Prepared {
-    /// The sheet's file name.
-    pub file: String,
-    /// The sheet's delimiter.
-    pub delimiter: u8,
+    /// The sheet and how much of it was used.
+    pub source: SheetSummary,
     /// Names of the sheet's other (moderator) columns.
     pub extra_columns: Vec<String>,
     /// Header name of each standard column present.
@@ -116,8 +112,6 @@ pub struct Prepared {
     pub v: Vec<f64>,
     /// Rows left out, in sheet order.
     pub skipped: Vec<SkippedRow>,
-    /// Non-empty data rows in the sheet.
-    pub rows_read: usize,
     /// Sheet-level warnings.
     pub warnings: Vec<Warning>,
 }
@@ -136,8 +130,7 @@ impl Prepared {
 
     fn clone_shell(&self) -> Prepared {
         Prepared {
-            file: self.file.clone(),
-            delimiter: self.delimiter,
+            source: self.source.clone(),
             extra_columns: self.extra_columns.clone(),
             columns: self.columns.clone(),
             transform: self.transform,
@@ -146,9 +139,13 @@ impl Prepared {
             y: Vec::new(),
             v: Vec::new(),
             skipped: self.skipped.clone(),
-            rows_read: self.rows_read,
             warnings: Vec::new(),
         }
+    }
+
+    /// The sheet's file name as the user gave it.
+    pub fn file(&self) -> &str {
+        &self.source.file
     }
 
     /// The column label used in messages for a standard column.
@@ -165,7 +162,17 @@ impl Prepared {
 ///
 /// Fails, listing every problem, unless `skip_invalid` is set; fails also when fewer than
 /// two studies remain.
-pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepared> {
+pub fn prepare(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Prepared> {
+    let source = sheet.summary();
+    prepare_from(sheet, source, options)
+}
+
+/// [`prepare`] for a sheet already cut to a subset, with the summary that says so.
+pub fn prepare_from(
+    mut sheet: CodingSheet,
+    source: SheetSummary,
+    options: &BenchmarkOptions,
+) -> Result<Prepared> {
     let mut warnings = Vec::new();
     let (transform, transform_chosen) = choose_transform(&sheet, options, &mut warnings)?;
     let tr = transform.get();
@@ -187,11 +194,15 @@ pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Pre
             file: sheet.file.clone(),
             problems: vec![CellProblem::row(
                 1,
-                format!(
-                    "--transform {transform} needs the column(s) {} and the sheet has none; add \
-                     them, or map the sheet's own names with --column ROLE=NAME",
-                    missing.join(", ")
-                ),
+                msg![
+                    given(Setting::Transform, transform.name()),
+                    format!(
+                        " needs the column(s) {} and the sheet has none; add them, or map the \
+                         sheet's own names with ",
+                        missing.join(", ")
+                    ),
+                    given(Setting::ColumnMap, "ROLE=NAME")
+                ],
             )],
         });
     }
@@ -211,7 +222,7 @@ pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Pre
         let unmet = tr.check(&study_input(rec));
         for u in &unmet {
             let label = sheet.column_label(role_of(u.field));
-            problems.push(CellProblem::cell(rec.row, label, u.reason.clone()));
+            problems.push(CellProblem::cell(rec.row, label, u.reason.as_str()));
         }
         unmet.is_empty()
     });
@@ -231,7 +242,7 @@ pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Pre
                 problems.push(CellProblem::cell(
                     part.row,
                     sheet.column_label(role),
-                    u.reason,
+                    u.reason.as_str(),
                 ));
             }
         }
@@ -271,32 +282,24 @@ pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Pre
         });
     }
     if usable.len() < 2 && !skipped.is_empty() {
-        let listed: Vec<String> = skipped
-            .iter()
-            .map(|s| {
-                format!(
-                    "\n  {}: row {}: {}",
-                    sheet.file,
-                    s.row,
-                    s.reasons.join("; ")
-                )
-            })
-            .collect();
-        return Err(Error::CannotAnalyse(format!(
+        let mut m = msg![format!(
             "{}: only {} row(s) could be used, and a benchmark needs at least two; these rows \
-             were left out:{}",
+             were left out:",
             sheet.file,
-            usable.len(),
-            listed.concat()
-        )));
+            usable.len()
+        )];
+        for s in &skipped {
+            m = m.followed_by(format!("\n  {}: row {}: ", sheet.file, s.row));
+            m = m.then(join_reasons(&s.reasons));
+        }
+        return Err(Error::CannotAnalyse(m));
     }
 
     sheet_warnings(&sheet, &usable, transform, &mut warnings);
 
     let (y, v): (Vec<f64>, Vec<f64>) = values.into_iter().unzip();
     Ok(Prepared {
-        file: sheet.file.clone(),
-        delimiter: sheet.delimiter,
+        source,
         extra_columns: sheet.extra_columns.clone(),
         columns: sheet.columns.clone(),
         transform,
@@ -305,9 +308,20 @@ pub fn prepare(mut sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Pre
         y,
         v,
         skipped,
-        rows_read: sheet.rows_read,
         warnings,
     })
+}
+
+/// Reasons joined by "; " into one message.
+pub fn join_reasons(reasons: &[Message]) -> Message {
+    let mut m = Message::default();
+    for (i, r) in reasons.iter().enumerate() {
+        if i > 0 {
+            m = m.followed_by("; ");
+        }
+        m = m.then(r.clone());
+    }
+    m
 }
 
 /// Build a benchmark from a coding sheet.
@@ -319,15 +333,13 @@ pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark
 /// Pool prepared studies into a benchmark.
 pub fn from_prepared(prepared: Prepared, options: &PoolOptions) -> Result<Benchmark> {
     let Prepared {
-        file,
-        delimiter,
+        source,
         transform,
         transform_chosen,
         records: usable,
         y,
         v,
         skipped,
-        rows_read,
         mut warnings,
         ..
     } = prepared;
@@ -362,15 +374,13 @@ pub fn from_prepared(prepared: Prepared, options: &PoolOptions) -> Result<Benchm
         .collect();
 
     Ok(Benchmark {
-        file,
-        delimiter,
+        source,
         transform,
         transform_chosen,
         families,
         coef_types,
         studies,
         skipped,
-        rows_read,
         n_total,
         n_missing,
         pool: pooled,
@@ -410,21 +420,32 @@ fn choose_transform(
     let mixed = !ic.is_empty() && !corr.is_empty();
     if mixed {
         if !options.allow_mixed_types {
-            return Err(Error::CannotAnalyse(format!(
-                "{}: the sheet mixes internal-consistency coefficients ({}) and correlation-type \
-                 coefficients ({}); they answer different questions and have different default \
-                 transforms. Pool them separately, or pass --allow-mixed-types together with \
-                 --transform to pool them on one scale",
-                sheet.file,
-                crate::warning::list_rows(&ic),
-                crate::warning::list_rows(&corr)
-            )));
+            return Err(Error::cannot(msg![
+                format!(
+                    "{}: the sheet mixes internal-consistency coefficients ({}) and \
+                     correlation-type coefficients ({}); they answer different questions and \
+                     have different default transforms. Pool them separately (for example with ",
+                    sheet.file,
+                    crate::warning::list_rows(&ic),
+                    crate::warning::list_rows(&corr)
+                ),
+                given(Setting::Subset, "coef_type=alpha"),
+                "), or ask for ",
+                Setting::MixedTypes,
+                " together with ",
+                Setting::Transform,
+                " to pool them on one scale"
+            ]));
         }
         let Some(t) = options.transform else {
-            return Err(Error::InvalidOption(
-                "--allow-mixed-types needs --transform as well: say on which scale the two kinds \
-                 of coefficients are to be pooled"
-                    .into(),
+            return Err(Error::setting(
+                Setting::MixedTypes,
+                msg![
+                    Setting::MixedTypes,
+                    " needs ",
+                    Setting::Transform,
+                    " as well: say on which scale the two kinds of coefficients are to be pooled"
+                ],
             ));
         };
         warnings.push(Warning::MixedFamiliesPooled);
@@ -466,7 +487,7 @@ fn group_skipped(problems: &[CellProblem]) -> Vec<SkippedRow> {
     for p in problems {
         let Some(row) = p.row else { continue };
         let reason = match &p.column {
-            Some(c) => format!("column {c}: {}", p.reason),
+            Some(c) => p.reason.clone().prefixed(format!("column {c}: ")),
             None => p.reason.clone(),
         };
         match out.last_mut() {
@@ -628,7 +649,11 @@ mod tests {
         assert_eq!(b.studies.len(), 3);
         assert_eq!(b.skipped.len(), 1);
         assert_eq!(b.skipped[0].row, 2);
-        assert!(b.skipped[0].reasons[0].starts_with("column coef:"));
+        assert!(
+            b.skipped[0].reasons[0]
+                .to_string()
+                .starts_with("column coef:")
+        );
     }
 
     #[test]

@@ -1,7 +1,9 @@
 //! Tests of equality for independent reliability coefficients from summary values.
 
-use crate::dist::{chi2_sf, f_sf};
+use crate::dist::{chi2_sf, f_cdf, f_sf};
 use crate::error::{Error, Result};
+use crate::msg;
+use crate::setting::Setting;
 use crate::transform::{CoefficientTransform, HakstianWhalen, StudyInput};
 
 /// One sample's coefficient alpha.
@@ -20,10 +22,10 @@ pub struct AlphaSample {
 impl AlphaSample {
     fn check(&self) -> Result<()> {
         let bad = |why: String| {
-            Err(Error::InvalidOption(format!(
-                "sample {}: {why}",
-                self.label
-            )))
+            Err(Error::setting(
+                Setting::Samples,
+                format!("sample {}: {why}", self.label),
+            ))
         };
         if !(self.alpha.is_finite() && self.alpha < 1.0 && self.alpha > -1.0) {
             return bad(format!(
@@ -69,8 +71,8 @@ pub fn feldt_two_sample(a: &AlphaSample, b: &AlphaSample) -> Result<FeldtTest> {
     b.check()?;
     let w = (1.0 - a.alpha) / (1.0 - b.alpha);
     let (df1, df2) = ((b.n - 1) as f64, (a.n - 1) as f64);
-    let upper = f_sf(w, df1, df2);
-    let p = (2.0 * upper.min(1.0 - upper)).min(1.0);
+    // Each tail on its own, so that a tiny tail is not lost to 1 − (almost 1).
+    let p = (2.0 * f_sf(w, df1, df2).min(f_cdf(w, df1, df2))).min(1.0);
     Ok(FeldtTest { w, df1, df2, p })
 }
 
@@ -98,8 +100,13 @@ pub struct HakstianWhalenTest {
 /// alpha coefficients. *Psychometrika*, 41(2), 219–231.
 pub fn hakstian_whalen_test(samples: &[AlphaSample]) -> Result<HakstianWhalenTest> {
     if samples.len() < 2 {
-        return Err(Error::InvalidOption(
-            "a test of equality needs at least two samples".into(),
+        return Err(Error::setting(
+            Setting::Samples,
+            msg![
+                "a test of equality needs at least two samples (a coding sheet, or ",
+                Setting::Samples,
+                " twice)"
+            ],
         ));
     }
     for s in samples {

@@ -124,6 +124,17 @@ pub fn f_quantile(p: f64, d1: f64, d2: f64) -> f64 {
     positive_quantile(&d, p, d.inverse_cdf(p))
 }
 
+/// Lower tail area of the F distribution, P(F ≤ x), computed on its own (not as 1 minus
+/// the upper tail) so that tiny lower tails keep their value.
+pub fn f_cdf(x: f64, d1: f64, d2: f64) -> f64 {
+    if x <= 0.0 {
+        return 0.0;
+    }
+    FisherSnedecor::new(d1, d2)
+        .expect("F with positive df is valid")
+        .cdf(x)
+}
+
 /// Upper tail area of the F distribution, P(F > x).
 pub fn f_sf(x: f64, d1: f64, d2: f64) -> f64 {
     if x <= 0.0 {

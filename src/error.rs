@@ -1,5 +1,10 @@
 //! The library's error type: every failure a caller can meet, as kinds it can match.
+//!
+//! Messages point to settings as [`Setting`]s, never as one face's spelling of them
+//! (an option name, a control's label): each face renders them with its own
+//! [`SettingNames`]; `Display` uses plain English.
 
+use crate::setting::{Message, PlainNames, Setting, SettingNames};
 use std::fmt;
 
 /// One problem found in an input file, located as a spreadsheet shows it.
@@ -13,12 +18,12 @@ pub struct CellProblem {
     /// Column name as it appears in the file's header, when one column is at fault.
     pub column: Option<String>,
     /// What is wrong and, where possible, what to do about it (lower case).
-    pub reason: String,
+    pub reason: Message,
 }
 
 impl CellProblem {
     /// A problem with one cell.
-    pub fn cell(row: usize, column: impl Into<String>, reason: impl Into<String>) -> Self {
+    pub fn cell(row: usize, column: impl Into<String>, reason: impl Into<Message>) -> Self {
         CellProblem {
             row: Some(row),
             column: Some(column.into()),
@@ -27,7 +32,7 @@ impl CellProblem {
     }
 
     /// A problem with a whole row.
-    pub fn row(row: usize, reason: impl Into<String>) -> Self {
+    pub fn row(row: usize, reason: impl Into<Message>) -> Self {
         CellProblem {
             row: Some(row),
             column: None,
@@ -36,7 +41,7 @@ impl CellProblem {
     }
 
     /// A problem with the file as a whole.
-    pub fn file(reason: impl Into<String>) -> Self {
+    pub fn file(reason: impl Into<Message>) -> Self {
         CellProblem {
             row: None,
             column: None,
@@ -45,14 +50,22 @@ impl CellProblem {
     }
 }
 
+impl CellProblem {
+    /// The problem with its place, settings named by `names`: "row 14, column coef: …".
+    pub fn render(&self, names: &dyn SettingNames) -> String {
+        let reason = self.reason.render(names);
+        match (&self.row, &self.column) {
+            (Some(r), Some(c)) => format!("row {r}, column {c}: {reason}"),
+            (Some(r), None) => format!("row {r}: {reason}"),
+            (None, Some(c)) => format!("column {c}: {reason}"),
+            (None, None) => reason,
+        }
+    }
+}
+
 impl fmt::Display for CellProblem {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match (&self.row, &self.column) {
-            (Some(r), Some(c)) => write!(f, "row {r}, column {c}: {}", self.reason),
-            (Some(r), None) => write!(f, "row {r}: {}", self.reason),
-            (None, Some(c)) => write!(f, "column {c}: {}", self.reason),
-            (None, None) => write!(f, "{}", self.reason),
-        }
+        f.write_str(&self.render(&PlainNames))
     }
 }
 
@@ -63,20 +76,25 @@ impl fmt::Display for CellProblem {
 #[non_exhaustive]
 pub enum Error {
     /// An input file has one or more problems; all of them are listed.
-    #[error("{}", list_problems(.file, .problems))]
+    #[error("{}", list_problems(.file, .problems, &PlainNames))]
     InvalidSheet {
         /// The file as the user named it.
         file: String,
         /// Every problem found, in row order.
         problems: Vec<CellProblem>,
     },
-    /// An option or argument is outside its allowed range or contradicts another.
-    #[error("{0}")]
-    InvalidOption(String),
+    /// A setting is outside its allowed range or contradicts another.
+    #[error("{message}")]
+    InvalidSetting {
+        /// The setting at fault.
+        setting: Setting,
+        /// What is wrong (it names the setting where it reads best).
+        message: Message,
+    },
     /// The data are valid but cannot support the requested analysis (too few studies,
     /// a singular design, …).
     #[error("{0}")]
-    CannotAnalyse(String),
+    CannotAnalyse(Message),
     /// A numerical procedure failed in a way that leaves no trustworthy result.
     #[error("{0}")]
     Numerical(String),
@@ -92,32 +110,67 @@ pub enum Error {
 }
 
 impl Error {
-    /// True when the fault lies in the user's input or options (exit status 2).
+    /// True when the fault lies in the user's input or settings (exit status 2).
     pub fn is_bad_input(&self) -> bool {
         matches!(
             self,
-            Error::InvalidSheet { .. } | Error::InvalidOption(_) | Error::CannotAnalyse(_)
+            Error::InvalidSheet { .. } | Error::InvalidSetting { .. } | Error::CannotAnalyse(_)
         )
     }
 
-    /// Reword an option name inside a message, for when a library routine written for
-    /// one command is reached through another command's options (e.g. the item reader's
-    /// `--items` when the columns came from `--predictor`/`--outcome`).
-    pub fn reword_option(self, from: &str, to: &str) -> Self {
+    /// A setting that is wrong, with the message that says why.
+    pub fn setting(setting: Setting, message: impl Into<Message>) -> Self {
+        Error::InvalidSetting {
+            setting,
+            message: message.into(),
+        }
+    }
+
+    /// Data that cannot support the analysis.
+    pub fn cannot(message: impl Into<Message>) -> Self {
+        Error::CannotAnalyse(message.into())
+    }
+
+    /// The setting at fault, when there is one.
+    pub fn at_fault(&self) -> Option<Setting> {
         match self {
-            Error::InvalidOption(m) => Error::InvalidOption(m.replace(from, to)),
-            Error::CannotAnalyse(m) => Error::CannotAnalyse(m.replace(from, to)),
-            Error::InvalidSheet { file, problems } => Error::InvalidSheet {
-                file,
-                problems: problems
-                    .into_iter()
-                    .map(|mut p| {
-                        p.reason = p.reason.replace(from, to);
-                        p
-                    })
-                    .collect(),
-            },
-            other => other,
+            Error::InvalidSetting { setting, .. } => Some(*setting),
+            _ => None,
+        }
+    }
+
+    /// The message with settings named by `names` (a face's option names or labels).
+    pub fn render(&self, names: &dyn SettingNames) -> String {
+        match self {
+            Error::InvalidSheet { file, problems } => list_problems(file, problems, names),
+            Error::InvalidSetting { message, .. } => message.render(names),
+            Error::CannotAnalyse(m) => m.render(names),
+            other => other.to_string(),
+        }
+    }
+
+    /// The error as a message, its settings kept for the face to name (for a part of a
+    /// run that failed while the rest stands).
+    pub fn into_message(self) -> Message {
+        match self {
+            Error::InvalidSetting { message, .. } | Error::CannotAnalyse(message) => message,
+            Error::InvalidSheet { file, problems } => {
+                let mut m = Message::from(format!("{file}: "));
+                for (i, p) in problems.into_iter().enumerate() {
+                    if i > 0 {
+                        m = m.followed_by("; ");
+                    }
+                    let place = match (p.row, &p.column) {
+                        (Some(r), Some(c)) => format!("row {r}, column {c}: "),
+                        (Some(r), None) => format!("row {r}: "),
+                        (None, Some(c)) => format!("column {c}: "),
+                        (None, None) => String::new(),
+                    };
+                    m = m.followed_by(place).then(p.reason);
+                }
+                m
+            }
+            other => Message::from(other.to_string()),
         }
     }
 
@@ -130,15 +183,15 @@ impl Error {
     }
 }
 
-fn list_problems(file: &str, problems: &[CellProblem]) -> String {
+fn list_problems(file: &str, problems: &[CellProblem], names: &dyn SettingNames) -> String {
     let mut out = String::new();
     match problems.len() {
         0 => out.push_str(&format!("{file}: the file could not be used")),
-        1 => out.push_str(&format!("{file}: {}", problems[0])),
+        1 => out.push_str(&format!("{file}: {}", problems[0].render(names))),
         n => {
             out.push_str(&format!("{file}: {n} problems found"));
             for p in problems {
-                out.push_str(&format!("\n  {file}: {p}"));
+                out.push_str(&format!("\n  {file}: {}", p.render(names)));
             }
         }
     }

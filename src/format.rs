@@ -156,7 +156,10 @@ mod tests {
         assert_eq!(p_value(3.5e-78), "< 0.001");
         assert_eq!(p_cell(0.0421), "0.042");
         assert_eq!(quoted("abcdef", 4), "abc…");
-        assert_eq!(and_list(&["a".into(), "b".into(), "c".into()]), "a, b and c");
+        assert_eq!(
+            and_list(&["a".into(), "b".into(), "c".into()]),
+            "a, b and c"
+        );
         assert_eq!(wrap("a b c", 3, "> "), "> a b\n> c\n");
     }
 }

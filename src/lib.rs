@@ -8,23 +8,30 @@
 
 #![warn(missing_docs)]
 
+pub mod setting;
+
+pub mod analysis;
 pub mod benchmark;
 pub mod compare;
 pub mod correct;
 pub mod dist;
 pub mod error;
+pub mod format;
 pub mod items;
+pub mod level;
 pub mod metareg;
 pub mod numeric;
+pub mod output;
 pub mod placement;
 pub mod plan;
 pub mod plot;
 pub mod pool;
 pub mod random;
-pub mod report;
 pub mod sheet;
 pub mod transform;
 pub mod warning;
 
 pub use error::{CellProblem, Error, Result};
+pub use level::Level;
+pub use setting::{Message, Setting, SettingNames};
 pub use warning::Warning;

@@ -3,11 +3,12 @@
 //! shortfall its score spread accounts for.
 
 use crate::benchmark::Prepared;
-use crate::dist::{t_quantile, t_sf};
 use crate::error::{Error, Result};
 use crate::metareg::spread::{ScoreSpread, SpreadMetric, harmonize, score_spread};
-use crate::metareg::{Design, ModeratorSpec, build_design};
-use crate::pool::{FitOptions, Interval, MetaData, ModelFit, fit_model};
+use crate::metareg::{Centring, Design, FitAt, ModeratorSpec, fit_at};
+use crate::msg;
+use crate::pool::{FitOptions, Interval, ModelFit, Predictive};
+use crate::setting::{Setting, given};
 use crate::sheet::{CoefType, SdMetric};
 use crate::transform::{BackInterval, StudyInput, TransformKind, Transformed, back_interval};
 use crate::warning::Warning;
@@ -107,6 +108,9 @@ pub struct Placement {
     pub pi_observed_t: Interval,
     /// Degrees of freedom of the PIs' t quantile, k − p − 1.
     pub pi_df: f64,
+    /// The distribution of the coefficient a study like the new one observes (analysis
+    /// scale): what the percentile and the placement figure are read from.
+    pub observed_distribution: Predictive,
     /// The new study on the transformed scale.
     pub new_effect: f64,
     /// Its sampling variance there.
@@ -132,11 +136,25 @@ pub struct Placement {
     pub warnings: Vec<Warning>,
 }
 
+/// What a placement is conditional on: the benchmark's moderators and the new study's
+/// values of them.
+#[derive(Debug, Clone, Copy)]
+pub struct Conditions<'a> {
+    /// The benchmark's moderators (none: the pooled benchmark).
+    pub moderators: &'a [ModeratorSpec],
+    /// The new study's moderator values, by name.
+    pub at: &'a BTreeMap<String, String>,
+    /// Where numeric moderators are measured from.
+    pub centring: Centring,
+    /// The SD metric of the score-spread comparison (chosen from the sheet when `None`).
+    pub spread_metric: Option<SpreadMetric>,
+}
+
 /// Place a new study against the prepared studies, conditional on moderator values when
 /// moderators are given.
 ///
 /// PI = μ̂(x₀) ± t(k − p − 1)·√(τ̂² + SE²); for an observed coefficient the new study's own
-/// sampling variance is added under the root.
+/// sampling variance is added under the root ([`Predictive`]).
 ///
 /// # References
 /// Higgins, J. P. T., Thompson, S. G., & Spiegelhalter, D. J. (2009). *Journal of the
@@ -144,30 +162,10 @@ pub struct Placement {
 pub fn place(
     p: &Prepared,
     study: &NewStudy,
-    moderators: &[ModeratorSpec],
-    at: &BTreeMap<String, String>,
-    spread_metric: Option<SpreadMetric>,
+    cond: &Conditions,
     options: &FitOptions,
 ) -> Result<Placement> {
-    if p.transform == TransformKind::None {
-        return Err(Error::InvalidOption(
-            "relyard check places a reliability coefficient; with --transform none the sheet holds \
-             effects of unknown kind"
-                .into(),
-        ));
-    }
-    let family = p.records.first().map(|r| r.coef_type.family());
-    if let Some(f) = family
-        && study.coef_type.family() != f
-        && p.records.iter().all(|r| r.coef_type.family() == f)
-    {
-        return Err(Error::InvalidOption(format!(
-            "--coef-type {} is a {} but the benchmark holds {}; compare like with like",
-            study.coef_type.name(),
-            study.coef_type.family().describe().trim_end_matches('s'),
-            f.describe()
-        )));
-    }
+    check_study(p, study)?;
     let tr = p.transform.get();
     let input = StudyInput {
         coef: study.coef,
@@ -175,44 +173,30 @@ pub fn place(
         items: study.items.map(f64::from),
         var: None,
     };
-    let unmet = tr.check(&input);
-    if let Some(u) = unmet.first() {
-        let opt = match u.field {
-            crate::transform::InputField::Coef => "--coef",
-            crate::transform::InputField::N => "--n",
-            crate::transform::InputField::Items => "--items",
-            crate::transform::InputField::Var => "--coef",
-        };
-        return Err(Error::InvalidOption(format!("{opt}: {}", u.reason)));
-    }
     let new_effect = tr.effect(&input).0;
 
     let mut warnings = p.warnings.clone();
-    let (fit, design, x0) = if moderators.is_empty() {
-        if !at.is_empty() {
-            return Err(Error::InvalidOption(
-                "--at sets moderator values, but no --moderator was given".into(),
-            ));
-        }
-        let data = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
-        (fit_model(&data, options)?, None, vec![1.0])
-    } else {
-        let design = build_design(p, moderators)?;
-        let x0 = design.row_for(at, p.delimiter != b',')?;
-        let (y, v) = design.effects(&p.y, &p.v);
-        let data = MetaData::with_design(y, v, design.x.clone())?;
-        if !design.excluded.is_empty() {
+    let FitAt { fit, design, x0 } = fit_at(
+        p,
+        cond.moderators,
+        cond.at,
+        cond.centring,
+        options,
+        Setting::StudyModerators,
+    )?;
+    if let Some(d) = &design {
+        warnings.extend(d.warnings.iter().cloned());
+        if !d.excluded.is_empty() {
             warnings.push(Warning::RowsLeftOutOfModel {
-                rows: design.excluded.iter().map(|e| e.row).collect(),
+                rows: d.excluded.iter().map(|e| e.row).collect(),
                 why: "a moderator value is missing".into(),
             });
         }
-        (fit_model(&data, options)?, Some(design), x0)
-    };
+    }
     warnings.extend(fit.warnings.iter().cloned());
     let (k, np) = (fit.k, fit.p);
-    if k < np + 2 {
-        return Err(Error::CannotAnalyse(format!(
+    if crate::pool::prediction_df(k, np).is_none() {
+        return Err(Error::cannot(format!(
             "{k} studies leave no degrees of freedom for an expected range (k − p − 1 = {}); \
              code more studies",
             k as i64 - np as i64 - 1
@@ -221,54 +205,39 @@ pub fn place(
     if k < crate::pool::FEW_STUDIES + np - 1 {
         warnings.push(Warning::FewStudies { k });
     }
-    // Moderator values outside the range the benchmark studies cover.
     if let Some(d) = &design {
-        for m in &d.moderators {
-            if let crate::metareg::Moderator::Numeric { name, column } = m {
-                let col = d.x.column(*column);
-                let (lo, hi) = (col.min(), col.max());
-                let v = x0[*column];
-                if v < lo || v > hi {
-                    warnings.push(Warning::Extrapolation {
-                        what: format!("{name} = {v}"),
-                        lower: lo,
-                        upper: hi,
-                    });
-                }
-            }
-        }
+        extrapolation_warnings(d, &x0, &mut warnings);
     }
     let (expected_t, var_t) = fit.predict(&x0);
     // The new study's sampling variance at the expected coefficient, so that the range
     // does not depend on the coefficient being judged (it would for raw and
     // Hakstian–Whalen, whose variances depend on the coefficient).
-    let expected_coef = tr
-        .back(Transformed(expected_t))
-        .expect("a coefficient scale")
-        .0;
+    let back1 = |t: f64| tr.back(Transformed(t)).map_or(f64::NAN, |c| c.0);
+    let expected = back1(expected_t);
     let new_variance = tr.variance(&StudyInput {
-        coef: expected_coef.min(1.0 - 1e-12),
+        coef: expected.min(1.0 - 1e-12),
         ..input
     });
     let se_t = var_t.sqrt();
     let ci_t = Interval::around(expected_t, fit.critical_value() * se_t);
-    let pi_df = (k - np - 1) as f64;
-    let a = 1.0 - options.level;
-    let tq = t_quantile(1.0 - a / 2.0, pi_df);
-    let tau2 = fit.tau2.tau2;
-    let sd_true = (tau2 + var_t).sqrt();
-    let sd_obs = (tau2 + var_t + new_variance).sqrt();
-    let pi_t = Interval::around(expected_t, tq * sd_true);
-    let pi_observed_t = Interval::around(expected_t, tq * sd_obs);
-
+    // Under the common-effect model the range is that of the one true value (τ² = 0).
+    let true_value = Predictive::new_setting(&fit, &x0).unwrap_or(Predictive {
+        centre: expected_t,
+        scale: se_t,
+        df: (k - np - 1) as f64,
+    });
+    let observed = true_value.observed(new_variance);
+    let (pi_t, pi_observed_t) = (
+        true_value.interval(options.level),
+        observed.interval(options.level),
+    );
     let back = |i: Interval| {
-        back_interval(tr, Transformed(i.lower), Transformed(i.upper))
-            .expect("coefficient transforms have a coefficient scale")
+        back_interval(tr, Transformed(i.lower), Transformed(i.upper)).unwrap_or(BackInterval {
+            lower: f64::NAN,
+            upper: f64::NAN,
+            capped: false,
+        })
     };
-    let expected = tr
-        .back(Transformed(expected_t))
-        .expect("a coefficient scale")
-        .0;
     let (ci, pi, pi_observed) = (back(ci_t), back(pi_t), back(pi_observed_t));
     for (name, i) in [
         ("confidence interval", ci),
@@ -281,8 +250,12 @@ pub fn place(
             });
         }
     }
-    let z = (new_effect - expected_t) / sd_obs;
-    let below_share = 1.0 - t_sf(z, pi_df);
+    if pi_observed.lower < 0.0 {
+        warnings.push(Warning::RangeBelowZero {
+            lower: pi_observed.lower,
+        });
+    }
+    let below_share = observed.cdf(new_effect);
     let percentile = 100.0
         * if tr.increasing() {
             below_share
@@ -296,70 +269,23 @@ pub fn place(
     } else {
         Verdict::Within
     };
-
-    // A failing score-spread model leaves the placement standing, with a note.
     let spread = match study.sd {
         None => None,
-        Some(sd) => {
-            match spread_shortfall(
-                p,
-                study,
-                sd,
-                &SpreadConditions {
-                    moderators,
-                    at,
-                    metric: spread_metric,
-                    options,
-                },
-                expected,
-            ) {
-                Ok(s) => {
-                    if s.sd_outside_benchmark {
-                        let (lo, hi) = s
-                            .model
-                            .sds
-                            .iter()
-                            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
-                                (a.min(x), b.max(x))
-                            });
-                        warnings.push(Warning::Extrapolation {
-                            what: format!(
-                                "the SD {} ({} metric)",
-                                crate::report::format::significant(s.sd, 3),
-                                s.metric
-                            ),
-                            lower: lo,
-                            upper: hi,
-                        });
-                    }
-                    Some(s)
-                }
-                Err(e)
-                    if e.is_bad_input()
-                        && !matches!(e, Error::InvalidOption(ref m) if m.starts_with("--sd")) =>
-                {
-                    warnings.push(Warning::PartFailed {
-                        what: "the score-spread comparison".into(),
-                        why: e.to_string(),
-                    });
-                    None
-                }
-                Err(e) => return Err(e),
-            }
-        }
+        Some(sd) => spread_part(p, study, sd, cond, options, expected, &mut warnings)?,
     };
 
     Ok(Placement {
         transform: p.transform,
         fit,
         design,
-        at: at.clone(),
+        at: cond.at.clone(),
         expected_t,
         se_t,
         ci_t,
         pi_t,
         pi_observed_t,
-        pi_df,
+        pi_df: observed.df,
+        observed_distribution: observed,
         new_effect,
         new_variance,
         expected,
@@ -374,23 +300,152 @@ pub fn place(
     })
 }
 
-/// What the score-spread comparison is conditional on.
-struct SpreadConditions<'a> {
-    moderators: &'a [ModeratorSpec],
-    at: &'a BTreeMap<String, String>,
-    metric: Option<SpreadMetric>,
-    options: &'a FitOptions,
+/// Refuse a new study the benchmark cannot judge.
+fn check_study(p: &Prepared, study: &NewStudy) -> Result<()> {
+    if p.transform == TransformKind::None {
+        return Err(Error::setting(
+            Setting::Transform,
+            msg![
+                "placing a new study needs reliability coefficients; with ",
+                given(Setting::Transform, "none"),
+                " the sheet holds effects of unknown kind"
+            ],
+        ));
+    }
+    let family = p.records.first().map(|r| r.coef_type.family());
+    if let Some(f) = family
+        && study.coef_type.family() != f
+        && p.records.iter().all(|r| r.coef_type.family() == f)
+    {
+        return Err(Error::setting(
+            Setting::StudyCoefType,
+            msg![
+                given(Setting::StudyCoefType, study.coef_type.name()),
+                format!(
+                    " is a {} but the benchmark holds {}; compare like with like",
+                    study.coef_type.family().describe().trim_end_matches('s'),
+                    f.describe()
+                )
+            ],
+        ));
+    }
+    let input = StudyInput {
+        coef: study.coef,
+        n: Some(study.n as f64),
+        items: study.items.map(f64::from),
+        var: None,
+    };
+    if let Some(u) = p.transform.get().check(&input).first() {
+        let setting = match u.field {
+            crate::transform::InputField::Coef | crate::transform::InputField::Var => {
+                Setting::StudyCoef
+            }
+            crate::transform::InputField::N => Setting::StudyN,
+            crate::transform::InputField::Items => Setting::StudyItems,
+        };
+        return Err(Error::setting(
+            setting,
+            msg![setting, format!(": {}", u.reason)],
+        ));
+    }
+    Ok(())
+}
+
+/// Warnings for moderator values outside the range the benchmark studies cover.
+fn extrapolation_warnings(d: &Design, x0: &[f64], warnings: &mut Vec<Warning>) {
+    for m in &d.moderators {
+        if let crate::metareg::Moderator::Numeric {
+            name,
+            column,
+            centre,
+        } = m
+        {
+            let col = d.x.column(*column);
+            let (lo, hi) = (col.min() + centre, col.max() + centre);
+            let v = x0[*column] + centre;
+            if v < lo || v > hi {
+                warnings.push(Warning::Extrapolation {
+                    what: format!("{name} = {v}"),
+                    lower: lo,
+                    upper: hi,
+                });
+            }
+        }
+    }
+}
+
+/// The score-spread comparison; a model that cannot be fitted leaves the placement
+/// standing with a note, unless the fault lies in the new study's own SD settings.
+fn spread_part(
+    p: &Prepared,
+    study: &NewStudy,
+    sd: f64,
+    cond: &Conditions,
+    options: &FitOptions,
+    expected: f64,
+    warnings: &mut Vec<Warning>,
+) -> Result<Option<SpreadShortfall>> {
+    match spread_shortfall(p, study, sd, cond, options, expected) {
+        Ok(s) => {
+            if s.sd_outside_benchmark {
+                let (lo, hi) = s
+                    .model
+                    .sds
+                    .iter()
+                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+                        (a.min(x), b.max(x))
+                    });
+                warnings.push(Warning::Extrapolation {
+                    what: format!(
+                        "the SD {} ({} metric)",
+                        crate::format::significant(s.sd, 3),
+                        s.metric
+                    ),
+                    lower: lo,
+                    upper: hi,
+                });
+            }
+            Ok(Some(s))
+        }
+        Err(e) if e.is_bad_input() && !e.at_fault().is_some_and(is_study_sd_setting) => {
+            warnings.push(Warning::PartFailed {
+                what: "the score-spread comparison".into(),
+                why: e.into_message(),
+            });
+            Ok(None)
+        }
+        Err(e) => Err(e),
+    }
+}
+
+/// The settings that describe the new study's SD: an error about one of them is the
+/// user's to fix, not a failing part.
+fn is_study_sd_setting(s: Setting) -> bool {
+    matches!(
+        s,
+        Setting::StudySd
+            | Setting::StudySdMetric
+            | Setting::StudyScaleMin
+            | Setting::StudyScaleMax
+            | Setting::StudyItems
+    )
 }
 
 fn spread_shortfall(
     p: &Prepared,
     study: &NewStudy,
     sd: f64,
-    cond: &SpreadConditions,
+    cond: &Conditions,
+    options: &FitOptions,
     expected: f64,
 ) -> Result<SpreadShortfall> {
-    let (moderators, at, metric, options) = (cond.moderators, cond.at, cond.metric, cond.options);
-    let model = score_spread(p, metric, moderators, options)?;
+    let model = score_spread(
+        p,
+        cond.spread_metric,
+        cond.moderators,
+        cond.centring,
+        options,
+    )?;
     let h = harmonize(
         Some(sd),
         study.sd_metric,
@@ -403,27 +458,51 @@ fn spread_shortfall(
         SpreadMetric::Pomp => h.pomp,
     };
     let own = own.ok_or_else(|| {
-        let need = match (study.sd_metric, model.metric) {
-            (None, _) => "add --sd-metric (sum or mean)".to_string(),
-            (Some(SdMetric::Sum), _) if study.items.is_none() => "add --items".to_string(),
-            (_, SpreadMetric::Pomp) if study.scale_min.is_none() || study.scale_max.is_none() => {
-                "add --scale-min and --scale-max (the benchmark's SDs are on the POMP metric)"
-                    .into()
+        let (setting, need) = match (study.sd_metric, model.metric) {
+            (None, _) => (
+                Setting::StudySdMetric,
+                msg!["add ", Setting::StudySdMetric, " (sum or mean)"],
+            ),
+            (Some(SdMetric::Sum), _) if study.items.is_none() => {
+                (Setting::StudyItems, msg!["add ", Setting::StudyItems])
             }
-            _ => h
-                .problem
-                .clone()
-                .unwrap_or_else(|| "check --sd-metric".into()),
+            (_, SpreadMetric::Pomp) if study.scale_min.is_none() || study.scale_max.is_none() => (
+                Setting::StudyScaleMin,
+                msg![
+                    "add ",
+                    Setting::StudyScaleMin,
+                    " and ",
+                    Setting::StudyScaleMax,
+                    " (the benchmark's SDs are on the POMP metric)"
+                ],
+            ),
+            _ => (
+                Setting::StudySd,
+                match &h.problem {
+                    Some(p) => msg![p.clone()],
+                    None => msg!["check ", Setting::StudySdMetric],
+                },
+            ),
         };
-        Error::InvalidOption(format!(
-            "--sd {sd}: the SD cannot be put on the benchmark's {} metric: {need}",
-            model.metric
-        ))
+        Error::setting(
+            setting,
+            msg![
+                given(Setting::StudySd, format!("{sd}")),
+                format!(
+                    ": the SD cannot be put on the benchmark's {} metric: ",
+                    model.metric
+                )
+            ]
+            .then(need),
+        )
     })?;
-    let others: Vec<f64> = if moderators.is_empty() {
+    let others: Vec<f64> = if cond.moderators.is_empty() {
         Vec::new()
     } else {
-        model.others.row_for(at, p.delimiter != b',')?[1..].to_vec()
+        model
+            .others
+            .row_for(cond.at, p.source.format, Setting::StudyModerators)?[1..]
+            .to_vec()
     };
     let back = |t: f64| -(t.exp_m1());
     let (t_own, _) = model.predict(own, study.items, &others)?;

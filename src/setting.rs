@@ -313,6 +313,12 @@ impl Message {
         self
     }
 
+    /// This message followed by another.
+    pub fn then(mut self, other: Message) -> Self {
+        self.0.extend(other.0);
+        self
+    }
+
     /// The same message with `suffix` put after it.
     pub fn followed_by(mut self, suffix: impl Into<Piece>) -> Self {
         self.0.push(suffix.into());
@@ -364,7 +370,12 @@ mod tests {
 
     #[test]
     fn faces_name_the_settings_their_own_way() {
-        let m = msg!["try ", given(Setting::Tau2Method, "pm"), " or change ", Setting::Tau2Method];
+        let m = msg![
+            "try ",
+            given(Setting::Tau2Method, "pm"),
+            " or change ",
+            Setting::Tau2Method
+        ];
         assert_eq!(m.render(&Options), "try --tau2 pm or change --tau2");
         assert_eq!(
             m.to_string(),

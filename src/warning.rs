@@ -1,6 +1,9 @@
 //! Warnings: results that stand but need the reader's attention. Each message says
 //! what happened and what to do about it.
 
+use crate::format;
+use crate::msg;
+use crate::setting::{Message, PlainNames, Setting, SettingNames, given};
 use serde::Serialize;
 use std::fmt;
 
@@ -86,7 +89,7 @@ pub enum Warning {
         /// Which part.
         what: String,
         /// Why.
-        why: String,
+        why: Message,
     },
     /// Alpha computed from the items is negative.
     NegativeAlpha {
@@ -129,6 +132,11 @@ pub enum Warning {
     },
     /// A column counts 1, 2, 3, … like a respondent number.
     IdentifierColumn {
+        /// The column.
+        column: String,
+    },
+    /// A text column with one value per respondent was taken as an identifier.
+    IdentifierLeftOut {
         /// The column.
         column: String,
     },
@@ -179,6 +187,25 @@ pub enum Warning {
         /// Spreadsheet rows of the other family.
         rows: Vec<usize>,
     },
+    /// Values of a categorical moderator that differ only in case or spaces were taken as
+    /// one level.
+    LevelSpellings {
+        /// The moderator.
+        moderator: String,
+        /// The level they were merged into (its first spelling).
+        level: String,
+        /// Every spelling seen.
+        spellings: Vec<String>,
+        /// Spreadsheet rows with a spelling other than the first.
+        rows: Vec<usize>,
+    },
+    /// Numeric moderators are strongly collinear.
+    Collinearity {
+        /// The moderators involved.
+        moderators: Vec<String>,
+        /// The largest variance inflation factor.
+        vif: f64,
+    },
 }
 
 impl Warning {
@@ -214,6 +241,9 @@ impl Warning {
             Warning::VarColumnUnused { .. } => "var_column_unused",
             Warning::MixedFamiliesPooled => "mixed_families_pooled",
             Warning::TransformFamilyMismatch { .. } => "transform_family_mismatch",
+            Warning::IdentifierLeftOut { .. } => "identifier_left_out",
+            Warning::LevelSpellings { .. } => "level_spellings",
+            Warning::Collinearity { .. } => "collinearity",
         }
     }
 }
@@ -236,103 +266,140 @@ pub(crate) fn list_rows(rows: &[usize]) -> String {
 
 impl fmt::Display for Warning {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.message().render(&PlainNames))
+    }
+}
+
+impl Warning {
+    /// True for warnings that change how the main result reads (dependent rows, few
+    /// studies, a lower-bound coefficient, an assumed model, …): the readable summaries
+    /// repeat them at their end, so that a summary saved to a file keeps them.
+    pub fn changes_reading(&self) -> bool {
+        matches!(
+            self,
+            Warning::FewStudies { .. }
+                | Warning::NoPredictionInterval { .. }
+                | Warning::NotConverged { .. }
+                | Warning::CommonEffectAssumed
+                | Warning::CommonEffectContradicted { .. }
+                | Warning::RangeBelowZero { .. }
+                | Warning::Extrapolation { .. }
+                | Warning::Inadmissible { .. }
+                | Warning::LowerBoundReliability { .. }
+                | Warning::UnstableCorrection
+                | Warning::DuplicateLabel { .. }
+                | Warning::MixedFamiliesPooled
+                | Warning::Collinearity { .. }
+        )
+    }
+
+    /// The warning's text, with the settings it points to left for the face to name.
+    pub fn message(&self) -> Message {
+        use Setting as S;
         match self {
-            Warning::FewStudies { k } => write!(
-                f,
+            Warning::FewStudies { k } => msg![format!(
                 "only {k} studies were pooled: the between-study variance and the prediction \
                  interval rest on very little information; read them as rough and look at the \
                  width of the τ² interval"
-            ),
-            Warning::NoPredictionInterval { k } => write!(
-                f,
+            )],
+            Warning::NoPredictionInterval { k } => msg![format!(
                 "with k = {k} studies no prediction interval can be given (its t quantile has \
                  k − 2 = 0 degrees of freedom); code more studies to state an expected range"
-            ),
-            Warning::Tau2AtZero { estimator } => write!(
-                f,
+            )],
+            Warning::Tau2AtZero { estimator } => msg![format!(
                 "τ² was estimated at its lower bound of 0 ({estimator}): the coefficients vary no \
                  more than sampling error predicts, so the prediction interval reflects only the \
                  uncertainty of the pooled value; with few studies this is weak evidence that \
                  the true coefficients are equal"
-            ),
-            Warning::NotConverged { what, iterations } => write!(
-                f,
-                "{what} did not converge within {iterations} iterations: the numbers shown are \
-                 the last iterate and may be wrong; try another τ² estimator (e.g. --tau2 pm) \
-                 and compare"
-            ),
-            Warning::IntervalCapped { interval } => write!(
-                f,
-                "the {interval} reached past a coefficient of 1 when mapped back and was cut \
-                 at 1; a transform that keeps coefficients below 1 (bonett or fisher-z) avoids this"
-            ),
-            Warning::CommonEffectAssumed => write!(
-                f,
+            )],
+            Warning::NotConverged { what, iterations } => msg![
+                format!(
+                    "{what} did not converge within {iterations} iterations: the numbers shown \
+                     are the last iterate and may be wrong; try another τ² estimator (e.g. "
+                ),
+                given(S::Tau2Method, "pm"),
+                ") and compare"
+            ],
+            Warning::IntervalCapped { interval } => msg![
+                format!(
+                    "the {interval} reached past a coefficient of 1 when mapped back and was cut \
+                     at 1; a transform that keeps coefficients below 1 ("
+                ),
+                given(S::Transform, "bonett"),
+                " or ",
+                given(S::Transform, "fisher-z"),
+                ") avoids this"
+            ],
+            Warning::CommonEffectAssumed => msg![
                 "the common-effect model assumes that every study estimates the same true \
                  coefficient; its intervals ignore between-study variation, so the expected \
                  range for a new setting is too narrow unless that assumption holds"
-            ),
-            Warning::CommonEffectContradicted { q, df, p } => write!(
-                f,
-                "Cochran's Q ({q:.2} on {df} df, p {}) rejects the common-effect model's \
-                 assumption of one true value; use a random-effects model (e.g. --tau2 reml) \
-                 for a benchmark",
-                crate::report::format::p_value(*p)
-            ),
-            Warning::Tau2OutsideInterval { tau2, lower, upper } => write!(
-                f,
-                "the τ² estimate ({}) lies outside its Q-profile interval ({} to {}); the \
-                 interval rests on the generalized Q statistic, the estimate on another \
-                 criterion (ML in particular is biased downwards with few studies); compare \
-                 with --tau2 reml or pm",
-                crate::report::format::significant(*tau2, 3),
-                crate::report::format::significant(*lower, 3),
-                crate::report::format::significant(*upper, 3)
-            ),
-            Warning::KnappHartungBelowOne { scale } => write!(
-                f,
-                "the Knapp–Hartung scale factor is {} (below 0.95): the studies agree more closely \
-                 than their sampling variances predict (coefficients rounded to two decimals \
-                 can do this), so its intervals are narrower than the Wald intervals{}; \
-                 --ci knapp-hartung-floor keeps the factor at 1 or more",
-                crate::report::format::significant(*scale, 3),
-                if *scale < 1e-6 {
-                    " and here have almost no width"
-                } else {
-                    ""
-                }
-            ),
-            Warning::RangeBelowZero { lower } => write!(
-                f,
-                "the prediction interval reaches down to a coefficient of {} (below 0): the \
-                 studies differ so much that the benchmark says little about a new setting; \
-                 look for moderators that explain the differences",
-                crate::report::format::fixed(*lower, 2)
-            ),
-            Warning::Extrapolation { what, lower, upper } => write!(
-                f,
+            ],
+            Warning::CommonEffectContradicted { q, df, p } => msg![
+                format!(
+                    "Cochran's Q ({q:.2} on {df} df, p {}) rejects the common-effect model's \
+                     assumption of one true value; use a random-effects model (e.g. ",
+                    format::p_value(*p)
+                ),
+                given(S::Tau2Method, "reml"),
+                ") for a benchmark"
+            ],
+            Warning::Tau2OutsideInterval { tau2, lower, upper } => msg![
+                format!(
+                    "the τ² estimate ({}) lies outside its Q-profile interval ({} to {}); the \
+                     interval rests on the generalized Q statistic, the estimate on another \
+                     criterion (ML in particular is biased downwards with few studies); compare \
+                     with ",
+                    format::significant(*tau2, 3),
+                    format::significant(*lower, 3),
+                    format::significant(*upper, 3)
+                ),
+                given(S::Tau2Method, "reml"),
+                " or ",
+                given(S::Tau2Method, "pm")
+            ],
+            Warning::KnappHartungBelowOne { scale } => msg![
+                format!(
+                    "the Knapp–Hartung scale factor is {} (below 0.95): the studies agree more \
+                     closely than their sampling variances predict (coefficients rounded to two \
+                     decimals can do this), so its intervals are narrower than the Wald \
+                     intervals{}; ",
+                    format::significant(*scale, 3),
+                    if *scale < 1e-6 {
+                        " and here have almost no width"
+                    } else {
+                        ""
+                    }
+                ),
+                given(S::IntervalMethod, "knapp-hartung-floor"),
+                " keeps the factor at 1 or more"
+            ],
+            Warning::RangeBelowZero { lower } => msg![format!(
+                "the expected range reaches down to a coefficient of {} (below 0): the studies \
+                 differ so much that the benchmark says little about a new setting; look for \
+                 moderators that explain the differences",
+                format::fixed(*lower, 2)
+            )],
+            Warning::Extrapolation { what, lower, upper } => msg![format!(
                 "{what} lies outside the range of the benchmark studies ({} to {}): the \
                  expectation there is an extrapolation and rests on the model's form, not on \
                  studies like this one",
-                crate::report::format::significant(*lower, 4),
-                crate::report::format::significant(*upper, 4)
-            ),
-            Warning::Inadmissible { what, why } => write!(
-                f,
-                "the {what} is impossible: {why}. The likely causes are reliabilities that are too \
-                 low (for example coefficient alpha, a lower bound, when the items are not \
+                format::significant(*lower, 4),
+                format::significant(*upper, 4)
+            )],
+            Warning::Inadmissible { what, why } => msg![format!(
+                "the {what} is impossible: {why}. The likely causes are reliabilities that are \
+                 too low (for example coefficient alpha, a lower bound, when the items are not \
                  tau-equivalent) or a sample too small for the observed value; no corrected \
                  number is reported as if it were fine"
-            ),
-            Warning::InadmissibleDraws { share } => write!(
-                f,
+            )],
+            Warning::InadmissibleDraws { share } => msg![format!(
                 "{}% of the draws gave an impossible correction (beyond ±1, an impossible \
                  true-score matrix, or a resample that could not be fitted); read the intervals \
                  with care",
-                crate::report::format::fixed(100.0 * share, 1)
-            ),
-            Warning::LowerBoundReliability { which, share } => write!(
-                f,
+                format::fixed(100.0 * share, 1)
+            )],
+            Warning::LowerBoundReliability { which, share } => msg![format!(
                 "the reliability of {which} is {}coefficient alpha (or a kin of it), a lower \
                  bound unless the items are tau-equivalent: the correction is then too large \
                  (over-correction); if the item data are at hand, relyard items says whether \
@@ -340,102 +407,152 @@ impl fmt::Display for Warning {
                 if *share < 1.0 {
                     format!(
                         "in part ({}% of the benchmark's studies) ",
-                        crate::report::format::fixed(100.0 * share, 0)
+                        format::fixed(100.0 * share, 0)
                     )
                 } else {
                     String::new()
                 }
-            ),
-            Warning::UnstableCorrection => write!(
-                f,
+            )],
+            Warning::UnstableCorrection => msg![
                 "the correction is unstable here: with correlated, unreliable predictors it \
                  amplifies small differences (standardized slopes beyond ±1 or many impossible \
                  draws); report it as a what-if, not as an estimate"
-            ),
-            Warning::RowsWithMissingValues { rows, cells } => write!(
-                f,
+            ],
+            Warning::RowsWithMissingValues { rows, cells } => msg![format!(
                 "{rows} respondent(s) were left out for {cells} missing value(s) (only complete \
                  rows are used)"
-            ),
-            Warning::IdentifierColumn { column } => write!(
-                f,
-                "column {column} counts 1, 2, 3, … like a respondent number, yet it is analysed \
-                 as an item; leave it out with --items"
-            ),
-            Warning::ExtremeResponse { column, value } => write!(
-                f,
-                "item {column} has the value {value}, far from its other answers: if it is a \
-                 missing-value code (such as −99 or 999), mark those cells empty, or declare \
-                 the response scale with --scale-min and --scale-max to have them reported"
-            ),
-            Warning::NegativeAlpha { alpha } => write!(
-                f,
-                "alpha is negative ({}): the items correlate negatively on average, which \
-                 usually means items that should be reverse-scored were not (use --reverse with \
-                 --scale-min and --scale-max)",
-                crate::report::format::fixed(*alpha, 3)
-            ),
-            Warning::NegativeLoading { items } => write!(
-                f,
-                "{} load(s) negatively on the common factor: probably worded in reverse and in \
-                 need of reverse scoring (--reverse with --scale-min and --scale-max)",
-                items.join(", ")
-            ),
+            )],
+            Warning::IdentifierColumn { column } => msg![
+                format!(
+                    "column {column} counts 1, 2, 3, … like a respondent number, yet it is \
+                     analysed as an item; leave it out with "
+                ),
+                S::ItemColumns
+            ],
+            Warning::IdentifierLeftOut { column } => msg![format!(
+                "column {column} holds text with a different value for every respondent: it \
+                 was taken as an identifier and left out of the items"
+            )],
+            Warning::ExtremeResponse { column, value } => msg![
+                format!(
+                    "item {column} has the value {value}, far from its other answers: if it is a \
+                     missing-value code (such as −99 or 999), declare it with "
+                ),
+                S::MissingCodes,
+                ", or declare the response scale with ",
+                S::ResponseMin,
+                " and ",
+                S::ResponseMax,
+                " to have such values reported"
+            ],
+            Warning::NegativeAlpha { alpha } => msg![
+                format!(
+                    "alpha is negative ({}): the items correlate negatively on average, which \
+                     usually means items that should be reverse-scored were not (use ",
+                    format::fixed(*alpha, 3)
+                ),
+                S::ReverseKeyed,
+                " with ",
+                S::ResponseMin,
+                " and ",
+                S::ResponseMax,
+                ")"
+            ],
+            Warning::NegativeLoading { items } => msg![
+                format!(
+                    "{} load(s) negatively on the common factor: probably worded in reverse and \
+                     in need of reverse scoring (",
+                    items.join(", ")
+                ),
+                S::ReverseKeyed,
+                " with ",
+                S::ResponseMin,
+                " and ",
+                S::ResponseMax,
+                ")"
+            ],
             Warning::PartFailed { what, why } => {
-                write!(f, "{what} could not be done, the rest stands: {why}")
+                msg![format!("{what} could not be done, the rest stands: ")].then(why.clone())
             }
-            Warning::RowsLeftOutOfModel { rows, why } => write!(
-                f,
+            Warning::RowsLeftOutOfModel { rows, why } => msg![format!(
                 "{} left out of the model because {why}; they are listed with the results",
                 list_rows(rows)
-            ),
-            Warning::NegativeCoefficients { rows } => write!(
-                f,
+            )],
+            Warning::NegativeCoefficients { rows } => msg![format!(
                 "negative coefficients on {}: a negative alpha is a valid estimate but usually \
                  means items that were not reverse-scored, and a negative retest or inter-rater \
                  correlation a coding error; check the source studies",
                 list_rows(rows)
-            ),
-            Warning::DuplicateLabel { label, rows } => write!(
-                f,
+            )],
+            Warning::DuplicateLabel { label, rows } => msg![format!(
                 "the study label \"{label}\" appears on {}; if these are the same sample, pool \
                  only one of them (dependent samples make the intervals too narrow)",
                 list_rows(rows)
-            ),
-            Warning::RowsSkipped { count } => write!(
-                f,
-                "{count} row(s) with problems were left out (--skip-invalid); each is listed \
-                 with its reason"
-            ),
+            )],
+            Warning::RowsSkipped { count } => msg![
+                format!("{count} row(s) with problems were left out ("),
+                S::SkipInvalid,
+                "); each is listed with its reason"
+            ],
             Warning::EmptyRowsIgnored { rows } => {
-                write!(f, "entirely empty {} passed over", list_rows(rows))
+                msg![format!("entirely empty {} passed over", list_rows(rows))]
             }
-            Warning::VarColumnUnused { rows, transform } => write!(
-                f,
-                "the var column holds values on {} but --transform {transform} computes its own \
-                 sampling variances, so they were not used; use --transform none to pool the \
-                 sheet's own effects and variances",
-                list_rows(rows)
-            ),
-            Warning::MixedFamiliesPooled => write!(
-                f,
-                "internal-consistency and correlation-type coefficients were pooled together \
-                 (--allow-mixed-types); they estimate different kinds of reliability, so the \
-                 benchmark mixes two questions"
-            ),
+            Warning::VarColumnUnused { rows, transform } => msg![
+                format!("the var column holds values on {} but ", list_rows(rows)),
+                given(S::Transform, transform.clone()),
+                " computes its own sampling variances, so they were not used; use ",
+                given(S::Transform, "none"),
+                " to pool the sheet's own effects and variances"
+            ],
+            Warning::MixedFamiliesPooled => msg![
+                "internal-consistency and correlation-type coefficients were pooled together (",
+                S::MixedTypes,
+                "); they estimate different kinds of reliability, so the benchmark mixes two \
+                 questions"
+            ],
             Warning::TransformFamilyMismatch {
                 transform,
                 designed_for,
                 rows,
-            } => write!(
-                f,
-                "--transform {transform} was designed for {designed_for}; its sampling variance \
-                 is only an approximation for the coefficients on {}",
+            } => msg![
+                given(S::Transform, transform.clone()),
+                format!(
+                    " was designed for {designed_for}; its sampling variance is only an \
+                     approximation for the coefficients on {}",
+                    list_rows(rows)
+                )
+            ],
+            Warning::LevelSpellings {
+                moderator,
+                level,
+                spellings,
+                rows,
+            } => msg![format!(
+                "{moderator}: the values {} on {} differ only in case or spaces and were taken \
+                 as one level, \"{level}\"; make the spelling the same in the sheet if they are \
+                 meant to be one",
+                spellings
+                    .iter()
+                    .map(|s| format!("\"{s}\""))
+                    .collect::<Vec<_>>()
+                    .join(", "),
                 list_rows(rows)
-            ),
+            )],
+            Warning::Collinearity { moderators, vif } => msg![format!(
+                "the moderators {} are strongly related to each other (largest variance \
+                 inflation factor {}, above {}): their separate effects are estimated \
+                 imprecisely and can change sign when one is dropped; interpret them together",
+                moderators.join(", "),
+                format::significant(*vif, 3),
+                VIF_LIMIT
+            )],
         }
     }
 }
+
+/// A variance inflation factor above this draws a collinearity warning (common practice,
+/// no source).
+pub const VIF_LIMIT: f64 = 10.0;
 
 /// A warning as it appears in JSON output.
 #[derive(Debug, Clone, Serialize)]
@@ -446,11 +563,12 @@ pub struct WarningRecord {
     pub message: String,
 }
 
-impl From<&Warning> for WarningRecord {
-    fn from(w: &Warning) -> Self {
+impl WarningRecord {
+    /// The record of a warning, its settings named by `names`.
+    pub fn new(w: &Warning, names: &dyn SettingNames) -> Self {
         WarningRecord {
             code: w.code(),
-            message: w.to_string(),
+            message: w.message().render(names),
         }
     }
 }

@@ -78,11 +78,11 @@ fn permutations(c: &mut Criterion) {
     let specs: Vec<ModeratorSpec> = (1..=5)
         .map(|j| ModeratorSpec::auto(format!("m{j}")))
         .collect();
-    let design = build_design(&p, &specs).unwrap();
+    let design = build_design(&p, &specs, relyard::metareg::Centring::Means).unwrap();
     let fit_options = relyard::pool::FitOptions {
         model: opts.pool.model,
         ci: opts.pool.ci,
-        level: 0.95,
+        level: relyard::Level::NINETY_FIVE,
         tau2_interval: true,
     };
     let ex = explain(&p, design, &fit_options).unwrap();
@@ -148,7 +148,19 @@ fn monte_carlo(c: &mut Criterion) {
     let mut group = c.benchmark_group("correct");
     group.sample_size(20);
     group.bench_function("1,000,000 Monte Carlo draws", |b| {
-        b.iter(|| black_box(correct_correlation(&input, 1_000_000, 1, 0.95, 5, &|_| {}).unwrap()))
+        b.iter(|| {
+            black_box(
+                correct_correlation(
+                    &input,
+                    1_000_000,
+                    1,
+                    relyard::Level::NINETY_FIVE,
+                    5,
+                    &|_| {},
+                )
+                .unwrap(),
+            )
+        })
     });
     group.finish();
 }

@@ -26,7 +26,7 @@ fuzz_target!(|data: &[u8]| {
         },
     ] {
         if let Ok(d) = read_items(&path, &options) {
-            let _ = analyze(&d, 0.95);
+            let _ = analyze(&d, relyard::Level::NINETY_FIVE);
         }
     }
 });

@@ -1,6 +1,7 @@
 //! Settings: everything an analysis is told, resolved once by a face (the command line, a
 //! browser form) and passed down typed. Nothing downstream re-reads a raw option.
 
+use crate::benchmark::BenchmarkOptions;
 use crate::compare::AlphaSample;
 use crate::correct::ReliabilitySpec;
 use crate::items::ItemReadOptions;
@@ -9,8 +10,8 @@ use crate::metareg::spread::SpreadMetric;
 use crate::metareg::{Centring, ModeratorSpec};
 use crate::placement::NewStudy;
 use crate::pool::{CiMethod, Model, PoolOptions, Tau2Estimator};
-use crate::benchmark::BenchmarkOptions;
 use crate::sheet::SheetOptions;
+pub use crate::sheet::SubsetRule;
 use crate::transform::TransformKind;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
@@ -64,16 +65,6 @@ pub struct SheetSettings {
     pub skip_invalid: bool,
     /// Analyse only the rows with these values (all must hold).
     pub subset: Vec<SubsetRule>,
-}
-
-/// One condition of a subset: the column's value equals `value` (compared as column names
-/// and levels are: ignoring case and surrounding spaces).
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct SubsetRule {
-    /// The column (a standard column such as coef_type, or a moderator column).
-    pub column: String,
-    /// The value kept.
-    pub value: String,
 }
 
 /// The benchmark model.

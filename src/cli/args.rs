@@ -1,8 +1,112 @@
-//! Raw command-line arguments as clap parses them. Values are checked and turned into
-//! typed options in `config`.
+//! Raw command-line arguments as clap parses them. Enumerated options are value enums;
+//! values are checked and turned into the analysis's `Settings` in `config`. Each
+//! option is documented once, here; a default is shown by clap (not repeated in the text).
 
-use clap::{Args, Parser, Subcommand};
+use clap::{Args, Parser, Subcommand, ValueEnum};
 use std::path::PathBuf;
+
+/// The analysis scale (`--transform`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum TransformArg {
+    /// ln(1 − coefficient).
+    Bonett,
+    /// (1 − coefficient)^(1/3).
+    HakstianWhalen,
+    /// atanh(coefficient).
+    FisherZ,
+    /// The coefficient itself.
+    Raw,
+    /// The sheet's coef and var already hold effects and their variances.
+    None,
+}
+
+/// The τ² estimator, or the common-effect model (`--tau2`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Tau2Arg {
+    /// Restricted maximum likelihood.
+    Reml,
+    /// Maximum likelihood.
+    Ml,
+    /// DerSimonian–Laird.
+    Dl,
+    /// Paule–Mandel.
+    Pm,
+    /// Sidik–Jonkman.
+    Sj,
+    /// Hedges' unweighted method of moments.
+    He,
+    /// A common-effect model (τ² = 0 assumed).
+    Common,
+}
+
+/// How confidence intervals are formed (`--ci`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CiArg {
+    /// t quantiles, SE scaled by the weighted residual mean square.
+    KnappHartung,
+    /// As knapp-hartung with the scale factor kept at 1 or more.
+    KnappHartungFloor,
+    /// Normal quantiles.
+    Wald,
+}
+
+/// The metric score SDs are put on (`--spread-metric`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SpreadMetricArg {
+    /// SD of the mean item score.
+    PerItem,
+    /// Percent of maximum possible.
+    Pomp,
+}
+
+/// Whether an SD is for sum or mean scores (`--sd-metric`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SdMetricArg {
+    /// Sum scores.
+    #[value(alias = "total")]
+    Sum,
+    /// Mean (average-item) scores.
+    #[value(alias = "average")]
+    Mean,
+}
+
+/// A kind of coefficient (`--coef-type`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum CoefTypeArg {
+    /// Coefficient alpha.
+    Alpha,
+    /// Standardized alpha.
+    #[value(name = "alpha_std", alias = "alpha-std")]
+    AlphaStd,
+    /// KR-20.
+    #[value(alias = "kr-20")]
+    Kr20,
+    /// Omega.
+    Omega,
+    /// A test–retest correlation.
+    #[value(alias = "test-retest", alias = "test_retest")]
+    Retest,
+    /// An inter-rater correlation.
+    #[value(alias = "inter-rater", alias = "inter_rater")]
+    Interrater,
+    /// A split-half coefficient.
+    #[value(name = "split_half", alias = "split-half", alias = "splithalf")]
+    SplitHalf,
+}
+
+/// A delimiter (`--delimiter`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DelimiterArg {
+    /// A comma.
+    #[value(name = "comma", alias = ",")]
+    Comma,
+    /// A semicolon.
+    #[value(name = "semicolon", alias = ";")]
+    Semicolon,
+    /// A tab.
+    #[value(name = "tab", alias = "\t")]
+    Tab,
+}
 
 /// Judge a reliability coefficient in context: build a benchmark from the coefficients
 /// that prior studies reported, and state the range a new study should expect.
@@ -50,12 +154,13 @@ pub struct SheetArgs {
     #[arg(long = "column", value_name = "ROLE=NAME")]
     pub columns: Vec<String>,
 
-    /// The sheet's delimiter: comma, semicolon or tab [default: detected from the header row].
-    #[arg(long, value_name = "DELIMITER")]
-    pub delimiter: Option<String>,
+    /// The sheet's delimiter, when it is text (detected from the header row when not
+    /// given).
+    #[arg(long, value_name = "DELIMITER", ignore_case = true)]
+    pub delimiter: Option<DelimiterArg>,
 
     /// For a workbook (.xlsx, .xlsm, .xlsb, .xls, .ods): the worksheet holding the coding
-    /// sheet [default: the first].
+    /// sheet (the first when not given).
     #[arg(long, value_name = "NAME")]
     pub worksheet: Option<String>,
 
@@ -63,27 +168,41 @@ pub struct SheetArgs {
     /// stopping at the first bad sheet.
     #[arg(long)]
     pub skip_invalid: bool,
+
+    /// Analyse only the rows whose COLUMN holds VALUE (repeatable: every condition must
+    /// hold), e.g. coef_type=alpha or language=original; case and surrounding spaces do
+    /// not matter.
+    #[arg(long = "where", value_name = "COLUMN=VALUE")]
+    pub subset: Vec<String>,
 }
 
 /// The benchmark model, shared by the commands that fit one.
 #[derive(Debug, Clone, Args)]
 pub struct ModelArgs {
-    /// Analysis scale: bonett, hakstian-whalen, fisher-z, raw, or none (the sheet's coef
-    /// and var columns already hold the effect and its sampling variance)
-    /// [default: bonett for internal-consistency coefficients, fisher-z for retest and
-    /// inter-rater correlations].
-    #[arg(long, value_name = "TRANSFORM")]
-    pub transform: Option<String>,
+    /// Analysis scale (when not given: bonett for internal-consistency coefficients,
+    /// fisher-z for retest and inter-rater correlations; none: the sheet's coef and var
+    /// already hold the effect and its sampling variance).
+    #[arg(long, value_name = "TRANSFORM", ignore_case = true)]
+    pub transform: Option<TransformArg>,
 
-    /// Between-study variance estimator (reml, ml, dl, pm, sj, he), or common for a
-    /// common-effect model.
-    #[arg(long, value_name = "METHOD", default_value = "reml")]
-    pub tau2: String,
+    /// Between-study variance estimator, or common for a common-effect model.
+    #[arg(
+        long,
+        value_name = "METHOD",
+        default_value = "reml",
+        ignore_case = true
+    )]
+    pub tau2: Tau2Arg,
 
-    /// Confidence intervals: knapp-hartung, knapp-hartung-floor (its scale factor kept at
-    /// 1 or more) or wald.
-    #[arg(long, value_name = "METHOD", default_value = "knapp-hartung")]
-    pub ci: String,
+    /// How confidence intervals are formed (knapp-hartung-floor keeps the Knapp–Hartung
+    /// scale factor at 1 or more).
+    #[arg(
+        long,
+        value_name = "METHOD",
+        default_value = "knapp-hartung",
+        ignore_case = true
+    )]
+    pub ci: CiArg,
 
     /// Confidence level for every interval, between 0 and 1.
     #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
@@ -109,15 +228,20 @@ pub struct ModeratorArgs {
     #[arg(long = "categorical", value_name = "NAME")]
     pub categorical: Vec<String>,
 
-    /// Reference level of a categorical moderator, NAME=LEVEL (repeatable) [default: the
-    /// level with most studies].
+    /// Reference level of a categorical moderator, NAME=LEVEL (repeatable; when not given,
+    /// the level with most studies).
     #[arg(long = "reference", value_name = "NAME=LEVEL")]
     pub references: Vec<String>,
 
-    /// Metric the score SDs are put on for the score-spread model: per-item or pomp
-    /// [default: pomp when every study gives its response scale, else per-item].
-    #[arg(long, value_name = "METRIC")]
-    pub spread_metric: Option<String>,
+    /// Metric the score SDs are put on for the score-spread model (when not given: pomp
+    /// when every study gives its response scale, else per-item).
+    #[arg(long, value_name = "METRIC", ignore_case = true)]
+    pub spread_metric: Option<SpreadMetricArg>,
+
+    /// Report the intercept where every numeric moderator is 0, instead of at the
+    /// moderators' means (the numeric moderators are then not centred).
+    #[arg(long)]
+    pub uncentred: bool,
 }
 
 #[derive(Debug, Args)]
@@ -132,7 +256,8 @@ pub struct PoolArgs {
     #[arg(long, value_name = "NAME")]
     pub measure: Option<String>,
 
-    /// Also list every pooled study with its transformed value, variance and weight.
+    /// Also list every pooled study with its value on the analysis scale, variance and
+    /// weight.
     #[arg(long)]
     pub studies: bool,
 
@@ -215,11 +340,14 @@ pub struct CheckArgs {
 #[derive(Debug, Args)]
 pub struct ItemsArgs {
     /// The item data: one row per respondent, one column per item, a header of item names
-    /// (CSV: comma, semicolon or tab delimited; UTF-8). Read in one pass.
+    /// (CSV: comma, semicolon or tab delimited, UTF-8; or a workbook: .xlsx, .xls, .ods).
+    /// Read in one pass; `-` or a pipe works too.
     #[arg(value_name = "DATA")]
     pub data: PathBuf,
 
-    /// The item columns to use, comma-separated [default: every column].
+    /// The item columns to use, comma-separated (every column when not given; a text
+    /// column with a different value for every respondent is taken as an identifier and
+    /// left out).
     #[arg(long, value_name = "A,B,C", value_delimiter = ',')]
     pub items: Vec<String>,
 
@@ -241,6 +369,14 @@ pub struct ItemsArgs {
     #[arg(long)]
     pub pairwise: bool,
 
+    /// A response that means "missing", such as -99 (repeatable).
+    #[arg(long = "missing-code", value_name = "X", allow_negative_numbers = true)]
+    pub missing_codes: Vec<f64>,
+
+    /// For a workbook: the worksheet holding the data (the first when not given).
+    #[arg(long, value_name = "NAME")]
+    pub worksheet: Option<String>,
+
     /// Bootstrap interval for omega with this many replicates. The bootstrap keeps the
     /// complete rows in memory (the rest of the analysis does not); runs on all cores.
     #[arg(long, value_name = "N")]
@@ -254,9 +390,9 @@ pub struct ItemsArgs {
     #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
     pub level: f64,
 
-    /// The file's delimiter: comma, semicolon or tab [default: detected from the header row].
-    #[arg(long, value_name = "DELIMITER")]
-    pub delimiter: Option<String>,
+    /// The file's delimiter, when it is text (detected from the header row when not given).
+    #[arg(long, value_name = "DELIMITER", ignore_case = true)]
+    pub delimiter: Option<DelimiterArg>,
 
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]
@@ -276,6 +412,18 @@ pub struct CompareArgs {
     /// Use the sheet's own column name for a standard column, e.g. coef=reported_alpha.
     #[arg(long = "column", value_name = "ROLE=NAME")]
     pub columns: Vec<String>,
+
+    /// For a workbook: the worksheet holding the samples (the first when not given).
+    #[arg(long, value_name = "NAME")]
+    pub worksheet: Option<String>,
+
+    /// Compare the valid rows and list each row left out with its reason.
+    #[arg(long)]
+    pub skip_invalid: bool,
+
+    /// Compare only the rows whose COLUMN holds VALUE (repeatable).
+    #[arg(long = "where", value_name = "COLUMN=VALUE")]
+    pub subset: Vec<String>,
 
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]
@@ -348,8 +496,8 @@ pub struct CorrectArgs {
     pub n: Option<u64>,
 
     /// Reliability of x: a value (0.78), an estimate with its sample (0.78,n=180,items=10),
-    /// or a benchmark (sheet=PATH, optionally ,at=NAME:VALUE); add ,kind=alpha when it is
-    /// coefficient alpha.
+    /// or a benchmark (sheet=PATH, optionally ,at=NAME=VALUE for each moderator); add
+    /// ,kind=alpha when it is coefficient alpha.
     #[arg(long, value_name = "SPEC")]
     pub rel_x: Option<String>,
 
@@ -357,7 +505,8 @@ pub struct CorrectArgs {
     #[arg(long, value_name = "SPEC")]
     pub rel_y: Option<String>,
 
-    /// A study's raw data (CSV: one row per respondent, scale scores in columns).
+    /// A study's raw data (CSV or a workbook: one row per respondent, scale scores in
+    /// columns).
     #[arg(long, value_name = "FILE", conflicts_with = "summary")]
     pub data: Option<PathBuf>,
 
@@ -395,9 +544,17 @@ pub struct CorrectArgs {
     #[arg(long, value_name = "N", default_value_t = 5)]
     pub grid: usize,
 
-    /// Delimiter of --data: comma, semicolon or tab [default: detected].
-    #[arg(long, value_name = "DELIMITER")]
-    pub delimiter: Option<String>,
+    /// Delimiter of --data, when it is text (detected when not given).
+    #[arg(long, value_name = "DELIMITER", ignore_case = true)]
+    pub delimiter: Option<DelimiterArg>,
+
+    /// For --data in a workbook: the worksheet (the first when not given).
+    #[arg(long, value_name = "NAME")]
+    pub worksheet: Option<String>,
+
+    /// A value in --data that means "missing", such as -99 (repeatable).
+    #[arg(long = "missing-code", value_name = "X", allow_negative_numbers = true)]
+    pub missing_codes: Vec<f64>,
 
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]
@@ -471,9 +628,9 @@ pub struct StudyArgs {
     #[arg(long, value_name = "K")]
     pub items: Option<u32>,
 
-    /// The kind of the new study's coefficient [default: alpha].
-    #[arg(long, value_name = "TYPE", default_value = "alpha")]
-    pub coef_type: String,
+    /// The kind of the new study's coefficient.
+    #[arg(long, value_name = "TYPE", default_value = "alpha", ignore_case = true)]
+    pub coef_type: CoefTypeArg,
 
     /// The new study's score SD (then --sd-metric, and for the POMP metric --scale-min and
     /// --scale-max): says how much of a shortfall its score spread accounts for.
@@ -481,8 +638,8 @@ pub struct StudyArgs {
     pub sd: Option<f64>,
 
     /// Whether --sd is for sum or mean scores.
-    #[arg(long, value_name = "METRIC")]
-    pub sd_metric: Option<String>,
+    #[arg(long, value_name = "METRIC", ignore_case = true)]
+    pub sd_metric: Option<SdMetricArg>,
 
     /// Lowest possible response to one item of the new study's scale.
     #[arg(long, value_name = "X", allow_negative_numbers = true)]

@@ -1,44 +1,30 @@
 //! `relyard check`: place a new study against the benchmark.
 
-use super::config::{CheckConfig, fit_options};
+use super::args::CheckArgs;
+use super::names::OptionNames;
 use super::output::{Failure, print, print_json, warn_all};
-use relyard::benchmark::{Prepared, prepare};
-use relyard::placement::{Placement, place};
-use relyard::report::check::{CheckDocument, check_paragraph, check_summary};
-use relyard::report::paragraph::Paragraph;
-use relyard::sheet::read_coding_sheet;
+use super::progress::Bar;
+use relyard::analysis::run;
+use relyard::output::json::CheckDocument;
+use relyard::output::prose::placement_paragraph;
+use relyard::output::text::check_summary;
 
-/// The prepared studies, the placement and its paragraph (shared with `relyard report`).
-pub fn compute(c: &CheckConfig) -> Result<(Prepared, Placement, Paragraph), Failure> {
-    let sheet = read_coding_sheet(&c.sheet.path, &c.sheet.options)?;
-    compute_from(c, prepare(sheet, &c.benchmark)?)
-}
-
-/// [`compute`] from studies already prepared with `c`'s options (`relyard report`).
-pub fn compute_from(
-    c: &CheckConfig,
-    prepared: Prepared,
-) -> Result<(Prepared, Placement, Paragraph), Failure> {
-    let opts = fit_options(&c.benchmark);
-    let pl = place(
-        &prepared,
-        &c.study,
-        &c.moderators.specs,
-        &c.at,
-        c.moderators.spread_metric,
-        &opts,
-    )?;
-    let paragraph = check_paragraph(&prepared, &pl, c.measure.as_deref());
-    Ok((prepared, pl, paragraph))
-}
-
-pub fn run(c: &CheckConfig) -> Result<(), Failure> {
-    let (prepared, pl, paragraph) = compute(c)?;
+pub fn run_check(a: CheckArgs) -> Result<(), Failure> {
+    let json = a.json;
+    let settings = super::config::check(a)?;
+    let analysis = run(&settings, &Bar::default())?;
+    let (p, pl) = (
+        analysis.prepared.as_ref().expect("check reads a sheet"),
+        analysis
+            .placement
+            .as_ref()
+            .expect("check asks for a placement"),
+    );
     warn_all(&pl.warnings);
-    if c.json {
-        let doc = CheckDocument::new(&prepared, &pl, &paragraph, &pl.warnings);
-        print_json(&doc)
+    let paragraph = placement_paragraph(pl, settings.measure.as_deref());
+    if json {
+        print_json(&CheckDocument::new(p, pl, &paragraph, &OptionNames))
     } else {
-        print(&check_summary(&prepared, &pl, &paragraph))
+        print(&check_summary(p, pl, &paragraph, &OptionNames))
     }
 }

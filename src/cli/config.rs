@@ -1,408 +1,740 @@
-//! Validated configurations built from the raw arguments before any work runs.
+//! The raw arguments turned into the analysis's `Settings` before any work runs: every
+//! command goes args → config → `analysis::run` → a rendering.
 
 use super::args::{
-    CheckArgs, ExplainArgs, ItemsArgs, ModelArgs, ModeratorArgs, PoolArgs, SheetArgs, TemplateArgs,
+    CheckArgs, CiArg, CoefTypeArg, CompareArgs, CorrectArgs, DelimiterArg, ExplainArgs, ItemsArgs,
+    ModelArgs, ModeratorArgs, PlanArgs, PoolArgs, ReportArgs, SdMetricArg, SheetArgs,
+    SpreadMetricArg, StudyArgs, Tau2Arg, TemplateArgs, TransformArg,
 };
-use super::output::Failure;
-use relyard::Error;
-use relyard::benchmark::BenchmarkOptions;
+use super::output::{Failure, UsageError};
+use relyard::Level;
+use relyard::analysis::{
+    ComparisonSettings, CorrectionSettings, ExplainSettings, ItemSettings, ModelSettings,
+    ModeratorSettings, NewStudySettings, PlanSettings, RegressionData, Settings, SheetSettings,
+    SubsetRule,
+};
+use relyard::compare::AlphaSample;
+use relyard::correct::ReliabilitySpec;
 use relyard::items::{ItemReadOptions, Missing};
 use relyard::metareg::spread::SpreadMetric;
-use relyard::metareg::{ModeratorKind, ModeratorSpec};
+use relyard::metareg::{Centring, ModeratorKind, ModeratorSpec};
 use relyard::placement::NewStudy;
-use relyard::pool::{CiMethod, FitOptions, Model, PoolOptions};
-use relyard::sheet::{CoefType, ColumnMap, Role, SdMetric, SheetOptions, parse_delimiter};
+use relyard::pool::{CiMethod, Model, Tau2Estimator};
+use relyard::sheet::{CoefType, ColumnMap, Role, SdMetric, SheetOptions, same_name};
 use relyard::transform::TransformKind;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
-fn bad(msg: impl Into<String>) -> Failure {
-    Failure::Lib(Error::InvalidOption(msg.into()))
+fn usage(msg: impl Into<String>) -> Failure {
+    Failure::Usage(UsageError(msg.into()))
+}
+
+impl From<TransformArg> for TransformKind {
+    fn from(t: TransformArg) -> Self {
+        match t {
+            TransformArg::Bonett => TransformKind::Bonett,
+            TransformArg::HakstianWhalen => TransformKind::HakstianWhalen,
+            TransformArg::FisherZ => TransformKind::FisherZ,
+            TransformArg::Raw => TransformKind::Raw,
+            TransformArg::None => TransformKind::None,
+        }
+    }
+}
+
+impl From<Tau2Arg> for Model {
+    fn from(t: Tau2Arg) -> Self {
+        match t {
+            Tau2Arg::Reml => Model::Random(Tau2Estimator::Reml),
+            Tau2Arg::Ml => Model::Random(Tau2Estimator::Ml),
+            Tau2Arg::Dl => Model::Random(Tau2Estimator::Dl),
+            Tau2Arg::Pm => Model::Random(Tau2Estimator::Pm),
+            Tau2Arg::Sj => Model::Random(Tau2Estimator::Sj),
+            Tau2Arg::He => Model::Random(Tau2Estimator::He),
+            Tau2Arg::Common => Model::Common,
+        }
+    }
+}
+
+impl From<CiArg> for CiMethod {
+    fn from(c: CiArg) -> Self {
+        match c {
+            CiArg::KnappHartung => CiMethod::KnappHartung,
+            CiArg::KnappHartungFloor => CiMethod::KnappHartungFloor,
+            CiArg::Wald => CiMethod::Wald,
+        }
+    }
+}
+
+impl From<SpreadMetricArg> for SpreadMetric {
+    fn from(m: SpreadMetricArg) -> Self {
+        match m {
+            SpreadMetricArg::PerItem => SpreadMetric::PerItem,
+            SpreadMetricArg::Pomp => SpreadMetric::Pomp,
+        }
+    }
+}
+
+impl From<SdMetricArg> for SdMetric {
+    fn from(m: SdMetricArg) -> Self {
+        match m {
+            SdMetricArg::Sum => SdMetric::Sum,
+            SdMetricArg::Mean => SdMetric::Mean,
+        }
+    }
+}
+
+impl From<CoefTypeArg> for CoefType {
+    fn from(t: CoefTypeArg) -> Self {
+        match t {
+            CoefTypeArg::Alpha => CoefType::Alpha,
+            CoefTypeArg::AlphaStd => CoefType::AlphaStd,
+            CoefTypeArg::Kr20 => CoefType::Kr20,
+            CoefTypeArg::Omega => CoefType::Omega,
+            CoefTypeArg::Retest => CoefType::Retest,
+            CoefTypeArg::Interrater => CoefType::Interrater,
+            CoefTypeArg::SplitHalf => CoefType::SplitHalf,
+        }
+    }
+}
+
+impl From<DelimiterArg> for u8 {
+    fn from(d: DelimiterArg) -> Self {
+        match d {
+            DelimiterArg::Comma => b',',
+            DelimiterArg::Semicolon => b';',
+            DelimiterArg::Tab => b'\t',
+        }
+    }
+}
+
+/// `NAME=VALUE` pairs of a repeatable option, names matched as column names are.
+fn pairs(option: &str, what: &str, specs: &[String]) -> Result<Vec<(String, String)>, Failure> {
+    let mut out: Vec<(String, String)> = Vec::new();
+    for spec in specs {
+        let (name, value) = spec
+            .split_once('=')
+            .ok_or_else(|| usage(format!("{option} takes {what} (got \"{spec}\")")))?;
+        let (name, value) = (name.trim(), value.trim());
+        if name.is_empty() {
+            return Err(usage(format!("{option} {spec}: the name is empty")));
+        }
+        if out.iter().any(|(n, _)| same_name(n, name)) {
+            return Err(usage(format!("{option} {name} is given twice")));
+        }
+        out.push((name.to_string(), value.to_string()));
+    }
+    Ok(out)
+}
+
+/// A confidence level.
+fn level(x: f64) -> Result<Level, Failure> {
+    Ok(Level::new(x)?)
 }
 
 /// Where the sheet is and how to read it.
-#[derive(Debug)]
-pub struct SheetConfig {
-    pub path: PathBuf,
-    pub options: SheetOptions,
-    pub skip_invalid: bool,
+fn sheet_settings(a: SheetArgs) -> Result<SheetSettings, Failure> {
+    let mut columns = ColumnMap::new();
+    for spec in &a.columns {
+        columns
+            .insert_spec(spec)
+            .map_err(|e| usage(format!("--column: {e}")))?;
+    }
+    let subset = pairs("--where", "COLUMN=VALUE", &a.subset)?
+        .into_iter()
+        .map(|(column, value)| SubsetRule { column, value })
+        .collect();
+    Ok(SheetSettings {
+        path: a.sheet,
+        bytes: None,
+        read: SheetOptions {
+            delimiter: a.delimiter.map(u8::from),
+            columns,
+            worksheet: a.worksheet,
+        },
+        skip_invalid: a.skip_invalid,
+        subset,
+    })
 }
 
-impl SheetConfig {
-    fn from_args(a: SheetArgs) -> Result<Self, Failure> {
-        let mut columns = ColumnMap::new();
-        for spec in &a.columns {
-            columns.insert_spec(spec).map_err(bad)?;
-        }
-        let delimiter = a
-            .delimiter
-            .as_deref()
-            .map(parse_delimiter)
-            .transpose()
-            .map_err(|e| bad(format!("--delimiter: {e}")))?;
-        Ok(SheetConfig {
-            path: a.sheet,
-            options: SheetOptions {
-                delimiter,
-                columns,
-                worksheet: a.worksheet,
-            },
-            skip_invalid: a.skip_invalid,
-        })
-    }
-}
-
-/// Turn the model options into benchmark options.
-fn benchmark_options(m: ModelArgs, skip_invalid: bool) -> Result<BenchmarkOptions, Failure> {
-    let transform = m
-        .transform
-        .as_deref()
-        .map(|t| t.parse::<TransformKind>())
-        .transpose()
-        .map_err(|e| bad(format!("--transform: {e}")))?;
-    let model: Model = m.tau2.parse().map_err(|e| bad(format!("--tau2: {e}")))?;
-    let ci: CiMethod = m.ci.parse().map_err(|e| bad(format!("--ci: {e}")))?;
-    if !(m.level > 0.0 && m.level < 1.0) {
-        let hint = if m.level > 1.0 && m.level < 100.0 {
-            format!(" (for {}% write {})", m.level, m.level / 100.0)
-        } else {
-            String::new()
-        };
-        return Err(bad(format!(
-            "--level must lie strictly between 0 and 1{hint} (got {})",
-            m.level
-        )));
-    }
-    if m.allow_mixed_types && transform.is_none() {
-        return Err(bad(
+/// The benchmark model.
+fn model_settings(m: &ModelArgs) -> Result<ModelSettings, Failure> {
+    if m.allow_mixed_types && m.transform.is_none() {
+        return Err(usage(
             "--allow-mixed-types needs --transform as well: say on which scale the two kinds \
              of coefficients are to be pooled",
         ));
     }
-    Ok(BenchmarkOptions {
-        transform,
-        allow_mixed_types: m.allow_mixed_types,
-        skip_invalid,
-        pool: PoolOptions {
-            model,
-            ci,
-            level: m.level,
+    Ok(ModelSettings {
+        transform: m.transform.map(TransformKind::from),
+        model: m.tau2.into(),
+        interval: m.ci.into(),
+        mixed_types: m.allow_mixed_types,
+    })
+}
+
+/// Moderators as the analysis wants them.
+fn moderator_settings(a: ModeratorArgs) -> Result<ModeratorSettings, Failure> {
+    let mut specs: Vec<ModeratorSpec> = a
+        .moderators
+        .iter()
+        .map(|m| ModeratorSpec::auto(m.trim()))
+        .collect();
+    for c in &a.categorical {
+        let spec = specs
+            .iter_mut()
+            .find(|s| same_name(&s.name, c))
+            .ok_or_else(|| {
+                usage(format!(
+                    "--categorical {c}: {c} is not given as --moderator"
+                ))
+            })?;
+        spec.kind = ModeratorKind::Categorical;
+    }
+    for (name, level) in pairs("--reference", "NAME=LEVEL", &a.references)? {
+        let spec = specs
+            .iter_mut()
+            .find(|s| same_name(&s.name, &name))
+            .ok_or_else(|| {
+                usage(format!(
+                    "--reference {name}={level}: {name} is not given as --moderator"
+                ))
+            })?;
+        spec.reference = Some(level);
+    }
+    Ok(ModeratorSettings {
+        specs,
+        spread_metric: a.spread_metric.map(SpreadMetric::from),
+        centring: if a.uncentred {
+            Centring::None
+        } else {
+            Centring::Means
         },
     })
 }
 
-/// The fit options of a benchmark's model.
-pub fn fit_options(b: &BenchmarkOptions) -> FitOptions {
-    FitOptions {
-        model: b.pool.model,
-        ci: b.pool.ci,
-        level: b.pool.level,
-        tau2_interval: true,
-    }
-}
-
-/// Moderators as the library wants them, and the SD metric.
-#[derive(Debug)]
-pub struct ModeratorConfig {
-    pub specs: Vec<ModeratorSpec>,
-    pub spread_metric: Option<SpreadMetric>,
-}
-
-/// The new study's moderator values from `--at NAME=VALUE` options (names matched to the
-/// moderators ignoring case).
-pub fn at_values(
+/// The new study's moderator values from `--at NAME=VALUE`, named as the moderators are.
+fn at_values(
     specs: &[String],
-    moderators: &ModeratorConfig,
+    moderators: &ModeratorSettings,
 ) -> Result<BTreeMap<String, String>, Failure> {
-    let mut at = BTreeMap::new();
-    for spec in specs {
-        let (name, value) = spec
-            .split_once('=')
-            .ok_or_else(|| bad(format!("--at takes NAME=VALUE (got \"{spec}\")")))?;
-        let name = moderators
-            .specs
-            .iter()
-            .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
-            .map(|s| s.name.clone())
-            .unwrap_or_else(|| name.trim().to_string());
-        if at.insert(name.clone(), value.trim().to_string()).is_some() {
-            return Err(bad(format!("--at {name} is given twice")));
-        }
-    }
-    Ok(at)
-}
-
-impl ModeratorConfig {
-    pub fn from_args(a: ModeratorArgs) -> Result<Self, Failure> {
-        let mut specs: Vec<ModeratorSpec> = a
-            .moderators
-            .iter()
-            .map(|m| ModeratorSpec::auto(m.trim()))
-            .collect();
-        for c in &a.categorical {
-            let spec = specs
-                .iter_mut()
-                .find(|s| s.name.eq_ignore_ascii_case(c.trim()))
-                .ok_or_else(|| {
-                    bad(format!(
-                        "--categorical {c}: {c} is not given as --moderator"
-                    ))
-                })?;
-            spec.kind = ModeratorKind::Categorical;
-        }
-        for r in &a.references {
-            let (name, level) = r
-                .split_once('=')
-                .ok_or_else(|| bad(format!("--reference takes NAME=LEVEL (got \"{r}\")")))?;
-            let spec = specs
-                .iter_mut()
-                .find(|s| s.name.eq_ignore_ascii_case(name.trim()))
-                .ok_or_else(|| {
-                    bad(format!(
-                        "--reference {r}: {name} is not given as --moderator"
-                    ))
-                })?;
-            if spec.reference.is_some() {
-                return Err(bad(format!("--reference for {name} is given twice")));
-            }
-            spec.reference = Some(level.trim().to_string());
-        }
-        let spread_metric = a
-            .spread_metric
-            .as_deref()
-            .map(|m| m.parse::<SpreadMetric>())
-            .transpose()
-            .map_err(|e| bad(format!("--spread-metric: {e}")))?;
-        Ok(ModeratorConfig {
-            specs,
-            spread_metric,
+    Ok(pairs("--at", "NAME=VALUE", specs)?
+        .into_iter()
+        .map(|(name, value)| {
+            let name = moderators
+                .specs
+                .iter()
+                .find(|s| same_name(&s.name, &name))
+                .map(|s| s.name.clone())
+                .unwrap_or(name);
+            (name, value)
         })
-    }
-}
-
-/// `relyard pool`.
-#[derive(Debug)]
-pub struct PoolConfig {
-    pub sheet: SheetConfig,
-    pub benchmark: BenchmarkOptions,
-    pub measure: Option<String>,
-    pub show_studies: bool,
-    pub json: bool,
+        .collect())
 }
 
 fn measure_name(m: Option<String>) -> Option<String> {
     m.map(|m| m.trim().to_string()).filter(|m| !m.is_empty())
 }
 
-impl PoolConfig {
-    pub fn from_args(a: PoolArgs) -> Result<Self, Failure> {
-        let sheet = SheetConfig::from_args(a.sheet)?;
-        let benchmark = benchmark_options(a.model, sheet.skip_invalid)?;
-        Ok(PoolConfig {
-            sheet,
-            benchmark,
-            measure: measure_name(a.measure),
-            show_studies: a.studies,
-            json: a.json,
-        })
-    }
+/// A sheet-based run's settings: the sheet, the model and the level.
+fn base(sheet: SheetArgs, model: &ModelArgs) -> Result<Settings, Failure> {
+    Ok(Settings {
+        sheet: Some(sheet_settings(sheet)?),
+        model: model_settings(model)?,
+        level: level(model.level)?,
+        ..Settings::default()
+    })
+}
+
+/// `relyard pool`.
+pub fn pool(a: PoolArgs) -> Result<Settings, Failure> {
+    let mut s = base(a.sheet, &a.model)?;
+    s.benchmark = true;
+    s.measure = measure_name(a.measure);
+    Ok(s)
 }
 
 /// `relyard explain`.
-#[derive(Debug)]
-pub struct ExplainConfig {
-    pub sheet: SheetConfig,
-    pub benchmark: BenchmarkOptions,
-    pub moderators: ModeratorConfig,
-    pub score_spread: bool,
-    pub by: Option<String>,
-    pub influence: bool,
-    pub permutations: Option<usize>,
-    pub seed: u64,
-    pub json: bool,
-}
-
-impl ExplainConfig {
-    pub fn from_args(a: ExplainArgs) -> Result<Self, Failure> {
-        let sheet = SheetConfig::from_args(a.sheet)?;
-        let benchmark = benchmark_options(a.model, sheet.skip_invalid)?;
-        let moderators = ModeratorConfig::from_args(a.moderators)?;
-        if moderators.specs.is_empty() && !a.score_spread && a.by.is_none() && !a.influence {
-            return Err(bad(
-                "nothing to explain: give --moderator NAME, --score-spread, --by COLUMN or \
-                 --influence",
+pub fn explain(a: ExplainArgs) -> Result<Settings, Failure> {
+    let mut s = base(a.sheet, &a.model)?;
+    s.moderators = moderator_settings(a.moderators)?;
+    if s.moderators.specs.is_empty() && !a.score_spread && a.by.is_none() && !a.influence {
+        return Err(usage(
+            "nothing to explain: give --moderator NAME, --score-spread, --by COLUMN or \
+             --influence",
+        ));
+    }
+    if let Some(n) = a.permutations {
+        if s.moderators.specs.is_empty() {
+            return Err(usage(
+                "--permutations tests moderators; give at least one --moderator",
             ));
         }
-        if let Some(n) = a.permutations {
-            if moderators.specs.is_empty() {
-                return Err(bad(
-                    "--permutations tests moderators; give at least one --moderator",
-                ));
-            }
-            if n == 0 {
-                return Err(bad("--permutations must be at least 1"));
-            }
+        if n == 0 {
+            return Err(usage("--permutations must be at least 1"));
         }
-        if moderators.spread_metric.is_some() && !a.score_spread {
-            return Err(bad("--spread-metric applies to --score-spread"));
-        }
-        Ok(ExplainConfig {
-            sheet,
-            benchmark,
-            moderators,
-            score_spread: a.score_spread,
-            by: a.by.map(|b| b.trim().to_string()),
-            influence: a.influence,
-            permutations: a.permutations,
-            seed: a.seed,
-            json: a.json,
-        })
     }
+    if s.moderators.spread_metric.is_some() && !a.score_spread {
+        return Err(usage("--spread-metric applies to --score-spread"));
+    }
+    s.explain = Some(ExplainSettings {
+        score_spread: a.score_spread,
+        by: a.by.map(|b| b.trim().to_string()),
+        influence: a.influence,
+        permutations: a.permutations,
+    });
+    s.seed = a.seed;
+    Ok(s)
+}
+
+/// The new study from `--coef`, `--n` and what else is known of it.
+fn new_study(
+    coef: f64,
+    n: u64,
+    study: &StudyArgs,
+    moderators: &ModeratorSettings,
+) -> Result<NewStudySettings, Failure> {
+    if !coef.is_finite() {
+        return Err(usage("--coef must be a finite number"));
+    }
+    if let Some(sd) = study.sd
+        && !(sd.is_finite() && sd > 0.0)
+    {
+        return Err(usage(format!("--sd must be a number above 0 (got {sd})")));
+    }
+    if study.sd.is_none()
+        && (study.sd_metric.is_some() || study.scale_min.is_some() || study.scale_max.is_some())
+    {
+        return Err(usage(
+            "--sd-metric, --scale-min and --scale-max describe --sd; give --sd too",
+        ));
+    }
+    if let (Some(lo), Some(hi)) = (study.scale_min, study.scale_max)
+        && lo >= hi
+    {
+        return Err(usage("--scale-max must be above --scale-min"));
+    }
+    Ok(NewStudySettings {
+        study: NewStudy {
+            coef,
+            coef_type: study.coef_type.into(),
+            n,
+            items: study.items,
+            sd: study.sd,
+            sd_metric: study.sd_metric.map(SdMetric::from),
+            scale_min: study.scale_min,
+            scale_max: study.scale_max,
+        },
+        at: at_values(&study.at, moderators)?,
+    })
 }
 
 /// `relyard check`.
-#[derive(Debug)]
-pub struct CheckConfig {
-    pub sheet: SheetConfig,
-    pub benchmark: BenchmarkOptions,
-    pub moderators: ModeratorConfig,
-    pub study: NewStudy,
-    pub at: BTreeMap<String, String>,
-    pub measure: Option<String>,
-    pub json: bool,
+pub fn check(a: CheckArgs) -> Result<Settings, Failure> {
+    let mut s = base(a.sheet, &a.model)?;
+    s.moderators = moderator_settings(a.moderators)?;
+    s.new_study = Some(new_study(a.coef, a.n, &a.study, &s.moderators)?);
+    s.measure = measure_name(a.measure);
+    Ok(s)
 }
 
-impl CheckConfig {
-    pub fn from_args(a: CheckArgs) -> Result<Self, Failure> {
-        let sheet = SheetConfig::from_args(a.sheet)?;
-        let benchmark = benchmark_options(a.model, sheet.skip_invalid)?;
-        let moderators = ModeratorConfig::from_args(a.moderators)?;
-        if !a.coef.is_finite() {
-            return Err(bad("--coef must be a finite number"));
-        }
-        let coef_type = CoefType::parse_cell(&a.study.coef_type).ok_or_else(|| {
-            let names: Vec<&str> = CoefType::ALL.iter().map(|t| t.name()).collect();
-            bad(format!(
-                "--coef-type {}: unknown coefficient type (use one of: {})",
-                a.study.coef_type,
-                names.join(", ")
-            ))
-        })?;
-        let sd_metric = a
-            .study
-            .sd_metric
-            .as_deref()
-            .map(|m| {
-                SdMetric::parse_cell(m)
-                    .ok_or_else(|| bad(format!("--sd-metric {m}: use sum or mean")))
-            })
-            .transpose()?;
-        if let Some(sd) = a.study.sd
-            && !(sd.is_finite() && sd > 0.0)
-        {
-            return Err(bad(format!("--sd must be a number above 0 (got {sd})")));
-        }
-        if a.study.sd.is_none()
-            && (sd_metric.is_some() || a.study.scale_min.is_some() || a.study.scale_max.is_some())
-        {
-            return Err(bad(
-                "--sd-metric, --scale-min and --scale-max describe --sd; give --sd too",
-            ));
-        }
-        if let (Some(lo), Some(hi)) = (a.study.scale_min, a.study.scale_max)
-            && lo >= hi
-        {
-            return Err(bad("--scale-max must be above --scale-min"));
-        }
-        let at = at_values(&a.study.at, &moderators)?;
-        Ok(CheckConfig {
-            sheet,
-            benchmark,
-            moderators,
-            study: NewStudy {
-                coef: a.coef,
-                coef_type,
-                n: a.n,
-                items: a.study.items,
-                sd: a.study.sd,
-                sd_metric,
-                scale_min: a.study.scale_min,
-                scale_max: a.study.scale_max,
-            },
-            at,
-            measure: measure_name(a.measure),
-            json: a.json,
-        })
+/// A file argument, with `-` for standard input.
+fn input_path(p: PathBuf) -> PathBuf {
+    if p.as_os_str() == "-" {
+        PathBuf::from("/dev/stdin")
+    } else {
+        p
     }
 }
 
 /// `relyard items`.
-#[derive(Debug)]
-pub struct ItemsConfig {
-    pub path: PathBuf,
-    pub read: ItemReadOptions,
-    pub bootstrap: Option<usize>,
-    pub seed: u64,
-    pub level: f64,
-    pub json: bool,
-}
-
-impl ItemsConfig {
-    pub fn from_args(a: ItemsArgs) -> Result<Self, Failure> {
-        let delimiter = a
-            .delimiter
-            .as_deref()
-            .map(parse_delimiter)
-            .transpose()
-            .map_err(|e| bad(format!("--delimiter: {e}")))?;
-        let scale = match (a.scale_min, a.scale_max) {
-            (Some(lo), Some(hi)) if lo < hi => Some((lo, hi)),
-            (Some(_), Some(_)) => return Err(bad("--scale-max must be above --scale-min")),
-            (None, None) => None,
-            _ => return Err(bad("give both --scale-min and --scale-max, or neither")),
-        };
-        if !(a.level > 0.0 && a.level < 1.0) {
-            return Err(bad(format!(
-                "--level must lie strictly between 0 and 1 (got {})",
-                a.level
-            )));
-        }
-        if a.bootstrap.is_some_and(|b| b < 2) {
-            return Err(bad(
-                "--bootstrap needs at least 2 replicates (1,000 or more for an interval)",
-            ));
-        }
-        let items: Vec<String> = a
-            .items
-            .iter()
+pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
+    let scale = match (a.scale_min, a.scale_max) {
+        (Some(lo), Some(hi)) if lo < hi => Some((lo, hi)),
+        (Some(_), Some(_)) => return Err(usage("--scale-max must be above --scale-min")),
+        (None, None) => None,
+        _ => return Err(usage("give both --scale-min and --scale-max, or neither")),
+    };
+    if a.bootstrap.is_some_and(|b| b < 2) {
+        return Err(usage(
+            "--bootstrap needs at least 2 replicates (1,000 or more for an interval)",
+        ));
+    }
+    if let Some(c) = a.missing_codes.iter().find(|c| !c.is_finite()) {
+        return Err(usage(format!("--missing-code {c} is not a finite number")));
+    }
+    let names = |v: &[String]| -> Vec<String> {
+        v.iter()
             .map(|s| s.trim().to_string())
             .filter(|s| !s.is_empty())
-            .collect();
-        Ok(ItemsConfig {
-            path: a.data,
+            .collect()
+    };
+    let items = names(&a.items);
+    Ok(Settings {
+        items: Some(ItemSettings {
+            path: input_path(a.data),
             read: ItemReadOptions {
-                delimiter,
+                delimiter: a.delimiter.map(u8::from),
                 items: (!items.is_empty()).then_some(items),
-                reverse: a
-                    .reverse
-                    .iter()
-                    .map(|s| s.trim().to_string())
-                    .filter(|s| !s.is_empty())
-                    .collect(),
+                reverse: names(&a.reverse),
                 scale,
                 missing: if a.pairwise {
                     Missing::Pairwise
                 } else {
                     Missing::Listwise
                 },
-                keep_rows: a.bootstrap.is_some(),
+                missing_codes: a.missing_codes,
+                worksheet: a.worksheet,
+                ..ItemReadOptions::default()
             },
             bootstrap: a.bootstrap,
-            seed: a.seed,
-            level: a.level,
-            json: a.json,
-        })
+        }),
+        level: level(a.level)?,
+        seed: a.seed,
+        ..Settings::default()
+    })
+}
+
+/// Parse `ALPHA,N,ITEMS` or `LABEL=ALPHA,N,ITEMS`.
+fn parse_sample(spec: &str, index: usize) -> Result<AlphaSample, Failure> {
+    let (label, rest) = match spec.split_once('=') {
+        Some((l, r)) => (l.trim().to_string(), r),
+        None => (format!("sample {index}"), spec),
+    };
+    let parts: Vec<&str> = rest.split(',').map(str::trim).collect();
+    let bad = || {
+        usage(format!(
+            "--sample {spec}: write ALPHA,N,ITEMS, e.g. 0.81,120,10"
+        ))
+    };
+    if parts.len() != 3 {
+        return Err(bad());
     }
+    Ok(AlphaSample {
+        label,
+        alpha: parts[0].parse().map_err(|_| bad())?,
+        n: parts[1].parse().map_err(|_| bad())?,
+        items: parts[2].parse().map_err(|_| bad())?,
+    })
+}
+
+/// `relyard compare`.
+pub fn compare(a: CompareArgs) -> Result<Settings, Failure> {
+    let sheet = match a.sheet {
+        Some(path) => Some(sheet_settings(SheetArgs {
+            sheet: path,
+            columns: a.columns,
+            delimiter: None,
+            worksheet: a.worksheet,
+            skip_invalid: a.skip_invalid,
+            subset: a.subset,
+        })?),
+        None => {
+            if !a.columns.is_empty() || !a.subset.is_empty() || a.skip_invalid {
+                return Err(usage(
+                    "--column, --where and --skip-invalid describe a sheet; name the sheet",
+                ));
+            }
+            None
+        }
+    };
+    let mut samples = Vec::new();
+    for (i, spec) in a.samples.iter().enumerate() {
+        samples.push(parse_sample(spec, i + 1)?);
+    }
+    if sheet.is_none() && samples.len() < 2 {
+        return Err(usage(
+            "compare needs at least two samples (a sheet, or --sample ALPHA,N,ITEMS twice)",
+        ));
+    }
+    Ok(Settings {
+        sheet,
+        comparison: Some(ComparisonSettings { samples }),
+        ..Settings::default()
+    })
+}
+
+/// `relyard plan`.
+pub fn plan(a: PlanArgs) -> Result<Settings, Failure> {
+    let plan = match (a.width, a.null) {
+        (Some(width), None) => PlanSettings::Width {
+            items: a.items,
+            planning: a.planning,
+            width,
+        },
+        (None, Some(null)) => PlanSettings::Test {
+            items: a.items,
+            planning: a.planning,
+            null,
+            power: a.power,
+            significance: a.significance,
+            one_sided: a.one_sided,
+        },
+        _ => {
+            return Err(usage(
+                "say what to plan for: --width W (an interval of that width) or --null ALPHA (a \
+                 test against that value)",
+            ));
+        }
+    };
+    Ok(Settings {
+        plan: Some(plan),
+        level: level(a.level)?,
+        ..Settings::default()
+    })
+}
+
+/// A reliability from its command-line spec.
+fn reliability(option: &str, spec: &str) -> Result<ReliabilitySpec, Failure> {
+    ReliabilitySpec::parse(spec).map_err(|e| usage(format!("{option}: {e}")))
+}
+
+/// The draws of a correction: enough for percentile intervals.
+fn check_draws(draws: usize) -> Result<(), Failure> {
+    if draws < 100 {
+        return Err(usage(
+            "--draws needs at least 100 (percentile intervals from fewer are meaningless)",
+        ));
+    }
+    Ok(())
+}
+
+/// `relyard correct`.
+pub fn correct(a: CorrectArgs) -> Result<Settings, Failure> {
+    if a.grid < 2 {
+        return Err(usage("--grid needs at least 2 points"));
+    }
+    check_draws(a.draws)?;
+    let correction = match (a.r, &a.data, &a.summary) {
+        (Some(r), None, None) => correlation(&a, r)?,
+        (None, Some(_), None) | (None, None, Some(_)) => regression(&a)?,
+        (None, None, None) => {
+            return Err(usage(
+                "say what to correct: --r with --n, --rel-x and --rel-y (a correlation), or \
+                 --data / --summary with --outcome, --predictor and --rel (a regression)",
+            ));
+        }
+        _ => {
+            return Err(usage(
+                "--r corrects a correlation; --data and --summary a regression: give one",
+            ));
+        }
+    };
+    Ok(Settings {
+        correction: Some(correction),
+        level: level(a.level)?,
+        seed: a.seed,
+        ..Settings::default()
+    })
+}
+
+fn correlation(a: &CorrectArgs, r: f64) -> Result<CorrectionSettings, Failure> {
+    let n =
+        a.n.ok_or_else(|| usage("--r needs --n, the correlation's sample size"))?;
+    let (Some(rx), Some(ry)) = (&a.rel_x, &a.rel_y) else {
+        return Err(usage(
+            "--r needs --rel-x and --rel-y, the reliabilities of the two scores",
+        ));
+    };
+    if !a.predictors.is_empty() || a.outcome.is_some() || !a.rels.is_empty() {
+        return Err(usage(
+            "--predictor, --outcome and --rel belong to a regression (--data or --summary)",
+        ));
+    }
+    Ok(CorrectionSettings::Correlation {
+        r,
+        n,
+        rel_x: reliability("--rel-x", rx)?,
+        rel_y: reliability("--rel-y", ry)?,
+        draws: a.draws,
+        grid: a.grid,
+    })
+}
+
+fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
+    let outcome = a
+        .outcome
+        .clone()
+        .ok_or_else(|| usage("a regression needs --outcome"))?;
+    if a.predictors.is_empty() {
+        return Err(usage("a regression needs at least one --predictor"));
+    }
+    for (i, p) in a.predictors.iter().enumerate() {
+        if a.predictors[..i].contains(p) {
+            return Err(usage(format!("--predictor {p} is given twice")));
+        }
+    }
+    if a.predictors.contains(&outcome) {
+        return Err(usage(format!(
+            "{outcome} is both the outcome and a predictor"
+        )));
+    }
+    if a.rel_x.is_some() || a.rel_y.is_some() {
+        return Err(usage(
+            "--rel-x and --rel-y belong to a correlation; use --rel NAME=SPEC for a regression",
+        ));
+    }
+    let mut rels: BTreeMap<String, String> = BTreeMap::new();
+    for spec in &a.rels {
+        let (name, value) = spec
+            .split_once('=')
+            .ok_or_else(|| usage(format!("--rel takes NAME=SPEC (got \"{spec}\")")))?;
+        if rels
+            .insert(name.trim().to_string(), value.trim().to_string())
+            .is_some()
+        {
+            return Err(usage(format!("--rel {name} is given twice")));
+        }
+    }
+    let mut predictors = Vec::new();
+    for p in &a.predictors {
+        let spec = rels.remove(p).ok_or_else(|| {
+            usage(format!(
+                "--rel {p}=… is missing: give each predictor's reliability (1 for a predictor \
+                 measured without error)"
+            ))
+        })?;
+        predictors.push((p.clone(), reliability(&format!("--rel {p}"), &spec)?));
+    }
+    let outcome_reliability = match rels.remove(&outcome) {
+        Some(spec) => Some(reliability(&format!("--rel {outcome}"), &spec)?),
+        None => None,
+    };
+    if let Some(extra) = rels.keys().next() {
+        return Err(usage(format!(
+            "--rel {extra}=…: {extra} is neither a predictor nor the outcome"
+        )));
+    }
+    let data = match (&a.data, &a.summary) {
+        (Some(path), _) => {
+            if a.n.is_some() {
+                return Err(usage("--n comes from the data with --data; leave it out"));
+            }
+            RegressionData::Raw {
+                path: input_path(path.clone()),
+                read: ItemReadOptions {
+                    delimiter: a.delimiter.map(u8::from),
+                    missing_codes: a.missing_codes.clone(),
+                    worksheet: a.worksheet.clone(),
+                    ..ItemReadOptions::default()
+                },
+            }
+        }
+        (None, Some(path)) => {
+            let n =
+                a.n.ok_or_else(|| usage("--summary needs --n, the study's sample size"))?;
+            if n < 5 {
+                return Err(usage("--n must be at least 5"));
+            }
+            RegressionData::Summary {
+                path: path.clone(),
+                n,
+            }
+        }
+        (None, None) => unreachable!("checked by the caller"),
+    };
+    Ok(CorrectionSettings::Regression {
+        data,
+        outcome,
+        predictors,
+        outcome_reliability,
+        draws: a.draws,
+        grid: a.grid,
+    })
+}
+
+/// `relyard report`: every part the options ask for, in one run.
+pub fn report(a: ReportArgs) -> Result<Settings, Failure> {
+    if (a.r.is_some() || a.coef.is_some()) && a.n.is_none() {
+        return Err(usage(
+            "--coef and --r need --n, the new study's sample size",
+        ));
+    }
+    if a.r.is_some() && a.rel_y.is_none() {
+        return Err(usage(
+            "--r needs --rel-y, the reliability of the other score (e.g. 0.85, or \
+             0.85,n=200,items=6)",
+        ));
+    }
+    if a.rel_y.is_some() && a.r.is_none() {
+        return Err(usage("--rel-y belongs to a correction: give --r too"));
+    }
+    if a.coef.is_none() {
+        for (given, name) in [
+            (a.study.items.is_some(), "--items"),
+            (a.study.sd.is_some(), "--sd"),
+            (a.study.sd_metric.is_some(), "--sd-metric"),
+            (
+                a.study.scale_min.is_some() || a.study.scale_max.is_some(),
+                "--scale-min/--scale-max",
+            ),
+        ] {
+            if given {
+                return Err(usage(format!(
+                    "{name} describes the new study: give its --coef and --n too"
+                )));
+            }
+        }
+        if !a.study.at.is_empty() && a.r.is_none() {
+            return Err(usage(
+                "--at gives the new study's moderator values: give its --coef and --n, or --r",
+            ));
+        }
+    }
+    if a.r.is_some() {
+        check_draws(a.draws)?;
+    }
+    let mut s = base(a.sheet, &a.model)?;
+    s.benchmark = true;
+    s.figures = true;
+    s.seed = a.seed;
+    s.measure = measure_name(a.measure);
+    s.moderators = moderator_settings(a.moderators)?;
+    if s.moderators.spread_metric.is_some() && !a.score_spread {
+        return Err(usage("--spread-metric applies to --score-spread"));
+    }
+    if !s.moderators.specs.is_empty() || a.score_spread {
+        s.explain = Some(ExplainSettings {
+            score_spread: a.score_spread,
+            ..ExplainSettings::default()
+        });
+    }
+    let at = at_values(&a.study.at, &s.moderators)?;
+    if let (Some(coef), Some(n)) = (a.coef, a.n) {
+        s.new_study = Some(new_study(coef, n, &a.study, &s.moderators)?);
+    }
+    if let (Some(r), Some(n), Some(rel_y)) = (a.r, a.n, &a.rel_y) {
+        // The measure's reliability: the new study's own coefficient when given, else the
+        // benchmark of this report (same sheet, model and moderators, at --at).
+        let kind = Some(CoefType::from(a.study.coef_type));
+        let rel_x = match (a.coef, a.study.items) {
+            (Some(value), Some(items)) => ReliabilitySpec::Estimate {
+                value,
+                n,
+                items,
+                kind,
+            },
+            (Some(value), None) => ReliabilitySpec::Point { value, kind },
+            _ => ReliabilitySpec::ThisBenchmark { at },
+        };
+        if let ReliabilitySpec::Point { value, .. } | ReliabilitySpec::Estimate { value, .. } =
+            rel_x
+            && !(value > 0.0 && value <= 1.0)
+        {
+            return Err(usage(format!(
+                "--coef {value} cannot serve as the measure's reliability in the correction \
+                 (it must lie above 0 and at most 1)"
+            )));
+        }
+        s.correction = Some(CorrectionSettings::Correlation {
+            r,
+            n,
+            rel_x,
+            rel_y: reliability("--rel-y", rel_y)?,
+            draws: a.draws,
+            grid: 5,
+        });
+    }
+    Ok(s)
 }
 
 /// `relyard template`.
@@ -420,20 +752,20 @@ impl TemplateConfig {
         for e in &a.extra_columns {
             let name = e.trim();
             if name.is_empty() {
-                return Err(bad("--extra-column needs a name"));
+                return Err(usage("--extra-column needs a name"));
             }
             if name.contains([',', ';', '\t', '"', '\n']) {
-                return Err(bad(format!(
+                return Err(usage(format!(
                     "--extra-column \"{name}\": a column name cannot hold a delimiter or quote"
                 )));
             }
             if name.parse::<Role>().is_ok() {
-                return Err(bad(format!(
+                return Err(usage(format!(
                     "--extra-column \"{name}\" is already a standard column of the sheet"
                 )));
             }
-            if extra.iter().any(|x| x.eq_ignore_ascii_case(name)) {
-                return Err(bad(format!("--extra-column \"{name}\" is given twice")));
+            if extra.iter().any(|x| same_name(x, name)) {
+                return Err(usage(format!("--extra-column \"{name}\" is given twice")));
             }
             extra.push(name.to_string());
         }

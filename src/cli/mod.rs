@@ -1,5 +1,7 @@
-//! The command-line front end: raw clap arguments (`args`) are turned into a validated
-//! configuration (`config`) before any work runs; each command has its own module.
+//! The command-line face: raw clap arguments (`args`) are turned into the analysis's
+//! `Settings` (`config`) before any work runs, `relyard::analysis::run` does the work,
+//! and each command renders the `Analysis` (one file per command). Settings in messages
+//! are named as options (`names`).
 
 mod args;
 mod check;
@@ -8,12 +10,12 @@ mod config;
 mod correct;
 mod explain;
 mod items;
+mod names;
 mod output;
 mod plan;
 mod pool;
 mod progress;
 mod report;
-
 mod template;
 
 use clap::Parser;
@@ -41,27 +43,26 @@ pub fn run() -> i32 {
         }
     };
     let result = match cli.command {
-        args::Command::Pool(a) => config::PoolConfig::from_args(a).and_then(|c| pool::run(&c)),
-        args::Command::Explain(a) => {
-            config::ExplainConfig::from_args(a).and_then(|c| explain::run(&c))
-        }
-        args::Command::Check(a) => config::CheckConfig::from_args(a).and_then(|c| check::run(&c)),
-        args::Command::Items(a) => config::ItemsConfig::from_args(a).and_then(|c| items::run(&c)),
-        args::Command::Compare(a) => compare::run(a),
-        args::Command::Plan(a) => plan::run(a),
-        args::Command::Correct(a) => correct::run(a),
-        args::Command::Template(a) => {
-            config::TemplateConfig::from_args(a).and_then(|c| template::run(&c))
-        }
-        args::Command::Report(a) => report::run(a),
+        args::Command::Pool(a) => pool::run_pool(a),
+        args::Command::Explain(a) => explain::run_explain(a),
+        args::Command::Check(a) => check::run_check(a),
+        args::Command::Items(a) => items::run_items(a),
+        args::Command::Compare(a) => compare::run_compare(a),
+        args::Command::Plan(a) => plan::run_plan(a),
+        args::Command::Correct(a) => correct::run_correct(a),
+        args::Command::Template(a) => template::run_template(a),
+        args::Command::Report(a) => report::run_report(a),
     };
+    let stderr = std::io::stderr();
+    let mut h = stderr.lock();
     match result {
-        Ok(()) => EXIT_OK,
-        Err(output::Failure::ClosedPipe) => EXIT_OK,
+        Ok(()) | Err(output::Failure::ClosedPipe) => EXIT_OK,
+        Err(output::Failure::Usage(u)) => {
+            let _ = writeln!(h, "relyard: error: {u}");
+            EXIT_BAD_INPUT
+        }
         Err(output::Failure::Lib(e)) => {
-            let stderr = std::io::stderr();
-            let mut h = stderr.lock();
-            let _ = writeln!(h, "relyard: error: {e}");
+            let _ = writeln!(h, "relyard: error: {}", e.render(&names::OptionNames));
             if e.is_bad_input() {
                 EXIT_BAD_INPUT
             } else {

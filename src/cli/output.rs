@@ -1,15 +1,30 @@
-//! Writing results: stdout with a closed pipe treated as success, stderr for
-//! warnings, and files written atomically without overwriting unless forced.
+//! Writing results: stdout with a closed pipe treated as success, stderr for warnings,
+//! and files written atomically without overwriting unless forced.
 
+use super::names::OptionNames;
 use relyard::{Error, Warning};
+use std::fmt;
 use std::io::{self, Write};
 use std::path::Path;
+
+/// A problem with the command line itself (an option missing, two that contradict each
+/// other), found before the analysis runs.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct UsageError(pub String);
+
+impl fmt::Display for UsageError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.0)
+    }
+}
 
 /// Why a command stopped early.
 #[derive(Debug)]
 pub enum Failure {
     /// A library error (the message is printed, the status follows its kind).
     Lib(Error),
+    /// The command line is wrong (status 2).
+    Usage(UsageError),
     /// The reader of stdout went away; not an error.
     ClosedPipe,
 }
@@ -35,12 +50,12 @@ pub fn print(text: &str) -> Result<(), Failure> {
         })
 }
 
-/// Write a JSON document to stdout in relyard's layout (see `relyard::report::layout`),
+/// Write a JSON document to stdout in relyard's layout (see `relyard::output::layout`),
 /// streamed through a buffer rather than built in memory first.
 pub fn print_json<T: serde::Serialize + ?Sized>(doc: &T) -> Result<(), Failure> {
     let stdout = io::stdout();
     let w = io::BufWriter::with_capacity(1 << 16, stdout.lock());
-    relyard::report::layout::write_json(w, doc).map_err(|e| {
+    relyard::output::layout::write_json(w, doc).map_err(|e| {
         if e.kind() == io::ErrorKind::BrokenPipe {
             Failure::ClosedPipe
         } else {
@@ -49,12 +64,17 @@ pub fn print_json<T: serde::Serialize + ?Sized>(doc: &T) -> Result<(), Failure> 
     })
 }
 
-/// Print warnings to stderr, one per line.
+/// Print warnings to stderr, one per line, each once.
 pub fn warn_all(warnings: &[Warning]) {
     let stderr = io::stderr();
     let mut h = stderr.lock();
+    let mut seen: Vec<&Warning> = Vec::new();
     for w in warnings {
-        let _ = writeln!(h, "relyard: warning: {w}");
+        if seen.contains(&w) {
+            continue;
+        }
+        seen.push(w);
+        let _ = writeln!(h, "relyard: warning: {}", w.message().render(&OptionNames));
     }
 }
 
@@ -68,7 +88,7 @@ pub fn write_new_file(path: &Path, contents: &str, force: bool) -> Result<(), Fa
 pub fn write_new_bytes(path: &Path, contents: &[u8], force: bool) -> Result<(), Failure> {
     let shown = path.display().to_string();
     if path.exists() && !force {
-        return Err(Failure::Lib(Error::InvalidOption(format!(
+        return Err(Failure::Usage(UsageError(format!(
             "{shown} already exists; choose another name or pass --force to replace it"
         ))));
     }

@@ -1,14 +1,16 @@
 //! `relyard template`: an empty coding sheet and its data dictionary.
 
+use super::args::TemplateArgs;
 use super::config::TemplateConfig;
-use super::output::{Failure, print, write_new_file};
+use super::output::{Failure, UsageError, print, write_new_file};
 use relyard::sheet::template::{dictionary, empty_sheet};
 
-pub fn run(c: &TemplateConfig) -> Result<(), Failure> {
+pub fn run_template(a: TemplateArgs) -> Result<(), Failure> {
+    let c = TemplateConfig::from_args(a)?;
     // Check both targets before writing either, so a refusal leaves nothing half done.
     for p in [&c.sheet_path, &c.dictionary_path] {
         if p.exists() && !c.force {
-            return Err(Failure::Lib(relyard::Error::InvalidOption(format!(
+            return Err(Failure::Usage(UsageError(format!(
                 "{} already exists; choose another name or pass --force to replace it",
                 p.display()
             ))));

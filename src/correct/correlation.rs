@@ -4,7 +4,10 @@ use super::reliability::ReliabilitySource;
 use super::{parallel_fill, percentile_interval, sensitivity_grid};
 use crate::dist::normal_quantile;
 use crate::error::{Error, Result};
+use crate::level::Level;
+use crate::msg;
 use crate::random::draw;
+use crate::setting::Setting;
 use rayon::prelude::*;
 
 /// tanh z as 1 − 2/(e^{2z} + 1): one exponential, about twice as fast as the library
@@ -90,27 +93,32 @@ pub fn correct_correlation(
     input: &CorrelationInput,
     draws: usize,
     seed: u64,
-    level: f64,
+    level: Level,
     grid_points: usize,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<CorrelationCorrection> {
-    crate::pool::check_level(level)?;
     if !(input.r.is_finite() && input.r > -1.0 && input.r < 1.0) {
-        return Err(Error::InvalidOption(format!(
-            "--r must lie strictly between −1 and 1 (got {})",
-            input.r
-        )));
+        return Err(Error::setting(
+            Setting::Correlation,
+            msg![
+                Setting::Correlation,
+                format!(" must lie strictly between −1 and 1 (got {})", input.r)
+            ],
+        ));
     }
     if input.n < 4 {
-        return Err(Error::InvalidOption(format!(
-            "--n must be at least 4 (got {})",
-            input.n
-        )));
+        return Err(Error::setting(
+            Setting::CorrectionN,
+            msg![
+                Setting::CorrectionN,
+                format!(" must be at least 4 (got {})", input.n)
+            ],
+        ));
     }
     let (rx, ry) = (input.rel_x.point(), input.rel_y.point());
     let attenuation = (rx * ry).sqrt();
     let corrected_value = input.r / attenuation;
-    let z = normal_quantile(1.0 - (1.0 - level) / 2.0);
+    let z = normal_quantile(level.upper());
     let se = 1.0 / (input.n as f64 - 3.0).sqrt();
     let zr = input.r.atanh();
     let (lo, hi) = (
@@ -154,8 +162,8 @@ pub fn correct_correlation(
     let inadmissible = below + above;
     // Draws beyond a bound sit at the bound; when more than the tail share of draws is
     // there, that end of the interval is the bound itself.
-    let tail = (1.0 - level) / 2.0 * draws as f64;
-    let mc_ci = percentile_interval(&mut values, level);
+    let tail = level.tail() * draws as f64;
+    let mc_ci = percentile_interval(&mut values, level.value());
     let mc_bound = (below as f64 > tail, above as f64 > tail);
 
     let mut sensitivity = Vec::new();

@@ -9,6 +9,7 @@ pub mod summary;
 
 pub use reliability::{ReliabilitySource, ReliabilitySpec, resolve};
 
+use crate::level::Level;
 use rayon::prelude::*;
 
 pub(crate) use crate::numeric::percentile_interval;
@@ -77,7 +78,7 @@ pub(crate) fn grid(lo: f64, hi: f64, points: usize) -> Vec<f64> {
 
 /// The grid of a reliability's values for a sensitivity table: over its range, with its
 /// own value included; a value of 1 (no measurement error) stays fixed.
-pub fn sensitivity_grid(r: &ReliabilitySource, level: f64, points: usize) -> Vec<f64> {
+pub fn sensitivity_grid(r: &ReliabilitySource, level: Level, points: usize) -> Vec<f64> {
     let v = r.point();
     if matches!(r, ReliabilitySource::Point { .. }) && v >= 1.0 {
         return vec![1.0];
@@ -94,7 +95,7 @@ pub fn sensitivity_grid(r: &ReliabilitySource, level: f64, points: usize) -> Vec
 /// The range a sensitivity grid spans for a reliability: its interval at `level` when it
 /// has one (the benchmark's prediction interval, an estimate's interval), else the value
 /// ± 0.10, within 0.05 to 0.99.
-pub fn sensitivity_range(r: &ReliabilitySource, level: f64) -> (f64, f64) {
+pub fn sensitivity_range(r: &ReliabilitySource, level: Level) -> (f64, f64) {
     let (lo, hi) = r
         .interval(level)
         .unwrap_or_else(|| (r.point() - 0.10, r.point() + 0.10));

@@ -5,6 +5,7 @@ use super::reliability::ReliabilitySource;
 use super::{parallel_draws, percentile_interval, sensitivity_grid};
 use crate::error::{Error, Result};
 use crate::items::moments::Listwise;
+use crate::level::Level;
 use crate::random::draw;
 use nalgebra::{DMatrix, DVector};
 use rand::RngExt;
@@ -67,7 +68,7 @@ pub fn eiv(cov: &DMatrix<f64>, rel: &[f64], rel_y: f64) -> Result<Estimate> {
     let sxy = DVector::from_iterator(p, (0..p).map(|i| cov[(i, p)]));
     let syy = cov[(p, p)];
     let chol = sxx.clone().cholesky().ok_or_else(|| {
-        Error::CannotAnalyse("the predictors' covariance matrix is singular (a predictor is constant or a combination of others)".into())
+        Error::cannot("the predictors' covariance matrix is singular (a predictor is constant or a combination of others)")
     })?;
     let b_ols = chol.solve(&sxy);
     let r2_observed = sxy.dot(&b_ols) / syy;
@@ -96,7 +97,7 @@ pub fn eiv(cov: &DMatrix<f64>, rel: &[f64], rel_y: f64) -> Result<Estimate> {
                 if r2 > 1.0 + 1e-12 {
                     Err(format!(
                         "the corrected R² would be {} (above 1)",
-                        crate::report::format::fixed(r2, 3)
+                        crate::format::fixed(r2, 3)
                     ))
                 } else if standardized.iter().any(|s| s.abs() > 1.0 + 1e-12) && p == 1 {
                     Err("the corrected correlation would exceed 1".to_string())
@@ -156,14 +157,46 @@ pub struct RegressionCorrection {
     pub sensitivity: Vec<Vec<(f64, Option<Vec<f64>>)>>,
 }
 
-fn spread(values: &mut [f64], level: f64) -> Option<Spread> {
+fn spread(values: &mut [f64], level: Level) -> Option<Spread> {
     if values.len() < 2 {
         return None;
     }
     let n = values.len() as f64;
     let mean = values.iter().sum::<f64>() / n;
     let se = (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
-    percentile_interval(values, level).map(|ci| Spread { se, ci })
+    percentile_interval(values, level.value()).map(|ci| Spread { se, ci })
+}
+
+/// The exact t intervals of the OLS slopes from a covariance (or correlation) matrix of
+/// n respondents: bⱼ ± t(n − p − 1)·SEⱼ, SE² the diagonal of s²(S_xx(n − 1))⁻¹ with the
+/// residual variance s² = (S_yy − bᵀS_xy)(n − 1)/(n − p − 1).
+///
+/// # References
+/// Draper, N. R., & Smith, H. (1998). *Applied regression analysis* (3rd ed.). New York:
+/// Wiley (chapter 5).
+fn ols_t_intervals(cov: &DMatrix<f64>, n: u64, level: Level) -> Vec<Option<Spread>> {
+    let m = cov.nrows();
+    let p = m - 1;
+    let sxx = cov.view((0, 0), (p, p)).into_owned();
+    let sxy = cov.view((0, p), (p, 1)).into_owned();
+    let syy = cov[(p, p)];
+    let (Some(inv), true) = (sxx.clone().try_inverse(), n as usize > p + 1) else {
+        return vec![None; p];
+    };
+    let b = &inv * &sxy;
+    let nf = n as f64;
+    let df = nf - p as f64 - 1.0;
+    let s2 = ((syy - (b.transpose() * &sxy)[(0, 0)]) * (nf - 1.0) / df).max(0.0);
+    let t = crate::dist::t_quantile(level.upper(), df);
+    (0..p)
+        .map(|j| {
+            let se = (s2 * inv[(j, j)] / (nf - 1.0)).sqrt();
+            se.is_finite().then(|| Spread {
+                se,
+                ci: (b[j] - t * se, b[j] + t * se),
+            })
+        })
+        .collect()
 }
 
 /// Correct a regression, with intervals from `draws` bootstrap samples (raw data) or Monte
@@ -172,11 +205,10 @@ pub fn correct_regression(
     input: &RegressionInput,
     draws: usize,
     seed: u64,
-    level: f64,
+    level: Level,
     grid_points: usize,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<RegressionCorrection> {
-    crate::pool::check_level(level)?;
     let p = input.predictors.len();
     let rel_point: Vec<f64> = input.rel.iter().map(ReliabilitySource::point).collect();
     let rel_y_point = input
@@ -259,7 +291,7 @@ pub fn correct_regression(
     // Intervals for the correction only when the point correction is possible and no more
     // than the tail share of draws was impossible (else the interval's ends are not
     // determined by the admissible draws).
-    let tail = (1.0 - level) / 2.0;
+    let tail = level.tail();
     let share = if draws > 0 {
         inadmissible as f64 / draws as f64
     } else {
@@ -272,7 +304,13 @@ pub fn correct_regression(
             .collect()
     };
     Ok(RegressionCorrection {
-        ols_spread: ols.iter_mut().map(|v| spread(v, level)).collect(),
+        // From a summary the OLS slopes have their exact t intervals; from raw data they
+        // are bootstrapped like the corrected ones.
+        ols_spread: if input.rows.is_some() {
+            ols.iter_mut().map(|v| spread(v, level)).collect()
+        } else {
+            ols_t_intervals(&input.cov, input.n, level)
+        },
         corrected_spread: spreads(&mut corr),
         corrected_standardized_spread: spreads(&mut corr_std),
         r2_spread: if determined {

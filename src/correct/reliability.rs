@@ -4,16 +4,19 @@
 use crate::benchmark::{BenchmarkOptions, Prepared, prepare};
 use crate::dist::t_quantile;
 use crate::error::{Error, Result};
-use crate::metareg::{ModeratorSpec, build_design};
-use crate::pool::{FitOptions, MetaData, fit_model};
+use crate::level::Level;
+use crate::metareg::{Centring, FitAt, ModeratorSpec, fit_at};
+use crate::msg;
+use crate::pool::{FitOptions, Predictive};
 use crate::random::draw;
-use crate::sheet::{SheetOptions, read_coding_sheet};
+use crate::setting::{Setting, given};
+use crate::sheet::{CoefType, SheetOptions, read_coding_sheet};
 use crate::transform::{TransformKind, Transformed};
 use rand::Rng;
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
-/// How a reliability was given on the command line.
+/// How a reliability was given.
 #[derive(Debug, Clone, PartialEq)]
 pub enum ReliabilitySpec {
     /// A fixed value.
@@ -21,7 +24,7 @@ pub enum ReliabilitySpec {
         /// The value.
         value: f64,
         /// Its kind, when stated (e.g. alpha).
-        kind: Option<String>,
+        kind: Option<CoefType>,
     },
     /// An estimate from n respondents and k items (sampling distribution on the Bonett scale).
     Estimate {
@@ -32,25 +35,31 @@ pub enum ReliabilitySpec {
         /// Items.
         items: u32,
         /// Its kind, when stated.
-        kind: Option<String>,
+        kind: Option<CoefType>,
     },
-    /// A benchmark from a coding sheet, optionally at moderator values.
+    /// A benchmark from another coding sheet, optionally at moderator values.
     Benchmark {
         /// The sheet.
         path: PathBuf,
         /// Moderator values (`NAME` → `VALUE`).
         at: BTreeMap<String, String>,
     },
+    /// The run's own benchmark (its sheet, model and moderators), at moderator values.
+    ThisBenchmark {
+        /// Moderator values (`NAME` → `VALUE`).
+        at: BTreeMap<String, String>,
+    },
 }
 
 impl ReliabilitySpec {
-    /// Parse `0.78`, `0.78,n=180,items=10`, `0.78,kind=alpha`, or `sheet=PATH[,at=NAME:VALUE…]`.
+    /// Parse `0.78`, `0.78,n=180,items=10`, `0.78,kind=alpha`, or
+    /// `sheet=PATH[,at=NAME=VALUE…]` (`at=NAME:VALUE` is read too).
     pub fn parse(spec: &str) -> std::result::Result<Self, String> {
         let parts: Vec<&str> = spec.split(',').map(str::trim).collect();
         let usage = || {
             format!(
                 "\"{spec}\" is not a reliability: write a value (0.78), an estimate with its sample \
-                 (0.78,n=180,items=10), or a benchmark (sheet=PATH, optionally ,at=NAME:VALUE)"
+                 (0.78,n=180,items=10), or a benchmark (sheet=PATH, optionally ,at=NAME=VALUE)"
             )
         };
         if let Some(path) = parts[0].strip_prefix("sheet=") {
@@ -58,9 +67,14 @@ impl ReliabilitySpec {
             for p in &parts[1..] {
                 let (name, value) = p
                     .strip_prefix("at=")
-                    .and_then(|r| r.split_once(':'))
+                    .and_then(|r| r.split_once('=').or_else(|| r.split_once(':')))
                     .ok_or_else(usage)?;
-                at.insert(name.trim().to_string(), value.trim().to_string());
+                if at
+                    .insert(name.trim().to_string(), value.trim().to_string())
+                    .is_some()
+                {
+                    return Err(format!("at={}: the moderator is given twice", name.trim()));
+                }
             }
             return Ok(ReliabilitySpec::Benchmark {
                 path: PathBuf::from(path),
@@ -75,14 +89,15 @@ impl ReliabilitySpec {
                 "n" => n = Some(v.trim().parse::<u64>().map_err(|_| usage())?),
                 "items" | "k" => items = Some(v.trim().parse::<u32>().map_err(|_| usage())?),
                 "kind" => {
-                    let t = crate::sheet::CoefType::parse_cell(v).ok_or_else(|| {
+                    let t = CoefType::parse_cell(v).ok_or_else(|| {
+                        let names: Vec<&str> = CoefType::ALL.iter().map(|t| t.name()).collect();
                         format!(
-                            "kind={}: not a coefficient type (alpha, alpha_std, kr20, omega, \
-                             retest, interrater, split_half)",
-                            v.trim()
+                            "kind={}: not a coefficient type ({})",
+                            v.trim(),
+                            names.join(", ")
                         )
                     })?;
-                    kind = Some(t.name().to_string());
+                    kind = Some(t);
                 }
                 _ => return Err(usage()),
             }
@@ -118,7 +133,7 @@ pub enum ReliabilitySource {
         /// Value.
         value: f64,
         /// Kind, when stated.
-        kind: Option<String>,
+        kind: Option<CoefType>,
     },
     /// ln(1 − ρ) ~ N(ln(1 − ρ̂), 2k/((k − 1)(n − 2))) (Bonett 2002).
     Estimate {
@@ -129,7 +144,7 @@ pub enum ReliabilitySource {
         /// Items.
         items: u32,
         /// Kind, when stated.
-        kind: Option<String>,
+        kind: Option<CoefType>,
     },
     /// The predictive distribution of the true coefficient in a new setting: on the
     /// benchmark's scale, mean + scale × t(df).
@@ -239,15 +254,14 @@ impl ReliabilitySource {
     }
 
     /// The central interval of the distribution at `level` (a point has none).
-    pub fn interval(&self, level: f64) -> Option<(f64, f64)> {
-        let a = 1.0 - level;
+    pub fn interval(&self, level: Level) -> Option<(f64, f64)> {
         match self {
             ReliabilitySource::Point { .. } => None,
             ReliabilitySource::Estimate {
                 value, n, items, ..
             } => {
                 let (t, sd) = bonett_centre(*value, *n, *items);
-                let z = crate::dist::normal_quantile(1.0 - a / 2.0);
+                let z = crate::dist::normal_quantile(level.upper());
                 Some(ordered(-(t + z * sd).exp_m1(), -(t - z * sd).exp_m1()))
             }
             ReliabilitySource::Benchmark {
@@ -257,7 +271,7 @@ impl ReliabilitySource {
                 df,
                 ..
             } => {
-                let q = t_quantile(1.0 - a / 2.0, *df);
+                let q = t_quantile(level.upper(), *df);
                 Some(ordered(
                     back(*transform, mean - q * scale),
                     back(*transform, mean + q * scale),
@@ -272,7 +286,7 @@ impl ReliabilitySource {
     pub fn lower_bound_share(&self) -> Option<f64> {
         let share = match self {
             ReliabilitySource::Point { kind, .. } | ReliabilitySource::Estimate { kind, .. } => {
-                if kind.as_deref().is_some_and(is_lower_bound_kind) {
+                if kind.is_some_and(CoefType::is_lower_bound) {
                     1.0
                 } else {
                     0.0
@@ -287,13 +301,23 @@ impl ReliabilitySource {
 
     /// A description for reports.
     pub fn describe(&self) -> String {
-        let f3 = |x: f64| crate::report::format::fixed(x, 3);
+        let f3 = |x: f64| crate::format::fixed(x, 3);
+        let kind = |k: &Option<CoefType>| k.map(|k| format!(", {}", k.name())).unwrap_or_default();
         match self {
-            ReliabilitySource::Point { value, .. } => format!("{} (fixed)", f3(*value)),
+            ReliabilitySource::Point { value, kind: k } => {
+                format!("{} (fixed{})", f3(*value), kind(k))
+            }
             ReliabilitySource::Estimate {
-                value, n, items, ..
+                value,
+                n,
+                items,
+                kind: k,
             } => {
-                format!("{} (estimate from n = {n}, {items} items)", f3(*value))
+                format!(
+                    "{} (estimate from n = {n}, {items} items{})",
+                    f3(*value),
+                    kind(k)
+                )
             }
             ReliabilitySource::Benchmark { label, k, .. } => {
                 format!("{} (benchmark of {k} studies, {label})", f3(self.point()))
@@ -312,11 +336,6 @@ fn bonett_centre(value: f64, n: u64, items: u32) -> (f64, f64) {
     )
 }
 
-/// Coefficients that are lower bounds to reliability unless the items are tau-equivalent.
-fn is_lower_bound_kind(kind: &str) -> bool {
-    matches!(kind, "alpha" | "alpha_std" | "kr20" | "split_half")
-}
-
 fn ordered(a: f64, b: f64) -> (f64, f64) {
     if a <= b { (a, b) } else { (b, a) }
 }
@@ -330,12 +349,18 @@ fn back(t: TransformKind, x: f64) -> f64 {
 }
 
 /// Resolve a spec, reading and pooling a benchmark sheet when one is named. Benchmarks use
-/// the transform appropriate to their coefficients and the given fit options.
-pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<ReliabilitySource> {
+/// the transform appropriate to their coefficients and the given fit options; `setting`
+/// names where the spec came from in messages. The run's own benchmark is resolved by the
+/// analysis, which holds its sheet ([`benchmark_source`]).
+pub fn resolve(
+    spec: &ReliabilitySpec,
+    options: &FitOptions,
+    setting: Setting,
+) -> Result<ReliabilitySource> {
     match spec {
         ReliabilitySpec::Point { value, kind } => Ok(ReliabilitySource::Point {
             value: *value,
-            kind: kind.clone(),
+            kind: *kind,
         }),
         ReliabilitySpec::Estimate {
             value,
@@ -346,7 +371,7 @@ pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<Reliabili
             value: *value,
             n: *n,
             items: *items,
-            kind: kind.clone(),
+            kind: *kind,
         }),
         ReliabilitySpec::Benchmark { path, at } => {
             let sheet = read_coding_sheet(path, &SheetOptions::default())?;
@@ -355,14 +380,38 @@ pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<Reliabili
             bopts.pool.ci = options.ci;
             bopts.pool.level = options.level;
             let p = prepare(sheet, &bopts)?;
-            if p.transform == TransformKind::None {
-                return Err(Error::InvalidOption(
-                    "a reliability benchmark needs coefficients, not effects".into(),
-                ));
-            }
-            benchmark_source(&p, at, options, &path.display().to_string())
+            let specs: Vec<ModeratorSpec> = at.keys().map(ModeratorSpec::auto).collect();
+            let source = BenchmarkAt {
+                moderators: &specs,
+                at,
+                centring: Centring::Means,
+                setting,
+            };
+            benchmark_source(&p, &source, options, &path.display().to_string())
         }
+        ReliabilitySpec::ThisBenchmark { .. } => Err(Error::setting(
+            setting,
+            msg![
+                setting,
+                ": the run's own benchmark needs the run's coding sheet; name a sheet (",
+                given(setting, "sheet=PATH"),
+                ")"
+            ],
+        )),
     }
+}
+
+/// Where on a benchmark a reliability is read: its moderators and the values of them.
+#[derive(Debug, Clone, Copy)]
+pub struct BenchmarkAt<'a> {
+    /// The benchmark's moderators (none: the pooled benchmark).
+    pub moderators: &'a [ModeratorSpec],
+    /// The moderator values.
+    pub at: &'a BTreeMap<String, String>,
+    /// Where numeric moderators are measured from.
+    pub centring: Centring,
+    /// The setting the values came from, for messages.
+    pub setting: Setting,
 }
 
 /// The predictive distribution of the true coefficient in a new setting, from studies
@@ -370,40 +419,50 @@ pub fn resolve(spec: &ReliabilitySpec, options: &FitOptions) -> Result<Reliabili
 /// moderator values (none: the pooled benchmark). `label` names the sheet in messages.
 pub fn benchmark_source(
     p: &Prepared,
-    at: &BTreeMap<String, String>,
+    place: &BenchmarkAt,
     options: &FitOptions,
     label: &str,
 ) -> Result<ReliabilitySource> {
     if p.transform == TransformKind::None {
-        return Err(Error::InvalidOption(
-            "a reliability benchmark needs coefficients, not effects".into(),
+        return Err(Error::setting(
+            place.setting,
+            msg![
+                place.setting,
+                ": a reliability benchmark needs coefficients, not effects (",
+                given(Setting::Transform, "none"),
+                ")"
+            ],
         ));
     }
     let options = FitOptions {
         tau2_interval: false,
         ..*options
     };
-    let specs: Vec<ModeratorSpec> = at.keys().map(ModeratorSpec::auto).collect();
-    let (fit, x0) = if specs.is_empty() {
-        let d = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
-        (fit_model(&d, &options)?, vec![1.0])
-    } else {
-        let design = build_design(p, &specs)?;
-        let x0 = design.row_for(at, p.delimiter != b',')?;
-        let (y, v) = design.effects(&p.y, &p.v);
-        (
-            fit_model(&MetaData::with_design(y, v, design.x.clone())?, &options)?,
-            x0,
-        )
-    };
-    if fit.k < fit.p + 2 {
-        return Err(Error::CannotAnalyse(format!(
-            "{label}: {} studies leave no degrees of freedom for a predictive distribution",
-            fit.k
-        )));
-    }
+    let FitAt { fit, x0, .. } = fit_at(
+        p,
+        place.moderators,
+        place.at,
+        place.centring,
+        &options,
+        place.setting,
+    )?;
     let (mean, var) = fit.predict(&x0);
-    let at_text: Vec<String> = at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+    // Under the common-effect model the distribution is that of the one true value.
+    let predictive = match Predictive::new_setting(&fit, &x0) {
+        Some(d) => d,
+        None if matches!(options.model, crate::pool::Model::Common) => {
+            match crate::pool::prediction_df(fit.k, fit.p) {
+                Some(df) => Predictive {
+                    centre: mean,
+                    scale: var.sqrt(),
+                    df,
+                },
+                None => return Err(no_df(label, fit.k)),
+            }
+        }
+        None => return Err(no_df(label, fit.k)),
+    };
+    let at_text: Vec<String> = place.at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
     let label = if at_text.is_empty() {
         label.to_string()
     } else {
@@ -412,18 +471,24 @@ pub fn benchmark_source(
     let lower = p
         .records
         .iter()
-        .filter(|r| is_lower_bound_kind(r.coef_type.name()))
+        .filter(|r| r.coef_type.is_lower_bound())
         .count();
     let lower_bound_share = lower as f64 / p.records.len().max(1) as f64;
     Ok(ReliabilitySource::Benchmark {
         label,
         transform: p.transform,
-        mean,
-        scale: (fit.tau2.tau2 + var).sqrt(),
-        df: (fit.k - fit.p - 1) as f64,
+        mean: predictive.centre,
+        scale: predictive.scale,
+        df: predictive.df,
         k: fit.k,
         lower_bound_share,
     })
+}
+
+fn no_df(label: &str, k: usize) -> Error {
+    Error::cannot(format!(
+        "{label}: {k} studies leave no degrees of freedom for a predictive distribution"
+    ))
 }
 
 #[cfg(test)]
@@ -479,7 +544,7 @@ mod tests {
         sorted.sort_by(|a, b| a.total_cmp(b));
         let median = sorted[10_000];
         assert!((median - 0.8).abs() < 0.003, "{median}");
-        let (lo, hi) = s.interval(0.95).unwrap();
+        let (lo, hi) = s.interval(Level::NINETY_FIVE).unwrap();
         let inside = draws.iter().filter(|d| lo <= **d && **d <= hi).count() as f64 / 20_000.0;
         assert!((inside - 0.95).abs() < 0.01, "{inside}");
     }

@@ -2,6 +2,7 @@
 //! correlation matrix with optional SDs, read from a small CSV.
 
 use crate::error::{CellProblem, Error, Result};
+use crate::setting::Setting;
 use crate::sheet::parse_number;
 use nalgebra::DMatrix;
 use std::path::Path;
@@ -24,12 +25,14 @@ pub struct Summary {
 pub fn read_summary(path: &Path) -> Result<Summary> {
     let file = path.display().to_string();
     let bytes = std::fs::read(path).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => Error::InvalidOption(format!("{file}: no such file")),
+        std::io::ErrorKind::NotFound => {
+            Error::setting(Setting::Summary, format!("{file}: no such file"))
+        }
         _ => Error::io(format!("reading {file}"), e),
     })?;
     let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
     let delimiter = crate::sheet::detect_delimiter(body);
-    let decimal_comma = delimiter != b',';
+    let decimal_comma = crate::sheet::SheetFormat::Delimited(delimiter).decimal_comma();
     let mut reader = csv::ReaderBuilder::new()
         .delimiter(delimiter)
         .flexible(true)
@@ -244,7 +247,7 @@ pub fn read_summary(path: &Path) -> Result<Summary> {
         m
     };
     if cov.clone().cholesky().is_none() {
-        return Err(Error::CannotAnalyse(format!(
+        return Err(Error::cannot(format!(
             "{file}: the matrix is not positive definite, so it cannot be a covariance or \
              correlation matrix of these variables; check it"
         )));

@@ -2,6 +2,7 @@
 //! alpha, Guttman's λ2, item statistics, and the Feldt and Bonett intervals.
 
 use crate::dist::{f_quantile, normal_quantile};
+use crate::level::Level;
 use nalgebra::DMatrix;
 
 /// Coefficient alpha: k/(k − 1) · (1 − Σσᵢ² / σ²_X), σ²_X the sum of all covariances.
@@ -84,12 +85,11 @@ pub fn item_statistics(mean: &[f64], cov: &DMatrix<f64>) -> Vec<ItemStatistic> {
 /// # References
 /// Feldt, L. S., Woodruff, D. J., & Salih, F. A. (1987). Statistical inference for
 /// coefficient alpha. *Applied Psychological Measurement*, 11(1), 93–103.
-pub fn feldt_interval(alpha: f64, n: f64, k: f64, level: f64) -> (f64, f64) {
+pub fn feldt_interval(alpha: f64, n: f64, k: f64, level: Level) -> (f64, f64) {
     let (d1, d2) = (n - 1.0, (n - 1.0) * (k - 1.0));
-    let a = 1.0 - level;
     (
-        1.0 - (1.0 - alpha) * f_quantile(1.0 - a / 2.0, d1, d2),
-        1.0 - (1.0 - alpha) * f_quantile(a / 2.0, d1, d2),
+        1.0 - (1.0 - alpha) * f_quantile(level.upper(), d1, d2),
+        1.0 - (1.0 - alpha) * f_quantile(level.tail(), d1, d2),
     )
 }
 
@@ -98,8 +98,8 @@ pub fn feldt_interval(alpha: f64, n: f64, k: f64, level: f64) -> (f64, f64) {
 /// # References
 /// Bonett, D. G. (2002). Sample size requirements for testing and estimating coefficient
 /// alpha. *Journal of Educational and Behavioral Statistics*, 27(4), 335–340.
-pub fn bonett_interval(alpha: f64, n: f64, k: f64, level: f64) -> (f64, f64) {
-    let z = normal_quantile(1.0 - (1.0 - level) / 2.0);
+pub fn bonett_interval(alpha: f64, n: f64, k: f64, level: Level) -> (f64, f64) {
+    let z = normal_quantile(level.upper());
     let centre = (1.0 - alpha).ln() - (n / (n - 1.0)).ln();
     let half = z * (2.0 * k / ((k - 1.0) * (n - 2.0))).sqrt();
     // 1 − exp(·) decreases: the upper end of ln(1 − α) gives the lower limit of α.
@@ -124,13 +124,13 @@ mod tests {
     /// interval (0.195, 0.840) (quoted in issue 4; confirmed with scipy's F quantiles).
     #[test]
     fn bonett_interval_is_ordered_and_contains_the_estimate() {
-        let (lo, hi) = bonett_interval(0.85, 275.0, 10.0, 0.95);
+        let (lo, hi) = bonett_interval(0.85, 275.0, 10.0, Level::NINETY_FIVE);
         assert!(lo < 0.85 && 0.85 < hi, "{lo} {hi}");
     }
 
     #[test]
     fn feldt_worked_example() {
-        let (lo, hi) = feldt_interval(0.5917, 15.0, 10.0, 0.95);
+        let (lo, hi) = feldt_interval(0.5917, 15.0, 10.0, Level::NINETY_FIVE);
         assert!(
             (lo - 0.195).abs() < 5e-4 && (hi - 0.840).abs() < 5e-4,
             "{lo} {hi}"

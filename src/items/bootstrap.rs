@@ -4,7 +4,10 @@
 use super::factor::{FactorModel, fit_one_factor};
 use super::moments::Listwise;
 use crate::error::{Error, Result};
+use crate::level::Level;
+use crate::msg;
 use crate::random::stream;
+use crate::setting::Setting;
 use rand::RngExt;
 use rayon::prelude::*;
 
@@ -36,18 +39,19 @@ pub fn bootstrap_omega(
     k: usize,
     replicates: usize,
     seed: u64,
-    level: f64,
+    level: Level,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<OmegaBootstrap> {
     let n = rows.len() / k;
     if n < 3 {
-        return Err(Error::CannotAnalyse(
-            "the bootstrap needs at least 3 complete respondents".into(),
+        return Err(Error::cannot(
+            "the bootstrap needs at least 3 complete respondents",
         ));
     }
     if replicates < 2 {
-        return Err(Error::InvalidOption(
-            "--bootstrap needs at least 2 replicates".into(),
+        return Err(Error::setting(
+            Setting::Bootstrap,
+            msg![Setting::Bootstrap, " needs at least 2 replicates"],
         ));
     }
     let chunks = replicates.div_ceil(CHUNK);
@@ -91,7 +95,7 @@ pub fn bootstrap_omega(
             "too few bootstrap replicates could be fitted for an interval".into(),
         ));
     }
-    let interval = crate::numeric::percentile_interval(&mut omegas, level)
+    let interval = crate::numeric::percentile_interval(&mut omegas, level.value())
         .ok_or_else(|| Error::Numerical("too few bootstrap replicates".into()))?;
     Ok(OmegaBootstrap {
         replicates,

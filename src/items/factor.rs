@@ -103,10 +103,9 @@ fn discrepancy(
 pub fn fit_one_factor(cov: &DMatrix<f64>, model: FactorModel) -> Result<FactorFit> {
     let k = cov.nrows();
     if k < 3 {
-        return Err(Error::CannotAnalyse(
+        return Err(Error::cannot(
             "a one-factor model needs at least 3 items (with 2 it is not identified), so omega \
-             and the model tests are not available"
-                .into(),
+             and the model tests are not available",
         ));
     }
     let scale = cov.trace() / k as f64;
@@ -114,10 +113,9 @@ pub fn fit_one_factor(cov: &DMatrix<f64>, model: FactorModel) -> Result<FactorFi
     let log_det_s = match s.clone().cholesky() {
         Some(c) => 2.0 * c.l().diagonal().iter().map(|d| d.ln()).sum::<f64>(),
         None => {
-            return Err(Error::CannotAnalyse(
+            return Err(Error::cannot(
                 "the items' covariance matrix is singular (an item is constant, or a linear \
-                 combination of others), so the one-factor model cannot be fitted"
-                    .into(),
+                 combination of others), so the one-factor model cannot be fitted",
             ));
         }
     };

@@ -8,8 +8,7 @@
 //! file instead, so that every message (with its row and column) comes from one place.
 //! Memory stays bounded: one block of the file at a time.
 
-use super::moments::Listwise;
-use super::read::{missing_cell, parse_response};
+use super::cells::{Tallies, cell_hash, is_missing_code, missing_cell, parse_response};
 use rayon::prelude::*;
 use std::io::Read;
 
@@ -40,100 +39,14 @@ pub(super) struct Layout<'a> {
     pub scale: Option<(f64, f64)>,
     /// Reverse-keyed items.
     pub reversed: &'a [bool],
+    /// Responses that mean "missing" (such as −99).
+    pub missing_codes: &'a [f64],
+    /// Columns taken as identifiers (left out of the items; their cells are hashed).
+    pub id_columns: &'a [usize],
     /// Keep the complete rows.
     pub keep_rows: bool,
     /// Bytes per part ([`PART_BYTES`]; smaller in tests, to cross part boundaries).
     pub part_bytes: usize,
-}
-
-/// What one pass gathered, by either reader.
-#[derive(Debug, Clone)]
-pub(super) struct Tallies {
-    pub listwise: Listwise,
-    pub seen: Vec<u64>,
-    pub lowest: Vec<[f64; 2]>,
-    pub highest: Vec<[f64; 2]>,
-    /// Whether each item counts 1, 2, 3, … down the rows, with its first and last value.
-    pub counting: Vec<bool>,
-    pub first: Vec<Option<f64>>,
-    pub last: Vec<Option<f64>>,
-    pub rows_read: u64,
-    pub missing_cells: u64,
-    pub rows: Option<Vec<f64>>,
-}
-
-impl Tallies {
-    /// Empty tallies for k items.
-    pub(super) fn new(k: usize, keep_rows: bool) -> Self {
-        Tallies {
-            listwise: Listwise::new(k),
-            seen: vec![0; k],
-            lowest: vec![[f64::INFINITY; 2]; k],
-            highest: vec![[f64::NEG_INFINITY; 2]; k],
-            counting: vec![true; k],
-            first: vec![None; k],
-            last: vec![None; k],
-            rows_read: 0,
-            missing_cells: 0,
-            rows: keep_rows.then(Vec::new),
-        }
-    }
-
-    /// Note an answer of item `slot` (rows in file order).
-    #[inline]
-    pub(super) fn answer(&mut self, slot: usize, x: f64) {
-        self.seen[slot] += 1;
-        let lo = &mut self.lowest[slot];
-        if x < lo[0] {
-            lo[1] = lo[0];
-            lo[0] = x;
-        } else if x < lo[1] {
-            lo[1] = x;
-        }
-        let hi = &mut self.highest[slot];
-        if x > hi[0] {
-            hi[1] = hi[0];
-            hi[0] = x;
-        } else if x > hi[1] {
-            hi[1] = x;
-        }
-        match self.last[slot] {
-            Some(p) if x != p + 1.0 => self.counting[slot] = false,
-            None => self.first[slot] = Some(x),
-            _ => {}
-        }
-        self.last[slot] = Some(x);
-    }
-
-    /// Append the tallies of the rows that follow these in the file.
-    fn append(&mut self, next: Tallies) {
-        self.listwise.merge(&next.listwise);
-        for i in 0..self.seen.len() {
-            self.seen[i] += next.seen[i];
-            let mut lows = [self.lowest[i], next.lowest[i]].concat();
-            lows.sort_by(|a, b| a.total_cmp(b));
-            self.lowest[i] = [lows[0], lows[1]];
-            let mut highs = [self.highest[i], next.highest[i]].concat();
-            highs.sort_by(|a, b| b.total_cmp(a));
-            self.highest[i] = [highs[0], highs[1]];
-            let joined = match (self.last[i], next.first[i]) {
-                (Some(l), Some(f)) => f == l + 1.0,
-                _ => true,
-            };
-            self.counting[i] = self.counting[i] && next.counting[i] && joined;
-            if self.first[i].is_none() {
-                self.first[i] = next.first[i];
-            }
-            if next.last[i].is_some() {
-                self.last[i] = next.last[i];
-            }
-        }
-        self.rows_read += next.rows_read;
-        self.missing_cells += next.missing_cells;
-        if let (Some(r), Some(n)) = (self.rows.as_mut(), next.rows) {
-            r.extend(n);
-        }
-    }
 }
 
 /// Why the fast path stopped: the careful reader takes over.
@@ -145,7 +58,7 @@ pub(super) fn read_rows(
     mut reader: impl Read,
     layout: &Layout<'_>,
 ) -> std::io::Result<Result<Tallies, Declined>> {
-    let mut total = Tallies::new(layout.k, layout.keep_rows);
+    let mut total = Tallies::new(layout.k, layout.keep_rows, layout.id_columns.len());
     let mut buf: Vec<u8> = Vec::new();
     let mut at_end = false;
     while !at_end {
@@ -205,7 +118,7 @@ fn split_lines(block: &[u8], parts: usize) -> Vec<&[u8]> {
 /// Parse one piece of whole lines.
 fn read_part(part: &[u8], layout: &Layout<'_>) -> Result<Tallies, Declined> {
     let k = layout.k;
-    let mut t = Tallies::new(k, layout.keep_rows);
+    let mut t = Tallies::new(k, layout.keep_rows, layout.id_columns.len());
     let mut batch: Vec<f64> = Vec::with_capacity(BATCH_ROWS * k);
     let mut scratch = Vec::new();
     let mut values = vec![0.0; k];
@@ -240,6 +153,9 @@ fn read_part(part: &[u8], layout: &Layout<'_>) -> Result<Tallies, Declined> {
                     if layout.unnamed.contains(&col) && !cell.trim_ascii().is_empty() {
                         return Err(Declined);
                     }
+                    if let Some(j) = layout.id_columns.iter().position(|&c| c == col) {
+                        t.ids[j].push(cell_hash(cell.trim_ascii()));
+                    }
                     continue;
                 }
                 // Beyond the header: allowed only when empty.
@@ -262,6 +178,11 @@ fn read_part(part: &[u8], layout: &Layout<'_>) -> Result<Tallies, Declined> {
                     parse_response(trimmed, layout.decimal_comma).map_err(|_| Declined)?
                 }
             };
+            if is_missing_code(x, layout.missing_codes) {
+                complete = false;
+                t.missing_cells += 1;
+                continue;
+            }
             let x = match layout.scale {
                 Some((lo, hi)) if x < lo || x > hi => return Err(Declined),
                 Some((lo, hi)) if layout.reversed[slot] => lo + hi - x,

@@ -4,6 +4,7 @@
 
 pub mod alpha;
 pub mod bootstrap;
+mod cells;
 pub mod factor;
 mod fast;
 pub mod moments;
@@ -12,6 +13,7 @@ pub mod read;
 pub use read::{ItemData, ItemReadOptions, Missing, read_items};
 
 use crate::error::Result;
+use crate::level::Level;
 use crate::warning::Warning;
 use alpha::{
     ItemStatistic, alpha, alpha_standardized, bonett_interval, feldt_interval, item_statistics,
@@ -21,6 +23,10 @@ use factor::{
     FactorFit, FactorModel, ModelFitIndices, TauEquivalenceTest, fit_indices, fit_one_factor,
     tau_equivalence_test,
 };
+
+/// Smallest eigenvalue of the items' covariance matrix, relative to the largest, below which
+/// it counts as singular (numerical tolerance).
+const SINGULAR_RATIO: f64 = 1e-12;
 
 /// Significance level of the tau-equivalence test for the reading (common practice).
 pub const TAU_TEST_LEVEL: f64 = 0.05;
@@ -65,6 +71,35 @@ pub struct FactorPart {
     pub independence_p: f64,
 }
 
+/// The scale score's mean and SD, as the sum of the items and as their mean (the SD
+/// ready for placing the study against a benchmark by its score spread).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ScaleScore {
+    /// Mean of the sum score.
+    pub sum_mean: f64,
+    /// SD of the sum score, √(1ᵀΣ1).
+    pub sum_sd: f64,
+    /// Mean of the mean score (sum / items).
+    pub mean_mean: f64,
+    /// SD of the mean score.
+    pub mean_sd: f64,
+}
+
+impl ScaleScore {
+    /// From the items' means and covariance matrix (n − 1 denominator).
+    pub fn of(mean: &[f64], cov: &nalgebra::DMatrix<f64>) -> ScaleScore {
+        let k = mean.len() as f64;
+        let sum_mean: f64 = mean.iter().sum();
+        let sum_sd = cov.sum().max(0.0).sqrt();
+        ScaleScore {
+            sum_mean,
+            sum_sd,
+            mean_mean: sum_mean / k,
+            mean_sd: sum_sd / k,
+        }
+    }
+}
+
 /// Everything `relyard items` reports.
 #[derive(Debug, Clone)]
 pub struct ItemAnalysis {
@@ -83,15 +118,17 @@ pub struct ItemAnalysis {
     /// Bonett's interval.
     pub alpha_ci_bonett: (f64, f64),
     /// Confidence level.
-    pub level: f64,
+    pub level: Level,
     /// Per-item statistics.
     pub item_statistics: Vec<ItemStatistic>,
+    /// The scale score's mean and SD (sum and mean metric).
+    pub score: ScaleScore,
     /// The one-factor models, or why there are none.
     pub factor: std::result::Result<FactorPart, String>,
     /// Which coefficient to carry forward.
     pub recommendation: Recommendation,
     /// The reading in words.
-    pub reading: String,
+    pub reading: crate::Message,
     /// Warnings.
     pub warnings: Vec<Warning>,
 }
@@ -104,22 +141,24 @@ impl ItemAnalysis {
 }
 
 /// Analyze item data at a confidence level.
-pub fn analyze(data: &ItemData, level: f64) -> Result<ItemAnalysis> {
-    crate::pool::check_level(level)?;
+pub fn analyze(data: &ItemData, level: Level) -> Result<ItemAnalysis> {
     let cov = &data.moments.cov;
     let k = data.moments.k();
     let n_used = data.n_used();
     let n = n_used as f64;
     let mut warnings = data.notes.clone();
     if let Some(i) = (0..k).find(|&i| cov[(i, i)].is_nan() || cov[(i, i)] <= 0.0) {
-        return Err(crate::Error::CannotAnalyse(format!(
-            "item {} has no variance (every respondent gave the same answer), so reliability \
-             cannot be computed; leave it out with --items",
-            data.names[i]
-        )));
+        return Err(crate::Error::cannot(crate::msg![
+            format!(
+                "item {} has no variance (every respondent gave the same answer), so \
+                 reliability cannot be computed; leave it out with ",
+                data.names[i]
+            ),
+            crate::Setting::ItemColumns
+        ]));
     }
     if n_used < 3 {
-        return Err(crate::Error::CannotAnalyse(format!(
+        return Err(crate::Error::cannot(format!(
             "only {n_used} respondent(s) can be used; reliability needs at least 3"
         )));
     }
@@ -131,12 +170,15 @@ pub fn analyze(data: &ItemData, level: f64) -> Result<ItemAnalysis> {
     let stats = item_statistics(&mean, cov);
     // A column that is (nearly) the sum of the others is a total score, not an item.
     if let Some(i) = stats.iter().position(|s| s.corrected_item_total > 0.9999) {
-        return Err(crate::Error::CannotAnalyse(format!(
-            "column {} correlates {} with the sum of the other columns: it looks like a total \
-             score rather than an item; leave it out with --items",
-            data.names[i],
-            crate::report::format::fixed(stats[i].corrected_item_total, 4)
-        )));
+        return Err(crate::Error::cannot(crate::msg![
+            format!(
+                "column {} correlates {} with the sum of the other columns: it looks like a \
+                 total score rather than an item; leave it out with ",
+                data.names[i],
+                crate::format::fixed(stats[i].corrected_item_total, 4)
+            ),
+            crate::Setting::ItemColumns
+        ]));
     }
     let factor = fit_factor(cov, n, &data.names, data.missing, &mut warnings);
     let (recommendation, reading) = read(a, &factor, &data.names, k);
@@ -149,6 +191,7 @@ pub fn analyze(data: &ItemData, level: f64) -> Result<ItemAnalysis> {
         alpha_ci_feldt: feldt_interval(a, n, k as f64, level),
         alpha_ci_bonett: bonett_interval(a, n, k as f64, level),
         level,
+        score: ScaleScore::of(&mean, cov),
         item_statistics: stats,
         factor,
         recommendation,
@@ -164,17 +207,30 @@ fn fit_factor(
     missing: Missing,
     warnings: &mut Vec<Warning>,
 ) -> std::result::Result<FactorPart, String> {
-    let reason = |e: crate::Error| {
-        let m = e.to_string();
-        if missing == Missing::Pairwise && m.contains("singular") {
-            "the pairwise covariance matrix is not positive definite (pairwise deletion can give \
-             a matrix no complete data set could have), so the one-factor model cannot be \
-             fitted; try listwise deletion"
-                .to_string()
-        } else {
-            m
-        }
-    };
+    let k = cov.nrows();
+    if n <= k as f64 {
+        return Err(format!(
+            "with {n} respondents and {k} items the items' covariance matrix is singular (a \
+             factor model needs more respondents than items), so no factor model, omega or fit \
+             is reported"
+        ));
+    }
+    let eig = cov.clone().symmetric_eigenvalues();
+    let (lo, hi) = (eig.min(), eig.max());
+    if !(hi > 0.0 && lo > SINGULAR_RATIO * hi) {
+        return Err(match missing {
+            Missing::Pairwise => "the pairwise covariance matrix is not positive definite \
+                                  (pairwise deletion can give a matrix no complete data set \
+                                  could have), so the one-factor model cannot be fitted; try \
+                                  listwise deletion"
+                .to_string(),
+            Missing::Listwise => "the items' covariance matrix is singular (an item is a \
+                                  linear combination of others), so no factor model, omega or \
+                                  fit is reported"
+                .to_string(),
+        });
+    }
+    let reason = |e: crate::Error| e.to_string();
     let cong = fit_one_factor(cov, FactorModel::Congeneric).map_err(reason)?;
     let tau = fit_one_factor(cov, FactorModel::TauEquivalent).map_err(reason)?;
     for (name, f) in [
@@ -198,7 +254,6 @@ fn fit_factor(
     if !negative.is_empty() {
         warnings.push(Warning::NegativeLoading { items: negative });
     }
-    let k = cov.nrows();
     Ok(FactorPart {
         tau_test: tau_equivalence_test(&cong, &tau, n, k),
         fit: fit_indices(cov, &cong, n),
@@ -213,8 +268,8 @@ fn read(
     factor: &std::result::Result<FactorPart, String>,
     names: &[String],
     k: usize,
-) -> (Recommendation, String) {
-    let fx = |x: f64| crate::report::format::fixed(x, 3);
+) -> (Recommendation, crate::Message) {
+    let fx = |x: f64| crate::format::fixed(x, 3);
     let f = match factor {
         Ok(f) => f,
         Err(why) => {
@@ -236,7 +291,7 @@ fn read(
             } else {
                 Recommendation::ReverseKeyFirst
             };
-            return (rec, text);
+            return (rec, text.into());
         }
     };
     let omega = f.congeneric.omega();
@@ -257,17 +312,27 @@ fn read(
         };
         return (
             Recommendation::ReverseKeyFirst,
-            format!(
-                "{which} run against the other items (negative loading{}): reverse-key them \
-                 (--reverse with --scale-min and --scale-max) before computing any coefficient; \
-                 neither alpha ({}) nor omega means anything until then",
-                if a <= 0.0 {
-                    ", and alpha is not above 0"
-                } else {
-                    ""
-                },
-                fx(a)
-            ),
+            crate::msg![
+                format!(
+                    "{which} run against the other items (negative loading{}): reverse-key them \
+                     (",
+                    if a <= 0.0 {
+                        ", and alpha is not above 0"
+                    } else {
+                        ""
+                    }
+                ),
+                crate::Setting::ReverseKeyed,
+                " with ",
+                crate::Setting::ResponseMin,
+                " and ",
+                crate::Setting::ResponseMax,
+                format!(
+                    ") before computing any coefficient; neither alpha ({}) nor omega means \
+                     anything until then",
+                    fx(a)
+                )
+            ],
         );
     }
     // 2. Items that share (almost) nothing.
@@ -278,10 +343,11 @@ fn read(
                 "the items share too little variance to be distinguished from unrelated items \
                  (test of zero correlations p {}): they do not form a scale here, so neither \
                  alpha ({}) nor omega ({}) describes a score's reliability",
-                crate::report::format::p_value(f.independence_p),
+                crate::format::p_value(f.independence_p),
                 fx(a),
                 fx(omega)
-            ),
+            )
+            .into(),
         );
     }
     let heywood: Vec<&str> = f
@@ -315,7 +381,8 @@ fn read(
                 f.fit.rmsea.map(fx).unwrap_or_default(),
                 fx(a),
                 fx(omega)
-            ),
+            )
+            .into(),
         );
     }
     // 4. An improper solution.
@@ -329,15 +396,16 @@ fn read(
                 heywood.join(", "),
                 fx(omega),
                 fx(a)
-            ),
+            )
+            .into(),
         );
     }
     // 5. Tau-equivalence.
     let test = format!(
         "χ²({}) = {}, p {}",
         f.tau_test.df,
-        crate::report::format::fixed(f.tau_test.chi2, 2),
-        crate::report::format::p_value(f.tau_test.p)
+        crate::format::fixed(f.tau_test.chi2, 2),
+        crate::format::p_value(f.tau_test.p)
     );
     let gap = (omega - a).abs();
     if f.tau_test.p < TAU_TEST_LEVEL {
@@ -354,7 +422,8 @@ fn read(
                  correction for measurement error (alpha would over-correct){size}",
                 fx(a),
                 fx(omega)
-            ),
+            )
+            .into(),
         )
     } else {
         (
@@ -367,7 +436,8 @@ fn read(
                 fx(a),
                 fx(omega),
                 fx(gap)
-            ),
+            )
+            .into(),
         )
     }
 }

@@ -1,10 +1,13 @@
-//! Reading raw item data (respondents in rows, items in columns) in one streaming pass.
+//! Reading raw item data (respondents in rows, items in columns) in one streaming pass,
+//! from delimited text (a file or a pipe) or a workbook.
 
-use super::fast::Tallies;
+use super::cells::{Tallies, cell_hash, is_missing_code, missing_cell, parse_response};
 use super::moments::{Moments, Pairwise};
 use crate::error::{CellProblem, Error, Result};
-use crate::sheet::{detect_delimiter, is_missing, parse_number};
-use std::io::{BufRead, BufReader, Read, Seek, SeekFrom};
+use crate::msg;
+use crate::setting::{Setting, given};
+use crate::sheet::{SheetFormat, WorkbookRows, detect_delimiter, is_workbook, same_name};
+use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
 
 /// How missing responses are handled.
@@ -19,7 +22,7 @@ pub enum Missing {
 }
 
 /// How to read an item file.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct ItemReadOptions {
     /// The delimiter; detected from the header when `None`.
     pub delimiter: Option<u8>,
@@ -31,8 +34,31 @@ pub struct ItemReadOptions {
     pub scale: Option<(f64, f64)>,
     /// Listwise or pairwise.
     pub missing: Missing,
+    /// Responses that mean "missing" (such as −99 or 999).
+    pub missing_codes: Vec<f64>,
     /// Keep the complete rows in memory (for the bootstrap).
     pub keep_rows: bool,
+    /// The worksheet of a workbook (the first when `None`).
+    pub worksheet: Option<String>,
+    /// The setting that chose the columns, for messages (the item columns, or a
+    /// regression's variables).
+    pub columns_setting: Setting,
+}
+
+impl Default for ItemReadOptions {
+    fn default() -> Self {
+        ItemReadOptions {
+            delimiter: None,
+            items: None,
+            reverse: Vec::new(),
+            scale: None,
+            missing: Missing::Listwise,
+            missing_codes: Vec::new(),
+            keep_rows: false,
+            worksheet: None,
+            columns_setting: Setting::ItemColumns,
+        }
+    }
 }
 
 /// Most problems listed one by one before the rest are counted.
@@ -43,6 +69,10 @@ const MAX_LISTED: usize = 50;
 pub struct ItemData {
     /// The file as named.
     pub file: String,
+    /// How the file stores its cells.
+    pub format: SheetFormat,
+    /// The worksheet read, for a workbook.
+    pub worksheet: Option<String>,
     /// Item names, in the order used.
     pub names: Vec<String>,
     /// Which items were reverse-keyed.
@@ -59,6 +89,8 @@ pub struct ItemData {
     pub moments: Moments,
     /// Complete rows, row-major, when kept.
     pub rows: Option<Vec<f64>>,
+    /// Columns left out as identifiers (text, one value per respondent).
+    pub identifiers: Vec<String>,
     /// Things noticed while reading (identifier-like columns, extreme values).
     pub notes: Vec<crate::Warning>,
 }
@@ -73,28 +105,361 @@ impl ItemData {
     }
 }
 
-/// Parse a response: a fast path for small whole numbers, else the general parser.
-#[inline]
-pub(super) fn parse_response(cell: &[u8], decimal_comma: bool) -> std::result::Result<f64, String> {
-    if !cell.is_empty() && cell.len() <= 3 && cell.iter().all(u8::is_ascii_digit) {
-        let mut v = 0u32;
-        for &c in cell {
-            v = v * 10 + u32::from(c - b'0');
-        }
-        return Ok(f64::from(v));
-    }
-    let text =
-        std::str::from_utf8(cell).map_err(|_| "the cell is not valid UTF-8 text".to_string())?;
-    parse_number(text, decimal_comma)
-}
-
-pub(super) fn missing_cell(cell: &[u8]) -> bool {
-    cell.is_empty() || std::str::from_utf8(cell).map(is_missing).unwrap_or(false)
-}
-
 /// Read an item file in one pass.
 pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
     read_items_with(path, options, Some(super::fast::PART_BYTES))
+}
+
+/// The problems of one file, collected.
+struct Problems {
+    file: String,
+    listed: Vec<CellProblem>,
+    unlisted: usize,
+}
+
+impl Problems {
+    fn push(&mut self, p: CellProblem) {
+        if self.listed.len() < MAX_LISTED {
+            self.listed.push(p);
+        } else {
+            self.unlisted += 1;
+        }
+    }
+
+    fn one(file: &str, row: usize, reason: impl Into<crate::Message>) -> Error {
+        Error::InvalidSheet {
+            file: file.to_string(),
+            problems: vec![CellProblem::row(row, reason)],
+        }
+    }
+}
+
+/// Where the rows come from.
+enum Source {
+    /// Delimited text: the csv reader, and where the data rows start in the file (for
+    /// the fast path, which reopens regular files).
+    Text {
+        reader: Box<csv::Reader<Box<dyn BufRead>>>,
+        delimiter: u8,
+        data_start: Option<u64>,
+        row_number: usize,
+    },
+    /// A workbook's rows, already numbered.
+    Workbook {
+        rows: std::vec::IntoIter<(usize, csv::ByteRecord)>,
+    },
+}
+
+impl Source {
+    /// The next data record and its spreadsheet row (blank text lines are counted as rows).
+    fn next(&mut self, record: &mut csv::ByteRecord, file: &str) -> Result<Option<usize>> {
+        match self {
+            Source::Text {
+                reader, row_number, ..
+            } => {
+                let more = reader
+                    .read_byte_record(record)
+                    .map_err(|e| Error::io(format!("reading {file}"), std::io::Error::other(e)))?;
+                if !more {
+                    return Ok(None);
+                }
+                // Spreadsheet row: blank lines before the record count as rows.
+                let start = record.position().map(|p| p.line()).unwrap_or(0);
+                let consumed = reader.position().line().saturating_sub(start) as usize;
+                let embedded: usize = record
+                    .iter()
+                    .map(|f| f.iter().filter(|&&c| c == b'\n').count())
+                    .sum();
+                *row_number += consumed.saturating_sub(1 + embedded) + 1;
+                Ok(Some(*row_number))
+            }
+            Source::Workbook { rows } => Ok(rows.next().map(|(row, r)| {
+                *record = r;
+                row
+            })),
+        }
+    }
+}
+
+/// The file opened: its header, and the source of its rows.
+struct Opened {
+    format: SheetFormat,
+    worksheet: Option<String>,
+    header: Vec<String>,
+    source: Source,
+}
+
+fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
+    let file = path.display().to_string();
+    let mut handle = std::fs::File::open(path).map_err(|e| match e.kind() {
+        std::io::ErrorKind::NotFound => Error::setting(
+            Setting::ItemFile,
+            format!("{file}: no such file; check the path of the item data"),
+        ),
+        _ => Error::io(format!("reading {file}"), e),
+    })?;
+    // Peek at the start: BOM, encoding, workbook or text, delimiter. Nothing is sought
+    // back, so a pipe reads as well as a file.
+    let mut head = Vec::with_capacity(64 * 1024);
+    (&mut handle)
+        .take(64 * 1024)
+        .read_to_end(&mut head)
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    if is_workbook(&head) {
+        return open_workbook(&file, head, handle, options);
+    }
+    if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
+        return Err(Problems::one(
+            &file,
+            1,
+            "the file is UTF-16 encoded; save it as UTF-8",
+        ));
+    }
+    let bom = if head.starts_with(b"\xEF\xBB\xBF") {
+        3
+    } else {
+        0
+    };
+    if head[bom..].iter().all(u8::is_ascii_whitespace) {
+        return Err(Problems::one(
+            &file,
+            1,
+            "the file is empty; item data need a header row of item names and one row per \
+             respondent",
+        ));
+    }
+    if options.worksheet.is_some() {
+        return Err(Error::setting(
+            Setting::Worksheet,
+            msg![
+                Setting::Worksheet,
+                format!(" applies to workbooks (.xlsx, .xls, .ods); {file} is a text file")
+            ],
+        ));
+    }
+    let delimiter = options
+        .delimiter
+        .unwrap_or_else(|| detect_delimiter(&head[bom..]));
+    let regular = handle.metadata().map(|m| m.is_file()).unwrap_or(false);
+    let body: Box<dyn BufRead> = Box::new(BufReader::with_capacity(
+        1 << 20,
+        Cursor::new(head).chain(handle),
+    ));
+    let mut body = body;
+    // Skip the BOM.
+    let mut skip = [0u8; 3];
+    body.read_exact(&mut skip[..bom])
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    let mut reader = Box::new(
+        csv::ReaderBuilder::new()
+            .delimiter(delimiter)
+            .has_headers(false)
+            .flexible(true)
+            .from_reader(body),
+    );
+    let mut record = csv::ByteRecord::new();
+    let more = reader
+        .read_byte_record(&mut record)
+        .map_err(|e| Error::io(format!("reading {file}"), std::io::Error::other(e)))?;
+    if !more {
+        return Err(Problems::one(&file, 1, "the file has no header row"));
+    }
+    let start = record.position().map(|p| p.line()).unwrap_or(1);
+    let row_number = (reader.position().line().saturating_sub(start) as usize).max(1);
+    let data_start = regular.then(|| bom as u64 + reader.position().byte());
+    let header = record
+        .iter()
+        .map(|c| String::from_utf8_lossy(c).trim().to_string())
+        .collect();
+    Ok(Opened {
+        format: SheetFormat::Delimited(delimiter),
+        worksheet: None,
+        header,
+        source: Source::Text {
+            reader,
+            delimiter,
+            data_start,
+            row_number,
+        },
+    })
+}
+
+fn open_workbook(
+    file: &str,
+    mut head: Vec<u8>,
+    mut rest: std::fs::File,
+    options: &ItemReadOptions,
+) -> Result<Opened> {
+    if options.delimiter.is_some() {
+        return Err(Error::setting(
+            Setting::Delimiter,
+            msg![
+                Setting::Delimiter,
+                format!(" applies to text files; {file} is a workbook")
+            ],
+        ));
+    }
+    rest.read_to_end(&mut head)
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    let book = WorkbookRows::read(file, head, options.worksheet.as_deref())?;
+    let worksheet = Some(book.worksheet.clone());
+    let (header, _, rows) = book.into_table();
+    Ok(Opened {
+        format: SheetFormat::Workbook,
+        worksheet,
+        header,
+        source: Source::Workbook {
+            rows: rows.into_iter(),
+        },
+    })
+}
+
+/// Which columns are items, and how each is treated.
+struct Columns {
+    /// File columns of the items, in the order used.
+    items: Vec<usize>,
+    names: Vec<String>,
+    reversed: Vec<bool>,
+    /// Columns without a name (must stay empty).
+    unnamed: Vec<usize>,
+    /// Text columns left out of the items as identifier candidates.
+    id_columns: Vec<usize>,
+}
+
+fn choose_columns(
+    file: &str,
+    header: &[String],
+    first_row: Option<&csv::ByteRecord>,
+    decimal_comma: bool,
+    options: &ItemReadOptions,
+) -> Result<Columns> {
+    let setting = options.columns_setting;
+    let find = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .or_else(|| header.iter().position(|h| same_name(h, name)))
+    };
+    // Every named column must be named once.
+    for (i, h) in header.iter().enumerate() {
+        if !h.is_empty()
+            && let Some(j) = header[..i].iter().position(|g| same_name(g, h))
+        {
+            return Err(Problems::one(
+                file,
+                1,
+                format!(
+                    "the column name \"{}\" appears twice (columns {} and {}); every column \
+                     needs its own name",
+                    crate::format::quoted(h, 200),
+                    j + 1,
+                    i + 1
+                ),
+            ));
+        }
+    }
+    let unnamed: Vec<usize> = (0..header.len())
+        .filter(|&i| header[i].is_empty())
+        .collect();
+    let mut id_columns = Vec::new();
+    let items: Vec<usize> = match &options.items {
+        Some(names) => {
+            let mut idx = Vec::new();
+            let mut unknown = Vec::new();
+            for n in names {
+                match find(n) {
+                    Some(i) if idx.contains(&i) => {
+                        return Err(Error::setting(
+                            setting,
+                            msg![setting, format!(" names {n} twice")],
+                        ));
+                    }
+                    Some(i) => idx.push(i),
+                    None => unknown.push(n.clone()),
+                }
+            }
+            if !unknown.is_empty() {
+                return Err(Problems::one(
+                    file,
+                    1,
+                    msg![
+                        setting,
+                        format!(
+                            " names column(s) the file does not have: {} (its columns are: {})",
+                            unknown.join(", "),
+                            crate::format::quoted(&header.join(", "), 200)
+                        )
+                    ],
+                ));
+            }
+            idx
+        }
+        // Without chosen items every named column is an item, except text columns (in the
+        // first row), which are identifier candidates; unnamed columns must stay empty.
+        None => (0..header.len())
+            .filter(|i| !unnamed.contains(i))
+            .filter(|&i| {
+                let cell = first_row.and_then(|r| r.get(i)).unwrap_or(b"").trim_ascii();
+                let text = !missing_cell(cell)
+                    && parse_response(cell, decimal_comma).is_err()
+                    && cell.first().is_some_and(u8::is_ascii_alphabetic);
+                if text {
+                    id_columns.push(i);
+                }
+                !text
+            })
+            .collect(),
+    };
+    if items.len() < 2 {
+        return Err(Error::setting(
+            setting,
+            format!(
+                "{file}: {} item column(s) selected; reliability needs at least 2 items",
+                items.len()
+            ),
+        ));
+    }
+    let names: Vec<String> = items.iter().map(|&i| header[i].clone()).collect();
+    if let Some(i) = names.iter().position(String::is_empty) {
+        return Err(Problems::one(
+            file,
+            1,
+            format!("column {} has no name in the header", items[i] + 1),
+        ));
+    }
+    let mut reversed = vec![false; names.len()];
+    for r in &options.reverse {
+        let Some(pos) = names.iter().position(|n| same_name(n, r)) else {
+            return Err(Error::setting(
+                Setting::ReverseKeyed,
+                msg![
+                    given(Setting::ReverseKeyed, r.clone()),
+                    format!(": not among the items used ({})", names.join(", "))
+                ],
+            ));
+        };
+        reversed[pos] = true;
+    }
+    if !options.reverse.is_empty() && options.scale.is_none() {
+        return Err(Error::setting(
+            Setting::ReverseKeyed,
+            msg![
+                Setting::ReverseKeyed,
+                " needs ",
+                Setting::ResponseMin,
+                " and ",
+                Setting::ResponseMax,
+                " (a reversed response is min + max − x)"
+            ],
+        ));
+    }
+    Ok(Columns {
+        items,
+        names,
+        reversed,
+        unnamed,
+        id_columns,
+    })
 }
 
 /// [`read_items`], with the parallel fast path (in parts of the given size) or without it;
@@ -105,337 +470,231 @@ fn read_items_with(
     fast_parts: Option<usize>,
 ) -> Result<ItemData> {
     let file = path.display().to_string();
-    let mut handle = std::fs::File::open(path).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => Error::InvalidOption(format!(
-            "{file}: no such file; check the path of the item data"
-        )),
-        _ => Error::io(format!("reading {file}"), e),
-    })?;
-    let fail = |row: usize, reason: String| Error::InvalidSheet {
-        file: file.clone(),
-        problems: vec![CellProblem::row(row, reason)],
-    };
-    // Peek at the start: BOM, encoding, delimiter.
-    let mut head = Vec::with_capacity(64 * 1024);
-    (&mut handle)
-        .take(64 * 1024)
-        .read_to_end(&mut head)
-        .map_err(|e| Error::io(format!("reading {file}"), e))?;
-    if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
-        return Err(fail(
-            1,
-            "the file is UTF-16 encoded; save it as UTF-8".into(),
-        ));
-    }
-    let bom = if head.starts_with(b"\xEF\xBB\xBF") {
-        3
-    } else {
-        0
-    };
-    if head[bom..].iter().all(u8::is_ascii_whitespace) {
-        return Err(fail(1, "the file is empty; item data need a header row of item names and one row per respondent".into()));
-    }
-    let delimiter = options
-        .delimiter
-        .unwrap_or_else(|| detect_delimiter(&head[bom..]));
-    handle
-        .seek(SeekFrom::Start(bom as u64))
-        .map_err(|e| Error::io(format!("reading {file}"), e))?;
-    let buffered: Box<dyn BufRead> = Box::new(BufReader::with_capacity(1 << 20, handle));
-    let mut reader = csv::ReaderBuilder::new()
-        .delimiter(delimiter)
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(buffered);
-    let decimal_comma = delimiter != b',';
-
-    let mut record = csv::ByteRecord::new();
-    let read_err = |e: csv::Error| {
-        Error::io(
-            format!("reading {file}"),
-            std::io::Error::other(e.to_string()),
-        )
-    };
-    // Header.
-    if !reader.read_byte_record(&mut record).map_err(read_err)? {
-        return Err(fail(1, "the file has no header row".into()));
-    }
-    let start = record.position().map(|p| p.line()).unwrap_or(1);
-    let mut row_number = (reader.position().line().saturating_sub(start) as usize).max(1);
-    let header: Vec<String> = record
-        .iter()
-        .map(|c| String::from_utf8_lossy(c).trim().to_string())
-        .collect();
-    let find = |name: &str| {
-        header.iter().position(|h| h == name).or_else(|| {
-            header
-                .iter()
-                .position(|h| h.eq_ignore_ascii_case(name.trim()))
-        })
-    };
-    // Every named column must be named once.
-    for (i, h) in header.iter().enumerate() {
-        if !h.is_empty()
-            && let Some(j) = header[..i].iter().position(|g| g.eq_ignore_ascii_case(h))
-        {
-            return Err(fail(
-                1,
-                format!(
-                    "the column name \"{h}\" appears twice (columns {} and {}); every column \
-                     needs its own name",
-                    j + 1,
-                    i + 1
-                ),
-            ));
-        }
-    }
-    let unnamed: Vec<usize> = (0..header.len())
-        .filter(|&i| header[i].is_empty())
-        .collect();
-    let columns: Vec<usize> = match &options.items {
-        Some(names) => {
-            let mut idx = Vec::new();
-            let mut unknown = Vec::new();
-            for n in names {
-                match find(n) {
-                    Some(i) if idx.contains(&i) => {
-                        return Err(Error::InvalidOption(format!("--items names {n} twice")));
-                    }
-                    Some(i) => idx.push(i),
-                    None => unknown.push(n.clone()),
-                }
-            }
-            if !unknown.is_empty() {
-                return Err(fail(
-                    1,
-                    format!(
-                        "--items names column(s) the file does not have: {} (its columns are: {})",
-                        unknown.join(", "),
-                        header.join(", ")
-                    ),
-                ));
-            }
-            idx
-        }
-        // Without --items every named column is an item; unnamed ones must stay empty.
-        None => (0..header.len()).filter(|i| !unnamed.contains(i)).collect(),
-    };
-    if columns.len() < 2 {
-        return Err(Error::InvalidOption(format!(
-            "{file}: {} item column(s) selected; reliability needs at least 2 items",
-            columns.len()
-        )));
-    }
-    let names: Vec<String> = columns.iter().map(|&i| header[i].clone()).collect();
-    for (i, n) in names.iter().enumerate() {
-        if n.is_empty() {
-            return Err(fail(
-                1,
-                format!("column {} has no name in the header", columns[i] + 1),
-            ));
-        }
-    }
-    let mut reversed = vec![false; names.len()];
-    for r in &options.reverse {
-        let Some(pos) = names.iter().position(|n| n.eq_ignore_ascii_case(r.trim())) else {
-            return Err(Error::InvalidOption(format!(
-                "--reverse {r}: not among the items used ({})",
-                names.join(", ")
-            )));
-        };
-        reversed[pos] = true;
-    }
-    if !options.reverse.is_empty() && options.scale.is_none() {
-        return Err(Error::InvalidOption(
-            "--reverse needs --scale-min and --scale-max (a reversed response is min + max − x)"
-                .into(),
-        ));
-    }
-
-    let k = names.len();
-    // Per item: answers seen, the two lowest and highest (for missing-value codes), and
-    // whether it counts 1, 2, 3, … like an identifier; the listwise sums and rows.
-    let mut t = Tallies::new(k, options.keep_rows);
-    let mut pairwise = (options.missing == Missing::Pairwise).then(|| Pairwise::new(k));
-    let mut problems: Vec<CellProblem> = Vec::new();
-    let mut unlisted = 0usize;
-    let mut values = vec![0.0; k];
-    let mut optional: Vec<Option<f64>> = vec![None; k];
+    let Opened {
+        format,
+        worksheet,
+        header,
+        mut source,
+    } = open(path, options)?;
+    let decimal_comma = format.decimal_comma();
+    // The first data row (to tell identifier columns) is read here and handed on.
+    let mut first = csv::ByteRecord::new();
+    let first_row = source.next(&mut first, &file)?;
+    let cols = choose_columns(
+        &file,
+        &header,
+        first_row.map(|_| &first),
+        decimal_comma,
+        options,
+    )?;
+    let k = cols.names.len();
     let width = header.len();
-    // Clean files under listwise deletion take the parallel fast path; anything it does
-    // not handle is read below, from the row after the header, by the careful reader.
-    let mut fast_done = false;
-    if let (Some(part_bytes), Missing::Listwise) = (fast_parts, options.missing) {
+    let mut t = Tallies::new(k, options.keep_rows, cols.id_columns.len());
+    // Clean text files under listwise deletion take the parallel fast path; anything it
+    // does not handle is read below, from the first data row, by the careful reader.
+    let mut done = false;
+    if let (
+        Some(part_bytes),
+        Missing::Listwise,
+        Source::Text {
+            delimiter,
+            data_start: Some(start),
+            ..
+        },
+    ) = (fast_parts, options.missing, &source)
+    {
         let mut slot_of = vec![None; width];
-        for (slot, &c) in columns.iter().enumerate() {
+        for (slot, &c) in cols.items.iter().enumerate() {
             slot_of[c] = Some(slot);
         }
         let layout = super::fast::Layout {
             width,
             slot_of,
-            unnamed: &unnamed,
+            unnamed: &cols.unnamed,
             k,
-            delimiter,
+            delimiter: *delimiter,
             decimal_comma,
             scale: options.scale,
-            reversed: &reversed,
+            reversed: &cols.reversed,
+            missing_codes: &options.missing_codes,
+            id_columns: &cols.id_columns,
             keep_rows: options.keep_rows,
             part_bytes,
         };
-        let data_start = bom as u64 + reader.position().byte();
         let mut again =
             std::fs::File::open(path).map_err(|e| Error::io(format!("reading {file}"), e))?;
         again
-            .seek(SeekFrom::Start(data_start))
+            .seek(SeekFrom::Start(*start))
             .map_err(|e| Error::io(format!("reading {file}"), e))?;
         let outcome = super::fast::read_rows(again, &layout)
             .map_err(|e| Error::io(format!("reading {file}"), e))?;
         if let Ok(fast) = outcome {
             t = fast;
-            fast_done = true;
+            done = true;
         }
     }
-    while !fast_done && reader.read_byte_record(&mut record).map_err(read_err)? {
-        // Spreadsheet row: blank lines before the record count as rows.
-        let start = record.position().map(|p| p.line()).unwrap_or(0);
-        let consumed = reader.position().line().saturating_sub(start) as usize;
-        let embedded: usize = record
-            .iter()
-            .map(|f| f.iter().filter(|&&c| c == b'\n').count())
-            .sum();
-        let blank = consumed.saturating_sub(1 + embedded);
-        row_number += blank + 1;
+    if !done {
+        let mut problems = Problems {
+            file: file.clone(),
+            listed: Vec::new(),
+            unlisted: 0,
+        };
+        let mut careful = Careful {
+            cols: &cols,
+            options,
+            width,
+            decimal_comma,
+            pairwise: (options.missing == Missing::Pairwise).then(|| Pairwise::new(k)),
+            values: vec![0.0; k],
+            optional: vec![None; k],
+        };
+        let mut record = first;
+        let mut row = first_row;
+        while let Some(r) = row {
+            careful.row(r, &record, &mut t, &mut problems);
+            row = source.next(&mut record, &file)?;
+        }
+        if problems.unlisted > 0 {
+            let more = problems.unlisted;
+            problems.listed.push(CellProblem::file(format!(
+                "… and {more} more problem(s) of the same kinds"
+            )));
+        }
+        if !problems.listed.is_empty() {
+            return Err(Error::InvalidSheet {
+                file: problems.file,
+                problems: problems.listed,
+            });
+        }
+        let pairwise = careful.pairwise.take();
+        return finish(file, format, worksheet, cols, &header, t, pairwise, options);
+    }
+    finish(file, format, worksheet, cols, &header, t, None, options)
+}
+
+/// The careful reader: one record at a time, every problem located.
+struct Careful<'a> {
+    cols: &'a Columns,
+    options: &'a ItemReadOptions,
+    width: usize,
+    decimal_comma: bool,
+    pairwise: Option<Pairwise>,
+    values: Vec<f64>,
+    optional: Vec<Option<f64>>,
+}
+
+impl Careful<'_> {
+    fn row(
+        &mut self,
+        row: usize,
+        record: &csv::ByteRecord,
+        t: &mut Tallies,
+        problems: &mut Problems,
+    ) {
         if record.iter().all(|c| c.iter().all(u8::is_ascii_whitespace)) {
-            continue;
+            return;
         }
         t.rows_read += 1;
-        let mut push = |p: CellProblem| {
-            if problems.len() < MAX_LISTED {
-                problems.push(p);
-            } else {
-                unlisted += 1;
-            }
-        };
+        let width = self.width;
         if record.len() != width
             && !(record.len() > width && record.iter().skip(width).all(|c| c.is_empty()))
         {
-            push(CellProblem::row(
-                row_number,
+            problems.push(CellProblem::row(
+                row,
                 format!(
                     "the row has {} cells but the header has {width} columns",
                     record.len()
                 ),
             ));
-            continue;
+            return;
         }
-        for &u in &unnamed {
+        for &u in &self.cols.unnamed {
             if record.get(u).is_some_and(|c| !c.trim_ascii().is_empty()) {
-                push(CellProblem::cell(
-                    row_number,
+                problems.push(CellProblem::cell(
+                    row,
                     format!("{} (unnamed)", u + 1),
                     "the cell holds a value but its column has no name in the header",
                 ));
             }
         }
+        for (j, &c) in self.cols.id_columns.iter().enumerate() {
+            t.ids[j].push(cell_hash(record.get(c).unwrap_or(b"").trim_ascii()));
+        }
         let mut complete = true;
         let mut bad = false;
-        for (slot, &col) in columns.iter().enumerate() {
-            let cell = record.get(col).unwrap_or(b"");
-            let trimmed = cell.trim_ascii();
-            if missing_cell(trimmed) {
+        for (slot, &col) in self.cols.items.iter().enumerate() {
+            let trimmed = record.get(col).unwrap_or(b"").trim_ascii();
+            let parsed = if missing_cell(trimmed) {
+                None
+            } else {
+                match parse_response(trimmed, self.decimal_comma) {
+                    Ok(x) if is_missing_code(x, &self.options.missing_codes) => None,
+                    Ok(x) => Some(x),
+                    Err(e) => {
+                        problems.push(CellProblem::cell(
+                            row,
+                            self.cols.names[slot].clone(),
+                            format!(
+                                "{e}; a response must be a number (mark a missing one empty, \
+                                 NA or .)"
+                            ),
+                        ));
+                        bad = true;
+                        continue;
+                    }
+                }
+            };
+            let Some(mut x) = parsed else {
                 complete = false;
                 t.missing_cells += 1;
-                optional[slot] = None;
+                self.optional[slot] = None;
                 continue;
-            }
-            match parse_response(trimmed, decimal_comma) {
-                Ok(mut x) => {
-                    if let Some((lo, hi)) = options.scale {
-                        if x < lo || x > hi {
-                            push(CellProblem::cell(
-                                row_number,
-                                names[slot].clone(),
-                                format!("{x} lies outside the response scale {lo} to {hi}"),
-                            ));
-                            bad = true;
-                            continue;
-                        }
-                        if reversed[slot] {
-                            x = lo + hi - x;
-                        }
-                    }
-                    values[slot] = x;
-                    optional[slot] = Some(x);
-                    t.answer(slot, x);
-                }
-                Err(e) => {
-                    push(CellProblem::cell(
-                        row_number,
-                        names[slot].clone(),
-                        format!(
-                            "{e}; a response must be a number (mark a missing one empty, NA or .)"
-                        ),
+            };
+            if let Some((lo, hi)) = self.options.scale {
+                if x < lo || x > hi {
+                    problems.push(CellProblem::cell(
+                        row,
+                        self.cols.names[slot].clone(),
+                        format!("{x} lies outside the response scale {lo} to {hi}"),
                     ));
                     bad = true;
-                }
-            }
-        }
-        if bad {
-            // Without --items, a text column in the first row is most likely an identifier:
-            // say so once instead of listing every row.
-            if options.items.is_none() && t.rows_read == 1 {
-                // Identifier-like text: it starts with a letter (R001, P1, anna).
-                let text: Vec<String> = columns
-                    .iter()
-                    .filter(|&&c| {
-                        let cell = record.get(c).unwrap_or(b"").trim_ascii();
-                        !missing_cell(cell)
-                            && parse_response(cell, decimal_comma).is_err()
-                            && cell.first().is_some_and(u8::is_ascii_alphabetic)
-                    })
-                    .map(|&c| header[c].clone())
-                    .collect();
-                let numeric: Vec<String> = names
-                    .iter()
-                    .filter(|n| !text.contains(n))
-                    .cloned()
-                    .collect();
-                if text.is_empty() {
                     continue;
                 }
-                return Err(Error::InvalidSheet {
-                    file: file.clone(),
-                    problems: vec![CellProblem::row(
-                        row_number,
-                        format!(
-                            "column(s) {} hold text, so not every column is an item; name the \
-                             item columns with --items, e.g. --items {}",
-                            text.join(", "),
-                            numeric.join(",")
-                        ),
-                    )],
-                });
+                if self.cols.reversed[slot] {
+                    x = lo + hi - x;
+                }
             }
-            continue;
+            self.values[slot] = x;
+            self.optional[slot] = Some(x);
+            t.answer(slot, x);
         }
-        if let Some(p) = pairwise.as_mut() {
-            p.add(&optional);
+        if bad {
+            return;
+        }
+        if let Some(p) = self.pairwise.as_mut() {
+            p.add(&self.optional);
         }
         if complete {
-            t.listwise.add(&values);
+            t.listwise.add(&self.values);
             if let Some(r) = t.rows.as_mut() {
-                r.extend_from_slice(&values);
+                r.extend_from_slice(&self.values);
             }
         }
     }
-    if unlisted > 0 {
-        problems.push(CellProblem::file(format!(
-            "… and {unlisted} more problem(s) of the same kinds"
-        )));
-    }
-    if !problems.is_empty() {
-        return Err(Error::InvalidSheet { file, problems });
-    }
+}
+
+/// The item data from the tallies of one pass: identifier columns judged, notes made.
+#[allow(clippy::too_many_arguments)]
+fn finish(
+    file: String,
+    format: SheetFormat,
+    worksheet: Option<String>,
+    cols: Columns,
+    header: &[String],
+    t: Tallies,
+    pairwise: Option<Pairwise>,
+    options: &ItemReadOptions,
+) -> Result<ItemData> {
     let Tallies {
         listwise,
         seen,
@@ -445,21 +704,64 @@ fn read_items_with(
         rows_read,
         missing_cells,
         rows,
+        ids,
         ..
     } = t;
+    let Columns {
+        names,
+        reversed,
+        id_columns,
+        ..
+    } = cols;
     if rows_read == 0 {
-        return Err(fail(
+        return Err(Problems::one(
+            &file,
             1,
-            "the file has a header row but no respondents below it".into(),
+            "the file has a header row but no respondents below it",
         ));
     }
-    if let Some(i) = seen.iter().position(|&c| c == 0) {
-        return Err(Error::CannotAnalyse(format!(
-            "{file}: column {} has no answers at all; leave it out with --items",
-            names[i]
-        )));
-    }
+    let k = names.len();
+    // A text column is an identifier when every respondent has a different value in it.
     let mut notes = Vec::new();
+    let mut identifiers = Vec::new();
+    for (j, &c) in id_columns.iter().enumerate() {
+        let mut h = ids[j].clone();
+        h.sort_unstable();
+        let unique = h.len() as u64 == rows_read && h.windows(2).all(|w| w[0] != w[1]);
+        if !unique {
+            let suggested: Vec<&str> = names
+                .iter()
+                .enumerate()
+                .filter(|(i, _)| !(counting[*i] && seen[*i] >= 3))
+                .map(|(_, n)| n.as_str())
+                .collect();
+            return Err(Problems::one(
+                &file,
+                2,
+                msg![
+                    format!(
+                        "column {} holds text, so it is not an item, and its values repeat, so \
+                         it is not a respondent identifier either; name the item columns with ",
+                        header[c]
+                    ),
+                    given(options.columns_setting, suggested.join(","))
+                ],
+            ));
+        }
+        identifiers.push(header[c].clone());
+        notes.push(crate::Warning::IdentifierLeftOut {
+            column: header[c].clone(),
+        });
+    }
+    if let Some(i) = seen.iter().position(|&c| c == 0) {
+        return Err(Error::cannot(msg![
+            format!(
+                "{file}: column {} has no answers at all; leave it out with ",
+                names[i]
+            ),
+            options.columns_setting
+        ]));
+    }
     for i in 0..k {
         if counting[i] && seen[i] >= 3 {
             notes.push(crate::Warning::IdentifierColumn {
@@ -472,7 +774,7 @@ fn read_items_with(
         None => listwise.finish(),
     }
     .ok_or_else(|| {
-        Error::CannotAnalyse(format!(
+        Error::cannot(format!(
             "{file}: fewer than 2 respondents {} ({} row(s) read, {} complete)",
             match options.missing {
                 Missing::Listwise => "answered every item",
@@ -506,6 +808,8 @@ fn read_items_with(
     Ok(ItemData {
         notes,
         file,
+        format,
+        worksheet,
         names,
         reversed,
         rows_read,
@@ -514,6 +818,7 @@ fn read_items_with(
         missing: options.missing,
         moments,
         rows,
+        identifiers,
     })
 }
 
@@ -541,6 +846,7 @@ mod tests {
                 assert_eq!(a.missing_cells, b.missing_cells);
                 assert_eq!(a.notes, b.notes);
                 assert_eq!(a.rows, b.rows);
+                assert_eq!(a.identifiers, b.identifiers);
                 assert!((a.moments.cov.clone() - b.moments.cov.clone()).abs().max() < 1e-12);
                 assert!(
                     (a.moments.mean.clone() - b.moments.mean.clone())
@@ -603,6 +909,17 @@ mod tests {
             d.rows.as_ref().map(|r| r.len()),
             Some(3 * d.complete_rows as usize)
         );
+        // A declared missing-value code counts as missing in both readers.
+        let coded = ItemReadOptions {
+            missing_codes: vec![99.0],
+            ..ItemReadOptions::default()
+        };
+        let d = both(&p, &coded).unwrap();
+        assert!(
+            !d.notes
+                .iter()
+                .any(|w| matches!(w, crate::Warning::ExtremeResponse { .. }))
+        );
     }
 
     /// Whatever the fast path declines (quotes, text, ragged rows, values off the scale,
@@ -628,5 +945,29 @@ mod tests {
         };
         let err = both(&p, &opts).unwrap_err();
         assert!(err.contains("row 3, column b"), "{err}");
+    }
+
+    /// A text column with a different value for every respondent is left out as an
+    /// identifier (both readers); one whose values repeat is an error whose hint leaves
+    /// the counting column out (issue 10).
+    #[test]
+    fn identifier_columns_are_left_out() {
+        let p = write(
+            "ids.csv",
+            "code,n,a,b,c\nR01,1,1,2,3\nR02,2,2,2,3\nR03,3,3,4,4\nR04,4,4,4,5\nR05,5,5,4,4\n",
+        );
+        let d = both(&p, &ItemReadOptions::default()).unwrap();
+        assert_eq!(d.identifiers, ["code"]);
+        assert_eq!(d.names, ["n", "a", "b", "c"]);
+        assert!(d.notes.iter().any(
+            |w| matches!(w, crate::Warning::IdentifierLeftOut { column } if column == "code")
+        ));
+        let p = write(
+            "groups.csv",
+            "group,n,a,b,c\nA,1,3,2,3\nB,2,2,2,3\nA,3,3,4,4\nB,4,4,4,5\n",
+        );
+        let err = both(&p, &ItemReadOptions::default()).unwrap_err();
+        assert!(err.contains("column group holds text"), "{err}");
+        assert!(err.contains("\"a,b,c\""), "{err}");
     }
 }

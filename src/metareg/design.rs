@@ -1,26 +1,53 @@
-//! Moderators and the design matrix: numeric moderators as they are, categorical ones in
-//! treatment coding against a stated reference level.
+//! Moderators and the design matrix: numeric moderators (centred at their means unless
+//! asked otherwise), categorical ones in treatment coding against a stated reference level.
 
 use crate::benchmark::Prepared;
 use crate::error::{CellProblem, Error, Result};
-use crate::sheet::{Role, StudyRecord, parse_number};
+use crate::msg;
+use crate::setting::{Setting, given};
+use crate::sheet::{
+    ColumnRef, Role, SheetFormat, StudyRecord, find_column, parse_number, same_name,
+};
+use crate::warning::{VIF_LIMIT, Warning};
 use nalgebra::DMatrix;
 use std::collections::BTreeMap;
 
 /// How a moderator is to be treated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum ModeratorKind {
-    /// Numeric when every value is a number, categorical when none is.
+    /// Numeric when most values are numbers, categorical otherwise.
     Auto,
     /// Categorical whatever its values look like (e.g. numeric codes).
     Categorical,
 }
 
+/// Where numeric moderators are measured from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum Centring {
+    /// From their means over the studies in the model: the intercept is the expected
+    /// value of a study with average moderator values (at the reference level of each
+    /// categorical moderator).
+    #[default]
+    Means,
+    /// From zero: the intercept is the expected value where every numeric moderator is 0.
+    None,
+}
+
+impl Centring {
+    /// The name in JSON: "means" or "none".
+    pub fn name(self) -> &'static str {
+        match self {
+            Centring::Means => "means",
+            Centring::None => "none",
+        }
+    }
+}
+
 /// A moderator requested by the user.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct ModeratorSpec {
-    /// Column name (an extra column, or a numeric standard column: n, items, sd,
-    /// scale_min, scale_max).
+    /// Column name (another column of the sheet, or one of the standard columns n, items,
+    /// sd, scale_min, scale_max and coef_type).
     pub name: String,
     /// Numeric or categorical.
     pub kind: ModeratorKind,
@@ -48,6 +75,8 @@ pub enum Moderator {
         name: String,
         /// Its column in the design.
         column: usize,
+        /// The value its column is measured from (its mean, or 0 when not centred).
+        centre: f64,
     },
     /// A categorical moderator: one column per level other than the reference.
     Categorical {
@@ -99,8 +128,12 @@ pub struct Design {
     pub names: Vec<String>,
     /// The moderators, in the order given.
     pub moderators: Vec<Moderator>,
+    /// Where the numeric moderators are measured from.
+    pub centring: Centring,
     /// Studies left out because a moderator value is missing.
     pub excluded: Vec<ExcludedRow>,
+    /// Things noticed while building it (level spellings, collinearity).
+    pub warnings: Vec<Warning>,
 }
 
 impl Design {
@@ -109,25 +142,39 @@ impl Design {
         self.used.iter().map(|&i| (y[i], v[i])).unzip()
     }
 
-    /// The design row for given moderator values (`name` → value as text).
+    /// The design row of a study with the given moderator values (`name` → value as
+    /// text; names and levels matched as column names are). `setting` is where the
+    /// values came from, for messages; `format` says how numbers may be written.
     pub fn row_for(
         &self,
         values: &BTreeMap<String, String>,
-        decimal_comma: bool,
+        format: SheetFormat,
+        setting: Setting,
     ) -> Result<Vec<f64>> {
         let mut row = vec![0.0; self.x.ncols()];
         row[0] = 1.0;
         let mut missing = Vec::new();
         for m in &self.moderators {
-            let Some(text) = values.get(m.name()) else {
+            let Some((_, text)) = values.iter().find(|(k, _)| same_name(k, m.name())) else {
                 missing.push(m.name().to_string());
                 continue;
             };
             match m {
-                Moderator::Numeric { name, column } => {
-                    row[*column] = parse_number(text, decimal_comma).map_err(|e| {
-                        Error::InvalidOption(format!("the value given for moderator {name}: {e}"))
+                Moderator::Numeric {
+                    name,
+                    column,
+                    centre,
+                } => {
+                    let x = parse_number(text, format.decimal_comma()).map_err(|e| {
+                        Error::setting(
+                            setting,
+                            msg![
+                                given(setting, format!("{name}={text}")),
+                                format!(": the value of moderator {name}: {e}")
+                            ],
+                        )
                     })?;
+                    row[*column] = x - centre;
                 }
                 Moderator::Categorical {
                     name,
@@ -135,39 +182,74 @@ impl Design {
                     levels,
                     ..
                 } => {
-                    let t = text.trim();
-                    if t != reference {
-                        let Some((_, col)) = levels.iter().find(|(l, _)| l == t) else {
-                            let mut all = vec![reference.clone()];
-                            all.extend(levels.iter().map(|(l, _)| l.clone()));
-                            return Err(Error::InvalidOption(format!(
-                                "the level {t} given for moderator {name}: no study in the model has this \
-                                 level, so the model says nothing about it (levels: {})",
-                                all.join(", ")
-                            )));
-                        };
-                        row[*col] = 1.0;
+                    if same_name(text, reference) {
+                        continue;
                     }
+                    let Some((_, col)) = levels.iter().find(|(l, _)| same_name(l, text)) else {
+                        let mut all = vec![reference.clone()];
+                        all.extend(levels.iter().map(|(l, _)| l.clone()));
+                        return Err(Error::setting(
+                            setting,
+                            msg![
+                                given(setting, format!("{name}={}", text.trim())),
+                                format!(
+                                    ": no study in the model has this level of {name}, so the \
+                                     model says nothing about it (levels: {})",
+                                    all.join(", ")
+                                )
+                            ],
+                        ));
+                    };
+                    row[*col] = 1.0;
                 }
             }
         }
         if !missing.is_empty() {
-            return Err(Error::InvalidOption(format!(
-                "give the new study's value of every moderator in the model with --at NAME=VALUE; \
-                 missing: {}",
-                missing.join(", ")
-            )));
+            return Err(Error::setting(
+                setting,
+                msg![
+                    "give the new study's value of every moderator in the model (",
+                    setting,
+                    format!("); missing: {}", missing.join(", "))
+                ],
+            ));
         }
         if let Some(extra) = values
             .keys()
-            .find(|k| !self.moderators.iter().any(|m| m.name() == k.as_str()))
+            .find(|k| !self.moderators.iter().any(|m| same_name(m.name(), k)))
         {
-            return Err(Error::InvalidOption(format!(
-                "--at {extra}=…: {extra} is not a moderator of the model (add it with --moderator \
-                 {extra}, or leave it out)"
-            )));
+            return Err(Error::setting(
+                setting,
+                msg![
+                    given(setting, format!("{extra}=…")),
+                    format!(": {extra} is not a moderator of the model (add it with "),
+                    given(Setting::Moderators, extra.clone()),
+                    ", or leave it out)"
+                ],
+            ));
         }
         Ok(row)
+    }
+
+    /// The moderator values at which the intercept is the expected value, in words: "at
+    /// the mean of year (2011.3)", for reports.
+    pub fn intercept_meaning(&self) -> String {
+        let mut parts = Vec::new();
+        for m in &self.moderators {
+            match m {
+                Moderator::Numeric { name, centre, .. } => match self.centring {
+                    Centring::Means => parts.push(format!(
+                        "{name} at its mean ({})",
+                        crate::format::significant(*centre, 4)
+                    )),
+                    Centring::None => parts.push(format!("{name} = 0")),
+                },
+                Moderator::Categorical {
+                    name, reference, ..
+                } => parts.push(format!("{name} = {reference}")),
+            }
+        }
+        crate::format::and_list(&parts)
     }
 }
 
@@ -180,87 +262,160 @@ const NUMERIC_ROLES: [Role; 5] = [
     Role::ScaleMax,
 ];
 
-/// A moderator's value in one study, as text, or `None` when missing.
-fn value_of(p: &Prepared, rec: &StudyRecord, name: &str) -> Result<Option<String>> {
-    if let Some(i) = p
-        .extra_columns
-        .iter()
-        .position(|c| c.eq_ignore_ascii_case(name))
-    {
-        return Ok(rec.extra[i].clone());
-    }
-    for role in NUMERIC_ROLES {
-        let header = p.columns.get(&role).map(String::as_str);
-        if role.name().eq_ignore_ascii_case(name)
-            || header.is_some_and(|h| h.eq_ignore_ascii_case(name))
-        {
-            if role == Role::Sd {
+/// Which column a moderator's name refers to, or why it cannot be one.
+fn moderator_column(p: &Prepared, name: &str) -> Result<ColumnRef> {
+    let not = |why: &str| {
+        Error::setting(
+            Setting::Moderators,
+            msg![given(Setting::Moderators, name), format!(": {why}")],
+        )
+    };
+    match find_column(&p.columns, &p.extra_columns, name) {
+        Some(ColumnRef::Standard(role)) => match role {
+            Role::Coef => Err(not(
+                "coef holds the coefficients the moderators are to explain; it cannot also \
+                 explain them",
+            )),
+            Role::Var => Err(not(
+                "var holds each coefficient's sampling variance, which the model already uses \
+                 as its weight",
+            )),
+            Role::Study => Err(not(
+                "study holds the labels of the studies, one per row; it cannot explain \
+                 differences between them",
+            )),
+            Role::SdMetric => Err(not(
+                "sd_metric only says how to read sd; the score-spread test puts the SDs on one \
+                 metric",
+            )),
+            Role::Sd => {
                 let first = p.records.first().and_then(|r| r.sd_metric);
                 if first.is_none() || p.records.iter().any(|r| r.sd_metric != first) {
-                    return Err(Error::InvalidOption(format!(
-                        "--moderator {name}: the sheet's SDs are not all on one metric (sd_metric \
-                         missing or mixed sum and mean), so they cannot be compared as they \
-                         are; use --score-spread, which puts them on one metric"
-                    )));
+                    return Err(Error::setting(
+                        Setting::Moderators,
+                        msg![
+                            given(Setting::Moderators, name),
+                            ": the sheet's SDs are not all on one metric (sd_metric missing or \
+                             mixed sum and mean), so they cannot be compared as they are; use ",
+                            Setting::ScoreSpread,
+                            ", which puts them on one metric"
+                        ],
+                    ));
                 }
+                Ok(ColumnRef::Standard(role))
             }
-            let v = match role {
-                Role::N => rec.n.map(|x| x as f64),
-                Role::Items => rec.items.map(f64::from),
-                Role::Sd => rec.sd,
-                Role::ScaleMin => rec.scale_min,
-                Role::ScaleMax => rec.scale_max,
-                _ => None,
-            };
-            return Ok(v.map(|x| x.to_string()));
+            _ => Ok(ColumnRef::Standard(role)),
+        },
+        Some(c) => Ok(c),
+        None => {
+            let mut available: Vec<String> = p.extra_columns.clone();
+            available.extend(
+                NUMERIC_ROLES
+                    .iter()
+                    .chain([Role::CoefType].iter())
+                    .filter(|r| p.columns.contains_key(r))
+                    .map(|r| r.name().to_string()),
+            );
+            Err(Error::setting(
+                Setting::Moderators,
+                msg![
+                    given(Setting::Moderators, name),
+                    format!(
+                        ": the sheet has no such column (columns available as moderators: {})",
+                        if available.is_empty() {
+                            "none".to_string()
+                        } else {
+                            available.join(", ")
+                        }
+                    )
+                ],
+            ))
         }
     }
-    let mut available: Vec<String> = p.extra_columns.clone();
-    available.extend(
-        NUMERIC_ROLES
-            .iter()
-            .filter(|r| p.columns.contains_key(r))
-            .map(|r| r.name().to_string()),
-    );
-    Err(Error::InvalidOption(format!(
-        "{name}: the sheet has no such column (columns available as moderators: {})",
-        if available.is_empty() {
-            "none".to_string()
-        } else {
-            available.join(", ")
-        }
-    )))
+}
+
+fn value_of(rec: &StudyRecord, column: ColumnRef) -> Option<String> {
+    rec.value(column).map(|s| s.trim().to_string())
 }
 
 /// A column's values over the prepared studies (`None` where missing); an error names the
 /// available columns when there is no such column.
 pub fn column_values(p: &Prepared, name: &str) -> Result<Vec<Option<String>>> {
-    p.records
-        .iter()
-        .map(|r| value_of(p, r, name).map(|v| v.map(|s| s.trim().to_string())))
-        .collect()
+    let c = moderator_column(p, name)?;
+    Ok(p.records.iter().map(|r| value_of(r, c)).collect())
+}
+
+/// The levels of a categorical column: each value's level (its first spelling in sheet
+/// order, so that values differing only in case or spaces are one level), with a warning
+/// for every level written more than one way.
+pub fn levels_of(
+    name: &str,
+    cells: &[(usize, String)],
+    warnings: &mut Vec<Warning>,
+) -> Vec<String> {
+    let mut order: Vec<String> = Vec::new();
+    let mut spellings: BTreeMap<usize, (Vec<String>, Vec<usize>)> = BTreeMap::new();
+    let mut out = Vec::with_capacity(cells.len());
+    for (row, t) in cells {
+        let t = t.trim();
+        let i = match order.iter().position(|l| same_name(l, t)) {
+            Some(i) => i,
+            None => {
+                order.push(t.to_string());
+                order.len() - 1
+            }
+        };
+        if order[i] != t {
+            let e = spellings
+                .entry(i)
+                .or_insert_with(|| (vec![order[i].clone()], Vec::new()));
+            if !e.0.iter().any(|s| s == t) {
+                e.0.push(t.to_string());
+            }
+            e.1.push(*row);
+        }
+        out.push(order[i].clone());
+    }
+    for (i, (spelled, rows)) in spellings {
+        warnings.push(Warning::LevelSpellings {
+            moderator: name.to_string(),
+            level: order[i].clone(),
+            spellings: spelled,
+            rows,
+        });
+    }
+    out
 }
 
 /// Build the design for the given moderators over the prepared studies. Studies with a
 /// missing moderator value are left out and listed; a numeric column with a few text
 /// values, a constant moderator, a singular design or too few studies are errors.
-pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
-    let mut seen: Vec<String> = Vec::new();
+pub fn build_design(p: &Prepared, specs: &[ModeratorSpec], centring: Centring) -> Result<Design> {
+    let mut seen: Vec<&str> = Vec::new();
     for s in specs {
-        if seen.iter().any(|n| n.eq_ignore_ascii_case(&s.name)) {
-            return Err(Error::InvalidOption(format!(
-                "--moderator {} is given twice",
-                s.name
-            )));
+        if seen.iter().any(|n| same_name(n, &s.name)) {
+            return Err(Error::setting(
+                Setting::Moderators,
+                msg![
+                    given(Setting::Moderators, s.name.clone()),
+                    " is given twice"
+                ],
+            ));
         }
-        seen.push(s.name.clone());
+        seen.push(&s.name);
     }
     // Values, and which rows lack one.
     let mut values: Vec<Vec<Option<String>>> = Vec::with_capacity(specs.len());
+    let mut kinds = Vec::with_capacity(specs.len());
     for s in specs {
-        let col: Result<Vec<Option<String>>> =
-            p.records.iter().map(|r| value_of(p, r, &s.name)).collect();
-        values.push(col?);
+        let c = moderator_column(p, &s.name)?;
+        let categorical_role = c == ColumnRef::Standard(Role::CoefType);
+        kinds.push(if categorical_role {
+            ModeratorKind::Categorical
+        } else {
+            s.kind
+        });
+        values.push(p.records.iter().map(|r| value_of(r, c)).collect());
     }
     let mut used = Vec::new();
     let mut excluded = Vec::new();
@@ -280,136 +435,33 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
             });
         }
     }
-    let decimal_comma = p.delimiter != b',';
-
-    let mut columns: Vec<Vec<f64>> = vec![vec![1.0; used.len()]];
-    let mut names = vec!["intercept".to_string()];
-    let mut moderators = Vec::new();
-    let mut problems = Vec::new();
-    for (s, col) in specs.iter().zip(&values) {
-        let cells: Vec<(usize, &str)> = used
+    let mut b = Builder {
+        columns: vec![vec![1.0; used.len()]],
+        names: vec!["intercept".to_string()],
+        moderators: Vec::new(),
+        problems: Vec::new(),
+        warnings: Vec::new(),
+    };
+    for ((s, col), kind) in specs.iter().zip(&values).zip(kinds) {
+        let cells: Vec<(usize, String)> = used
             .iter()
             .map(|&i| {
-                (
-                    p.records[i].row,
-                    col[i].as_deref().expect("used rows have values"),
-                )
+                let v = col[i].clone().expect("used rows have values");
+                (p.records[i].row, v)
             })
             .collect();
-        let parsed: Vec<std::result::Result<f64, String>> = cells
-            .iter()
-            .map(|(_, t)| parse_number(t, decimal_comma))
-            .collect();
-        let n_numeric = parsed.iter().filter(|r| r.is_ok()).count();
-        let numeric =
-            s.kind == ModeratorKind::Auto && n_numeric * 2 >= cells.len() && !cells.is_empty();
-        if numeric {
-            if n_numeric < cells.len() {
-                for ((row, _), r) in cells.iter().zip(&parsed) {
-                    if let Err(e) = r {
-                        problems.push(CellProblem::cell(
-                            *row,
-                            s.name.clone(),
-                            format!(
-                                "{e}, while most values of this moderator are numbers; mark a \
-                                 missing value empty, NA or ., or pass --categorical {} to treat \
-                                 every value as a category",
-                                s.name
-                            ),
-                        ));
-                    }
-                }
-                continue;
-            }
-            if s.reference.is_some() {
-                return Err(Error::InvalidOption(format!(
-                    "--reference {}=…: {} is numeric, so it has no reference level (pass \
-                     --categorical {} to treat it as categories)",
-                    s.name, s.name, s.name
-                )));
-            }
-            let xs: Vec<f64> = parsed.into_iter().map(|r| r.expect("checked")).collect();
-            if xs.iter().all(|x| *x == xs[0]) && !xs.is_empty() {
-                return Err(Error::CannotAnalyse(format!(
-                    "moderator {} takes the same value ({}) in every study of the model, so it \
-                     cannot explain differences between them",
-                    s.name, xs[0]
-                )));
-            }
-            moderators.push(Moderator::Numeric {
-                name: s.name.clone(),
-                column: columns.len(),
-            });
-            names.push(s.name.clone());
-            columns.push(xs);
-        } else {
-            let mut order: Vec<String> = Vec::new();
-            let mut counts: BTreeMap<String, usize> = BTreeMap::new();
-            for (_, t) in &cells {
-                let t = t.trim().to_string();
-                if !order.contains(&t) {
-                    order.push(t.clone());
-                }
-                *counts.entry(t).or_insert(0) += 1;
-            }
-            if order.len() < 2 {
-                return Err(Error::CannotAnalyse(format!(
-                    "moderator {} has only one level ({}) among the studies of the model, so it \
-                     cannot explain differences between them",
-                    s.name,
-                    order.first().map(String::as_str).unwrap_or("none")
-                )));
-            }
-            let reference = match &s.reference {
-                Some(r) => {
-                    let r = r.trim().to_string();
-                    if !counts.contains_key(&r) {
-                        return Err(Error::InvalidOption(format!(
-                            "--reference {}={r}: no study in the model has this level (levels: {})",
-                            s.name,
-                            order.join(", ")
-                        )));
-                    }
-                    r
-                }
-                None => {
-                    // The level with most studies (the first such in sheet order).
-                    let max = counts.values().copied().max().unwrap_or(0);
-                    order
-                        .iter()
-                        .find(|l| counts[*l] == max)
-                        .cloned()
-                        .expect("a level")
-                }
-            };
-            let mut levels = Vec::new();
-            for level in order.iter().filter(|l| **l != reference) {
-                let dummy: Vec<f64> = cells
-                    .iter()
-                    .map(|(_, t)| if t.trim() == level { 1.0 } else { 0.0 })
-                    .collect();
-                levels.push((level.clone(), columns.len()));
-                names.push(format!("{}={level}", s.name));
-                columns.push(dummy);
-            }
-            moderators.push(Moderator::Categorical {
-                name: s.name.clone(),
-                reference,
-                levels,
-                counts,
-            });
-        }
+        b.add(s, kind, &cells, p.source.format, centring)?;
     }
-    if !problems.is_empty() {
+    if !b.problems.is_empty() {
         return Err(Error::InvalidSheet {
-            file: p.file.clone(),
-            problems,
+            file: p.file().to_string(),
+            problems: b.problems,
         });
     }
     let k = used.len();
-    let n_coef = columns.len();
+    let n_coef = b.columns.len();
     if k <= n_coef + 1 {
-        return Err(Error::CannotAnalyse(format!(
+        return Err(Error::cannot(format!(
             "{k} studies cannot support a model with {n_coef} coefficients (intercept included): \
              at least {} are needed, so that the residual heterogeneity keeps two degrees of \
              freedom{}",
@@ -424,14 +476,224 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec]) -> Result<Design> {
             }
         )));
     }
-    let x = DMatrix::from_fn(k, n_coef, |i, j| columns[j][i]);
-    check_rank(&x, &names)?;
+    let x = DMatrix::from_fn(k, n_coef, |i, j| b.columns[j][i]);
+    check_rank(&x, &b.names)?;
+    let mut warnings = b.warnings;
+    if let Some(w) = collinearity(&x, &b.names, &b.moderators) {
+        warnings.push(w);
+    }
     Ok(Design {
         used,
         x,
-        names,
-        moderators,
+        names: b.names,
+        moderators: b.moderators,
+        centring,
         excluded,
+        warnings,
+    })
+}
+
+/// The design's columns as they are built.
+struct Builder {
+    columns: Vec<Vec<f64>>,
+    names: Vec<String>,
+    moderators: Vec<Moderator>,
+    problems: Vec<CellProblem>,
+    warnings: Vec<Warning>,
+}
+
+impl Builder {
+    /// Add one moderator's column(s).
+    fn add(
+        &mut self,
+        s: &ModeratorSpec,
+        kind: ModeratorKind,
+        cells: &[(usize, String)],
+        format: SheetFormat,
+        centring: Centring,
+    ) -> Result<()> {
+        let parsed: Vec<std::result::Result<f64, String>> = cells
+            .iter()
+            .map(|(_, t)| parse_number(t, format.decimal_comma()))
+            .collect();
+        let n_numeric = parsed.iter().filter(|r| r.is_ok()).count();
+        let numeric =
+            kind == ModeratorKind::Auto && n_numeric * 2 >= cells.len() && !cells.is_empty();
+        if !numeric {
+            return self.add_categorical(s, cells);
+        }
+        if n_numeric < cells.len() {
+            for ((row, _), r) in cells.iter().zip(&parsed) {
+                if let Err(e) = r {
+                    self.problems.push(CellProblem::cell(
+                        *row,
+                        s.name.clone(),
+                        msg![
+                            format!(
+                                "{e}, while most values of this moderator are numbers; mark a \
+                                 missing value empty, NA or ., or ask for "
+                            ),
+                            given(Setting::Categorical, s.name.clone()),
+                            " to treat every value as a category"
+                        ],
+                    ));
+                }
+            }
+            return Ok(());
+        }
+        if s.reference.is_some() {
+            return Err(Error::setting(
+                Setting::ReferenceLevel,
+                msg![
+                    given(Setting::ReferenceLevel, format!("{}=…", s.name)),
+                    format!(
+                        ": {} is numeric, so it has no reference level (ask for ",
+                        s.name
+                    ),
+                    given(Setting::Categorical, s.name.clone()),
+                    " to treat it as categories)"
+                ],
+            ));
+        }
+        let xs: Vec<f64> = parsed.into_iter().map(|r| r.expect("checked")).collect();
+        if !xs.is_empty() && xs.iter().all(|x| *x == xs[0]) {
+            return Err(Error::cannot(format!(
+                "moderator {} takes the same value ({}) in every study of the model, so it \
+                 cannot explain differences between them",
+                s.name, xs[0]
+            )));
+        }
+        let centre = match centring {
+            Centring::Means => xs.iter().sum::<f64>() / xs.len() as f64,
+            Centring::None => 0.0,
+        };
+        self.moderators.push(Moderator::Numeric {
+            name: s.name.clone(),
+            column: self.columns.len(),
+            centre,
+        });
+        self.names.push(s.name.clone());
+        self.columns.push(xs.iter().map(|x| x - centre).collect());
+        Ok(())
+    }
+
+    fn add_categorical(&mut self, s: &ModeratorSpec, cells: &[(usize, String)]) -> Result<()> {
+        let levels = levels_of(&s.name, cells, &mut self.warnings);
+        let mut order: Vec<String> = Vec::new();
+        let mut counts: BTreeMap<String, usize> = BTreeMap::new();
+        for l in &levels {
+            if !order.contains(l) {
+                order.push(l.clone());
+            }
+            *counts.entry(l.clone()).or_insert(0) += 1;
+        }
+        if order.len() < 2 {
+            return Err(Error::cannot(format!(
+                "moderator {} has only one level ({}) among the studies of the model, so it \
+                 cannot explain differences between them",
+                s.name,
+                order.first().map(String::as_str).unwrap_or("none")
+            )));
+        }
+        let reference = match &s.reference {
+            Some(r) => order
+                .iter()
+                .find(|l| same_name(l, r))
+                .cloned()
+                .ok_or_else(|| {
+                    Error::setting(
+                        Setting::ReferenceLevel,
+                        msg![
+                            given(Setting::ReferenceLevel, format!("{}={}", s.name, r.trim())),
+                            format!(
+                                ": no study in the model has this level (levels: {})",
+                                order.join(", ")
+                            )
+                        ],
+                    )
+                })?,
+            None => {
+                // The level with most studies (the first such in sheet order).
+                let max = counts.values().copied().max().unwrap_or(0);
+                order
+                    .iter()
+                    .find(|l| counts[*l] == max)
+                    .cloned()
+                    .expect("a level")
+            }
+        };
+        let mut columns = Vec::new();
+        for level in order.iter().filter(|l| **l != reference) {
+            let dummy: Vec<f64> = levels
+                .iter()
+                .map(|l| if l == level { 1.0 } else { 0.0 })
+                .collect();
+            columns.push((level.clone(), self.columns.len()));
+            self.names.push(format!("{}={level}", s.name));
+            self.columns.push(dummy);
+        }
+        self.moderators.push(Moderator::Categorical {
+            name: s.name.clone(),
+            reference,
+            levels: columns,
+            counts,
+        });
+        Ok(())
+    }
+}
+
+/// A collinearity warning when a moderator column's variance inflation factor exceeds
+/// [`VIF_LIMIT`]: VIFⱼ = 1/(1 − R²ⱼ), the diagonal of the inverse correlation matrix of the
+/// moderator columns.
+///
+/// # References
+/// Belsley, D. A., Kuh, E., & Welsch, R. E. (1980). *Regression diagnostics*. New York:
+/// Wiley (chapter 3).
+fn collinearity(x: &DMatrix<f64>, names: &[String], moderators: &[Moderator]) -> Option<Warning> {
+    let (k, p) = (x.nrows(), x.ncols());
+    if p < 3 || k < 3 {
+        return None;
+    }
+    let cols: Vec<Vec<f64>> = (1..p)
+        .map(|j| {
+            let c: Vec<f64> = x.column(j).iter().copied().collect();
+            let m = c.iter().sum::<f64>() / k as f64;
+            let d: Vec<f64> = c.iter().map(|v| v - m).collect();
+            let norm = d.iter().map(|v| v * v).sum::<f64>().sqrt();
+            d.iter().map(|v| v / norm).collect()
+        })
+        .collect();
+    let m = cols.len();
+    let r = DMatrix::from_fn(m, m, |a, b| {
+        cols[a]
+            .iter()
+            .zip(&cols[b])
+            .map(|(u, v)| u * v)
+            .sum::<f64>()
+    });
+    let inv = r.try_inverse()?;
+    let vif: Vec<f64> = (0..m).map(|j| inv[(j, j)]).collect();
+    let worst = vif.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    if worst.is_nan() || worst <= VIF_LIMIT {
+        return None;
+    }
+    let mut involved: Vec<String> = Vec::new();
+    for (j, v) in vif.iter().enumerate() {
+        if *v > VIF_LIMIT {
+            let col = j + 1;
+            let name = moderators
+                .iter()
+                .find(|md| md.columns().contains(&col))
+                .map(|md| md.name().to_string())
+                .unwrap_or_else(|| names[col].clone());
+            if !involved.contains(&name) {
+                involved.push(name);
+            }
+        }
+    }
+    Some(Warning::Collinearity {
+        moderators: involved,
+        vif: worst,
     })
 }
 
@@ -466,9 +728,71 @@ pub(crate) fn check_rank(x: &DMatrix<f64>, names: &[String]) -> Result<()> {
                 .collect()
         })
         .unwrap_or_default();
-    Err(Error::CannotAnalyse(format!(
+    Err(Error::cannot(format!(
         "the moderators are collinear: {} are linearly dependent over the studies of the model, \
          so their effects cannot be told apart; drop one of them",
         involved.join(", ")
     )))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn levels_that_differ_in_case_or_spaces_are_one() {
+        let cells: Vec<(usize, String)> =
+            [(2, "Online"), (3, " online"), (4, "paper"), (5, "ONLINE ")]
+                .iter()
+                .map(|(r, t)| (*r, t.to_string()))
+                .collect();
+        let mut w = Vec::new();
+        let levels = levels_of("mode", &cells, &mut w);
+        assert_eq!(levels, ["Online", "Online", "paper", "Online"]);
+        assert!(
+            matches!(
+                &w[..],
+                [Warning::LevelSpellings { level, rows, .. }] if level == "Online" && rows == &[3, 5]
+            ),
+            "{w:?}"
+        );
+    }
+
+    /// Two nearly identical columns have a variance inflation factor far above 10; two
+    /// unrelated ones have one near 1 (VIF = 1/(1 − r²) for two columns: with r = 0.99 it
+    /// is 50.3).
+    #[test]
+    fn collinear_moderators_are_warned_about() {
+        let a = [1.0, 2.0, 3.0, 4.0, 5.0, 6.0];
+        let b = [1.1, 2.0, 2.9, 4.2, 4.9, 6.1];
+        let c = [3.0, -1.0, 2.0, 0.5, -2.0, 1.0];
+        let x = |u: &[f64], v: &[f64]| {
+            DMatrix::from_fn(6, 3, |i, j| match j {
+                0 => 1.0,
+                1 => u[i],
+                _ => v[i],
+            })
+        };
+        let names: Vec<String> = ["intercept", "a", "b"]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+        let mods = vec![
+            Moderator::Numeric {
+                name: "a".into(),
+                column: 1,
+                centre: 0.0,
+            },
+            Moderator::Numeric {
+                name: "b".into(),
+                column: 2,
+                centre: 0.0,
+            },
+        ];
+        assert!(matches!(
+            collinearity(&x(&a, &b), &names, &mods),
+            Some(Warning::Collinearity { vif, .. }) if vif > 10.0
+        ));
+        assert!(collinearity(&x(&a, &c), &names, &mods).is_none());
+    }
 }

@@ -7,14 +7,19 @@ pub mod permutation;
 pub mod spread;
 pub mod subgroups;
 
-pub use design::{Design, ExcludedRow, Moderator, ModeratorKind, ModeratorSpec, build_design};
+pub use design::{
+    Centring, Design, ExcludedRow, Moderator, ModeratorKind, ModeratorSpec, build_design,
+};
 
 use crate::benchmark::Prepared;
 use crate::dist::{chi2_sf, f_sf};
 use crate::error::{Error, Result};
+use crate::msg;
 use crate::pool::{FitOptions, MetaData, Model, ModelFit, fit_model};
+use crate::setting::Setting;
 use crate::warning::Warning;
 use nalgebra::{DMatrix, DVector};
+use std::collections::BTreeMap;
 
 /// A joint test that every moderator coefficient is zero.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -138,6 +143,7 @@ pub fn explain(p: &Prepared, design: Design, options: &FitOptions) -> Result<Exp
     };
     let columns: Vec<usize> = (1..design.x.ncols()).collect();
     let omnibus = omnibus(&fit, &columns);
+    warnings.extend(design.warnings.iter().cloned());
     if !design.excluded.is_empty() {
         warnings.push(Warning::RowsLeftOutOfModel {
             rows: design.excluded.iter().map(|e| e.row).collect(),
@@ -156,5 +162,58 @@ pub fn explain(p: &Prepared, design: Design, options: &FitOptions) -> Result<Exp
         r2,
         omnibus,
         warnings,
+    })
+}
+
+/// A model fitted for a study with given moderator values: the fit, its design (none
+/// without moderators) and the study's design row.
+#[derive(Debug, Clone)]
+pub struct FitAt {
+    /// The fit (intercept only without moderators).
+    pub fit: ModelFit,
+    /// The design, when there are moderators.
+    pub design: Option<Design>,
+    /// The study's design row.
+    pub x0: Vec<f64>,
+}
+
+/// Fit the benchmark model for a study with the moderator values `at` (intercept only when
+/// `moderators` is empty): the one owner of "the design plus the new study's row". `setting`
+/// names where the values came from in messages.
+pub fn fit_at(
+    p: &Prepared,
+    moderators: &[ModeratorSpec],
+    at: &BTreeMap<String, String>,
+    centring: Centring,
+    options: &FitOptions,
+    setting: Setting,
+) -> Result<FitAt> {
+    if moderators.is_empty() {
+        if !at.is_empty() {
+            return Err(Error::setting(
+                setting,
+                msg![
+                    setting,
+                    " sets moderator values, but no ",
+                    Setting::Moderators,
+                    " was given"
+                ],
+            ));
+        }
+        let data = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
+        return Ok(FitAt {
+            fit: fit_model(&data, options)?,
+            design: None,
+            x0: vec![1.0],
+        });
+    }
+    let design = build_design(p, moderators, centring)?;
+    let x0 = design.row_for(at, p.source.format, setting)?;
+    let (y, v) = design.effects(&p.y, &p.v);
+    let data = MetaData::with_design(y, v, design.x.clone())?;
+    Ok(FitAt {
+        fit: fit_model(&data, options)?,
+        design: Some(design),
+        x0,
     })
 }

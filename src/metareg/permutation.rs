@@ -5,9 +5,11 @@
 use super::{Explanation, wald_statistic};
 use crate::benchmark::Prepared;
 use crate::error::{Error, Result};
+use crate::msg;
 use crate::pool::fit_coefficients;
 use crate::pool::{FitOptions, MetaData};
 use crate::random::stream;
+use crate::setting::Setting;
 use rand::seq::SliceRandom;
 use rayon::prelude::*;
 
@@ -72,14 +74,20 @@ pub fn permutation_test(
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<PermutationResult> {
     if permutations == 0 {
-        return Err(Error::InvalidOption(
-            "--permutations must be at least 1".into(),
+        return Err(Error::setting(
+            Setting::Permutations,
+            msg![Setting::Permutations, " must be at least 1"],
         ));
     }
     let columns = ex.moderator_columns();
     if columns.is_empty() {
-        return Err(Error::InvalidOption(
-            "a permutation test needs at least one moderator".into(),
+        return Err(Error::setting(
+            Setting::Permutations,
+            msg![
+                "a permutation test needs at least one moderator (",
+                Setting::Moderators,
+                ")"
+            ],
         ));
     }
     let data = ex.data(p)?;

@@ -6,10 +6,12 @@
 //! ln(SD) gives slope −2 when the differences in reliability come wholly from the spread
 //! of scores, and slope 0 when the error variance grows with the total variance.
 
-use super::design::{ExcludedRow, ModeratorSpec, build_design, check_rank};
+use super::design::{Centring, ExcludedRow, ModeratorSpec, build_design, check_rank};
 use crate::benchmark::Prepared;
 use crate::error::{Error, Result};
+use crate::msg;
 use crate::pool::{Coefficient, FitOptions, MetaData, Model, ModelFit, fit_model};
+use crate::setting::{Setting, given};
 use crate::sheet::{SdMetric, StudyRecord};
 use crate::transform::{CoefficientFamily, TransformKind};
 use nalgebra::DMatrix;
@@ -110,7 +112,7 @@ pub fn harmonize(
         return fail(&format!(
             "a per-item SD of {} exceeds the largest possible on a {lo}–{hi} scale ({}); check \
              sd and sd_metric",
-            crate::report::format::significant(per_item, 3),
+            crate::format::significant(per_item, 3),
             (hi - lo) / 2.0
         ));
     }
@@ -289,10 +291,13 @@ impl ScoreSpread {
         let mut x0 = vec![1.0, sd.ln()];
         if self.log_items_column {
             let k = items.ok_or_else(|| {
-                Error::InvalidOption(
-                    "the score-spread model includes ln(items) (the benchmark's forms differ in \
-                     length); give --items"
-                        .into(),
+                Error::setting(
+                    Setting::StudyItems,
+                    msg![
+                        "the score-spread model includes ln(items) (the benchmark's forms differ \
+                         in length); give ",
+                        Setting::StudyItems
+                    ],
                 )
             })?;
             x0.push(f64::from(k).ln());
@@ -335,11 +340,15 @@ pub fn score_spread(
     p: &Prepared,
     metric: Option<SpreadMetric>,
     others: &[ModeratorSpec],
+    centring: Centring,
     options: &FitOptions,
 ) -> Result<ScoreSpread> {
-    score_spread_inner(p, metric, others, options).map_err(|e| match e {
-        Error::CannotAnalyse(m) => Error::CannotAnalyse(format!("score-spread model: {m}")),
-        Error::InvalidOption(m) => Error::InvalidOption(format!("score-spread model: {m}")),
+    score_spread_inner(p, metric, others, centring, options).map_err(|e| match e {
+        Error::CannotAnalyse(m) => Error::CannotAnalyse(m.prefixed("score-spread model: ")),
+        Error::InvalidSetting { setting, message } => Error::InvalidSetting {
+            setting,
+            message: message.prefixed("score-spread model: "),
+        },
         other => other,
     })
 }
@@ -348,13 +357,17 @@ fn score_spread_inner(
     p: &Prepared,
     metric: Option<SpreadMetric>,
     others: &[ModeratorSpec],
+    centring: Centring,
     options: &FitOptions,
 ) -> Result<ScoreSpread> {
     if p.transform == TransformKind::None {
-        return Err(Error::InvalidOption(
-            "the score-spread test needs reliability coefficients; with --transform none the \
-             sheet holds effects of unknown kind"
-                .into(),
+        return Err(Error::setting(
+            Setting::ScoreSpread,
+            msg![
+                "the score-spread test needs reliability coefficients; with ",
+                given(Setting::Transform, "none"),
+                " the sheet holds effects of unknown kind"
+            ],
         ));
     }
     // Reference levels come from all usable studies, as in the main model, so that the
@@ -362,7 +375,7 @@ fn score_spread_inner(
     let others: Vec<ModeratorSpec> = if others.is_empty() {
         Vec::new()
     } else {
-        let full = build_design(p, others)?;
+        let full = build_design(p, others, centring)?;
         others
             .iter()
             .map(|spec| {
@@ -432,12 +445,15 @@ fn score_spread_inner(
     sub.y = bonett.iter().map(|b| b.0).collect();
     sub.v = bonett.iter().map(|b| b.1).collect();
     let note = excluded_note(&excluded);
-    let base = build_design(&sub, &others).map_err(|e| match e {
-        Error::CannotAnalyse(m) => Error::CannotAnalyse(format!("{m}{note}")),
-        Error::InvalidOption(m) => Error::InvalidOption(format!(
-            "{m} among the {} studies with a usable SD{note}",
-            keep.len()
-        )),
+    let base = build_design(&sub, &others, centring).map_err(|e| match e {
+        Error::CannotAnalyse(m) => Error::CannotAnalyse(m.followed_by(note.clone())),
+        Error::InvalidSetting { setting, message } => Error::InvalidSetting {
+            setting,
+            message: message.followed_by(format!(
+                " among the {} studies with a usable SD{note}",
+                keep.len()
+            )),
+        },
         other => other,
     })?;
     for e in &base.excluded {
@@ -461,16 +477,15 @@ fn score_spread_inner(
     let extra = usize::from(log_items.is_some());
     let cols = base.x.ncols() + 1 + extra;
     if k <= cols + 1 {
-        return Err(Error::CannotAnalyse(format!(
+        return Err(Error::cannot(format!(
             "the model has {cols} coefficients but only {k} studies with a usable SD; at least {} \
              are needed{note}",
             cols + 2
         )));
     }
     if log_sd.iter().all(|v| (*v - log_sd[0]).abs() < 1e-12) {
-        return Err(Error::CannotAnalyse(
-            "every study in the model reports the same SD, so its effect cannot be estimated"
-                .into(),
+        return Err(Error::cannot(
+            "every study in the model reports the same SD, so its effect cannot be estimated",
         ));
     }
     let x = DMatrix::from_fn(k, cols, |i, j| match j {

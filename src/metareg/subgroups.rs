@@ -1,12 +1,15 @@
 //! Subgroup benchmarks: one benchmark per level of a column, and tests of the difference
 //! between groups.
 
-use super::design::{ExcludedRow, ModeratorKind, ModeratorSpec, build_design};
+use super::design::{Centring, ExcludedRow, ModeratorKind, ModeratorSpec, build_design, levels_of};
 use super::{OmnibusTest, explain};
 use crate::benchmark::{Benchmark, Prepared, from_prepared};
 use crate::dist::chi2_sf;
 use crate::error::{Error, Result};
+use crate::msg;
 use crate::pool::{FitOptions, PoolOptions};
+use crate::setting::{Message, Setting, given};
+use crate::warning::Warning;
 
 /// One group.
 #[derive(Debug, Clone)]
@@ -16,7 +19,7 @@ pub struct Group {
     /// Spreadsheet rows in the group.
     pub rows: Vec<usize>,
     /// The group's benchmark, or why there is none.
-    pub result: std::result::Result<Box<Benchmark>, String>,
+    pub result: std::result::Result<Box<Benchmark>, Message>,
 }
 
 /// The test of the difference between groups from their separate benchmarks.
@@ -44,7 +47,9 @@ pub struct Subgroups {
     /// The meta-regression test of the column as a categorical moderator (one τ² for all).
     pub moderator_test: Option<OmnibusTest>,
     /// Why the meta-regression test is missing, when it is.
-    pub moderator_test_note: Option<String>,
+    pub moderator_test_note: Option<Message>,
+    /// Values written more than one way (merged into one level).
+    pub warnings: Vec<Warning>,
 }
 
 /// A benchmark per level of `column`.
@@ -60,26 +65,38 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         kind: ModeratorKind::Categorical,
         reference: None,
     };
-    let values = super::design::column_values(p, column)?;
-    let mut order: Vec<String> = Vec::new();
+    let raw = super::design::column_values(p, column).map_err(|e| match e {
+        Error::InvalidSetting { message, .. } => Error::setting(Setting::Subgroups, message),
+        other => other,
+    })?;
     let mut excluded = Vec::new();
-    for (i, v) in values.iter().enumerate() {
+    let mut cells = Vec::new();
+    for (i, v) in raw.iter().enumerate() {
         match v {
-            Some(v) => {
-                if !order.contains(v) {
-                    order.push(v.clone());
-                }
-            }
+            Some(v) => cells.push((p.records[i].row, v.clone())),
             None => excluded.push(ExcludedRow {
                 row: p.records[i].row,
                 reasons: vec![format!("column {column}: the value is missing")],
             }),
         }
     }
+    let mut warnings = Vec::new();
+    let mut levels = levels_of(column, &cells, &mut warnings).into_iter();
+    let values: Vec<Option<String>> = raw
+        .iter()
+        .map(|v| v.as_ref().and_then(|_| levels.next()))
+        .collect();
+    let mut order: Vec<String> = Vec::new();
+    for v in values.iter().flatten() {
+        if !order.contains(v) {
+            order.push(v.clone());
+        }
+    }
     if order.is_empty() {
-        return Err(Error::CannotAnalyse(format!(
-            "--by {column}: the column has no values among the usable studies"
-        )));
+        return Err(Error::cannot(msg![
+            given(Setting::Subgroups, column),
+            ": the column has no values among the usable studies"
+        ]));
     }
     let mut groups = Vec::new();
     let mut pooled: Vec<(f64, f64)> = Vec::new();
@@ -92,17 +109,17 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
             .collect();
         let rows = idx.iter().map(|&i| p.records[i].row).collect();
         let result = if idx.len() < 2 {
-            Err(format!(
+            Err(Message::from(format!(
                 "a single study (coefficient {}): nothing to pool",
                 p.records[idx[0]].coef
-            ))
+            )))
         } else {
             match from_prepared(p.subset(&idx), options) {
                 Ok(b) => {
                     pooled.push((b.pool.estimate, b.pool.se_wald));
                     Ok(Box::new(b))
                 }
-                Err(e) => Err(e.to_string()),
+                Err(e) => Err(e.into_message()),
             }
         };
         groups.push(Group {
@@ -136,9 +153,9 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         tau2_interval: false,
     };
     let (moderator_test, moderator_test_note) =
-        match build_design(p, &[spec]).and_then(|d| explain(p, d, &fit_options)) {
+        match build_design(p, &[spec], Centring::None).and_then(|d| explain(p, d, &fit_options)) {
             Ok(ex) => (ex.omnibus, None),
-            Err(e) => (None, Some(e.to_string())),
+            Err(e) => (None, Some(e.into_message())),
         };
     Ok(Subgroups {
         column: column.to_string(),
@@ -147,5 +164,6 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         between,
         moderator_test,
         moderator_test_note,
+        warnings,
     })
 }

@@ -3,7 +3,6 @@
 use super::{BAND, BAND_LIGHT, BLUE, FONT, GRID, INK, MUTED, ORANGE};
 use plotters::chart::MeshStyle;
 use plotters::coord::Shift;
-use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
@@ -52,6 +51,22 @@ pub struct FitBand {
     pub pi: Option<(f64, f64)>,
 }
 
+/// How a bubble chart's axes read.
+#[derive(Debug, Clone, PartialEq)]
+pub enum BubbleAxes {
+    /// The values as they are, with round ticks.
+    Linear,
+    /// The score-spread scales: x holds ln(SD) and y −ln(1 − coefficient) (higher is a
+    /// higher coefficient), so that the model is a straight line; ticks sit at the given
+    /// SDs and coefficients and read in those units.
+    Spread {
+        /// SD values to mark on the x axis.
+        sd_ticks: Vec<f64>,
+        /// Coefficient values to mark on the y axis.
+        coefficient_ticks: Vec<f64>,
+    },
+}
+
 /// A line of a sensitivity plot.
 #[derive(Debug, Clone, PartialEq)]
 pub struct SensitivitySeries {
@@ -85,6 +100,8 @@ pub enum Kind {
         fit: Vec<FitBand>,
         /// A reference line (e.g. slope −2) and its legend label.
         reference: Option<(Vec<(f64, f64)>, String)>,
+        /// How the axes read.
+        axes: BubbleAxes,
         /// Axis labels.
         x_label: String,
         /// Axis label.
@@ -198,16 +215,19 @@ impl Figure {
                 points,
                 fit,
                 reference,
+                axes,
                 x_label,
                 y_label,
             } => bubble(
                 &area,
                 scale,
-                points,
-                fit,
-                reference.as_ref(),
-                x_label,
-                y_label,
+                &BubbleData {
+                    points,
+                    fit,
+                    reference: reference.as_ref(),
+                },
+                axes,
+                (x_label, y_label),
             )?,
             Kind::Placement {
                 curve,
@@ -253,8 +273,6 @@ fn tick_font(scale: f64) -> TextStyle<'static> {
     (FONT, 12.0 * scale).into_font().color(&INK)
 }
 
-type Chart<'a, DB> = ChartContext<'a, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>;
-
 /// relyard's axes: labels in slate ink, a faint grid, no minor lines.
 fn house_mesh<'m, 'a, 'b, X, Y, DB>(
     mesh: &'m mut MeshStyle<'a, 'b, X, Y, DB>,
@@ -273,8 +291,8 @@ where
 }
 
 /// The legend box, in the same style on every figure.
-fn legend<'c, 'a: 'c, DB: DrawingBackend + 'a>(
-    chart: &'c mut Chart<'a, DB>,
+fn legend<'c, 'a: 'c, DB: DrawingBackend + 'a, X: Ranged, Y: Ranged>(
+    chart: &'c mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
     scale: f64,
     position: SeriesLabelPosition,
 ) -> DrawResult<DB> {
@@ -455,15 +473,47 @@ fn band_polygon(
     lower
 }
 
+/// A linear axis whose ticks sit at given values (for axes labelled in other units than
+/// they are drawn in).
+struct TickedAxis {
+    lo: f64,
+    hi: f64,
+    ticks: Vec<f64>,
+}
+
+impl Ranged for TickedAxis {
+    type FormatOption = plotters::coord::ranged1d::DefaultFormatting;
+    type ValueType = f64;
+
+    fn map(&self, v: &f64, limit: (i32, i32)) -> i32 {
+        let t = (v - self.lo) / (self.hi - self.lo);
+        limit.0 + (t * f64::from(limit.1 - limit.0)).round() as i32
+    }
+
+    fn key_points<Hint: plotters::coord::ranged1d::KeyPointHint>(&self, _: Hint) -> Vec<f64> {
+        self.ticks.clone()
+    }
+
+    fn range(&self) -> std::ops::Range<f64> {
+        self.lo..self.hi
+    }
+}
+
+/// What a bubble chart draws.
+struct BubbleData<'a> {
+    points: &'a [BubblePoint],
+    fit: &'a [FitBand],
+    reference: Option<&'a (Vec<(f64, f64)>, String)>,
+}
+
 fn bubble<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     scale: f64,
-    points: &[BubblePoint],
-    fit: &[FitBand],
-    reference: Option<&(Vec<(f64, f64)>, String)>,
-    x_label: &str,
-    y_label: &str,
+    data: &BubbleData<'_>,
+    axes: &BubbleAxes,
+    (x_label, y_label): (&str, &str),
 ) -> DrawResult<DB> {
+    let (points, fit, reference) = (data.points, data.fit, data.reference);
     let xs = points.iter().map(|p| p.x).chain(fit.iter().map(|f| f.x));
     let ys = points
         .iter()
@@ -479,7 +529,67 @@ fn bubble<DB: DrawingBackend>(
         );
     let x = padded_range(xs);
     let y = padded_range(ys);
-    let mut chart = axes!(area, scale, x, y, x_label, y_label, 64.0);
+    match axes {
+        BubbleAxes::Linear => {
+            let mut chart = axes!(area, scale, x, y, x_label, y_label, 64.0);
+            bubble_layers(&mut chart, scale, data, SeriesLabelPosition::UpperRight)
+        }
+        BubbleAxes::Spread {
+            sd_ticks,
+            coefficient_ticks,
+        } => {
+            // Ticks at the given SDs and coefficients, within the drawn ranges.
+            let xk: Vec<f64> = sd_ticks
+                .iter()
+                .map(|s| s.ln())
+                .filter(|v| *v >= x.0 && *v <= x.1)
+                .collect();
+            let yk: Vec<f64> = coefficient_ticks
+                .iter()
+                .map(|c| -(-c).ln_1p())
+                .filter(|v| *v >= y.0 && *v <= y.1)
+                .collect();
+            let mut chart = ChartBuilder::on(area)
+                .margin((14.0 * scale) as i32)
+                .x_label_area_size((44.0 * scale) as i32)
+                .y_label_area_size((64.0 * scale) as i32)
+                .build_cartesian_2d(
+                    TickedAxis {
+                        lo: x.0,
+                        hi: x.1,
+                        ticks: xk,
+                    },
+                    TickedAxis {
+                        lo: y.0,
+                        hi: y.1,
+                        ticks: yk,
+                    },
+                )?;
+            house_mesh(&mut chart.configure_mesh(), scale)
+                .x_desc(x_label)
+                .y_desc(y_label)
+                .x_label_formatter(&|v| tick(v.exp()))
+                .y_label_formatter(&|v| tick(1.0 - (-v).exp()))
+                .draw()?;
+            // Coefficients rise with the spread of scores: the legend goes below.
+            bubble_layers(&mut chart, scale, data, SeriesLabelPosition::LowerRight)
+        }
+    }
+}
+
+/// The bands, the fitted line, the reference line, the studies and the legend.
+fn bubble_layers<'a, DB, X, Y>(
+    chart: &mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
+    scale: f64,
+    data: &BubbleData<'_>,
+    legend_at: SeriesLabelPosition,
+) -> DrawResult<DB>
+where
+    DB: DrawingBackend + 'a,
+    X: Ranged<ValueType = f64>,
+    Y: Ranged<ValueType = f64>,
+{
+    let (points, fit, reference) = (data.points, data.fit, data.reference);
     let line = (2.0 * scale).ceil() as u32;
     let pi = band_polygon(fit, |f| f.pi);
     if !pi.is_empty() {
@@ -530,7 +640,7 @@ fn bubble<DB: DrawingBackend>(
         let r = ((10.0 * (p.weight / max_w).sqrt()).max(2.0) * scale) as i32;
         Circle::new((p.x, p.y), r, ShapeStyle::from(&INK.mix(0.55)).filled())
     }))?;
-    legend(&mut chart, scale, SeriesLabelPosition::UpperRight)?;
+    legend(chart, scale, legend_at)?;
     Ok(())
 }
 

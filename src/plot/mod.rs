@@ -17,7 +17,9 @@ mod draw;
 use crate::error::{Error, Result};
 use plotters::prelude::*;
 
-pub use draw::{BubblePoint, Figure, FitBand, ForestRow, Kind, SensitivitySeries, forest_capacity};
+pub use draw::{
+    BubbleAxes, BubblePoint, Figure, FitBand, ForestRow, Kind, SensitivitySeries, forest_capacity,
+};
 
 /// Ink for text, axes and study markers.
 pub const INK: RGBColor = RGBColor(0x23, 0x30, 0x3c);

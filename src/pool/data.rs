@@ -48,7 +48,7 @@ impl MetaData {
     /// Data with a k × p design matrix.
     pub fn with_design(y: Vec<f64>, v: Vec<f64>, x: DMatrix<f64>) -> Result<Self> {
         if y.len() != v.len() || y.len() != x.nrows() {
-            return Err(Error::InvalidOption(format!(
+            return Err(Error::cannot(format!(
                 "effects ({}), variances ({}) and design rows ({}) differ in number",
                 y.len(),
                 v.len(),
@@ -56,20 +56,20 @@ impl MetaData {
             )));
         }
         if let Some(i) = y.iter().position(|e| !e.is_finite()) {
-            return Err(Error::InvalidOption(format!(
+            return Err(Error::cannot(format!(
                 "effect {} is not a finite number",
                 i + 1
             )));
         }
         if let Some(i) = v.iter().position(|s| !(s.is_finite() && *s > 0.0)) {
-            return Err(Error::InvalidOption(format!(
+            return Err(Error::cannot(format!(
                 "sampling variance {} must be a finite number above 0",
                 i + 1
             )));
         }
         if x.iter().any(|e| !e.is_finite()) {
-            return Err(Error::InvalidOption(
-                "the design matrix holds a value that is not a finite number".into(),
+            return Err(Error::cannot(
+                "the design matrix holds a value that is not a finite number",
             ));
         }
         let pairs = pair_products(&x);
@@ -282,10 +282,9 @@ fn residuals(d: Design<'_>, y: &[f64], beta: &DVector<f64>) -> Vec<f64> {
 }
 
 fn singular() -> Error {
-    Error::CannotAnalyse(
+    Error::cannot(
         "the model's design is singular (a moderator is constant or a linear \
-         combination of others), so its coefficients cannot be estimated"
-            .into(),
+         combination of others), so its coefficients cannot be estimated",
     )
 }
 

@@ -9,6 +9,7 @@ use super::tau2::{TAU2_MAX_ITERATIONS, Tau2Fit, Termination};
 use super::{CiMethod, Interval, Model};
 use crate::dist::{normal_quantile, normal_two_sided_p, t_quantile, t_two_sided_p};
 use crate::error::{Error, Result};
+use crate::level::Level;
 use crate::warning::Warning;
 use nalgebra::{DMatrix, DVector};
 
@@ -24,7 +25,7 @@ pub struct FitOptions {
     /// Interval method.
     pub ci: CiMethod,
     /// Confidence level.
-    pub level: f64,
+    pub level: Level,
     /// Compute the Q-profile interval for τ² (skipped inside permutation loops).
     pub tau2_interval: bool,
 }
@@ -86,10 +87,10 @@ pub struct ModelFit {
 impl ModelFit {
     /// The quantile multiplying standard errors for a two-sided interval.
     pub fn critical_value(&self) -> f64 {
-        let a = 1.0 - self.options.level;
+        let upper = self.options.level.upper();
         match self.df {
-            Some(df) => t_quantile(1.0 - a / 2.0, df),
-            None => normal_quantile(1.0 - a / 2.0),
+            Some(df) => t_quantile(upper, df),
+            None => normal_quantile(upper),
         }
     }
 
@@ -107,17 +108,6 @@ impl ModelFit {
         let value = x.dot(&self.beta);
         let var = (x.transpose() * &self.cov * &x)[(0, 0)];
         (value, var.max(0.0))
-    }
-}
-
-/// Check a confidence level.
-pub fn check_level(level: f64) -> Result<()> {
-    if level > 0.0 && level < 1.0 {
-        Ok(())
-    } else {
-        Err(Error::InvalidOption(format!(
-            "the confidence level must lie strictly between 0 and 1 (got {level})"
-        )))
     }
 }
 
@@ -189,7 +179,7 @@ pub(crate) fn fit_coefficients(
     options: &FitOptions,
 ) -> Result<(DVector<f64>, DMatrix<f64>)> {
     if d.k() <= d.p() {
-        return Err(Error::CannotAnalyse("too few studies for the model".into()));
+        return Err(Error::cannot("too few studies for the model"));
     }
     let core = core_fit(d, options)?;
     Ok((core.fit.beta, core.cov))
@@ -202,10 +192,9 @@ pub(crate) fn fit_coefficients(
 /// with a single covariate. *Statistics in Medicine*, 22(17), 2693–2710.
 /// Viechtbauer, W. (2005). *Journal of Educational and Behavioral Statistics*, 30(3), 261–293.
 pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
-    check_level(options.level)?;
     let (k, p) = (d.k(), d.p());
     if k <= p {
-        return Err(Error::CannotAnalyse(format!(
+        return Err(Error::cannot(format!(
             "{k} studies cannot support a model with {p} coefficient(s): at least {} are needed",
             p + 1
         )));

@@ -103,9 +103,11 @@ mod tests {
             df: 10.0,
         };
         let i = p.interval(Level::NINETY_FIVE);
-        assert!((i.upper - (-1.5 + 0.2 * 2.2281388519649385)).abs() < 1e-12);
-        assert!((p.cdf(i.lower) - 0.025).abs() < 1e-12);
-        assert!((p.cdf(i.upper) - 0.975).abs() < 1e-12);
+        // Quantiles agree with scipy to 1e-10 relative (the suite's quantile tolerance).
+        let t = 2.2281388519649385;
+        assert!((i.upper - (-1.5 + 0.2 * t)).abs() < 1e-10 * t, "{i:?}");
+        assert!((p.cdf(i.lower) - 0.025).abs() < 1e-10);
+        assert!((p.cdf(i.upper) - 0.975).abs() < 1e-10);
         let wider = p.observed(0.03);
         assert!((wider.scale - (0.04f64 + 0.03).sqrt()).abs() < 1e-15);
         assert_eq!(prediction_df(3, 1), Some(1.0));

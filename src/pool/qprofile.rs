@@ -5,6 +5,7 @@ use super::tau2::Termination;
 use super::tau2::{bracket_decreasing, root_of_q};
 use crate::dist::chi2_quantile;
 use crate::error::Result;
+use crate::level::Level;
 use serde::Serialize;
 
 /// A confidence interval for τ² from the Q-profile method.
@@ -30,14 +31,13 @@ pub struct Tau2Interval {
 /// # References
 /// Viechtbauer, W. (2007). Confidence intervals for the amount of heterogeneity in
 /// meta-analysis. *Statistics in Medicine*, 26(1), 37–52.
-pub fn q_profile(d: &MetaData, level: f64) -> Result<Tau2Interval> {
+pub fn q_profile(d: &MetaData, level: Level) -> Result<Tau2Interval> {
     // Work on data rescaled by the median variance (tolerances are relative to it).
     let (scaled, s) = d.rescaled();
     let d = &scaled;
     let df = (d.k() - d.p()) as f64;
-    let alpha = 1.0 - level;
-    let q_hi = chi2_quantile(1.0 - alpha / 2.0, df);
-    let q_lo = chi2_quantile(alpha / 2.0, df);
+    let q_hi = chi2_quantile(level.upper(), df);
+    let q_lo = chi2_quantile(level.tail(), df);
     let q0 = d.q_at(0.0)?;
     let mut converged = true;
     let mut solve = |target: f64| -> Result<f64> {

@@ -12,11 +12,15 @@ mod schema;
 pub mod template;
 mod workbook;
 
+pub use workbook::{WorkbookRows, is_workbook};
+
 pub use cells::{is_missing, parse_number};
-pub use read::{DELIMITERS, WORKBOOK, delimiter_name, detect_delimiter, parse_delimiter};
+pub use read::{DELIMITERS, SheetFormat, delimiter_name, detect_delimiter, parse_delimiter};
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 
 use crate::error::{CellProblem, Error, Result};
+use crate::msg;
+use crate::setting::{Setting, given};
 use std::collections::BTreeMap;
 use std::path::Path;
 
@@ -79,6 +83,8 @@ pub struct PartialRecord {
     pub items: Option<u32>,
     /// The sampling variance, if it parsed.
     pub var: Option<f64>,
+    /// The other columns' values, as in [`StudyRecord::extra`].
+    pub extra: Vec<Option<String>>,
     /// Columns whose problems are already reported.
     pub failed: Vec<Role>,
 }
@@ -88,8 +94,10 @@ pub struct PartialRecord {
 pub struct CodingSheet {
     /// The file as the user named it.
     pub file: String,
-    /// Delimiter used.
-    pub delimiter: u8,
+    /// How the file stores its cells.
+    pub format: SheetFormat,
+    /// The worksheet read, for a workbook.
+    pub worksheet: Option<String>,
     /// Header name of each standard column present.
     pub columns: BTreeMap<Role, String>,
     /// Names of the other columns, in sheet order.
@@ -107,7 +115,158 @@ pub struct CodingSheet {
     pub empty_rows: Vec<usize>,
 }
 
+/// A column of the sheet as a name can refer to it: a standard column or another one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ColumnRef {
+    /// A standard column.
+    Standard(Role),
+    /// Another column, by its position among the sheet's other columns.
+    Other(usize),
+}
+
+/// Whether two names (of columns, levels or values) are the same as the reader means
+/// them: equal once surrounding spaces are dropped and case is ignored. The one rule for
+/// every such match.
+pub fn same_name(a: &str, b: &str) -> bool {
+    let (a, b) = (a.trim(), b.trim());
+    a == b || a.to_lowercase() == b.to_lowercase()
+}
+
+/// Find a column by name among the standard columns (by their standard name or the
+/// sheet's own header for them) and the other columns.
+pub fn find_column(
+    columns: &BTreeMap<Role, String>,
+    extra: &[String],
+    name: &str,
+) -> Option<ColumnRef> {
+    if let Some(i) = extra.iter().position(|c| same_name(c, name)) {
+        return Some(ColumnRef::Other(i));
+    }
+    columns
+        .iter()
+        .find(|(role, header)| same_name(role.name(), name) || same_name(header, name))
+        .map(|(role, _)| ColumnRef::Standard(*role))
+}
+
+impl StudyRecord {
+    /// The record's value in a column, as text (`None` when the cell is empty).
+    pub fn value(&self, column: ColumnRef) -> Option<String> {
+        let num = |x: Option<f64>| x.map(|v| v.to_string());
+        match column {
+            ColumnRef::Other(i) => self.extra.get(i).cloned().flatten(),
+            ColumnRef::Standard(role) => match role {
+                Role::Study => self.label_given.then(|| self.label.clone()),
+                Role::Coef => Some(self.coef.to_string()),
+                Role::N => self.n.map(|n| n.to_string()),
+                Role::Items => self.items.map(|k| k.to_string()),
+                Role::CoefType => Some(self.coef_type.name().to_string()),
+                Role::Sd => num(self.sd),
+                Role::SdMetric => self.sd_metric.map(|m| m.name().to_string()),
+                Role::ScaleMin => num(self.scale_min),
+                Role::ScaleMax => num(self.scale_max),
+                Role::Var => num(self.var),
+            },
+        }
+    }
+}
+
+/// One condition of a subset: the rows whose value in `column` is `value` (compared as
+/// [`same_name`] compares).
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct SubsetRule {
+    /// The column (standard or other).
+    pub column: String,
+    /// The value kept.
+    pub value: String,
+}
+
+/// What a coding sheet was and how much of it was used: every output states it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SheetSummary {
+    /// The file as the user named it.
+    pub file: String,
+    /// How it stores its cells.
+    pub format: SheetFormat,
+    /// The worksheet read, for a workbook.
+    pub worksheet: Option<String>,
+    /// Non-empty data rows in the file (or worksheet).
+    pub rows_read: usize,
+    /// The subset analysed (empty: every row).
+    pub subset: Vec<SubsetRule>,
+    /// Rows left aside because they are outside the subset.
+    pub rows_outside_subset: usize,
+}
+
 impl CodingSheet {
+    /// What the sheet was and how much of it is used (before any subset).
+    pub fn summary(&self) -> SheetSummary {
+        SheetSummary {
+            file: self.file.clone(),
+            format: self.format,
+            worksheet: self.worksheet.clone(),
+            rows_read: self.rows_read,
+            subset: Vec::new(),
+            rows_outside_subset: 0,
+        }
+    }
+
+    /// Keep only the rows that meet every rule (rows that did not parse are kept when
+    /// they cannot be judged, so that their problems are still reported). Returns how
+    /// many rows were set aside; a rule naming no column of the sheet is an error.
+    pub fn keep_subset(&mut self, rules: &[SubsetRule]) -> Result<usize> {
+        if rules.is_empty() {
+            return Ok(0);
+        }
+        let mut refs = Vec::with_capacity(rules.len());
+        for r in rules {
+            let c =
+                find_column(&self.columns, &self.extra_columns, &r.column).ok_or_else(|| {
+                    let mut names: Vec<String> =
+                        self.columns.keys().map(|r| r.name().to_string()).collect();
+                    names.extend(self.extra_columns.iter().cloned());
+                    Error::setting(
+                        Setting::Subset,
+                        msg![
+                            given(Setting::Subset, format!("{}={}", r.column, r.value)),
+                            format!(
+                                ": the sheet has no column {} (its columns: {})",
+                                r.column,
+                                names.join(", ")
+                            )
+                        ],
+                    )
+                })?;
+            refs.push((c, r.value.as_str()));
+        }
+        let before = self.records.len() + self.partial.len();
+        self.records.retain(|rec| {
+            refs.iter()
+                .all(|(c, v)| rec.value(*c).is_some_and(|x| same_name(&x, v)))
+        });
+        // A row that did not parse is set aside only when a rule can be judged on what
+        // was read of it and fails; its problems go with it.
+        let mut aside = std::collections::HashSet::new();
+        self.partial.retain(|part| {
+            let fails = refs.iter().any(|(c, v)| {
+                let value = match c {
+                    ColumnRef::Other(i) => part.extra.get(*i).cloned(),
+                    ColumnRef::Standard(Role::CoefType) => {
+                        part.coef_type.map(|t| Some(t.name().to_string()))
+                    }
+                    ColumnRef::Standard(_) => None,
+                };
+                value.is_some_and(|x| !x.is_some_and(|x| same_name(&x, v)))
+            });
+            if fails {
+                aside.insert(part.row);
+            }
+            !fails
+        });
+        self.problems
+            .retain(|p| p.row.is_none_or(|r| !aside.contains(&r)));
+        Ok(before - self.records.len() - self.partial.len())
+    }
+
     /// True when the sheet has the standard column.
     pub fn has(&self, role: Role) -> bool {
         self.columns.contains_key(&role)
@@ -137,12 +296,14 @@ pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSh
 pub fn read_sheet_bytes(path: &Path) -> Result<Vec<u8>> {
     let file = path.display().to_string();
     std::fs::read(path).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => Error::InvalidOption(format!(
-            "{file}: no such file; check the path of the coding sheet"
-        )),
-        _ if path.is_dir() => Error::InvalidOption(format!(
-            "{file} is a folder; give the path of the coding sheet itself"
-        )),
+        std::io::ErrorKind::NotFound => Error::setting(
+            Setting::SheetFile,
+            format!("{file}: no such file; check the path of the coding sheet"),
+        ),
+        _ if path.is_dir() => Error::setting(
+            Setting::SheetFile,
+            format!("{file} is a folder; give the path of the coding sheet itself"),
+        ),
         _ => Error::io(format!("reading {file}"), e),
     })
 }
@@ -155,20 +316,30 @@ pub fn coding_sheet_from_bytes(
     options: &SheetOptions,
 ) -> Result<CodingSheet> {
     let file = path.display().to_string();
-    if workbook::is_workbook(path, &bytes) {
+    if workbook::is_workbook(&bytes) {
         if options.delimiter.is_some() {
-            return Err(Error::InvalidOption(format!(
-                "--delimiter applies to text files; {file} is a workbook"
-            )));
+            return Err(Error::setting(
+                Setting::Delimiter,
+                msg![
+                    Setting::Delimiter,
+                    format!(" applies to text files; {file} is a workbook")
+                ],
+            ));
         }
         let mut rows = workbook::WorkbookRows::read(&file, bytes, options.worksheet.as_deref())?;
         let expected = rows.data_rows();
-        return parse_rows(&file, &mut rows, options, expected);
+        let mut sheet = parse_rows(&file, &mut rows, options, expected)?;
+        sheet.worksheet = Some(rows.worksheet.clone());
+        return Ok(sheet);
     }
     if options.worksheet.is_some() {
-        return Err(Error::InvalidOption(format!(
-            "--worksheet applies to workbooks (.xlsx, .xls, .ods); {file} is a text file"
-        )));
+        return Err(Error::setting(
+            Setting::Worksheet,
+            msg![
+                Setting::Worksheet,
+                format!(" applies to workbooks (.xlsx, .xls, .ods); {file} is a text file")
+            ],
+        ));
     }
     parse_coding_sheet(&file, &bytes, options)
 }
@@ -188,9 +359,8 @@ fn parse_rows(
     expected_rows: usize,
 ) -> Result<CodingSheet> {
     let layout = Layout::resolve(file, table.header(), table.header_row(), &options.columns)?;
-    let delimiter = table.delimiter();
-    // Workbook cells are typed; a text cell such as "1,250" is not read as 1.25.
-    let decimal_comma = delimiter != b',' && delimiter != WORKBOOK;
+    let format = table.format();
+    let decimal_comma = format.decimal_comma();
     let mut records = Vec::with_capacity(expected_rows);
     let mut problems = Vec::new();
     let mut partial = Vec::new();
@@ -199,7 +369,7 @@ fn parse_rows(
             Ok(r) => records.push(r),
             Err((mut p, part)) => {
                 problems.append(&mut p);
-                partial.extend(part);
+                partial.extend(part.map(|p| *p));
             }
         }
     }
@@ -215,7 +385,8 @@ fn parse_rows(
     }
     Ok(CodingSheet {
         file: file.to_string(),
-        delimiter,
+        format,
+        worksheet: None,
         columns: layout.names(),
         extra_columns: layout.extra.iter().map(|(_, n)| n.clone()).collect(),
         records,
@@ -279,11 +450,13 @@ impl Layout {
                     }
                     None => problems.push(CellProblem::row(
                         header_row,
-                        format!(
-                            "--column {role}={name} names a column the sheet does not have \
-                             (its columns are: {})",
-                            list_header(header)
-                        ),
+                        msg![
+                            given(Setting::ColumnMap, format!("{role}={name}")),
+                            format!(
+                                " names a column the sheet does not have (its columns are: {})",
+                                list_header(header)
+                            )
+                        ],
                     )),
                 },
                 None => {
@@ -303,11 +476,14 @@ impl Layout {
         if !roles.contains_key(&Role::Coef) && map.get(Role::Coef).is_none() {
             problems.push(CellProblem::row(
                 header_row,
-                format!(
-                    "the sheet has no coef column (its columns are: {}); name the column of \
-                     reported coefficients coef, or map it with --column coef=NAME",
-                    list_header(header)
-                ),
+                msg![
+                    format!(
+                        "the sheet has no coef column (its columns are: {}); name the column of \
+                         reported coefficients coef, or map it with ",
+                        list_header(header)
+                    ),
+                    given(Setting::ColumnMap, "coef=NAME")
+                ],
             ));
         }
         if !problems.is_empty() {
@@ -347,7 +523,7 @@ impl Layout {
         &self,
         raw: &read::RawRow<'_>,
         decimal_comma: bool,
-    ) -> std::result::Result<StudyRecord, (Vec<CellProblem>, Option<PartialRecord>)> {
+    ) -> std::result::Result<StudyRecord, (Vec<CellProblem>, Option<Box<PartialRecord>>)> {
         let row = raw.row;
         let label_of = |role: Role| column_label(&self.names, role);
         let mut problems = Vec::new();
@@ -578,9 +754,10 @@ impl Layout {
                 n,
                 items,
                 var,
+                extra,
                 failed,
             };
-            return Err((problems, Some(partial)));
+            return Err((problems, Some(Box::new(partial))));
         }
         Ok(StudyRecord {
             row,
@@ -665,7 +842,7 @@ mod tests {
     #[test]
     fn semicolon_sheet_with_decimal_comma() {
         let s = parse("study;coef;n;items\nA;0,81;100;6\n").unwrap();
-        assert_eq!(s.delimiter, b';');
+        assert_eq!(s.format, SheetFormat::Delimited(b';'));
         assert_eq!(s.records[0].coef, 0.81);
     }
 }

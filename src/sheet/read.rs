@@ -15,13 +15,45 @@ pub fn delimiter_name(d: u8) -> &'static str {
         b',' => "comma",
         b';' => "semicolon",
         b'\t' => "tab",
-        WORKBOOK => "none (workbook)",
         _ => "other",
     }
 }
 
-/// The "delimiter" of a sheet read from a workbook (.xlsx, .ods, …): none.
-pub const WORKBOOK: u8 = 0;
+/// How a table of cells was stored: the one owner of what that implies for reading its
+/// numbers.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SheetFormat {
+    /// Delimited text with this delimiter.
+    Delimited(u8),
+    /// A workbook (.xlsx, .xlsm, .xlsb, .xls, .ods): typed cells, no delimiter.
+    Workbook,
+}
+
+impl SheetFormat {
+    /// Whether a number may be written with a decimal comma ("0,85"): only in delimited
+    /// text whose delimiter is not the comma. Never in a workbook: its number cells are
+    /// typed, and a text cell such as "1,250" is not read as 1.25.
+    pub fn decimal_comma(self) -> bool {
+        matches!(self, SheetFormat::Delimited(d) if d != b',')
+    }
+
+    /// The delimiter's name for JSON and messages: comma, semicolon, tab, or
+    /// "none (workbook)".
+    pub fn delimiter_name(self) -> &'static str {
+        match self {
+            SheetFormat::Delimited(d) => delimiter_name(d),
+            SheetFormat::Workbook => "none (workbook)",
+        }
+    }
+
+    /// The format in words: "comma-delimited", "workbook".
+    pub fn describe(self) -> String {
+        match self {
+            SheetFormat::Delimited(d) => format!("{}-delimited", delimiter_name(d)),
+            SheetFormat::Workbook => "workbook".into(),
+        }
+    }
+}
 
 /// Parse a `--delimiter` value: `,` `;` `tab` (or the words comma, semicolon).
 pub fn parse_delimiter(s: &str) -> std::result::Result<u8, String> {
@@ -68,8 +100,8 @@ pub(crate) trait RowSource {
     fn header(&self) -> &[String];
     /// The header's spreadsheet row (1 unless empty rows stand above it).
     fn header_row(&self) -> usize;
-    /// The delimiter (0 for a workbook); a decimal comma is accepted unless it is a comma.
-    fn delimiter(&self) -> u8;
+    /// How the rows are stored.
+    fn format(&self) -> SheetFormat;
     /// The next non-blank data row, or `None` at the end.
     fn next_row(&mut self) -> Result<Option<RawRow<'_>>>;
     /// Non-blank data rows read so far.
@@ -85,8 +117,8 @@ impl RowSource for TableReader<'_> {
     fn header_row(&self) -> usize {
         self.header_row
     }
-    fn delimiter(&self) -> u8 {
-        self.delimiter
+    fn format(&self) -> SheetFormat {
+        SheetFormat::Delimited(self.delimiter)
     }
     fn next_row(&mut self) -> Result<Option<RawRow<'_>>> {
         TableReader::next_row(self)

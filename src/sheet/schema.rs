@@ -77,13 +77,13 @@ impl Role {
         match self {
             Role::Study => "recommended (rows without a label are called \"row N\")",
             Role::Coef => "always",
-            Role::N => "always, except with --transform none",
+            Role::N => "always, except when coef already holds effects (transform none)",
             Role::Items => "for bonett, hakstian-whalen and raw",
             Role::CoefType => "optional (empty means alpha)",
             Role::Sd | Role::SdMetric | Role::ScaleMin | Role::ScaleMax => {
                 "optional (used to explain differences by score spread)"
             }
-            Role::Var => "only with --transform none",
+            Role::Var => "only when coef already holds effects (transform none)",
         }
     }
 
@@ -91,7 +91,7 @@ impl Role {
     pub fn allowed(self) -> String {
         match self {
             Role::Study => format!("any text up to {MAX_LABEL_CHARS} characters"),
-            Role::Coef => "below 1; a correlation-type coefficient above −1; with --transform \
+            Role::Coef => "below 1; a correlation-type coefficient above −1; with transform \
                            none any finite number"
                 .into(),
             Role::N => format!("1 to {MAX_N} (at least 3; 4 for fisher-z)"),
@@ -200,6 +200,32 @@ impl CoefType {
         }
     }
 
+    /// True for coefficients that are lower bounds to reliability unless the items are
+    /// tau-equivalent (alpha and its kin): a correction with one of them over-corrects.
+    ///
+    /// # References
+    /// Sijtsma, K. (2009). On the use, the misuse, and the very limited usefulness of
+    /// Cronbach's alpha. *Psychometrika*, 74(1), 107–120.
+    pub fn is_lower_bound(self) -> bool {
+        matches!(
+            self,
+            CoefType::Alpha | CoefType::AlphaStd | CoefType::Kr20 | CoefType::SplitHalf
+        )
+    }
+
+    /// The kind in words, e.g. "coefficient alpha", "test–retest correlation".
+    pub fn words(self) -> &'static str {
+        match self {
+            CoefType::Alpha => "coefficient alpha",
+            CoefType::AlphaStd => "standardized alpha",
+            CoefType::Kr20 => "KR-20 coefficient",
+            CoefType::Omega => "omega coefficient",
+            CoefType::Retest => "test–retest correlation",
+            CoefType::Interrater => "inter-rater correlation",
+            CoefType::SplitHalf => "split-half coefficient",
+        }
+    }
+
     /// Which family the coefficient belongs to.
     pub fn family(self) -> CoefficientFamily {
         match self {
@@ -240,6 +266,14 @@ pub enum SdMetric {
 }
 
 impl SdMetric {
+    /// Coding-sheet name.
+    pub fn name(self) -> &'static str {
+        match self {
+            SdMetric::Sum => "sum",
+            SdMetric::Mean => "mean",
+        }
+    }
+
     /// Parse a coding-sheet cell.
     pub fn parse_cell(s: &str) -> Option<SdMetric> {
         match s.trim().to_ascii_lowercase().as_str() {
@@ -280,7 +314,7 @@ impl ColumnMap {
     /// Parse `ROLE=NAME`.
     pub fn insert_spec(&mut self, spec: &str) -> Result<(), String> {
         let (role, name) = spec.split_once('=').ok_or_else(|| {
-            format!("--column takes ROLE=NAME, e.g. coef=reported_alpha (got \"{spec}\")")
+            format!("a column mapping takes ROLE=NAME, e.g. coef=reported_alpha (got \"{spec}\")")
         })?;
         let role: Role = role.parse()?;
         self.insert(role, name.trim())

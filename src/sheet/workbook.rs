@@ -2,28 +2,23 @@
 //! into the same rows a delimited file gives, numbered as the spreadsheet numbers them, so
 //! that every message names the row and column the user sees.
 
-use super::read::{RawRow, RowSource, WORKBOOK};
+use super::read::{RawRow, RowSource, SheetFormat};
 use crate::error::{CellProblem, Error, Result};
+use crate::msg;
+use crate::setting::{Setting, given};
 use calamine::{Data, Reader};
-use std::path::Path;
 
 /// True for a workbook: by its first bytes (a zip container or an old binary workbook),
-/// whatever its name.
-pub fn is_workbook(path: &Path, bytes: &[u8]) -> bool {
-    let magic = bytes.starts_with(b"PK\x03\x04") || bytes.starts_with(b"\xD0\xCF\x11\xE0");
-    let ext = path
-        .extension()
-        .and_then(|e| e.to_str())
-        .map(str::to_ascii_lowercase);
-    magic
-        || matches!(
-            ext.as_deref(),
-            Some("xlsx" | "xlsm" | "xlsb" | "xls" | "ods")
-        )
+/// whatever its name, so that a text file named .xlsx is read as text and a workbook
+/// named .csv as a workbook.
+pub fn is_workbook(bytes: &[u8]) -> bool {
+    bytes.starts_with(b"PK\x03\x04") || bytes.starts_with(b"\xD0\xCF\x11\xE0")
 }
 
 /// The rows of one worksheet.
 pub struct WorkbookRows {
+    /// The worksheet read.
+    pub worksheet: String,
     header: Vec<String>,
     header_row: usize,
     rows: Vec<(usize, csv::ByteRecord)>,
@@ -68,10 +63,16 @@ impl WorkbookRows {
                 .or_else(|| names.iter().find(|n| n.eq_ignore_ascii_case(w.trim())))
                 .cloned()
                 .ok_or_else(|| {
-                    Error::InvalidOption(format!(
-                        "--worksheet {w}: {file} has no such worksheet (its worksheets are: {})",
-                        names.join(", ")
-                    ))
+                    Error::setting(
+                        Setting::Worksheet,
+                        msg![
+                            given(Setting::Worksheet, w),
+                            format!(
+                                ": {file} has no such worksheet (its worksheets are: {})",
+                                names.join(", ")
+                            )
+                        ],
+                    )
                 })?,
             None => names
                 .first()
@@ -115,6 +116,7 @@ impl WorkbookRows {
         let last = rows.last().map_or(0, |(r, _)| *r);
         empty_rows.retain(|&r| r < last);
         Ok(WorkbookRows {
+            worksheet: name,
             header,
             header_row,
             rows,
@@ -127,6 +129,11 @@ impl WorkbookRows {
     pub fn data_rows(&self) -> usize {
         self.rows.len()
     }
+
+    /// The header's cells and spreadsheet row, and the non-blank data rows with theirs.
+    pub fn into_table(self) -> (Vec<String>, usize, Vec<(usize, csv::ByteRecord)>) {
+        (self.header, self.header_row, self.rows)
+    }
 }
 
 impl RowSource for WorkbookRows {
@@ -136,8 +143,8 @@ impl RowSource for WorkbookRows {
     fn header_row(&self) -> usize {
         self.header_row
     }
-    fn delimiter(&self) -> u8 {
-        WORKBOOK
+    fn format(&self) -> SheetFormat {
+        SheetFormat::Workbook
     }
     fn next_row(&mut self) -> Result<Option<RawRow<'_>>> {
         let Some((row, record)) = self.rows.get(self.next) else {

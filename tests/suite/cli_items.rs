@@ -155,10 +155,13 @@ fn bad_item_data_is_located() {
         &["items", &text],
         &["row 3, column b:", "\"x\" is not a number"],
     );
-    let id = write_file(&dir, "id.csv", b"id,a,b,c\nP1,1,2,3\nP2,2,2,3\nP3,3,3,3\n");
+    // A text column whose values repeat is neither an item nor an identifier (issue 10:
+    // one with a different value per respondent is left out by itself, see
+    // `identifier_columns_are_left_out`).
+    let id = write_file(&dir, "id.csv", b"group,a,b,c\nA,2,2,3\nB,1,2,3\nA,3,3,4\n");
     fails_with(
         &["items", &id],
-        &["column(s) id hold text", "--items a,b,c"],
+        &["column group holds text", "--items a,b,c"],
     );
     let range = write_file(&dir, "range.csv", b"a,b,c\n1,2,3\n2,7,3\n3,3,3\n4,2,1\n");
     fails_with(

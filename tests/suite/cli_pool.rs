@@ -28,8 +28,8 @@ fn demo_sheet_gives_a_readable_benchmark() {
     assert_eq!(out.status.code(), Some(0));
     let text = String::from_utf8_lossy(&out.stdout);
     for frag in [
-        "Reliability benchmark from 36 coded studies",
-        "95% prediction interval",
+        "What a new study of the measure should expect",
+        "95% expected range",
         "Q-profile",
         "For your paper",
         "the demo inventory",

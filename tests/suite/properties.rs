@@ -9,7 +9,7 @@ fn options(est: Tau2Estimator, ci: CiMethod) -> PoolOptions {
     PoolOptions {
         model: Model::Random(est),
         ci,
-        level: 0.95,
+        level: relyard::Level::NINETY_FIVE,
     }
 }
 
@@ -63,7 +63,7 @@ proptest! {
     /// With τ² = 0 assumed, the random-effects formulas give the common-effect result.
     #[test]
     fn common_effect_is_random_effects_at_zero((y, v) in data()) {
-        let c = pool(&y, &v, &PoolOptions { model: Model::Common, ci: CiMethod::Wald, level: 0.95 }).unwrap();
+        let c = pool(&y, &v, &PoolOptions { model: Model::Common, ci: CiMethod::Wald, level: relyard::Level::NINETY_FIVE }).unwrap();
         let w: Vec<f64> = v.iter().map(|x| 1.0 / x).collect();
         let sw: f64 = w.iter().sum();
         let mean = w.iter().zip(&y).map(|(w, y)| w * y).sum::<f64>() / sw;

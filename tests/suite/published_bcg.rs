@@ -13,7 +13,7 @@ fn opts(est: Tau2Estimator, ci: CiMethod) -> PoolOptions {
     PoolOptions {
         model: Model::Random(est),
         ci,
-        level: 0.95,
+        level: relyard::Level::NINETY_FIVE,
     }
 }
 
@@ -116,7 +116,7 @@ fn latitude_meta_regression_of_log_odds_ratios_by_ml() {
     let opts = FitOptions {
         model: Model::Random(Tau2Estimator::Ml),
         ci: CiMethod::Wald,
-        level: 0.95,
+        level: relyard::Level::NINETY_FIVE,
         tau2_interval: false,
     };
     let f = fit_model(&d, &opts).unwrap();
@@ -151,6 +151,8 @@ fn latitude_meta_regression_of_log_risk_ratios_by_reml() {
             &path,
             "--transform",
             "none",
+            // The published intercept is at latitude 0 (issue 10: centring is the default).
+            "--uncentred",
             "--moderator",
             "ablat",
             "--ci",

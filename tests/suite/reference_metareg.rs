@@ -31,7 +31,7 @@ fn every_estimator_matches_the_reference_meta_regressions() {
                 let opts = FitOptions {
                     model: Model::Random(est),
                     ci,
-                    level,
+                    level: relyard::Level::new(level).unwrap(),
                     tau2_interval: true,
                 };
                 let fit = fit_model(&data, &opts).unwrap();
@@ -196,6 +196,8 @@ fn explain_reports_the_reference_values() {
                 path.as_str(),
                 "--transform",
                 "none",
+                // The reference intercepts are at the moderators' zero.
+                "--uncentred",
                 "--json",
                 "--tau2",
                 est,

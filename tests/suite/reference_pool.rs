@@ -33,7 +33,7 @@ fn every_estimator_matches_the_reference_fits() {
                 let opts = PoolOptions {
                     model: Model::Random(est),
                     ci,
-                    level,
+                    level: relyard::Level::new(level).unwrap(),
                 };
                 let got = pool(&y, &v, &opts).unwrap();
                 let what = |k: &str| format!("{name} {} {} {k}", est.name(), ci.name());
@@ -171,7 +171,7 @@ fn dl_and_pm_agree_with_statsmodels_combine_effects() {
             let opts = PoolOptions {
                 model: Model::Random(est),
                 ci: CiMethod::KnappHartung,
-                level,
+                level: relyard::Level::new(level).unwrap(),
             };
             let got = pool(&y, &v, &opts).unwrap();
             let what = |k: &str| format!("{name} statsmodels {key} {k}");
@@ -211,7 +211,7 @@ fn common_effect_matches_the_reference() {
         let opts = PoolOptions {
             model: Model::Common,
             ci: CiMethod::Wald,
-            level,
+            level: relyard::Level::new(level).unwrap(),
         };
         let got = pool(&y, &v, &opts).unwrap();
         assert_eq!(got.tau2.tau2, 0.0);

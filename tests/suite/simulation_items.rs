@@ -46,7 +46,7 @@ fn feldt_interval_covers_the_population_alpha() {
     let mut covered = 0;
     for r in 0..reps {
         let cov = sample(404, r, &loadings, 50);
-        let (lo, hi) = feldt_interval(alpha(&cov), 50.0, 6.0, 0.95);
+        let (lo, hi) = feldt_interval(alpha(&cov), 50.0, 6.0, relyard::Level::NINETY_FIVE);
         if lo <= pop_alpha && pop_alpha <= hi {
             covered += 1;
         }

@@ -62,7 +62,7 @@ fn simulate(sd_error: bool) -> Summary {
     let opts = FitOptions {
         model: Model::Random(Tau2Estimator::Reml),
         ci: CiMethod::KnappHartung,
-        level: 0.95,
+        level: relyard::Level::NINETY_FIVE,
         tau2_interval: false,
     };
     let mut slopes = Vec::new();
@@ -71,7 +71,7 @@ fn simulate(sd_error: bool) -> Summary {
         let sheet =
             parse_coding_sheet("sim.csv", text.as_bytes(), &SheetOptions::default()).unwrap();
         let p = prepare(sheet, &BenchmarkOptions::default()).unwrap();
-        let s = score_spread(&p, None, &[], &opts).unwrap();
+        let s = score_spread(&p, None, &[], relyard::metareg::Centring::None, &opts).unwrap();
         slopes.push(s.slope.estimate);
         if s.slope.ci.lower <= -2.0 && -2.0 <= s.slope.ci.upper {
             covers += 1;

@@ -149,15 +149,35 @@ pub fn html_escape(s: &str) -> String {
     out
 }
 
-/// Escape text for Markdown: every character Markdown could read as markup is
-/// backslash-escaped, and HTML's angle brackets and ampersand become character
-/// references, so no text turns into a tag, a link, emphasis or a table cell break.
+/// Escape text for Markdown: the characters that make emphasis, code, links, tables and
+/// strike-through are backslash-escaped anywhere, those that start a heading, a list or
+/// a quote are escaped at the start, and HTML's angle brackets and ampersand become
+/// character references, so no text turns into a tag, a link, emphasis or a table cell
+/// break (and numbers such as 0.783 stay as they are).
 pub fn markdown_escape(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for c in s.chars() {
+    let mut out = String::with_capacity(s.len() + 8);
+    let mut chars = s.chars().peekable();
+    // At the start: a heading (#), a list (-, +, or digits and a dot).
+    match s.chars().next() {
+        Some('#' | '-' | '+') => out.push('\\'),
+        Some(c) if c.is_ascii_digit() => {
+            let digits: String = s.chars().take_while(char::is_ascii_digit).collect();
+            let rest = &s[digits.len()..];
+            let marker = rest.starts_with(['.', ')'])
+                && rest[1..].chars().next().is_none_or(char::is_whitespace);
+            if marker {
+                out.push_str(&digits);
+                for _ in 0..digits.len() {
+                    chars.next();
+                }
+                out.push('\\');
+            }
+        }
+        _ => {}
+    }
+    for c in chars {
         match c {
-            '\\' | '`' | '*' | '_' | '{' | '}' | '[' | ']' | '(' | ')' | '#' | '+' | '-'
-            | '.' | '!' | '|' | '~' => {
+            '\\' | '`' | '*' | '_' | '[' | ']' | '|' | '~' => {
                 out.push('\\');
                 out.push(c);
             }
@@ -173,11 +193,7 @@ pub fn markdown_escape(s: &str) -> String {
 
 /// Code in Markdown: a backtick run longer than any inside the text.
 fn markdown_code(s: &str) -> String {
-    let longest = s
-        .split(|c| c != '`')
-        .map(str::len)
-        .max()
-        .unwrap_or(0);
+    let longest = s.split(|c| c != '`').map(str::len).max().unwrap_or(0);
     let fence = "`".repeat(longest + 1);
     let pad = if s.starts_with('`') || s.ends_with('`') {
         " "
@@ -243,8 +259,16 @@ mod tests {
             "&lt;script&gt;alert(1)&lt;/script&gt; *x* [a](b) | c"
         );
         let md = t.markdown();
-        assert!(!md.contains('<') && !md.contains("](") && !md.contains(" | "), "{md}");
+        // Every bracket and bar is escaped: no link, no tag, no table cell break.
+        let unescaped = md.replace("\\]", "").replace("\\|", "");
+        assert!(
+            !md.contains('<') && !unescaped.contains("](") && !unescaped.contains('|'),
+            "{md}"
+        );
         assert!(md.contains("\\*x\\*"), "{md}");
+        assert_eq!(markdown_escape("0.783 to 0.9"), "0.783 to 0.9");
+        assert_eq!(markdown_escape("1. first"), "1\\. first");
+        assert_eq!(markdown_escape("- x"), "\\- x");
         assert_eq!(markdown_code("a`b"), "``a`b``");
         let link = Inline::default().push(Span::Link {
             text: "x".into(),

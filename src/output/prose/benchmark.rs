@@ -1,56 +1,19 @@
-//! The plain-language paragraph a researcher can adapt for a paper, with references.
+//! The paragraph for a benchmark: what was pooled, how, and the range a new study should
+//! expect.
 
-use super::format::{fixed, percent_level, range, significant, thousands};
+use super::{Paragraph, Reference};
 use crate::benchmark::{Benchmark, describe_types};
+use crate::format::{fixed, range, significant, thousands};
 use crate::pool::{CiMethod, Model, Tau2Estimator};
 use crate::transform::TransformKind;
-
-/// A paragraph and the full references it cites.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub struct Paragraph {
-    /// The paragraph.
-    pub text: String,
-    /// Full citations, alphabetical.
-    pub references: Vec<String>,
-}
-
-const REF_BONETT: &str = "Bonett, D. G. (2002). Sample size requirements for testing and \
-estimating coefficient alpha. Journal of Educational and Behavioral Statistics, 27(4), 335–340.";
-const REF_HW: &str = "Hakstian, A. R., & Whalen, T. E. (1976). A k-sample significance test \
-for independent alpha coefficients. Psychometrika, 41(2), 219–231.";
-const REF_FISHER: &str = "Fisher, R. A. (1921). On the \"probable error\" of a coefficient of \
-correlation deduced from a small sample. Metron, 1, 3–32.";
-const REF_VIECHTBAUER_2005: &str = "Viechtbauer, W. (2005). Bias and efficiency of \
-meta-analytic variance estimators in the random-effects model. Journal of Educational and \
-Behavioral Statistics, 30(3), 261–293.";
-const REF_VIECHTBAUER_2007: &str = "Viechtbauer, W. (2007). Confidence intervals for the \
-amount of heterogeneity in meta-analysis. Statistics in Medicine, 26(1), 37–52.";
-const REF_DL: &str = "DerSimonian, R., & Laird, N. (1986). Meta-analysis in clinical trials. \
-Controlled Clinical Trials, 7(3), 177–188.";
-const REF_PM: &str = "Paule, R. C., & Mandel, J. (1982). Consensus values and weighting \
-factors. Journal of Research of the National Bureau of Standards, 87(5), 377–385.";
-const REF_SJ: &str = "Sidik, K., & Jonkman, J. N. (2005). Simple heterogeneity variance \
-estimation for meta-analysis. Journal of the Royal Statistical Society, Series C, 54(2), 367–384.";
-const REF_HE: &str = "Hedges, L. V., & Olkin, I. (1985). Statistical methods for \
-meta-analysis. Orlando, FL: Academic Press.";
-const REF_KH: &str = "Knapp, G., & Hartung, J. (2003). Improved tests for a random effects \
-meta-regression with a single covariate. Statistics in Medicine, 22(17), 2693–2710.";
-const REF_ROVER: &str = "Röver, C., Knapp, G., & Friede, T. (2015). Hartung-Knapp-Sidik-Jonkman \
-approach and its modification for random-effects meta-analysis with few studies. BMC Medical \
-Research Methodology, 15, 99.";
-const REF_HTS: &str = "Higgins, J. P. T., Thompson, S. G., & Spiegelhalter, D. J. (2009). A \
-re-evaluation of random-effects meta-analysis. Journal of the Royal Statistical Society, \
-Series A, 172(1), 137–159.";
-const REF_HT: &str = "Higgins, J. P. T., & Thompson, S. G. (2002). Quantifying heterogeneity \
-in a meta-analysis. Statistics in Medicine, 21(11), 1539–1558.";
 
 /// Write the paragraph for a benchmark. `measure` names the scale (e.g. "the Team
 /// Candor Scale"); without it the text says "the measure".
 pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
-    let mut refs: Vec<&str> = vec![REF_HT];
+    let mut refs = vec![Reference::HigginsThompson2002];
     let p = &b.pool;
     let opts = p.options;
-    let level = percent_level(opts.level);
+    let level = opts.level.percent();
     let measure = measure.unwrap_or("the measure");
     let on_coef = b.coefficient.is_some();
     let noun = if on_coef { "coefficient" } else { "effect" };
@@ -92,16 +55,16 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     }
     let transform_part = match b.transform {
         TransformKind::Bonett => {
-            refs.push(REF_BONETT);
+            refs.push(Reference::Bonett2002);
             "were transformed with Bonett's (2002) transformation, ln(1 − coefficient), and"
         }
         TransformKind::HakstianWhalen => {
-            refs.push(REF_HW);
+            refs.push(Reference::HakstianWhalen1976);
             "were transformed with the Hakstian–Whalen (1976) cube-root transformation, \
              (1 − coefficient)^(1/3), and"
         }
         TransformKind::FisherZ => {
-            refs.push(REF_FISHER);
+            refs.push(Reference::Fisher1921);
             "were transformed to Fisher's (1921) z and"
         }
         TransformKind::Raw => "were left untransformed and",
@@ -115,11 +78,11 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         }
         Model::Random(e) => {
             refs.push(match e {
-                Tau2Estimator::Reml | Tau2Estimator::Ml => REF_VIECHTBAUER_2005,
-                Tau2Estimator::Dl => REF_DL,
-                Tau2Estimator::Pm => REF_PM,
-                Tau2Estimator::Sj => REF_SJ,
-                Tau2Estimator::He => REF_HE,
+                Tau2Estimator::Reml | Tau2Estimator::Ml => Reference::Viechtbauer2005,
+                Tau2Estimator::Dl => Reference::DerSimonianLaird1986,
+                Tau2Estimator::Pm => Reference::PauleMandel1982,
+                Tau2Estimator::Sj => Reference::SidikJonkman2005,
+                Tau2Estimator::He => Reference::HedgesOlkin1985,
             });
             format!(
                 "pooled in a random-effects model, with the between-study variance (τ²) \
@@ -132,9 +95,9 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     };
     let ci_part = match opts.ci {
         CiMethod::KnappHartung | CiMethod::KnappHartungFloor => {
-            refs.push(REF_KH);
+            refs.push(Reference::KnappHartung2003);
             let floor = if opts.ci == CiMethod::KnappHartungFloor {
-                refs.push(REF_ROVER);
+                refs.push(Reference::RoverKnappFriede2015);
                 " with its scale factor kept at 1 or more (Röver, Knapp, & Friede, 2015)"
             } else {
                 ""
@@ -173,7 +136,7 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             fixed(p.i2, 0)
         )),
         Model::Random(_) => {
-            refs.push(REF_VIECHTBAUER_2007);
+            refs.push(Reference::Viechtbauer2007);
             let ci = p
                 .tau2_ci
                 .map(|t| {
@@ -226,7 +189,7 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
             format!(
                 ", and Cochran's Q test rejects that assumption (p {}), so a random-effects \
                  benchmark is advisable",
-                super::format::p_value(p.heterogeneity.p)
+                crate::format::p_value(p.heterogeneity.p)
             )
         } else {
             String::new()
@@ -239,7 +202,7 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     }
     match pi {
         Some((lo, hi)) => {
-            refs.push(REF_HTS);
+            refs.push(Reference::HigginsThompsonSpiegelhalter2009);
             s.push_str(&format!(
                 "The {level} prediction interval (Higgins, Thompson, & Spiegelhalter, 2009) \
                  indicates that the true {noun}{of_measure} in a new, comparable setting can be \
@@ -266,11 +229,6 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     finish(s, refs)
 }
 
-fn finish(text: String, mut refs: Vec<&str>) -> Paragraph {
-    refs.sort_unstable();
-    refs.dedup();
-    Paragraph {
-        text,
-        references: refs.into_iter().map(str::to_string).collect(),
-    }
+fn finish(text: String, refs: Vec<Reference>) -> Paragraph {
+    Paragraph::new(text, refs)
 }

@@ -1,16 +1,16 @@
-//! The report's figures, built from the analyses' results.
+//! The figures, built from the analysis's results (no model is refitted here: every line
+//! and band is the fitted model's prediction, every interval the analysis's own).
 
 use crate::benchmark::{Benchmark, Prepared};
 use crate::correct::correlation::CorrelationCorrection;
-use crate::dist::{normal_quantile, t_quantile};
-use crate::error::Result;
+use crate::dist::normal_quantile;
+use crate::metareg::Explanation;
 use crate::metareg::spread::{ScoreSpread, bonett_scale};
-use crate::metareg::{ModeratorSpec, build_design, explain};
 use crate::placement::Placement;
 use crate::plot::{
-    BubblePoint, Figure, FitBand, ForestRow, Kind, SensitivitySeries, forest_capacity,
+    BubbleAxes, BubblePoint, Figure, FitBand, ForestRow, Kind, SensitivitySeries, forest_capacity,
 };
-use crate::pool::FitOptions;
+use crate::pool::{ModelFit, Predictive};
 use crate::transform::{CoefficientTransform, TransformKind, Transformed};
 
 /// Back-transform a value, or keep it when the transform has no coefficient scale.
@@ -34,8 +34,7 @@ fn scale_label(kind: TransformKind) -> String {
 /// The coded studies with their 95% intervals, the pooled value and the expected range.
 pub fn forest(b: &Benchmark) -> Figure {
     let tr = b.transform.get();
-    let study_level = b.pool.options.level;
-    let z = normal_quantile(0.5 + study_level / 2.0);
+    let z = normal_quantile(b.pool.options.level.upper());
     // Study intervals on the coefficient scale end at 1, as every other interval does.
     let top = if b.transform == TransformKind::None {
         f64::INFINITY
@@ -85,7 +84,7 @@ pub fn forest(b: &Benchmark) -> Figure {
         .map(|i| ordered(back(tr, i.lower), back(tr, i.upper)));
     let omitted = b.studies.len() - rows.len();
     let height = 140 + 22 * (rows.len() as u32 + 3);
-    let level = 100.0 * p.options.level;
+    let level = 100.0 * p.options.level.value();
     Figure {
         name: "forest".into(),
         title: format!("Coded studies and the benchmark (k = {})", b.studies.len()),
@@ -163,27 +162,28 @@ pub fn funnel(b: &Benchmark) -> Figure {
     }
 }
 
-/// Points and the fitted line with its bands along a grid of x values.
+/// The fitted line with its confidence band and prediction band (where the model states
+/// one) along a grid of x values; `row(x)` is the design row at x.
 fn bands(
+    fit: &ModelFit,
     xs: impl Iterator<Item = f64>,
-    predict: impl Fn(f64) -> (f64, f64),
-    crit: f64,
-    pi_t: Option<f64>,
-    tau2: f64,
+    row: impl Fn(f64) -> Vec<f64>,
     map: impl Fn(f64) -> f64,
 ) -> Vec<FitBand> {
+    let crit = fit.critical_value();
+    let level = fit.options.level;
     xs.map(|x| {
-        let (fit, var) = predict(x);
-        let ci = ordered(map(fit - crit * var.sqrt()), map(fit + crit * var.sqrt()));
-        let pi = pi_t.map(|t| {
-            ordered(
-                map(fit - t * (var + tau2).sqrt()),
-                map(fit + t * (var + tau2).sqrt()),
-            )
+        let x0 = row(x);
+        let (centre, var) = fit.predict(&x0);
+        let half = crit * var.sqrt();
+        let ci = ordered(map(centre - half), map(centre + half));
+        let pi = Predictive::new_setting(fit, &x0).map(|p| {
+            let i = p.interval(level);
+            ordered(map(i.lower), map(i.upper))
         });
         FitBand {
             x,
-            fit: map(fit),
+            fit: map(centre),
             ci,
             pi,
         }
@@ -191,22 +191,14 @@ fn bands(
     .collect()
 }
 
-/// The t quantile of a prediction band, or `None` where the pooled results give no
-/// prediction interval either (common-effect model, or no degrees of freedom left).
-fn prediction_t(fit: &crate::pool::ModelFit) -> Option<f64> {
-    let df = fit.k as f64 - fit.p as f64 - 1.0;
-    let random = matches!(fit.options.model, crate::pool::Model::Random(_));
-    (random && df >= 1.0).then(|| t_quantile(0.5 + fit.options.level / 2.0, df))
-}
-
 fn grid(lo: f64, hi: f64, n: usize) -> impl Iterator<Item = f64> {
     (0..n).map(move |i| lo + (hi - lo) * i as f64 / (n - 1) as f64)
 }
 
-/// Coefficients against one numeric moderator, from the model with that moderator alone.
-pub fn moderator(p: &Prepared, name: &str, options: &FitOptions) -> Result<Figure> {
-    let design = build_design(p, &[ModeratorSpec::auto(name)])?;
-    let ex = explain(p, design, options)?;
+/// Coefficients against one numeric moderator, from the model with that moderator alone
+/// (the analysis's marginal fit).
+pub fn moderator(p: &Prepared, ex: &Explanation) -> Option<Figure> {
+    let name = ex.design.moderators.first()?.name().to_string();
     let tr = p.transform.get();
     let used = &ex.design.used;
     let xs: Vec<f64> = (0..used.len()).map(|i| ex.design.x[(i, 1)]).collect();
@@ -226,67 +218,97 @@ pub fn moderator(p: &Prepared, name: &str, options: &FitOptions) -> Result<Figur
             (a.min(x), b.max(x))
         });
     let level = ex.fit.options.level;
-    let fit = bands(
-        grid(lo, hi, 60),
-        |x| ex.fit.predict(&[1.0, x]),
-        ex.fit.critical_value(),
-        prediction_t(&ex.fit),
-        ex.fit.tau2.tau2,
-        |t| back(tr, t),
-    );
+    let fit = bands(&ex.fit, grid(lo, hi, 60), |x| vec![1.0, x], |t| back(tr, t));
     let slope = &ex.fit.coefficients[1];
-    Ok(Figure {
-        name: format!("moderator-{}", file_safe(name)),
+    Some(Figure {
+        name: format!("moderator-{}", file_safe(&name)),
         title: format!("Coefficients against {name}"),
         description: format!(
             "Each study's coefficient against {name} (marker area by weight), with the fitted \
-             line of the model with {name} alone, its {lvl:.0}% confidence band and the \
-             {lvl:.0}% prediction band; slope {:.4} on the {} scale (p = {:.3}).",
+             line of the model with {name} alone, its {lvl} confidence band{} ; slope {:.4} on \
+             the {} scale (p = {:.3}).",
+            if fit.iter().any(|f| f.pi.is_some()) {
+                format!(" and the {} prediction band", level.percent())
+            } else {
+                String::new()
+            },
             slope.estimate,
             p.transform.name(),
             slope.p,
-            lvl = 100.0 * level
-        ),
+            lvl = level.percent()
+        )
+        .replace(" ;", ";"),
         size: (760, 520),
         kind: Kind::Bubble {
             points,
             fit,
             reference: None,
-            x_label: name.to_string(),
+            axes: BubbleAxes::Linear,
+            x_label: name,
             y_label: scale_label(p.transform),
         },
     })
 }
 
-/// The score-spread model on the Bonett scale with the slope −2 reference.
+/// Most ticks on a score-spread axis.
+const SPREAD_TICKS_MAX: usize = 7;
+
+/// Round values for the score-spread axes that cover the data: SDs from the series 1,
+/// 1.2, 1.5, 2, 2.5, 3, 4, 5, 6, 8 (times a power of ten), thinned to at most seven over
+/// the SDs' range (with one beyond each end), and coefficients at familiar values.
+fn spread_ticks(sds: &[f64]) -> (Vec<f64>, Vec<f64>) {
+    let (lo, hi) = sds
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        });
+    let mut all = Vec::new();
+    if lo.is_finite() && lo > 0.0 && hi >= lo {
+        let mut decade = 10f64.powf(lo.log10().floor() - 1.0);
+        while decade <= hi * 10.0 && all.len() < 200 {
+            for m in [1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0] {
+                all.push(m * decade);
+            }
+            decade *= 10.0;
+        }
+    }
+    // The candidates within the data's range, and the nearest beyond each end.
+    let below = all
+        .iter()
+        .copied()
+        .filter(|t| *t < lo)
+        .fold(f64::NAN, f64::max);
+    let above = all
+        .iter()
+        .copied()
+        .filter(|t| *t > hi)
+        .fold(f64::NAN, f64::min);
+    let mut inside: Vec<f64> = all.into_iter().filter(|t| *t >= lo && *t <= hi).collect();
+    let mut step = 1;
+    while inside.len().div_ceil(step) > SPREAD_TICKS_MAX - 2 {
+        step += 1;
+    }
+    inside = inside.into_iter().step_by(step).collect();
+    let mut sd_ticks: Vec<f64> = [below].into_iter().chain(inside).chain([above]).collect();
+    sd_ticks.retain(|t| t.is_finite());
+    let coefficient_ticks = vec![
+        0.0, 0.3, 0.5, 0.6, 0.7, 0.75, 0.8, 0.85, 0.9, 0.93, 0.95, 0.97, 0.98, 0.99, 0.995,
+    ];
+    (sd_ticks, coefficient_ticks)
+}
+
+/// The score-spread model on readable axes (score SD on a log scale, the coefficient on
+/// the −ln(1 − coefficient) scale, labelled as coefficients, higher up for a higher
+/// coefficient): the fitted line of the analysis's model at the other terms' weighted
+/// means, and each study's coefficient adjusted to those means by the same model, so that
+/// points and line come from one model.
 pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
     let by_row: std::collections::HashMap<usize, &crate::sheet::StudyRecord> =
         p.records.iter().map(|r| (r.row, r)).collect();
     let weights = &s.fit.weights;
-    let points: Vec<BubblePoint> = s
-        .rows
-        .iter()
-        .zip(&s.sds)
-        .zip(weights)
-        .filter_map(|((row, sd), &w)| {
-            let r = by_row.get(row)?;
-            let (y, _) = bonett_scale(r).ok()?;
-            Some(BubblePoint {
-                x: sd.ln(),
-                y,
-                weight: w,
-            })
-        })
-        .collect();
-    let (lo, hi) = points
-        .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), q| {
-            (a.min(q.x), b.max(q.x))
-        });
-    // The line at the model's other columns' weighted means (ln items, other moderators).
-    let x = &s.fit;
     let sum_w: f64 = weights.iter().sum();
-    let means: Vec<f64> = (0..x.p)
+    // The other columns (ln items, other moderators) at their weighted means.
+    let means: Vec<f64> = (0..s.fit.p)
         .map(|j| {
             if j < 2 {
                 return 0.0;
@@ -299,50 +321,84 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
                 / sum_w
         })
         .collect();
-    let predict = |l: f64| {
+    let points: Vec<BubblePoint> = s
+        .rows
+        .iter()
+        .enumerate()
+        .zip(&s.sds)
+        .zip(weights)
+        .filter_map(|(((i, row), sd), &w)| {
+            let r = by_row.get(row)?;
+            let (y, _) = bonett_scale(r).ok()?;
+            let adjust: f64 = (2..s.fit.p)
+                .map(|j| s.fit.beta[j] * (s.x[(i, j)] - means[j]))
+                .sum();
+            Some(BubblePoint {
+                x: sd.ln(),
+                y: -(y - adjust),
+                weight: w,
+            })
+        })
+        .collect();
+    let (lo, hi) = points
+        .iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), q| {
+            (a.min(q.x), b.max(q.x))
+        });
+    let row = |l: f64| {
         let mut x0 = means.clone();
         x0[0] = 1.0;
         x0[1] = l;
-        s.fit.predict(&x0)
+        x0
     };
     let level = s.fit.options.level;
-    let fit = bands(
-        grid(lo, hi, 60),
-        predict,
-        s.fit.critical_value(),
-        prediction_t(&s.fit),
-        s.fit.tau2.tau2,
-        |t| t,
-    );
-    // Slope −2 through the fitted value at the weighted mean ln(SD).
+    let fit = bands(&s.fit, grid(lo, hi, 60), row, |t| -t);
+    // Slope −2 (on ln(1 − coefficient)) through the fitted value at the weighted mean
+    // ln(SD), drawn upside down like everything else.
     let mean_l = points.iter().map(|q| q.x * q.weight).sum::<f64>()
         / points.iter().map(|q| q.weight).sum::<f64>().max(1e-300);
-    let at_mean = predict(mean_l).0;
+    let at_mean = s.fit.predict(&row(mean_l)).0;
     let reference = vec![
-        (lo, at_mean - 2.0 * (lo - mean_l)),
-        (hi, at_mean - 2.0 * (hi - mean_l)),
+        (lo, -(at_mean - 2.0 * (lo - mean_l))),
+        (hi, -(at_mean - 2.0 * (hi - mean_l))),
     ];
+    let (sd_ticks, coefficient_ticks) = spread_ticks(&s.sds);
+    let others = if s.names.len() > 2 {
+        format!(
+            "; studies adjusted to the means of {} by the same model",
+            s.names[2..].join(", ")
+        )
+    } else {
+        String::new()
+    };
     Figure {
         name: "score-spread".into(),
         title: "Coefficients and the spread of scores".into(),
         description: format!(
-            "Each study's ln(1 − coefficient) against the natural log of its score SD ({} \
-             metric), marker area by weight, with the fitted line (slope {:.2}, {lvl:.0}% CI \
-             {:.2} to {:.2}) and its bands; the orange line has slope −2, what a constant \
-             error variance implies.",
+            "Each study's coefficient against its score SD ({} metric, log scale), marker area \
+             by weight, with the score-spread model's fitted line (slope {:.2} of \
+             ln(1 − coefficient) on ln(SD), {lvl} CI {:.2} to {:.2}) and its bands{others}; the \
+             orange line has slope −2, what the same error variance in every sample implies.",
             s.metric.name(),
             s.slope.estimate,
             s.slope.ci.lower,
             s.slope.ci.upper,
-            lvl = 100.0 * level
+            lvl = level.percent()
         ),
         size: (760, 520),
         kind: Kind::Bubble {
             points,
             fit,
-            reference: Some((reference, "slope −2 (constant error variance)".into())),
-            x_label: "ln(score SD)".into(),
-            y_label: "ln(1 − coefficient)".into(),
+            reference: Some((
+                reference,
+                "the same error variance everywhere (slope −2)".into(),
+            )),
+            axes: BubbleAxes::Spread {
+                sd_ticks,
+                coefficient_ticks,
+            },
+            x_label: format!("score SD ({} metric)", s.metric.name()),
+            y_label: "reliability coefficient".into(),
         },
     }
 }
@@ -352,10 +408,7 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
 pub fn placement(pl: &Placement) -> Figure {
     let tr = pl.transform.get();
     let level = pl.fit.options.level;
-    let tq = t_quantile(0.5 + level / 2.0, pl.pi_df.max(1.0));
-    let m = pl.expected_t;
-    let scale = (pl.pi_observed_t.upper - pl.pi_observed_t.lower) / (2.0 * tq);
-    let t = statrs::distribution::StudentsT::new(0.0, 1.0, pl.pi_df.max(1.0)).ok();
+    let dist = pl.observed_distribution;
     // Density on the coefficient scale: the t density of the transformed value times
     // |dT/dc|, evaluated on a grid of coefficients.
     let (a, b) = (pl.pi_observed.lower, pl.pi_observed.upper);
@@ -376,12 +429,10 @@ pub fn placement(pl: &Placement) -> Figure {
         let f = |c: f64| tr.forward(crate::transform::Coefficient(c)).0;
         let (t0, h) = (f(c), 1e-6 * width);
         let d = ((f(c + h) - f(c - h)) / (2.0 * h)).abs();
-        let dens = match &t {
-            Some(t) if t0.is_finite() && d.is_finite() => {
-                use statrs::distribution::Continuous;
-                t.pdf((t0 - m) / scale) / scale * d
-            }
-            _ => 0.0,
+        let dens = if t0.is_finite() && d.is_finite() {
+            dist.density(t0) * d
+        } else {
+            0.0
         };
         if dens.is_finite() {
             curve.push((c, dens));
@@ -397,7 +448,7 @@ pub fn placement(pl: &Placement) -> Figure {
              {:.3}, and the new study's {:.3} (percentile {:.0}).",
             a,
             b,
-            100.0 * level,
+            100.0 * level.value(),
             pl.expected,
             pl.study.coef,
             pl.percentile
@@ -474,7 +525,10 @@ pub fn file_safe(name: &str) -> String {
 mod tests {
     use super::*;
     use crate::benchmark::{BenchmarkOptions, prepare};
-    use crate::placement::{NewStudy, place};
+    use crate::level::Level;
+    use crate::metareg::Centring;
+    use crate::placement::{Conditions, NewStudy, place};
+    use crate::pool::FitOptions;
     use crate::sheet::{CoefType, read_coding_sheet};
 
     /// The placement curve is the t distribution of the observed value carried to the
@@ -494,7 +548,7 @@ mod tests {
         let fit = FitOptions {
             model: opts.pool.model,
             ci: opts.pool.ci,
-            level: 0.9,
+            level: Level::new(0.9).unwrap(),
             tau2_interval: false,
         };
         let study = NewStudy {
@@ -507,7 +561,14 @@ mod tests {
             scale_min: None,
             scale_max: None,
         };
-        let pl = place(&p, &study, &[], &Default::default(), None, &fit).unwrap();
+        let at = Default::default();
+        let cond = Conditions {
+            moderators: &[],
+            at: &at,
+            centring: Centring::Means,
+            spread_metric: None,
+        };
+        let pl = place(&p, &study, &cond, &fit).unwrap();
         let Kind::Placement { curve, range, .. } = placement(&pl).kind else {
             panic!("not a placement figure");
         };

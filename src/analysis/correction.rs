@@ -1,0 +1,323 @@
+//! The what-if correction: reliabilities resolved (a value, an estimate, another sheet's
+//! benchmark or the run's own), the correlation or regression corrected, and the
+//! warnings that go with it.
+
+use super::settings::{CorrectionSettings, RegressionData, Settings};
+use super::{Progress, Task, with_progress};
+use crate::benchmark::Prepared;
+use crate::correct::correlation::{CorrelationCorrection, CorrelationInput, correct_correlation};
+use crate::correct::regression::{RegressionCorrection, RegressionInput, correct_regression};
+use crate::correct::reliability::{BenchmarkAt, benchmark_source};
+use crate::correct::summary::read_summary;
+use crate::correct::{ReliabilitySource, ReliabilitySpec, resolve};
+use crate::error::{Error, Result};
+use crate::items::{Missing, read_items};
+use crate::msg;
+use crate::pool::FitOptions;
+use crate::setting::{Setting, given};
+use crate::warning::Warning;
+
+/// A correction and its warnings.
+#[derive(Debug, Clone)]
+pub enum Correction {
+    /// A corrected correlation.
+    Correlation {
+        /// What was corrected.
+        input: Box<CorrelationInput>,
+        /// The result.
+        result: Box<CorrelationCorrection>,
+        /// Its warnings.
+        warnings: Vec<Warning>,
+    },
+    /// A corrected regression.
+    Regression {
+        /// What was corrected.
+        input: Box<RegressionInput>,
+        /// The result.
+        result: Box<RegressionCorrection>,
+        /// Its warnings.
+        warnings: Vec<Warning>,
+    },
+}
+
+impl Correction {
+    /// The correction's warnings.
+    pub fn warnings(&self) -> &[Warning] {
+        match self {
+            Correction::Correlation { warnings, .. } | Correction::Regression { warnings, .. } => {
+                warnings
+            }
+        }
+    }
+}
+
+/// True when a reliability is the run's own benchmark (so the sheet must be read).
+pub(crate) fn uses_this_benchmark(c: &CorrectionSettings) -> bool {
+    let this = |r: &ReliabilitySpec| matches!(r, ReliabilitySpec::ThisBenchmark { .. });
+    match c {
+        CorrectionSettings::Correlation { rel_x, rel_y, .. } => this(rel_x) || this(rel_y),
+        CorrectionSettings::Regression {
+            predictors,
+            outcome_reliability,
+            ..
+        } => {
+            predictors.iter().any(|(_, r)| this(r))
+                || outcome_reliability.as_ref().is_some_and(this)
+        }
+    }
+}
+
+/// Benchmarks behind reliabilities are fitted with the run's model (without τ²'s
+/// interval, which a reliability does not use).
+fn reliability_fit(s: &Settings) -> FitOptions {
+    FitOptions {
+        tau2_interval: false,
+        ..super::fit_options(s)
+    }
+}
+
+/// A reliability ready to draw from.
+fn source(
+    spec: &ReliabilitySpec,
+    setting: Setting,
+    this: Option<&Prepared>,
+    s: &Settings,
+) -> Result<ReliabilitySource> {
+    match (spec, this) {
+        (ReliabilitySpec::ThisBenchmark { at }, Some(p)) => benchmark_source(
+            p,
+            &BenchmarkAt {
+                moderators: &s.moderators.specs,
+                at,
+                centring: s.moderators.centring,
+                setting,
+            },
+            &reliability_fit(s),
+            p.file(),
+        ),
+        _ => resolve(spec, &reliability_fit(s), setting),
+    }
+}
+
+/// Run the correction the settings ask for.
+pub(crate) fn correct(
+    c: &CorrectionSettings,
+    this: Option<&Prepared>,
+    s: &Settings,
+    progress: &dyn Progress,
+) -> Result<Correction> {
+    match c {
+        CorrectionSettings::Correlation {
+            r,
+            n,
+            rel_x,
+            rel_y,
+            draws,
+            grid,
+        } => {
+            let input = CorrelationInput {
+                r: *r,
+                n: *n,
+                rel_x: source(rel_x, Setting::ReliabilityX, this, s)?,
+                rel_y: source(rel_y, Setting::ReliabilityY, this, s)?,
+            };
+            let result = with_progress(progress, Task::Draws, *draws, |tick| {
+                correct_correlation(&input, *draws, s.seed, s.level, *grid, tick)
+            })?;
+            let warnings = correlation_warnings(&input, &result);
+            Ok(Correction::Correlation {
+                input: Box::new(input),
+                result: Box::new(result),
+                warnings,
+            })
+        }
+        CorrectionSettings::Regression {
+            data,
+            outcome,
+            predictors,
+            outcome_reliability,
+            draws,
+            grid,
+        } => {
+            let mut rel = Vec::with_capacity(predictors.len());
+            for (_, spec) in predictors {
+                rel.push(source(spec, Setting::Reliabilities, this, s)?);
+            }
+            let rel_y = match outcome_reliability {
+                Some(spec) => Some(source(spec, Setting::Reliabilities, this, s)?),
+                None => None,
+            };
+            let names: Vec<String> = predictors.iter().map(|(n, _)| n.clone()).collect();
+            let (input, mut warnings) = regression_input(data, outcome, names, rel, rel_y)?;
+            let task = if input.rows.is_some() {
+                Task::Bootstrap
+            } else {
+                Task::Draws
+            };
+            let result = with_progress(progress, task, *draws, |tick| {
+                correct_regression(&input, *draws, s.seed, s.level, *grid, tick)
+            })?;
+            warnings.extend(regression_warnings(&input, &result));
+            Ok(Correction::Regression {
+                input: Box::new(input),
+                result: Box::new(result),
+                warnings,
+            })
+        }
+    }
+}
+
+fn correlation_warnings(input: &CorrelationInput, c: &CorrelationCorrection) -> Vec<Warning> {
+    let mut warnings = Vec::new();
+    if !c.admissible {
+        warnings.push(Warning::Inadmissible {
+            what: "corrected correlation".into(),
+            why: format!(
+                "r / √(r_xx · r_yy) = {:.3} lies beyond ±1",
+                c.corrected_value
+            ),
+        });
+    }
+    if c.inadmissible_share > 0.0 {
+        warnings.push(Warning::InadmissibleDraws {
+            share: c.inadmissible_share,
+        });
+    }
+    for (name, r) in [("x", &input.rel_x), ("y", &input.rel_y)] {
+        if let Some(share) = r.lower_bound_share() {
+            warnings.push(Warning::LowerBoundReliability {
+                which: name.into(),
+                share,
+            });
+        }
+    }
+    warnings
+}
+
+/// The regression's covariance matrix from raw data or a summary.
+fn regression_input(
+    data: &RegressionData,
+    outcome: &str,
+    predictors: Vec<String>,
+    rel: Vec<ReliabilitySource>,
+    rel_y: Option<ReliabilitySource>,
+) -> Result<(RegressionInput, Vec<Warning>)> {
+    let mut names = predictors.clone();
+    names.push(outcome.to_string());
+    let mut warnings = Vec::new();
+    let input = match data {
+        RegressionData::Raw { path, read } => {
+            let mut read = read.clone();
+            read.items = Some(names.clone());
+            read.missing = Missing::Listwise;
+            read.keep_rows = true;
+            read.columns_setting = Setting::Predictors;
+            let d = read_items(path, &read)?;
+            if d.missing_cells > 0 {
+                warnings.push(Warning::RowsWithMissingValues {
+                    rows: d.rows_read - d.complete_rows,
+                    cells: d.missing_cells,
+                });
+            }
+            RegressionInput {
+                predictors,
+                outcome: outcome.to_string(),
+                cov: d.moments.cov.clone(),
+                n: d.complete_rows,
+                rel,
+                rel_y,
+                rows: d.rows.clone(),
+                standardized_only: false,
+                data_note: Some(format!(
+                    "{}: {} rows read; {} respondents with every variable used{}",
+                    path.display(),
+                    d.rows_read,
+                    d.complete_rows,
+                    if d.missing_cells > 0 {
+                        format!(
+                            " ({} left out for {} missing cell(s))",
+                            d.rows_read - d.complete_rows,
+                            d.missing_cells
+                        )
+                    } else {
+                        String::new()
+                    }
+                )),
+            }
+        }
+        RegressionData::Summary { path, n } => {
+            let sm = read_summary(path)?;
+            let mut idx = Vec::with_capacity(names.len());
+            for v in &names {
+                let i = sm.names.iter().position(|x| x == v).ok_or_else(|| {
+                    Error::setting(
+                        Setting::Predictors,
+                        format!(
+                            "{}: no variable {v} (its variables are: {})",
+                            path.display(),
+                            sm.names.join(", ")
+                        ),
+                    )
+                })?;
+                idx.push(i);
+            }
+            RegressionInput {
+                predictors,
+                outcome: outcome.to_string(),
+                cov: sm.cov.select_rows(&idx).select_columns(&idx),
+                n: *n,
+                rel,
+                rel_y,
+                rows: None,
+                standardized_only: sm.standardized_only,
+                data_note: None,
+            }
+        }
+    };
+    let variables = input.predictors.len() + 1;
+    if input.n < variables as u64 + 3 {
+        return Err(Error::setting(
+            Setting::CorrectionN,
+            msg![
+                given(Setting::CorrectionN, input.n.to_string()),
+                format!(
+                    " is too small for {variables} variables: a regression with {} predictor(s) \
+                     needs at least {} respondents",
+                    input.predictors.len(),
+                    variables + 3
+                )
+            ],
+        ));
+    }
+    Ok((input, warnings))
+}
+
+fn regression_warnings(input: &RegressionInput, c: &RegressionCorrection) -> Vec<Warning> {
+    let mut warnings = Vec::new();
+    if let Ok(k) = &c.estimate.corrected
+        && (k.standardized.iter().any(|s| s.abs() > 1.0) || c.inadmissible_share > 0.2)
+    {
+        warnings.push(Warning::UnstableCorrection);
+    }
+    if let Err(why) = &c.estimate.corrected {
+        warnings.push(Warning::Inadmissible {
+            what: "corrected regression".into(),
+            why: why.clone(),
+        });
+    }
+    if c.inadmissible_share > 0.0 {
+        warnings.push(Warning::InadmissibleDraws {
+            share: c.inadmissible_share,
+        });
+    }
+    let outcome_rel = input.rel_y.as_ref().map(|r| (&input.outcome, r));
+    for (name, r) in input.predictors.iter().zip(&input.rel).chain(outcome_rel) {
+        if let Some(share) = r.lower_bound_share() {
+            warnings.push(Warning::LowerBoundReliability {
+                which: name.clone(),
+                share,
+            });
+        }
+    }
+    warnings
+}

@@ -1,0 +1,433 @@
+//! `relyard items --json`, `relyard compare --json` and `relyard plan --json`.
+
+use super::{RELYARD_VERSION, SCHEMA_VERSION};
+use crate::analysis::{Comparison, ItemsOutcome, PlanOutcome, PlanSettings};
+use crate::items::{Missing, Recommendation};
+use crate::level::Level;
+use crate::numeric::MinimizeStop;
+use crate::setting::SettingNames;
+use crate::warning::WarningRecord;
+use serde::Serialize;
+
+/// `relyard items --json`.
+#[derive(Debug, Clone, Serialize)]
+pub struct ItemsDocument {
+    /// Layout version.
+    pub schema_version: &'static str,
+    /// "items".
+    pub command: &'static str,
+    /// relyard version.
+    pub relyard_version: &'static str,
+    /// The input.
+    pub input: ItemsInput,
+    /// Respondents behind the statistics.
+    pub n_used: u64,
+    /// Number of items.
+    pub items: usize,
+    /// Item names.
+    pub item_names: Vec<String>,
+    /// Confidence level.
+    pub level: Level,
+    /// Coefficient alpha.
+    pub alpha: f64,
+    /// Standardized alpha.
+    pub alpha_standardized: f64,
+    /// Feldt's interval.
+    pub alpha_ci_feldt: [f64; 2],
+    /// Bonett's interval.
+    pub alpha_ci_bonett: [f64; 2],
+    /// Guttman's λ2.
+    pub lambda2: f64,
+    /// Omega (null when the one-factor model could not be fitted).
+    pub omega: Option<f64>,
+    /// Bootstrap interval of omega.
+    pub omega_ci: Option<[f64; 2]>,
+    /// The bootstrap run.
+    pub bootstrap: Option<BootstrapRecord>,
+    /// Loadings in the items' raw metric.
+    pub loadings: Option<Vec<f64>>,
+    /// Uniquenesses in the raw metric.
+    pub uniquenesses: Option<Vec<f64>>,
+    /// Standardized loadings.
+    pub loadings_standardized: Option<Vec<f64>>,
+    /// Standardized uniquenesses.
+    pub uniquenesses_standardized: Option<Vec<f64>>,
+    /// Items with a Heywood case.
+    pub heywood_items: Vec<String>,
+    /// Test of tau-equivalence.
+    pub tau_equivalence: Option<ChiRecord>,
+    /// Fit of the one-factor model.
+    pub fit: Option<FitRecord>,
+    /// Why there is no one-factor model, when there is none.
+    pub factor_note: Option<String>,
+    /// Per-item statistics.
+    pub item_statistics: Vec<ItemRecord>,
+    /// The scale score's mean and SD, as a sum and as a mean of the items.
+    pub score: ScoreRecord,
+    /// Text columns left out as respondent identifiers.
+    pub identifiers_left_out: Vec<String>,
+    /// Which coefficient to report.
+    pub recommendation: Recommendation,
+    /// The reading in words.
+    pub reading: String,
+    /// Warnings.
+    pub warnings: Vec<WarningRecord>,
+}
+
+/// The item file.
+#[derive(Debug, Clone, Serialize)]
+pub struct ItemsInput {
+    /// File.
+    pub file: String,
+    /// Delimiter name ("none (workbook)" for a workbook).
+    pub delimiter: &'static str,
+    /// The worksheet read (null for a text file).
+    pub sheet_name: Option<String>,
+    /// Data rows read.
+    pub rows_read: u64,
+    /// Respondents who answered every item.
+    pub complete_rows: u64,
+    /// Missing cells.
+    pub missing_cells: u64,
+    /// listwise or pairwise.
+    pub missing: Missing,
+}
+
+/// A χ² test.
+#[derive(Debug, Clone, Serialize)]
+pub struct ChiRecord {
+    /// χ².
+    pub chi2: f64,
+    /// df.
+    pub df: f64,
+    /// p.
+    pub p: f64,
+}
+
+/// Fit indices.
+#[derive(Debug, Clone, Serialize)]
+pub struct FitRecord {
+    /// χ².
+    pub chi2: f64,
+    /// df.
+    pub df: f64,
+    /// p (null with 0 df).
+    pub p: Option<f64>,
+    /// RMSEA (null with 0 df).
+    pub rmsea: Option<f64>,
+    /// CFI (null with 0 df).
+    pub cfi: Option<f64>,
+    /// Iterations of the fit.
+    pub iterations: usize,
+    /// Why the fit stopped.
+    pub termination: MinimizeStop,
+}
+
+/// The bootstrap run.
+#[derive(Debug, Clone, Serialize)]
+pub struct BootstrapRecord {
+    /// Replicates.
+    pub replicates: usize,
+    /// Seed.
+    pub seed: u64,
+    /// Replicates that could not be fitted.
+    pub failed: usize,
+    /// Replicates with a Heywood case.
+    pub heywood: usize,
+}
+
+/// One item.
+#[derive(Debug, Clone, Serialize)]
+pub struct ItemRecord {
+    /// Name.
+    pub name: String,
+    /// Reverse-keyed.
+    pub reversed: bool,
+    /// Mean.
+    pub mean: f64,
+    /// SD.
+    pub sd: f64,
+    /// Corrected item-total correlation.
+    pub corrected_item_total: f64,
+    /// Alpha without the item.
+    pub alpha_if_deleted: Option<f64>,
+}
+
+impl ItemsDocument {
+    /// Build the document.
+    pub fn new(o: &ItemsOutcome, names: &dyn SettingNames) -> Self {
+        let (d, a, boot) = (&o.data, &o.analysis, o.bootstrap.as_ref());
+        let cov = &d.moments.cov;
+        let f = a.factor.as_ref().ok();
+        ItemsDocument {
+            schema_version: SCHEMA_VERSION,
+            command: "items",
+            relyard_version: RELYARD_VERSION,
+            input: ItemsInput {
+                file: d.file.clone(),
+                delimiter: d.format.delimiter_name(),
+                sheet_name: d.worksheet.clone(),
+                rows_read: d.rows_read,
+                complete_rows: d.complete_rows,
+                missing_cells: d.missing_cells,
+                missing: d.missing,
+            },
+            n_used: a.n_used,
+            items: a.k,
+            item_names: d.names.clone(),
+            level: a.level,
+            alpha: a.alpha,
+            alpha_standardized: a.alpha_standardized,
+            alpha_ci_feldt: [a.alpha_ci_feldt.0, a.alpha_ci_feldt.1],
+            alpha_ci_bonett: [a.alpha_ci_bonett.0, a.alpha_ci_bonett.1],
+            lambda2: a.lambda2,
+            omega: a.omega(),
+            omega_ci: boot.map(|b| [b.interval.0, b.interval.1]),
+            bootstrap: boot.map(|b| BootstrapRecord {
+                replicates: b.replicates,
+                seed: b.seed,
+                failed: b.failed,
+                heywood: b.heywood,
+            }),
+            loadings: f.map(|f| f.congeneric.loadings.clone()),
+            uniquenesses: f.map(|f| f.congeneric.uniquenesses.clone()),
+            loadings_standardized: f.map(|f| f.congeneric.standardized_loadings(cov)),
+            uniquenesses_standardized: f.map(|f| f.congeneric.standardized_uniquenesses(cov)),
+            heywood_items: f
+                .map(|f| {
+                    f.congeneric
+                        .heywood
+                        .iter()
+                        .map(|&i| d.names[i].clone())
+                        .collect()
+                })
+                .unwrap_or_default(),
+            tau_equivalence: f.map(|f| ChiRecord {
+                chi2: f.tau_test.chi2,
+                df: f.tau_test.df,
+                p: f.tau_test.p,
+            }),
+            fit: f.map(|f| FitRecord {
+                chi2: f.fit.chi2,
+                df: f.fit.df,
+                p: f.fit.p,
+                rmsea: f.fit.rmsea,
+                cfi: f.fit.cfi,
+                iterations: f.congeneric.iterations,
+                termination: f.congeneric.stop,
+            }),
+            factor_note: a.factor.as_ref().err().cloned(),
+            item_statistics: a
+                .item_statistics
+                .iter()
+                .enumerate()
+                .map(|(i, s)| ItemRecord {
+                    name: d.names[i].clone(),
+                    reversed: d.reversed[i],
+                    mean: s.mean,
+                    sd: s.sd,
+                    corrected_item_total: s.corrected_item_total,
+                    alpha_if_deleted: s.alpha_if_deleted,
+                })
+                .collect(),
+            score: ScoreRecord {
+                sum_mean: a.score.sum_mean,
+                sum_sd: a.score.sum_sd,
+                mean_mean: a.score.mean_mean,
+                mean_sd: a.score.mean_sd,
+            },
+            identifiers_left_out: d.identifiers.clone(),
+            recommendation: a.recommendation,
+            reading: a.reading.render(names),
+            warnings: super::warnings(&o.warnings, names),
+        }
+    }
+}
+
+/// The scale score.
+#[derive(Debug, Clone, Serialize)]
+pub struct ScoreRecord {
+    /// Mean of the sum score.
+    pub sum_mean: f64,
+    /// SD of the sum score.
+    pub sum_sd: f64,
+    /// Mean of the mean score.
+    pub mean_mean: f64,
+    /// SD of the mean score.
+    pub mean_sd: f64,
+}
+
+/// `relyard compare --json`.
+#[derive(Debug, Clone, Serialize)]
+pub struct CompareDocument {
+    /// Layout version.
+    pub schema_version: &'static str,
+    /// "compare".
+    pub command: &'static str,
+    /// relyard version.
+    pub relyard_version: &'static str,
+    /// The samples.
+    pub samples: Vec<SampleRecord>,
+    /// Feldt's test (two samples only).
+    pub feldt: Option<FeldtRecord>,
+    /// The Hakstian–Whalen test.
+    pub hakstian_whalen: HwRecord,
+    /// The coding sheet the samples came from (null without one).
+    pub input: Option<super::InputSummary>,
+    /// Rows of the sheet left out (invalid rows skipped at the user's request).
+    pub skipped_rows: Vec<super::SkippedRecord>,
+    /// Warnings.
+    pub warnings: Vec<WarningRecord>,
+}
+
+/// A sample.
+#[derive(Debug, Clone, Serialize)]
+pub struct SampleRecord {
+    /// Label.
+    pub label: String,
+    /// Alpha.
+    pub alpha: f64,
+    /// n.
+    pub n: u64,
+    /// Items.
+    pub items: u32,
+    /// (1 − α̂)^(1/3).
+    pub t: f64,
+    /// Its sampling variance.
+    pub v: f64,
+}
+
+/// Feldt's test.
+#[derive(Debug, Clone, Serialize)]
+pub struct FeldtRecord {
+    /// W.
+    pub w: f64,
+    /// df of the first sample.
+    pub df1: f64,
+    /// df of the second.
+    pub df2: f64,
+    /// Two-sided p.
+    pub p: f64,
+}
+
+/// The Hakstian–Whalen test.
+#[derive(Debug, Clone, Serialize)]
+pub struct HwRecord {
+    /// χ².
+    pub chi2: f64,
+    /// df.
+    pub df: f64,
+    /// p.
+    pub p: f64,
+    /// Weighted mean of T.
+    pub t_bar: f64,
+}
+
+impl CompareDocument {
+    /// Build the document.
+    pub fn new(c: &Comparison, names: &dyn SettingNames) -> Self {
+        let (samples, feldt, hw) = (&c.samples, c.feldt.as_ref(), &c.hakstian_whalen);
+        CompareDocument {
+            schema_version: SCHEMA_VERSION,
+            command: "compare",
+            relyard_version: RELYARD_VERSION,
+            input: c
+                .source
+                .as_ref()
+                .map(|s| super::InputSummary::new(s, c.from_sheet, c.skipped.len())),
+            skipped_rows: super::skipped(&c.skipped, names),
+            warnings: super::warnings(&c.warnings, names),
+            samples: samples
+                .iter()
+                .enumerate()
+                .map(|(i, s)| SampleRecord {
+                    label: s.label.clone(),
+                    alpha: s.alpha,
+                    n: s.n,
+                    items: s.items,
+                    t: hw.t[i],
+                    v: hw.v[i],
+                })
+                .collect(),
+            feldt: feldt.map(|f| FeldtRecord {
+                w: f.w,
+                df1: f.df1,
+                df2: f.df2,
+                p: f.p,
+            }),
+            hakstian_whalen: HwRecord {
+                chi2: hw.chi2,
+                df: hw.df,
+                p: hw.p,
+                t_bar: hw.t_bar,
+            },
+        }
+    }
+}
+
+/// `relyard plan --json`.
+#[derive(Debug, Clone, Serialize)]
+pub struct PlanDocument {
+    /// Layout version.
+    pub schema_version: &'static str,
+    /// "plan".
+    pub command: &'static str,
+    /// relyard version.
+    pub relyard_version: &'static str,
+    /// "width" or "test".
+    pub goal: &'static str,
+    /// Required sample size (null when it exceeds 2^53, about 9 × 10^15).
+    pub n: Option<u64>,
+    /// The formula's value before rounding up.
+    pub n_exact: f64,
+    /// The inputs, by name.
+    pub inputs: std::collections::BTreeMap<&'static str, f64>,
+}
+
+impl PlanDocument {
+    /// Build the document.
+    pub fn new(o: &PlanOutcome, level: Level) -> Self {
+        let (goal, inputs): (&'static str, Vec<(&'static str, f64)>) = match o.plan {
+            PlanSettings::Width {
+                items,
+                planning,
+                width,
+            } => (
+                "width",
+                vec![
+                    ("items", f64::from(items)),
+                    ("planning", planning),
+                    ("width", width),
+                    ("level", level.value()),
+                ],
+            ),
+            PlanSettings::Test {
+                items,
+                planning,
+                null,
+                power,
+                significance,
+                one_sided,
+            } => (
+                "test",
+                vec![
+                    ("items", f64::from(items)),
+                    ("planning", planning),
+                    ("null", null),
+                    ("power", power),
+                    ("significance", significance),
+                    ("sides", if one_sided { 1.0 } else { 2.0 }),
+                ],
+            ),
+        };
+        PlanDocument {
+            schema_version: SCHEMA_VERSION,
+            command: "plan",
+            relyard_version: RELYARD_VERSION,
+            goal,
+            n: o.size.n,
+            n_exact: o.size.exact,
+            inputs: inputs.into_iter().collect(),
+        }
+    }
+}

@@ -1,0 +1,376 @@
+//! The readable summaries of `relyard items`, `relyard compare` and `relyard plan`.
+
+use super::read_with_care;
+use crate::analysis::{Comparison, ItemsOutcome, PlanOutcome};
+use crate::format::{fixed, p_value, range, thousands, wrap};
+use crate::items::{Missing, Recommendation};
+use crate::level::Level;
+use crate::numeric::MinimizeStop;
+use crate::setting::SettingNames;
+use std::fmt::Write;
+
+/// Render the items summary.
+pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
+    let (d, a, boot) = (&o_.data, &o_.analysis, o_.bootstrap.as_ref());
+    let level = a.level.percent();
+    let c3 = |x: f64| fixed(x, 3);
+    let mut o = String::new();
+    match d.missing {
+        Missing::Listwise => {
+            let _ = writeln!(
+                o,
+                "Reliability of {} items from {} respondents",
+                a.k,
+                thousands(a.n_used)
+            );
+        }
+        Missing::Pairwise => {
+            let _ = writeln!(
+                o,
+                "Reliability of {} items from {} respondents (pairwise; n = {} is the smallest pair count)",
+                a.k,
+                thousands(d.rows_read),
+                thousands(a.n_used)
+            );
+        }
+    }
+    let _ = writeln!(o, "{}", "─".repeat(72));
+    let sheet = d
+        .worksheet
+        .as_ref()
+        .map(|w| format!("workbook, worksheet \"{w}\"; "))
+        .unwrap_or_default();
+    let _ = writeln!(
+        o,
+        "  file          {} ({sheet}{} rows read)",
+        d.file,
+        thousands(d.rows_read)
+    );
+    if !d.identifiers.is_empty() {
+        let _ = writeln!(
+            o,
+            "  identifiers   {} (left out of the items)",
+            d.identifiers.join(", ")
+        );
+    }
+    let missing = match d.missing {
+        Missing::Listwise => format!(
+            "listwise: {} complete respondents used, {} left out for {} missing cell(s)",
+            thousands(d.complete_rows),
+            thousands(d.rows_read - d.complete_rows),
+            thousands(d.missing_cells)
+        ),
+        Missing::Pairwise => format!(
+            "pairwise: each covariance from the respondents who answered both items (fewest {}); {} missing cell(s)",
+            thousands(d.moments.n_min()),
+            thousands(d.missing_cells)
+        ),
+    };
+    let _ = writeln!(o, "  missing       {missing}");
+    let reversed: Vec<&str> = d
+        .names
+        .iter()
+        .zip(&d.reversed)
+        .filter(|(_, r)| **r)
+        .map(|(n, _)| n.as_str())
+        .collect();
+    if !reversed.is_empty() {
+        let _ = writeln!(o, "  reversed      {}", reversed.join(", "));
+    }
+    let _ = writeln!(o);
+    let _ = writeln!(o, "  {:<30}{:<10}{level} interval", "", "value");
+    let _ = writeln!(
+        o,
+        "  {:<30}{:<10}{} (Feldt)",
+        "coefficient alpha",
+        c3(a.alpha),
+        range(a.alpha_ci_feldt.0, a.alpha_ci_feldt.1, c3)
+    );
+    let _ = writeln!(
+        o,
+        "  {:<30}{:<10}{} (Bonett)",
+        "",
+        "",
+        range(a.alpha_ci_bonett.0, a.alpha_ci_bonett.1, c3)
+    );
+    let _ = writeln!(
+        o,
+        "  {:<30}{}",
+        "standardized alpha",
+        c3(a.alpha_standardized)
+    );
+    let _ = writeln!(o, "  {:<30}{}", "Guttman's λ2", c3(a.lambda2));
+    match &a.factor {
+        Ok(f) => {
+            let ci = boot
+                .map(|b| {
+                    let mut notes = Vec::new();
+                    if b.failed > 0 {
+                        notes.push(format!("{} not fitted", b.failed));
+                    }
+                    if b.heywood > 0 {
+                        notes.push(format!("{} with a Heywood case", b.heywood));
+                    }
+                    if d.missing == Missing::Pairwise {
+                        notes.push("from the complete respondents only".into());
+                    }
+                    let extra = if notes.is_empty() {
+                        String::new()
+                    } else {
+                        format!("; {}", notes.join(", "))
+                    };
+                    format!(
+                        "{} (bootstrap, {} replicates{extra})",
+                        range(b.interval.0, b.interval.1, c3),
+                        b.replicates
+                    )
+                })
+                .unwrap_or_else(|| "(add --bootstrap N for an interval)".into());
+            let _ = writeln!(
+                o,
+                "  {:<30}{:<10}{}",
+                "omega (one factor, ML)",
+                c3(f.congeneric.omega()),
+                ci
+            );
+            let _ = writeln!(o);
+            let _ = writeln!(o, "  One-factor model");
+            let fit = &f.fit;
+            match (fit.rmsea, fit.cfi, fit.p) {
+                (Some(r), Some(c), Some(p)) => {
+                    let _ = writeln!(
+                        o,
+                        "    fit                χ²({}) = {}, p {}; RMSEA {}; CFI {}",
+                        fit.df,
+                        fixed(fit.chi2, 2),
+                        p_value(p),
+                        c3(r),
+                        c3(c)
+                    );
+                }
+                _ => {
+                    let _ = writeln!(
+                        o,
+                        "    fit                exact (3 items leave no degrees of freedom to test it)"
+                    );
+                }
+            }
+            let t = &f.tau_test;
+            let _ = writeln!(
+                o,
+                "    tau-equivalence    χ²({}) = {}, p {}  (equal loadings against free loadings)",
+                t.df,
+                fixed(t.chi2, 2),
+                p_value(t.p)
+            );
+            let conv = |s: MinimizeStop, it: usize| {
+                if s.converged() {
+                    format!("converged in {it} iterations")
+                } else {
+                    format!("NOT converged ({s:?}) after {it} iterations")
+                }
+            };
+            let _ = writeln!(
+                o,
+                "    estimation         maximum likelihood; free loadings {}; equal loadings {}",
+                conv(f.congeneric.stop, f.congeneric.iterations),
+                conv(f.tau_equivalent.stop, f.tau_equivalent.iterations)
+            );
+        }
+        Err(why) => {
+            let _ = writeln!(o, "  omega               not available: {why}");
+        }
+    }
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "  {:<20} {:>7} {:>7} {:>10} {:>10} {:>9} {:>9}",
+        "item", "mean", "SD", "item-rest", "α without", "loading", "std. ld."
+    );
+    let cov = &d.moments.cov;
+    for (i, s) in a.item_statistics.iter().enumerate() {
+        let name: String = d.names[i].chars().take(20).collect();
+        let (ld, sld) = match &a.factor {
+            Ok(f) => {
+                let flag = if f.congeneric.heywood.contains(&i) {
+                    " (Heywood)"
+                } else {
+                    ""
+                };
+                (
+                    c3(f.congeneric.loadings[i]),
+                    format!(
+                        "{}{flag}",
+                        c3(f.congeneric.loadings[i] / cov[(i, i)].sqrt())
+                    ),
+                )
+            }
+            Err(_) => ("–".into(), "–".into()),
+        };
+        let _ = writeln!(
+            o,
+            "  {:<20} {:>7} {:>7} {:>10} {:>10} {:>9} {:>9}",
+            name,
+            fixed(s.mean, 2),
+            fixed(s.sd, 2),
+            c3(s.corrected_item_total),
+            s.alpha_if_deleted.map(c3).unwrap_or_else(|| "–".into()),
+            ld,
+            sld
+        );
+    }
+    let _ = writeln!(o);
+    let which = match a.recommendation {
+        Recommendation::Either => "alpha or omega",
+        Recommendation::Omega => "omega",
+        Recommendation::CheckDimensionality => "neither yet: check the dimensionality",
+        Recommendation::AlphaOnly => "alpha (a lower bound)",
+        Recommendation::AlphaWithCaution => "alpha, as a lower bound",
+        Recommendation::ReverseKeyFirst => {
+            "none yet: reverse-key the items that run against the others"
+        }
+        Recommendation::NoCommonVariance => "none: the items do not form a scale here",
+    };
+    let _ = writeln!(
+        o,
+        "  scale score   sum: mean {}, SD {};  mean of the items: mean {}, SD {}",
+        fixed(a.score.sum_mean, 2),
+        fixed(a.score.sum_sd, 2),
+        fixed(a.score.mean_mean, 3),
+        fixed(a.score.mean_sd, 3)
+    );
+    let _ = writeln!(
+        o,
+        "                (the SD to give relyard check as its score SD, with sum or mean as its metric)"
+    );
+    let _ = writeln!(o);
+    let _ = writeln!(o, "Which coefficient to report: {which}");
+    o.push_str(&wrap(&format!("{}.", a.reading.render(names)), 86, "  "));
+    read_with_care(&mut o, &o_.warnings, names);
+    o
+}
+
+/// Render the compare summary.
+pub fn compare_summary(c: &Comparison, names: &dyn SettingNames) -> String {
+    let (samples, feldt, hw) = (&c.samples, c.feldt.as_ref(), &c.hakstian_whalen);
+    let mut o = String::new();
+    let _ = writeln!(
+        o,
+        "Are these alphas equal? {} independent samples",
+        samples.len()
+    );
+    let _ = writeln!(o, "{}", "─".repeat(72));
+    let _ = writeln!(
+        o,
+        "  {:<24} {:>8} {:>8} {:>6}",
+        "sample", "alpha", "n", "items"
+    );
+    for s in samples {
+        let label: String = s.label.chars().take(24).collect();
+        let _ = writeln!(
+            o,
+            "  {:<24} {:>8} {:>8} {:>6}",
+            label,
+            fixed(s.alpha, 3),
+            thousands(s.n),
+            s.items
+        );
+    }
+    let _ = writeln!(o);
+    if let Some(f) = feldt {
+        let _ = writeln!(
+            o,
+            "  Feldt (1969)              W = {} against F({}, {}), two-sided p {}",
+            fixed(f.w, 3),
+            f.df1,
+            f.df2,
+            p_value(f.p)
+        );
+    }
+    let _ = writeln!(
+        o,
+        "  Hakstian–Whalen (1976)    χ²({}) = {}, p {}",
+        hw.df,
+        fixed(hw.chi2, 3),
+        p_value(hw.p)
+    );
+    let _ = writeln!(o);
+    let lo = samples
+        .iter()
+        .map(|s| s.alpha)
+        .fold(f64::INFINITY, f64::min);
+    let hi = samples
+        .iter()
+        .map(|s| s.alpha)
+        .fold(f64::NEG_INFINITY, f64::max);
+    let p = feldt.map(|f| f.p).unwrap_or(hw.p);
+    let verdict = if p < 0.05 {
+        "the alphas differ by more than sampling error explains"
+    } else {
+        "the data do not show a difference beyond sampling error (which is not proof that the \
+         alphas are equal)"
+    };
+    o.push_str(&wrap(
+        &format!(
+            "The alphas span {} ({} to {}); at the 5% level {verdict}.",
+            fixed(hi - lo, 3),
+            fixed(lo, 3),
+            fixed(hi, 3)
+        ),
+        86,
+        "  ",
+    ));
+    if samples.windows(2).any(|w| w[0].items != w[1].items) {
+        o.push_str(&wrap(
+            "Note: the samples used forms of different lengths; these tests compare one test \
+             given to different samples, so a difference may reflect the forms rather than the \
+             samples.",
+            86,
+            "  ",
+        ));
+    }
+    super::skipped_rows(&mut o, &c.skipped, names);
+    read_with_care(&mut o, &c.warnings, names);
+    o
+}
+
+/// Render a sample-size result.
+pub fn plan_summary(p: &PlanOutcome, level: Level) -> String {
+    let doc = crate::output::json::PlanDocument::new(p, level);
+    let goal = if doc.goal == "width" {
+        "an interval of a given width"
+    } else {
+        "a test with a given power"
+    };
+    let inputs: Vec<(&str, String)> = doc
+        .inputs
+        .iter()
+        .map(|(k, v)| (*k, format!("{v}")))
+        .collect();
+    let size = &p.size;
+    let mut o = String::new();
+    let _ = writeln!(o, "Sample size for coefficient alpha: {goal}");
+    let _ = writeln!(o, "{}", "─".repeat(72));
+    for (k, v) in &inputs {
+        let _ = writeln!(o, "  {:<22}{v}", k);
+    }
+    let _ = writeln!(o);
+    let n = match size.n {
+        Some(n) => thousands(n),
+        None => "more than 9 × 10^15 (out of reach)".to_string(),
+    };
+    let _ = writeln!(
+        o,
+        "  required n            {n} (formula value {})",
+        crate::format::significant(size.exact, 6)
+    );
+    let _ = writeln!(o);
+    o.push_str(&wrap(
+        "Bonett (2002): from the large-sample variance of ln(1 − alpha), 2k/((k − 1)(n − 2)). \
+         Plan with a conservative (low) planning value; the formula assumes roughly parallel \
+         items and approximately normal responses.",
+        86,
+        "  ",
+    ));
+    o
+}

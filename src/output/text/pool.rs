@@ -1,0 +1,321 @@
+//! The readable summary of a benchmark (`relyard pool`).
+
+use super::{heading, line, paper, para, read_with_care, sheet_line, skipped_rows, t4};
+use crate::benchmark::Benchmark;
+use crate::format::{fixed, p_value, range, significant, thousands};
+use crate::output::prose::Paragraph;
+use crate::pool::{CiMethod, Model, Prediction, Termination};
+use crate::setting::SettingNames;
+use crate::transform::TransformKind;
+use std::fmt::Write;
+
+/// Render the benchmark summary; `show_studies` adds a table of the pooled studies.
+pub fn benchmark_summary(
+    b: &Benchmark,
+    paragraph: &Paragraph,
+    show_studies: bool,
+    names: &dyn SettingNames,
+) -> String {
+    let mut o = String::new();
+    expectation(&mut o, b);
+    let _ = writeln!(o);
+    differences(&mut o, b);
+    let _ = writeln!(o);
+    computation(&mut o, b);
+    if show_studies {
+        studies(&mut o, b);
+    }
+    skipped_rows(&mut o, &b.skipped, names);
+    let what = if b.coefficient.is_some() {
+        format!(
+            "For your paper (adapt as needed; {} reported {} coefficients)",
+            b.pool.k,
+            crate::benchmark::describe_types(b)
+        )
+    } else {
+        format!(
+            "For your paper (adapt as needed; {} reported effects)",
+            b.pool.k
+        )
+    };
+    paper(&mut o, &what, paragraph);
+    read_with_care(&mut o, &b.warnings, names);
+    o
+}
+
+/// What a new study should expect: the expected range first, then the pooled value.
+fn expectation(o: &mut String, b: &Benchmark) {
+    let p = &b.pool;
+    let level = p.options.level.percent();
+    let c3 = |x: f64| fixed(x, 3);
+    let Some(c) = &b.coefficient else {
+        heading(o, &format!("Pooled effects of {} studies (as coded)", p.k));
+        line(
+            o,
+            "pooled effect",
+            &format!("{}  (SE {})", t4(p.estimate), t4(p.se)),
+        );
+        line(
+            o,
+            &format!("{level} CI"),
+            &range(p.ci.lower, p.ci.upper, t4),
+        );
+        if let Some(i) = p.prediction.interval() {
+            line(
+                o,
+                &format!("{level} expected range"),
+                &range(i.lower, i.upper, t4),
+            );
+        }
+        return;
+    };
+    heading(o, "What a new study of the measure should expect");
+    match (p.prediction, c.pi) {
+        (Prediction::Available { .. }, Some(pi)) => {
+            para(
+                o,
+                &format!(
+                    "In a new, comparable setting the true coefficient is expected between {} \
+                     and {} ({level} expected range, from {} coded studies). A coefficient \
+                     observed in one new sample scatters a little more, by that sample's own \
+                     sampling error; relyard check places a particular study.",
+                    c3(pi.lower),
+                    c3(pi.upper),
+                    p.k
+                ),
+            );
+            if let Some(w) = c.pi_at_tau2_upper {
+                para(
+                    o,
+                    &format!(
+                        "τ² was estimated at 0, so this range reflects only the uncertainty of \
+                         the pooled coefficient; at the upper end of τ²'s interval it would be \
+                         {} to {}.",
+                        c3(w.lower),
+                        c3(w.upper)
+                    ),
+                );
+            }
+        }
+        (Prediction::CommonEffect, _) => para(
+            o,
+            "The common-effect model assumes one true coefficient for every setting, so it \
+             states no expected range for a new one beyond the interval of the pooled value.",
+        ),
+        _ => {
+            para(
+                o,
+                "No expected range can be stated: k = 2 leaves the t quantile no degrees of \
+                 freedom.",
+            );
+            para(o, "Code more studies to state one.");
+        }
+    }
+    let _ = writeln!(o);
+    line(
+        o,
+        "pooled coefficient",
+        &format!(
+            "{}   {level} CI {}",
+            c3(c.estimate),
+            range(c.ci.lower, c.ci.upper, c3)
+        ),
+    );
+}
+
+/// How much the studies differ.
+fn differences(o: &mut String, b: &Benchmark) {
+    let p = &b.pool;
+    let level = p.options.level.percent();
+    let h = &p.heterogeneity;
+    heading(o, "How much the studies differ");
+    let scale = if b.transform == TransformKind::None {
+        "the effects' scale".to_string()
+    } else {
+        format!("the {} scale", b.transform.get().formula())
+    };
+    match p.options.model {
+        Model::Common => para(
+            o,
+            &format!(
+                "Not estimated: the common-effect model assumes no differences between \
+                 settings (τ² = 0). The coefficients' spread relative to sampling error: \
+                 I² = {}% from Q.",
+                fixed(p.i2, 1)
+            ),
+        ),
+        Model::Random(_) => {
+            let ci = p
+                .tau2_ci
+                .map(|c| {
+                    format!(
+                        ", {level} CI {}",
+                        range(c.lower, c.upper, |x| significant(x, 3))
+                    )
+                })
+                .unwrap_or_default();
+            let words = if p.tau2.at_zero {
+                "no more than sampling error predicts"
+            } else if p.tau2_ci.is_some_and(|c| c.lower > 0.0) {
+                "beyond sampling error"
+            } else {
+                "somewhat, but not clearly beyond sampling error"
+            };
+            para(
+                o,
+                &format!(
+                    "True coefficients vary between settings {words}: τ = {} on {scale} \
+                     (τ² = {}{ci}).",
+                    significant(p.tau2.tau2.sqrt(), 3),
+                    significant(p.tau2.tau2, 3)
+                ),
+            );
+            let i2ci = p
+                .i2_ci
+                .map(|c| {
+                    format!(
+                        ", {level} CI {}",
+                        range(c.lower, c.upper, |x| fixed(x, 1) + "%")
+                    )
+                })
+                .unwrap_or_default();
+            line(
+                o,
+                "between-setting share",
+                &format!("I² = {}%{i2ci}; H² = {}", fixed(p.i2, 1), fixed(p.h2, 2)),
+            );
+        }
+    }
+    line(
+        o,
+        "test of equal values",
+        &format!("Q = {} on {} df, p {}", fixed(h.q, 2), h.df, p_value(h.p)),
+    );
+}
+
+/// How the numbers were computed.
+fn computation(o: &mut String, b: &Benchmark) {
+    let p = &b.pool;
+    let opts = p.options;
+    heading(o, "How it was computed");
+    line(
+        o,
+        "sheet",
+        &sheet_line(&b.source, b.studies.len(), b.skipped.len()),
+    );
+    if b.coefficient.is_some() {
+        let counts: Vec<String> = b
+            .coef_types
+            .iter()
+            .map(|(t, n)| format!("{t} {n}"))
+            .collect();
+        line(o, "coefficients", &counts.join(", "));
+    }
+    let n_text = if b.n_total > 0 {
+        let miss = if b.n_missing > 0 {
+            format!(" ({} studies without n)", b.n_missing)
+        } else {
+            String::new()
+        };
+        format!("{}{miss}", thousands(b.n_total))
+    } else {
+        "not given".into()
+    };
+    line(o, "respondents", &n_text);
+    let scale = if b.transform == TransformKind::None {
+        "as coded: coef holds the effect, var its sampling variance".to_string()
+    } else {
+        format!(
+            "{}: {}{}",
+            b.transform.label(),
+            b.transform.get().formula(),
+            if b.transform_chosen {
+                ""
+            } else {
+                " (the default for these coefficients)"
+            }
+        )
+    };
+    line(o, "analysis scale", &scale);
+    let model = match opts.model {
+        Model::Common => "common effect (τ² = 0 assumed)".to_string(),
+        Model::Random(e) => {
+            let how = match p.tau2.termination {
+                Termination::ClosedForm => "closed form".to_string(),
+                Termination::Converged => format!(
+                    "converged in {} iteration{}",
+                    p.tau2.iterations,
+                    if p.tau2.iterations == 1 { "" } else { "s" }
+                ),
+                Termination::IterationLimit => {
+                    format!("NOT converged after {} iterations", p.tau2.iterations)
+                }
+            };
+            format!(
+                "random effects; τ² by {} ({}), {how}",
+                e.label(),
+                e.abbreviation()
+            )
+        }
+    };
+    line(o, "model", &model);
+    let interval = match opts.ci {
+        CiMethod::KnappHartung | CiMethod::KnappHartungFloor => format!(
+            "Knapp–Hartung{} (t with {} df, SE scaled by {}); level {}",
+            if opts.ci == CiMethod::KnappHartungFloor {
+                ", factor at least 1"
+            } else {
+                ""
+            },
+            p.k - 1,
+            fixed(p.kh_scale.unwrap_or(1.0).sqrt(), 3),
+            opts.level.percent()
+        ),
+        CiMethod::Wald => format!("Wald (normal quantiles); level {}", opts.level.percent()),
+    };
+    line(o, "intervals", &interval);
+    if b.transform != TransformKind::None {
+        let pi = p
+            .prediction
+            .interval()
+            .map(|i| format!("; expected range {}", range(i.lower, i.upper, t4)))
+            .unwrap_or_default();
+        line(
+            o,
+            "on the analysis scale",
+            &format!(
+                "pooled {} (SE {}); CI {}{pi}",
+                t4(p.estimate),
+                t4(p.se),
+                range(p.ci.lower, p.ci.upper, t4)
+            ),
+        );
+    }
+}
+
+/// Every pooled study.
+fn studies(o: &mut String, b: &Benchmark) {
+    let _ = writeln!(o);
+    heading(o, "The pooled studies");
+    let _ = writeln!(
+        o,
+        "  {:>5}  {:<30} {:>8} {:>7} {:>5} {:>10} {:>10} {:>7}",
+        "row", "study", "coef", "n", "items", "scaled", "variance", "weight"
+    );
+    let dash = || "–".to_string();
+    for s in &b.studies {
+        let label: String = s.record.label.chars().take(30).collect();
+        let _ = writeln!(
+            o,
+            "  {:>5}  {:<30} {:>8} {:>7} {:>5} {:>10} {:>10} {:>6}%",
+            s.record.row,
+            label,
+            fixed(s.record.coef, 3),
+            s.record.n.map(|n| n.to_string()).unwrap_or_else(dash),
+            s.record.items.map(|n| n.to_string()).unwrap_or_else(dash),
+            fixed(s.effect, 4),
+            significant(s.variance, 3),
+            fixed(s.weight_percent, 1)
+        );
+    }
+}
