@@ -2,8 +2,8 @@
 //! coefficient, pool, and map the results back to the coefficient scale.
 
 use crate::error::{CellProblem, Error, Result};
-use crate::msg;
 use crate::pool::{PoolOptions, PoolResult, pool};
+use crate::setting::msg;
 use crate::setting::{Message, Setting, given};
 use crate::sheet::{CodingSheet, Role, SheetSummary, StudyRecord};
 use crate::transform::{

@@ -2,8 +2,8 @@
 
 use crate::dist::{chi2_sf, f_cdf, f_sf};
 use crate::error::{Error, Result};
-use crate::msg;
 use crate::setting::Setting;
+use crate::setting::msg;
 use crate::transform::{CoefficientTransform, HakstianWhalen, StudyInput};
 
 /// One sample's coefficient alpha.

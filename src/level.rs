@@ -1,8 +1,8 @@
 //! The confidence level of an interval: checked once, then carried as a type.
 
 use crate::error::{Error, Result};
-use crate::msg;
 use crate::setting::Setting;
+use crate::setting::msg;
 use serde::Serialize;
 
 /// A confidence level strictly between 0 and 1 (0.95 for a 95% interval).

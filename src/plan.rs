@@ -9,8 +9,8 @@
 use crate::dist::normal_quantile;
 use crate::error::{Error, Result};
 use crate::level::Level;
-use crate::msg;
 use crate::setting::Setting;
+use crate::setting::msg;
 
 /// The largest sample size stated as a whole number: 2^53, beyond which a double no
 /// longer holds every whole number (about 9 × 10^15).

@@ -347,12 +347,12 @@ impl fmt::Display for Message {
 /// A [`Message`] from pieces: text (`&str` or `String`), a [`Setting`], or [`given`].
 ///
 /// `msg!["the sheet needs ", Setting::Transform, " to be set"]`
-#[macro_export]
 macro_rules! msg {
     ($($piece:expr),* $(,)?) => {
         $crate::setting::Message::new(vec![$($crate::setting::Piece::from($piece)),*])
     };
 }
+pub(crate) use msg;
 
 #[cfg(test)]
 mod tests {

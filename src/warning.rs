@@ -2,7 +2,7 @@
 //! what happened and what to do about it.
 
 use crate::format;
-use crate::msg;
+use crate::setting::msg;
 use crate::setting::{Message, PlainNames, Setting, SettingNames, given};
 use serde::Serialize;
 use std::fmt;

@@ -7,7 +7,7 @@ use crate::compare::{
     AlphaSample, FeldtTest, HakstianWhalenTest, feldt_two_sample, hakstian_whalen_test,
 };
 use crate::error::{CellProblem, Error, Result};
-use crate::msg;
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::sheet::SheetSummary;
 use crate::transform::TransformKind;

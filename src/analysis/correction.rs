@@ -12,8 +12,8 @@ use crate::correct::summary::read_summary;
 use crate::correct::{ReliabilitySource, ReliabilitySpec, resolve};
 use crate::error::{Error, Result};
 use crate::items::{Missing, read_items};
-use crate::msg;
 use crate::pool::FitOptions;
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::warning::Warning;
 

@@ -5,9 +5,9 @@ use super::{parallel_fill, percentile_interval, sensitivity_grid};
 use crate::dist::normal_quantile;
 use crate::error::{Error, Result};
 use crate::level::Level;
-use crate::msg;
 use crate::random::draw;
 use crate::setting::Setting;
+use crate::setting::msg;
 use rayon::prelude::*;
 
 /// tanh z as 1 − 2/(e^{2z} + 1): one exponential, about twice as fast as the library

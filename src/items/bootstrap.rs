@@ -5,9 +5,9 @@ use super::factor::{FactorModel, fit_one_factor};
 use super::moments::Listwise;
 use crate::error::{Error, Result};
 use crate::level::Level;
-use crate::msg;
 use crate::random::stream;
 use crate::setting::Setting;
+use crate::setting::msg;
 use rand::RngExt;
 use rayon::prelude::*;
 

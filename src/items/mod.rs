@@ -148,7 +148,7 @@ pub fn analyze(data: &ItemData, level: Level) -> Result<ItemAnalysis> {
     let n = n_used as f64;
     let mut warnings = data.notes.clone();
     if let Some(i) = (0..k).find(|&i| cov[(i, i)].is_nan() || cov[(i, i)] <= 0.0) {
-        return Err(crate::Error::cannot(crate::msg![
+        return Err(crate::Error::cannot(crate::setting::msg![
             format!(
                 "item {} has no variance (every respondent gave the same answer), so \
                  reliability cannot be computed; leave it out with ",
@@ -170,7 +170,7 @@ pub fn analyze(data: &ItemData, level: Level) -> Result<ItemAnalysis> {
     let stats = item_statistics(&mean, cov);
     // A column that is (nearly) the sum of the others is a total score, not an item.
     if let Some(i) = stats.iter().position(|s| s.corrected_item_total > 0.9999) {
-        return Err(crate::Error::cannot(crate::msg![
+        return Err(crate::Error::cannot(crate::setting::msg![
             format!(
                 "column {} correlates {} with the sum of the other columns: it looks like a \
                  total score rather than an item; leave it out with ",
@@ -312,7 +312,7 @@ fn read(
         };
         return (
             Recommendation::ReverseKeyFirst,
-            crate::msg![
+            crate::setting::msg![
                 format!(
                     "{which} run against the other items (negative loading{}): reverse-key them \
                      (",

@@ -4,7 +4,7 @@
 use super::cells::{Tallies, cell_hash, is_missing_code, missing_cell, parse_response};
 use super::moments::{Moments, Pairwise};
 use crate::error::{CellProblem, Error, Result};
-use crate::msg;
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::sheet::{SheetFormat, WorkbookRows, detect_delimiter, is_workbook, same_name};
 use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};

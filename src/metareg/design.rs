@@ -3,7 +3,7 @@
 
 use crate::benchmark::Prepared;
 use crate::error::{CellProblem, Error, Result};
-use crate::msg;
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::sheet::{
     ColumnRef, Role, SheetFormat, StudyRecord, find_column, parse_number, same_name,

@@ -14,9 +14,9 @@ pub use design::{
 use crate::benchmark::Prepared;
 use crate::dist::{chi2_sf, f_sf};
 use crate::error::{Error, Result};
-use crate::msg;
 use crate::pool::{FitOptions, MetaData, Model, ModelFit, fit_model};
 use crate::setting::Setting;
+use crate::setting::msg;
 use crate::warning::Warning;
 use nalgebra::{DMatrix, DVector};
 use std::collections::BTreeMap;

@@ -5,11 +5,11 @@
 use super::{Explanation, wald_statistic};
 use crate::benchmark::Prepared;
 use crate::error::{Error, Result};
-use crate::msg;
 use crate::pool::fit_coefficients;
 use crate::pool::{FitOptions, MetaData};
 use crate::random::stream;
 use crate::setting::Setting;
+use crate::setting::msg;
 use rand::seq::SliceRandom;
 use rayon::prelude::*;
 

@@ -9,8 +9,8 @@
 use super::design::{Centring, ExcludedRow, ModeratorSpec, build_design, check_rank};
 use crate::benchmark::Prepared;
 use crate::error::{Error, Result};
-use crate::msg;
 use crate::pool::{Coefficient, FitOptions, MetaData, Model, ModelFit, fit_model};
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::sheet::{SdMetric, StudyRecord};
 use crate::transform::{CoefficientFamily, TransformKind};
@@ -285,6 +285,12 @@ pub struct ScoreSpread {
 }
 
 impl ScoreSpread {
+    /// The model's other terms besides ln(SD) and ln(items): the moderators' columns.
+    pub fn other_terms(&self) -> &[String] {
+        let first = if self.log_items_column { 3 } else { 2 };
+        &self.names[first.min(self.names.len())..]
+    }
+
     /// Expected Bonett-scale value at an SD (with `items` when ln(items) is in the model,
     /// other moderators at the given design values), with its variance.
     pub fn predict(&self, sd: f64, items: Option<u32>, others: &[f64]) -> Result<(f64, f64)> {

@@ -6,8 +6,8 @@ use super::{OmnibusTest, explain};
 use crate::benchmark::{Benchmark, Prepared, from_prepared};
 use crate::dist::chi2_sf;
 use crate::error::{Error, Result};
-use crate::msg;
 use crate::pool::{FitOptions, PoolOptions};
+use crate::setting::msg;
 use crate::setting::{Message, Setting, given};
 use crate::warning::Warning;
 

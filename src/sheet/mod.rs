@@ -19,7 +19,7 @@ pub use read::{DELIMITERS, SheetFormat, delimiter_name, detect_delimiter, parse_
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 
 use crate::error::{CellProblem, Error, Result};
-use crate::msg;
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use std::collections::BTreeMap;
 use std::path::Path;

@@ -4,7 +4,7 @@
 
 use super::read::{RawRow, RowSource, SheetFormat};
 use crate::error::{CellProblem, Error, Result};
-use crate::msg;
+use crate::setting::msg;
 use crate::setting::{Setting, given};
 use calamine::{Data, Reader};
 

@@ -810,6 +810,21 @@ def correction_fixture():
                            "r2_corrected": float(b @ M @ b / (rel_y * syy))}}
 
 
+def ols_summary_fixture():
+    """OLS slopes and their exact t intervals (statsmodels) for invented data, with the
+    data's covariance matrix: the same intervals must follow from the matrix alone."""
+    rng = np.random.default_rng(20261202)
+    n = 120
+    x1 = rng.normal(0, 1.2, n)
+    x2 = 0.4 * x1 + rng.normal(0, 0.9, n)
+    y = 0.5 * x1 - 0.3 * x2 + rng.normal(0, 1.0, n)
+    data = np.column_stack([x1, x2, y])
+    fit = sm.OLS(y, sm.add_constant(np.column_stack([x1, x2]))).fit()
+    ci = fit.conf_int(alpha=0.05)[1:]
+    return {"names": ["x1", "x2", "y"], "n": n, "cov": np.cov(data.T, ddof=1).tolist(),
+            "ols": fit.params[1:].tolist(), "ols_ci": ci.tolist(), "level": 0.95}
+
+
 def inference_fixture():
     """Feldt's two-sample test, the Hakstian-Whalen k-sample test and Bonett's sample
     sizes, computed with scipy."""
@@ -852,7 +867,15 @@ def inference_fixture():
                  "power": power, "population_discrepancy": float(f_pop),
                  "omega": float(lam.sum() ** 2 / (lam.sum() ** 2 + (1 - lam**2).sum())),
                  "alpha": float(np_alpha(pop))}
+    # Two very different alphas: the lower tail is far below what 1 - (upper tail) can
+    # hold, so it is computed on its own (scipy's F cdf).
+    xa, xb, xn = 0.95, 0.60, 800
+    xw = (1 - xa) / (1 - xb)
+    extreme = {"samples": [(xa, xn, 10), (xb, xn, 10)], "w": xw,
+               "p": float(2 * min(stats.f.cdf(xw, xn - 1, xn - 1), stats.f.sf(xw, xn - 1, xn - 1)))}
     return {"made_by": stamp(), "tau_power": tau_power, "correction": correction_fixture(),
+            "ols_summary": ols_summary_fixture(),
+            "feldt_extreme": extreme,
             "feldt": {"samples": samples[:2], "w": w, "p": float(2 * min(upper, 1 - upper))},
             "hakstian_whalen": {"samples": samples, "chi2": chi2, "df": 2,
                                 "p": float(stats.chi2.sf(chi2, 2))},

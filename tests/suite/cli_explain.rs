@@ -4,10 +4,7 @@
 use crate::common::*;
 
 fn demo() -> String {
-    std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("datasets-demo/candor-benchmark.csv")
-        .to_string_lossy()
-        .into_owned()
+    demo_file("candor-benchmark.csv")
 }
 
 fn fails_with(args: &[&str], fragments: &[&str]) {

@@ -5,12 +5,8 @@ use std::io::Read;
 use std::process::{Command, Stdio};
 
 fn demo() -> String {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("datasets-demo/candor-benchmark.csv")
-        .to_string_lossy()
-        .into_owned()
+    demo_file("candor-benchmark.csv")
 }
-use std::path::Path;
 
 fn json_of(out: &std::process::Output) -> serde_json::Value {
     assert_eq!(

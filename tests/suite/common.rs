@@ -32,6 +32,15 @@ pub fn test_path(rel: &str) -> PathBuf {
         .join(rel)
 }
 
+/// Path of a file in datasets-demo/, as a string for command arguments.
+pub fn demo_file(name: &str) -> String {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("datasets-demo")
+        .join(name)
+        .to_string_lossy()
+        .into_owned()
+}
+
 /// Load a JSON fixture from tests/reference/fixtures.
 pub fn fixture(name: &str) -> serde_json::Value {
     let p = test_path(&format!("reference/fixtures/{name}"));

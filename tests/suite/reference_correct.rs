@@ -8,11 +8,7 @@ use relyard::random::{draw, stream};
 use std::process::Command;
 
 fn demo(name: &str) -> String {
-    std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("datasets-demo")
-        .join(name)
-        .to_string_lossy()
-        .into_owned()
+    demo_file(name)
 }
 
 #[test]

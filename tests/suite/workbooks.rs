@@ -352,3 +352,69 @@ fn reports_from_workbooks_and_header_rows() {
         String::from_utf8_lossy(&relyard(&["pool", comma.to_str().unwrap()]).stderr).into_owned();
     assert!(err.contains("row 2, column coef"), "{err}");
 }
+
+/// Item data and a regression's raw data read from workbooks as from their CSV (issue 10:
+/// they were read as CSV bytes and printed as column names).
+#[test]
+fn item_data_and_raw_data_from_workbooks() {
+    let dir = scratch("wb-items");
+    let header = vec![Text("a"), Text("b"), Text("c"), Text("d")];
+    let values = [
+        [4.0, 5.0, 3.0, 4.0],
+        [2.0, 2.0, 3.0, 1.0],
+        [5.0, 4.0, 5.0, 5.0],
+        [3.0, 3.0, 2.0, 3.0],
+        [4.0, 4.0, 4.0, 5.0],
+        [1.0, 2.0, 1.0, 2.0],
+        [3.0, 4.0, 3.0, 3.0],
+        [5.0, 5.0, 4.0, 4.0],
+    ];
+    let mut rows = vec![header];
+    let mut csv = String::from("a,b,c,d\n");
+    for v in &values {
+        rows.push(v.iter().map(|x| Num(*x)).collect());
+        csv.push_str(&format!("{},{},{},{}\n", v[0], v[1], v[2], v[3]));
+    }
+    let xlsx = dir.join("items.xlsx");
+    write_xlsx(&xlsx, &[("Answers", 1, rows.clone())]);
+    let ods = dir.join("items.ods");
+    write_ods(&ods, "Answers", &rows);
+    let text = write_file(&dir, "items.csv", csv.as_bytes());
+    let from_csv = json_ok(&["items", &text, "--json"]);
+    for book in [&xlsx, &ods] {
+        let j = json_ok(&["items", book.to_str().unwrap(), "--json"]);
+        assert_eq!(j["item_names"], from_csv["item_names"]);
+        assert_eq!(j["n_used"], from_csv["n_used"]);
+        assert_json_close(&j["alpha"], &from_csv["alpha"], 1e-12, 0.0, "alpha");
+        assert_eq!(j["input"]["sheet_name"], "Answers");
+    }
+    let correct = |data: &str| {
+        json_ok(&[
+            "correct",
+            "--data",
+            data,
+            "--outcome",
+            "d",
+            "--predictor",
+            "a",
+            "--predictor",
+            "b",
+            "--rel",
+            "a=0.8",
+            "--rel",
+            "b=0.7",
+            "--draws",
+            "200",
+            "--json",
+        ])
+    };
+    let a = correct(&text);
+    let b = correct(xlsx.to_str().unwrap());
+    assert_json_close(
+        &a["coefficients"][0]["ols"],
+        &b["coefficients"][0]["ols"],
+        1e-12,
+        0.0,
+        "ols",
+    );
+}

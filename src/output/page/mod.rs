@@ -220,7 +220,7 @@ impl ReportPage<'_> {
         };
         if let Some(e) = &a.explanation {
             out.push((
-                "left out of the moderators' model".into(),
+                "left out of the moderator model".into(),
                 ex(&e.main.design.excluded),
             ));
             if let Some(s) = &e.spread {
@@ -610,13 +610,18 @@ impl ReportPage<'_> {
         }
         if let Some(s) = &e.spread {
             out.push(Block::subsection("score-spread", "Score spread"));
-            let others = if s.names.len() > 2 {
-                format!(
-                    " The model also holds {}, as the moderators' model does.",
-                    s.names[2..].join(", ")
-                )
-            } else {
+            let others = if s.other_terms().is_empty() {
                 String::new()
+            } else {
+                format!(
+                    " The model also holds {}, as the moderators' model does{}.",
+                    s.other_terms().join(", "),
+                    if s.log_items_column {
+                        ", and ln(items), since the forms differ in length"
+                    } else {
+                        ""
+                    }
+                )
             };
             out.push(Block::Para(Inline::text(format!(
                 "{} Slope of ln(1 − coefficient) on ln(score SD): {} ({level} CI {}); test of \

@@ -135,10 +135,10 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
              own."
         );
         if let Some(s) = &e.spread {
-            let others = if s.names.len() > 2 {
-                format!(", with {} in the same model", s.names[2..].join(", "))
-            } else {
+            let others = if s.other_terms().is_empty() {
                 String::new()
+            } else {
+                format!(", with {} in the same model", s.other_terms().join(", "))
             };
             text.push_str(&format!(
                 " The score-variance test regresses ln(1 − coefficient) on ln(SD){others}: since \

@@ -380,8 +380,11 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
         "ln(1 − coefficient) on ln(SD), always on the Bonett scale; {} studies",
         s.rows.len()
     );
-    if s.names.len() > 2 {
-        model.push_str(&format!("; also in the model: {}", s.names[2..].join(", ")));
+    if !s.other_terms().is_empty() {
+        model.push_str(&format!(
+            "; also in the model: {}",
+            s.other_terms().join(", ")
+        ));
     }
     line(o, "model", &model);
     if s.log_items_column {
