@@ -42,6 +42,17 @@ pub fn significant(x: f64, sig: usize) -> String {
     fixed(x, decimals)
 }
 
+/// About `sig` significant digits with trailing zeros dropped: 2030, 0.3, 11.25 (for values
+/// the user gave, such as a moderator value, where "2030.00" would misread).
+pub fn trimmed(x: f64, sig: usize) -> String {
+    let s = significant(x, sig);
+    if s.contains('.') && !s.contains('e') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
 /// "lower to upper" with each end formatted by `f`.
 pub fn range(lower: f64, upper: f64, f: impl Fn(f64) -> String) -> String {
     format!("{} to {}", f(lower), f(upper))
@@ -149,6 +160,10 @@ mod tests {
         assert_eq!(fixed(-1.5, 2), "−1.50");
         assert_eq!(significant(0.0421337, 3), "0.0421");
         assert_eq!(significant(152.233, 3), "152");
+        assert_eq!(trimmed(2030.0, 6), "2030");
+        assert_eq!(trimmed(0.1 + 0.2, 6), "0.3");
+        assert_eq!(trimmed(-11.25, 4), "−11.25");
+        assert_eq!(trimmed(1.5e-7, 3), "1.50e−7");
         assert_eq!(thousands(1234567), "1,234,567");
         assert_eq!(thousands(999), "999");
         assert_eq!(p_value(0.0001), "< 0.001");

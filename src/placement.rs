@@ -365,7 +365,7 @@ fn extrapolation_warnings(d: &Design, x0: &[f64], warnings: &mut Vec<Warning>) {
             let v = x0[*column] + centre;
             if v < lo || v > hi {
                 warnings.push(Warning::Extrapolation {
-                    what: format!("{name} = {v}"),
+                    what: format!("{name} = {}", crate::format::trimmed(v, 6)),
                     lower: lo,
                     upper: hi,
                 });
@@ -398,7 +398,7 @@ fn spread_part(
                 warnings.push(Warning::Extrapolation {
                     what: format!(
                         "the SD {} ({} metric)",
-                        crate::format::significant(s.sd, 3),
+                        crate::format::trimmed(s.sd, 4),
                         s.metric
                     ),
                     lower: lo,

@@ -384,8 +384,8 @@ impl Warning {
                 "{what} lies outside the range of the benchmark studies ({} to {}): the \
                  expectation there is an extrapolation and rests on the model's form, not on \
                  studies like this one",
-                format::significant(*lower, 4),
-                format::significant(*upper, 4)
+                format::trimmed(*lower, 4),
+                format::trimmed(*upper, 4)
             )],
             Warning::Inadmissible { what, why } => msg![format!(
                 "the {what} is impossible: {why}. The likely causes are reliabilities that are \

@@ -820,7 +820,9 @@ impl ReportPage<'_> {
                  items in eight sections (title 1, abstract 1, introduction 2, methods 14, results \
                  6, discussion 4, funding 1, protocol 1) are as its authors publish them; the \
                  items' wording and order here are our paraphrase, so check them against the \
-                 guideline before citing item numbers.",
+                 guideline before citing item numbers. The journal, volume and pages in the \
+                 reference below were not found in a source we could check: confirm them \
+                 before citing.",
             )),
             Block::table(
                 &[

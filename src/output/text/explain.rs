@@ -292,7 +292,7 @@ fn moderators(o: &mut String, p: &Prepared, e: &Explained) {
         }
     }
     let _ = writeln!(o);
-    let _ = writeln!(o, "  ({})", sign_note(p.transform));
+    super::para(o, &format!("({})", sign_note(p.transform)));
     let names: Vec<String> = (0..ex.design.names.len())
         .map(|j| term_name(ex, j))
         .collect();

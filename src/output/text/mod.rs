@@ -30,7 +30,7 @@ pub(crate) const WIDTH: usize = 88;
 /// A section heading: its title, underlined.
 fn heading(o: &mut String, title: &str) {
     let _ = writeln!(o, "{title}");
-    let _ = writeln!(o, "{}", "─".repeat(title.chars().count().clamp(8, WIDTH)));
+    let _ = writeln!(o, "{}", "─".repeat(title.chars().count().clamp(1, WIDTH)));
 }
 
 /// A wrapped paragraph, indented by two spaces.
