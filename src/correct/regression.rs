@@ -146,8 +146,8 @@ pub struct RegressionCorrection {
     /// False when the corrected intervals are left out: the point correction is impossible,
     /// or more than the tail share (1 − level)/2 of the draws was.
     pub intervals_determined: bool,
-    /// "bootstrap" (raw data) or "monte-carlo" (summary).
-    pub method: &'static str,
+    /// How the intervals were drawn.
+    pub method: DrawMethod,
     /// Draws.
     pub draws: usize,
     /// Seed.
@@ -155,6 +155,26 @@ pub struct RegressionCorrection {
     /// For each predictor, corrected slopes over a grid of its reliability (others at their
     /// point values): (reliability, slopes or None when inadmissible).
     pub sensitivity: Vec<Vec<(f64, Option<Vec<f64>>)>>,
+}
+
+/// How a regression correction's intervals were drawn.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum DrawMethod {
+    /// Bootstrap samples of the respondents (raw data).
+    Bootstrap,
+    /// Monte Carlo draws of the covariance matrix (a summary).
+    MonteCarlo,
+}
+
+impl DrawMethod {
+    /// The draws in words.
+    pub fn words(self) -> &'static str {
+        match self {
+            DrawMethod::Bootstrap => "bootstrap samples of the respondents",
+            DrawMethod::MonteCarlo => "Monte Carlo draws of the covariance matrix",
+        }
+    }
 }
 
 fn spread(values: &mut [f64], level: Level) -> Option<Spread> {
@@ -322,9 +342,9 @@ pub fn correct_regression(
         estimate,
         inadmissible_share: share,
         method: if input.rows.is_some() {
-            "bootstrap"
+            DrawMethod::Bootstrap
         } else {
-            "monte-carlo"
+            DrawMethod::MonteCarlo
         },
         draws,
         seed,

@@ -233,7 +233,7 @@ pub struct RegressionDocument {
     /// Share of draws with an impossible correction.
     pub inadmissible_share: f64,
     /// "bootstrap" or "monte-carlo".
-    pub method: &'static str,
+    pub method: crate::correct::regression::DrawMethod,
     /// Draws.
     pub draws: usize,
     /// Seed.

@@ -7,6 +7,9 @@ use super::{
 use crate::analysis::Explained;
 use crate::benchmark::Prepared;
 use crate::metareg::Moderator;
+use crate::metareg::influence::StudyInfluence;
+use crate::metareg::spread::ScoreSpread;
+use crate::metareg::subgroups::{Group, Subgroups};
 use crate::pool::ModelFit;
 use crate::setting::SettingNames;
 use crate::warning::WarningRecord;
@@ -311,38 +314,7 @@ impl ExplainDocument {
             ),
             k: fit.k,
             centring: ex.design.centring.name(),
-            moderators: ex
-                .design
-                .moderators
-                .iter()
-                .map(|m| match m {
-                    Moderator::Numeric { name, centre, .. } => ModeratorRecord {
-                        name: name.clone(),
-                        kind: "numeric",
-                        reference: None,
-                        centre: Some(*centre),
-                        levels: Vec::new(),
-                    },
-                    Moderator::Categorical {
-                        name,
-                        reference,
-                        counts,
-                        ..
-                    } => ModeratorRecord {
-                        name: name.clone(),
-                        kind: "categorical",
-                        reference: Some(reference.clone()),
-                        centre: None,
-                        levels: counts
-                            .iter()
-                            .map(|(l, k)| LevelRecord {
-                                level: l.clone(),
-                                k: *k,
-                            })
-                            .collect(),
-                    },
-                })
-                .collect(),
+            moderators: ex.design.moderators.iter().map(moderator_record).collect(),
             coefficients: coefficients(&ex.design.names, fit, perm),
             tau2: fit.tau2.tau2,
             tau2_ci: fit.tau2_ci.map(|c| [c.lower, c.upper]),
@@ -364,85 +336,135 @@ impl ExplainDocument {
             }),
             excluded_rows: excluded(&ex.design.excluded),
             skipped_rows: skipped(&p.skipped, names),
-            score_spread: e.spread.as_ref().map(|s| SpreadRecord {
-                scale: "bonett",
-                metric: s.metric.name(),
-                k: s.rows.len(),
-                slope: s.slope.estimate,
-                se: s.slope.se,
-                ci: [s.slope.ci.lower, s.slope.ci.upper],
-                p_zero: s.p_zero,
-                p_minus_two: s.p_minus_two,
-                tau2_share: s.tau2_share,
-                tau2: s.fit.tau2.tau2,
-                tau2_without: s.tau2_without,
-                reading: s.reading,
-                reading_text: s.reading.sentence(),
-                typical_sd: s.typical_sd,
-                sd_reliability: s.sd_reliability,
-                coefficients: coefficients(&s.names, &s.fit, None),
-                excluded_rows: excluded(&s.excluded),
-            }),
-            subgroups: e.subgroups.as_ref().map(|g| SubgroupsRecord {
-                column: g.column.clone(),
-                groups: g
-                    .groups
-                    .iter()
-                    .map(|grp| match &grp.result {
-                        Ok(b) => GroupRecord {
-                            level: grp.level.clone(),
-                            k: b.pool.k,
-                            rows: grp.rows.clone(),
-                            estimate: Some(b.pool.estimate),
-                            ci: Some([b.pool.ci.lower, b.pool.ci.upper]),
-                            pi: b.pool.prediction.interval().map(|i| [i.lower, i.upper]),
-                            tau2: Some(b.pool.tau2.tau2),
-                            i2: Some(b.pool.i2),
-                            reliability: b.coefficient.as_ref().map(ReliabilityRecord::from),
-                            note: None,
-                        },
-                        Err(why) => GroupRecord {
-                            level: grp.level.clone(),
-                            k: grp.rows.len(),
-                            rows: grp.rows.clone(),
-                            estimate: None,
-                            ci: None,
-                            pi: None,
-                            tau2: None,
-                            i2: None,
-                            reliability: None,
-                            note: Some(why.render(names)),
-                        },
-                    })
-                    .collect(),
-                q_between: g.between.map(|b| TestRecord {
-                    statistic: b.q,
-                    df: Some(b.df),
-                    p: b.p,
-                }),
-                moderator_test: g.moderator_test.map(|t| omnibus_record(t, None)),
-                excluded_rows: excluded(&g.excluded),
-            }),
-            influence: e.influence.as_ref().map(|inf| {
-                inf.iter()
-                    .map(|s| {
-                        let rec = &p.records[ex.design.used[s.index]];
-                        InfluenceRecord {
-                            row: rec.row,
-                            study: rec.label.clone(),
-                            residual: s.residual,
-                            rstudent: s.rstudent,
-                            cooks_distance: s.cooks_distance,
-                            without_coefficients: s.without.as_ref().map(|w| w.beta.clone()),
-                            without_tau2: s.without.as_ref().map(|w| w.tau2),
-                            without_i2: s.without.as_ref().map(|w| w.i2),
-                            outlier: s.outlier,
-                            influential: s.influential,
-                        }
-                    })
-                    .collect()
-            }),
+            score_spread: e.spread.as_ref().map(spread_record),
+            subgroups: e.subgroups.as_ref().map(|g| subgroups_record(g, names)),
+            influence: e.influence.as_ref().map(|inf| influence_records(p, e, inf)),
             warnings: warnings(&e.warnings, names),
         }
     }
+}
+
+/// A moderator as the model used it: numeric with its centre, or categorical with its
+/// reference and levels.
+fn moderator_record(m: &Moderator) -> ModeratorRecord {
+    match m {
+        Moderator::Numeric { name, centre, .. } => ModeratorRecord {
+            name: name.clone(),
+            kind: "numeric",
+            reference: None,
+            centre: Some(*centre),
+            levels: Vec::new(),
+        },
+        Moderator::Categorical {
+            name,
+            reference,
+            counts,
+            ..
+        } => ModeratorRecord {
+            name: name.clone(),
+            kind: "categorical",
+            reference: Some(reference.clone()),
+            centre: None,
+            levels: counts
+                .iter()
+                .map(|(l, k)| LevelRecord {
+                    level: l.clone(),
+                    k: *k,
+                })
+                .collect(),
+        },
+    }
+}
+
+/// The score-variance test.
+fn spread_record(s: &ScoreSpread) -> SpreadRecord {
+    SpreadRecord {
+        scale: "bonett",
+        metric: s.metric.name(),
+        k: s.rows.len(),
+        slope: s.slope.estimate,
+        se: s.slope.se,
+        ci: [s.slope.ci.lower, s.slope.ci.upper],
+        p_zero: s.p_zero,
+        p_minus_two: s.p_minus_two,
+        tau2_share: s.tau2_share,
+        tau2: s.fit.tau2.tau2,
+        tau2_without: s.tau2_without,
+        reading: s.reading,
+        reading_text: s.reading.sentence(),
+        typical_sd: s.typical_sd,
+        sd_reliability: s.sd_reliability,
+        coefficients: coefficients(&s.names, &s.fit, None),
+        excluded_rows: excluded(&s.excluded),
+    }
+}
+
+/// The benchmark per group and the tests of their difference.
+fn subgroups_record(g: &Subgroups, names: &dyn SettingNames) -> SubgroupsRecord {
+    SubgroupsRecord {
+        column: g.column.clone(),
+        groups: g
+            .groups
+            .iter()
+            .map(|grp| group_record(grp, names))
+            .collect(),
+        q_between: g.between.map(|b| TestRecord {
+            statistic: b.q,
+            df: Some(b.df),
+            p: b.p,
+        }),
+        moderator_test: g.moderator_test.map(|t| omnibus_record(t, None)),
+        excluded_rows: excluded(&g.excluded),
+    }
+}
+
+/// One group's benchmark, or why it has none.
+fn group_record(grp: &Group, names: &dyn SettingNames) -> GroupRecord {
+    match &grp.result {
+        Ok(b) => GroupRecord {
+            level: grp.level.clone(),
+            k: b.pool.k,
+            rows: grp.rows.clone(),
+            estimate: Some(b.pool.estimate),
+            ci: Some([b.pool.ci.lower, b.pool.ci.upper]),
+            pi: b.pool.prediction.interval().map(|i| [i.lower, i.upper]),
+            tau2: Some(b.pool.tau2.tau2),
+            i2: Some(b.pool.i2),
+            reliability: b.coefficient.as_ref().map(ReliabilityRecord::from),
+            note: None,
+        },
+        Err(why) => GroupRecord {
+            level: grp.level.clone(),
+            k: grp.rows.len(),
+            rows: grp.rows.clone(),
+            estimate: None,
+            ci: None,
+            pi: None,
+            tau2: None,
+            i2: None,
+            reliability: None,
+            note: Some(why.render(names)),
+        },
+    }
+}
+
+/// Each study left out in turn, named by its row.
+fn influence_records(p: &Prepared, e: &Explained, inf: &[StudyInfluence]) -> Vec<InfluenceRecord> {
+    inf.iter()
+        .map(|s| {
+            let rec = &p.records[e.main.design.used[s.index]];
+            InfluenceRecord {
+                row: rec.row,
+                study: rec.label.clone(),
+                residual: s.residual,
+                rstudent: s.rstudent,
+                cooks_distance: s.cooks_distance,
+                without_coefficients: s.without.as_ref().map(|w| w.beta.clone()),
+                without_tau2: s.without.as_ref().map(|w| w.tau2),
+                without_i2: s.without.as_ref().map(|w| w.i2),
+                outlier: s.outlier,
+                influential: s.influential,
+            }
+        })
+        .collect()
 }

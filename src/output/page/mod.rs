@@ -7,8 +7,12 @@ pub mod blocks;
 pub mod checklist;
 
 use crate::analysis::{Analysis, Correction};
+use crate::benchmark::{Benchmark, Prepared};
+use crate::correct::correlation::{CorrelationCorrection, CorrelationInput};
+use crate::correct::regression::{RegressionCorrection, RegressionInput};
 use crate::format::{fixed, p_cell, range, significant, thousands};
-use crate::metareg::Moderator;
+use crate::metareg::spread::ScoreSpread;
+use crate::metareg::{Explanation, Moderator};
 use crate::output::INDIVIDUAL_DECISIONS_CAUTION;
 use crate::output::json::{
     CheckDocument, CorrectionDocument, ExplainDocument, PoolDocument, ReportInput, ResultsDocument,
@@ -322,124 +326,13 @@ impl ReportPage<'_> {
         let Some(b) = &self.analysis.benchmark else {
             return Vec::new();
         };
-        let p = &b.pool;
-        let level = p.options.level.percent();
-        let c3 = |x: f64| fixed(x, 3);
-        let t4 = |x: f64| fixed(x, 4);
-        let mut out = vec![Block::section(
-            Section::Benchmark.id(),
-            Section::Benchmark.title(),
-        )];
-        let rel = b.coefficient;
-        let lead = match (rel.and_then(|c| c.pi), p.prediction) {
-            (Some(pi), Prediction::Available { .. }) => format!(
-                "In a new, comparable setting the true coefficient is expected between {} and {} \
-                 ({level} prediction interval).",
-                c3(pi.lower),
-                c3(pi.upper)
-            ),
-            (_, Prediction::CommonEffect) => "The common-effect model states no expected range \
-                for a new setting."
-                .to_string(),
-            _ => "No expected range can be stated (see the warnings).".to_string(),
-        };
-        out.push(Block::Para(Inline::default().strong(lead)));
-        let model = match p.options.model {
-            Model::Common => "a common-effect model (τ² = 0 assumed)".to_string(),
-            Model::Random(e) => format!(
-                "a random-effects model, τ² by {} ({})",
-                e.label(),
-                e.abbreviation()
-            ),
-        };
-        out.push(Block::Para(Inline::text(format!(
-            "{} studies ({}) pooled on the {} scale, {}, with {model}; confidence intervals by \
-             {}.",
-            p.k,
-            if b.n_total > 0 {
-                format!("N = {}", thousands(b.n_total))
-            } else {
-                "sample sizes not given".to_string()
-            },
-            b.transform.name(),
-            b.transform.get().formula(),
-            prose::interval_words(p.options.ci)
-        ))));
-        let dash = || "–".to_string();
-        let rows = vec![
-            vec![
-                Inline::text("pooled value"),
-                Inline::text(rel.map(|c| c3(c.estimate)).unwrap_or_else(dash)),
-                Inline::text(t4(p.estimate)),
-            ],
-            vec![
-                Inline::text(format!("{level} confidence interval")),
-                Inline::text(
-                    rel.map(|c| range(c.ci.lower, c.ci.upper, c3))
-                        .unwrap_or_else(dash),
-                ),
-                Inline::text(range(p.ci.lower, p.ci.upper, t4)),
-            ],
-            vec![
-                Inline::text(format!("{level} prediction interval (expected range)")),
-                Inline::text(
-                    rel.and_then(|c| c.pi)
-                        .map(|i| range(i.lower, i.upper, c3))
-                        .unwrap_or_else(dash),
-                ),
-                Inline::text(
-                    p.prediction
-                        .interval()
-                        .map(|i| range(i.lower, i.upper, t4))
-                        .unwrap_or_else(dash),
-                ),
-            ],
+        let mut out = vec![
+            Block::section(Section::Benchmark.id(), Section::Benchmark.title()),
+            Block::Para(Inline::default().strong(expected_range_lead(b))),
+            Block::Para(Inline::text(pooling_summary(b))),
+            benchmark_table(b),
+            differences_table(b),
         ];
-        out.push(Block::table(
-            &["", "coefficient scale", "analysis scale"],
-            rows,
-        ));
-        let het = &p.heterogeneity;
-        let tau2 = match p.options.model {
-            Model::Common => "0 (assumed by the common-effect model)".to_string(),
-            Model::Random(_) => format!(
-                "{}{}",
-                significant(p.tau2.tau2, 3),
-                p.tau2_ci
-                    .map(|c| format!(
-                        " ({level} CI {})",
-                        range(c.lower, c.upper, |x| significant(x, 3))
-                    ))
-                    .unwrap_or_default()
-            ),
-        };
-        out.push(Block::table(
-            &["how much the studies differ", ""],
-            vec![
-                vec![
-                    Inline::text("τ² (between-setting variance)"),
-                    Inline::text(tau2),
-                ],
-                vec![
-                    Inline::text("τ"),
-                    Inline::text(significant(p.tau2.tau2.sqrt(), 3)),
-                ],
-                vec![
-                    Inline::text("I²"),
-                    Inline::text(format!("{}%", fixed(p.i2, 1))),
-                ],
-                vec![Inline::text("H²"), Inline::text(fixed(p.h2, 2))],
-                vec![
-                    Inline::text("Q (test of equal values)"),
-                    Inline::text(format!(
-                        "{} on {} df, p {}",
-                        fixed(het.q, 2),
-                        het.df,
-                        crate::format::p_value(het.p)
-                    )),
-                ],
-            ],
-        ));
         out.extend(self.figure_blocks(|n| n == "forest" || n == "precision"));
         out.push(Block::subsection("paragraph", "A paragraph for the paper"));
         out.push(Block::Para(Inline::text(
@@ -488,46 +381,7 @@ impl ReportPage<'_> {
                 )),
             ]);
         }
-        let counts: Vec<String> = b
-            .coef_types
-            .iter()
-            .map(|(t, n)| format!("{t} {n}"))
-            .collect();
-        rows.push(vec![
-            Inline::text("coefficients"),
-            Inline::text(counts.join(", ")),
-        ]);
-        rows.push(vec![
-            Inline::text("respondents"),
-            Inline::text(if b.n_total > 0 {
-                thousands(b.n_total)
-            } else {
-                "not given".into()
-            }),
-        ]);
-        let standard: Vec<String> = p
-            .columns
-            .iter()
-            .map(|(role, header)| {
-                if header == role.name() {
-                    header.clone()
-                } else {
-                    format!("{header} (as {role})")
-                }
-            })
-            .collect();
-        rows.push(vec![
-            Inline::text("standard columns"),
-            Inline::text(standard.join(", ")),
-        ]);
-        rows.push(vec![
-            Inline::text("other columns (possible moderators)"),
-            Inline::text(if p.extra_columns.is_empty() {
-                "none".to_string()
-            } else {
-                p.extra_columns.join(", ")
-            }),
-        ]);
+        rows.extend(coding_rows(b, p));
         vec![
             Block::section(Section::Sheet.id(), Section::Sheet.title()),
             Block::table(&["", ""], rows),
@@ -545,97 +399,19 @@ impl ReportPage<'_> {
             Section::Moderators.title(),
         )];
         if ex.fit.coefficients.len() > 1 {
-            let mut lead = match ex.r2 {
-                Some(r2) => format!(
-                    "Together the moderators explain {}% of the variance between settings (R²).",
-                    fixed(r2, 1)
-                ),
-                None => "The share the moderators explain (R²) is not defined: without them τ² \
-                         is 0."
-                    .to_string(),
-            };
-            if let Some(t) = &ex.omnibus {
-                lead.push_str(&format!(
-                    " Test of all moderators together: {}.",
-                    crate::output::text::omnibus_words(t)
-                ));
-            }
-            out.push(Block::Para(Inline::text(lead)));
-            out.push(Block::Para(Inline::text(format!(
-                "The intercept is the expected value on the analysis scale for a study with {}.",
-                ex.design.intercept_meaning()
-            ))));
-            out.push(Block::table(
-                &["term", "change", "SE", &format!("{level} CI"), "p"],
-                ex.design
-                    .names
-                    .iter()
-                    .zip(&ex.fit.coefficients)
-                    .map(|(n, c)| {
-                        vec![
-                            Inline::text(n.clone()),
-                            Inline::text(fixed(c.estimate, 4)),
-                            Inline::text(fixed(c.se, 4)),
-                            Inline::text(range(c.ci.lower, c.ci.upper, |x| fixed(x, 4))),
-                            Inline::text(p_cell(c.p)),
-                        ]
-                    })
-                    .collect(),
-            ));
-            out.push(Block::Para(Inline::text(format!(
-                "Unexplained between-setting variance τ² = {}{}; remaining differences: Q = {} on \
-                 {} df, p {}.",
-                significant(ex.fit.tau2.tau2, 3),
-                ex.fit
-                    .tau2_ci
-                    .map(|c| format!(
-                        " ({level} CI {})",
-                        range(c.lower, c.upper, |x| significant(x, 3))
-                    ))
-                    .unwrap_or_default(),
-                fixed(ex.fit.heterogeneity.q, 2),
-                ex.fit.heterogeneity.df,
-                crate::format::p_value(ex.fit.heterogeneity.p)
-            ))));
-            let numeric: Vec<&str> = ex
+            out.extend(meta_regression_blocks(ex, &level));
+            let numeric = ex
                 .design
                 .moderators
                 .iter()
-                .filter(|m| matches!(m, Moderator::Numeric { .. }))
-                .map(|m| m.name())
-                .collect();
-            if !numeric.is_empty() {
+                .any(|m| matches!(m, Moderator::Numeric { .. }));
+            if numeric {
                 out.extend(self.figure_blocks(|n| n.starts_with("moderator-")));
             }
         }
         if let Some(s) = &e.spread {
             out.push(Block::subsection("score-spread", "Score spread"));
-            let others = if s.other_terms().is_empty() {
-                String::new()
-            } else {
-                format!(
-                    " The model also holds {}, as the moderators' model does{}.",
-                    s.other_terms().join(", "),
-                    if s.log_items_column {
-                        ", and ln(items), since the forms differ in length"
-                    } else {
-                        ""
-                    }
-                )
-            };
-            out.push(Block::Para(Inline::text(format!(
-                "{} Slope of ln(1 − coefficient) on ln(score SD): {} ({level} CI {}); test of \
-                 slope 0: p {}; test of slope −2 (the same error variance everywhere): p {}; \
-                 share of τ² explained: {}.{others}",
-                crate::format::capitalized(s.reading.sentence()) + ".",
-                fixed(s.slope.estimate, 2),
-                range(s.slope.ci.lower, s.slope.ci.upper, |x| fixed(x, 2)),
-                crate::format::p_value(s.p_zero),
-                crate::format::p_value(s.p_minus_two),
-                s.tau2_share
-                    .map(|v| format!("{}%", fixed(v, 0)))
-                    .unwrap_or_else(|| "not defined".into()),
-            ))));
+            out.push(Block::Para(Inline::text(spread_words(s, &level))));
             out.extend(self.figure_blocks(|n| n == "score-spread"));
         }
         out
@@ -698,93 +474,17 @@ impl ReportPage<'_> {
             return Vec::new();
         };
         let level = self.analysis.settings.level.percent();
-        let c3 = |x: f64| fixed(x, 3);
-        let dash = || "–".to_string();
         let mut out = vec![Block::section(
             Section::Correction.id(),
             Section::Correction.title(),
         )];
         match c {
             Correction::Correlation { input, result, .. } => {
-                out.push(Block::table(
-                    &["", ""],
-                    vec![
-                        vec![
-                            Inline::text("observed correlation"),
-                            Inline::text(c3(result.observed)),
-                        ],
-                        vec![
-                            Inline::text("reliability of the measure (x)"),
-                            Inline::text(input.rel_x.describe()),
-                        ],
-                        vec![
-                            Inline::text("reliability of the other score (y)"),
-                            Inline::text(input.rel_y.describe()),
-                        ],
-                        vec![
-                            Inline::text("corrected correlation"),
-                            Inline::text(if result.admissible {
-                                c3(result.corrected_value)
-                            } else {
-                                format!("impossible ({} beyond ±1)", c3(result.corrected_value))
-                            }),
-                        ],
-                        vec![
-                            Inline::text(format!("{level} CI (classical)")),
-                            Inline::text(
-                                result.ci.map(|(a, b)| range(a, b, c3)).unwrap_or_else(dash),
-                            ),
-                        ],
-                        vec![
-                            Inline::text(format!("{level} CI (Monte Carlo, reliabilities drawn)")),
-                            Inline::text(
-                                result
-                                    .mc_ci
-                                    .map(|(a, b)| range(a, b, c3))
-                                    .unwrap_or_else(dash),
-                            ),
-                        ],
-                        vec![
-                            Inline::text("share of impossible draws"),
-                            Inline::text(format!(
-                                "{}%",
-                                fixed(100.0 * result.inadmissible_share, 1)
-                            )),
-                        ],
-                    ],
-                ));
+                out.push(correlation_table(input, result, &level));
                 out.extend(self.figure_blocks(|n| n == "correction"));
             }
             Correction::Regression { input, result, .. } => {
-                let corr = result.estimate.corrected.as_ref().ok();
-                out.push(Block::table(
-                    &[
-                        "predictor",
-                        "OLS slope",
-                        "corrected slope",
-                        &format!("{level} CI"),
-                    ],
-                    input
-                        .predictors
-                        .iter()
-                        .enumerate()
-                        .map(|(j, n)| {
-                            vec![
-                                Inline::text(n.clone()),
-                                Inline::text(c3(result.estimate.ols[j])),
-                                Inline::text(
-                                    corr.map(|k| c3(k.slopes[j]))
-                                        .unwrap_or_else(|| "impossible".into()),
-                                ),
-                                Inline::text(
-                                    result.corrected_spread[j]
-                                        .map(|s| range(s.ci.0, s.ci.1, c3))
-                                        .unwrap_or_else(dash),
-                                ),
-                            ]
-                        })
-                        .collect(),
-                ));
+                out.push(regression_table(input, result, &level));
             }
         }
         out
@@ -1100,3 +800,341 @@ a { color: var(--blue); }
   a { color: inherit; text-decoration: none; }
 }
 ";
+
+/// The benchmark's first sentence: the expected range for a new setting.
+fn expected_range_lead(b: &Benchmark) -> String {
+    let level = b.pool.options.level.percent();
+    match (b.coefficient.and_then(|c| c.pi), b.pool.prediction) {
+        (Some(pi), Prediction::Available { .. }) => format!(
+            "In a new, comparable setting the true coefficient is expected between {} and {} \
+             ({level} prediction interval).",
+            fixed(pi.lower, 3),
+            fixed(pi.upper, 3)
+        ),
+        (_, Prediction::CommonEffect) => "The common-effect model states no expected range \
+            for a new setting."
+            .to_string(),
+        _ => "No expected range can be stated (see the warnings).".to_string(),
+    }
+}
+
+/// What was pooled, on which scale, by which model.
+fn pooling_summary(b: &Benchmark) -> String {
+    let p = &b.pool;
+    let model = match p.options.model {
+        Model::Common => "a common-effect model (τ² = 0 assumed)".to_string(),
+        Model::Random(e) => format!(
+            "a random-effects model, τ² by {} ({})",
+            e.label(),
+            e.abbreviation()
+        ),
+    };
+    format!(
+        "{} studies ({}) pooled on the {} scale, {}, with {model}; confidence intervals by {}.",
+        p.k,
+        if b.n_total > 0 {
+            format!("N = {}", thousands(b.n_total))
+        } else {
+            "sample sizes not given".to_string()
+        },
+        b.transform.name(),
+        b.transform.get().formula(),
+        prose::interval_words(p.options.ci)
+    )
+}
+
+/// The pooled value and its intervals on the coefficient and the analysis scale.
+fn benchmark_table(b: &Benchmark) -> Block {
+    let (p, rel) = (&b.pool, b.coefficient);
+    let level = p.options.level.percent();
+    let c3 = |x: f64| fixed(x, 3);
+    let t4 = |x: f64| fixed(x, 4);
+    let dash = || "–".to_string();
+    let rows = vec![
+        vec![
+            Inline::text("pooled value"),
+            Inline::text(rel.map(|c| c3(c.estimate)).unwrap_or_else(dash)),
+            Inline::text(t4(p.estimate)),
+        ],
+        vec![
+            Inline::text(format!("{level} confidence interval")),
+            Inline::text(
+                rel.map(|c| range(c.ci.lower, c.ci.upper, c3))
+                    .unwrap_or_else(dash),
+            ),
+            Inline::text(range(p.ci.lower, p.ci.upper, t4)),
+        ],
+        vec![
+            Inline::text(format!("{level} prediction interval (expected range)")),
+            Inline::text(
+                rel.and_then(|c| c.pi)
+                    .map(|i| range(i.lower, i.upper, c3))
+                    .unwrap_or_else(dash),
+            ),
+            Inline::text(
+                p.prediction
+                    .interval()
+                    .map(|i| range(i.lower, i.upper, t4))
+                    .unwrap_or_else(dash),
+            ),
+        ],
+    ];
+    Block::table(&["", "coefficient scale", "analysis scale"], rows)
+}
+
+/// How much the studies differ: τ², τ, I², H² and Q.
+fn differences_table(b: &Benchmark) -> Block {
+    let p = &b.pool;
+    let level = p.options.level.percent();
+    let het = &p.heterogeneity;
+    let tau2 = match p.options.model {
+        Model::Common => "0 (assumed by the common-effect model)".to_string(),
+        Model::Random(_) => format!(
+            "{}{}",
+            significant(p.tau2.tau2, 3),
+            p.tau2_ci
+                .map(|c| format!(
+                    " ({level} CI {})",
+                    range(c.lower, c.upper, |x| significant(x, 3))
+                ))
+                .unwrap_or_default()
+        ),
+    };
+    let row = |label: &str, value: String| vec![Inline::text(label), Inline::text(value)];
+    Block::table(
+        &["how much the studies differ", ""],
+        vec![
+            row("τ² (between-setting variance)", tau2),
+            row("τ", significant(p.tau2.tau2.sqrt(), 3)),
+            row("I²", format!("{}%", fixed(p.i2, 1))),
+            row("H²", fixed(p.h2, 2)),
+            row(
+                "Q (test of equal values)",
+                format!(
+                    "{} on {} df, p {}",
+                    fixed(het.q, 2),
+                    het.df,
+                    crate::format::p_value(het.p)
+                ),
+            ),
+        ],
+    )
+}
+
+/// What the sheet holds: coefficients by type, respondents, and how its columns were read.
+fn coding_rows(b: &Benchmark, p: &Prepared) -> Vec<Vec<Inline>> {
+    let mut rows = Vec::new();
+    let counts: Vec<String> = b
+        .coef_types
+        .iter()
+        .map(|(t, n)| format!("{t} {n}"))
+        .collect();
+    rows.push(vec![
+        Inline::text("coefficients"),
+        Inline::text(counts.join(", ")),
+    ]);
+    rows.push(vec![
+        Inline::text("respondents"),
+        Inline::text(if b.n_total > 0 {
+            thousands(b.n_total)
+        } else {
+            "not given".into()
+        }),
+    ]);
+    let standard: Vec<String> = p
+        .columns
+        .iter()
+        .map(|(role, header)| {
+            if header == role.name() {
+                header.clone()
+            } else {
+                format!("{header} (as {role})")
+            }
+        })
+        .collect();
+    rows.push(vec![
+        Inline::text("standard columns"),
+        Inline::text(standard.join(", ")),
+    ]);
+    rows.push(vec![
+        Inline::text("other columns (possible moderators)"),
+        Inline::text(if p.extra_columns.is_empty() {
+            "none".to_string()
+        } else {
+            p.extra_columns.join(", ")
+        }),
+    ]);
+    rows
+}
+
+/// The meta-regression: what the moderators explain, each term's change, what is left.
+fn meta_regression_blocks(ex: &Explanation, level: &str) -> Vec<Block> {
+    let mut lead = match ex.r2 {
+        Some(r2) => format!(
+            "Together the moderators explain {}% of the variance between settings (R²).",
+            fixed(r2, 1)
+        ),
+        None => "The share the moderators explain (R²) is not defined: without them τ² is 0."
+            .to_string(),
+    };
+    if let Some(t) = &ex.omnibus {
+        lead.push_str(&format!(
+            " Test of all moderators together: {}.",
+            crate::output::text::omnibus_words(t)
+        ));
+    }
+    let terms = ex
+        .design
+        .names
+        .iter()
+        .zip(&ex.fit.coefficients)
+        .map(|(n, c)| {
+            vec![
+                Inline::text(n.clone()),
+                Inline::text(fixed(c.estimate, 4)),
+                Inline::text(fixed(c.se, 4)),
+                Inline::text(range(c.ci.lower, c.ci.upper, |x| fixed(x, 4))),
+                Inline::text(p_cell(c.p)),
+            ]
+        })
+        .collect();
+    let fit = &ex.fit;
+    let left = format!(
+        "Unexplained between-setting variance τ² = {}{}; remaining differences: Q = {} on {} \
+         df, p {}.",
+        significant(fit.tau2.tau2, 3),
+        fit.tau2_ci
+            .map(|c| format!(
+                " ({level} CI {})",
+                range(c.lower, c.upper, |x| significant(x, 3))
+            ))
+            .unwrap_or_default(),
+        fixed(fit.heterogeneity.q, 2),
+        fit.heterogeneity.df,
+        crate::format::p_value(fit.heterogeneity.p)
+    );
+    vec![
+        Block::Para(Inline::text(lead)),
+        Block::Para(Inline::text(format!(
+            "The intercept is the expected value on the analysis scale for a study with {}.",
+            ex.design.intercept_meaning()
+        ))),
+        Block::table(
+            &["term", "change", "SE", &format!("{level} CI"), "p"],
+            terms,
+        ),
+        Block::Para(Inline::text(left)),
+    ]
+}
+
+/// The score-variance test in one paragraph, naming the other terms in its model.
+fn spread_words(s: &ScoreSpread, level: &str) -> String {
+    let others = if s.other_terms().is_empty() {
+        String::new()
+    } else {
+        format!(
+            " The model also holds {}, as the moderators' model does{}.",
+            s.other_terms().join(", "),
+            if s.log_items_column {
+                ", and ln(items), since the forms differ in length"
+            } else {
+                ""
+            }
+        )
+    };
+    format!(
+        "{} Slope of ln(1 − coefficient) on ln(score SD): {} ({level} CI {}); test of slope 0: \
+         p {}; test of slope −2 (the same error variance everywhere): p {}; share of τ² \
+         explained: {}.{others}",
+        crate::format::capitalized(s.reading.sentence()) + ".",
+        fixed(s.slope.estimate, 2),
+        range(s.slope.ci.lower, s.slope.ci.upper, |x| fixed(x, 2)),
+        crate::format::p_value(s.p_zero),
+        crate::format::p_value(s.p_minus_two),
+        s.tau2_share
+            .map(|v| format!("{}%", fixed(v, 0)))
+            .unwrap_or_else(|| "not defined".into()),
+    )
+}
+
+/// The corrected correlation with its inputs and intervals.
+fn correlation_table(
+    input: &CorrelationInput,
+    result: &CorrelationCorrection,
+    level: &str,
+) -> Block {
+    let c3 = |x: f64| fixed(x, 3);
+    let dash = || "–".to_string();
+    let row = |label: String, value: String| vec![Inline::text(label), Inline::text(value)];
+    Block::table(
+        &["", ""],
+        vec![
+            row("observed correlation".into(), c3(result.observed)),
+            row(
+                "reliability of the measure (x)".into(),
+                input.rel_x.describe(),
+            ),
+            row(
+                "reliability of the other score (y)".into(),
+                input.rel_y.describe(),
+            ),
+            row(
+                "corrected correlation".into(),
+                if result.admissible {
+                    c3(result.corrected_value)
+                } else {
+                    format!("impossible ({} beyond ±1)", c3(result.corrected_value))
+                },
+            ),
+            row(
+                format!("{level} CI (classical)"),
+                result.ci.map(|(a, b)| range(a, b, c3)).unwrap_or_else(dash),
+            ),
+            row(
+                format!("{level} CI (Monte Carlo, reliabilities drawn)"),
+                result
+                    .mc_ci
+                    .map(|(a, b)| range(a, b, c3))
+                    .unwrap_or_else(dash),
+            ),
+            row(
+                "share of impossible draws".into(),
+                format!("{}%", fixed(100.0 * result.inadmissible_share, 1)),
+            ),
+        ],
+    )
+}
+
+/// Each predictor's ordinary and corrected slope with the corrected slope's interval.
+fn regression_table(input: &RegressionInput, result: &RegressionCorrection, level: &str) -> Block {
+    let c3 = |x: f64| fixed(x, 3);
+    let corr = result.estimate.corrected.as_ref().ok();
+    Block::table(
+        &[
+            "predictor",
+            "OLS slope",
+            "corrected slope",
+            &format!("{level} CI"),
+        ],
+        input
+            .predictors
+            .iter()
+            .enumerate()
+            .map(|(j, n)| {
+                vec![
+                    Inline::text(n.clone()),
+                    Inline::text(c3(result.estimate.ols[j])),
+                    Inline::text(
+                        corr.map(|k| c3(k.slopes[j]))
+                            .unwrap_or_else(|| "impossible".into()),
+                    ),
+                    Inline::text(
+                        result.corrected_spread[j]
+                            .map(|s| range(s.ci.0, s.ci.1, c3))
+                            .unwrap_or_else(|| "–".to_string()),
+                    ),
+                ]
+            })
+            .collect(),
+    )
+}

@@ -4,28 +4,64 @@
 use super::{Paragraph, Reference};
 use crate::benchmark::{Benchmark, describe_types};
 use crate::format::{fixed, range, significant, thousands};
-use crate::pool::{CiMethod, Model, Tau2Estimator};
+use crate::pool::{CiMethod, Model, PoolOptions, Tau2Estimator};
 use crate::transform::TransformKind;
 
 /// Write the paragraph for a benchmark. `measure` names the scale (e.g. "the Team
 /// Candor Scale"); without it the text says "the measure".
 pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
+    let w = Words::new(b, measure);
     let mut refs = vec![Reference::HigginsThompson2002];
-    let p = &b.pool;
-    let opts = p.options;
-    let level = opts.level.percent();
-    let measure = measure.unwrap_or("the measure");
-    let on_coef = b.coefficient.is_some();
-    let noun = if on_coef { "coefficient" } else { "effect" };
-    let types = describe_types(b);
-    let what = if on_coef {
-        format!("{types} coefficients")
-    } else {
-        "effects".to_string()
-    };
-    let c = |x: f64| fixed(x, 2);
+    let mut s = opening(b, &w);
+    s.push_str(&format!(
+        "The reported {} {} {}{}. ",
+        w.what,
+        transform_words(b.transform, &mut refs),
+        model_words(b.pool.options.model, &mut refs),
+        interval_words(&b.pool.options, &w, &mut refs)
+    ));
+    s.push_str(&pooled_sentence(b, &w));
+    s.push_str(&spread_sentence(b, &w, &mut refs));
+    s.push_str(&range_sentence(b, &w, &mut refs));
+    Paragraph::new(s, refs)
+}
 
-    let mut s = String::new();
+/// The words that depend on whether coefficients or other effects were pooled.
+struct Words {
+    /// "alpha and omega coefficients" or "effects".
+    what: String,
+    /// "coefficient" or "effect".
+    noun: &'static str,
+    /// "a" or "an", for the noun.
+    article: &'static str,
+    /// "95%".
+    level: String,
+    /// The measure's name, or "the measure".
+    measure: String,
+    /// Whether the results are on the coefficient scale.
+    on_coef: bool,
+}
+
+impl Words {
+    fn new(b: &Benchmark, measure: Option<&str>) -> Words {
+        let on_coef = b.coefficient.is_some();
+        Words {
+            what: if on_coef {
+                format!("{} coefficients", describe_types(b))
+            } else {
+                "effects".to_string()
+            },
+            noun: if on_coef { "coefficient" } else { "effect" },
+            article: if on_coef { "a" } else { "an" },
+            level: b.pool.options.level.percent(),
+            measure: measure.unwrap_or("the measure").to_string(),
+            on_coef,
+        }
+    }
+}
+
+/// The first sentence: what the benchmark was built from.
+fn opening(b: &Benchmark, w: &Words) -> String {
     let n_part = if b.n_total > 0 {
         let missing = if b.n_missing > 0 {
             format!("; {} without a reported sample size", b.n_missing)
@@ -41,19 +77,23 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         1 => "; one further coded row was left out because of a coding problem".to_string(),
         m => format!("; {m} further coded rows were left out because of coding problems"),
     };
-    if on_coef {
-        s.push_str(&format!(
-            "We judged the reliability of {measure} against a benchmark built from k = {} prior \
+    if w.on_coef {
+        format!(
+            "We judged the reliability of {} against a benchmark built from k = {} prior \
              administrations{n_part}{left_out}. ",
-            p.k
-        ));
+            w.measure, b.pool.k
+        )
     } else {
-        s.push_str(&format!(
+        format!(
             "We pooled the effects of k = {} studies{n_part}{left_out}. ",
-            p.k
-        ));
+            b.pool.k
+        )
     }
-    let transform_part = match b.transform {
+}
+
+/// How the coefficients were transformed (ends with "and").
+fn transform_words(t: TransformKind, refs: &mut Vec<Reference>) -> &'static str {
+    match t {
         TransformKind::Bonett => {
             refs.push(Reference::Bonett2002);
             "were transformed with Bonett's (2002) transformation, ln(1 − coefficient), and"
@@ -69,8 +109,12 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         }
         TransformKind::Raw => "were left untransformed and",
         TransformKind::None => "were taken as given, with their reported sampling variances, and",
-    };
-    let model_part = match opts.model {
+    }
+}
+
+/// The pooling model and its τ² estimator.
+fn model_words(model: Model, refs: &mut Vec<Reference>) -> String {
+    match model {
         Model::Common => {
             "pooled in a common-effect (inverse-variance) model, which assumes that every study \
              shares one true value"
@@ -92,8 +136,13 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
                 e.citation()
             )
         }
-    };
-    let ci_part = match opts.ci {
+    }
+}
+
+/// The confidence interval's method (starts with "; ").
+fn interval_words(opts: &PoolOptions, w: &Words, refs: &mut Vec<Reference>) -> String {
+    let (level, noun) = (&w.level, w.noun);
+    match opts.ci {
         CiMethod::KnappHartung | CiMethod::KnappHartungFloor => {
             refs.push(Reference::KnappHartung2003);
             let floor = if opts.ci == CiMethod::KnappHartungFloor {
@@ -110,81 +159,82 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         CiMethod::Wald => {
             format!("; the {level} confidence interval of the pooled {noun} used normal quantiles")
         }
-    };
-    s.push_str(&format!(
-        "The reported {what} {transform_part} {model_part}{ci_part}. "
-    ));
+    }
+}
+
+/// The pooled value with its confidence interval.
+fn pooled_sentence(b: &Benchmark, w: &Words) -> String {
+    let (p, level) = (&b.pool, &w.level);
     match &b.coefficient {
-        Some(cs) => s.push_str(&format!(
+        Some(cs) => format!(
             "The pooled coefficient was {} ({level} CI {} to {}). ",
-            c(cs.estimate),
-            c(cs.ci.lower),
-            c(cs.ci.upper)
-        )),
-        None => s.push_str(&format!(
+            fixed(cs.estimate, 2),
+            fixed(cs.ci.lower, 2),
+            fixed(cs.ci.upper, 2)
+        ),
+        None => format!(
             "The pooled effect was {} ({level} CI {} to {}). ",
             significant(p.estimate, 3),
             significant(p.ci.lower, 3),
             significant(p.ci.upper, 3)
-        )),
+        ),
     }
-    match opts.model {
-        Model::Common => s.push_str(&format!(
+}
+
+/// How much the studies differ: τ² with its Q-profile interval and I², or Q for a
+/// common-effect model.
+fn spread_sentence(b: &Benchmark, w: &Words, refs: &mut Vec<Reference>) -> String {
+    let (p, what, level) = (&b.pool, &w.what, &w.level);
+    if p.options.model == Model::Common {
+        return format!(
             "Cochran's Q was {} on {} df (I² = {}% [Higgins & Thompson, 2002]). ",
             fixed(p.heterogeneity.q, 2),
             p.heterogeneity.df,
             fixed(p.i2, 0)
-        )),
-        Model::Random(_) => {
-            refs.push(Reference::Viechtbauer2007);
-            let ci = p
-                .tau2_ci
-                .map(|t| {
-                    let r = range(t.lower, t.upper, |x| significant(x, 2));
-                    format!(", {level} CI {r} by the Q-profile method [Viechtbauer, 2007]")
-                })
-                .unwrap_or_default();
-            let scale = if b.transform == TransformKind::None || b.transform == TransformKind::Raw {
-                ""
-            } else {
-                " on the transformed scale"
-            };
-            let clear = p.tau2_ci.is_some_and(|t| t.lower > 0.0);
-            if p.tau2.at_zero {
-                s.push_str(&format!(
-                    "The {what} varied no more than sampling error would predict (τ² = 0{ci}; \
-                     I² = 0% [Higgins & Thompson, 2002]). "
-                ));
-            } else if clear {
-                s.push_str(&format!(
-                    "The {what} varied between studies beyond sampling error (τ² = {}{scale}{ci}; \
-                     I² = {}% [Higgins & Thompson, 2002]). ",
-                    significant(p.tau2.tau2, 2),
-                    fixed(p.i2, 0)
-                ));
-            } else {
-                s.push_str(&format!(
-                    "The {what} varied somewhat between studies, but not clearly beyond sampling \
-                     error (τ² = {}{scale}{ci}, an interval that includes 0; I² = {}% \
-                     [Higgins & Thompson, 2002]). ",
-                    significant(p.tau2.tau2, 2),
-                    fixed(p.i2, 0)
-                ));
-            }
-        }
+        );
     }
-    let pi = match (&b.coefficient, p.prediction.interval()) {
-        (Some(cs), Some(_)) => cs.pi.map(|i| (c(i.lower), c(i.upper))),
-        (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
-        _ => None,
-    };
-    let of_measure = if on_coef {
-        format!(" of {measure}")
+    refs.push(Reference::Viechtbauer2007);
+    let ci = p
+        .tau2_ci
+        .map(|t| {
+            let r = range(t.lower, t.upper, |x| significant(x, 2));
+            format!(", {level} CI {r} by the Q-profile method [Viechtbauer, 2007]")
+        })
+        .unwrap_or_default();
+    let scale = if b.transform == TransformKind::None || b.transform == TransformKind::Raw {
+        ""
     } else {
-        String::new()
+        " on the transformed scale"
     };
-    let article = if on_coef { "a" } else { "an" };
-    if opts.model == Model::Common {
+    let clear = p.tau2_ci.is_some_and(|t| t.lower > 0.0);
+    if p.tau2.at_zero {
+        format!(
+            "The {what} varied no more than sampling error would predict (τ² = 0{ci}; \
+             I² = 0% [Higgins & Thompson, 2002]). "
+        )
+    } else if clear {
+        format!(
+            "The {what} varied between studies beyond sampling error (τ² = {}{scale}{ci}; \
+             I² = {}% [Higgins & Thompson, 2002]). ",
+            significant(p.tau2.tau2, 2),
+            fixed(p.i2, 0)
+        )
+    } else {
+        format!(
+            "The {what} varied somewhat between studies, but not clearly beyond sampling \
+             error (τ² = {}{scale}{ci}, an interval that includes 0; I² = {}% \
+             [Higgins & Thompson, 2002]). ",
+            significant(p.tau2.tau2, 2),
+            fixed(p.i2, 0)
+        )
+    }
+}
+
+/// The expected range for a new setting (the prediction interval), or why there is none.
+fn range_sentence(b: &Benchmark, w: &Words, refs: &mut Vec<Reference>) -> String {
+    let (p, noun, level) = (&b.pool, w.noun, &w.level);
+    let c = |x: f64| fixed(x, 2);
+    if p.options.model == Model::Common {
         let rejected = if p.heterogeneity.p < crate::pool::COMMON_EFFECT_REJECTED {
             format!(
                 ", and Cochran's Q test rejects that assumption (p {}), so a random-effects \
@@ -194,41 +244,44 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
         } else {
             String::new()
         };
-        s.push_str(&format!(
+        return format!(
             "Because the common-effect model assumes no between-study variation, it states no \
              expected range for a new setting beyond the uncertainty of the pooled {noun}{rejected}."
+        );
+    }
+    let pi = match (&b.coefficient, p.prediction.interval()) {
+        (Some(cs), Some(_)) => cs.pi.map(|i| (c(i.lower), c(i.upper))),
+        (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
+        _ => None,
+    };
+    let Some((lo, hi)) = pi else {
+        return "With only two studies no prediction interval can be given, so the benchmark \
+                states no expected range for a new setting."
+            .to_string();
+    };
+    refs.push(Reference::HigginsThompsonSpiegelhalter2009);
+    let of_measure = if w.on_coef {
+        format!(" of {}", w.measure)
+    } else {
+        String::new()
+    };
+    let mut s = format!(
+        "The {level} prediction interval (Higgins, Thompson, & Spiegelhalter, 2009) \
+         indicates that the true {noun}{of_measure} in a new, comparable setting can be \
+         expected to lie between {lo} and {hi}; {} {noun} observed in a single new \
+         sample will vary somewhat more because of that sample's own sampling error.",
+        w.article
+    );
+    let wider = match (&b.coefficient, p.prediction_at_tau2_upper) {
+        (Some(cs), _) => cs.pi_at_tau2_upper.map(|i| (c(i.lower), c(i.upper))),
+        (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
+        _ => None,
+    };
+    if let Some((wl, wh)) = wider {
+        s.push_str(&format!(
+            " Because τ² was estimated at 0, this range reflects only the uncertainty of \
+             the pooled {noun}; at the upper end of τ²'s interval it would be {wl} to {wh}."
         ));
-        return finish(s, refs);
     }
-    match pi {
-        Some((lo, hi)) => {
-            refs.push(Reference::HigginsThompsonSpiegelhalter2009);
-            s.push_str(&format!(
-                "The {level} prediction interval (Higgins, Thompson, & Spiegelhalter, 2009) \
-                 indicates that the true {noun}{of_measure} in a new, comparable setting can be \
-                 expected to lie between {lo} and {hi}; {article} {noun} observed in a single new \
-                 sample will vary somewhat more because of that sample's own sampling error."
-            ));
-            let wider = match (&b.coefficient, p.prediction_at_tau2_upper) {
-                (Some(cs), _) => cs.pi_at_tau2_upper.map(|i| (c(i.lower), c(i.upper))),
-                (None, Some(i)) => Some((significant(i.lower, 3), significant(i.upper, 3))),
-                _ => None,
-            };
-            if let Some((wl, wh)) = wider {
-                s.push_str(&format!(
-                    " Because τ² was estimated at 0, this range reflects only the uncertainty of \
-                     the pooled {noun}; at the upper end of τ²'s interval it would be {wl} to {wh}."
-                ));
-            }
-        }
-        None => s.push_str(
-            "With only two studies no prediction interval can be given, so the benchmark states \
-             no expected range for a new setting.",
-        ),
-    }
-    finish(s, refs)
-}
-
-fn finish(text: String, refs: Vec<Reference>) -> Paragraph {
-    Paragraph::new(text, refs)
+    s
 }

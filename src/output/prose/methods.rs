@@ -2,7 +2,8 @@
 //! settings and results, so that they describe what was done.
 
 use super::Reference;
-use crate::analysis::{Analysis, Correction};
+use crate::analysis::{Analysis, Correction, Explained};
+use crate::benchmark::Benchmark;
 use crate::metareg::Centring;
 use crate::pool::{CiMethod, Model, Prediction};
 
@@ -35,15 +36,48 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
     };
     let level = a.settings.level.percent();
     let mut refs = vec![Reference::HigginsThompson2002, Reference::SterneEgger2001];
-    let mut m = vec![item(
-        "Transformation",
-        format!(
-            "Each coefficient was analysed on the {} scale, T = {}, with its sampling variance \
-             vᵢ; results were transformed back to the coefficient's own scale for reporting.",
-            b.transform.name(),
-            b.transform.get().formula()
+    let mut m = vec![
+        item(
+            "Transformation",
+            format!(
+                "Each coefficient was analysed on the {} scale, T = {}, with its sampling \
+                 variance vᵢ; results were transformed back to the coefficient's own scale for \
+                 reporting.",
+                b.transform.name(),
+                b.transform.get().formula()
+            ),
         ),
-    )];
+        model_item(b, &level, &mut refs),
+        heterogeneity_item(&mut refs),
+        range_item(b, &level, &mut refs),
+        item(
+            "Small-study patterns",
+            "The precision plot shows each study's transformed value against its standard \
+             error with lines at ±1.96 SE around the pooled value (Sterne & Egger, 2001); it \
+             is a visual check, not a test."
+                .into(),
+        ),
+    ];
+    if let Some(e) = &a.explanation {
+        m.push(moderators_item(a, e, &mut refs));
+    }
+    if a.placement.is_some() {
+        m.push(item(
+            "Placing the new study",
+            "The expected range for an observed coefficient adds the new study's own sampling \
+             variance to the prediction interval: μ̂(x₀) ± t·√(τ̂² + SE² + v(new)), with the \
+             same t quantile; the percentile is the new study's place in that t distribution."
+                .into(),
+        ));
+    }
+    if let Some(c) = &a.correction {
+        m.push(correction_item(c, &mut refs));
+    }
+    (m, refs)
+}
+
+/// The pooling model, its weights and its confidence interval.
+fn model_item(b: &Benchmark, level: &str, refs: &mut Vec<Reference>) -> MethodsItem {
     let opts = b.pool.options;
     let ci_detail = match (opts.ci, b.pool.test.df) {
         (CiMethod::Wald, _) => " (normal quantiles)".to_string(),
@@ -56,7 +90,7 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
     if opts.ci != CiMethod::Wald {
         refs.push(Reference::KnappHartung2003);
     }
-    m.push(match opts.model {
+    match opts.model {
         Model::Common => item(
             "Model",
             format!(
@@ -78,8 +112,13 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
                 interval_words(opts.ci)
             ),
         ),
-    });
-    m.push(item(
+    }
+}
+
+/// Q (with the weights it uses), I², H² and τ²'s interval.
+fn heterogeneity_item(refs: &mut Vec<Reference>) -> MethodsItem {
+    refs.push(Reference::Viechtbauer2007);
+    item(
         "Heterogeneity",
         "Cochran's Q = Σ(Tᵢ − μ̂₀)²/vᵢ, with μ̂₀ = Σ(Tᵢ/vᵢ)/Σ(1/vᵢ) the common-effect \
          (inverse-variance) mean, on k − 1 degrees of freedom; I² = 100·τ̂²/(τ̂² + s²) and \
@@ -87,9 +126,12 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
          projection of the common-effect fit; a Q-profile confidence interval for τ² \
          (Viechtbauer, 2007)."
             .into(),
-    ));
-    refs.push(Reference::Viechtbauer2007);
-    m.push(match b.pool.prediction {
+    )
+}
+
+/// The prediction interval, or why there is none.
+fn range_item(b: &Benchmark, level: &str, refs: &mut Vec<Reference>) -> MethodsItem {
+    match b.pool.prediction {
         Prediction::Available { df, .. } => {
             refs.push(Reference::HigginsThompsonSpiegelhalter2009);
             item(
@@ -107,76 +149,63 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
              prediction interval (see the warnings)."
                 .into(),
         ),
-    });
-    m.push(item(
-        "Small-study patterns",
-        "The precision plot shows each study's transformed value against its standard error \
-         with lines at ±1.96 SE around the pooled value (Sterne & Egger, 2001); it is a \
-         visual check, not a test."
-            .into(),
-    ));
-    if let Some(e) = &a.explanation {
-        refs.push(Reference::ThompsonHiggins2002);
-        let centring = match a.settings.moderators.centring {
-            Centring::Means => {
-                "numeric moderators centred at their means, so that the intercept is the \
-                 expected value at the moderators' means (and the reference level of each \
-                 categorical moderator)"
-            }
-            Centring::None => {
-                "numeric moderators uncentred, so that the intercept is the expected value where \
-                 each numeric moderator is 0"
-            }
-        };
-        let mut text = format!(
-            "Mixed-effects meta-regression Tᵢ = xᵢᵀβ + uᵢ + eᵢ with the same τ² estimator and \
-             interval method, {centring}; R² = max(0, (τ̂²₀ − τ̂²)/τ̂²₀) against the model \
-             without moderators. Each moderator figure shows that moderator in a model of its \
-             own."
-        );
-        if let Some(s) = &e.spread {
-            let others = if s.other_terms().is_empty() {
-                String::new()
-            } else {
-                format!(", with {} in the same model", s.other_terms().join(", "))
-            };
-            text.push_str(&format!(
-                " The score-variance test regresses ln(1 − coefficient) on ln(SD){others}: since \
-                 1 − ρ = σ²(error)/σ²(observed), a slope of −2 means the differences come wholly \
-                 from the spread of scores, 0 that the error variance grows with it. Its figure \
-                 shows the same model: the line, and each study's coefficient adjusted to the \
-                 other terms' means."
-            ));
-        }
-        m.push(item("Moderators", text));
     }
-    if a.placement.is_some() {
-        m.push(item(
-            "Placing the new study",
-            "The expected range for an observed coefficient adds the new study's own sampling \
-             variance to the prediction interval: μ̂(x₀) ± t·√(τ̂² + SE² + v(new)), with the \
-             same t quantile; the percentile is the new study's place in that t distribution."
-                .into(),
+}
+
+/// The meta-regression, its centring, and the score-variance test.
+fn moderators_item(a: &Analysis, e: &Explained, refs: &mut Vec<Reference>) -> MethodsItem {
+    refs.push(Reference::ThompsonHiggins2002);
+    let centring = match a.settings.moderators.centring {
+        Centring::Means => {
+            "numeric moderators centred at their means, so that the intercept is the \
+             expected value at the moderators' means (and the reference level of each \
+             categorical moderator)"
+        }
+        Centring::None => {
+            "numeric moderators uncentred, so that the intercept is the expected value where \
+             each numeric moderator is 0"
+        }
+    };
+    let mut text = format!(
+        "Mixed-effects meta-regression Tᵢ = xᵢᵀβ + uᵢ + eᵢ with the same τ² estimator and \
+         interval method, {centring}; R² = max(0, (τ̂²₀ − τ̂²)/τ̂²₀) against the model \
+         without moderators. Each moderator figure shows that moderator in a model of its \
+         own."
+    );
+    if let Some(s) = &e.spread {
+        let others = if s.other_terms().is_empty() {
+            String::new()
+        } else {
+            format!(", with {} in the same model", s.other_terms().join(", "))
+        };
+        text.push_str(&format!(
+            " The score-variance test regresses ln(1 − coefficient) on ln(SD){others}: since \
+             1 − ρ = σ²(error)/σ²(observed), a slope of −2 means the differences come wholly \
+             from the spread of scores, 0 that the error variance grows with it. Its figure \
+             shows the same model: the line, and each study's coefficient adjusted to the \
+             other terms' means."
         ));
     }
-    if let Some(c) = &a.correction {
-        refs.push(Reference::Spearman1904);
-        refs.push(Reference::HunterSchmidt2004);
-        let text = match c {
-            Correction::Correlation { .. } => {
-                "Spearman's correction, corrected r = r/√(r(xx)·r(yy)); the classical interval \
-                 corrects the ends of the Fisher-z interval of r; the Monte Carlo interval also \
-                 draws each reliability from its own distribution (an estimate on the Bonett \
-                 scale, a benchmark from its predictive t distribution)."
-            }
-            Correction::Regression { .. } => {
-                "Errors-in-variables regression: the predictors' covariance matrix with each \
-                 error variance, (1 − reliability) × its variance, taken off its diagonal; \
-                 intervals by bootstrap of the respondents (raw data) or Monte Carlo draws of \
-                 the covariance matrix (a summary), the reliabilities drawn too."
-            }
-        };
-        m.push(item("Correction", text.into()));
-    }
-    (m, refs)
+    item("Moderators", text)
+}
+
+/// The correction of a correlation or a regression.
+fn correction_item(c: &Correction, refs: &mut Vec<Reference>) -> MethodsItem {
+    refs.push(Reference::Spearman1904);
+    refs.push(Reference::HunterSchmidt2004);
+    let text = match c {
+        Correction::Correlation { .. } => {
+            "Spearman's correction, corrected r = r/√(r(xx)·r(yy)); the classical interval \
+             corrects the ends of the Fisher-z interval of r; the Monte Carlo interval also \
+             draws each reliability from its own distribution (an estimate on the Bonett \
+             scale, a benchmark from its predictive t distribution)."
+        }
+        Correction::Regression { .. } => {
+            "Errors-in-variables regression: the predictors' covariance matrix with each \
+             error variance, (1 − reliability) × its variance, taken off its diagonal; \
+             intervals by bootstrap of the respondents (raw data) or Monte Carlo draws of \
+             the covariance matrix (a summary), the reliabilities drawn too."
+        }
+    };
+    item("Correction", text.into())
 }

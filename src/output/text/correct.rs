@@ -2,7 +2,7 @@
 
 use super::{heading, read_with_care};
 use crate::correct::correlation::{CorrelationCorrection, CorrelationInput};
-use crate::correct::regression::{RegressionCorrection, RegressionInput};
+use crate::correct::regression::{RegressionCorrection, RegressionInput, Spread};
 use crate::format::{fixed, range, thousands, wrap};
 use crate::level::Level;
 use crate::output::json::SEM_NOTE;
@@ -22,26 +22,46 @@ pub fn correlation_summary(
     warnings: &[Warning],
     names: &dyn SettingNames,
 ) -> String {
-    let (n, rel_x, rel_y) = (input.n, &input.rel_x, &input.rel_y);
-    let lv = level.percent();
-    let c3 = |x: f64| fixed(x, 3);
     let mut o = String::new();
     heading(&mut o, "The correlation corrected for unreliability");
-    if c.admissible {
-        let _ = writeln!(
+    corrected_correlation(&mut o, c, level);
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "  {:<26}{}   (n = {})",
+        "observed r",
+        fixed(c.observed, 3),
+        thousands(input.n)
+    );
+    let _ = writeln!(o, "  {:<26}{}", "reliability of x", input.rel_x.describe());
+    let _ = writeln!(o, "  {:<26}{}", "reliability of y", input.rel_y.describe());
+    let _ = writeln!(o);
+    correlation_grid(&mut o, c);
+    let _ = writeln!(o);
+    o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
+    read_with_care(&mut o, warnings, names);
+    o
+}
+
+/// The corrected correlation and its classical and Monte Carlo intervals.
+fn corrected_correlation(o: &mut String, c: &CorrelationCorrection, level: Level) {
+    let lv = level.percent();
+    let c3 = |x: f64| fixed(x, 3);
+    let _ = if c.admissible {
+        writeln!(
             o,
             "  {:<26}{}   = r / √(r_xx · r_yy)",
             "corrected r",
             c3(c.corrected_value)
-        );
+        )
     } else {
-        let _ = writeln!(
+        writeln!(
             o,
             "  {:<26}IMPOSSIBLE: r / √(r_xx · r_yy) = {} lies beyond ±1 (see the warning)",
             "corrected r",
             c3(c.corrected_value)
-        );
-    }
+        )
+    };
     let bound = |x: f64, at: bool| {
         if at {
             format!("{} (bound)", c3(x))
@@ -49,24 +69,20 @@ pub fn correlation_summary(
             c3(x)
         }
     };
-    match c.ci {
-        Some((a, b)) => {
-            let _ = writeln!(
-                o,
-                "  {:<26}{} to {}   Fisher-z interval of r, corrected",
-                format!("{lv} CI (classical)"),
-                bound(a, c.ci_capped && a <= -1.0),
-                bound(b, c.ci_capped && b >= 1.0)
-            );
-        }
-        None => {
-            let _ = writeln!(
-                o,
-                "  {:<26}none: the whole corrected interval lies beyond ±1",
-                format!("{lv} CI (classical)")
-            );
-        }
-    }
+    let _ = match c.ci {
+        Some((a, b)) => writeln!(
+            o,
+            "  {:<26}{} to {}   Fisher-z interval of r, corrected",
+            format!("{lv} CI (classical)"),
+            bound(a, c.ci_capped && a <= -1.0),
+            bound(b, c.ci_capped && b >= 1.0)
+        ),
+        None => writeln!(
+            o,
+            "  {:<26}none: the whole corrected interval lies beyond ±1",
+            format!("{lv} CI (classical)")
+        ),
+    };
     if let Some((a, b)) = c.mc_ci {
         let _ = writeln!(
             o,
@@ -79,23 +95,16 @@ pub fn correlation_summary(
             fixed(100.0 * c.inadmissible_share, 1)
         );
     }
-    if c.mc_bound.0 || c.mc_bound.1 || (c.ci_capped) {
+    if c.mc_bound.0 || c.mc_bound.1 || c.ci_capped {
         let _ = writeln!(
             o,
             "  (bound): the end is ±1 itself — the data do not limit the corrected correlation there"
         );
     }
-    let _ = writeln!(o);
-    let _ = writeln!(
-        o,
-        "  {:<26}{}   (n = {})",
-        "observed r",
-        c3(c.observed),
-        thousands(n)
-    );
-    let _ = writeln!(o, "  {:<26}{}", "reliability of x", rel_x.describe());
-    let _ = writeln!(o, "  {:<26}{}", "reliability of y", rel_y.describe());
-    let _ = writeln!(o);
+}
+
+/// The corrected correlation over a grid of both reliabilities.
+fn correlation_grid(o: &mut String, c: &CorrelationCorrection) {
     let _ = writeln!(
         o,
         "  Corrected r over other reliabilities (rows: r_xx; columns: r_yy; – beyond ±1)"
@@ -114,18 +123,14 @@ pub fn correlation_summary(
     for x in xs {
         let _ = write!(o, "  {:>8}", fixed(x, 3));
         for s in c.sensitivity.iter().filter(|s| (s.rel_x - x).abs() < 1e-12) {
-            let _ = write!(
-                o,
-                " {:>7}",
-                s.corrected.map(c3).unwrap_or_else(|| "–".into())
-            );
+            let cell = s
+                .corrected
+                .map(|v| fixed(v, 3))
+                .unwrap_or_else(|| "–".into());
+            let _ = write!(o, " {cell:>7}");
         }
         let _ = writeln!(o);
     }
-    let _ = writeln!(o);
-    o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
-    read_with_care(&mut o, warnings, names);
-    o
 }
 
 /// Render the regression correction.
@@ -136,9 +141,6 @@ pub fn regression_summary(
     warnings: &[Warning],
     names: &dyn SettingNames,
 ) -> String {
-    let lv = level.percent();
-    let c3 = |x: f64| fixed(x, 3);
-    let e = &c.estimate;
     let mut o = String::new();
     heading(
         &mut o,
@@ -147,6 +149,24 @@ pub fn regression_summary(
             input.outcome
         ),
     );
+    regression_inputs(&mut o, input, c);
+    let _ = writeln!(o);
+    slope_table(&mut o, input, c, level);
+    let _ = writeln!(o);
+    standardized_table(&mut o, input, c, level);
+    let _ = writeln!(o);
+    explained_variance(&mut o, c, level);
+    let _ = writeln!(o);
+    slope_sensitivity(&mut o, input, c);
+    let _ = writeln!(o);
+    o.push_str(&wrap(SEM_NOTE, 86, "  "));
+    o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
+    read_with_care(&mut o, warnings, names);
+    o
+}
+
+/// The data, the draws and each variable's reliability.
+fn regression_inputs(o: &mut String, input: &RegressionInput, c: &RegressionCorrection) {
     if let Some(note) = &input.data_note {
         let _ = writeln!(o, "  {note}");
     }
@@ -155,11 +175,7 @@ pub fn regression_summary(
         "  n = {}; intervals from {} {} (seed {}){}",
         thousands(input.n),
         thousands(c.draws as u64),
-        if c.method == "bootstrap" {
-            "bootstrap samples of the respondents"
-        } else {
-            "Monte Carlo draws of the covariance matrix"
-        },
+        c.method.words(),
         c.seed,
         if input.standardized_only {
             "; correlations only, so slopes are standardized"
@@ -173,12 +189,18 @@ pub fn regression_summary(
     if let Some(ry) = &input.rel_y {
         let _ = writeln!(o, "  reliability of {:<16}{}", input.outcome, ry.describe());
     }
-    let _ = writeln!(o);
-    let corr = e.corrected.as_ref().ok();
-    let interval = |s: Option<crate::correct::regression::Spread>| {
-        s.map(|s| range(s.ci.0, s.ci.1, c3))
-            .unwrap_or_else(|| "not determined".into())
-    };
+}
+
+/// An interval drawn for a slope, or why there is none.
+fn spread_interval(s: Option<Spread>) -> String {
+    s.map(|s| range(s.ci.0, s.ci.1, |x| fixed(x, 3)))
+        .unwrap_or_else(|| "not determined".into())
+}
+
+/// The ordinary and corrected slopes with their intervals.
+fn slope_table(o: &mut String, input: &RegressionInput, c: &RegressionCorrection, level: Level) {
+    let (lv, c3) = (level.percent(), |x: f64| fixed(x, 3));
+    let (e, corr) = (&c.estimate, c.estimate.corrected.as_ref().ok());
     let _ = writeln!(o, "  Slopes");
     let _ = writeln!(
         o,
@@ -195,7 +217,7 @@ pub fn regression_summary(
         let (cv, cci, se) = match corr {
             Some(k) => (
                 c3(k.slopes[j]),
-                interval(c.corrected_spread[j]),
+                spread_interval(c.corrected_spread[j]),
                 c.corrected_spread[j]
                     .map(|s| c3(s.se))
                     .unwrap_or_else(|| "–".into()),
@@ -207,13 +229,22 @@ pub fn regression_summary(
             "  {:<18} {:>9} {:>20} {:>10} {:>20} {:>8}",
             short,
             c3(e.ols[j]),
-            interval(c.ols_spread[j]),
+            spread_interval(c.ols_spread[j]),
             cv,
             cci,
             se
         );
     }
-    let _ = writeln!(o);
+}
+
+/// The standardized slopes, ordinary and corrected (on the true-score SDs).
+fn standardized_table(
+    o: &mut String,
+    input: &RegressionInput,
+    c: &RegressionCorrection,
+    level: Level,
+) {
+    let (e, corr) = (&c.estimate, c.estimate.corrected.as_ref().ok());
     let _ = writeln!(
         o,
         "  Standardized slopes (corrected: on the true-score SDs)"
@@ -224,14 +255,14 @@ pub fn regression_summary(
         "predictor",
         "OLS",
         "corrected",
-        format!("{lv} CI")
+        format!("{} CI", level.percent())
     );
     for (j, name) in input.predictors.iter().enumerate() {
         let short: String = name.chars().take(18).collect();
         let (cs, ci) = match corr {
             Some(k) => (
-                c3(k.standardized[j]),
-                interval(c.corrected_standardized_spread[j]),
+                fixed(k.standardized[j], 3),
+                spread_interval(c.corrected_standardized_spread[j]),
             ),
             None => ("impossible".into(), String::new()),
         };
@@ -239,21 +270,28 @@ pub fn regression_summary(
             o,
             "  {:<18} {:>9} {:>10} {:>20}",
             short,
-            c3(e.ols_standardized[j]),
+            fixed(e.ols_standardized[j], 3),
             cs,
             ci
         );
     }
-    let _ = writeln!(o);
-    let r2c = corr
+}
+
+/// R² observed and corrected, and how many draws gave an impossible correction.
+fn explained_variance(o: &mut String, c: &RegressionCorrection, level: Level) {
+    let c3 = |x: f64| fixed(x, 3);
+    let e = &c.estimate;
+    let r2c = e
+        .corrected
+        .as_ref()
         .map(|k| {
             let ci = c
                 .r2_spread
-                .map(|s| format!(" ({lv} CI {})", range(s.ci.0, s.ci.1, c3)))
+                .map(|s| format!(" ({} CI {})", level.percent(), range(s.ci.0, s.ci.1, c3)))
                 .unwrap_or_default();
             format!("{}{ci}", c3(k.r2))
         })
-        .unwrap_or_else(|| "impossible".into());
+        .unwrap_or_else(|_| "impossible".into());
     let _ = writeln!(o, "  R²   observed {}   corrected {r2c}", c3(e.r2_observed));
     if let Err(why) = &e.corrected {
         let _ = writeln!(o, "  The correction is impossible here: {why}.");
@@ -270,7 +308,10 @@ pub fn regression_summary(
             }
         );
     }
-    let _ = writeln!(o);
+}
+
+/// Each corrected slope as its predictor's reliability varies.
+fn slope_sensitivity(o: &mut String, input: &RegressionInput, c: &RegressionCorrection) {
     let _ = writeln!(
         o,
         "  Corrected slopes as one predictor's reliability varies (others at their values)"
@@ -281,16 +322,11 @@ pub fn regression_summary(
             .map(|(r, slopes)| {
                 let v = slopes
                     .as_ref()
-                    .map(|s| c3(s[j]))
+                    .map(|s| fixed(s[j], 3))
                     .unwrap_or_else(|| "–".into());
                 format!("{}→{v}", fixed(*r, 2))
             })
             .collect();
         o.push_str(&wrap(&format!("{name}: {}", row.join("  ")), 86, "    "));
     }
-    let _ = writeln!(o);
-    o.push_str(&wrap(SEM_NOTE, 86, "  "));
-    o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
-    read_with_care(&mut o, warnings, names);
-    o
 }

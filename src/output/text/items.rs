@@ -3,7 +3,8 @@
 use super::read_with_care;
 use crate::analysis::{Comparison, ItemsOutcome, PlanOutcome};
 use crate::format::{fixed, p_value, range, thousands, wrap};
-use crate::items::{Missing, Recommendation};
+use crate::items::bootstrap::OmegaBootstrap;
+use crate::items::{FactorPart, ItemAnalysis, ItemData, Missing, Recommendation};
 use crate::level::Level;
 use crate::numeric::MinimizeStop;
 use crate::setting::SettingNames;
@@ -11,30 +12,55 @@ use std::fmt::Write;
 
 /// Render the items summary.
 pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
-    let (d, a, boot) = (&o_.data, &o_.analysis, o_.bootstrap.as_ref());
-    let level = a.level.percent();
-    let c3 = |x: f64| fixed(x, 3);
+    let (d, a) = (&o_.data, &o_.analysis);
     let mut o = String::new();
-    match d.missing {
-        Missing::Listwise => {
-            let _ = writeln!(
-                o,
-                "Reliability of {} items from {} respondents",
-                a.k,
-                thousands(a.n_used)
-            );
-        }
-        Missing::Pairwise => {
-            let _ = writeln!(
-                o,
-                "Reliability of {} items from {} respondents (pairwise; n = {} is the smallest pair count)",
-                a.k,
-                thousands(d.rows_read),
-                thousands(a.n_used)
-            );
+    items_heading(&mut o, d, a);
+    items_input(&mut o, d);
+    let _ = writeln!(o);
+    coefficient_rows(&mut o, o_);
+    match &a.factor {
+        Ok(f) => factor_model(&mut o, f),
+        Err(why) => {
+            let _ = writeln!(o, "  omega               not available: {why}");
         }
     }
+    let _ = writeln!(o);
+    item_rows(&mut o, d, a);
+    let _ = writeln!(o);
+    scale_score(&mut o, a);
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "Which coefficient to report: {}",
+        recommendation_words(a.recommendation)
+    );
+    o.push_str(&wrap(&format!("{}.", a.reading.render(names)), 86, "  "));
+    read_with_care(&mut o, &o_.warnings, names);
+    o
+}
+
+/// The title line: how many items from how many respondents, and its rule.
+fn items_heading(o: &mut String, d: &ItemData, a: &ItemAnalysis) {
+    let _ = match d.missing {
+        Missing::Listwise => writeln!(
+            o,
+            "Reliability of {} items from {} respondents",
+            a.k,
+            thousands(a.n_used)
+        ),
+        Missing::Pairwise => writeln!(
+            o,
+            "Reliability of {} items from {} respondents (pairwise; n = {} is the smallest pair count)",
+            a.k,
+            thousands(d.rows_read),
+            thousands(a.n_used)
+        ),
+    };
     let _ = writeln!(o, "{}", "─".repeat(72));
+}
+
+/// What was read: the file, identifiers left out, missing answers, reversed items.
+fn items_input(o: &mut String, d: &ItemData) {
     let sheet = d
         .worksheet
         .as_ref()
@@ -77,8 +103,19 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
     if !reversed.is_empty() {
         let _ = writeln!(o, "  reversed      {}", reversed.join(", "));
     }
-    let _ = writeln!(o);
-    let _ = writeln!(o, "  {:<30}{:<10}{level} interval", "", "value");
+}
+
+/// The coefficients with their intervals: alpha, standardized alpha, λ2 and omega.
+fn coefficient_rows(o: &mut String, o_: &ItemsOutcome) {
+    let (d, a) = (&o_.data, &o_.analysis);
+    let c3 = |x: f64| fixed(x, 3);
+    let _ = writeln!(
+        o,
+        "  {:<30}{:<10}{} interval",
+        "",
+        "value",
+        a.level.percent()
+    );
     let _ = writeln!(
         o,
         "  {:<30}{:<10}{} (Feldt)",
@@ -100,88 +137,92 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
         c3(a.alpha_standardized)
     );
     let _ = writeln!(o, "  {:<30}{}", "Guttman's λ2", c3(a.lambda2));
-    match &a.factor {
-        Ok(f) => {
-            let ci = boot
-                .map(|b| {
-                    let mut notes = Vec::new();
-                    if b.failed > 0 {
-                        notes.push(format!("{} not fitted", b.failed));
-                    }
-                    if b.heywood > 0 {
-                        notes.push(format!("{} with a Heywood case", b.heywood));
-                    }
-                    if d.missing == Missing::Pairwise {
-                        notes.push("from the complete respondents only".into());
-                    }
-                    let extra = if notes.is_empty() {
-                        String::new()
-                    } else {
-                        format!("; {}", notes.join(", "))
-                    };
-                    format!(
-                        "{} (bootstrap, {} replicates{extra})",
-                        range(b.interval.0, b.interval.1, c3),
-                        b.replicates
-                    )
-                })
-                .unwrap_or_else(|| "(add --bootstrap N for an interval)".into());
-            let _ = writeln!(
-                o,
-                "  {:<30}{:<10}{}",
-                "omega (one factor, ML)",
-                c3(f.congeneric.omega()),
-                ci
-            );
-            let _ = writeln!(o);
-            let _ = writeln!(o, "  One-factor model");
-            let fit = &f.fit;
-            match (fit.rmsea, fit.cfi, fit.p) {
-                (Some(r), Some(c), Some(p)) => {
-                    let _ = writeln!(
-                        o,
-                        "    fit                χ²({}) = {}, p {}; RMSEA {}; CFI {}",
-                        fit.df,
-                        fixed(fit.chi2, 2),
-                        p_value(p),
-                        c3(r),
-                        c3(c)
-                    );
-                }
-                _ => {
-                    let _ = writeln!(
-                        o,
-                        "    fit                exact (3 items leave no degrees of freedom to test it)"
-                    );
-                }
-            }
-            let t = &f.tau_test;
-            let _ = writeln!(
-                o,
-                "    tau-equivalence    χ²({}) = {}, p {}  (equal loadings against free loadings)",
-                t.df,
-                fixed(t.chi2, 2),
-                p_value(t.p)
-            );
-            let conv = |s: MinimizeStop, it: usize| {
-                if s.converged() {
-                    format!("converged in {it} iterations")
-                } else {
-                    format!("NOT converged ({s:?}) after {it} iterations")
-                }
-            };
-            let _ = writeln!(
-                o,
-                "    estimation         maximum likelihood; free loadings {}; equal loadings {}",
-                conv(f.congeneric.stop, f.congeneric.iterations),
-                conv(f.tau_equivalent.stop, f.tau_equivalent.iterations)
-            );
-        }
-        Err(why) => {
-            let _ = writeln!(o, "  omega               not available: {why}");
-        }
+    if let Ok(f) = &a.factor {
+        let ci = o_
+            .bootstrap
+            .as_ref()
+            .map(|b| bootstrap_interval(b, d.missing))
+            .unwrap_or_else(|| "(add --bootstrap N for an interval)".into());
+        let _ = writeln!(
+            o,
+            "  {:<30}{:<10}{}",
+            "omega (one factor, ML)",
+            c3(f.congeneric.omega()),
+            ci
+        );
     }
+}
+
+/// Omega's bootstrap interval with its replicates and what did not fit.
+fn bootstrap_interval(b: &OmegaBootstrap, missing: Missing) -> String {
+    let mut notes = Vec::new();
+    if b.failed > 0 {
+        notes.push(format!("{} not fitted", b.failed));
+    }
+    if b.heywood > 0 {
+        notes.push(format!("{} with a Heywood case", b.heywood));
+    }
+    if missing == Missing::Pairwise {
+        notes.push("from the complete respondents only".into());
+    }
+    let extra = if notes.is_empty() {
+        String::new()
+    } else {
+        format!("; {}", notes.join(", "))
+    };
+    format!(
+        "{} (bootstrap, {} replicates{extra})",
+        range(b.interval.0, b.interval.1, |x| fixed(x, 3)),
+        b.replicates
+    )
+}
+
+/// The one-factor model: its fit, the test of tau-equivalence and the estimation.
+fn factor_model(o: &mut String, f: &FactorPart) {
     let _ = writeln!(o);
+    let _ = writeln!(o, "  One-factor model");
+    let fit = &f.fit;
+    let _ = match (fit.rmsea, fit.cfi, fit.p) {
+        (Some(r), Some(c), Some(p)) => writeln!(
+            o,
+            "    fit                χ²({}) = {}, p {}; RMSEA {}; CFI {}",
+            fit.df,
+            fixed(fit.chi2, 2),
+            p_value(p),
+            fixed(r, 3),
+            fixed(c, 3)
+        ),
+        _ => writeln!(
+            o,
+            "    fit                exact (3 items leave no degrees of freedom to test it)"
+        ),
+    };
+    let t = &f.tau_test;
+    let _ = writeln!(
+        o,
+        "    tau-equivalence    χ²({}) = {}, p {}  (equal loadings against free loadings)",
+        t.df,
+        fixed(t.chi2, 2),
+        p_value(t.p)
+    );
+    let conv = |s: MinimizeStop, it: usize| {
+        if s.converged() {
+            format!("converged in {it} iterations")
+        } else {
+            format!("NOT converged ({s:?}) after {it} iterations")
+        }
+    };
+    let _ = writeln!(
+        o,
+        "    estimation         maximum likelihood; free loadings {}; equal loadings {}",
+        conv(f.congeneric.stop, f.congeneric.iterations),
+        conv(f.tau_equivalent.stop, f.tau_equivalent.iterations)
+    );
+}
+
+/// One line per item: mean, SD, item-rest correlation, alpha without it, loadings.
+fn item_rows(o: &mut String, d: &ItemData, a: &ItemAnalysis) {
+    let c3 = |x: f64| fixed(x, 3);
     let _ = writeln!(
         o,
         "  {:<20} {:>7} {:>7} {:>10} {:>10} {:>9} {:>9}",
@@ -219,18 +260,10 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
             sld
         );
     }
-    let _ = writeln!(o);
-    let which = match a.recommendation {
-        Recommendation::Either => "alpha or omega",
-        Recommendation::Omega => "omega",
-        Recommendation::CheckDimensionality => "neither yet: check the dimensionality",
-        Recommendation::AlphaOnly => "alpha (a lower bound)",
-        Recommendation::AlphaWithCaution => "alpha, as a lower bound",
-        Recommendation::ReverseKeyFirst => {
-            "none yet: reverse-key the items that run against the others"
-        }
-        Recommendation::NoCommonVariance => "none: the items do not form a scale here",
-    };
+}
+
+/// The scale score's mean and SD in the sum and the mean metric.
+fn scale_score(o: &mut String, a: &ItemAnalysis) {
     let _ = writeln!(
         o,
         "  scale score   sum: mean {}, SD {};  mean of the items: mean {}, SD {}",
@@ -243,11 +276,21 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
         o,
         "                (the SD to give relyard check as its score SD, with sum or mean as its metric)"
     );
-    let _ = writeln!(o);
-    let _ = writeln!(o, "Which coefficient to report: {which}");
-    o.push_str(&wrap(&format!("{}.", a.reading.render(names)), 86, "  "));
-    read_with_care(&mut o, &o_.warnings, names);
-    o
+}
+
+/// Which coefficient to report, in words.
+fn recommendation_words(r: Recommendation) -> &'static str {
+    match r {
+        Recommendation::Either => "alpha or omega",
+        Recommendation::Omega => "omega",
+        Recommendation::CheckDimensionality => "neither yet: check the dimensionality",
+        Recommendation::AlphaOnly => "alpha (a lower bound)",
+        Recommendation::AlphaWithCaution => "alpha, as a lower bound",
+        Recommendation::ReverseKeyFirst => {
+            "none yet: reverse-key the items that run against the others"
+        }
+        Recommendation::NoCommonVariance => "none: the items do not form a scale here",
+    }
 }
 
 /// Render the compare summary.
