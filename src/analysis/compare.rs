@@ -1,7 +1,7 @@
 //! Tests of equality for independent alphas: the rows of a coding sheet (checked as the
 //! benchmark checks them) and samples given one by one.
 
-use super::settings::{ComparisonSettings, Settings};
+use super::settings::{ComparisonSettings, Settings, SheetSettings};
 use crate::benchmark::{BenchmarkOptions, SkippedRow, prepare_from};
 use crate::compare::{
     AlphaSample, FeldtTest, HakstianWhalenTest, feldt_two_sample, hakstian_whalen_test,
@@ -9,7 +9,7 @@ use crate::compare::{
 use crate::error::{CellProblem, Error, Result};
 use crate::setting::msg;
 use crate::setting::{Setting, given};
-use crate::sheet::SheetSummary;
+use crate::sheet::{CodingSheet, SheetSummary};
 use crate::transform::TransformKind;
 use crate::warning::Warning;
 
@@ -33,82 +33,12 @@ pub struct Comparison {
 }
 
 pub(crate) fn compare(c: &ComparisonSettings, s: &Settings) -> Result<Comparison> {
-    let mut samples = Vec::new();
-    let mut warnings = Vec::new();
-    let mut source = None;
-    let mut skipped = Vec::new();
-    if let Some(sheet) = &s.sheet {
-        let bytes = match &sheet.bytes {
-            Some(b) => b.as_ref().clone(),
-            None => crate::sheet::read_sheet_bytes(&sheet.path)?,
-        };
-        let mut cs = crate::sheet::coding_sheet_from_bytes(&sheet.path, bytes, &sheet.read)?;
-        let mut summary = cs.summary();
-        summary.rows_outside_subset = cs.keep_subset(&sheet.subset)?;
-        summary.subset = sheet.subset.clone();
-        // The tests are for coefficient alpha: other kinds are problems of their rows, as
-        // the benchmark treats rows it cannot use (left out and listed on request).
-        let mut problems = Vec::new();
-        let type_column = cs.column_label(crate::sheet::Role::CoefType);
-        cs.records.retain(|r| {
-            let alpha_kind = matches!(
-                r.coef_type,
-                crate::sheet::CoefType::Alpha
-                    | crate::sheet::CoefType::AlphaStd
-                    | crate::sheet::CoefType::Kr20
-            );
-            if !alpha_kind {
-                problems.push(CellProblem::cell(
-                    r.row,
-                    type_column.clone(),
-                    msg![format!(
-                        "{} is not coefficient alpha, and these tests compare alphas (leave such \
-                         rows out, for example with ",
-                        r.coef_type.name()
-                    ),
-                    given(Setting::Subset, "coef_type=alpha"),
-                    ")"],
-                ));
-            }
-            alpha_kind
-        });
-        cs.problems.extend(problems);
-        cs.problems.sort_by_key(|p| p.row);
-        let options = BenchmarkOptions {
-            transform: Some(TransformKind::HakstianWhalen),
-            allow_mixed_types: false,
-            skip_invalid: sheet.skip_invalid,
-            pool: s.pool_options(),
-        };
-        let prepared = prepare_from(cs, summary, &options)?;
-        warnings.extend(
-            prepared
-                .warnings
-                .iter()
-                .filter(|w| !matches!(w, Warning::TransformFamilyMismatch { .. }))
-                .cloned(),
-        );
-        for r in &prepared.records {
-            let (Some(n), Some(items)) = (r.n, r.items) else {
-                return Err(Error::InvalidSheet {
-                    file: prepared.file().to_string(),
-                    problems: vec![CellProblem::row(
-                        r.row,
-                        "the tests need n and items for every sample",
-                    )],
-                });
-            };
-            samples.push(AlphaSample {
-                label: r.label.clone(),
-                alpha: r.coef,
-                n,
-                items,
-            });
-        }
-        source = Some(prepared.source.clone());
-        skipped = prepared.skipped.clone();
-    }
-    let from_sheet = samples.len();
+    let from = match &s.sheet {
+        Some(sheet) => sheet_samples(sheet, s)?,
+        None => SheetSamples::default(),
+    };
+    let from_sheet = from.samples.len();
+    let mut samples = from.samples;
     samples.extend(c.samples.iter().cloned());
     let hakstian_whalen = hakstian_whalen_test(&samples)?;
     let feldt = if samples.len() == 2 {
@@ -117,12 +47,104 @@ pub(crate) fn compare(c: &ComparisonSettings, s: &Settings) -> Result<Comparison
         None
     };
     Ok(Comparison {
-        source,
+        source: from.source,
         samples,
         from_sheet,
-        skipped,
+        skipped: from.skipped,
         feldt,
         hakstian_whalen,
+        warnings: from.warnings,
+    })
+}
+
+/// What a coding sheet gives the tests.
+#[derive(Default)]
+struct SheetSamples {
+    source: Option<SheetSummary>,
+    samples: Vec<AlphaSample>,
+    skipped: Vec<SkippedRow>,
+    warnings: Vec<Warning>,
+}
+
+/// The sheet's samples, checked as the benchmark checks them.
+fn sheet_samples(sheet: &SheetSettings, s: &Settings) -> Result<SheetSamples> {
+    let bytes = match &sheet.bytes {
+        Some(b) => b.as_ref().clone(),
+        None => crate::sheet::read_sheet_bytes(&sheet.path)?,
+    };
+    let mut cs = crate::sheet::coding_sheet_from_bytes(&sheet.path, bytes, &sheet.read)?;
+    let mut summary = cs.summary();
+    summary.rows_outside_subset = cs.keep_subset(&sheet.subset)?;
+    summary.subset = sheet.subset.clone();
+    keep_alphas(&mut cs);
+    let options = BenchmarkOptions {
+        transform: Some(TransformKind::HakstianWhalen),
+        allow_mixed_types: false,
+        skip_invalid: sheet.skip_invalid,
+        pool: s.pool_options(),
+    };
+    let prepared = prepare_from(cs, summary, &options)?;
+    let warnings = prepared
+        .warnings
+        .iter()
+        .filter(|w| !matches!(w, Warning::TransformFamilyMismatch { .. }))
+        .cloned()
+        .collect();
+    let mut samples = Vec::with_capacity(prepared.records.len());
+    for r in &prepared.records {
+        let (Some(n), Some(items)) = (r.n, r.items) else {
+            return Err(Error::InvalidSheet {
+                file: prepared.file().to_string(),
+                problems: vec![CellProblem::row(
+                    r.row,
+                    "the tests need n and items for every sample",
+                )],
+            });
+        };
+        samples.push(AlphaSample {
+            label: r.label.clone(),
+            alpha: r.coef,
+            n,
+            items,
+        });
+    }
+    Ok(SheetSamples {
+        source: Some(prepared.source.clone()),
+        samples,
+        skipped: prepared.skipped.clone(),
         warnings,
     })
+}
+
+/// The tests are for coefficient alpha: other kinds are problems of their rows, as the
+/// benchmark treats rows it cannot use (left out and listed on request).
+fn keep_alphas(cs: &mut CodingSheet) {
+    let mut problems = Vec::new();
+    let type_column = cs.column_label(crate::sheet::Role::CoefType);
+    cs.records.retain(|r| {
+        let alpha_kind = matches!(
+            r.coef_type,
+            crate::sheet::CoefType::Alpha
+                | crate::sheet::CoefType::AlphaStd
+                | crate::sheet::CoefType::Kr20
+        );
+        if !alpha_kind {
+            problems.push(CellProblem::cell(
+                r.row,
+                type_column.clone(),
+                msg![
+                    format!(
+                        "{} is not coefficient alpha, and these tests compare alphas (leave such \
+                         rows out, for example with ",
+                        r.coef_type.name()
+                    ),
+                    given(Setting::Subset, "coef_type=alpha"),
+                    ")"
+                ],
+            ));
+        }
+        alpha_kind
+    });
+    cs.problems.extend(problems);
+    cs.problems.sort_by_key(|p| p.row);
 }

@@ -11,7 +11,7 @@ use crate::correct::reliability::{BenchmarkAt, benchmark_source};
 use crate::correct::summary::read_summary;
 use crate::correct::{ReliabilitySource, ReliabilitySpec, resolve};
 use crate::error::{Error, Result};
-use crate::items::{Missing, read_items};
+use crate::items::{ItemData, ItemReadOptions, Missing, read_items};
 use crate::pool::FitOptions;
 use crate::setting::msg;
 use crate::setting::{Setting, given};
@@ -205,45 +205,39 @@ fn regression_input(
     let mut names = predictors.clone();
     names.push(outcome.to_string());
     let mut warnings = Vec::new();
-    let input = match data {
+    let mut input = RegressionInput {
+        predictors,
+        outcome: outcome.to_string(),
+        cov: nalgebra::DMatrix::zeros(0, 0),
+        n: 0,
+        rel,
+        rel_y,
+        rows: None,
+        standardized_only: false,
+        data_note: None,
+    };
+    match data {
         RegressionData::Raw { path, read } => {
-            let mut read = read.clone();
-            read.items = Some(names.clone());
-            read.missing = Missing::Listwise;
-            read.keep_rows = true;
-            read.columns_setting = Setting::Predictors;
-            let d = read_items(path, &read)?;
-            if d.missing_cells > 0 {
-                warnings.push(Warning::RowsWithMissingValues {
-                    rows: d.rows_read - d.complete_rows,
-                    cells: d.missing_cells,
-                });
-            }
-            RegressionInput {
-                predictors,
-                outcome: outcome.to_string(),
-                cov: d.moments.cov.clone(),
-                n: d.complete_rows,
-                rel,
-                rel_y,
-                rows: d.rows.clone(),
-                standardized_only: false,
-                data_note: Some(format!(
-                    "{}: {} rows read; {} respondents with every variable used{}",
-                    path.display(),
-                    d.rows_read,
-                    d.complete_rows,
-                    if d.missing_cells > 0 {
-                        format!(
-                            " ({} left out for {} missing cell(s))",
-                            d.rows_read - d.complete_rows,
-                            d.missing_cells
-                        )
-                    } else {
-                        String::new()
-                    }
-                )),
-            }
+            let (d, missing) = raw_regression_data(path, read, names)?;
+            warnings.extend(missing);
+            input.cov = d.moments.cov.clone();
+            input.n = d.complete_rows;
+            input.data_note = Some(format!(
+                "{}: {} rows read; {} respondents with every variable used{}",
+                path.display(),
+                d.rows_read,
+                d.complete_rows,
+                if d.missing_cells > 0 {
+                    format!(
+                        " ({} left out for {} missing cell(s))",
+                        d.rows_read - d.complete_rows,
+                        d.missing_cells
+                    )
+                } else {
+                    String::new()
+                }
+            ));
+            input.rows = d.rows;
         }
         RegressionData::Summary { path, n } => {
             let sm = read_summary(path)?;
@@ -261,19 +255,37 @@ fn regression_input(
                 })?;
                 idx.push(i);
             }
-            RegressionInput {
-                predictors,
-                outcome: outcome.to_string(),
-                cov: sm.cov.select_rows(&idx).select_columns(&idx),
-                n: *n,
-                rel,
-                rel_y,
-                rows: None,
-                standardized_only: sm.standardized_only,
-                data_note: None,
-            }
+            input.cov = sm.cov.select_rows(&idx).select_columns(&idx);
+            input.n = *n;
+            input.standardized_only = sm.standardized_only;
         }
-    };
+    }
+    check_regression_n(&input)?;
+    Ok((input, warnings))
+}
+
+/// Read the regression's variables from raw data (listwise, rows kept for the bootstrap),
+/// with a warning when rows were left out for missing values.
+fn raw_regression_data(
+    path: &std::path::Path,
+    read: &ItemReadOptions,
+    names: Vec<String>,
+) -> Result<(ItemData, Option<Warning>)> {
+    let mut read = read.clone();
+    read.items = Some(names);
+    read.missing = Missing::Listwise;
+    read.keep_rows = true;
+    read.columns_setting = Setting::Predictors;
+    let d = read_items(path, &read)?;
+    let warning = (d.missing_cells > 0).then(|| Warning::RowsWithMissingValues {
+        rows: d.rows_read - d.complete_rows,
+        cells: d.missing_cells,
+    });
+    Ok((d, warning))
+}
+
+/// A regression needs at least three respondents more than it has variables.
+fn check_regression_n(input: &RegressionInput) -> Result<()> {
     let variables = input.predictors.len() + 1;
     if input.n < variables as u64 + 3 {
         return Err(Error::setting(
@@ -289,7 +301,7 @@ fn regression_input(
             ],
         ));
     }
-    Ok((input, warnings))
+    Ok(())
 }
 
 fn regression_warnings(input: &RegressionInput, c: &RegressionCorrection) -> Vec<Warning> {

@@ -573,6 +573,23 @@ fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
             "--rel-x and --rel-y belong to a correlation; use --rel NAME=SPEC for a regression",
         ));
     }
+    let (predictors, outcome_reliability) = regression_reliabilities(a, &outcome)?;
+    Ok(CorrectionSettings::Regression {
+        data: regression_data(a)?,
+        outcome,
+        predictors,
+        outcome_reliability,
+        draws: a.draws,
+        grid: a.grid,
+    })
+}
+
+/// Each predictor's reliability and the outcome's, from `--rel NAME=SPEC`.
+#[allow(clippy::type_complexity)]
+fn regression_reliabilities(
+    a: &CorrectArgs,
+    outcome: &str,
+) -> Result<(Vec<(String, ReliabilitySpec)>, Option<ReliabilitySpec>), Failure> {
     let mut rels: BTreeMap<String, String> = BTreeMap::new();
     for spec in &a.rels {
         let (name, value) = spec
@@ -595,7 +612,7 @@ fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
         })?;
         predictors.push((p.clone(), reliability(&format!("--rel {p}"), &spec)?));
     }
-    let outcome_reliability = match rels.remove(&outcome) {
+    let outcome_reliability = match rels.remove(outcome) {
         Some(spec) => Some(reliability(&format!("--rel {outcome}"), &spec)?),
         None => None,
     };
@@ -604,7 +621,12 @@ fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
             "--rel {extra}=…: {extra} is neither a predictor nor the outcome"
         )));
     }
-    let data = match (&a.data, &a.summary) {
+    Ok((predictors, outcome_reliability))
+}
+
+/// The regression's data: raw data (`--data`) or a summary matrix with its n.
+fn regression_data(a: &CorrectArgs) -> Result<RegressionData, Failure> {
+    Ok(match (&a.data, &a.summary) {
         (Some(path), _) => {
             if a.n.is_some() {
                 return Err(usage("--n comes from the data with --data; leave it out"));
@@ -631,19 +653,47 @@ fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
             }
         }
         (None, None) => unreachable!("checked by the caller"),
-    };
-    Ok(CorrectionSettings::Regression {
-        data,
-        outcome,
-        predictors,
-        outcome_reliability,
-        draws: a.draws,
-        grid: a.grid,
     })
 }
 
 /// `relyard report`: every part the options ask for, in one run.
 pub fn report(a: ReportArgs) -> Result<Settings, Failure> {
+    check_report_parts(&a)?;
+    let mut s = base(a.sheet, &a.model)?;
+    s.benchmark = true;
+    s.figures = true;
+    s.seed = a.seed;
+    s.measure = measure_name(a.measure);
+    s.moderators = moderator_settings(a.moderators)?;
+    if s.moderators.spread_metric.is_some() && !a.score_spread {
+        return Err(usage("--spread-metric applies to --score-spread"));
+    }
+    if !s.moderators.specs.is_empty() || a.score_spread {
+        s.explain = Some(ExplainSettings {
+            score_spread: a.score_spread,
+            ..ExplainSettings::default()
+        });
+    }
+    let at = at_values(&a.study.at, &s.moderators)?;
+    if let (Some(coef), Some(n)) = (a.coef, a.n) {
+        s.new_study = Some(new_study(coef, n, &a.study, &s.moderators)?);
+    }
+    if let (Some(r), Some(n), Some(rel_y)) = (a.r, a.n, &a.rel_y) {
+        s.correction = Some(CorrectionSettings::Correlation {
+            r,
+            n,
+            rel_x: report_measure_reliability(a.coef, n, &a.study, at)?,
+            rel_y: reliability("--rel-y", rel_y)?,
+            draws: a.draws,
+            grid: 5,
+        });
+    }
+    Ok(s)
+}
+
+/// The report's parts need each other: a new study needs --coef and --n, a correction
+/// --r, --n and --rel-y; options that describe a part need that part.
+fn check_report_parts(a: &ReportArgs) -> Result<(), Failure> {
     if (a.r.is_some() || a.coef.is_some()) && a.n.is_none() {
         return Err(usage(
             "--coef and --r need --n, the new study's sample size",
@@ -683,58 +733,38 @@ pub fn report(a: ReportArgs) -> Result<Settings, Failure> {
     if a.r.is_some() {
         check_draws(a.draws)?;
     }
-    let mut s = base(a.sheet, &a.model)?;
-    s.benchmark = true;
-    s.figures = true;
-    s.seed = a.seed;
-    s.measure = measure_name(a.measure);
-    s.moderators = moderator_settings(a.moderators)?;
-    if s.moderators.spread_metric.is_some() && !a.score_spread {
-        return Err(usage("--spread-metric applies to --score-spread"));
-    }
-    if !s.moderators.specs.is_empty() || a.score_spread {
-        s.explain = Some(ExplainSettings {
-            score_spread: a.score_spread,
-            ..ExplainSettings::default()
-        });
-    }
-    let at = at_values(&a.study.at, &s.moderators)?;
-    if let (Some(coef), Some(n)) = (a.coef, a.n) {
-        s.new_study = Some(new_study(coef, n, &a.study, &s.moderators)?);
-    }
-    if let (Some(r), Some(n), Some(rel_y)) = (a.r, a.n, &a.rel_y) {
-        // The measure's reliability: the new study's own coefficient when given, else the
-        // benchmark of this report (same sheet, model and moderators, at --at).
-        let kind = Some(CoefType::from(a.study.coef_type));
-        let rel_x = match (a.coef, a.study.items) {
-            (Some(value), Some(items)) => ReliabilitySpec::Estimate {
-                value,
-                n,
-                items,
-                kind,
-            },
-            (Some(value), None) => ReliabilitySpec::Point { value, kind },
-            _ => ReliabilitySpec::ThisBenchmark { at },
-        };
-        if let ReliabilitySpec::Point { value, .. } | ReliabilitySpec::Estimate { value, .. } =
-            rel_x
-            && !(value > 0.0 && value <= 1.0)
-        {
-            return Err(usage(format!(
-                "--coef {value} cannot serve as the measure's reliability in the correction \
-                 (it must lie above 0 and at most 1)"
-            )));
-        }
-        s.correction = Some(CorrectionSettings::Correlation {
-            r,
+    Ok(())
+}
+
+/// The measure's reliability in the report's correction: the new study's own coefficient
+/// when given, else the benchmark of this report (same sheet, model and moderators, at
+/// --at).
+fn report_measure_reliability(
+    coef: Option<f64>,
+    n: u64,
+    study: &StudyArgs,
+    at: BTreeMap<String, String>,
+) -> Result<ReliabilitySpec, Failure> {
+    let kind = Some(CoefType::from(study.coef_type));
+    let rel_x = match (coef, study.items) {
+        (Some(value), Some(items)) => ReliabilitySpec::Estimate {
+            value,
             n,
-            rel_x,
-            rel_y: reliability("--rel-y", rel_y)?,
-            draws: a.draws,
-            grid: 5,
-        });
+            items,
+            kind,
+        },
+        (Some(value), None) => ReliabilitySpec::Point { value, kind },
+        _ => ReliabilitySpec::ThisBenchmark { at },
+    };
+    if let ReliabilitySpec::Point { value, .. } | ReliabilitySpec::Estimate { value, .. } = rel_x
+        && !(value > 0.0 && value <= 1.0)
+    {
+        return Err(usage(format!(
+            "--coef {value} cannot serve as the measure's reliability in the correction (it \
+             must lie above 0 and at most 1)"
+        )));
     }
-    Ok(s)
+    Ok(rel_x)
 }
 
 /// `relyard template`.

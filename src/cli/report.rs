@@ -78,23 +78,10 @@ fn report_figures(a: &Analysis) -> Vec<Figure> {
 }
 
 pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
-    let options: Vec<String> = std::env::args_os()
-        .skip(1)
-        .map(|s| s.to_string_lossy().into_owned())
-        .collect();
-    let command = std::iter::once("relyard".to_string())
-        .chain(options.iter().map(|o| shell_quote(o)))
-        .collect::<Vec<_>>()
-        .join(" ");
-    let out = a.out.clone();
-    let force = a.force;
+    let (options, command) = command_line();
+    let (out, force) = (a.out.clone(), a.force);
     let names = ["report.html", "report.md", "results.json"];
-    if !force && let Some(existing) = names.iter().map(|n| out.join(n)).find(|p| p.exists()) {
-        return Err(Failure::Usage(UsageError(format!(
-            "{} already exists; choose another --out folder or pass --force to replace the report",
-            existing.display()
-        ))));
-    }
+    refuse_existing(names.iter().map(|n| out.join(n)), force)?;
     let settings = super::config::report(a)?;
     let analysis = run(&settings, &Bar::default())?;
     warn_all(&analysis.warnings());
@@ -123,38 +110,79 @@ pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
         names: &OptionNames,
     };
     let fig_dir = out.join("figures");
-    std::fs::create_dir_all(&fig_dir)
+    write_figures(&fig_dir, &page.figures, force)?;
+    let results = relyard::output::layout::to_json_string(&page.results());
+    write_new_file(&out.join("results.json"), &results, force)?;
+    write_new_file(&out.join("report.md"), &page.markdown(), force)?;
+    write_new_file(&out.join("report.html"), &page.html(), force)?;
+    print(&format!(
+        "wrote {} (open it in a browser), report.md, results.json and {} figures in {}\n",
+        out.join("report.html").display(),
+        page.figures.len(),
+        fig_dir.display()
+    ))
+}
+
+/// The arguments as given, and the command that re-runs them, quoted for a shell.
+fn command_line() -> (Vec<String>, String) {
+    let options: Vec<String> = std::env::args_os()
+        .skip(1)
+        .map(|s| s.to_string_lossy().into_owned())
+        .collect();
+    let command = std::iter::once("relyard".to_string())
+        .chain(options.iter().map(|o| shell_quote(o)))
+        .collect::<Vec<_>>()
+        .join(" ");
+    (options, command)
+}
+
+/// Refuse to go on when one of these files exists and `--force` was not given.
+fn refuse_existing(
+    files: impl IntoIterator<Item = std::path::PathBuf>,
+    force: bool,
+) -> Result<(), Failure> {
+    if force {
+        return Ok(());
+    }
+    match files.into_iter().find(|p| p.exists()) {
+        Some(existing) => Err(Failure::Usage(UsageError(format!(
+            "{} already exists; choose another --out folder or pass --force to replace the report",
+            existing.display()
+        )))),
+        None => Ok(()),
+    }
+}
+
+/// Write every figure as SVG and PNG into `fig_dir`; with `--force`, figures of an earlier
+/// report that this one does not have are removed, since they would be stale.
+fn write_figures(
+    fig_dir: &std::path::Path,
+    figures: &[RenderedFigure],
+    force: bool,
+) -> Result<(), Failure> {
+    std::fs::create_dir_all(fig_dir)
         .map_err(|e| Failure::Lib(Error::io(format!("creating {}", fig_dir.display()), e)))?;
-    let files: Vec<std::path::PathBuf> = page
-        .figures
+    let files: Vec<std::path::PathBuf> = figures
         .iter()
         .flat_map(|f| ["svg", "png"].map(|x| fig_dir.join(format!("{}.{x}", f.figure.name))))
         .collect();
-    if !force && let Some(p) = files.iter().find(|p| p.exists()) {
-        return Err(Failure::Usage(UsageError(format!(
-            "{} already exists; choose another --out folder or pass --force to replace the report",
-            p.display()
-        ))));
-    }
-    if force {
-        // Figures of an earlier report that this one does not have would be stale.
-        if let Ok(entries) = std::fs::read_dir(&fig_dir) {
-            for e in entries.flatten() {
-                let p = e.path();
-                let ours = p
-                    .extension()
-                    .and_then(|x| x.to_str())
-                    .is_some_and(|x| x == "svg" || x == "png")
-                    && p.file_stem()
-                        .and_then(|s| s.to_str())
-                        .is_some_and(is_report_figure);
-                if ours && !files.contains(&p) {
-                    let _ = std::fs::remove_file(&p);
-                }
+    refuse_existing(files.iter().cloned(), force)?;
+    if force && let Ok(entries) = std::fs::read_dir(fig_dir) {
+        for e in entries.flatten() {
+            let p = e.path();
+            let ours = p
+                .extension()
+                .and_then(|x| x.to_str())
+                .is_some_and(|x| x == "svg" || x == "png")
+                && p.file_stem()
+                    .and_then(|s| s.to_str())
+                    .is_some_and(is_report_figure);
+            if ours && !files.contains(&p) {
+                let _ = std::fs::remove_file(&p);
             }
         }
     }
-    for f in &page.figures {
+    for f in figures {
         write_new_file(
             &fig_dir.join(format!("{}.svg", f.figure.name)),
             &f.svg,
@@ -166,16 +194,7 @@ pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
             force,
         )?;
     }
-    let results = relyard::output::layout::to_json_string(&page.results());
-    write_new_file(&out.join("results.json"), &results, force)?;
-    write_new_file(&out.join("report.md"), &page.markdown(), force)?;
-    write_new_file(&out.join("report.html"), &page.html(), force)?;
-    print(&format!(
-        "wrote {} (open it in a browser), report.md, results.json and {} figures in {}\n",
-        out.join("report.html").display(),
-        page.figures.len(),
-        fig_dir.display()
-    ))
+    Ok(())
 }
 
 #[cfg(test)]

@@ -4,6 +4,7 @@
 use crate::benchmark::{Benchmark, Prepared};
 use crate::correct::correlation::CorrelationCorrection;
 use crate::dist::normal_quantile;
+use crate::format::fixed;
 use crate::metareg::Explanation;
 use crate::metareg::spread::{ScoreSpread, bonett_scale};
 use crate::placement::Placement;
@@ -84,26 +85,29 @@ pub fn forest(b: &Benchmark) -> Figure {
         .map(|i| ordered(back(tr, i.lower), back(tr, i.upper)));
     let omitted = b.studies.len() - rows.len();
     let height = 140 + 22 * (rows.len() as u32 + 3);
-    let level = 100.0 * p.options.level.value();
+    let level = p.options.level.percent();
+    let f3 = |x: f64| fixed(x, 3);
     Figure {
         name: "forest".into(),
         title: format!("Coded studies and the benchmark (k = {})", b.studies.len()),
         description: format!(
-            "Each study's coefficient with its {level:.0}% interval ({} drawn{}); the pooled value \
-             {:.3} with its {level:.0}% confidence interval {:.3} to {:.3}{}.",
+            "Each study's coefficient with its {level} interval ({} drawn{}); the pooled value \
+             {} with its {level} confidence interval {} to {}{}.",
             rows.len(),
             if omitted > 0 {
                 format!(", the {omitted} with the least weight left out of the drawing")
             } else {
                 String::new()
             },
-            pooled.estimate,
-            pooled.lower,
-            pooled.upper,
+            f3(pooled.estimate),
+            f3(pooled.lower),
+            f3(pooled.upper),
             match prediction {
                 Some((a, b)) => format!(
-                    "; the expected range for a new setting ({level:.0}% prediction interval) \
-                     {a:.3} to {b:.3}"
+                    "; the expected range for a new setting ({level} prediction interval) {} \
+                     to {}",
+                    f3(a),
+                    f3(b)
                 ),
                 None => String::new(),
             }
@@ -146,11 +150,11 @@ pub fn funnel(b: &Benchmark) -> Figure {
         title: "Coefficients against their standard errors".into(),
         description: format!(
             "Each study's value on the {} scale against its standard error{drawn} (most \
-             precise at the top), with the pooled value {:.3} and lines at ±1.96 standard \
+             precise at the top), with the pooled value {} and lines at ±1.96 standard \
              errors around it. An asymmetric cloud, with small studies on one side only, \
              suggests small-study effects or selective reporting.",
             b.transform.name(),
-            b.pool.estimate
+            fixed(b.pool.estimate, 3)
         ),
         size: (760, 520),
         kind: Kind::Funnel {
@@ -225,16 +229,16 @@ pub fn moderator(p: &Prepared, ex: &Explanation) -> Option<Figure> {
         title: format!("Coefficients against {name}"),
         description: format!(
             "Each study's coefficient against {name} (marker area by weight), with the fitted \
-             line of the model with {name} alone, its {lvl} confidence band{} ; slope {:.4} on \
-             the {} scale (p = {:.3}).",
+             line of the model with {name} alone, its {lvl} confidence band{}; slope {} on \
+             the {} scale (p {}).",
             if fit.iter().any(|f| f.pi.is_some()) {
                 format!(" and the {} prediction band", level.percent())
             } else {
                 String::new()
             },
-            slope.estimate,
+            fixed(slope.estimate, 4),
             p.transform.name(),
-            slope.p,
+            crate::format::p_value(slope.p),
             lvl = level.percent()
         )
         .replace(" ;", ";"),
@@ -303,43 +307,8 @@ fn spread_ticks(sds: &[f64]) -> (Vec<f64>, Vec<f64>) {
 /// means, and each study's coefficient adjusted to those means by the same model, so that
 /// points and line come from one model.
 pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
-    let by_row: std::collections::HashMap<usize, &crate::sheet::StudyRecord> =
-        p.records.iter().map(|r| (r.row, r)).collect();
-    let weights = &s.fit.weights;
-    let sum_w: f64 = weights.iter().sum();
-    // The other columns (ln items, other moderators) at their weighted means.
-    let means: Vec<f64> = (0..s.fit.p)
-        .map(|j| {
-            if j < 2 {
-                return 0.0;
-            }
-            s.x.column(j)
-                .iter()
-                .zip(weights)
-                .map(|(v, w)| v * w)
-                .sum::<f64>()
-                / sum_w
-        })
-        .collect();
-    let points: Vec<BubblePoint> = s
-        .rows
-        .iter()
-        .enumerate()
-        .zip(&s.sds)
-        .zip(weights)
-        .filter_map(|(((i, row), sd), &w)| {
-            let r = by_row.get(row)?;
-            let (y, _) = bonett_scale(r).ok()?;
-            let adjust: f64 = (2..s.fit.p)
-                .map(|j| s.fit.beta[j] * (s.x[(i, j)] - means[j]))
-                .sum();
-            Some(BubblePoint {
-                x: sd.ln(),
-                y: -(y - adjust),
-                weight: w,
-            })
-        })
-        .collect();
+    let means = other_term_means(s);
+    let points = adjusted_points(p, s, &means);
     let (lo, hi) = points
         .iter()
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), q| {
@@ -351,7 +320,6 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
         x0[1] = l;
         x0
     };
-    let level = s.fit.options.level;
     let fit = bands(&s.fit, grid(lo, hi, 60), row, |t| -t);
     // Slope −2 (on ln(1 − coefficient)) through the fitted value at the weighted mean
     // ln(SD), drawn upside down like everything else.
@@ -363,28 +331,10 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
         (hi, -(at_mean - 2.0 * (hi - mean_l))),
     ];
     let (sd_ticks, coefficient_ticks) = spread_ticks(&s.sds);
-    let others = if s.names.len() > 2 {
-        format!(
-            "; studies adjusted to the means of {} by the same model",
-            s.names[2..].join(", ")
-        )
-    } else {
-        String::new()
-    };
     Figure {
         name: "score-spread".into(),
         title: "Coefficients and the spread of scores".into(),
-        description: format!(
-            "Each study's coefficient against its score SD ({} metric, log scale), marker area \
-             by weight, with the score-spread model's fitted line (slope {:.2} of \
-             ln(1 − coefficient) on ln(SD), {lvl} CI {:.2} to {:.2}) and its bands{others}; the \
-             orange line has slope −2, what the same error variance in every sample implies.",
-            s.metric.name(),
-            s.slope.estimate,
-            s.slope.ci.lower,
-            s.slope.ci.upper,
-            lvl = level.percent()
-        ),
+        description: spread_description(s),
         size: (760, 520),
         kind: Kind::Bubble {
             points,
@@ -401,6 +351,74 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
             y_label: "reliability coefficient".into(),
         },
     }
+}
+
+/// The weighted means of the score-spread model's other columns (ln items, other
+/// moderators); 0 for the intercept and ln(SD), which the figure sets itself.
+fn other_term_means(s: &ScoreSpread) -> Vec<f64> {
+    let weights = &s.fit.weights;
+    let sum_w: f64 = weights.iter().sum();
+    (0..s.fit.p)
+        .map(|j| {
+            if j < 2 {
+                return 0.0;
+            }
+            s.x.column(j)
+                .iter()
+                .zip(weights)
+                .map(|(v, w)| v * w)
+                .sum::<f64>()
+                / sum_w
+        })
+        .collect()
+}
+
+/// Each study at its ln(SD), its value adjusted to the other terms' means by the same
+/// model, drawn upside down (−ln(1 − coefficient) rises with the coefficient).
+fn adjusted_points(p: &Prepared, s: &ScoreSpread, means: &[f64]) -> Vec<BubblePoint> {
+    let by_row: std::collections::HashMap<usize, &crate::sheet::StudyRecord> =
+        p.records.iter().map(|r| (r.row, r)).collect();
+    s.rows
+        .iter()
+        .enumerate()
+        .zip(&s.sds)
+        .zip(&s.fit.weights)
+        .filter_map(|(((i, row), sd), &w)| {
+            let r = by_row.get(row)?;
+            let (y, _) = bonett_scale(r).ok()?;
+            let adjust: f64 = (2..s.fit.p)
+                .map(|j| s.fit.beta[j] * (s.x[(i, j)] - means[j]))
+                .sum();
+            Some(BubblePoint {
+                x: sd.ln(),
+                y: -(y - adjust),
+                weight: w,
+            })
+        })
+        .collect()
+}
+
+/// The score-spread figure's description: what is drawn, from which model.
+fn spread_description(s: &ScoreSpread) -> String {
+    let others = if s.names.len() > 2 {
+        format!(
+            "; studies adjusted to the means of {} by the same model",
+            s.names[2..].join(", ")
+        )
+    } else {
+        String::new()
+    };
+    format!(
+        "Each study's coefficient against its score SD ({} metric, log scale), marker area by \
+         weight, with the score-spread model's fitted line (slope {} of ln(1 − coefficient) on \
+         ln(SD), {} CI {} to {}) and its bands{others}; the orange line has slope −2, what the \
+         same error variance in every sample implies.",
+        s.metric.name(),
+        fixed(s.slope.estimate, 2),
+        s.fit.options.level.percent(),
+        fixed(s.slope.ci.lower, 2),
+        fixed(s.slope.ci.upper, 2),
+    )
 }
 
 /// Where the new study falls: the distribution of an observed coefficient in a new
@@ -444,13 +462,13 @@ pub fn placement(pl: &Placement) -> Figure {
         description: format!(
             "The distribution of the coefficient a study like the new one can expect to \
              observe (benchmark uncertainty, between-setting spread and its own sampling \
-             error), the expected range {:.3} to {:.3} shaded ({:.0}%), the expected value \
-             {:.3}, and the new study's {:.3} (percentile {:.0}).",
-            a,
-            b,
-            100.0 * level.value(),
-            pl.expected,
-            pl.study.coef,
+             error), the expected range {} to {} shaded ({}), the expected value {}, and the \
+             new study's {} (percentile {:.0}).",
+            fixed(a, 3),
+            fixed(b, 3),
+            level.percent(),
+            fixed(pl.expected, 3),
+            fixed(pl.study.coef, 3),
             pl.percentile
         ),
         size: (760, 460),
@@ -489,11 +507,12 @@ pub fn sensitivity(c: &CorrelationCorrection, rel_x: f64, rel_y: f64) -> Figure 
         name: "correction".into(),
         title: "The corrected correlation and the reliabilities".into(),
         description: format!(
-            "The observed correlation {:.3} corrected for unreliability, over a range of \
+            "The observed correlation {} corrected for unreliability, over a range of \
              reliabilities of x (horizontal) and of y (one line each); gaps mark impossible \
-             corrections (beyond ±1). The point marks the reliabilities used ({rel_x:.2} and \
-             {rel_y:.2}).",
-            c.observed
+             corrections (beyond ±1). The point marks the reliabilities used ({} and {}).",
+            fixed(c.observed, 3),
+            fixed(rel_x, 2),
+            fixed(rel_y, 2)
         ),
         size: (760, 500),
         kind: Kind::Sensitivity {

@@ -224,14 +224,46 @@ fn model_words(fit: &ModelFit) -> String {
 
 fn moderators(o: &mut String, p: &Prepared, e: &Explained) {
     let ex = &e.main;
-    let fit = &ex.fit;
     heading(
         o,
         &format!(
             "What the moderators explain ({} studies in the model)",
-            fit.k
+            ex.fit.k
         ),
     );
+    para(o, &explained_lead(e));
+    let _ = writeln!(o);
+    for m in &ex.design.moderators {
+        moderator_line(o, m, ex.design.centring);
+    }
+    let _ = writeln!(o);
+    super::para(o, &format!("({})", sign_note(p.transform)));
+    let names: Vec<String> = (0..ex.design.names.len())
+        .map(|j| term_name(ex, j))
+        .collect();
+    terms(
+        o,
+        &names,
+        &ex.fit,
+        e.permutation.as_ref().map(|r| r.coefficient_p.as_slice()),
+    );
+    if let Some(r) = &e.permutation {
+        let failed = if r.failed > 0 {
+            format!("; {} could not be fitted and were left out", r.failed)
+        } else {
+            String::new()
+        };
+        let _ = writeln!(
+            o,
+            "  shuffled p: {} permutations of the moderators across studies, seed {}{failed}",
+            r.permutations, r.seed
+        );
+    }
+}
+
+/// How much the moderators explain (R²) and the test of all of them together.
+fn explained_lead(e: &Explained) -> String {
+    let ex = &e.main;
     let r2 = match ex.r2 {
         Some(r2) => format!(
             "Together the moderators explain {}% of the variance between settings (R²; τ² \
@@ -261,58 +293,39 @@ fn moderators(o: &mut String, p: &Prepared, e: &Explained) {
             )
         })
         .unwrap_or_default();
-    para(o, &format!("{r2}{test}"));
-    let _ = writeln!(o);
-    for m in &ex.design.moderators {
-        match m {
-            Moderator::Numeric { name, centre, .. } => {
-                let at = match ex.design.centring {
-                    Centring::Means => format!(", centred at its mean {}", significant(*centre, 4)),
-                    Centring::None => String::new(),
-                };
-                let _ = writeln!(o, "  {name}: numeric{at}");
-            }
-            Moderator::Categorical {
-                name,
-                reference,
-                counts,
-                ..
-            } => {
-                let levels: Vec<String> =
-                    counts.iter().map(|(l, k)| format!("{l} ({k})")).collect();
-                o.push_str(&wrap(
+    format!("{r2}{test}")
+}
+
+/// One moderator as the model used it: numeric (and its centre) or categorical (its
+/// reference and levels).
+fn moderator_line(o: &mut String, m: &Moderator, centring: Centring) {
+    match m {
+        Moderator::Numeric { name, centre, .. } => {
+            let at = match centring {
+                Centring::Means => format!(", centred at its mean {}", significant(*centre, 4)),
+                Centring::None => String::new(),
+            };
+            let _ = writeln!(o, "  {name}: numeric{at}");
+        }
+        Moderator::Categorical {
+            name,
+            reference,
+            counts,
+            ..
+        } => {
+            let levels: Vec<String> = counts.iter().map(|(l, k)| format!("{l} ({k})")).collect();
+            o.push_str(
+                &wrap(
                     &format!(
                         "{name}: categorical, compared with \"{reference}\"; levels (studies): {}",
                         levels.join(", ")
                     ),
                     super::WIDTH - 4,
                     "    ",
-                ).replacen("    ", "  ", 1));
-            }
+                )
+                .replacen("    ", "  ", 1),
+            );
         }
-    }
-    let _ = writeln!(o);
-    super::para(o, &format!("({})", sign_note(p.transform)));
-    let names: Vec<String> = (0..ex.design.names.len())
-        .map(|j| term_name(ex, j))
-        .collect();
-    terms(
-        o,
-        &names,
-        fit,
-        e.permutation.as_ref().map(|r| r.coefficient_p.as_slice()),
-    );
-    if let Some(r) = &e.permutation {
-        let failed = if r.failed > 0 {
-            format!("; {} could not be fitted and were left out", r.failed)
-        } else {
-            String::new()
-        };
-        let _ = writeln!(
-            o,
-            "  shuffled p: {} permutations of the moderators across studies, seed {}{failed}",
-            r.permutations, r.seed
-        );
     }
 }
 
@@ -327,6 +340,50 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
         ),
     );
     let _ = writeln!(o);
+    spread_tests(o, s, level);
+    line(
+        o,
+        "typical SD",
+        &format!(
+            "{} (median, {} metric)",
+            significant(s.typical_sd, 3),
+            s.metric
+        ),
+    );
+    let mut model = format!(
+        "ln(1 − coefficient) on ln(SD), always on the Bonett scale; {} studies",
+        s.rows.len()
+    );
+    if !s.other_terms().is_empty() {
+        model.push_str(&format!(
+            "; also in the model: {}",
+            s.other_terms().join(", ")
+        ));
+    }
+    line(o, "model", &model);
+    if s.log_items_column {
+        para(
+            o,
+            "ln(items) is in the model: the forms differ in length, and a mean score's error \
+             variance shrinks with the number of items.",
+        );
+    }
+    if let Some(rel) = s.sd_reliability {
+        para(
+            o,
+            &format!(
+                "The reported SDs carry sampling error (reliability of ln(SD) across studies \
+                 {}), which flattens the slope by about {}%.",
+                fixed(rel, 3),
+                fixed(100.0 * (1.0 - rel), 1)
+            ),
+        );
+    }
+    excluded_rows(o, "Rows left out of the score-spread model", &s.excluded);
+}
+
+/// The slope of ln(SD), its tests against 0 and −2, and the share of τ² it explains.
+fn spread_tests(o: &mut String, s: &ScoreSpread, level: &str) {
     line(
         o,
         "slope of ln(SD)",
@@ -367,45 +424,6 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
             "not defined (τ² without ln(SD) is 0)",
         ),
     }
-    line(
-        o,
-        "typical SD",
-        &format!(
-            "{} (median, {} metric)",
-            significant(s.typical_sd, 3),
-            s.metric
-        ),
-    );
-    let mut model = format!(
-        "ln(1 − coefficient) on ln(SD), always on the Bonett scale; {} studies",
-        s.rows.len()
-    );
-    if !s.other_terms().is_empty() {
-        model.push_str(&format!(
-            "; also in the model: {}",
-            s.other_terms().join(", ")
-        ));
-    }
-    line(o, "model", &model);
-    if s.log_items_column {
-        para(
-            o,
-            "ln(items) is in the model: the forms differ in length, and a mean score's error \
-             variance shrinks with the number of items.",
-        );
-    }
-    if let Some(rel) = s.sd_reliability {
-        para(
-            o,
-            &format!(
-                "The reported SDs carry sampling error (reliability of ln(SD) across studies \
-                 {}), which flattens the slope by about {}%.",
-                fixed(rel, 3),
-                fixed(100.0 * (1.0 - rel), 1)
-            ),
-        );
-    }
-    excluded_rows(o, "Rows left out of the score-spread model", &s.excluded);
 }
 
 fn subgroup_section(o: &mut String, g: &Subgroups, level: &str, names: &dyn SettingNames) {

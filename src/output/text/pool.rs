@@ -4,7 +4,7 @@ use super::{heading, line, paper, para, read_with_care, sheet_line, skipped_rows
 use crate::benchmark::Benchmark;
 use crate::format::{fixed, p_value, range, significant, thousands};
 use crate::output::prose::Paragraph;
-use crate::pool::{CiMethod, Model, Prediction, Termination};
+use crate::pool::{CiMethod, Model, PoolResult, Prediction, Termination};
 use crate::setting::SettingNames;
 use crate::transform::TransformKind;
 use std::fmt::Write;
@@ -196,7 +196,6 @@ fn differences(o: &mut String, b: &Benchmark) {
 /// How the numbers were computed.
 fn computation(o: &mut String, b: &Benchmark) {
     let p = &b.pool;
-    let opts = p.options;
     heading(o, "How it was computed");
     line(
         o,
@@ -237,7 +236,30 @@ fn computation(o: &mut String, b: &Benchmark) {
         )
     };
     line(o, "analysis scale", &scale);
-    let model = match opts.model {
+    line(o, "model", &model_words(p));
+    line(o, "intervals", &interval_words(p));
+    if b.transform != TransformKind::None {
+        let pi = p
+            .prediction
+            .interval()
+            .map(|i| format!("; expected range {}", range(i.lower, i.upper, t4)))
+            .unwrap_or_default();
+        line(
+            o,
+            "on the analysis scale",
+            &format!(
+                "pooled {} (SE {}); CI {}{pi}",
+                t4(p.estimate),
+                t4(p.se),
+                range(p.ci.lower, p.ci.upper, t4)
+            ),
+        );
+    }
+}
+
+/// The model, its τ² estimator and whether the fit converged.
+fn model_words(p: &PoolResult) -> String {
+    match p.options.model {
         Model::Common => "common effect (τ² = 0 assumed)".to_string(),
         Model::Random(e) => {
             let how = match p.tau2.termination {
@@ -257,9 +279,14 @@ fn computation(o: &mut String, b: &Benchmark) {
                 e.abbreviation()
             )
         }
-    };
-    line(o, "model", &model);
-    let interval = match opts.ci {
+    }
+}
+
+/// The interval method with its degrees of freedom and scale factor, and the level.
+fn interval_words(p: &PoolResult) -> String {
+    let opts = p.options;
+    let df = p.test.df.unwrap_or(p.k.saturating_sub(1) as f64);
+    match opts.ci {
         CiMethod::KnappHartung | CiMethod::KnappHartungFloor => format!(
             "Knapp–Hartung{} (t with {} df, SE scaled by {}); level {}",
             if opts.ci == CiMethod::KnappHartungFloor {
@@ -267,29 +294,11 @@ fn computation(o: &mut String, b: &Benchmark) {
             } else {
                 ""
             },
-            p.k - 1,
+            df,
             fixed(p.kh_scale.unwrap_or(1.0).sqrt(), 3),
             opts.level.percent()
         ),
         CiMethod::Wald => format!("Wald (normal quantiles); level {}", opts.level.percent()),
-    };
-    line(o, "intervals", &interval);
-    if b.transform != TransformKind::None {
-        let pi = p
-            .prediction
-            .interval()
-            .map(|i| format!("; expected range {}", range(i.lower, i.upper, t4)))
-            .unwrap_or_default();
-        line(
-            o,
-            "on the analysis scale",
-            &format!(
-                "pooled {} (SE {}); CI {}{pi}",
-                t4(p.estimate),
-                t4(p.se),
-                range(p.ci.lower, p.ci.upper, t4)
-            ),
-        );
     }
 }
 
