@@ -153,7 +153,7 @@ pub fn funnel(b: &Benchmark) -> Figure {
              precise at the top), with the pooled value {} and lines at ±1.96 standard \
              errors around it. An asymmetric cloud, with small studies on one side only, \
              suggests small-study effects or selective reporting.",
-            b.transform.name(),
+            b.transform.label(),
             fixed(b.pool.estimate, 3)
         ),
         size: (760, 520),
@@ -237,7 +237,7 @@ pub fn moderator(p: &Prepared, ex: &Explanation) -> Option<Figure> {
                 String::new()
             },
             fixed(slope.estimate, 4),
-            p.transform.name(),
+            p.transform.label(),
             crate::format::p_value(slope.p),
             lvl = level.percent()
         )

@@ -14,9 +14,43 @@ pub mod page;
 pub mod prose;
 pub mod text;
 
+use crate::metareg::{Centring, Explanation, Moderator};
+
 /// The caution printed with every benchmark.
 pub const INDIVIDUAL_DECISIONS_CAUTION: &str = "Where scores inform decisions about \
 individuals (clinical diagnosis, educational placement, personnel selection), higher \
 reliability is needed than for research use. This benchmark serves the interpretation of \
 research results; for decisions about individuals the professional testing standards and \
 local practice govern.";
+
+/// A meta-regression term in words, for the readable faces: "year, per unit",
+/// "language: translated vs original", "intercept (at the means)". (The JSON keeps the
+/// design's column names.)
+pub fn term_label(ex: &Explanation, j: usize) -> String {
+    if j == 0 {
+        return match (ex.design.moderators.is_empty(), ex.design.centring) {
+            (true, _) => "pooled value".into(),
+            (false, Centring::Means) => "intercept (at the means)".into(),
+            (false, Centring::None) => "intercept (moderators at 0)".into(),
+        };
+    }
+    for m in &ex.design.moderators {
+        match m {
+            Moderator::Numeric { name, column, .. } if *column == j => {
+                return format!("{name}, per unit");
+            }
+            Moderator::Categorical {
+                name,
+                reference,
+                levels,
+                ..
+            } => {
+                if let Some((l, _)) = levels.iter().find(|(_, c)| *c == j) {
+                    return format!("{name}: {l} vs {reference}");
+                }
+            }
+            _ => {}
+        }
+    }
+    ex.design.names[j].clone()
+}

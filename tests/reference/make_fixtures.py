@@ -311,6 +311,16 @@ def pool_fixture():
     cases.append(pool_case("two_maxima_raw", alphas,
                            2 * items * (1 - alphas) ** 2 / ((items - 1) * (n - 2)), 0.95,
                            "hand-made: raw alphas with a bimodal restricted likelihood"))
+    # Two very precise studies that disagree, among five imprecise ones: Fisher scoring
+    # alone creeps towards the REML maximum (1,000 steps were not enough); the property
+    # tests found it.
+    cases.append(pool_case(
+        "precise_disagreeing",
+        [0.5552272072793063, 1.453543542313157, 0.0, 0.335953536103243,
+         1.7083001066342058, 1.6024179378729204, 1.912594939041606],
+        [1.738951357213535, 1.6097069776450539, 0.001, 1.420283497398775,
+         1.7511529977513465, 1.3288269348402024, 0.001], 0.95,
+        "hand-made from a property-test failure: two precise studies disagreeing"))
     # Effects identical up to rounding: every estimator at or next to zero.
     cases.append(pool_case("homogeneous", [0.4, 0.41, 0.39, 0.4, 0.405],
                            [0.01, 0.02, 0.015, 0.03, 0.01], 0.95, "hand-made, nearly equal"))

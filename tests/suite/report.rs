@@ -298,7 +298,7 @@ fn axis_labels(figure: &str) -> Vec<&'static str> {
         "forest" => vec!["reliability coefficient", "Pooled", "Expected range"],
         "precision" => vec!["standard error", "ln(1 − coefficient)"],
         "moderator-year" => vec!["year", "reliability coefficient"],
-        "score-spread" => vec!["ln(score SD)", "ln(1 − coefficient)", "slope −2"],
+        "score-spread" => vec!["score SD (", "reliability coefficient", "slope −2"],
         "placement" => vec!["reliability coefficient", "density", "this study"],
         "correction" => vec!["reliability of x", "corrected correlation"],
         other => panic!("no axis labels listed for figure {other}"),

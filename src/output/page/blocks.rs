@@ -151,9 +151,10 @@ pub fn html_escape(s: &str) -> String {
 
 /// Escape text for Markdown: the characters that make emphasis, code, links, tables and
 /// strike-through are backslash-escaped anywhere, those that start a heading, a list or
-/// a quote are escaped at the start, and HTML's angle brackets and ampersand become
-/// character references, so no text turns into a tag, a link, emphasis or a table cell
-/// break (and numbers such as 0.783 stay as they are).
+/// a quote are escaped at the start, angle brackets are backslash-escaped and an
+/// ampersand is where it could start a character reference, so no text turns into a tag,
+/// a link, emphasis or a table cell break, and the file holds no HTML (numbers such as
+/// 0.783 and "p < 0.001" stay readable as they are).
 pub fn markdown_escape(s: &str) -> String {
     let mut out = String::with_capacity(s.len() + 8);
     let mut chars = s.chars().peekable();
@@ -175,15 +176,18 @@ pub fn markdown_escape(s: &str) -> String {
         }
         _ => {}
     }
-    for c in chars {
+    while let Some(c) = chars.next() {
         match c {
-            '\\' | '`' | '*' | '_' | '[' | ']' | '|' | '~' => {
+            '\\' | '`' | '*' | '_' | '[' | ']' | '|' | '~' | '<' | '>' => {
                 out.push('\\');
                 out.push(c);
             }
-            '<' => out.push_str("&lt;"),
-            '>' => out.push_str("&gt;"),
-            '&' => out.push_str("&amp;"),
+            '&' if chars
+                .peek()
+                .is_some_and(|n| n.is_ascii_alphanumeric() || *n == '#') =>
+            {
+                out.push_str("\\&");
+            }
             '\n' | '\r' => out.push(' '),
             _ => out.push(c),
         }
@@ -236,7 +240,18 @@ impl Inline {
             .iter()
             .map(|s| match s {
                 Span::Text(t) => markdown_escape(t),
-                Span::Strong(t) => format!("**{}**", markdown_escape(t)),
+                Span::Strong(t) => {
+                    // Markers next to spaces do not make emphasis: keep spaces outside.
+                    let inner = t.trim();
+                    if inner.is_empty() {
+                        return markdown_escape(t);
+                    }
+                    let (before, after) = (
+                        &t[..t.len() - t.trim_start().len()],
+                        &t[t.trim_end().len()..],
+                    );
+                    format!("{before}**{}**{after}", markdown_escape(inner))
+                }
                 Span::Code(t) => markdown_code(t),
                 Span::Link { text, href } => match safe_href(href) {
                     Some(h) => format!("[{}]({h})", markdown_escape(text)),
@@ -260,13 +275,20 @@ mod tests {
         );
         let md = t.markdown();
         // Every bracket and bar is escaped: no link, no tag, no table cell break.
-        let unescaped = md.replace("\\]", "").replace("\\|", "");
+        let unescaped = md.replace("\\]", "").replace("\\|", "").replace("\\<", "");
         assert!(
-            !md.contains('<') && !unescaped.contains("](") && !unescaped.contains('|'),
+            !unescaped.contains('<') && !unescaped.contains("](") && !unescaped.contains('|'),
             "{md}"
         );
         assert!(md.contains("\\*x\\*"), "{md}");
         assert_eq!(markdown_escape("0.783 to 0.9"), "0.783 to 0.9");
+        assert_eq!(markdown_escape("p < 0.001"), "p \\< 0.001");
+        assert_eq!(markdown_escape("Knapp & Hartung"), "Knapp & Hartung");
+        assert_eq!(markdown_escape("&amp;"), "\\&amp;");
+        assert_eq!(
+            Inline::default().strong("Caution. ").and("Text").markdown(),
+            "**Caution.** Text"
+        );
         assert_eq!(markdown_escape("1. first"), "1\\. first");
         assert_eq!(markdown_escape("- x"), "\\- x");
         assert_eq!(markdown_code("a`b"), "``a`b``");

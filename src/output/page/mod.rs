@@ -837,7 +837,7 @@ fn pooling_summary(b: &Benchmark) -> String {
         } else {
             "sample sizes not given".to_string()
         },
-        b.transform.name(),
+        b.transform.label(),
         b.transform.get().formula(),
         prose::interval_words(p.options.ci)
     )
@@ -984,13 +984,13 @@ fn meta_regression_blocks(ex: &Explanation, level: &str) -> Vec<Block> {
         ));
     }
     let terms = ex
-        .design
-        .names
+        .fit
+        .coefficients
         .iter()
-        .zip(&ex.fit.coefficients)
-        .map(|(n, c)| {
+        .enumerate()
+        .map(|(j, c)| {
             vec![
-                Inline::text(n.clone()),
+                Inline::text(crate::output::term_label(ex, j)),
                 Inline::text(fixed(c.estimate, 4)),
                 Inline::text(fixed(c.se, 4)),
                 Inline::text(range(c.ci.lower, c.ci.upper, |x| fixed(x, 4))),

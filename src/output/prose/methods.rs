@@ -43,7 +43,7 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
                 "Each coefficient was analysed on the {} scale, T = {}, with its sampling \
                  variance vᵢ; results were transformed back to the coefficient's own scale for \
                  reporting.",
-                b.transform.name(),
+                b.transform.label(),
                 b.transform.get().formula()
             ),
         ),

@@ -49,36 +49,6 @@ pub(crate) fn omnibus_words(t: &OmnibusTest) -> String {
     }
 }
 
-/// The name of a design column for a reader.
-fn term_name(ex: &Explanation, j: usize) -> String {
-    if j == 0 {
-        return match (ex.design.moderators.is_empty(), ex.design.centring) {
-            (true, _) => "pooled value".into(),
-            (false, Centring::Means) => "intercept (at the means)".into(),
-            (false, Centring::None) => "intercept (moderators at 0)".into(),
-        };
-    }
-    for m in &ex.design.moderators {
-        match m {
-            Moderator::Numeric { name, column, .. } if *column == j => {
-                return format!("{name}, per unit");
-            }
-            Moderator::Categorical {
-                name,
-                reference,
-                levels,
-                ..
-            } => {
-                if let Some((l, _)) = levels.iter().find(|(_, c)| *c == j) {
-                    return format!("{name}: {l} vs {reference}");
-                }
-            }
-            _ => {}
-        }
-    }
-    ex.design.names[j].clone()
-}
-
 /// The table of a model's terms.
 fn terms(o: &mut String, names: &[String], fit: &ModelFit, perm: Option<&[Option<f64>]>) {
     let level = fit.options.level.percent();
@@ -239,7 +209,7 @@ fn moderators(o: &mut String, p: &Prepared, e: &Explained) {
     let _ = writeln!(o);
     super::para(o, &format!("({})", sign_note(p.transform)));
     let names: Vec<String> = (0..ex.design.names.len())
-        .map(|j| term_name(ex, j))
+        .map(|j| crate::output::term_label(ex, j))
         .collect();
     terms(
         o,

@@ -18,24 +18,53 @@ fn log_lik(d: &MetaData, fit: &WeightedFit, tau2: f64, restricted: bool) -> f64 
     ll
 }
 
-/// Score and Fisher information for τ² at the current fit.
+/// The derivatives of the (restricted) log-likelihood in τ² at the current fit.
+struct Derivatives {
+    /// The score, dℓ/dτ².
+    score: f64,
+    /// The expected (Fisher) information, E[−d²ℓ/dτ²].
+    expected: f64,
+    /// The observed information, −d²ℓ/dτ² (negative away from a maximum).
+    observed: f64,
+}
+
+/// Score, expected and observed information for τ² at the current fit.
 ///
-/// ML: score = ½(Σw²e² − Σw), information = ½Σw².
-/// REML: score = ½(yᵀPPy − tr P), information = ½ tr(PP), with
-/// tr P = Σw − tr(A·XᵀW²X) and tr(PP) = Σw² − 2tr(A·XᵀW³X) + tr((A·XᵀW²X)²),
-/// A = (XᵀWX)⁻¹, yᵀPPy = Σw²e² — all O(k·p²).
-fn score_and_information(d: &MetaData, fit: &WeightedFit, restricted: bool) -> (f64, f64) {
-    let (mut ypp_y, mut sum_w, mut sum_w2) = (0.0, 0.0, 0.0);
+/// With u = Py = W e (e the weighted fit's residuals) and, for ML, P = W − WX A XᵀW
+/// replaced by W in the traces:
+/// ML: score = ½(Σw²e² − Σw), expected = ½Σw², observed = yᵀPPPy − ½Σw².
+/// REML: score = ½(yᵀPPy − tr P), expected = ½ tr(PP), observed = yᵀPPPy − ½ tr(PP),
+/// with tr P = Σw − tr(A·XᵀW²X), tr(PP) = Σw² − 2tr(A·XᵀW³X) + tr((A·XᵀW²X)²),
+/// A = (XᵀWX)⁻¹, yᵀPPy = Σw²e² and yᵀPPPy = uᵀPu = Σw³e² − bᵀAb with b = XᵀWu —
+/// all O(k·p²). (dP/dτ² = −PP gives the second derivatives.)
+fn derivatives(d: &MetaData, fit: &WeightedFit, restricted: bool) -> Derivatives {
+    let (mut ypp_y, mut sum_w, mut sum_w2, mut w3e2) = (0.0, 0.0, 0.0, 0.0);
     for (w, e) in fit.w.iter().zip(&fit.resid) {
         let w2 = w * w;
         ypp_y += w2 * e * e;
+        w3e2 += w2 * w * e * e;
         sum_w += w;
         sum_w2 += w2;
     }
-    if !restricted {
-        return (0.5 * (ypp_y - sum_w), 0.5 * sum_w2);
-    }
+    // b = XᵀW u = Σ xᵢ wᵢ² eᵢ.
+    let x = d.x();
+    let b = nalgebra::DVector::from_fn(x.ncols(), |j, _| {
+        x.column(j)
+            .iter()
+            .zip(fit.w.iter().zip(&fit.resid))
+            .map(|(xi, (w, e))| xi * w * w * e)
+            .sum::<f64>()
+    });
     let a = &fit.xtwx_inv;
+    let ypppy = w3e2 - (b.transpose() * a * &b)[(0, 0)];
+    if !restricted {
+        let expected = 0.5 * sum_w2;
+        return Derivatives {
+            score: 0.5 * (ypp_y - sum_w),
+            expected,
+            observed: ypppy - expected,
+        };
+    }
     let w2: Vec<f64> = fit.w.iter().map(|w| w * w).collect();
     let w3: Vec<f64> = fit.w.iter().zip(&w2).map(|(w, w2)| w * w2).collect();
     let [b2, b3] = cross_products(d.design(), [&w2, &w3]);
@@ -43,7 +72,11 @@ fn score_and_information(d: &MetaData, fit: &WeightedFit, restricted: bool) -> (
     let ab3 = a * b3;
     let tr_p = sum_w - ab2.trace();
     let tr_pp = sum_w2 - 2.0 * ab3.trace() + (&ab2 * &ab2).trace();
-    (0.5 * (ypp_y - tr_p), 0.5 * tr_pp)
+    Derivatives {
+        score: 0.5 * (ypp_y - tr_p),
+        expected: 0.5 * tr_pp,
+        observed: ypppy - 0.5 * tr_pp,
+    }
 }
 
 /// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring from several
@@ -80,19 +113,32 @@ pub(super) fn maximize(d: &MetaData, starts: &[f64], restricted: bool) -> Result
         .ok_or_else(|| Error::Numerical("no starting value for τ² could be used".into()))
 }
 
-/// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring with step halving;
-/// returns the fit and the log-likelihood reached.
+/// Maximize the (restricted) likelihood over τ² ≥ 0 by Newton steps where the
+/// likelihood is concave (observed information positive: quadratic convergence) and
+/// Fisher-scoring steps elsewhere, each with step halving so that the likelihood never
+/// falls; returns the fit and the log-likelihood reached. (Fisher scoring alone converges
+/// only linearly, and very slowly when a few precise studies disagree with many imprecise
+/// ones.)
 fn fisher_scoring(d: &MetaData, start: f64, restricted: bool) -> Result<(Tau2Fit, f64)> {
     let mut tau2 = start.max(0.0);
     let mut fit = d.fit_at(tau2)?;
     let mut ll = log_lik(d, &fit, tau2, restricted);
     for it in 1..=TAU2_MAX_ITERATIONS {
-        let (score, info) = score_and_information(d, &fit, restricted);
-        if info.is_nan() || info <= 0.0 || !score.is_finite() {
+        let Derivatives {
+            score,
+            expected,
+            observed,
+        } = derivatives(d, &fit, restricted);
+        if expected.is_nan() || expected <= 0.0 || !score.is_finite() {
             return Err(Error::Numerical(format!(
-                "the τ² likelihood could not be evaluated at τ² = {tau2} (information {info})"
+                "the τ² likelihood could not be evaluated at τ² = {tau2} (information {expected})"
             )));
         }
+        let info = if observed.is_finite() && observed > 0.0 {
+            observed
+        } else {
+            expected
+        };
         let mut step = score / info;
         let mut next = (tau2 + step).max(0.0);
         let mut next_fit = d.fit_at(next)?;
