@@ -176,48 +176,12 @@ pub fn prepare_from(
     let mut warnings = Vec::new();
     let (transform, transform_chosen) = choose_transform(&sheet, options, &mut warnings)?;
     let tr = transform.get();
-
-    // Columns the transform cannot do without.
-    let mut needed = vec![Role::Coef];
-    match transform {
-        TransformKind::None => needed.push(Role::Var),
-        TransformKind::FisherZ => needed.push(Role::N),
-        _ => needed.extend([Role::N, Role::Items]),
-    }
-    let missing: Vec<&str> = needed
-        .iter()
-        .filter(|r| !sheet.has(**r))
-        .map(|r| r.name())
-        .collect();
-    if !missing.is_empty() {
-        return Err(Error::InvalidSheet {
-            file: sheet.file.clone(),
-            problems: vec![CellProblem::row(
-                1,
-                msg![
-                    given(Setting::Transform, transform.name()),
-                    format!(
-                        " needs the column(s) {} and the sheet has none; add them, or map the \
-                         sheet's own names with ",
-                        missing.join(", ")
-                    ),
-                    given(Setting::ColumnMap, "ROLE=NAME")
-                ],
-            )],
-        });
-    }
+    check_needed_columns(&sheet, transform)?;
 
     // Check every parsed row against the transform.
     let mut problems = sheet.problems.clone();
-    let mut usable;
-    let role_of = |f: InputField| match f {
-        InputField::Coef => Role::Coef,
-        InputField::N => Role::N,
-        InputField::Items => Role::Items,
-        InputField::Var => Role::Var,
-    };
     // Filtered in place: the records are not copied.
-    usable = std::mem::take(&mut sheet.records);
+    let mut usable = std::mem::take(&mut sheet.records);
     usable.retain(|rec| {
         let unmet = tr.check(&study_input(rec));
         for u in &unmet {
@@ -226,48 +190,9 @@ pub fn prepare_from(
         }
         unmet.is_empty()
     });
-    // Rows that did not parse: check what could be read, so that every problem of the
-    // file is reported at once (a placeholder coefficient stands in for one that failed).
-    for part in &sheet.partial {
-        let input = StudyInput {
-            coef: part.coef.unwrap_or(0.5),
-            n: part.n.map(|n| n as f64),
-            items: part.items.map(f64::from),
-            var: part.var,
-        };
-        for u in tr.check(&input) {
-            let role = role_of(u.field);
-            let placeholder = role == Role::Coef && part.coef.is_none();
-            if !placeholder && !part.failed.contains(&role) {
-                problems.push(CellProblem::cell(
-                    part.row,
-                    sheet.column_label(role),
-                    u.reason.as_str(),
-                ));
-            }
-        }
-    }
+    check_partial_rows(&sheet, tr, &mut problems);
     problems.sort_by_key(|p| p.row);
-    // Every study must end up with a finite value and a positive, finite variance.
-    let mut values = Vec::with_capacity(usable.len());
-    usable.retain(|rec| {
-        let input = study_input(rec);
-        let (y, v) = (tr.effect(&input).0, tr.variance(&input));
-        if y.is_finite() && v.is_finite() && v > 0.0 {
-            values.push((y, v));
-            true
-        } else {
-            problems.push(CellProblem::row(
-                rec.row,
-                format!(
-                    "the study's value on the {} scale ({y}) or its sampling variance ({v}) cannot \
-                     be computed; check coef, n and items",
-                    transform.name()
-                ),
-            ));
-            false
-        }
-    });
+    let values = keep_computable(&mut usable, transform, &mut problems);
     problems.sort_by_key(|p| p.row);
     if !problems.is_empty() && !options.skip_invalid {
         return Err(Error::InvalidSheet {
@@ -310,6 +235,107 @@ pub fn prepare_from(
         skipped,
         warnings,
     })
+}
+
+/// Fail when the sheet lacks a column the transform cannot do without.
+fn check_needed_columns(sheet: &CodingSheet, transform: TransformKind) -> Result<()> {
+    let mut needed = vec![Role::Coef];
+    match transform {
+        TransformKind::None => needed.push(Role::Var),
+        TransformKind::FisherZ => needed.push(Role::N),
+        _ => needed.extend([Role::N, Role::Items]),
+    }
+    let missing: Vec<&str> = needed
+        .iter()
+        .filter(|r| !sheet.has(**r))
+        .map(|r| r.name())
+        .collect();
+    if missing.is_empty() {
+        return Ok(());
+    }
+    Err(Error::InvalidSheet {
+        file: sheet.file.clone(),
+        problems: vec![CellProblem::row(
+            1,
+            msg![
+                given(Setting::Transform, transform.name()),
+                format!(
+                    " needs the column(s) {} and the sheet has none; add them, or map the \
+                     sheet's own names with ",
+                    missing.join(", ")
+                ),
+                given(Setting::ColumnMap, "ROLE=NAME")
+            ],
+        )],
+    })
+}
+
+/// The sheet column behind a transform's input.
+fn role_of(f: InputField) -> Role {
+    match f {
+        InputField::Coef => Role::Coef,
+        InputField::N => Role::N,
+        InputField::Items => Role::Items,
+        InputField::Var => Role::Var,
+    }
+}
+
+/// Check what could be read of the rows that did not parse, so that every problem of the
+/// file is reported at once (a placeholder coefficient stands in for one that failed).
+fn check_partial_rows(
+    sheet: &CodingSheet,
+    tr: &dyn CoefficientTransform,
+    problems: &mut Vec<CellProblem>,
+) {
+    for part in &sheet.partial {
+        let input = StudyInput {
+            coef: part.coef.unwrap_or(0.5),
+            n: part.n.map(|n| n as f64),
+            items: part.items.map(f64::from),
+            var: part.var,
+        };
+        for u in tr.check(&input) {
+            let role = role_of(u.field);
+            let placeholder = role == Role::Coef && part.coef.is_none();
+            if !placeholder && !part.failed.contains(&role) {
+                problems.push(CellProblem::cell(
+                    part.row,
+                    sheet.column_label(role),
+                    u.reason.as_str(),
+                ));
+            }
+        }
+    }
+}
+
+/// Keep the studies with a finite value and a positive, finite variance on the
+/// transform's scale, returning those values; the others become problems.
+fn keep_computable(
+    usable: &mut Vec<StudyRecord>,
+    transform: TransformKind,
+    problems: &mut Vec<CellProblem>,
+) -> Vec<(f64, f64)> {
+    let tr = transform.get();
+    let mut values = Vec::with_capacity(usable.len());
+    usable.retain(|rec| {
+        let input = study_input(rec);
+        let (y, v) = (tr.effect(&input).0, tr.variance(&input));
+        if y.is_finite() && v.is_finite() && v > 0.0 {
+            values.push((y, v));
+            true
+        } else {
+            problems.push(CellProblem::row(
+                rec.row,
+                format!(
+                    "the study's value on the {} scale ({y}) or its sampling variance ({v}) cannot \
+                     be computed; check coef, n and items",
+                    transform.name()
+                ),
+            ));
+            false
+        }
+    });
+    values
 }
 
 /// Reasons joined by "; " into one message.

@@ -10,7 +10,9 @@ use crate::pool::{FitOptions, Interval, ModelFit, Predictive};
 use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::sheet::{CoefType, SdMetric};
-use crate::transform::{BackInterval, StudyInput, TransformKind, Transformed, back_interval};
+use crate::transform::{
+    BackInterval, CoefficientTransform, StudyInput, TransformKind, Transformed, back_interval,
+};
 use crate::warning::Warning;
 use serde::Serialize;
 use std::collections::BTreeMap;
@@ -49,6 +51,17 @@ pub enum Verdict {
 }
 
 impl Verdict {
+    /// Where a coefficient falls against the range for an observed coefficient.
+    fn of(coef: f64, range: BackInterval) -> Verdict {
+        if coef < range.lower {
+            Verdict::Below
+        } else if coef > range.upper {
+            Verdict::Above
+        } else {
+            Verdict::Within
+        }
+    }
+
     /// The word for reports.
     pub fn word(self) -> &'static str {
         match self {
@@ -167,15 +180,9 @@ pub fn place(
 ) -> Result<Placement> {
     check_study(p, study)?;
     let tr = p.transform.get();
-    let input = StudyInput {
-        coef: study.coef,
-        n: Some(study.n as f64),
-        items: study.items.map(f64::from),
-        var: None,
-    };
+    let input = study_input(study);
     let new_effect = tr.effect(&input).0;
 
-    let mut warnings = p.warnings.clone();
     let FitAt { fit, design, x0 } = fit_at(
         p,
         cond.moderators,
@@ -184,30 +191,8 @@ pub fn place(
         options,
         Setting::StudyModerators,
     )?;
-    if let Some(d) = &design {
-        warnings.extend(d.warnings.iter().cloned());
-        if !d.excluded.is_empty() {
-            warnings.push(Warning::RowsLeftOutOfModel {
-                rows: d.excluded.iter().map(|e| e.row).collect(),
-                why: "a moderator value is missing".into(),
-            });
-        }
-    }
-    warnings.extend(fit.warnings.iter().cloned());
+    let mut warnings = model_warnings(p, &fit, design.as_ref(), &x0)?;
     let (k, np) = (fit.k, fit.p);
-    if crate::pool::prediction_df(k, np).is_none() {
-        return Err(Error::cannot(format!(
-            "{k} studies leave no degrees of freedom for an expected range (k − p − 1 = {}); \
-             code more studies",
-            k as i64 - np as i64 - 1
-        )));
-    }
-    if k < crate::pool::FEW_STUDIES + np - 1 {
-        warnings.push(Warning::FewStudies { k });
-    }
-    if let Some(d) = &design {
-        extrapolation_warnings(d, &x0, &mut warnings);
-    }
     let (expected_t, var_t) = fit.predict(&x0);
     // The new study's sampling variance at the expected coefficient, so that the range
     // does not depend on the coefficient being judged (it would for raw and
@@ -231,44 +216,9 @@ pub fn place(
         true_value.interval(options.level),
         observed.interval(options.level),
     );
-    let back = |i: Interval| {
-        back_interval(tr, Transformed(i.lower), Transformed(i.upper)).unwrap_or(BackInterval {
-            lower: f64::NAN,
-            upper: f64::NAN,
-            capped: false,
-        })
-    };
-    let (ci, pi, pi_observed) = (back(ci_t), back(pi_t), back(pi_observed_t));
-    for (name, i) in [
-        ("confidence interval", ci),
-        ("prediction interval", pi),
-        ("range for an observed coefficient", pi_observed),
-    ] {
-        if i.capped {
-            warnings.push(Warning::IntervalCapped {
-                interval: name.into(),
-            });
-        }
-    }
-    if pi_observed.lower < 0.0 {
-        warnings.push(Warning::RangeBelowZero {
-            lower: pi_observed.lower,
-        });
-    }
-    let below_share = observed.cdf(new_effect);
-    let percentile = 100.0
-        * if tr.increasing() {
-            below_share
-        } else {
-            1.0 - below_share
-        };
-    let verdict = if study.coef < pi_observed.lower {
-        Verdict::Below
-    } else if study.coef > pi_observed.upper {
-        Verdict::Above
-    } else {
-        Verdict::Within
-    };
+    let [ci, pi, pi_observed] = back_intervals(tr, [ci_t, pi_t, pi_observed_t], &mut warnings);
+    let percentile = percentile(&observed, new_effect, tr.increasing());
+    let verdict = Verdict::of(study.coef, pi_observed);
     let spread = match study.sd {
         None => None,
         Some(sd) => spread_part(p, study, sd, cond, options, expected, &mut warnings)?,
@@ -300,6 +250,100 @@ pub fn place(
     })
 }
 
+/// The percentile of the new study's value in the distribution of observed values
+/// (higher coefficient, higher percentile, whichever way the transform runs).
+fn percentile(observed: &Predictive, new_effect: f64, increasing: bool) -> f64 {
+    let below_share = observed.cdf(new_effect);
+    100.0
+        * if increasing {
+            below_share
+        } else {
+            1.0 - below_share
+        }
+}
+
+/// The new study as the transform takes it.
+fn study_input(study: &NewStudy) -> StudyInput {
+    StudyInput {
+        coef: study.coef,
+        n: Some(study.n as f64),
+        items: study.items.map(f64::from),
+        var: None,
+    }
+}
+
+/// The warnings of the sheet, the design and the fit, and of a model with few studies
+/// or a new study outside the moderators' range; fails when the model leaves no degrees
+/// of freedom for an expected range.
+fn model_warnings(
+    p: &Prepared,
+    fit: &ModelFit,
+    design: Option<&Design>,
+    x0: &[f64],
+) -> Result<Vec<Warning>> {
+    let mut warnings = p.warnings.clone();
+    if let Some(d) = design {
+        warnings.extend(d.warnings.iter().cloned());
+        if !d.excluded.is_empty() {
+            warnings.push(Warning::RowsLeftOutOfModel {
+                rows: d.excluded.iter().map(|e| e.row).collect(),
+                why: "a moderator value is missing".into(),
+            });
+        }
+    }
+    warnings.extend(fit.warnings.iter().cloned());
+    let (k, np) = (fit.k, fit.p);
+    if crate::pool::prediction_df(k, np).is_none() {
+        return Err(Error::cannot(format!(
+            "{k} studies leave no degrees of freedom for an expected range (k − p − 1 = {}); \
+             code more studies",
+            k as i64 - np as i64 - 1
+        )));
+    }
+    if k < crate::pool::FEW_STUDIES + np - 1 {
+        warnings.push(Warning::FewStudies { k });
+    }
+    if let Some(d) = design {
+        extrapolation_warnings(d, x0, &mut warnings);
+    }
+    Ok(warnings)
+}
+
+/// The confidence interval, the prediction interval and the range for an observed
+/// coefficient on the coefficient scale (NaN where they cannot be turned back), with
+/// warnings for capped ones and for a range reaching below 0.
+fn back_intervals(
+    tr: &dyn CoefficientTransform,
+    intervals: [Interval; 3],
+    warnings: &mut Vec<Warning>,
+) -> [BackInterval; 3] {
+    let back = |i: Interval| {
+        back_interval(tr, Transformed(i.lower), Transformed(i.upper)).unwrap_or(BackInterval {
+            lower: f64::NAN,
+            upper: f64::NAN,
+            capped: false,
+        })
+    };
+    let [ci, pi, pi_observed] = intervals.map(back);
+    for (name, i) in [
+        ("confidence interval", ci),
+        ("prediction interval", pi),
+        ("range for an observed coefficient", pi_observed),
+    ] {
+        if i.capped {
+            warnings.push(Warning::IntervalCapped {
+                interval: name.into(),
+            });
+        }
+    }
+    if pi_observed.lower < 0.0 {
+        warnings.push(Warning::RangeBelowZero {
+            lower: pi_observed.lower,
+        });
+    }
+    [ci, pi, pi_observed]
+}
+
 /// Refuse a new study the benchmark cannot judge.
 fn check_study(p: &Prepared, study: &NewStudy) -> Result<()> {
     if p.transform == TransformKind::None {
@@ -329,13 +373,7 @@ fn check_study(p: &Prepared, study: &NewStudy) -> Result<()> {
             ],
         ));
     }
-    let input = StudyInput {
-        coef: study.coef,
-        n: Some(study.n as f64),
-        items: study.items.map(f64::from),
-        var: None,
-    };
-    if let Some(u) = p.transform.get().check(&input).first() {
+    if let Some(u) = p.transform.get().check(&study_input(study)).first() {
         let setting = match u.field {
             crate::transform::InputField::Coef | crate::transform::InputField::Var => {
                 Setting::StudyCoef
@@ -388,13 +426,7 @@ fn spread_part(
     match spread_shortfall(p, study, sd, cond, options, expected) {
         Ok(s) => {
             if s.sd_outside_benchmark {
-                let (lo, hi) = s
-                    .model
-                    .sds
-                    .iter()
-                    .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
-                        (a.min(x), b.max(x))
-                    });
+                let (lo, hi) = min_max(&s.model.sds);
                 warnings.push(Warning::Extrapolation {
                     what: format!(
                         "the SD {} ({} metric)",
@@ -446,6 +478,51 @@ fn spread_shortfall(
         cond.centring,
         options,
     )?;
+    let own = own_sd(&model, study, sd)?;
+    let others: Vec<f64> = if cond.moderators.is_empty() {
+        Vec::new()
+    } else {
+        model
+            .others
+            .row_for(cond.at, p.source.format, Setting::StudyModerators)?[1..]
+            .to_vec()
+    };
+    let back = |t: f64| -(t.exp_m1());
+    let (t_own, _) = model.predict(own, study.items, &others)?;
+    let (t_typ, _) = model.predict(model.typical_sd, study.items, &others)?;
+    let (at_own, at_typical) = (back(t_own), back(t_typ));
+    // The difference on the Bonett scale is slope × (ln own − ln typical); its interval
+    // follows from the slope's.
+    let dl = own.ln() - model.typical_sd.ln();
+    let ends =
+        [model.slope.ci.lower, model.slope.ci.upper].map(|b| at_typical - back(t_typ + b * dl));
+    let lo = ends[0].min(ends[1]);
+    let hi = ends[0].max(ends[1]);
+    let (min_sd, max_sd) = min_max(&model.sds);
+    Ok(SpreadShortfall {
+        metric: model.metric,
+        sd: own,
+        typical_sd: model.typical_sd,
+        expected_at_own_sd: at_own,
+        expected_at_typical_sd: at_typical,
+        explained_shortfall: at_typical - at_own,
+        explained_shortfall_ci: (lo, hi),
+        observed_shortfall: expected - study.coef,
+        sd_outside_benchmark: own < min_sd || own > max_sd,
+        model: Box::new(model),
+    })
+}
+
+/// The smallest and largest of the values.
+fn min_max(xs: &[f64]) -> (f64, f64) {
+    xs.iter()
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
+            (a.min(x), b.max(x))
+        })
+}
+
+/// The new study's SD on the score-spread model's metric, or the setting to add or check.
+fn own_sd(model: &ScoreSpread, study: &NewStudy, sd: f64) -> Result<f64> {
     let h = harmonize(
         Some(sd),
         study.sd_metric,
@@ -457,7 +534,7 @@ fn spread_shortfall(
         SpreadMetric::PerItem => h.per_item,
         SpreadMetric::Pomp => h.pomp,
     };
-    let own = own.ok_or_else(|| {
+    own.ok_or_else(|| {
         let (setting, need) = match (study.sd_metric, model.metric) {
             (None, _) => (
                 Setting::StudySdMetric,
@@ -495,42 +572,5 @@ fn spread_shortfall(
             ]
             .then(need),
         )
-    })?;
-    let others: Vec<f64> = if cond.moderators.is_empty() {
-        Vec::new()
-    } else {
-        model
-            .others
-            .row_for(cond.at, p.source.format, Setting::StudyModerators)?[1..]
-            .to_vec()
-    };
-    let back = |t: f64| -(t.exp_m1());
-    let (t_own, _) = model.predict(own, study.items, &others)?;
-    let (t_typ, _) = model.predict(model.typical_sd, study.items, &others)?;
-    let (at_own, at_typical) = (back(t_own), back(t_typ));
-    // The difference on the Bonett scale is slope × (ln own − ln typical); its interval
-    // follows from the slope's.
-    let dl = own.ln() - model.typical_sd.ln();
-    let ends =
-        [model.slope.ci.lower, model.slope.ci.upper].map(|b| at_typical - back(t_typ + b * dl));
-    let lo = ends[0].min(ends[1]);
-    let hi = ends[0].max(ends[1]);
-    let (min_sd, max_sd) = model
-        .sds
-        .iter()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
-            (a.min(x), b.max(x))
-        });
-    Ok(SpreadShortfall {
-        metric: model.metric,
-        sd: own,
-        typical_sd: model.typical_sd,
-        expected_at_own_sd: at_own,
-        expected_at_typical_sd: at_typical,
-        explained_shortfall: at_typical - at_own,
-        explained_shortfall_ci: (lo, hi),
-        observed_shortfall: expected - study.coef,
-        sd_outside_benchmark: own < min_sd || own > max_sd,
-        model: Box::new(model),
     })
 }

@@ -97,6 +97,46 @@ pub fn correct_correlation(
     grid_points: usize,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<CorrelationCorrection> {
+    check_input(input)?;
+    let (rx, ry) = (input.rel_x.point(), input.rel_y.point());
+    let attenuation = (rx * ry).sqrt();
+    let corrected_value = input.r / attenuation;
+    let z = normal_quantile(level.upper());
+    let se = 1.0 / (input.n as f64 - 3.0).sqrt();
+    let zr = input.r.atanh();
+    let (lo, hi) = (
+        (zr - z * se).tanh() / attenuation,
+        (zr + z * se).tanh() / attenuation,
+    );
+    // An interval entirely beyond ±1 is no interval at all; one end beyond is cut there.
+    let ci = if lo > 1.0 || hi < -1.0 {
+        None
+    } else {
+        Some((lo.max(-1.0), hi.min(1.0)))
+    };
+    let ci_capped = lo < -1.0 || hi > 1.0;
+    let mc = monte_carlo(input, zr, se, draws, seed, level, progress);
+    Ok(CorrelationCorrection {
+        observed: input.r,
+        corrected_value,
+        admissible: corrected_value.abs() <= 1.0,
+        ci,
+        ci_capped,
+        mc_ci: mc.ci,
+        mc_bound: mc.bound,
+        inadmissible_share: if draws > 0 {
+            mc.inadmissible as f64 / draws as f64
+        } else {
+            0.0
+        },
+        draws,
+        seed,
+        sensitivity: sensitivity(input, level, grid_points),
+    })
+}
+
+/// Refuse a correlation not strictly between −1 and 1, or fewer than 4 respondents.
+fn check_input(input: &CorrelationInput) -> Result<()> {
     if !(input.r.is_finite() && input.r > -1.0 && input.r < 1.0) {
         return Err(Error::setting(
             Setting::Correlation,
@@ -115,24 +155,30 @@ pub fn correct_correlation(
             ],
         ));
     }
-    let (rx, ry) = (input.rel_x.point(), input.rel_y.point());
-    let attenuation = (rx * ry).sqrt();
-    let corrected_value = input.r / attenuation;
-    let z = normal_quantile(level.upper());
-    let se = 1.0 / (input.n as f64 - 3.0).sqrt();
-    let zr = input.r.atanh();
-    let (lo, hi) = (
-        (zr - z * se).tanh() / attenuation,
-        (zr + z * se).tanh() / attenuation,
-    );
-    // An interval entirely beyond ±1 is no interval at all; one end beyond is cut there.
-    let ci = if lo > 1.0 || hi < -1.0 {
-        None
-    } else {
-        Some((lo.max(-1.0), hi.min(1.0)))
-    };
-    let ci_capped = lo < -1.0 || hi > 1.0;
+    Ok(())
+}
 
+/// The Monte Carlo interval of the corrected correlation.
+struct MonteCarlo {
+    /// Percentile interval (draws beyond ±1 counted at ±1).
+    ci: Option<(f64, f64)>,
+    /// Whether each end is the bound ±1 itself: (lower, upper).
+    bound: (bool, bool),
+    /// Draws beyond ±1.
+    inadmissible: usize,
+}
+
+/// Draw z ~ N(atanh r, se²) and each reliability, and read the percentile interval of
+/// the corrected correlations.
+fn monte_carlo(
+    input: &CorrelationInput,
+    zr: f64,
+    se: f64,
+    draws: usize,
+    seed: u64,
+    level: Level,
+    progress: &(dyn Fn(usize) + Sync),
+) -> MonteCarlo {
     let (sx, sy) = (input.rel_x.sampler(), input.rel_y.sampler());
     let mut values = vec![0.0; draws];
     parallel_fill(&mut values, seed, progress, |rng| {
@@ -159,13 +205,18 @@ pub fn correct_correlation(
             }
         })
         .reduce(|| (0usize, 0usize), |a, b| (a.0 + b.0, a.1 + b.1));
-    let inadmissible = below + above;
     // Draws beyond a bound sit at the bound; when more than the tail share of draws is
     // there, that end of the interval is the bound itself.
     let tail = level.tail() * draws as f64;
-    let mc_ci = percentile_interval(&mut values, level.value());
-    let mc_bound = (below as f64 > tail, above as f64 > tail);
+    MonteCarlo {
+        ci: percentile_interval(&mut values, level.value()),
+        bound: (below as f64 > tail, above as f64 > tail),
+        inadmissible: below + above,
+    }
+}
 
+/// The corrected correlation over a grid of both reliabilities.
+fn sensitivity(input: &CorrelationInput, level: Level, grid_points: usize) -> Vec<SensitivityCell> {
     let mut sensitivity = Vec::new();
     for a in sensitivity_grid(&input.rel_x, level, grid_points) {
         for b in sensitivity_grid(&input.rel_y, level, grid_points) {
@@ -177,23 +228,7 @@ pub fn correct_correlation(
             });
         }
     }
-    Ok(CorrelationCorrection {
-        observed: input.r,
-        corrected_value,
-        admissible: corrected_value.abs() <= 1.0,
-        ci,
-        ci_capped,
-        mc_ci,
-        mc_bound,
-        inadmissible_share: if draws > 0 {
-            inadmissible as f64 / draws as f64
-        } else {
-            0.0
-        },
-        draws,
-        seed,
-        sensitivity,
-    })
+    sensitivity
 }
 
 #[cfg(test)]

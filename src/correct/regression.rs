@@ -237,12 +237,70 @@ pub fn correct_regression(
         .map(ReliabilitySource::point)
         .unwrap_or(1.0);
     let estimate = eiv(&input.cov, &rel_point, rel_y_point)?;
+    let results = draw_estimates(input, draws, seed, progress);
+    let mut d = DrawnValues::collect(results, p);
+    let sensitivity = (0..p)
+        .map(|j| sensitivity_row(input, j, &rel_point, rel_y_point, level, grid_points))
+        .collect();
+    // Intervals for the correction only when the point correction is possible and no more
+    // than the tail share of draws was impossible (else the interval's ends are not
+    // determined by the admissible draws).
+    let tail = level.tail();
+    let share = if draws > 0 {
+        d.inadmissible as f64 / draws as f64
+    } else {
+        0.0
+    };
+    let determined = estimate.corrected.is_ok() && share <= tail;
+    let spreads = |v: &mut Vec<Vec<f64>>| -> Vec<Option<Spread>> {
+        v.iter_mut()
+            .map(|x| if determined { spread(x, level) } else { None })
+            .collect()
+    };
+    Ok(RegressionCorrection {
+        // From a summary the OLS slopes have their exact t intervals; from raw data they
+        // are bootstrapped like the corrected ones.
+        ols_spread: if input.rows.is_some() {
+            d.ols.iter_mut().map(|v| spread(v, level)).collect()
+        } else {
+            ols_t_intervals(&input.cov, input.n, level)
+        },
+        corrected_spread: spreads(&mut d.corrected),
+        corrected_standardized_spread: spreads(&mut d.standardized),
+        r2_spread: if determined {
+            spread(&mut d.r2, level)
+        } else {
+            None
+        },
+        intervals_determined: determined,
+        estimate,
+        inadmissible_share: share,
+        method: if input.rows.is_some() {
+            DrawMethod::Bootstrap
+        } else {
+            DrawMethod::MonteCarlo
+        },
+        draws,
+        seed,
+        sensitivity,
+    })
+}
+
+/// Refit the model on `draws` bootstrap samples (raw data) or Monte Carlo draws of the
+/// covariance matrix (a summary), with the reliabilities drawn too; `None` for a draw
+/// that cannot be fitted.
+fn draw_estimates(
+    input: &RegressionInput,
+    draws: usize,
+    seed: u64,
+    progress: &(dyn Fn(usize) + Sync),
+) -> Vec<Option<Estimate>> {
     let n = input.n as f64;
     let chol = input.cov.clone().cholesky().map(|c| c.l());
-    let width = p + 1;
+    let width = input.predictors.len() + 1;
     let samplers: Vec<_> = input.rel.iter().map(ReliabilitySource::sampler).collect();
     let sampler_y = input.rel_y.as_ref().map(ReliabilitySource::sampler);
-    let results: Vec<Option<Estimate>> = parallel_draws(draws, seed, progress, |rng| {
+    parallel_draws(draws, seed, progress, |rng| {
         let cov = match &input.rows {
             Some(rows) => {
                 let m = rows.len() / width;
@@ -265,91 +323,75 @@ pub fn correct_regression(
         let rel: Vec<f64> = samplers.iter().map(|s| s.draw(rng)).collect();
         let ry = sampler_y.map(|s| s.draw(rng)).unwrap_or(1.0);
         eiv(&cov, &rel, ry).ok()
-    });
-    let mut ols: Vec<Vec<f64>> = vec![Vec::new(); p];
-    let mut corr: Vec<Vec<f64>> = vec![Vec::new(); p];
-    let mut corr_std: Vec<Vec<f64>> = vec![Vec::new(); p];
-    let mut r2 = Vec::new();
-    let mut inadmissible = 0usize;
-    for e in results.into_iter() {
-        let Some(e) = e else {
-            inadmissible += 1;
-            continue;
-        };
-        for (acc, v) in ols.iter_mut().zip(&e.ols) {
-            acc.push(*v);
-        }
-        match e.corrected {
-            Ok(c) => {
-                for (acc, v) in corr.iter_mut().zip(&c.slopes) {
-                    acc.push(*v);
-                }
-                for (acc, v) in corr_std.iter_mut().zip(&c.standardized) {
-                    acc.push(*v);
-                }
-                r2.push(c.r2);
-            }
-            Err(_) => inadmissible += 1,
-        }
-    }
-    let mut sensitivity = Vec::with_capacity(p);
-    for j in 0..p {
-        let row = sensitivity_grid(&input.rel[j], level, grid_points)
-            .into_iter()
-            .map(|g| {
-                let mut rel = rel_point.clone();
-                rel[j] = g;
-                let slopes = eiv(&input.cov, &rel, rel_y_point)
-                    .ok()
-                    .and_then(|e| e.corrected.ok())
-                    .map(|c| c.slopes);
-                (g, slopes)
-            })
-            .collect();
-        sensitivity.push(row);
-    }
-    // Intervals for the correction only when the point correction is possible and no more
-    // than the tail share of draws was impossible (else the interval's ends are not
-    // determined by the admissible draws).
-    let tail = level.tail();
-    let share = if draws > 0 {
-        inadmissible as f64 / draws as f64
-    } else {
-        0.0
-    };
-    let determined = estimate.corrected.is_ok() && share <= tail;
-    let spreads = |v: &mut Vec<Vec<f64>>| -> Vec<Option<Spread>> {
-        v.iter_mut()
-            .map(|x| if determined { spread(x, level) } else { None })
-            .collect()
-    };
-    Ok(RegressionCorrection {
-        // From a summary the OLS slopes have their exact t intervals; from raw data they
-        // are bootstrapped like the corrected ones.
-        ols_spread: if input.rows.is_some() {
-            ols.iter_mut().map(|v| spread(v, level)).collect()
-        } else {
-            ols_t_intervals(&input.cov, input.n, level)
-        },
-        corrected_spread: spreads(&mut corr),
-        corrected_standardized_spread: spreads(&mut corr_std),
-        r2_spread: if determined {
-            spread(&mut r2, level)
-        } else {
-            None
-        },
-        intervals_determined: determined,
-        estimate,
-        inadmissible_share: share,
-        method: if input.rows.is_some() {
-            DrawMethod::Bootstrap
-        } else {
-            DrawMethod::MonteCarlo
-        },
-        draws,
-        seed,
-        sensitivity,
     })
+}
+
+/// The drawn fits' values, by predictor, and how many draws had no admissible correction.
+struct DrawnValues {
+    ols: Vec<Vec<f64>>,
+    corrected: Vec<Vec<f64>>,
+    standardized: Vec<Vec<f64>>,
+    r2: Vec<f64>,
+    inadmissible: usize,
+}
+
+impl DrawnValues {
+    /// Gather the values of the drawn fits of a model with `p` predictors.
+    fn collect(results: Vec<Option<Estimate>>, p: usize) -> DrawnValues {
+        let mut d = DrawnValues {
+            ols: vec![Vec::new(); p],
+            corrected: vec![Vec::new(); p],
+            standardized: vec![Vec::new(); p],
+            r2: Vec::new(),
+            inadmissible: 0,
+        };
+        for e in results.into_iter() {
+            let Some(e) = e else {
+                d.inadmissible += 1;
+                continue;
+            };
+            for (acc, v) in d.ols.iter_mut().zip(&e.ols) {
+                acc.push(*v);
+            }
+            match e.corrected {
+                Ok(c) => {
+                    for (acc, v) in d.corrected.iter_mut().zip(&c.slopes) {
+                        acc.push(*v);
+                    }
+                    for (acc, v) in d.standardized.iter_mut().zip(&c.standardized) {
+                        acc.push(*v);
+                    }
+                    d.r2.push(c.r2);
+                }
+                Err(_) => d.inadmissible += 1,
+            }
+        }
+        d
+    }
+}
+
+/// The corrected slopes over a grid of predictor `j`'s reliability, the others at their
+/// point values (`None` where the correction is inadmissible).
+fn sensitivity_row(
+    input: &RegressionInput,
+    j: usize,
+    rel_point: &[f64],
+    rel_y_point: f64,
+    level: Level,
+    grid_points: usize,
+) -> Vec<(f64, Option<Vec<f64>>)> {
+    sensitivity_grid(&input.rel[j], level, grid_points)
+        .into_iter()
+        .map(|g| {
+            let mut rel = rel_point.to_vec();
+            rel[j] = g;
+            let slopes = eiv(&input.cov, &rel, rel_y_point)
+                .ok()
+                .and_then(|e| e.corrected.ok())
+                .map(|c| c.slopes);
+            (g, slopes)
+        })
+        .collect()
 }
 
 #[cfg(test)]

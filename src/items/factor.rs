@@ -91,6 +91,33 @@ fn discrepancy(
     Some((f, g))
 }
 
+/// Starting values for the fit: loadings and log uniquenesses from the squared multiple
+/// correlations of the scaled matrix `s` with diagonal `var`.
+fn start_values(s: &DMatrix<f64>, var: &[f64], model: FactorModel) -> Vec<f64> {
+    let k = s.nrows();
+    let inv = s.clone().try_inverse();
+    let smc: Vec<f64> = (0..k)
+        .map(|i| match &inv {
+            Some(m) => (1.0 - 1.0 / (var[i] * m[(i, i)])).clamp(0.05, 0.95),
+            None => 0.5,
+        })
+        .collect();
+    let t0 = |h: f64| ((1.0 - h) - UNIQUENESS_FLOOR).max(1e-3).ln();
+    let mut x0: Vec<f64> = match model {
+        FactorModel::Congeneric => (0..k).map(|i| (smc[i] * var[i]).sqrt()).collect(),
+        FactorModel::TauEquivalent => {
+            let off: f64 = (0..k)
+                .flat_map(|i| (0..k).filter(move |&j| j != i).map(move |j| (i, j)))
+                .map(|(i, j)| s[(i, j)])
+                .sum::<f64>()
+                / (k * (k - 1)) as f64;
+            vec![off.max(1e-3).sqrt()]
+        }
+    };
+    x0.extend((0..k).map(|i| t0(smc[i])));
+    x0
+}
+
 /// Fit a one-factor model to a covariance matrix by maximum likelihood.
 ///
 /// Parameters are the loadings and tᵢ with ψᵢ = Sᵢᵢ(ε + exp tᵢ), ε = 1e-6, minimized by
@@ -120,27 +147,7 @@ pub fn fit_one_factor(cov: &DMatrix<f64>, model: FactorModel) -> Result<FactorFi
         }
     };
     let var: Vec<f64> = (0..k).map(|i| s[(i, i)]).collect();
-    // Starting values from squared multiple correlations.
-    let inv = s.clone().try_inverse();
-    let smc: Vec<f64> = (0..k)
-        .map(|i| match &inv {
-            Some(m) => (1.0 - 1.0 / (var[i] * m[(i, i)])).clamp(0.05, 0.95),
-            None => 0.5,
-        })
-        .collect();
-    let t0 = |h: f64| ((1.0 - h) - UNIQUENESS_FLOOR).max(1e-3).ln();
-    let mut x0: Vec<f64> = match model {
-        FactorModel::Congeneric => (0..k).map(|i| (smc[i] * var[i]).sqrt()).collect(),
-        FactorModel::TauEquivalent => {
-            let off: f64 = (0..k)
-                .flat_map(|i| (0..k).filter(move |&j| j != i).map(move |j| (i, j)))
-                .map(|(i, j)| s[(i, j)])
-                .sum::<f64>()
-                / (k * (k - 1)) as f64;
-            vec![off.max(1e-3).sqrt()]
-        }
-    };
-    x0.extend((0..k).map(|i| t0(smc[i])));
+    let x0 = start_values(&s, &var, model);
     let n_load = x0.len() - k;
     let unpack = |x: &[f64]| -> (Vec<f64>, Vec<f64>) {
         let lambda: Vec<f64> = if n_load == 1 {

@@ -143,57 +143,7 @@ fn read_part(part: &[u8], layout: &Layout<'_>) -> Result<Tallies, Declined> {
             continue;
         }
         t.rows_read += 1;
-        let mut complete = true;
-        let mut cells = 0usize;
-        for (col, cell) in line.split(|&b| b == layout.delimiter).enumerate() {
-            cells += 1;
-            let slot = match layout.slot_of.get(col) {
-                Some(Some(s)) => *s,
-                Some(None) => {
-                    if layout.unnamed.contains(&col) && !cell.trim_ascii().is_empty() {
-                        return Err(Declined);
-                    }
-                    if let Some(j) = layout.id_columns.iter().position(|&c| c == col) {
-                        t.ids[j].push(cell_hash(cell.trim_ascii()));
-                    }
-                    continue;
-                }
-                // Beyond the header: allowed only when empty.
-                None => {
-                    if cell.is_empty() {
-                        continue;
-                    }
-                    return Err(Declined);
-                }
-            };
-            let x = match cell {
-                [d @ b'0'..=b'9'] => f64::from(d - b'0'),
-                _ => {
-                    let trimmed = cell.trim_ascii();
-                    if missing_cell(trimmed) {
-                        complete = false;
-                        t.missing_cells += 1;
-                        continue;
-                    }
-                    parse_response(trimmed, layout.decimal_comma).map_err(|_| Declined)?
-                }
-            };
-            if is_missing_code(x, layout.missing_codes) {
-                complete = false;
-                t.missing_cells += 1;
-                continue;
-            }
-            let x = match layout.scale {
-                Some((lo, hi)) if x < lo || x > hi => return Err(Declined),
-                Some((lo, hi)) if layout.reversed[slot] => lo + hi - x,
-                _ => x,
-            };
-            values[slot] = x;
-            t.answer(slot, x);
-        }
-        if cells < layout.width {
-            return Err(Declined);
-        }
+        let complete = read_line(line, layout, &mut t, &mut values)?;
         if complete {
             batch.extend_from_slice(&values);
             if batch.len() == BATCH_ROWS * k {
@@ -203,6 +153,69 @@ fn read_part(part: &[u8], layout: &Layout<'_>) -> Result<Tallies, Declined> {
     }
     flush(&mut t, &mut batch, &mut scratch);
     Ok(t)
+}
+
+/// Parse one row's cells into `values` (item slots), tallying answers, missing cells and
+/// identifier hashes; true when every item is answered.
+#[inline]
+fn read_line(
+    line: &[u8],
+    layout: &Layout<'_>,
+    t: &mut Tallies,
+    values: &mut [f64],
+) -> Result<bool, Declined> {
+    let mut complete = true;
+    let mut cells = 0usize;
+    for (col, cell) in line.split(|&b| b == layout.delimiter).enumerate() {
+        cells += 1;
+        let slot = match layout.slot_of.get(col) {
+            Some(Some(s)) => *s,
+            Some(None) => {
+                if layout.unnamed.contains(&col) && !cell.trim_ascii().is_empty() {
+                    return Err(Declined);
+                }
+                if let Some(j) = layout.id_columns.iter().position(|&c| c == col) {
+                    t.ids[j].push(cell_hash(cell.trim_ascii()));
+                }
+                continue;
+            }
+            // Beyond the header: allowed only when empty.
+            None => {
+                if cell.is_empty() {
+                    continue;
+                }
+                return Err(Declined);
+            }
+        };
+        let x = match cell {
+            [d @ b'0'..=b'9'] => f64::from(d - b'0'),
+            _ => {
+                let trimmed = cell.trim_ascii();
+                if missing_cell(trimmed) {
+                    complete = false;
+                    t.missing_cells += 1;
+                    continue;
+                }
+                parse_response(trimmed, layout.decimal_comma).map_err(|_| Declined)?
+            }
+        };
+        if is_missing_code(x, layout.missing_codes) {
+            complete = false;
+            t.missing_cells += 1;
+            continue;
+        }
+        let x = match layout.scale {
+            Some((lo, hi)) if x < lo || x > hi => return Err(Declined),
+            Some((lo, hi)) if layout.reversed[slot] => lo + hi - x,
+            _ => x,
+        };
+        values[slot] = x;
+        t.answer(slot, x);
+    }
+    if cells < layout.width {
+        return Err(Declined);
+    }
+    Ok(complete)
 }
 
 #[cfg(test)]

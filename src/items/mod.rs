@@ -269,30 +269,9 @@ fn read(
     names: &[String],
     k: usize,
 ) -> (Recommendation, crate::Message) {
-    let fx = |x: f64| crate::format::fixed(x, 3);
     let f = match factor {
         Ok(f) => f,
-        Err(why) => {
-            let text = if k < 3 {
-                format!(
-                    "with {k} items the one-factor model is not identified, so only alpha ({}) is \
-                     available; it is a lower bound to reliability unless the items are \
-                     tau-equivalent",
-                    fx(a)
-                )
-            } else {
-                format!(
-                    "the one-factor model could not be fitted ({why}); alpha is {}",
-                    fx(a)
-                )
-            };
-            let rec = if a > 0.0 {
-                Recommendation::AlphaOnly
-            } else {
-                Recommendation::ReverseKeyFirst
-            };
-            return (rec, text.into());
-        }
+        Err(why) => return read_without_factor(a, why, k),
     };
     let omega = f.congeneric.omega();
     // 1. Items that run against the others.
@@ -305,35 +284,7 @@ fn read(
         .map(|(_, n)| n.as_str())
         .collect();
     if a <= 0.0 || !negative.is_empty() {
-        let which = if negative.is_empty() {
-            "some items".to_string()
-        } else {
-            negative.join(", ")
-        };
-        return (
-            Recommendation::ReverseKeyFirst,
-            crate::setting::msg![
-                format!(
-                    "{which} run against the other items (negative loading{}): reverse-key them \
-                     (",
-                    if a <= 0.0 {
-                        ", and alpha is not above 0"
-                    } else {
-                        ""
-                    }
-                ),
-                crate::Setting::ReverseKeyed,
-                " with ",
-                crate::Setting::ResponseMin,
-                " and ",
-                crate::Setting::ResponseMax,
-                format!(
-                    ") before computing any coefficient; neither alpha ({}) nor omega means \
-                     anything until then",
-                    fx(a)
-                )
-            ],
-        );
+        return read_reverse_key_first(a, &negative);
     }
     // 2. Items that share (almost) nothing.
     if f.independence_p >= TAU_TEST_LEVEL {
@@ -362,28 +313,7 @@ fn read(
     };
     // 3. One factor does not describe the items.
     if !fits {
-        let hw = if heywood.is_empty() {
-            String::new()
-        } else {
-            format!(
-                "; the solution is also improper (a Heywood case for {})",
-                heywood.join(", ")
-            )
-        };
-        return (
-            Recommendation::CheckDimensionality,
-            format!(
-                "one factor does not describe these items well (CFI {}, RMSEA {}; common limits \
-                 CFI ≥ 0.95, RMSEA ≤ 0.06){hw}: neither alpha ({}) nor omega ({}) is then the \
-                 reliability of a single trait; examine the items' dimensionality before \
-                 carrying either into a benchmark or a correction",
-                f.fit.cfi.map(fx).unwrap_or_default(),
-                f.fit.rmsea.map(fx).unwrap_or_default(),
-                fx(a),
-                fx(omega)
-            )
-            .into(),
-        );
+        return read_poor_fit(a, f, &heywood);
     }
     // 4. An improper solution.
     if !heywood.is_empty() {
@@ -401,6 +331,100 @@ fn read(
         );
     }
     // 5. Tau-equivalence.
+    read_tau_test(a, f)
+}
+
+/// A value with three decimals, as the reading shows it.
+fn fx(x: f64) -> String {
+    crate::format::fixed(x, 3)
+}
+
+/// The reading when no one-factor model could be fitted.
+fn read_without_factor(a: f64, why: &str, k: usize) -> (Recommendation, crate::Message) {
+    let text = if k < 3 {
+        format!(
+            "with {k} items the one-factor model is not identified, so only alpha ({}) is \
+             available; it is a lower bound to reliability unless the items are \
+             tau-equivalent",
+            fx(a)
+        )
+    } else {
+        format!(
+            "the one-factor model could not be fitted ({why}); alpha is {}",
+            fx(a)
+        )
+    };
+    let rec = if a > 0.0 {
+        Recommendation::AlphaOnly
+    } else {
+        Recommendation::ReverseKeyFirst
+    };
+    (rec, text.into())
+}
+
+/// The reading when items run against the others (or alpha is not above 0).
+fn read_reverse_key_first(a: f64, negative: &[&str]) -> (Recommendation, crate::Message) {
+    let which = if negative.is_empty() {
+        "some items".to_string()
+    } else {
+        negative.join(", ")
+    };
+    (
+        Recommendation::ReverseKeyFirst,
+        crate::setting::msg![
+            format!(
+                "{which} run against the other items (negative loading{}): reverse-key them \
+                 (",
+                if a <= 0.0 {
+                    ", and alpha is not above 0"
+                } else {
+                    ""
+                }
+            ),
+            crate::Setting::ReverseKeyed,
+            " with ",
+            crate::Setting::ResponseMin,
+            " and ",
+            crate::Setting::ResponseMax,
+            format!(
+                ") before computing any coefficient; neither alpha ({}) nor omega means \
+                 anything until then",
+                fx(a)
+            )
+        ],
+    )
+}
+
+/// The reading when one factor does not describe the items.
+fn read_poor_fit(a: f64, f: &FactorPart, heywood: &[&str]) -> (Recommendation, crate::Message) {
+    let omega = f.congeneric.omega();
+    let hw = if heywood.is_empty() {
+        String::new()
+    } else {
+        format!(
+            "; the solution is also improper (a Heywood case for {})",
+            heywood.join(", ")
+        )
+    };
+    (
+        Recommendation::CheckDimensionality,
+        format!(
+            "one factor does not describe these items well (CFI {}, RMSEA {}; common limits \
+             CFI ≥ 0.95, RMSEA ≤ 0.06){hw}: neither alpha ({}) nor omega ({}) is then the \
+             reliability of a single trait; examine the items' dimensionality before \
+             carrying either into a benchmark or a correction",
+            f.fit.cfi.map(fx).unwrap_or_default(),
+            f.fit.rmsea.map(fx).unwrap_or_default(),
+            fx(a),
+            fx(omega)
+        )
+        .into(),
+    )
+}
+
+/// The reading from the test of tau-equivalence, once one factor fits properly.
+fn read_tau_test(a: f64, f: &FactorPart) -> (Recommendation, crate::Message) {
+    let omega = f.congeneric.omega();
     let test = format!(
         "χ²({}) = {}, p {}",
         f.tau_test.df,

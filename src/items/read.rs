@@ -208,9 +208,19 @@ fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
     if is_workbook(&head) {
         return open_workbook(&file, head, handle, options);
     }
+    let bom = check_text_start(&file, &head, options)?;
+    let delimiter = options
+        .delimiter
+        .unwrap_or_else(|| detect_delimiter(&head[bom..]));
+    open_text(&file, head, handle, bom, delimiter)
+}
+
+/// Check the start of a text file (not UTF-16, not empty, no worksheet asked for) and
+/// return the length of its byte-order mark.
+fn check_text_start(file: &str, head: &[u8], options: &ItemReadOptions) -> Result<usize> {
     if head.starts_with(b"\xFF\xFE") || head.starts_with(b"\xFE\xFF") {
         return Err(Problems::one(
-            &file,
+            file,
             1,
             "the file is UTF-16 encoded; save it as UTF-8",
         ));
@@ -222,7 +232,7 @@ fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
     };
     if head[bom..].iter().all(u8::is_ascii_whitespace) {
         return Err(Problems::one(
-            &file,
+            file,
             1,
             "the file is empty; item data need a header row of item names and one row per \
              respondent",
@@ -237,9 +247,18 @@ fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
             ],
         ));
     }
-    let delimiter = options
-        .delimiter
-        .unwrap_or_else(|| detect_delimiter(&head[bom..]));
+    Ok(bom)
+}
+
+/// Open delimited text from its peeked start and the rest of the handle: the header
+/// read, the reader at the first data row.
+fn open_text(
+    file: &str,
+    head: Vec<u8>,
+    handle: std::fs::File,
+    bom: usize,
+    delimiter: u8,
+) -> Result<Opened> {
     let regular = handle.metadata().map(|m| m.is_file()).unwrap_or(false);
     let body: Box<dyn BufRead> = Box::new(BufReader::with_capacity(
         1 << 20,
@@ -262,7 +281,7 @@ fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
         .read_byte_record(&mut record)
         .map_err(|e| Error::io(format!("reading {file}"), std::io::Error::other(e)))?;
     if !more {
-        return Err(Problems::one(&file, 1, "the file has no header row"));
+        return Err(Problems::one(file, 1, "the file has no header row"));
     }
     let start = record.position().map(|p| p.line()).unwrap_or(1);
     let row_number = (reader.position().line().saturating_sub(start) as usize).max(1);
@@ -334,66 +353,13 @@ fn choose_columns(
     options: &ItemReadOptions,
 ) -> Result<Columns> {
     let setting = options.columns_setting;
-    let find = |name: &str| {
-        header
-            .iter()
-            .position(|h| h == name)
-            .or_else(|| header.iter().position(|h| same_name(h, name)))
-    };
-    // Every named column must be named once.
-    for (i, h) in header.iter().enumerate() {
-        if !h.is_empty()
-            && let Some(j) = header[..i].iter().position(|g| same_name(g, h))
-        {
-            return Err(Problems::one(
-                file,
-                1,
-                format!(
-                    "the column name \"{}\" appears twice (columns {} and {}); every column \
-                     needs its own name",
-                    crate::format::quoted(h, 200),
-                    j + 1,
-                    i + 1
-                ),
-            ));
-        }
-    }
+    check_unique_names(file, header)?;
     let unnamed: Vec<usize> = (0..header.len())
         .filter(|&i| header[i].is_empty())
         .collect();
     let mut id_columns = Vec::new();
     let items: Vec<usize> = match &options.items {
-        Some(names) => {
-            let mut idx = Vec::new();
-            let mut unknown = Vec::new();
-            for n in names {
-                match find(n) {
-                    Some(i) if idx.contains(&i) => {
-                        return Err(Error::setting(
-                            setting,
-                            msg![setting, format!(" names {n} twice")],
-                        ));
-                    }
-                    Some(i) => idx.push(i),
-                    None => unknown.push(n.clone()),
-                }
-            }
-            if !unknown.is_empty() {
-                return Err(Problems::one(
-                    file,
-                    1,
-                    msg![
-                        setting,
-                        format!(
-                            " names column(s) the file does not have: {} (its columns are: {})",
-                            unknown.join(", "),
-                            crate::format::quoted(&header.join(", "), 200)
-                        )
-                    ],
-                ));
-            }
-            idx
-        }
+        Some(names) => chosen_items(file, header, names, setting)?,
         // Without chosen items every named column is an item, except text columns (in the
         // first row), which are identifier candidates; unnamed columns must stay empty.
         None => (0..header.len())
@@ -427,6 +393,85 @@ fn choose_columns(
             format!("column {} has no name in the header", items[i] + 1),
         ));
     }
+    let reversed = reversed_items(&names, options)?;
+    Ok(Columns {
+        items,
+        names,
+        reversed,
+        unnamed,
+        id_columns,
+    })
+}
+
+/// Fail when a column name appears twice in the header.
+fn check_unique_names(file: &str, header: &[String]) -> Result<()> {
+    for (i, h) in header.iter().enumerate() {
+        if !h.is_empty()
+            && let Some(j) = header[..i].iter().position(|g| same_name(g, h))
+        {
+            return Err(Problems::one(
+                file,
+                1,
+                format!(
+                    "the column name \"{}\" appears twice (columns {} and {}); every column \
+                     needs its own name",
+                    crate::format::quoted(h, 200),
+                    j + 1,
+                    i + 1
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// The file columns of the items the user named, each named once and present.
+fn chosen_items(
+    file: &str,
+    header: &[String],
+    names: &[String],
+    setting: Setting,
+) -> Result<Vec<usize>> {
+    let find = |name: &str| {
+        header
+            .iter()
+            .position(|h| h == name)
+            .or_else(|| header.iter().position(|h| same_name(h, name)))
+    };
+    let mut idx = Vec::new();
+    let mut unknown = Vec::new();
+    for n in names {
+        match find(n) {
+            Some(i) if idx.contains(&i) => {
+                return Err(Error::setting(
+                    setting,
+                    msg![setting, format!(" names {n} twice")],
+                ));
+            }
+            Some(i) => idx.push(i),
+            None => unknown.push(n.clone()),
+        }
+    }
+    if !unknown.is_empty() {
+        return Err(Problems::one(
+            file,
+            1,
+            msg![
+                setting,
+                format!(
+                    " names column(s) the file does not have: {} (its columns are: {})",
+                    unknown.join(", "),
+                    crate::format::quoted(&header.join(", "), 200)
+                )
+            ],
+        ));
+    }
+    Ok(idx)
+}
+
+/// Which of the items are reverse-keyed (each must be an item, and the response scale
+/// must be given).
+fn reversed_items(names: &[String], options: &ItemReadOptions) -> Result<Vec<bool>> {
     let mut reversed = vec![false; names.len()];
     for r in &options.reverse {
         let Some(pos) = names.iter().position(|n| same_name(n, r)) else {
@@ -453,13 +498,7 @@ fn choose_columns(
             ],
         ));
     }
-    Ok(Columns {
-        items,
-        names,
-        reversed,
-        unnamed,
-        id_columns,
-    })
+    Ok(reversed)
 }
 
 /// [`read_items`], with the parallel fast path (in parts of the given size) or without it;
@@ -489,10 +528,8 @@ fn read_items_with(
     )?;
     let k = cols.names.len();
     let width = header.len();
-    let mut t = Tallies::new(k, options.keep_rows, cols.id_columns.len());
     // Clean text files under listwise deletion take the parallel fast path; anything it
     // does not handle is read below, from the first data row, by the careful reader.
-    let mut done = false;
     if let (
         Some(part_bytes),
         Missing::Listwise,
@@ -503,13 +540,9 @@ fn read_items_with(
         },
     ) = (fast_parts, options.missing, &source)
     {
-        let mut slot_of = vec![None; width];
-        for (slot, &c) in cols.items.iter().enumerate() {
-            slot_of[c] = Some(slot);
-        }
         let layout = super::fast::Layout {
             width,
-            slot_of,
+            slot_of: slots(&cols, width),
             unnamed: &cols.unnamed,
             k,
             delimiter: *delimiter,
@@ -521,55 +554,48 @@ fn read_items_with(
             keep_rows: options.keep_rows,
             part_bytes,
         };
-        let mut again =
-            std::fs::File::open(path).map_err(|e| Error::io(format!("reading {file}"), e))?;
-        again
-            .seek(SeekFrom::Start(*start))
-            .map_err(|e| Error::io(format!("reading {file}"), e))?;
-        let outcome = super::fast::read_rows(again, &layout)
-            .map_err(|e| Error::io(format!("reading {file}"), e))?;
-        if let Ok(fast) = outcome {
-            t = fast;
-            done = true;
+        if let Some(t) = read_fast(path, &file, *start, &layout)? {
+            return finish(file, format, worksheet, cols, &header, t, None, options);
         }
     }
-    if !done {
-        let mut problems = Problems {
-            file: file.clone(),
-            listed: Vec::new(),
-            unlisted: 0,
-        };
-        let mut careful = Careful {
-            cols: &cols,
-            options,
-            width,
-            decimal_comma,
-            pairwise: (options.missing == Missing::Pairwise).then(|| Pairwise::new(k)),
-            values: vec![0.0; k],
-            optional: vec![None; k],
-        };
-        let mut record = first;
-        let mut row = first_row;
-        while let Some(r) = row {
-            careful.row(r, &record, &mut t, &mut problems);
-            row = source.next(&mut record, &file)?;
-        }
-        if problems.unlisted > 0 {
-            let more = problems.unlisted;
-            problems.listed.push(CellProblem::file(format!(
-                "… and {more} more problem(s) of the same kinds"
-            )));
-        }
-        if !problems.listed.is_empty() {
-            return Err(Error::InvalidSheet {
-                file: problems.file,
-                problems: problems.listed,
-            });
-        }
-        let pairwise = careful.pairwise.take();
-        return finish(file, format, worksheet, cols, &header, t, pairwise, options);
+    let careful = Careful {
+        cols: &cols,
+        options,
+        width,
+        decimal_comma,
+        pairwise: (options.missing == Missing::Pairwise).then(|| Pairwise::new(k)),
+        values: vec![0.0; k],
+        optional: vec![None; k],
+    };
+    let (t, pairwise) = careful.read_all(&file, &mut source, first, first_row)?;
+    finish(file, format, worksheet, cols, &header, t, pairwise, options)
+}
+
+/// For each column of the file, its item slot (None: not an item).
+fn slots(cols: &Columns, width: usize) -> Vec<Option<usize>> {
+    let mut slot_of = vec![None; width];
+    for (slot, &c) in cols.items.iter().enumerate() {
+        slot_of[c] = Some(slot);
     }
-    finish(file, format, worksheet, cols, &header, t, None, options)
+    slot_of
+}
+
+/// The tallies from the fast path, reading the file again from the first data row at
+/// byte `start`; `None` when the fast path declines the file.
+fn read_fast(
+    path: &Path,
+    file: &str,
+    start: u64,
+    layout: &super::fast::Layout<'_>,
+) -> Result<Option<Tallies>> {
+    let mut again =
+        std::fs::File::open(path).map_err(|e| Error::io(format!("reading {file}"), e))?;
+    again
+        .seek(SeekFrom::Start(start))
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    let outcome = super::fast::read_rows(again, layout)
+        .map_err(|e| Error::io(format!("reading {file}"), e))?;
+    Ok(outcome.ok())
 }
 
 /// The careful reader: one record at a time, every problem located.
@@ -583,7 +609,54 @@ struct Careful<'a> {
     optional: Vec<Option<f64>>,
 }
 
+/// One item's cell in a row, as the careful reader reads it.
+enum Response {
+    /// Empty, a missing mark, or a missing-value code.
+    Missing,
+    /// Not a number, or off the response scale (the problem is reported).
+    Bad,
+    /// The response, reverse-keyed where asked.
+    Value(f64),
+}
+
 impl Careful<'_> {
+    /// Read every row from the first data row on: the tallies and the pairwise sums, or
+    /// all the problems found.
+    fn read_all(
+        mut self,
+        file: &str,
+        source: &mut Source,
+        first: csv::ByteRecord,
+        first_row: Option<usize>,
+    ) -> Result<(Tallies, Option<Pairwise>)> {
+        let k = self.cols.names.len();
+        let mut t = Tallies::new(k, self.options.keep_rows, self.cols.id_columns.len());
+        let mut problems = Problems {
+            file: file.to_string(),
+            listed: Vec::new(),
+            unlisted: 0,
+        };
+        let mut record = first;
+        let mut row = first_row;
+        while let Some(r) = row {
+            self.row(r, &record, &mut t, &mut problems);
+            row = source.next(&mut record, file)?;
+        }
+        if problems.unlisted > 0 {
+            let more = problems.unlisted;
+            problems.listed.push(CellProblem::file(format!(
+                "… and {more} more problem(s) of the same kinds"
+            )));
+        }
+        if !problems.listed.is_empty() {
+            return Err(Error::InvalidSheet {
+                file: problems.file,
+                problems: problems.listed,
+            });
+        }
+        Ok((t, self.pairwise.take()))
+    }
+
     fn row(
         &mut self,
         row: usize,
@@ -595,27 +668,8 @@ impl Careful<'_> {
             return;
         }
         t.rows_read += 1;
-        let width = self.width;
-        if record.len() != width
-            && !(record.len() > width && record.iter().skip(width).all(|c| c.is_empty()))
-        {
-            problems.push(CellProblem::row(
-                row,
-                format!(
-                    "the row has {} cells but the header has {width} columns",
-                    record.len()
-                ),
-            ));
+        if !self.check_shape(row, record, problems) {
             return;
-        }
-        for &u in &self.cols.unnamed {
-            if record.get(u).is_some_and(|c| !c.trim_ascii().is_empty()) {
-                problems.push(CellProblem::cell(
-                    row,
-                    format!("{} (unnamed)", u + 1),
-                    "the cell holds a value but its column has no name in the header",
-                ));
-            }
         }
         for (j, &c) in self.cols.id_columns.iter().enumerate() {
             t.ids[j].push(cell_hash(record.get(c).unwrap_or(b"").trim_ascii()));
@@ -623,50 +677,19 @@ impl Careful<'_> {
         let mut complete = true;
         let mut bad = false;
         for (slot, &col) in self.cols.items.iter().enumerate() {
-            let trimmed = record.get(col).unwrap_or(b"").trim_ascii();
-            let parsed = if missing_cell(trimmed) {
-                None
-            } else {
-                match parse_response(trimmed, self.decimal_comma) {
-                    Ok(x) if is_missing_code(x, &self.options.missing_codes) => None,
-                    Ok(x) => Some(x),
-                    Err(e) => {
-                        problems.push(CellProblem::cell(
-                            row,
-                            self.cols.names[slot].clone(),
-                            format!(
-                                "{e}; a response must be a number (mark a missing one empty, \
-                                 NA or .)"
-                            ),
-                        ));
-                        bad = true;
-                        continue;
-                    }
+            match self.response(row, slot, record.get(col), problems) {
+                Response::Bad => bad = true,
+                Response::Missing => {
+                    complete = false;
+                    t.missing_cells += 1;
+                    self.optional[slot] = None;
                 }
-            };
-            let Some(mut x) = parsed else {
-                complete = false;
-                t.missing_cells += 1;
-                self.optional[slot] = None;
-                continue;
-            };
-            if let Some((lo, hi)) = self.options.scale {
-                if x < lo || x > hi {
-                    problems.push(CellProblem::cell(
-                        row,
-                        self.cols.names[slot].clone(),
-                        format!("{x} lies outside the response scale {lo} to {hi}"),
-                    ));
-                    bad = true;
-                    continue;
-                }
-                if self.cols.reversed[slot] {
-                    x = lo + hi - x;
+                Response::Value(x) => {
+                    self.values[slot] = x;
+                    self.optional[slot] = Some(x);
+                    t.answer(slot, x);
                 }
             }
-            self.values[slot] = x;
-            self.optional[slot] = Some(x);
-            t.answer(slot, x);
         }
         if bad {
             return;
@@ -680,6 +703,75 @@ impl Careful<'_> {
                 r.extend_from_slice(&self.values);
             }
         }
+    }
+
+    /// Report a row of the wrong width (false: the row is left out) and values in
+    /// unnamed columns.
+    fn check_shape(&self, row: usize, record: &csv::ByteRecord, problems: &mut Problems) -> bool {
+        let width = self.width;
+        if record.len() != width
+            && !(record.len() > width && record.iter().skip(width).all(|c| c.is_empty()))
+        {
+            problems.push(CellProblem::row(
+                row,
+                format!(
+                    "the row has {} cells but the header has {width} columns",
+                    record.len()
+                ),
+            ));
+            return false;
+        }
+        for &u in &self.cols.unnamed {
+            if record.get(u).is_some_and(|c| !c.trim_ascii().is_empty()) {
+                problems.push(CellProblem::cell(
+                    row,
+                    format!("{} (unnamed)", u + 1),
+                    "the cell holds a value but its column has no name in the header",
+                ));
+            }
+        }
+        true
+    }
+
+    /// Read the cell of item `slot`, reporting a value that is not a number or lies off
+    /// the response scale.
+    fn response(
+        &self,
+        row: usize,
+        slot: usize,
+        cell: Option<&[u8]>,
+        problems: &mut Problems,
+    ) -> Response {
+        let trimmed = cell.unwrap_or(b"").trim_ascii();
+        if missing_cell(trimmed) {
+            return Response::Missing;
+        }
+        let mut x = match parse_response(trimmed, self.decimal_comma) {
+            Ok(x) if is_missing_code(x, &self.options.missing_codes) => return Response::Missing,
+            Ok(x) => x,
+            Err(e) => {
+                problems.push(CellProblem::cell(
+                    row,
+                    self.cols.names[slot].clone(),
+                    format!("{e}; a response must be a number (mark a missing one empty, NA or .)"),
+                ));
+                return Response::Bad;
+            }
+        };
+        if let Some((lo, hi)) = self.options.scale {
+            if x < lo || x > hi {
+                problems.push(CellProblem::cell(
+                    row,
+                    self.cols.names[slot].clone(),
+                    format!("{x} lies outside the response scale {lo} to {hi}"),
+                ));
+                return Response::Bad;
+            }
+            if self.cols.reversed[slot] {
+                x = lo + hi - x;
+            }
+        }
+        Response::Value(x)
     }
 }
 
@@ -695,48 +787,94 @@ fn finish(
     pairwise: Option<Pairwise>,
     options: &ItemReadOptions,
 ) -> Result<ItemData> {
-    let Tallies {
-        listwise,
-        seen,
-        lowest,
-        highest,
-        counting,
-        rows_read,
-        missing_cells,
-        rows,
-        ids,
-        ..
-    } = t;
-    let Columns {
-        names,
-        reversed,
-        id_columns,
-        ..
-    } = cols;
-    if rows_read == 0 {
+    if t.rows_read == 0 {
         return Err(Problems::one(
             &file,
             1,
             "the file has a header row but no respondents below it",
         ));
     }
-    let k = names.len();
-    // A text column is an identifier when every respondent has a different value in it.
+    let (identifiers, mut notes) = identifiers(&file, header, &cols, &t, options)?;
+    let names = &cols.names;
+    if let Some(i) = t.seen.iter().position(|&c| c == 0) {
+        return Err(Error::cannot(msg![
+            format!(
+                "{file}: column {} has no answers at all; leave it out with ",
+                names[i]
+            ),
+            options.columns_setting
+        ]));
+    }
+    for (i, name) in names.iter().enumerate() {
+        if t.counting[i] && t.seen[i] >= 3 {
+            notes.push(crate::Warning::IdentifierColumn {
+                column: name.clone(),
+            });
+        }
+    }
+    let moments = match &pairwise {
+        Some(p) => p.finish(),
+        None => t.listwise.finish(),
+    }
+    .ok_or_else(|| {
+        Error::cannot(format!(
+            "{file}: fewer than 2 respondents {} ({} row(s) read, {} complete)",
+            match options.missing {
+                Missing::Listwise => "answered every item",
+                Missing::Pairwise => "answered some pair of items",
+            },
+            t.rows_read,
+            t.listwise.n()
+        ))
+    })?;
+    if options.scale.is_none() {
+        extreme_responses(names, &t, &mut notes);
+    }
+    let Columns {
+        names, reversed, ..
+    } = cols;
+    Ok(ItemData {
+        notes,
+        file,
+        format,
+        worksheet,
+        names,
+        reversed,
+        rows_read: t.rows_read,
+        complete_rows: t.listwise.n(),
+        missing_cells: t.missing_cells,
+        missing: options.missing,
+        moments,
+        rows: t.rows,
+        identifiers,
+    })
+}
+
+/// The text columns left out as identifiers, with a note for each; a text column is an
+/// identifier when every respondent has a different value in it, and an error otherwise.
+fn identifiers(
+    file: &str,
+    header: &[String],
+    cols: &Columns,
+    t: &Tallies,
+    options: &ItemReadOptions,
+) -> Result<(Vec<String>, Vec<crate::Warning>)> {
     let mut notes = Vec::new();
     let mut identifiers = Vec::new();
-    for (j, &c) in id_columns.iter().enumerate() {
-        let mut h = ids[j].clone();
+    for (j, &c) in cols.id_columns.iter().enumerate() {
+        let mut h = t.ids[j].clone();
         h.sort_unstable();
-        let unique = h.len() as u64 == rows_read && h.windows(2).all(|w| w[0] != w[1]);
+        let unique = h.len() as u64 == t.rows_read && h.windows(2).all(|w| w[0] != w[1]);
         if !unique {
-            let suggested: Vec<&str> = names
+            let suggested: Vec<&str> = cols
+                .names
                 .iter()
                 .enumerate()
-                .filter(|(i, _)| !(counting[*i] && seen[*i] >= 3))
+                .filter(|(i, _)| !(t.counting[*i] && t.seen[*i] >= 3))
                 .map(|(_, n)| n.as_str())
                 .collect();
             return Err(Problems::one(
-                &file,
+                file,
                 2,
                 msg![
                     format!(
@@ -753,73 +891,29 @@ fn finish(
             column: header[c].clone(),
         });
     }
-    if let Some(i) = seen.iter().position(|&c| c == 0) {
-        return Err(Error::cannot(msg![
-            format!(
-                "{file}: column {} has no answers at all; leave it out with ",
-                names[i]
-            ),
-            options.columns_setting
-        ]));
-    }
-    for i in 0..k {
-        if counting[i] && seen[i] >= 3 {
-            notes.push(crate::Warning::IdentifierColumn {
-                column: names[i].clone(),
+    Ok((identifiers, notes))
+}
+
+/// Note an answer far beyond all the others (e.g. −99 or 999 missing-value codes): its
+/// gap to the next answer is more than twice the range of the rest.
+fn extreme_responses(names: &[String], t: &Tallies, notes: &mut Vec<crate::Warning>) {
+    for (i, name) in names.iter().enumerate() {
+        let ([l0, l1], [h0, h1]) = (t.lowest[i], t.highest[i]);
+        if t.seen[i] < 4 {
+            continue;
+        }
+        if l1 - l0 > 2.0 * (h0 - l1) && h0 > l1 {
+            notes.push(crate::Warning::ExtremeResponse {
+                column: name.clone(),
+                value: l0,
+            });
+        } else if h0 - h1 > 2.0 * (h1 - l0) && h1 > l0 {
+            notes.push(crate::Warning::ExtremeResponse {
+                column: name.clone(),
+                value: h0,
             });
         }
     }
-    let moments = match &pairwise {
-        Some(p) => p.finish(),
-        None => listwise.finish(),
-    }
-    .ok_or_else(|| {
-        Error::cannot(format!(
-            "{file}: fewer than 2 respondents {} ({} row(s) read, {} complete)",
-            match options.missing {
-                Missing::Listwise => "answered every item",
-                Missing::Pairwise => "answered some pair of items",
-            },
-            rows_read,
-            listwise.n()
-        ))
-    })?;
-    // An answer far beyond all the others (e.g. −99 or 999 missing-value codes): its gap
-    // to the next answer is more than twice the range of the rest.
-    if options.scale.is_none() {
-        for i in 0..k {
-            let ([l0, l1], [h0, h1]) = (lowest[i], highest[i]);
-            if seen[i] < 4 {
-                continue;
-            }
-            if l1 - l0 > 2.0 * (h0 - l1) && h0 > l1 {
-                notes.push(crate::Warning::ExtremeResponse {
-                    column: names[i].clone(),
-                    value: l0,
-                });
-            } else if h0 - h1 > 2.0 * (h1 - l0) && h1 > l0 {
-                notes.push(crate::Warning::ExtremeResponse {
-                    column: names[i].clone(),
-                    value: h0,
-                });
-            }
-        }
-    }
-    Ok(ItemData {
-        notes,
-        file,
-        format,
-        worksheet,
-        names,
-        reversed,
-        rows_read,
-        complete_rows: listwise.n(),
-        missing_cells,
-        missing: options.missing,
-        moments,
-        rows,
-        identifiers,
-    })
 }
 
 #[cfg(test)]

@@ -159,50 +159,7 @@ impl Design {
                 missing.push(m.name().to_string());
                 continue;
             };
-            match m {
-                Moderator::Numeric {
-                    name,
-                    column,
-                    centre,
-                } => {
-                    let x = parse_number(text, format.decimal_comma()).map_err(|e| {
-                        Error::setting(
-                            setting,
-                            msg![
-                                given(setting, format!("{name}={text}")),
-                                format!(": the value of moderator {name}: {e}")
-                            ],
-                        )
-                    })?;
-                    row[*column] = x - centre;
-                }
-                Moderator::Categorical {
-                    name,
-                    reference,
-                    levels,
-                    ..
-                } => {
-                    if same_name(text, reference) {
-                        continue;
-                    }
-                    let Some((_, col)) = levels.iter().find(|(l, _)| same_name(l, text)) else {
-                        let mut all = vec![reference.clone()];
-                        all.extend(levels.iter().map(|(l, _)| l.clone()));
-                        return Err(Error::setting(
-                            setting,
-                            msg![
-                                given(setting, format!("{name}={}", text.trim())),
-                                format!(
-                                    ": no study in the model has this level of {name}, so the \
-                                     model says nothing about it (levels: {})",
-                                    all.join(", ")
-                                )
-                            ],
-                        ));
-                    };
-                    row[*col] = 1.0;
-                }
-            }
+            set_value(m, text, &mut row, format, setting)?;
         }
         if !missing.is_empty() {
             return Err(Error::setting(
@@ -251,6 +208,61 @@ impl Design {
         }
         crate::format::and_list(&parts)
     }
+}
+
+/// Put a moderator's value, given as text, into its column(s) of a design row.
+fn set_value(
+    m: &Moderator,
+    text: &str,
+    row: &mut [f64],
+    format: SheetFormat,
+    setting: Setting,
+) -> Result<()> {
+    match m {
+        Moderator::Numeric {
+            name,
+            column,
+            centre,
+        } => {
+            let x = parse_number(text, format.decimal_comma()).map_err(|e| {
+                Error::setting(
+                    setting,
+                    msg![
+                        given(setting, format!("{name}={text}")),
+                        format!(": the value of moderator {name}: {e}")
+                    ],
+                )
+            })?;
+            row[*column] = x - centre;
+        }
+        Moderator::Categorical {
+            name,
+            reference,
+            levels,
+            ..
+        } => {
+            if same_name(text, reference) {
+                return Ok(());
+            }
+            let Some((_, col)) = levels.iter().find(|(l, _)| same_name(l, text)) else {
+                let mut all = vec![reference.clone()];
+                all.extend(levels.iter().map(|(l, _)| l.clone()));
+                return Err(Error::setting(
+                    setting,
+                    msg![
+                        given(setting, format!("{name}={}", text.trim())),
+                        format!(
+                            ": no study in the model has this level of {name}, so the model \
+                             says nothing about it (levels: {})",
+                            all.join(", ")
+                        )
+                    ],
+                ));
+            };
+            row[*col] = 1.0;
+        }
+    }
+    Ok(())
 }
 
 /// The standard columns that can serve as numeric moderators.
@@ -391,50 +403,9 @@ pub fn levels_of(
 /// missing moderator value are left out and listed; a numeric column with a few text
 /// values, a constant moderator, a singular design or too few studies are errors.
 pub fn build_design(p: &Prepared, specs: &[ModeratorSpec], centring: Centring) -> Result<Design> {
-    let mut seen: Vec<&str> = Vec::new();
-    for s in specs {
-        if seen.iter().any(|n| same_name(n, &s.name)) {
-            return Err(Error::setting(
-                Setting::Moderators,
-                msg![
-                    given(Setting::Moderators, s.name.clone()),
-                    " is given twice"
-                ],
-            ));
-        }
-        seen.push(&s.name);
-    }
-    // Values, and which rows lack one.
-    let mut values: Vec<Vec<Option<String>>> = Vec::with_capacity(specs.len());
-    let mut kinds = Vec::with_capacity(specs.len());
-    for s in specs {
-        let c = moderator_column(p, &s.name)?;
-        let categorical_role = c == ColumnRef::Standard(Role::CoefType);
-        kinds.push(if categorical_role {
-            ModeratorKind::Categorical
-        } else {
-            s.kind
-        });
-        values.push(p.records.iter().map(|r| value_of(r, c)).collect());
-    }
-    let mut used = Vec::new();
-    let mut excluded = Vec::new();
-    for (i, rec) in p.records.iter().enumerate() {
-        let reasons: Vec<String> = specs
-            .iter()
-            .zip(&values)
-            .filter(|(_, col)| col[i].is_none())
-            .map(|(s, _)| format!("column {}: the moderator value is missing", s.name))
-            .collect();
-        if reasons.is_empty() {
-            used.push(i);
-        } else {
-            excluded.push(ExcludedRow {
-                row: rec.row,
-                reasons,
-            });
-        }
-    }
+    check_distinct(specs)?;
+    let (values, kinds) = moderator_values(p, specs)?;
+    let (used, excluded) = split_missing(p, specs, &values);
     let mut b = Builder {
         columns: vec![vec![1.0; used.len()]],
         names: vec!["intercept".to_string()],
@@ -491,6 +462,75 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec], centring: Centring) -
         excluded,
         warnings,
     })
+}
+
+/// Fail when a moderator is given twice.
+fn check_distinct(specs: &[ModeratorSpec]) -> Result<()> {
+    let mut seen: Vec<&str> = Vec::new();
+    for s in specs {
+        if seen.iter().any(|n| same_name(n, &s.name)) {
+            return Err(Error::setting(
+                Setting::Moderators,
+                msg![
+                    given(Setting::Moderators, s.name.clone()),
+                    " is given twice"
+                ],
+            ));
+        }
+        seen.push(&s.name);
+    }
+    Ok(())
+}
+
+/// A column's values over the prepared studies (`None` where missing).
+type ColumnValues = Vec<Option<String>>;
+
+/// Each moderator's values over the prepared studies (`None` where missing) and its
+/// kind (coef_type is always categorical).
+fn moderator_values(
+    p: &Prepared,
+    specs: &[ModeratorSpec],
+) -> Result<(Vec<ColumnValues>, Vec<ModeratorKind>)> {
+    let mut values: Vec<ColumnValues> = Vec::with_capacity(specs.len());
+    let mut kinds = Vec::with_capacity(specs.len());
+    for s in specs {
+        let c = moderator_column(p, &s.name)?;
+        let categorical_role = c == ColumnRef::Standard(Role::CoefType);
+        kinds.push(if categorical_role {
+            ModeratorKind::Categorical
+        } else {
+            s.kind
+        });
+        values.push(p.records.iter().map(|r| value_of(r, c)).collect());
+    }
+    Ok((values, kinds))
+}
+
+/// The studies with every moderator value, and the rows that lack one (with why).
+fn split_missing(
+    p: &Prepared,
+    specs: &[ModeratorSpec],
+    values: &[ColumnValues],
+) -> (Vec<usize>, Vec<ExcludedRow>) {
+    let mut used = Vec::new();
+    let mut excluded = Vec::new();
+    for (i, rec) in p.records.iter().enumerate() {
+        let reasons: Vec<String> = specs
+            .iter()
+            .zip(values)
+            .filter(|(_, col)| col[i].is_none())
+            .map(|(s, _)| format!("column {}: the moderator value is missing", s.name))
+            .collect();
+        if reasons.is_empty() {
+            used.push(i);
+        } else {
+            excluded.push(ExcludedRow {
+                row: rec.row,
+                reasons,
+            });
+        }
+    }
+    (used, excluded)
 }
 
 /// The design's columns as they are built.

@@ -73,41 +73,31 @@ pub fn permutation_test(
     seed: u64,
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<PermutationResult> {
-    if permutations == 0 {
-        return Err(Error::setting(
-            Setting::Permutations,
-            msg![Setting::Permutations, " must be at least 1"],
-        ));
-    }
     let columns = ex.moderator_columns();
-    if columns.is_empty() {
-        return Err(Error::setting(
-            Setting::Permutations,
-            msg![
-                "a permutation test needs at least one moderator (",
-                Setting::Moderators,
-                ")"
-            ],
-        ));
-    }
+    check_request(permutations, &columns)?;
     let data = ex.data(p)?;
-    let k = data.k();
-    let opts = FitOptions {
-        tau2_interval: false,
-        ..ex.fit.options
-    };
     let obs_omnibus = ex.omnibus.map(|o| o.statistic).unwrap_or(f64::NAN);
-    // The omnibus statistic is F = Q/m under Knapp–Hartung and Q under Wald.
-    let omnibus_divisor = if ex.fit.df.is_some() {
-        columns.len() as f64
-    } else {
-        1.0
-    };
     let obs_coef: Vec<f64> = columns
         .iter()
         .map(|&j| ex.fit.coefficients[j].statistic.abs())
         .collect();
-    let at_least = |stat: f64, obs: f64| stat >= obs - 1e-12 * obs.abs();
+    let refits = Refits {
+        data: &data,
+        columns: &columns,
+        opts: FitOptions {
+            tau2_interval: false,
+            ..ex.fit.options
+        },
+        obs_omnibus,
+        // The omnibus statistic is F = Q/m under Knapp–Hartung and Q under Wald.
+        omnibus_divisor: if ex.fit.df.is_some() {
+            columns.len() as f64
+        } else {
+            1.0
+        },
+        obs_coef: &obs_coef,
+        seed,
+    };
 
     let n_chunks = permutations.div_ceil(CHUNK);
     let tally = (0..n_chunks)
@@ -115,40 +105,7 @@ pub fn permutation_test(
         .map(|c| {
             let start = c * CHUNK;
             let end = (start + CHUNK).min(permutations);
-            let mut t = Tally {
-                coefficients: vec![0; columns.len()],
-                ..Tally::default()
-            };
-            let mut order: Vec<usize> = (0..k).collect();
-            for b in start..end {
-                let mut rng = stream(seed, b as u64);
-                order.iter_mut().enumerate().for_each(|(i, o)| *o = i);
-                order.shuffle(&mut rng);
-                let mut x = data.x().clone();
-                for (i, &src) in order.iter().enumerate() {
-                    for &j in &columns {
-                        x[(i, j)] = data.x()[(src, j)];
-                    }
-                }
-                let refit = MetaData::with_design(data.y().to_vec(), data.v().to_vec(), x)
-                    .and_then(|d| fit_coefficients(&d, &opts));
-                match refit {
-                    Ok((beta, cov)) => {
-                        t.done += 1;
-                        let o = wald_statistic(&beta, &cov, &columns) / omnibus_divisor;
-                        if at_least(o, obs_omnibus) {
-                            t.omnibus += 1;
-                        }
-                        for (slot, (&j, &obs)) in columns.iter().zip(&obs_coef).enumerate() {
-                            let z = beta[j] / cov[(j, j)].max(0.0).sqrt();
-                            if at_least(z.abs(), obs) {
-                                t.coefficients[slot] += 1;
-                            }
-                        }
-                    }
-                    Err(_) => t.failed += 1,
-                }
-            }
+            let t = refits.run(start, end);
             progress(end - start);
             t
         })
@@ -174,4 +131,89 @@ pub fn permutation_test(
         omnibus_p: obs_omnibus.is_finite().then(|| p_of(tally.omnibus)),
         coefficient_p,
     })
+}
+
+/// Refuse no permutations at all, or a model without moderators to permute.
+fn check_request(permutations: usize, columns: &[usize]) -> Result<()> {
+    if permutations == 0 {
+        return Err(Error::setting(
+            Setting::Permutations,
+            msg![Setting::Permutations, " must be at least 1"],
+        ));
+    }
+    if columns.is_empty() {
+        return Err(Error::setting(
+            Setting::Permutations,
+            msg![
+                "a permutation test needs at least one moderator (",
+                Setting::Moderators,
+                ")"
+            ],
+        ));
+    }
+    Ok(())
+}
+
+/// The refits of permuted data and the observed statistics they are compared with.
+struct Refits<'a> {
+    data: &'a MetaData,
+    /// The moderators' design columns, which are permuted.
+    columns: &'a [usize],
+    opts: FitOptions,
+    obs_omnibus: f64,
+    /// What the Wald statistic is divided by to give the omnibus statistic.
+    omnibus_divisor: f64,
+    /// The observed |statistic| of each moderator column.
+    obs_coef: &'a [f64],
+    seed: u64,
+}
+
+impl Refits<'_> {
+    /// Refit permutations `start..end` and count the statistics at least as extreme as
+    /// the observed ones.
+    fn run(&self, start: usize, end: usize) -> Tally {
+        let (data, columns) = (self.data, self.columns);
+        let k = data.k();
+        let mut t = Tally {
+            coefficients: vec![0; columns.len()],
+            ..Tally::default()
+        };
+        let mut order: Vec<usize> = (0..k).collect();
+        for b in start..end {
+            let mut rng = stream(self.seed, b as u64);
+            order.iter_mut().enumerate().for_each(|(i, o)| *o = i);
+            order.shuffle(&mut rng);
+            let mut x = data.x().clone();
+            for (i, &src) in order.iter().enumerate() {
+                for &j in columns {
+                    x[(i, j)] = data.x()[(src, j)];
+                }
+            }
+            let refit = MetaData::with_design(data.y().to_vec(), data.v().to_vec(), x)
+                .and_then(|d| fit_coefficients(&d, &self.opts));
+            match refit {
+                Ok((beta, cov)) => {
+                    t.done += 1;
+                    let o = wald_statistic(&beta, &cov, columns) / self.omnibus_divisor;
+                    if at_least(o, self.obs_omnibus) {
+                        t.omnibus += 1;
+                    }
+                    for (slot, (&j, &obs)) in columns.iter().zip(self.obs_coef).enumerate() {
+                        let z = beta[j] / cov[(j, j)].max(0.0).sqrt();
+                        if at_least(z.abs(), obs) {
+                            t.coefficients[slot] += 1;
+                        }
+                    }
+                }
+                Err(_) => t.failed += 1,
+            }
+        }
+        t
+    }
+}
+
+/// Whether a permuted statistic is at least as extreme as the observed one (with a
+/// little room for rounding).
+fn at_least(stat: f64, obs: f64) -> bool {
+    stat >= obs - 1e-12 * obs.abs()
 }

@@ -366,185 +366,41 @@ fn score_spread_inner(
     centring: Centring,
     options: &FitOptions,
 ) -> Result<ScoreSpread> {
-    if p.transform == TransformKind::None {
-        return Err(Error::setting(
-            Setting::ScoreSpread,
-            msg![
-                "the score-spread test needs reliability coefficients; with ",
-                given(Setting::Transform, "none"),
-                " the sheet holds effects of unknown kind"
-            ],
-        ));
-    }
-    // Reference levels come from all usable studies, as in the main model, so that the
-    // two models name their coefficients alike.
-    let others: Vec<ModeratorSpec> = if others.is_empty() {
-        Vec::new()
-    } else {
-        let full = build_design(p, others, centring)?;
-        others
-            .iter()
-            .map(|spec| {
-                let reference = full.moderators.iter().find_map(|m| match m {
-                    super::design::Moderator::Categorical {
-                        name, reference, ..
-                    } if name.eq_ignore_ascii_case(&spec.name) => Some(reference.clone()),
-                    _ => None,
-                });
-                ModeratorSpec {
-                    reference: spec.reference.clone().or(reference),
-                    ..spec.clone()
-                }
-            })
-            .collect()
-    };
+    check_reliabilities(p)?;
+    let others = with_main_references(p, others, centring)?;
     let harmonized: Vec<HarmonizedSd> = p.records.iter().map(harmonize_record).collect();
-    let metric = metric.unwrap_or_else(|| {
-        let all_pomp = harmonized
-            .iter()
-            .filter(|h| h.per_item.is_some())
-            .all(|h| h.pomp.is_some());
-        if all_pomp {
-            SpreadMetric::Pomp
-        } else {
-            SpreadMetric::PerItem
-        }
-    });
-    let mut keep = Vec::new();
-    let mut excluded = Vec::new();
-    let mut bonett = Vec::new();
-    let mut sds = Vec::new();
-    for (i, (r, h)) in p.records.iter().zip(&harmonized).enumerate() {
-        let sd = match metric {
-            SpreadMetric::PerItem => h.per_item,
-            SpreadMetric::Pomp => h.pomp,
-        };
-        let b = bonett_scale(r);
-        match (sd, b) {
-            (Some(sd), Ok(yv)) if sd > 0.0 => {
-                keep.push(i);
-                bonett.push(yv);
-                sds.push(sd);
-            }
-            (sd, b) => {
-                let mut reasons = Vec::new();
-                if sd.is_none() {
-                    reasons.push(format!(
-                        "column sd: {}",
-                        h.problem
-                            .clone()
-                            .unwrap_or_else(|| "the SD cannot be converted".into())
-                    ));
-                }
-                if let Err(e) = b {
-                    reasons.push(format!("column coef: {e}"));
-                }
-                excluded.push(ExcludedRow {
-                    row: r.row,
-                    reasons,
-                });
-            }
-        }
-    }
+    let metric = metric.unwrap_or_else(|| default_metric(&harmonized));
+    let usable = usable_sds(p, &harmonized, metric);
+    let mut excluded = usable.excluded;
+    let sds = usable.sds;
     // The sub-sheet on the Bonett scale; the other moderators' design over it.
-    let mut sub = p.subset(&keep);
-    sub.y = bonett.iter().map(|b| b.0).collect();
-    sub.v = bonett.iter().map(|b| b.1).collect();
+    let mut sub = p.subset(&usable.keep);
+    sub.y = usable.bonett.iter().map(|b| b.0).collect();
+    sub.v = usable.bonett.iter().map(|b| b.1).collect();
     let note = excluded_note(&excluded);
-    let base = build_design(&sub, &others, centring).map_err(|e| match e {
-        Error::CannotAnalyse(m) => Error::CannotAnalyse(m.followed_by(note.clone())),
-        Error::InvalidSetting { setting, message } => Error::InvalidSetting {
-            setting,
-            message: message.followed_by(format!(
-                " among the {} studies with a usable SD{note}",
-                keep.len()
-            )),
-        },
-        other => other,
-    })?;
+    let base = build_design(&sub, &others, centring)
+        .map_err(|e| among_usable(e, &note, usable.keep.len()))?;
     for e in &base.excluded {
         excluded.push(e.clone());
     }
     excluded.sort_by_key(|e| e.row);
     let used = base.used.clone();
-    let k = used.len();
     let log_sd: Vec<f64> = used.iter().map(|&i| sds[i].ln()).collect();
-    // ln(items) enters when every study gives its items and they differ.
-    let items: Vec<Option<u32>> = used.iter().map(|&i| sub.records[i].items).collect();
-    let log_items: Option<Vec<f64>> = if items.iter().all(Option::is_some) {
-        let v: Vec<f64> = items
-            .iter()
-            .map(|k| f64::from(k.expect("checked")).ln())
-            .collect();
-        v.iter().any(|x| (x - v[0]).abs() > 1e-12).then_some(v)
-    } else {
-        None
-    };
-    let extra = usize::from(log_items.is_some());
-    let cols = base.x.ncols() + 1 + extra;
-    if k <= cols + 1 {
-        return Err(Error::cannot(format!(
-            "the model has {cols} coefficients but only {k} studies with a usable SD; at least {} \
-             are needed{note}",
-            cols + 2
-        )));
-    }
-    if log_sd.iter().all(|v| (*v - log_sd[0]).abs() < 1e-12) {
-        return Err(Error::cannot(
-            "every study in the model reports the same SD, so its effect cannot be estimated",
-        ));
-    }
-    let x = DMatrix::from_fn(k, cols, |i, j| match j {
-        0 => 1.0,
-        1 => log_sd[i],
-        2 if extra == 1 => log_items.as_ref().expect("present")[i],
-        _ => base.x[(i, j - 1 - extra)],
-    });
-    let mut names = vec!["intercept".to_string(), "ln_sd".to_string()];
-    if extra == 1 {
-        names.push("ln_items".to_string());
-    }
-    names.extend(base.names.iter().skip(1).cloned());
-    check_rank(&x, &names)?;
+    let log_items = log_items(&used, &sub);
+    let (x, names) = spread_design(&base, &log_sd, log_items.as_deref(), &note)?;
+    let cols = x.ncols();
     let y: Vec<f64> = used.iter().map(|&i| sub.y[i]).collect();
     let v: Vec<f64> = used.iter().map(|&i| sub.v[i]).collect();
-    let data = MetaData::with_design(y.clone(), v.clone(), x.clone())?;
-    let fit = fit_model(&data, options)?;
-    // The same model without ln(SD), for the share of τ² it explains.
-    let keep_cols: Vec<usize> = (0..cols).filter(|&j| j != 1).collect();
-    let without = MetaData::with_design(y, v, x.select_columns(&keep_cols))?;
-    let fit_without = fit_model(
-        &without,
-        &FitOptions {
-            tau2_interval: false,
-            ..*options
-        },
-    )?;
+    let (fit, tau2_without) = fit_with_and_without_sd(y, v, &x, options)?;
     let slope = fit.coefficients[1];
     let stat2 = (slope.estimate + 2.0) / slope.se;
     let p_minus_two = fit.two_sided_p(stat2);
-    let tau2_without = fit_without.tau2.tau2;
-    let tau2_share = match options.model {
-        Model::Random(_) if tau2_without > 0.0 => {
-            Some((100.0 * (tau2_without - fit.tau2.tau2) / tau2_without).max(0.0))
-        }
-        _ => None,
-    };
+    let tau2_share = tau2_share(options.model, tau2_without, fit.tau2.tau2);
     let reading = read_slope(slope.ci.lower, slope.ci.upper, slope.estimate, tau2_share);
     let model_sds: Vec<f64> = used.iter().map(|&i| sds[i]).collect();
     // The attenuation factor is exact only when ln(SD) is alone in the model.
     let sd_reliability = if cols == 2 {
-        let n = log_sd.len() as f64;
-        let mean = log_sd.iter().sum::<f64>() / n;
-        let between = log_sd.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
-        let errors: Vec<f64> = used
-            .iter()
-            .filter_map(|&i| sub.records[i].n)
-            .filter(|&m| m > 1)
-            .map(|m| 1.0 / (2.0 * (m as f64 - 1.0)))
-            .collect();
-        (errors.len() == used.len() && between > 0.0)
-            .then(|| (1.0 - errors.iter().sum::<f64>() / errors.len() as f64 / between).max(0.0))
+        sd_reliability(&log_sd, &used, &sub)
     } else {
         None
     };
@@ -564,11 +420,239 @@ fn score_spread_inner(
         typical_sd: median(&model_sds),
         sds: model_sds,
         sd_reliability,
-        log_items_column: extra == 1,
+        log_items_column: log_items.is_some(),
         fit,
         others: base,
         x,
     })
+}
+
+/// Refuse a sheet of effects of unknown kind: the test needs reliability coefficients.
+fn check_reliabilities(p: &Prepared) -> Result<()> {
+    if p.transform == TransformKind::None {
+        return Err(Error::setting(
+            Setting::ScoreSpread,
+            msg![
+                "the score-spread test needs reliability coefficients; with ",
+                given(Setting::Transform, "none"),
+                " the sheet holds effects of unknown kind"
+            ],
+        ));
+    }
+    Ok(())
+}
+
+/// The other moderators with the reference levels of the main model (from all usable
+/// studies), so that the two models name their coefficients alike.
+fn with_main_references(
+    p: &Prepared,
+    others: &[ModeratorSpec],
+    centring: Centring,
+) -> Result<Vec<ModeratorSpec>> {
+    if others.is_empty() {
+        return Ok(Vec::new());
+    }
+    let full = build_design(p, others, centring)?;
+    Ok(others
+        .iter()
+        .map(|spec| {
+            let reference = full.moderators.iter().find_map(|m| match m {
+                super::design::Moderator::Categorical {
+                    name, reference, ..
+                } if name.eq_ignore_ascii_case(&spec.name) => Some(reference.clone()),
+                _ => None,
+            });
+            ModeratorSpec {
+                reference: spec.reference.clone().or(reference),
+                ..spec.clone()
+            }
+        })
+        .collect())
+}
+
+/// POMP when every study with a per-item SD also has a POMP SD, else per-item.
+fn default_metric(harmonized: &[HarmonizedSd]) -> SpreadMetric {
+    let all_pomp = harmonized
+        .iter()
+        .filter(|h| h.per_item.is_some())
+        .all(|h| h.pomp.is_some());
+    if all_pomp {
+        SpreadMetric::Pomp
+    } else {
+        SpreadMetric::PerItem
+    }
+}
+
+/// The studies with a usable SD and Bonett-scale value, and the rows left out.
+struct UsableSds {
+    /// Indices of the usable studies among the prepared ones.
+    keep: Vec<usize>,
+    /// Rows left out, with their reasons.
+    excluded: Vec<ExcludedRow>,
+    /// Bonett-scale value and variance of each usable study.
+    bonett: Vec<(f64, f64)>,
+    /// SD of each usable study on the chosen metric.
+    sds: Vec<f64>,
+}
+
+/// Sort the studies into those with a usable SD on `metric` and Bonett-scale value, and
+/// the rest (with the reasons).
+fn usable_sds(p: &Prepared, harmonized: &[HarmonizedSd], metric: SpreadMetric) -> UsableSds {
+    let mut usable = UsableSds {
+        keep: Vec::new(),
+        excluded: Vec::new(),
+        bonett: Vec::new(),
+        sds: Vec::new(),
+    };
+    for (i, (r, h)) in p.records.iter().zip(harmonized).enumerate() {
+        let sd = match metric {
+            SpreadMetric::PerItem => h.per_item,
+            SpreadMetric::Pomp => h.pomp,
+        };
+        let b = bonett_scale(r);
+        match (sd, b) {
+            (Some(sd), Ok(yv)) if sd > 0.0 => {
+                usable.keep.push(i);
+                usable.bonett.push(yv);
+                usable.sds.push(sd);
+            }
+            (sd, b) => {
+                let mut reasons = Vec::new();
+                if sd.is_none() {
+                    reasons.push(format!(
+                        "column sd: {}",
+                        h.problem
+                            .clone()
+                            .unwrap_or_else(|| "the SD cannot be converted".into())
+                    ));
+                }
+                if let Err(e) = b {
+                    reasons.push(format!("column coef: {e}"));
+                }
+                usable.excluded.push(ExcludedRow {
+                    row: r.row,
+                    reasons,
+                });
+            }
+        }
+    }
+    usable
+}
+
+/// A design error over the studies with a usable SD, saying so and how many rows were
+/// left out.
+fn among_usable(e: Error, note: &str, kept: usize) -> Error {
+    match e {
+        Error::CannotAnalyse(m) => Error::CannotAnalyse(m.followed_by(note.to_string())),
+        Error::InvalidSetting { setting, message } => Error::InvalidSetting {
+            setting,
+            message: message
+                .followed_by(format!(" among the {kept} studies with a usable SD{note}")),
+        },
+        other => other,
+    }
+}
+
+/// ln(items) of the studies in the model, when every study gives its items and they
+/// differ.
+fn log_items(used: &[usize], sub: &Prepared) -> Option<Vec<f64>> {
+    let items: Vec<Option<u32>> = used.iter().map(|&i| sub.records[i].items).collect();
+    if items.iter().all(Option::is_some) {
+        let v: Vec<f64> = items
+            .iter()
+            .map(|k| f64::from(k.expect("checked")).ln())
+            .collect();
+        v.iter().any(|x| (x - v[0]).abs() > 1e-12).then_some(v)
+    } else {
+        None
+    }
+}
+
+/// The score-spread model's design matrix (intercept, ln SD, [ln items], other
+/// moderators) and column names, checked for enough studies, varying SDs and full rank.
+fn spread_design(
+    base: &super::design::Design,
+    log_sd: &[f64],
+    log_items: Option<&[f64]>,
+    note: &str,
+) -> Result<(DMatrix<f64>, Vec<String>)> {
+    let k = log_sd.len();
+    let extra = usize::from(log_items.is_some());
+    let cols = base.x.ncols() + 1 + extra;
+    if k <= cols + 1 {
+        return Err(Error::cannot(format!(
+            "the model has {cols} coefficients but only {k} studies with a usable SD; at least {} \
+             are needed{note}",
+            cols + 2
+        )));
+    }
+    if log_sd.iter().all(|v| (*v - log_sd[0]).abs() < 1e-12) {
+        return Err(Error::cannot(
+            "every study in the model reports the same SD, so its effect cannot be estimated",
+        ));
+    }
+    let x = DMatrix::from_fn(k, cols, |i, j| match j {
+        0 => 1.0,
+        1 => log_sd[i],
+        2 if extra == 1 => log_items.expect("present")[i],
+        _ => base.x[(i, j - 1 - extra)],
+    });
+    let mut names = vec!["intercept".to_string(), "ln_sd".to_string()];
+    if extra == 1 {
+        names.push("ln_items".to_string());
+    }
+    names.extend(base.names.iter().skip(1).cloned());
+    check_rank(&x, &names)?;
+    Ok((x, names))
+}
+
+/// Fit the score-spread model, and the same model without ln(SD) (the design's second
+/// column) for the share of τ² it explains: the fit and τ² without ln(SD).
+fn fit_with_and_without_sd(
+    y: Vec<f64>,
+    v: Vec<f64>,
+    x: &DMatrix<f64>,
+    options: &FitOptions,
+) -> Result<(ModelFit, f64)> {
+    let data = MetaData::with_design(y.clone(), v.clone(), x.clone())?;
+    let fit = fit_model(&data, options)?;
+    let keep_cols: Vec<usize> = (0..x.ncols()).filter(|&j| j != 1).collect();
+    let without = MetaData::with_design(y, v, x.select_columns(&keep_cols))?;
+    let fit_without = fit_model(
+        &without,
+        &FitOptions {
+            tau2_interval: false,
+            ..*options
+        },
+    )?;
+    Ok((fit, fit_without.tau2.tau2))
+}
+
+/// The share of τ² (without ln(SD)) that ln(SD) explains, in percent; `None` when
+/// there is none to explain.
+fn tau2_share(model: Model, tau2_without: f64, tau2: f64) -> Option<f64> {
+    match model {
+        Model::Random(_) if tau2_without > 0.0 => {
+            Some((100.0 * (tau2_without - tau2) / tau2_without).max(0.0))
+        }
+        _ => None,
+    }
+}
+
+/// Reliability of ln(SD) across the studies in the model (`None` when a study lacks a
+/// sample size above 1 or the SDs do not vary).
+fn sd_reliability(log_sd: &[f64], used: &[usize], sub: &Prepared) -> Option<f64> {
+    let n = log_sd.len() as f64;
+    let mean = log_sd.iter().sum::<f64>() / n;
+    let between = log_sd.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0);
+    let errors: Vec<f64> = used
+        .iter()
+        .filter_map(|&i| sub.records[i].n)
+        .filter(|&m| m > 1)
+        .map(|m| 1.0 / (2.0 * (m as f64 - 1.0)))
+        .collect();
+    (errors.len() == used.len() && between > 0.0)
+        .then(|| (1.0 - errors.iter().sum::<f64>() / errors.len() as f64 / between).max(0.0))
 }
 
 fn excluded_note(excluded: &[ExcludedRow]) -> String {

@@ -98,54 +98,11 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
             ": the column has no values among the usable studies"
         ]));
     }
-    let mut groups = Vec::new();
     let mut pooled: Vec<(f64, f64)> = Vec::new();
-    for level in &order {
-        let idx: Vec<usize> = values
-            .iter()
-            .enumerate()
-            .filter(|(_, v)| v.as_deref() == Some(level.as_str()))
-            .map(|(i, _)| i)
-            .collect();
-        let rows = idx.iter().map(|&i| p.records[i].row).collect();
-        let result = if idx.len() < 2 {
-            Err(Message::from(format!(
-                "a single study (coefficient {}): nothing to pool",
-                p.records[idx[0]].coef
-            )))
-        } else {
-            match from_prepared(p.subset(&idx), options) {
-                Ok(b) => {
-                    pooled.push((b.pool.estimate, b.pool.se_wald));
-                    Ok(Box::new(b))
-                }
-                Err(e) => Err(e.into_message()),
-            }
-        };
-        groups.push(Group {
-            level: level.clone(),
-            rows,
-            result,
-        });
-    }
-    let between = if pooled.len() >= 2 {
-        let w: Vec<f64> = pooled.iter().map(|(_, se)| 1.0 / (se * se)).collect();
-        let sw: f64 = w.iter().sum();
-        let mean = pooled.iter().zip(&w).map(|((m, _), w)| w * m).sum::<f64>() / sw;
-        let q: f64 = pooled
-            .iter()
-            .zip(&w)
-            .map(|((m, _), w)| w * (m - mean).powi(2))
-            .sum();
-        let df = (pooled.len() - 1) as f64;
-        Some(BetweenGroups {
-            q,
-            df,
-            p: chi2_sf(q, df),
-        })
-    } else {
-        None
-    };
+    let groups: Vec<Group> = order
+        .iter()
+        .map(|level| group(p, &values, level, options, &mut pooled))
+        .collect();
     let fit_options = FitOptions {
         model: options.model,
         ci: options.ci,
@@ -161,9 +118,67 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         column: column.to_string(),
         groups,
         excluded,
-        between,
+        between: between_groups(&pooled),
         moderator_test,
         moderator_test_note,
         warnings,
+    })
+}
+
+/// The group of the studies at `level`, with its benchmark; the pooled estimate and its
+/// SE are added to `pooled` when there is one.
+fn group(
+    p: &Prepared,
+    values: &[Option<String>],
+    level: &str,
+    options: &PoolOptions,
+    pooled: &mut Vec<(f64, f64)>,
+) -> Group {
+    let idx: Vec<usize> = values
+        .iter()
+        .enumerate()
+        .filter(|(_, v)| v.as_deref() == Some(level))
+        .map(|(i, _)| i)
+        .collect();
+    let rows = idx.iter().map(|&i| p.records[i].row).collect();
+    let result = if idx.len() < 2 {
+        Err(Message::from(format!(
+            "a single study (coefficient {}): nothing to pool",
+            p.records[idx[0]].coef
+        )))
+    } else {
+        match from_prepared(p.subset(&idx), options) {
+            Ok(b) => {
+                pooled.push((b.pool.estimate, b.pool.se_wald));
+                Ok(Box::new(b))
+            }
+            Err(e) => Err(e.into_message()),
+        }
+    };
+    Group {
+        level: level.to_string(),
+        rows,
+        result,
+    }
+}
+
+/// Q_between over the groups' pooled estimates and SEs (none for fewer than two groups).
+fn between_groups(pooled: &[(f64, f64)]) -> Option<BetweenGroups> {
+    if pooled.len() < 2 {
+        return None;
+    }
+    let w: Vec<f64> = pooled.iter().map(|(_, se)| 1.0 / (se * se)).collect();
+    let sw: f64 = w.iter().sum();
+    let mean = pooled.iter().zip(&w).map(|((m, _), w)| w * m).sum::<f64>() / sw;
+    let q: f64 = pooled
+        .iter()
+        .zip(&w)
+        .map(|((m, _), w)| w * (m - mean).powi(2))
+        .sum();
+    let df = (pooled.len() - 1) as f64;
+    Some(BetweenGroups {
+        q,
+        df,
+        p: chi2_sf(q, df),
     })
 }

@@ -360,7 +360,71 @@ fn forest<DB: DrawingBackend>(
         .x_labels(7)
         .x_label_formatter(&|v| tick(*v))
         .draw()?;
-    let y_of = |i: f64| n - 0.5 - i;
+    forest_marks(&mut chart, scale, rows, pooled, prediction)?;
+    let y_of = |i: f64| forest_y(n, i);
+    let yp = y_of(rows.len() as f64 + 1.0);
+    // Row labels, placed level with their rows.
+    let font = tick_font(scale);
+    let bold = (FONT, 12.0 * scale)
+        .into_font()
+        .style(FontStyle::Bold)
+        .color(&INK);
+    let left = labels.get_pixel_range().0.start;
+    let put = |text: &str, y: f64, style: &TextStyle| -> DrawResult<DB> {
+        let (_, py) = chart.backend_coord(&(x.0, y));
+        root.draw(&Text::new(
+            text.to_string(),
+            (left + (8.0 * scale) as i32, py),
+            style.clone().pos(Pos::new(HPos::Left, VPos::Center)),
+        ))
+    };
+    for (i, r) in rows.iter().enumerate() {
+        put(&shorten(&r.label, 24), y_of(i as f64), &font)?;
+    }
+    let pooled_label = if omitted > 0 {
+        format!("Pooled ({} studies)", rows.len() + omitted)
+    } else {
+        "Pooled (confidence interval)".to_string()
+    };
+    put(&pooled_label, yp, &bold)?;
+    if prediction.is_some() {
+        put(
+            "Expected range (prediction)",
+            y_of(rows.len() as f64 + 2.0),
+            &bold,
+        )?;
+    }
+    if omitted > 0 {
+        put(
+            &format!("{omitted} more studies not drawn"),
+            y_of(rows.len() as f64),
+            &tick_font(scale).color(&MUTED),
+        )?;
+    }
+    Ok(())
+}
+
+/// Where row `i` (from the top) of a forest plot of `n` rows sits on the y axis.
+fn forest_y(n: f64, i: f64) -> f64 {
+    n - 0.5 - i
+}
+
+/// The forest plot's marks: the pooled guide, each study's interval and weighted
+/// marker, the pooled diamond and the expected range.
+fn forest_marks<'a, DB, X, Y>(
+    chart: &mut ChartContext<'a, DB, Cartesian2d<X, Y>>,
+    scale: f64,
+    rows: &[ForestRow],
+    pooled: &ForestRow,
+    prediction: Option<(f64, f64)>,
+) -> DrawResult<DB>
+where
+    DB: DrawingBackend + 'a,
+    X: Ranged<ValueType = f64>,
+    Y: Ranged<ValueType = f64>,
+{
+    let n = rows.len() as f64 + 3.0;
+    let y_of = |i: f64| forest_y(n, i);
     let max_w = rows.iter().map(|r| r.weight).fold(0.0, f64::max).max(1e-12);
     let line = (1.0 * scale).ceil() as u32;
     // The pooled value, as a faint vertical guide.
@@ -406,44 +470,6 @@ fn forest<DB: DrawingBackend>(
                 ShapeStyle::from(&ORANGE).stroke_width(w),
             )))?;
         }
-    }
-    // Row labels, placed level with their rows.
-    let font = tick_font(scale);
-    let bold = (FONT, 12.0 * scale)
-        .into_font()
-        .style(FontStyle::Bold)
-        .color(&INK);
-    let left = labels.get_pixel_range().0.start;
-    let put = |text: &str, y: f64, style: &TextStyle| -> DrawResult<DB> {
-        let (_, py) = chart.backend_coord(&(x.0, y));
-        root.draw(&Text::new(
-            text.to_string(),
-            (left + (8.0 * scale) as i32, py),
-            style.clone().pos(Pos::new(HPos::Left, VPos::Center)),
-        ))
-    };
-    for (i, r) in rows.iter().enumerate() {
-        put(&shorten(&r.label, 24), y_of(i as f64), &font)?;
-    }
-    let pooled_label = if omitted > 0 {
-        format!("Pooled ({} studies)", rows.len() + omitted)
-    } else {
-        "Pooled (confidence interval)".to_string()
-    };
-    put(&pooled_label, yp, &bold)?;
-    if prediction.is_some() {
-        put(
-            "Expected range (prediction)",
-            y_of(rows.len() as f64 + 2.0),
-            &bold,
-        )?;
-    }
-    if omitted > 0 {
-        put(
-            &format!("{omitted} more studies not drawn"),
-            y_of(rows.len() as f64),
-            &tick_font(scale).color(&MUTED),
-        )?;
     }
     Ok(())
 }

@@ -259,27 +259,8 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
             tau2_interval: true,
         },
     )?;
-    let mut warnings = fit.warnings.clone();
+    let mut warnings = fit_warnings(&fit, options);
     let het = fit.heterogeneity;
-    if let Some(ci) = fit.tau2_ci
-        && (fit.tau2.tau2 < ci.lower || fit.tau2.tau2 > ci.upper)
-    {
-        warnings.push(Warning::Tau2OutsideInterval {
-            tau2: fit.tau2.tau2,
-            lower: ci.lower,
-            upper: ci.upper,
-        });
-    }
-    if options.model == Model::Common {
-        warnings.push(Warning::CommonEffectAssumed);
-        if het.p < COMMON_EFFECT_REJECTED {
-            warnings.push(Warning::CommonEffectContradicted {
-                q: het.q,
-                df: het.df,
-                p: het.p,
-            });
-        }
-    }
     let c = fit.coefficients[0];
     let test = ZeroTest {
         statistic: c.statistic,
@@ -290,28 +271,7 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
         lower: het.i2(t.lower),
         upper: het.i2(t.upper),
     });
-    let prediction = if options.model == Model::Common {
-        Prediction::CommonEffect
-    } else {
-        match Predictive::new_setting(&fit, &[1.0]) {
-            Some(p) => Prediction::Available {
-                interval: p.interval(options.level),
-                df: p.df,
-            },
-            None => {
-                warnings.push(Warning::NoPredictionInterval { k });
-                Prediction::TooFewStudies
-            }
-        }
-    };
-    // With τ² at zero the PI shrinks to about the CI; show what the upper end of τ²'s
-    // interval would imply.
-    let prediction_at_tau2_upper = match (&prediction, fit.tau2_ci) {
-        (Prediction::Available { .. }, Some(ci)) if fit.tau2.at_zero && ci.upper > 0.0 => {
-            Predictive::with_tau2(&fit, &[1.0], ci.upper).map(|p| p.interval(options.level))
-        }
-        _ => None,
-    };
+    let (prediction, prediction_at_tau2_upper) = predictions(&fit, options, k, &mut warnings);
     if k < FEW_STUDIES {
         warnings.push(Warning::FewStudies { k });
     }
@@ -337,6 +297,66 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
         weights_percent,
         warnings,
     })
+}
+
+/// The fit's warnings, with those of a τ² outside its own interval and of an assumed
+/// common effect (and the heterogeneity test that contradicts it).
+fn fit_warnings(fit: &ModelFit, options: &PoolOptions) -> Vec<Warning> {
+    let mut warnings = fit.warnings.clone();
+    let het = fit.heterogeneity;
+    if let Some(ci) = fit.tau2_ci
+        && (fit.tau2.tau2 < ci.lower || fit.tau2.tau2 > ci.upper)
+    {
+        warnings.push(Warning::Tau2OutsideInterval {
+            tau2: fit.tau2.tau2,
+            lower: ci.lower,
+            upper: ci.upper,
+        });
+    }
+    if options.model == Model::Common {
+        warnings.push(Warning::CommonEffectAssumed);
+        if het.p < COMMON_EFFECT_REJECTED {
+            warnings.push(Warning::CommonEffectContradicted {
+                q: het.q,
+                df: het.df,
+                p: het.p,
+            });
+        }
+    }
+    warnings
+}
+
+/// The prediction interval for the true value in a new setting (of `k` studies) and,
+/// when τ² is estimated at 0, the one at the upper end of τ²'s interval.
+fn predictions(
+    fit: &ModelFit,
+    options: &PoolOptions,
+    k: usize,
+    warnings: &mut Vec<Warning>,
+) -> (Prediction, Option<Interval>) {
+    let prediction = if options.model == Model::Common {
+        Prediction::CommonEffect
+    } else {
+        match Predictive::new_setting(fit, &[1.0]) {
+            Some(p) => Prediction::Available {
+                interval: p.interval(options.level),
+                df: p.df,
+            },
+            None => {
+                warnings.push(Warning::NoPredictionInterval { k });
+                Prediction::TooFewStudies
+            }
+        }
+    };
+    // With τ² at zero the PI shrinks to about the CI; show what the upper end of τ²'s
+    // interval would imply.
+    let at_tau2_upper = match (&prediction, fit.tau2_ci) {
+        (Prediction::Available { .. }, Some(ci)) if fit.tau2.at_zero && ci.upper > 0.0 => {
+            Predictive::with_tau2(fit, &[1.0], ci.upper).map(|p| p.interval(options.level))
+        }
+        _ => None,
+    };
+    (prediction, at_tau2_upper)
 }
 
 #[cfg(test)]

@@ -415,64 +415,8 @@ impl Layout {
         header_row: usize,
         map: &ColumnMap,
     ) -> Result<Layout> {
-        let mut problems = Vec::new();
-        // Duplicated names (case-insensitive).
-        let mut seen: BTreeMap<String, usize> = BTreeMap::new();
-        for (i, h) in header.iter().enumerate() {
-            if h.is_empty() {
-                continue;
-            }
-            if let Some(first) = seen.insert(h.to_lowercase(), i) {
-                problems.push(CellProblem::row(
-                    header_row,
-                    format!(
-                        "the column name \"{h}\" appears twice (columns {} and {}); every column \
-                         needs its own name",
-                        first + 1,
-                        i + 1
-                    ),
-                ));
-            }
-        }
-        let find = |name: &str| -> Option<usize> {
-            header.iter().position(|h| h == name).or_else(|| {
-                header
-                    .iter()
-                    .position(|h| h.eq_ignore_ascii_case(name.trim()))
-            })
-        };
-        let mut roles = BTreeMap::new();
-        for role in Role::ALL {
-            match map.get(role) {
-                Some(name) => match find(name) {
-                    Some(i) => {
-                        roles.insert(role, (i, header[i].clone()));
-                    }
-                    None => problems.push(CellProblem::row(
-                        header_row,
-                        msg![
-                            given(Setting::ColumnMap, format!("{role}={name}")),
-                            format!(
-                                " names a column the sheet does not have (its columns are: {})",
-                                list_header(header)
-                            )
-                        ],
-                    )),
-                },
-                None => {
-                    if let Some(i) = find(role.name()) {
-                        // A column already claimed by a mapping keeps that role.
-                        if !roles.values().any(|(j, _)| *j == i)
-                            && !Role::ALL
-                                .iter()
-                                .any(|r| map.get(*r).and_then(find) == Some(i))
-                        {
-                            roles.insert(role, (i, header[i].clone()));
-                        }
-                    }
-                }
-            }
-        }
+        let mut problems = duplicate_names(header, header_row);
+        let roles = find_roles(header, header_row, map, &mut problems);
         if !roles.contains_key(&Role::Coef) && map.get(Role::Coef).is_none() {
             problems.push(CellProblem::row(
                 header_row,
@@ -525,228 +469,41 @@ impl Layout {
         decimal_comma: bool,
     ) -> std::result::Result<StudyRecord, (Vec<CellProblem>, Option<Box<PartialRecord>>)> {
         let row = raw.row;
-        let label_of = |role: Role| column_label(&self.names, role);
-        let mut problems = Vec::new();
-
-        // Shape: ragged rows are an error unless the surplus cells are empty.
-        let n_cells = raw.n_cells();
-        if n_cells < self.width {
-            problems.push(CellProblem::row(
-                row,
-                format!(
-                    "the row has {n_cells} cell(s) but the header has {} columns; check for a \
-                     missing or surplus delimiter",
-                    self.width
-                ),
-            ));
-            return Err((problems, None));
+        if let Some(problem) = self.shape_problem(raw) {
+            return Err((vec![problem], None));
         }
-        if n_cells > self.width {
-            let surplus_filled = (self.width..n_cells)
-                .any(|i| raw.cell(i).map(|s| !s.trim().is_empty()).unwrap_or(true));
-            if surplus_filled {
-                problems.push(CellProblem::row(
-                    row,
-                    format!(
-                        "the row has {n_cells} cells but the header has only {} columns; a value \
-                         has no column name (check for an unquoted delimiter inside a cell)",
-                        self.width
-                    ),
-                ));
-                return Err((problems, None));
-            }
-        }
-        // Text of each cell, or a UTF-8 problem.
-        // The column's name is only worked out when there is a problem to report.
-        let mut text = |i: usize, column: &dyn Fn() -> String| -> Option<&str> {
-            match raw.cell(i) {
-                Ok(s) => Some(s),
-                Err(()) => {
-                    problems.push(CellProblem::cell(
-                        row,
-                        column(),
-                        "the cell is not valid UTF-8 text; save the sheet as UTF-8",
-                    ));
-                    None
-                }
-            }
+        let mut check = RowCheck {
+            row,
+            names: &self.names,
+            decimal_comma,
+            problems: Vec::new(),
+            failed: Vec::new(),
         };
-        let mut failed: Vec<Role> = Vec::new();
-        let mut cell_of = |role: Role| -> Option<&str> {
-            let (i, _) = self.roles.get(&role)?;
-            let Some(s) = text(*i, &|| label_of(role)) else {
-                failed.push(role);
-                return None;
-            };
-            if is_missing(s) { None } else { Some(s) }
-        };
-        let study = cell_of(Role::Study);
-        let coef_s = cell_of(Role::Coef);
-        let n_s = cell_of(Role::N);
-        let items_s = cell_of(Role::Items);
-        let type_s = cell_of(Role::CoefType);
-        let sd_s = cell_of(Role::Sd);
-        let metric_s = cell_of(Role::SdMetric);
-        let min_s = cell_of(Role::ScaleMin);
-        let max_s = cell_of(Role::ScaleMax);
-        let var_s = cell_of(Role::Var);
-        let mut extra = Vec::with_capacity(self.extra.len());
-        for (i, name) in &self.extra {
-            let v = text(*i, &|| name.clone())
-                .filter(|s| !is_missing(s))
-                .map(|s| s.trim().to_string());
-            extra.push(v);
-        }
-        let mut orphans = Vec::new();
-        for &i in &self.unnamed {
-            if let Some(s) = text(i, &|| format!("{} (unnamed)", i + 1))
-                && !s.trim().is_empty()
-            {
-                orphans.push(CellProblem::cell(
-                    row,
-                    format!("{} (unnamed)", i + 1),
-                    format!(
-                        "the cell holds {} but its column has no name in the header; name \
-                         the column so the value is not lost",
-                        cells::quote(s)
-                    ),
-                ));
-            }
-        }
-        problems.append(&mut orphans);
+        let cells = self.read_cells(raw, &mut check);
+        self.check_unnamed(raw, &mut check);
 
-        let coef_unreadable = failed.contains(&Role::Coef);
-        let mut push = |role: Role, reason: String| {
-            failed.push(role);
-            problems.push(CellProblem::cell(row, label_of(role), reason));
-        };
-
-        let label = match &study {
-            Some(s) => {
-                // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
-                let trimmed = s.trim();
-                let plain = !trimmed
-                    .as_bytes()
-                    .windows(2)
-                    .any(|w| w[0].is_ascii_whitespace() && w[1].is_ascii_whitespace())
-                    && !trimmed.contains(|c: char| c.is_whitespace() && c != ' ');
-                let t = if plain {
-                    trimmed.to_string()
-                } else {
-                    s.split_whitespace().collect::<Vec<_>>().join(" ")
-                };
-                let chars = t.chars().count();
-                if chars > MAX_LABEL_CHARS {
-                    push(
-                        Role::Study,
-                        format!(
-                            "the label is {chars} characters long (at most {MAX_LABEL_CHARS} are \
-                             allowed); shorten it"
-                        ),
-                    );
-                }
-                if t.chars().any(|c| c.is_control()) {
-                    push(
-                        Role::Study,
-                        "the label holds a control character (such as a line break); remove it"
-                            .into(),
-                    );
-                }
-                t
-            }
+        let coef_unreadable = check.failed.contains(&Role::Coef);
+        let label = match cells.study {
+            Some(s) => check.label(s),
             None => format!("row {row}"),
         };
-        let coef = match &coef_s {
-            None if coef_unreadable => None,
-            None => {
-                push(Role::Coef, "the coefficient is missing".into());
-                None
-            }
-            Some(s) => match cells::parse_number(s, decimal_comma) {
-                Ok(x) => Some(x),
-                Err(e) => {
-                    push(Role::Coef, e);
-                    None
-                }
-            },
-        };
-        let n = n_s.and_then(|s| {
-            cells::parse_whole(s, decimal_comma, 1, MAX_N, "sample size")
-                .map_err(|e| push(Role::N, e))
-                .ok()
-        });
-        let items = items_s.and_then(|s| {
-            cells::parse_whole(s, decimal_comma, 1, MAX_ITEMS as u64, "number of items")
-                .map_err(|e| push(Role::Items, e))
-                .ok()
-                .map(|k| k as u32)
-        });
-        let coef_type = match &type_s {
-            None => Some(CoefType::Alpha),
-            Some(s) => {
-                let t = CoefType::parse_cell(s);
-                if t.is_none() {
-                    let names: Vec<&str> = CoefType::ALL.iter().map(|t| t.name()).collect();
-                    push(
-                        Role::CoefType,
-                        format!(
-                            "{} is not a known coefficient type (use one of: {}; empty means alpha)",
-                            cells::quote(s),
-                            names.join(", ")
-                        ),
-                    );
-                }
-                t
-            }
-        };
-        let positive = |role: Role, s: &Option<&str>, push: &mut dyn FnMut(Role, String)| {
-            s.as_deref()
-                .and_then(|s| match cells::parse_number(s, decimal_comma) {
-                    Ok(x) if x > 0.0 => Some(x),
-                    Ok(x) => {
-                        push(
-                            role,
-                            format!("{} must be above 0", crate::transform::fmt_value(x)),
-                        );
-                        None
-                    }
-                    Err(e) => {
-                        push(role, e);
-                        None
-                    }
-                })
-        };
-        let sd = positive(Role::Sd, &sd_s, &mut push);
-        let var = positive(Role::Var, &var_s, &mut push);
-        let sd_metric = metric_s.and_then(|s| {
-            let m = SdMetric::parse_cell(s);
-            if m.is_none() {
-                push(
-                    Role::SdMetric,
-                    format!("{} is not an SD metric (use sum or mean)", cells::quote(s)),
-                );
-            }
-            m
-        });
-        let mut number = |role: Role, s: &Option<&str>| {
-            s.as_deref().and_then(|s| {
-                cells::parse_number(s, decimal_comma)
-                    .map_err(|e| push(role, e))
-                    .ok()
-            })
-        };
-        let scale_min = number(Role::ScaleMin, &min_s);
-        let scale_max = number(Role::ScaleMax, &max_s);
-        if let (Some(lo), Some(hi)) = (scale_min, scale_max)
-            && lo >= hi
-        {
-            push(
-                Role::ScaleMax,
-                format!("the scale maximum ({hi}) must be above the minimum ({lo})"),
-            );
-        }
+        let coef = check.coef(cells.coef, coef_unreadable);
+        let n = check.whole(Role::N, cells.n, MAX_N, "sample size");
+        let items = check
+            .whole(
+                Role::Items,
+                cells.items,
+                MAX_ITEMS as u64,
+                "number of items",
+            )
+            .map(|k| k as u32);
+        let coef_type = check.coef_type(cells.coef_type);
+        let sd = check.positive(Role::Sd, cells.sd);
+        let var = check.positive(Role::Var, cells.var);
+        let sd_metric = check.sd_metric(cells.sd_metric);
+        let (scale_min, scale_max) = check.scale(cells.scale_min, cells.scale_max);
 
-        if !problems.is_empty() {
+        if !check.problems.is_empty() {
             let partial = PartialRecord {
                 row,
                 coef,
@@ -754,15 +511,15 @@ impl Layout {
                 n,
                 items,
                 var,
-                extra,
-                failed,
+                extra: cells.extra,
+                failed: check.failed,
             };
-            return Err((problems, Some(Box::new(partial))));
+            return Err((check.problems, Some(Box::new(partial))));
         }
         Ok(StudyRecord {
             row,
             label,
-            label_given: study.is_some(),
+            label_given: cells.study.is_some(),
             coef: coef.expect("checked above"),
             coef_type: coef_type.expect("checked above"),
             n,
@@ -772,8 +529,368 @@ impl Layout {
             scale_min,
             scale_max,
             var,
-            extra,
+            extra: cells.extra,
         })
+    }
+
+    /// The problem with a row's number of cells, if any: ragged rows are an error unless
+    /// the surplus cells are empty.
+    fn shape_problem(&self, raw: &read::RawRow<'_>) -> Option<CellProblem> {
+        let n_cells = raw.n_cells();
+        if n_cells < self.width {
+            return Some(CellProblem::row(
+                raw.row,
+                format!(
+                    "the row has {n_cells} cell(s) but the header has {} columns; check for a \
+                     missing or surplus delimiter",
+                    self.width
+                ),
+            ));
+        }
+        if n_cells > self.width {
+            let surplus_filled = (self.width..n_cells)
+                .any(|i| raw.cell(i).map(|s| !s.trim().is_empty()).unwrap_or(true));
+            if surplus_filled {
+                return Some(CellProblem::row(
+                    raw.row,
+                    format!(
+                        "the row has {n_cells} cells but the header has only {} columns; a value \
+                         has no column name (check for an unquoted delimiter inside a cell)",
+                        self.width
+                    ),
+                ));
+            }
+        }
+        None
+    }
+
+    /// The text of a row's standard cells and other columns, noting unreadable ones.
+    fn read_cells<'r>(&self, raw: &'r read::RawRow<'_>, check: &mut RowCheck<'_>) -> RowCells<'r> {
+        let mut cell_of = |role: Role| -> Option<&'r str> {
+            let (i, _) = self.roles.get(&role)?;
+            let Some(s) = check.text(raw, *i, &|| column_label(&self.names, role)) else {
+                check.failed.push(role);
+                return None;
+            };
+            if is_missing(s) { None } else { Some(s) }
+        };
+        let study = cell_of(Role::Study);
+        let coef = cell_of(Role::Coef);
+        let n = cell_of(Role::N);
+        let items = cell_of(Role::Items);
+        let coef_type = cell_of(Role::CoefType);
+        let sd = cell_of(Role::Sd);
+        let sd_metric = cell_of(Role::SdMetric);
+        let scale_min = cell_of(Role::ScaleMin);
+        let scale_max = cell_of(Role::ScaleMax);
+        let var = cell_of(Role::Var);
+        let mut extra = Vec::with_capacity(self.extra.len());
+        for (i, name) in &self.extra {
+            let v = check
+                .text(raw, *i, &|| name.clone())
+                .filter(|s| !is_missing(s))
+                .map(|s| s.trim().to_string());
+            extra.push(v);
+        }
+        RowCells {
+            study,
+            coef,
+            n,
+            items,
+            coef_type,
+            sd,
+            sd_metric,
+            scale_min,
+            scale_max,
+            var,
+            extra,
+        }
+    }
+
+    /// Report the values in columns without a name (unreadable cells first, as they are
+    /// met, then the values).
+    fn check_unnamed(&self, raw: &read::RawRow<'_>, check: &mut RowCheck<'_>) {
+        let mut orphans = Vec::new();
+        for &i in &self.unnamed {
+            if let Some(s) = check.text(raw, i, &|| format!("{} (unnamed)", i + 1))
+                && !s.trim().is_empty()
+            {
+                orphans.push(CellProblem::cell(
+                    check.row,
+                    format!("{} (unnamed)", i + 1),
+                    format!(
+                        "the cell holds {} but its column has no name in the header; name \
+                         the column so the value is not lost",
+                        cells::quote(s)
+                    ),
+                ));
+            }
+        }
+        check.problems.append(&mut orphans);
+    }
+}
+
+/// The problems of duplicated column names (case-insensitive) in the header.
+fn duplicate_names(header: &[String], header_row: usize) -> Vec<CellProblem> {
+    let mut problems = Vec::new();
+    let mut seen: BTreeMap<String, usize> = BTreeMap::new();
+    for (i, h) in header.iter().enumerate() {
+        if h.is_empty() {
+            continue;
+        }
+        if let Some(first) = seen.insert(h.to_lowercase(), i) {
+            problems.push(CellProblem::row(
+                header_row,
+                format!(
+                    "the column name \"{h}\" appears twice (columns {} and {}); every column \
+                     needs its own name",
+                    first + 1,
+                    i + 1
+                ),
+            ));
+        }
+    }
+    problems
+}
+
+/// The column with this name: the exact name first, else the name in any case.
+fn find_header(header: &[String], name: &str) -> Option<usize> {
+    header.iter().position(|h| h == name).or_else(|| {
+        header
+            .iter()
+            .position(|h| h.eq_ignore_ascii_case(name.trim()))
+    })
+}
+
+/// Where each standard column sits, by the mapping or by its standard name; a mapping to
+/// a column the sheet lacks is added to `problems`.
+fn find_roles(
+    header: &[String],
+    header_row: usize,
+    map: &ColumnMap,
+    problems: &mut Vec<CellProblem>,
+) -> BTreeMap<Role, (usize, String)> {
+    let find = |name: &str| find_header(header, name);
+    let mut roles = BTreeMap::new();
+    for role in Role::ALL {
+        match map.get(role) {
+            Some(name) => match find(name) {
+                Some(i) => {
+                    roles.insert(role, (i, header[i].clone()));
+                }
+                None => problems.push(CellProblem::row(
+                    header_row,
+                    msg![
+                        given(Setting::ColumnMap, format!("{role}={name}")),
+                        format!(
+                            " names a column the sheet does not have (its columns are: {})",
+                            list_header(header)
+                        )
+                    ],
+                )),
+            },
+            None => {
+                if let Some(i) = find(role.name()) {
+                    // A column already claimed by a mapping keeps that role.
+                    if !roles.values().any(|(j, _)| *j == i)
+                        && !Role::ALL
+                            .iter()
+                            .any(|r| map.get(*r).and_then(find) == Some(i))
+                    {
+                        roles.insert(role, (i, header[i].clone()));
+                    }
+                }
+            }
+        }
+    }
+    roles
+}
+
+/// The text of one row's standard cells (`None` when missing or unreadable) and the
+/// values of its other columns.
+struct RowCells<'r> {
+    study: Option<&'r str>,
+    coef: Option<&'r str>,
+    n: Option<&'r str>,
+    items: Option<&'r str>,
+    coef_type: Option<&'r str>,
+    sd: Option<&'r str>,
+    sd_metric: Option<&'r str>,
+    scale_min: Option<&'r str>,
+    scale_max: Option<&'r str>,
+    var: Option<&'r str>,
+    extra: Vec<Option<String>>,
+}
+
+/// The problems found in one row so far, and the standard columns they concern.
+struct RowCheck<'a> {
+    row: usize,
+    names: &'a BTreeMap<Role, String>,
+    decimal_comma: bool,
+    problems: Vec<CellProblem>,
+    failed: Vec<Role>,
+}
+
+impl RowCheck<'_> {
+    /// Cell `i` as text, or `None` with a problem when it is not valid UTF-8 (the
+    /// column's name is only worked out when there is a problem to report).
+    fn text<'r>(
+        &mut self,
+        raw: &'r read::RawRow<'_>,
+        i: usize,
+        column: &dyn Fn() -> String,
+    ) -> Option<&'r str> {
+        match raw.cell(i) {
+            Ok(s) => Some(s),
+            Err(()) => {
+                self.problems.push(CellProblem::cell(
+                    self.row,
+                    column(),
+                    "the cell is not valid UTF-8 text; save the sheet as UTF-8",
+                ));
+                None
+            }
+        }
+    }
+
+    /// Note a problem with a standard column's value.
+    fn push(&mut self, role: Role, reason: String) {
+        self.failed.push(role);
+        self.problems.push(CellProblem::cell(
+            self.row,
+            column_label(self.names, role),
+            reason,
+        ));
+    }
+
+    /// The study label with its spaces tidied, checked for length and control characters.
+    fn label(&mut self, s: &str) -> String {
+        // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
+        let trimmed = s.trim();
+        let plain = !trimmed
+            .as_bytes()
+            .windows(2)
+            .any(|w| w[0].is_ascii_whitespace() && w[1].is_ascii_whitespace())
+            && !trimmed.contains(|c: char| c.is_whitespace() && c != ' ');
+        let t = if plain {
+            trimmed.to_string()
+        } else {
+            s.split_whitespace().collect::<Vec<_>>().join(" ")
+        };
+        let chars = t.chars().count();
+        if chars > MAX_LABEL_CHARS {
+            self.push(
+                Role::Study,
+                format!(
+                    "the label is {chars} characters long (at most {MAX_LABEL_CHARS} are \
+                     allowed); shorten it"
+                ),
+            );
+        }
+        if t.chars().any(|c| c.is_control()) {
+            self.push(
+                Role::Study,
+                "the label holds a control character (such as a line break); remove it".into(),
+            );
+        }
+        t
+    }
+
+    /// The coefficient, which must be given (an unreadable cell is already reported).
+    fn coef(&mut self, s: Option<&str>, unreadable: bool) -> Option<f64> {
+        match s {
+            None if unreadable => None,
+            None => {
+                self.push(Role::Coef, "the coefficient is missing".into());
+                None
+            }
+            Some(s) => self.number(Role::Coef, Some(s)),
+        }
+    }
+
+    /// A whole number from 1 to `max`, when the cell is given.
+    fn whole(&mut self, role: Role, s: Option<&str>, max: u64, what: &str) -> Option<u64> {
+        s.and_then(|s| {
+            cells::parse_whole(s, self.decimal_comma, 1, max, what)
+                .map_err(|e| self.push(role, e))
+                .ok()
+        })
+    }
+
+    /// The coefficient type (alpha when the cell is empty).
+    fn coef_type(&mut self, s: Option<&str>) -> Option<CoefType> {
+        let Some(s) = s else {
+            return Some(CoefType::Alpha);
+        };
+        let t = CoefType::parse_cell(s);
+        if t.is_none() {
+            let names: Vec<&str> = CoefType::ALL.iter().map(|t| t.name()).collect();
+            self.push(
+                Role::CoefType,
+                format!(
+                    "{} is not a known coefficient type (use one of: {}; empty means alpha)",
+                    cells::quote(s),
+                    names.join(", ")
+                ),
+            );
+        }
+        t
+    }
+
+    /// A number above 0, when the cell is given.
+    fn positive(&mut self, role: Role, s: Option<&str>) -> Option<f64> {
+        s.and_then(|s| match cells::parse_number(s, self.decimal_comma) {
+            Ok(x) if x > 0.0 => Some(x),
+            Ok(x) => {
+                self.push(
+                    role,
+                    format!("{} must be above 0", crate::transform::fmt_value(x)),
+                );
+                None
+            }
+            Err(e) => {
+                self.push(role, e);
+                None
+            }
+        })
+    }
+
+    /// The metric of the SD (sum or mean), when the cell is given.
+    fn sd_metric(&mut self, s: Option<&str>) -> Option<SdMetric> {
+        s.and_then(|s| {
+            let m = SdMetric::parse_cell(s);
+            if m.is_none() {
+                self.push(
+                    Role::SdMetric,
+                    format!("{} is not an SD metric (use sum or mean)", cells::quote(s)),
+                );
+            }
+            m
+        })
+    }
+
+    /// Any number, when the cell is given.
+    fn number(&mut self, role: Role, s: Option<&str>) -> Option<f64> {
+        s.and_then(|s| {
+            cells::parse_number(s, self.decimal_comma)
+                .map_err(|e| self.push(role, e))
+                .ok()
+        })
+    }
+
+    /// The lowest and highest item responses, the highest above the lowest.
+    fn scale(&mut self, min: Option<&str>, max: Option<&str>) -> (Option<f64>, Option<f64>) {
+        let scale_min = self.number(Role::ScaleMin, min);
+        let scale_max = self.number(Role::ScaleMax, max);
+        if let (Some(lo), Some(hi)) = (scale_min, scale_max)
+            && lo >= hi
+        {
+            self.push(
+                Role::ScaleMax,
+                format!("the scale maximum ({hi}) must be above the minimum ({lo})"),
+            );
+        }
+        (scale_min, scale_max)
     }
 }
 
