@@ -430,7 +430,7 @@ fn spread_part(
                 warnings.push(Warning::Extrapolation {
                     what: format!(
                         "the SD {} ({} metric)",
-                        crate::format::trimmed(s.sd, 4),
+                        crate::format::significant(s.sd, 3),
                         s.metric
                     ),
                     lower: lo,

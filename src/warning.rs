@@ -203,7 +203,8 @@ pub enum Warning {
     Collinearity {
         /// The moderators involved.
         moderators: Vec<String>,
-        /// The largest variance inflation factor.
+        /// The largest variance inflation factor (generalized for categorical moderators,
+        /// on the one-column scale).
         vif: f64,
     },
 }
@@ -538,14 +539,22 @@ impl Warning {
                     .join(", "),
                 list_rows(rows)
             )],
-            Warning::Collinearity { moderators, vif } => msg![format!(
-                "the moderators {} are strongly related to each other (largest variance \
-                 inflation factor {}, above {}): their separate effects are estimated \
-                 imprecisely and can change sign when one is dropped; interpret them together",
-                moderators.join(", "),
-                format::significant(*vif, 3),
-                VIF_LIMIT
-            )],
+            Warning::Collinearity { moderators, vif } => {
+                let who = match moderators.as_slice() {
+                    [one] => format!("{one} is strongly related to the other moderators"),
+                    many => format!(
+                        "the moderators {} are strongly related to each other or to the others",
+                        format::and_list(many)
+                    ),
+                };
+                msg![format!(
+                    "{who} (variance inflation factor {}, above {}): their separate effects are \
+                     estimated imprecisely and can change sign when one is dropped; interpret \
+                     them together",
+                    format::significant(*vif, 3),
+                    VIF_LIMIT
+                )]
+            }
         }
     }
 }

@@ -450,7 +450,7 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec], centring: Centring) -
     let x = DMatrix::from_fn(k, n_coef, |i, j| b.columns[j][i]);
     check_rank(&x, &b.names)?;
     let mut warnings = b.warnings;
-    if let Some(w) = collinearity(&x, &b.names, &b.moderators) {
+    if let Some(w) = collinearity(&x, &b.moderators) {
         warnings.push(w);
     }
     Ok(Design {
@@ -682,18 +682,72 @@ impl Builder {
     }
 }
 
-/// A collinearity warning when a moderator column's variance inflation factor exceeds
-/// [`VIF_LIMIT`]: VIFⱼ = 1/(1 − R²ⱼ), the diagonal of the inverse correlation matrix of the
-/// moderator columns.
+/// A collinearity warning when a moderator's variance inflation factor exceeds
+/// [`VIF_LIMIT`]. For a moderator with one column this is VIFⱼ = 1/(1 − R²ⱼ); for a
+/// categorical moderator with several columns it is the generalized factor of Fox &
+/// Monette (1992), GVIF = det(R₁₁)·det(R₂₂)/det(R) with R the correlation matrix of the
+/// moderator columns, R₁₁ the moderator's own block and R₂₂ the others', put on the scale
+/// of a one-column VIF as GVIF^(1/df) (so that the same limit applies, and the columns of
+/// one categorical moderator are never "related to each other"). One moderator alone is
+/// never collinear.
 ///
 /// # References
 /// Belsley, D. A., Kuh, E., & Welsch, R. E. (1980). *Regression diagnostics*. New York:
 /// Wiley (chapter 3).
-fn collinearity(x: &DMatrix<f64>, names: &[String], moderators: &[Moderator]) -> Option<Warning> {
+/// Fox, J., & Monette, G. (1992). Generalized collinearity diagnostics. *Journal of the
+/// American Statistical Association*, 87(417), 178–183. (Volume and pages recalled, not
+/// checked against the article here.)
+fn collinearity(x: &DMatrix<f64>, moderators: &[Moderator]) -> Option<Warning> {
+    if moderators.len() < 2 {
+        return None;
+    }
+    let factors = inflation_factors(x, moderators)?;
+    let involved: Vec<(String, f64)> = moderators
+        .iter()
+        .zip(factors)
+        .filter(|(_, v)| v.is_finite() && *v > VIF_LIMIT)
+        .map(|(m, v)| (m.name().to_string(), v))
+        .collect();
+    let worst = involved.iter().map(|(_, v)| *v).fold(f64::NAN, f64::max);
+    (!involved.is_empty()).then(|| Warning::Collinearity {
+        moderators: involved.into_iter().map(|(n, _)| n).collect(),
+        vif: worst,
+    })
+}
+
+/// Each moderator's (generalized) variance inflation factor on the one-column scale,
+/// GVIF^(1/df); `None` when the moderator columns' correlation matrix is singular.
+fn inflation_factors(x: &DMatrix<f64>, moderators: &[Moderator]) -> Option<Vec<f64>> {
     let (k, p) = (x.nrows(), x.ncols());
     if p < 3 || k < 3 {
         return None;
     }
+    let r = correlation_of_columns(x);
+    let det_all = r.determinant();
+    if !(det_all.is_finite() && det_all > 0.0) {
+        return None;
+    }
+    let factors = moderators
+        .iter()
+        .map(|md| {
+            // Design column j is row j − 1 of R.
+            let own: Vec<usize> = md.columns().iter().map(|c| c - 1).collect();
+            let rest: Vec<usize> = (0..p - 1).filter(|c| !own.contains(c)).collect();
+            let det_own = r.select_rows(&own).select_columns(&own).determinant();
+            let det_rest = if rest.is_empty() {
+                1.0
+            } else {
+                r.select_rows(&rest).select_columns(&rest).determinant()
+            };
+            (det_own * det_rest / det_all).powf(1.0 / own.len() as f64)
+        })
+        .collect();
+    Some(factors)
+}
+
+/// The correlation matrix of a design's columns after the intercept (column 0).
+fn correlation_of_columns(x: &DMatrix<f64>) -> DMatrix<f64> {
+    let (k, p) = (x.nrows(), x.ncols());
     let cols: Vec<Vec<f64>> = (1..p)
         .map(|j| {
             let c: Vec<f64> = x.column(j).iter().copied().collect();
@@ -704,36 +758,12 @@ fn collinearity(x: &DMatrix<f64>, names: &[String], moderators: &[Moderator]) ->
         })
         .collect();
     let m = cols.len();
-    let r = DMatrix::from_fn(m, m, |a, b| {
+    DMatrix::from_fn(m, m, |a, b| {
         cols[a]
             .iter()
             .zip(&cols[b])
             .map(|(u, v)| u * v)
             .sum::<f64>()
-    });
-    let inv = r.try_inverse()?;
-    let vif: Vec<f64> = (0..m).map(|j| inv[(j, j)]).collect();
-    let worst = vif.iter().copied().fold(f64::NEG_INFINITY, f64::max);
-    if worst.is_nan() || worst <= VIF_LIMIT {
-        return None;
-    }
-    let mut involved: Vec<String> = Vec::new();
-    for (j, v) in vif.iter().enumerate() {
-        if *v > VIF_LIMIT {
-            let col = j + 1;
-            let name = moderators
-                .iter()
-                .find(|md| md.columns().contains(&col))
-                .map(|md| md.name().to_string())
-                .unwrap_or_else(|| names[col].clone());
-            if !involved.contains(&name) {
-                involved.push(name);
-            }
-        }
-    }
-    Some(Warning::Collinearity {
-        moderators: involved,
-        vif: worst,
     })
 }
 
@@ -813,10 +843,6 @@ mod tests {
                 _ => v[i],
             })
         };
-        let names: Vec<String> = ["intercept", "a", "b"]
-            .iter()
-            .map(|s| s.to_string())
-            .collect();
         let mods = vec![
             Moderator::Numeric {
                 name: "a".into(),
@@ -830,9 +856,92 @@ mod tests {
             },
         ];
         assert!(matches!(
-            collinearity(&x(&a, &b), &names, &mods),
+            collinearity(&x(&a, &b), &mods),
             Some(Warning::Collinearity { vif, .. }) if vif > 10.0
         ));
-        assert!(collinearity(&x(&a, &c), &names, &mods).is_none());
+        assert!(collinearity(&x(&a, &c), &mods).is_none());
+    }
+
+    /// Against statsmodels' variance_inflation_factor (one-column moderators) and a numpy
+    /// computation of Fox & Monette's (1992) generalized factor for a categorical moderator
+    /// with three levels (tests/reference/make_fixtures.py, collinearity_fixture).
+    #[test]
+    fn inflation_factors_match_the_reference() {
+        let fixture: serde_json::Value = serde_json::from_str(include_str!(
+            "../../tests/reference/fixtures/inference.json"
+        ))
+        .unwrap();
+        let f = &fixture["collinearity"];
+        let rows: Vec<Vec<f64>> = serde_json::from_value(f["x"].clone()).unwrap();
+        let x = DMatrix::from_fn(rows.len(), rows[0].len(), |i, j| rows[i][j]);
+        let numeric = |name: &str, column| Moderator::Numeric {
+            name: name.into(),
+            column,
+            centre: 0.0,
+        };
+        let mods = vec![
+            numeric("a", 1),
+            numeric("b", 2),
+            Moderator::Categorical {
+                name: "c".into(),
+                reference: "0".into(),
+                levels: vec![("1".into(), 3), ("2".into(), 4)],
+                counts: [("0".into(), 5), ("1".into(), 5), ("2".into(), 4)].into(),
+            },
+            numeric("d", 5),
+        ];
+        let got = inflation_factors(&x, &mods).unwrap();
+        for (m, g) in mods.iter().zip(&got) {
+            let want = f["gvif"][m.name()].as_f64().unwrap();
+            assert!(
+                (g - want).abs() <= 1e-9 * want,
+                "{}: {g} vs {want}",
+                m.name()
+            );
+        }
+        let vif = f["vif"].as_array().unwrap();
+        assert!((got[0] - vif[0].as_f64().unwrap()).abs() < 1e-9 * got[0]);
+        // a and b nearly repeat each other; the categorical moderator does not.
+        match collinearity(&x, &mods) {
+            Some(Warning::Collinearity { moderators, .. }) => assert_eq!(moderators, ["a", "b"]),
+            other => panic!("{other:?}"),
+        }
+    }
+
+    /// The columns of one categorical moderator are never collinear with each other: with a
+    /// rare reference level its two indicator columns correlate at about −0.96 (a
+    /// one-column VIF of about 13), yet the moderator as a whole is unrelated to the other.
+    #[test]
+    fn one_categorical_moderator_is_not_collinear() {
+        let k = 50;
+        let level = |i: usize| match i {
+            0 => 0,
+            i if i % 2 == 1 => 1,
+            _ => 2,
+        };
+        let x = DMatrix::from_fn(k, 4, |i, j| match j {
+            0 => 1.0,
+            1 => f64::from(level(i) == 1),
+            2 => f64::from(level(i) == 2),
+            _ => ((i * 7919) % 13) as f64,
+        });
+        let mods = vec![
+            Moderator::Categorical {
+                name: "c".into(),
+                reference: "0".into(),
+                levels: vec![("1".into(), 1), ("2".into(), 2)],
+                counts: [("0".into(), 1), ("1".into(), 25), ("2".into(), 24)].into(),
+            },
+            Moderator::Numeric {
+                name: "d".into(),
+                column: 3,
+                centre: 0.0,
+            },
+        ];
+        let r = correlation_of_columns(&x);
+        assert!(1.0 / (1.0 - r[(0, 1)].powi(2)) > 10.0, "{}", r[(0, 1)]);
+        let f = inflation_factors(&x, &mods).unwrap();
+        assert!(f.iter().all(|v| *v < 2.0), "{f:?}");
+        assert!(collinearity(&x, &mods).is_none());
     }
 }

@@ -285,10 +285,14 @@ pub struct ScoreSpread {
 }
 
 impl ScoreSpread {
-    /// The model's other terms besides ln(SD) and ln(items): the moderators' columns.
-    pub fn other_terms(&self) -> &[String] {
-        let first = if self.log_items_column { 3 } else { 2 };
-        &self.names[first.min(self.names.len())..]
+    /// The other moderators in the model besides ln(SD) and ln(items), by name (a
+    /// categorical moderator once, however many columns it has).
+    pub fn other_moderators(&self) -> Vec<String> {
+        self.others
+            .moderators
+            .iter()
+            .map(|m| m.name().to_string())
+            .collect()
     }
 
     /// Expected Bonett-scale value at an SD (with `items` when ln(items) is in the model,

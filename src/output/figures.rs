@@ -400,13 +400,17 @@ fn adjusted_points(p: &Prepared, s: &ScoreSpread, means: &[f64]) -> Vec<BubblePo
 
 /// The score-spread figure's description: what is drawn, from which model.
 fn spread_description(s: &ScoreSpread) -> String {
-    let others = if s.names.len() > 2 {
+    let mut adjusted = s.other_moderators();
+    if s.log_items_column {
+        adjusted.insert(0, "ln(items)".to_string());
+    }
+    let others = if adjusted.is_empty() {
+        String::new()
+    } else {
         format!(
             "; studies adjusted to the means of {} by the same model",
-            s.names[2..].join(", ")
+            crate::format::and_list(&adjusted)
         )
-    } else {
-        String::new()
     };
     format!(
         "Each study's coefficient against its score SD ({} metric, log scale), marker area by \

@@ -835,6 +835,36 @@ def ols_summary_fixture():
             "ols": fit.params[1:].tolist(), "ols_ci": ci.tolist(), "level": 0.95}
 
 
+def collinearity_fixture():
+    """Variance inflation factors of a meta-regression design: statsmodels'
+    variance_inflation_factor for each column, and the generalized factor of Fox &
+    Monette (1992), det(R11) det(R22) / det(R), for each moderator (a categorical one has
+    several columns), on the one-column scale GVIF^(1/df)."""
+    from statsmodels.stats.outliers_influence import variance_inflation_factor
+    rng = np.random.default_rng(20261203)
+    k = 14
+    a = np.round(rng.normal(0, 1, k), 3)
+    b = np.round(a + rng.normal(0, 0.2, k), 3)      # nearly a again
+    levels = np.array([0, 1, 2] * 4 + [0, 1])       # a categorical with three levels
+    c1 = (levels == 1).astype(float)
+    c2 = (levels == 2).astype(float)
+    d = np.round(rng.normal(0, 1, k), 3)            # unrelated to the others
+    x = np.column_stack([np.ones(k), a, b, c1, c2, d])
+    vif = [float(variance_inflation_factor(x, j)) for j in range(1, x.shape[1])]
+    r = np.corrcoef(x[:, 1:], rowvar=False)
+    groups = {"a": [0], "b": [1], "c": [2, 3], "d": [4]}
+    gvif = {}
+    for name, own in groups.items():
+        rest = [j for j in range(r.shape[0]) if j not in own]
+        g = (np.linalg.det(r[np.ix_(own, own)]) * np.linalg.det(r[np.ix_(rest, rest)])
+             / np.linalg.det(r))
+        gvif[name] = float(g ** (1 / len(own)))
+    # For a one-column moderator the generalized factor is the ordinary one.
+    for name, j in [("a", 0), ("b", 1), ("d", 4)]:
+        assert abs(gvif[name] - vif[j]) < 1e-8 * vif[j]
+    return {"x": x.tolist(), "columns": groups, "vif": vif, "gvif": gvif}
+
+
 def inference_fixture():
     """Feldt's two-sample test, the Hakstian-Whalen k-sample test and Bonett's sample
     sizes, computed with scipy."""
@@ -885,6 +915,7 @@ def inference_fixture():
                "p": float(2 * min(stats.f.cdf(xw, xn - 1, xn - 1), stats.f.sf(xw, xn - 1, xn - 1)))}
     return {"made_by": stamp(), "tau_power": tau_power, "correction": correction_fixture(),
             "ols_summary": ols_summary_fixture(),
+            "collinearity": collinearity_fixture(),
             "feldt_extreme": extreme,
             "feldt": {"samples": samples[:2], "w": w, "p": float(2 * min(upper, 1 - upper))},
             "hakstian_whalen": {"samples": samples, "chi2": chi2, "df": 2,

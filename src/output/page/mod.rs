@@ -1029,12 +1029,12 @@ fn meta_regression_blocks(ex: &Explanation, level: &str) -> Vec<Block> {
 
 /// The score-variance test in one paragraph, naming the other terms in its model.
 fn spread_words(s: &ScoreSpread, level: &str) -> String {
-    let others = if s.other_terms().is_empty() {
+    let others = if s.other_moderators().is_empty() {
         String::new()
     } else {
         format!(
             " The model also holds {}, as the moderators' model does{}.",
-            s.other_terms().join(", "),
+            crate::format::and_list(&s.other_moderators()),
             if s.log_items_column {
                 ", and ln(items), since the forms differ in length"
             } else {

@@ -173,10 +173,13 @@ fn moderators_item(a: &Analysis, e: &Explained, refs: &mut Vec<Reference>) -> Me
          own."
     );
     if let Some(s) = &e.spread {
-        let others = if s.other_terms().is_empty() {
+        let others = if s.other_moderators().is_empty() {
             String::new()
         } else {
-            format!(", with {} in the same model", s.other_terms().join(", "))
+            format!(
+                ", with {} in the same model",
+                crate::format::and_list(&s.other_moderators())
+            )
         };
         text.push_str(&format!(
             " The score-variance test regresses ln(1 − coefficient) on ln(SD){others}: since \

@@ -324,10 +324,10 @@ fn spread_section(o: &mut String, s: &ScoreSpread, level: &str) {
         "ln(1 − coefficient) on ln(SD), always on the Bonett scale; {} studies",
         s.rows.len()
     );
-    if !s.other_terms().is_empty() {
+    if !s.other_moderators().is_empty() {
         model.push_str(&format!(
             "; also in the model: {}",
-            s.other_terms().join(", ")
+            crate::format::and_list(&s.other_moderators())
         ));
     }
     line(o, "model", &model);
