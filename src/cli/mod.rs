@@ -9,6 +9,7 @@ mod compare;
 mod config;
 mod correct;
 mod explain;
+mod files;
 mod items;
 mod names;
 mod output;

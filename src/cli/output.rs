@@ -1,11 +1,10 @@
-//! Writing results: stdout with a closed pipe treated as success, stderr for warnings,
-//! and files written atomically without overwriting unless forced.
+//! Writing results: stdout with a closed pipe treated as success, and stderr for
+//! warnings (files are written by `files`).
 
 use super::names::OptionNames;
 use relyard::{Error, Warning};
 use std::fmt;
 use std::io::{self, Write};
-use std::path::Path;
 
 /// A problem with the command line itself (an option missing, two that contradict each
 /// other), found before the analysis runs.
@@ -76,35 +75,4 @@ pub fn warn_all(warnings: &[Warning]) {
         seen.push(w);
         let _ = writeln!(h, "relyard: warning: {}", w.message().render(&OptionNames));
     }
-}
-
-/// Write a new file atomically (a temporary file beside it, then a rename); an
-/// existing file is replaced only with `force`.
-pub fn write_new_file(path: &Path, contents: &str, force: bool) -> Result<(), Failure> {
-    write_new_bytes(path, contents.as_bytes(), force)
-}
-
-/// [`write_new_file`] for bytes (images).
-pub fn write_new_bytes(path: &Path, contents: &[u8], force: bool) -> Result<(), Failure> {
-    let shown = path.display().to_string();
-    if path.exists() && !force {
-        return Err(Failure::Usage(UsageError(format!(
-            "{shown} already exists; choose another name or pass --force to replace it"
-        ))));
-    }
-    let dir = path
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or_else(|| Path::new("."));
-    let name = path
-        .file_name()
-        .map(|n| n.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "output".into());
-    let tmp = dir.join(format!(".{name}.{}.tmp", std::process::id()));
-    let result = std::fs::write(&tmp, contents).and_then(|_| std::fs::rename(&tmp, path));
-    if let Err(e) = result {
-        let _ = std::fs::remove_file(&tmp);
-        return Err(Failure::Lib(Error::io(format!("writing {shown}"), e)));
-    }
-    Ok(())
 }

@@ -2,10 +2,10 @@
 //! rendered as report.html, report.md, results.json and figure files.
 
 use super::args::ReportArgs;
+use super::files::{check_targets, read_manifest, write_report};
 use super::names::OptionNames;
-use super::output::{Failure, UsageError, print, warn_all, write_new_bytes, write_new_file};
+use super::output::{Failure, print, warn_all};
 use super::progress::Bar;
-use relyard::Error;
 use relyard::analysis::{Analysis, Correction, run};
 use relyard::output::figures;
 use relyard::output::page::{RenderedFigure, ReportPage};
@@ -21,14 +21,6 @@ fn unique(name: String, taken: &mut Vec<String>) -> String {
     }
     taken.push(candidate.clone());
     candidate
-}
-
-/// Stems of the figures relyard writes (earlier ones are cleared with --force).
-fn is_report_figure(stem: &str) -> bool {
-    matches!(
-        stem,
-        "forest" | "precision" | "score-spread" | "placement" | "correction"
-    ) || stem.starts_with("moderator-")
 }
 
 /// An argument quoted for a POSIX shell when it needs it, so that the command can be run
@@ -80,8 +72,9 @@ fn report_figures(a: &Analysis) -> Vec<Figure> {
 pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
     let (options, command) = command_line();
     let (out, force) = (a.out.clone(), a.force);
-    let names = ["report.html", "report.md", "results.json"];
-    refuse_existing(names.iter().map(|n| out.join(n)), force)?;
+    // Refuse early, before the analysis runs, when the report's main files are in the way.
+    let main_files = ["results.json", "report.md", "report.html"];
+    check_targets(&out, main_files, &read_manifest(&out), force)?;
     let settings = super::config::report(a)?;
     let analysis = run(&settings, &Bar::default())?;
     warn_all(&analysis.warnings());
@@ -109,17 +102,25 @@ pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
         figures: rendered,
         names: &OptionNames,
     };
-    let fig_dir = out.join("figures");
-    write_figures(&fig_dir, &page.figures, force)?;
+    let mut files: Vec<(String, Vec<u8>)> = Vec::new();
+    for f in &page.figures {
+        files.push((
+            format!("figures/{}.svg", f.figure.name),
+            f.svg.clone().into_bytes(),
+        ));
+        files.push((format!("figures/{}.png", f.figure.name), f.figure.png()?));
+    }
     let results = relyard::output::layout::to_json_string(&page.results());
-    write_new_file(&out.join("results.json"), &results, force)?;
-    write_new_file(&out.join("report.md"), &page.markdown(), force)?;
-    write_new_file(&out.join("report.html"), &page.html(), force)?;
+    files.push(("results.json".into(), results.into_bytes()));
+    files.push(("report.md".into(), page.markdown().into_bytes()));
+    // The page last: it is what a reader opens.
+    files.push(("report.html".into(), page.html().into_bytes()));
+    write_report(&out, &files, force)?;
     print(&format!(
         "wrote {} (open it in a browser), report.md, results.json and {} figures in {}\n",
         out.join("report.html").display(),
         page.figures.len(),
-        fig_dir.display()
+        out.join("figures").display()
     ))
 }
 
@@ -134,67 +135,6 @@ fn command_line() -> (Vec<String>, String) {
         .collect::<Vec<_>>()
         .join(" ");
     (options, command)
-}
-
-/// Refuse to go on when one of these files exists and `--force` was not given.
-fn refuse_existing(
-    files: impl IntoIterator<Item = std::path::PathBuf>,
-    force: bool,
-) -> Result<(), Failure> {
-    if force {
-        return Ok(());
-    }
-    match files.into_iter().find(|p| p.exists()) {
-        Some(existing) => Err(Failure::Usage(UsageError(format!(
-            "{} already exists; choose another --out folder or pass --force to replace the report",
-            existing.display()
-        )))),
-        None => Ok(()),
-    }
-}
-
-/// Write every figure as SVG and PNG into `fig_dir`; with `--force`, figures of an earlier
-/// report that this one does not have are removed, since they would be stale.
-fn write_figures(
-    fig_dir: &std::path::Path,
-    figures: &[RenderedFigure],
-    force: bool,
-) -> Result<(), Failure> {
-    std::fs::create_dir_all(fig_dir)
-        .map_err(|e| Failure::Lib(Error::io(format!("creating {}", fig_dir.display()), e)))?;
-    let files: Vec<std::path::PathBuf> = figures
-        .iter()
-        .flat_map(|f| ["svg", "png"].map(|x| fig_dir.join(format!("{}.{x}", f.figure.name))))
-        .collect();
-    refuse_existing(files.iter().cloned(), force)?;
-    if force && let Ok(entries) = std::fs::read_dir(fig_dir) {
-        for e in entries.flatten() {
-            let p = e.path();
-            let ours = p
-                .extension()
-                .and_then(|x| x.to_str())
-                .is_some_and(|x| x == "svg" || x == "png")
-                && p.file_stem()
-                    .and_then(|s| s.to_str())
-                    .is_some_and(is_report_figure);
-            if ours && !files.contains(&p) {
-                let _ = std::fs::remove_file(&p);
-            }
-        }
-    }
-    for f in figures {
-        write_new_file(
-            &fig_dir.join(format!("{}.svg", f.figure.name)),
-            &f.svg,
-            force,
-        )?;
-        write_new_bytes(
-            &fig_dir.join(format!("{}.png", f.figure.name)),
-            &f.figure.png()?,
-            force,
-        )?;
-    }
-    Ok(())
 }
 
 #[cfg(test)]

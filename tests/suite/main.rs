@@ -12,6 +12,7 @@ mod cli_items;
 mod cli_pool;
 mod consistency;
 mod demo_data;
+mod hardening;
 mod output_schema;
 mod properties;
 mod published_bcg;

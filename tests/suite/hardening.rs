@@ -1,0 +1,168 @@
+//! Nothing lost, nothing overwritten, nothing unbounded: hostile and unusual inputs and
+//! folders. Large or hostile files are made here, in the test, and kept small enough to
+//! run fast.
+
+use crate::common::*;
+use std::path::{Path, PathBuf};
+
+/// A small report (two studies) into `out`, with extra arguments.
+fn report(out: &Path, extra: &[&str]) -> std::process::Output {
+    let sheet = write_file(
+        out.parent().unwrap(),
+        "sheet.csv",
+        b"study,coef,n,items\nA,0.81,120,8\nB,0.74,95,8\nC,0.78,150,8\n",
+    );
+    let mut args = vec!["report", &sheet, "--out", out.to_str().unwrap()];
+    args.extend_from_slice(extra);
+    relyard(&args)
+}
+
+fn stderr(o: &std::process::Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+fn files_in(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> = std::fs::read_dir(dir)
+        .map(|r| {
+            r.flatten()
+                .map(|e| e.file_name().to_string_lossy().into_owned())
+                .collect()
+        })
+        .unwrap_or_default();
+    v.sort();
+    v
+}
+
+/// A link planted where the report writes is refused, with or without --force, and the
+/// file it points to is untouched.
+#[cfg(unix)]
+#[test]
+fn links_inside_the_report_folder_are_never_written_through() {
+    let dir = scratch("links");
+    let out = dir.join("out");
+    std::fs::create_dir_all(&out).unwrap();
+    let victim = dir.join("victim.html");
+    std::fs::write(&victim, "precious").unwrap();
+    std::os::unix::fs::symlink(&victim, out.join("report.html")).unwrap();
+    for force in [false, true] {
+        let o = report(&out, if force { &["--force"] } else { &[] });
+        assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+        assert!(stderr(&o).contains("symbolic link"), "{}", stderr(&o));
+    }
+    assert_eq!(std::fs::read_to_string(&victim).unwrap(), "precious");
+
+    // A figures folder that is a link to somewhere else: refused, nothing written there.
+    let out2 = dir.join("out2");
+    std::fs::create_dir_all(&out2).unwrap();
+    let elsewhere = dir.join("elsewhere");
+    std::fs::create_dir_all(&elsewhere).unwrap();
+    std::fs::write(elsewhere.join("forest.svg"), "someone's figure").unwrap();
+    std::os::unix::fs::symlink(&elsewhere, out2.join("figures")).unwrap();
+    let o = report(&out2, &["--force"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("figures"), "{}", stderr(&o));
+    assert_eq!(files_in(&elsewhere), ["forest.svg"]);
+    assert_eq!(
+        std::fs::read_to_string(elsewhere.join("forest.svg")).unwrap(),
+        "someone's figure"
+    );
+    assert!(!out2.join("report.html").exists());
+}
+
+/// --force replaces and removes only what an earlier report wrote (its manifest lists
+/// it); a file of the user's own, even one named like ours, is never touched.
+#[test]
+fn force_touches_only_files_an_earlier_report_wrote() {
+    let dir = scratch("manifest");
+    let out = dir.join("out");
+    run_ok_output(report(&out, &[]));
+    let manifest = std::fs::read_to_string(out.join(".relyard-manifest.json")).unwrap();
+    assert!(manifest.contains("report.html") && manifest.contains("figures/forest.svg"));
+    // The user's own files, one named like a figure we might write.
+    std::fs::write(out.join("figures").join("moderator-mine.png"), "mine").unwrap();
+    std::fs::write(out.join("notes.txt"), "mine too").unwrap();
+    // An earlier report's figure this one does not have: listed, so removed with --force.
+    let old = out.join("figures").join("moderator-year.svg");
+    std::fs::write(&old, "<svg/>").unwrap();
+    let listed = manifest.replace(
+        "\"figures/forest.png\"",
+        "\"figures/forest.png\",\n    \"figures/moderator-year.svg\"",
+    );
+    std::fs::write(out.join(".relyard-manifest.json"), listed).unwrap();
+    run_ok_output(report(&out, &["--force"]));
+    assert!(!old.exists(), "a listed file this report lacks is removed");
+    assert_eq!(
+        std::fs::read_to_string(out.join("figures").join("moderator-mine.png")).unwrap(),
+        "mine"
+    );
+    assert_eq!(
+        std::fs::read_to_string(out.join("notes.txt")).unwrap(),
+        "mine too"
+    );
+    // A report.md of the user's own (not listed) is not replaced, even with --force.
+    let manifest = std::fs::read_to_string(out.join(".relyard-manifest.json")).unwrap();
+    std::fs::write(
+        out.join(".relyard-manifest.json"),
+        manifest.replace("\"report.md\",", ""),
+    )
+    .unwrap();
+    std::fs::write(out.join("report.md"), "my own notes").unwrap();
+    let o = report(&out, &["--force"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(
+        stderr(&o).contains("not written by a relyard report"),
+        "{}",
+        stderr(&o)
+    );
+    assert_eq!(
+        std::fs::read_to_string(out.join("report.md")).unwrap(),
+        "my own notes"
+    );
+}
+
+fn run_ok_output(o: std::process::Output) {
+    assert!(o.status.success(), "{}", stderr(&o));
+}
+
+/// A killed run's temporary files are cleaned by the next run; a folder an earlier report
+/// left (its manifest written) is replaced with --force, and without it the message says
+/// whose files are in the way.
+#[test]
+fn a_killed_run_leaves_nothing_that_blocks_the_next() {
+    let dir = scratch("killed");
+    let out = dir.join("out");
+    run_ok_output(report(&out, &[]));
+    let stale: PathBuf = out.join(".relyard-0-00000000deadbeef.tmp");
+    std::fs::write(&stale, "half a page").unwrap();
+    let figure_stale = out.join("figures").join(".relyard-0-00000000cafef00d.tmp");
+    std::fs::write(&figure_stale, "half a figure").unwrap();
+    let o = report(&out, &[]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(
+        stderr(&o).contains("written by an earlier report") && stderr(&o).contains("--force"),
+        "{}",
+        stderr(&o)
+    );
+    run_ok_output(report(&out, &["--force"]));
+    assert!(!stale.exists() && !figure_stale.exists());
+    let left: Vec<String> = files_in(&out)
+        .into_iter()
+        .chain(files_in(&out.join("figures")))
+        .filter(|f| f.ends_with(".tmp"))
+        .collect();
+    assert!(left.is_empty(), "{left:?}");
+}
+
+/// Writing a template over a link is refused.
+#[cfg(unix)]
+#[test]
+fn template_never_writes_through_a_link() {
+    let dir = scratch("template-link");
+    let victim = dir.join("victim.csv");
+    std::fs::write(&victim, "precious").unwrap();
+    let target = dir.join("sheet.csv");
+    std::os::unix::fs::symlink(&victim, &target).unwrap();
+    let o = relyard(&["template", target.to_str().unwrap(), "--force"]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert_eq!(std::fs::read_to_string(&victim).unwrap(), "precious");
+}
