@@ -33,6 +33,12 @@ pub fn read_summary(path: &Path) -> Result<Summary> {
     let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
     let delimiter = crate::sheet::detect_delimiter(body);
     let decimal_comma = crate::sheet::SheetFormat::Delimited(delimiter).decimal_comma();
+    if let Some(line) = crate::sheet::unclosed_quote(body, delimiter) {
+        return Err(invalid(
+            &file,
+            vec![CellProblem::row(line, crate::sheet::UNCLOSED_QUOTE)],
+        ));
+    }
     let mut reader = csv::ReaderBuilder::new()
         .delimiter(delimiter)
         .flexible(true)

@@ -6,7 +6,9 @@ use super::moments::{Moments, Pairwise};
 use crate::error::{CellProblem, Error, Result};
 use crate::setting::msg;
 use crate::setting::{Setting, given};
-use crate::sheet::{SheetFormat, WorkbookRows, detect_delimiter, is_workbook, same_name};
+use crate::sheet::{
+    SheetFormat, TrackQuotes, WorkbookRows, detect_delimiter, is_workbook, same_name,
+};
 use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
 
@@ -139,7 +141,7 @@ enum Source {
     /// Delimited text: the csv reader, and where the data rows start in the file (for
     /// the fast path, which reopens regular files).
     Text {
-        reader: Box<csv::Reader<Box<dyn BufRead>>>,
+        reader: Box<csv::Reader<TrackQuotes<Box<dyn BufRead>>>>,
         delimiter: u8,
         data_start: Option<u64>,
         row_number: usize,
@@ -161,6 +163,13 @@ impl Source {
                     .read_byte_record(record)
                     .map_err(|e| Error::io(format!("reading {file}"), std::io::Error::other(e)))?;
                 if !more {
+                    if reader.get_ref().state().unclosed().is_some() {
+                        return Err(Problems::one(
+                            file,
+                            (*row_number).max(1),
+                            crate::sheet::UNCLOSED_QUOTE,
+                        ));
+                    }
                     return Ok(None);
                 }
                 // Spreadsheet row: blank lines before the record count as rows.
@@ -274,7 +283,7 @@ fn open_text(
             .delimiter(delimiter)
             .has_headers(false)
             .flexible(true)
-            .from_reader(body),
+            .from_reader(TrackQuotes::new(body, delimiter)),
     );
     let mut record = csv::ByteRecord::new();
     let more = reader

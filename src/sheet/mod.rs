@@ -7,6 +7,7 @@
 //! problems of a file are reported together.
 
 mod cells;
+mod quotes;
 mod read;
 mod schema;
 pub mod template;
@@ -15,7 +16,10 @@ mod workbook;
 pub use workbook::{WorkbookRows, is_workbook};
 
 pub use cells::{is_missing, parse_number};
-pub use read::{DELIMITERS, SheetFormat, delimiter_name, detect_delimiter, parse_delimiter};
+pub use quotes::{QuoteState, TrackQuotes, unclosed_quote};
+pub use read::{
+    DELIMITERS, SheetFormat, UNCLOSED_QUOTE, delimiter_name, detect_delimiter, parse_delimiter,
+};
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 
 use crate::error::{CellProblem, Error, Result};

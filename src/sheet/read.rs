@@ -148,7 +148,15 @@ pub struct TableReader<'a> {
     pub header_row: usize,
     /// The delimiter used.
     pub delimiter: u8,
+    /// Whether the text ends inside a quoted cell (the last record then swallowed every
+    /// later line).
+    unclosed_quote: bool,
 }
+
+/// The message for a quote that is never closed.
+pub const UNCLOSED_QUOTE: &str = "a quote opens a cell in this row and is never \
+closed, so every later line was read into that one cell; close the quote (or remove it) and \
+read the file again";
 
 impl<'a> TableReader<'a> {
     /// Open `bytes` (the contents of `file`) and read its header row.
@@ -189,6 +197,7 @@ impl<'a> TableReader<'a> {
             header: Vec::new(),
             header_row: 1,
             delimiter,
+            unclosed_quote: super::quotes::unclosed_quote(body, delimiter).is_some(),
         };
         if !t.advance()? {
             return Err(fail("the file has no header row".into()));
@@ -232,6 +241,12 @@ impl<'a> TableReader<'a> {
                 )],
             })?;
         if !more {
+            if self.unclosed_quote {
+                return Err(Error::InvalidSheet {
+                    file: self.file.clone(),
+                    problems: vec![CellProblem::row(self.row_number.max(1), UNCLOSED_QUOTE)],
+                });
+            }
             return Ok(false);
         }
         // Blank lines are skipped by the reader but shown as rows by a spreadsheet.

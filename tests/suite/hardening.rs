@@ -166,3 +166,76 @@ fn template_never_writes_through_a_link() {
     assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
     assert_eq!(std::fs::read_to_string(&victim).unwrap(), "precious");
 }
+
+/// An unclosed quote swallows every later line into one cell: each reader says so at the
+/// row where the quote opened, instead of reading fewer rows in silence.
+#[test]
+fn an_unclosed_quote_is_an_error_at_its_row() {
+    let dir = scratch("quotes");
+    let sheet = write_file(
+        &dir,
+        "sheet.csv",
+        b"study,coef,n,items\nA,0.81,120,8\n\"B,0.74,95,8\nC,0.78,150,8\nD,0.7,90,8\nE,0.8,100,8\n",
+    );
+    for extra in [&[][..], &["--skip-invalid"][..]] {
+        let mut args = vec!["pool", sheet.as_str()];
+        args.extend_from_slice(extra);
+        let o = relyard(&args);
+        assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+        assert!(
+            stderr(&o).contains("row 3") && stderr(&o).contains("never closed"),
+            "{}",
+            stderr(&o)
+        );
+    }
+    let items = write_file(
+        &dir,
+        "items.csv",
+        b"q1,q2,q3\n1,2,3\n2,\"3,4\n3,4,5\n4,5,5\n5,5,4\n",
+    );
+    let o = relyard(&["items", &items]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("row 3") && stderr(&o).contains("never closed"));
+    let data = write_file(
+        &dir,
+        "data.csv",
+        b"x,y\n1,2\n2,3\n3,\"5\n4,4\n5,6\n6,7\n7,9\n8,8\n",
+    );
+    let o = relyard(&[
+        "correct",
+        "--data",
+        &data,
+        "--outcome",
+        "y",
+        "--predictor",
+        "x",
+        "--rel",
+        "x=0.8",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("row 4") && stderr(&o).contains("never closed"));
+    let summary = write_file(&dir, "summary.csv", b",x,y\nx,1,0.3\n\"y,0.3,1\n");
+    let o = relyard(&[
+        "correct",
+        "--summary",
+        &summary,
+        "--n",
+        "100",
+        "--outcome",
+        "y",
+        "--predictor",
+        "x",
+        "--rel",
+        "x=0.8",
+    ]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("row 3") && stderr(&o).contains("never closed"));
+    // A quoted cell with a line break in it, properly closed, is fine.
+    let fine = write_file(
+        &dir,
+        "fine.csv",
+        b"study,coef,n,items\n\"A, the\nfirst\",0.81,120,8\nB,0.74,95,8\nC,0.78,150,8\n",
+    );
+    let j = json_ok(&["pool", &fine, "--json"]);
+    assert_eq!(j["k"], 3);
+}
