@@ -208,10 +208,10 @@ pub fn prepare_from(
     }
     if usable.len() < 2 && !skipped.is_empty() {
         let mut m = msg![format!(
-            "{}: only {} row(s) could be used, and a benchmark needs at least two; these rows \
-             were left out:",
+            "{}: only {} could be used, and a benchmark needs at least two; these rows were \
+             left out:",
             sheet.file,
-            usable.len()
+            crate::format::count(usable.len() as u64, "row", "rows")
         )];
         for s in &skipped {
             m = m.followed_by(format!("\n  {}: row {}: ", sheet.file, s.row));
@@ -260,8 +260,13 @@ fn check_needed_columns(sheet: &CodingSheet, transform: TransformKind) -> Result
             msg![
                 given(Setting::Transform, transform.name()),
                 format!(
-                    " needs the column(s) {} and the sheet has none; add them, or map the \
-                     sheet's own names with ",
+                    " needs the {} {} and the sheet has none; add them, or map the sheet's own \
+                     names with ",
+                    if missing.len() == 1 {
+                        "column"
+                    } else {
+                        "columns"
+                    },
                     missing.join(", ")
                 ),
                 given(Setting::ColumnMap, "ROLE=NAME")

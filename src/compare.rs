@@ -37,7 +37,10 @@ impl AlphaSample {
             return bad(format!("n = {} is too small (at least 3)", self.n));
         }
         if self.items < 2 {
-            return bad(format!("{} item(s): alpha needs at least 2", self.items));
+            return bad(format!(
+                "{}: alpha needs at least 2",
+                crate::format::count(self.items, "item", "items")
+            ));
         }
         Ok(())
     }

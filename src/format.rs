@@ -53,6 +53,12 @@ pub fn trimmed(x: f64, sig: usize) -> String {
     }
 }
 
+/// A count with its noun: "1 row", "3 rows", "1,200 rows".
+pub fn count(n: impl Into<u64>, one: &str, many: &str) -> String {
+    let n = n.into();
+    format!("{} {}", thousands(n), if n == 1 { one } else { many })
+}
+
 /// "lower to upper" with each end formatted by `f`.
 pub fn range(lower: f64, upper: f64, f: impl Fn(f64) -> String) -> String {
     format!("{} to {}", f(lower), f(upper))
@@ -165,6 +171,8 @@ mod tests {
         assert_eq!(trimmed(-11.25, 4), "−11.25");
         assert_eq!(trimmed(1.5e-7, 3), "1.50e−7");
         assert_eq!(thousands(1234567), "1,234,567");
+        assert_eq!(count(1u64, "row", "rows"), "1 row");
+        assert_eq!(count(1200u64, "row", "rows"), "1,200 rows");
         assert_eq!(thousands(999), "999");
         assert_eq!(p_value(0.0001), "< 0.001");
         assert_eq!(p_value(0.0), "< 1e-300");

@@ -20,8 +20,14 @@ impl Level {
         if level > 0.0 && level < 1.0 {
             return Ok(Level(level));
         }
-        let hint = if level > 1.0 && level < 100.0 {
-            format!(" (for {level}% write {})", level / 100.0)
+        // A value that reads as a percentage (50 to under 100) gets the hint to write it
+        // as a proportion; 1.5 or 2 are no level at all.
+        let hint = if (50.0..100.0).contains(&level) {
+            format!(
+                " (for {}% write {})",
+                crate::format::trimmed(level, 6),
+                crate::format::trimmed(level / 100.0, 6)
+            )
         } else {
             String::new()
         };
@@ -74,6 +80,8 @@ mod tests {
         assert!((Level::new(0.9).unwrap().tail() - 0.05).abs() < 1e-15);
         let e = Level::new(95.0).unwrap_err();
         assert!(e.to_string().contains("write 0.95"), "{e}");
+        let e = Level::new(1.5).unwrap_err().to_string();
+        assert!(!e.contains("write"), "{e}");
         for bad in [0.0, 1.0, -0.5, f64::NAN, f64::INFINITY] {
             assert!(Level::new(bad).is_err(), "{bad}");
         }

@@ -92,6 +92,13 @@ pub struct SpreadShortfall {
     pub explained_shortfall_ci: (f64, f64),
     /// The placement's expected coefficient minus the observed one (positive: a shortfall).
     pub observed_shortfall: f64,
+    /// The score-spread model's expectation at the typical SD minus the observed
+    /// coefficient: the shortfall that spread may account for, on the same model's
+    /// baseline as `explained_shortfall`.
+    pub shortfall_from_typical_sd: f64,
+    /// The expectation at the study's own SD minus the observed coefficient: what score
+    /// spread leaves unexplained.
+    pub unexplained_shortfall: f64,
     /// True when the study's SD lies outside the SDs of the benchmark studies.
     pub sd_outside_benchmark: bool,
     /// The score-spread model behind it.
@@ -224,11 +231,15 @@ pub fn place(
         Some(sd) => spread_part(p, study, sd, cond, options, expected, &mut warnings)?,
     };
 
+    let at = design
+        .as_ref()
+        .map(|d| d.canonical_values(cond.at))
+        .unwrap_or_else(|| cond.at.clone());
     Ok(Placement {
         transform: p.transform,
         fit,
         design,
-        at: cond.at.clone(),
+        at,
         expected_t,
         se_t,
         ci_t,
@@ -508,6 +519,8 @@ fn spread_shortfall(
         explained_shortfall: at_typical - at_own,
         explained_shortfall_ci: (lo, hi),
         observed_shortfall: expected - study.coef,
+        shortfall_from_typical_sd: at_typical - study.coef,
+        unexplained_shortfall: at_own - study.coef,
         sd_outside_benchmark: own < min_sd || own > max_sd,
         model: Box::new(model),
     })

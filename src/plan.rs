@@ -70,8 +70,12 @@ pub fn n_for_width(alpha: f64, width: f64, k: u32, level: Level) -> Result<Sampl
             msg![
                 Setting::Width,
                 format!(
-                    " {width} around {alpha} reaches 1 or more (the interval would be {lo} to \
-                     {hi}), or is not above 0; choose a width above 0 that stays below 1"
+                    " {} around {} reaches 1 or more (the interval would be {} to {}), or is not \
+                     above 0; choose a width above 0 that stays below 1",
+                    crate::format::trimmed(width, 6),
+                    crate::format::trimmed(alpha, 6),
+                    crate::format::trimmed(lo, 6),
+                    crate::format::trimmed(hi, 6)
                 )
             ],
         ));

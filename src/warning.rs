@@ -130,10 +130,23 @@ pub enum Warning {
         /// Missing cells.
         cells: u64,
     },
+    /// A warning about one group's benchmark (`--by`).
+    InGroup {
+        /// The column the groups come from.
+        column: String,
+        /// The group.
+        level: String,
+        /// The group benchmark's warning.
+        warning: Box<Warning>,
+    },
     /// A column counts 1, 2, 3, … like a respondent number.
     IdentifierColumn {
         /// The column.
         column: String,
+        /// Its first value (0 or 1).
+        first: f64,
+        /// Its last value.
+        last: f64,
     },
     /// A text column with one value per respondent was taken as an identifier.
     IdentifierLeftOut {
@@ -225,6 +238,7 @@ impl Warning {
             Warning::RangeBelowZero { .. } => "range_below_zero",
             Warning::Extrapolation { .. } => "extrapolation",
             Warning::NegativeAlpha { .. } => "negative_alpha",
+            Warning::InGroup { warning, .. } => warning.code(),
             Warning::IdentifierColumn { .. } => "identifier_column",
             Warning::ExtremeResponse { .. } => "extreme_response",
             Warning::Inadmissible { .. } => "inadmissible",
@@ -276,6 +290,9 @@ impl Warning {
     /// studies, a lower-bound coefficient, an assumed model, …): the readable summaries
     /// repeat them at their end, so that a summary saved to a file keeps them.
     pub fn changes_reading(&self) -> bool {
+        if let Warning::InGroup { warning, .. } = self {
+            return warning.changes_reading();
+        }
         matches!(
             self,
             Warning::FewStudies { .. }
@@ -420,13 +437,33 @@ impl Warning {
                  draws); report it as a what-if, not as an estimate"
             ],
             Warning::RowsWithMissingValues { rows, cells } => msg![format!(
-                "{rows} respondent(s) were left out for {cells} missing value(s) (only complete \
-                 rows are used)"
+                "{} left out for {} (only complete rows are used)",
+                if *rows == 1 {
+                    "1 respondent was".to_string()
+                } else {
+                    format!("{} respondents were", format::thousands(*rows))
+                },
+                format::count(*cells, "missing value", "missing values")
             )],
-            Warning::IdentifierColumn { column } => msg![
+            Warning::InGroup {
+                column,
+                level,
+                warning,
+            } => warning
+                .message()
+                .prefixed(format!("in the group {column} = {level}: ")),
+            Warning::IdentifierColumn {
+                column,
+                first,
+                last,
+            } => msg![
                 format!(
-                    "column {column} counts 1, 2, 3, … like a respondent number, yet it is \
-                     analysed as an item; leave it out with "
+                    "column {column} counts {}, {}, {}, … {} down the rows like a respondent \
+                     number, yet it is analysed as an item; leave it out with ",
+                    format::trimmed(*first, 6),
+                    format::trimmed(first + 1.0, 6),
+                    format::trimmed(first + 2.0, 6),
+                    format::trimmed(*last, 9)
                 ),
                 S::ItemColumns
             ],
@@ -461,9 +498,13 @@ impl Warning {
             ],
             Warning::NegativeLoading { items } => msg![
                 format!(
-                    "{} load(s) negatively on the common factor: probably worded in reverse and \
-                     in need of reverse scoring (",
-                    items.join(", ")
+                    "{} negatively on the common factor: probably worded in reverse and in need \
+                     of reverse scoring (",
+                    if items.len() == 1 {
+                        format!("{} loads", items[0])
+                    } else {
+                        format!("{} load", format::and_list(items))
+                    }
                 ),
                 S::ReverseKeyed,
                 " with ",
@@ -491,7 +532,17 @@ impl Warning {
                 list_rows(rows)
             )],
             Warning::RowsSkipped { count } => msg![
-                format!("{count} row(s) with problems were left out ("),
+                format!(
+                    "{} left out (",
+                    if *count == 1 {
+                        "1 row with problems was".to_string()
+                    } else {
+                        format!(
+                            "{} rows with problems were",
+                            format::thousands(*count as u64)
+                        )
+                    }
+                ),
                 S::SkipInvalid,
                 "); each is listed with its reason"
             ],

@@ -229,9 +229,9 @@ fn regression_input(
                 d.complete_rows,
                 if d.missing_cells > 0 {
                     format!(
-                        " ({} left out for {} missing cell(s))",
+                        " ({} left out for {})",
                         d.rows_read - d.complete_rows,
-                        d.missing_cells
+                        crate::format::count(d.missing_cells, "missing cell", "missing cells")
                     )
                 } else {
                     String::new()
@@ -293,9 +293,9 @@ fn check_regression_n(input: &RegressionInput) -> Result<()> {
             msg![
                 given(Setting::CorrectionN, input.n.to_string()),
                 format!(
-                    " is too small for {variables} variables: a regression with {} predictor(s) \
-                     needs at least {} respondents",
-                    input.predictors.len(),
+                    " is too small for {variables} variables: a regression with {} needs at \
+                     least {} respondents",
+                    crate::format::count(input.predictors.len() as u64, "predictor", "predictors"),
                     variables + 3
                 )
             ],

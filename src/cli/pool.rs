@@ -22,6 +22,13 @@ pub fn run_pool(a: PoolArgs) -> Result<(), Failure> {
     if json {
         print_json(&PoolDocument::new(b, &paragraph, &OptionNames))
     } else {
-        print(&benchmark_summary(b, &paragraph, studies, &OptionNames))
+        let measure = settings.measure.as_deref();
+        print(&benchmark_summary(
+            b,
+            &paragraph,
+            measure,
+            studies,
+            &OptionNames,
+        ))
     }
 }

@@ -208,8 +208,12 @@ fn monte_carlo(
     // Draws beyond a bound sit at the bound; when more than the tail share of draws is
     // there, that end of the interval is the bound itself.
     let tail = level.tail() * draws as f64;
+    // When even the interval's far end sits at a bound, the draws say nothing but that
+    // the correction is impossible: no interval.
+    let ci =
+        percentile_interval(&mut values, level.value()).filter(|&(lo, hi)| lo < 1.0 && hi > -1.0);
     MonteCarlo {
-        ci: percentile_interval(&mut values, level.value()),
+        ci,
         bound: (below as f64 > tail, above as f64 > tail),
         inadmissible: below + above,
     }

@@ -78,6 +78,14 @@ impl Tallies {
         }
     }
 
+    /// Whether item `i` counts 0 or 1, then up by one each row, over at least five rows:
+    /// a respondent number rather than answers.
+    pub(super) fn counts_like_ids(&self, i: usize) -> bool {
+        self.counting[i]
+            && self.seen[i] >= 5
+            && matches!(self.first[i], Some(f) if f == 0.0 || f == 1.0)
+    }
+
     /// Note an answer of item `slot` (rows in file order).
     #[inline]
     pub(super) fn answer(&mut self, slot: usize, x: f64) {

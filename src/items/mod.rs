@@ -159,7 +159,8 @@ pub fn analyze(data: &ItemData, level: Level) -> Result<ItemAnalysis> {
     }
     if n_used < 3 {
         return Err(crate::Error::cannot(format!(
-            "only {n_used} respondent(s) can be used; reliability needs at least 3"
+            "only {} can be used; reliability needs at least 3",
+            crate::format::count(n_used, "respondent", "respondents")
         )));
     }
     let a = alpha(cov);

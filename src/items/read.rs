@@ -93,6 +93,8 @@ pub struct ItemData {
     pub rows: Option<Vec<f64>>,
     /// Columns left out as identifiers (text, one value per respondent).
     pub identifiers: Vec<String>,
+    /// Responses read as missing besides empty cells and NA (`--missing-code`).
+    pub missing_codes: Vec<f64>,
     /// Things noticed while reading (identifier-like columns, extreme values).
     pub notes: Vec<crate::Warning>,
 }
@@ -389,8 +391,8 @@ fn choose_columns(
         return Err(Error::setting(
             setting,
             format!(
-                "{file}: {} item column(s) selected; reliability needs at least 2 items",
-                items.len()
+                "{file}: {} selected; reliability needs at least 2 items",
+                crate::format::count(items.len() as u64, "item column", "item columns")
             ),
         ));
     }
@@ -468,7 +470,12 @@ fn chosen_items(
             msg![
                 setting,
                 format!(
-                    " names column(s) the file does not have: {} (its columns are: {})",
+                    " names {} the file does not have: {} (its columns are: {})",
+                    if unknown.len() == 1 {
+                        "a column"
+                    } else {
+                        "columns"
+                    },
                     unknown.join(", "),
                     crate::format::quoted(&header.join(", "), 200)
                 )
@@ -654,7 +661,8 @@ impl Careful<'_> {
         if problems.unlisted > 0 {
             let more = problems.unlisted;
             problems.listed.push(CellProblem::file(format!(
-                "… and {more} more problem(s) of the same kinds"
+                "… and {} of the same kinds",
+                crate::format::count(more as u64, "more problem", "more problems")
             )));
         }
         if !problems.listed.is_empty() {
@@ -815,9 +823,11 @@ fn finish(
         ]));
     }
     for (i, name) in names.iter().enumerate() {
-        if t.counting[i] && t.seen[i] >= 3 {
+        if t.counts_like_ids(i) {
             notes.push(crate::Warning::IdentifierColumn {
                 column: name.clone(),
+                first: t.first[i].unwrap_or(1.0),
+                last: t.last[i].unwrap_or(1.0),
             });
         }
     }
@@ -827,12 +837,12 @@ fn finish(
     }
     .ok_or_else(|| {
         Error::cannot(format!(
-            "{file}: fewer than 2 respondents {} ({} row(s) read, {} complete)",
+            "{file}: fewer than 2 respondents {} ({} read, {} complete)",
             match options.missing {
                 Missing::Listwise => "answered every item",
                 Missing::Pairwise => "answered some pair of items",
             },
-            t.rows_read,
+            crate::format::count(t.rows_read, "row", "rows"),
             t.listwise.n()
         ))
     })?;
@@ -856,6 +866,7 @@ fn finish(
         moments,
         rows: t.rows,
         identifiers,
+        missing_codes: options.missing_codes.clone(),
     })
 }
 
@@ -879,7 +890,7 @@ fn identifiers(
                 .names
                 .iter()
                 .enumerate()
-                .filter(|(i, _)| !(t.counting[*i] && t.seen[*i] >= 3))
+                .filter(|(i, _)| !t.counts_like_ids(*i))
                 .map(|(_, n)| n.as_str())
                 .collect();
             return Err(Problems::one(
@@ -1067,7 +1078,7 @@ mod tests {
         ));
         let p = write(
             "groups.csv",
-            "group,n,a,b,c\nA,1,3,2,3\nB,2,2,2,3\nA,3,3,4,4\nB,4,4,4,5\n",
+            "group,n,a,b,c\nA,1,3,2,3\nB,2,2,2,3\nA,3,3,4,4\nB,4,4,4,5\nA,5,4,3,2\n",
         );
         let err = both(&p, &ItemReadOptions::default()).unwrap_err();
         assert!(err.contains("column group holds text"), "{err}");

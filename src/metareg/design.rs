@@ -137,6 +137,29 @@ pub struct Design {
 }
 
 impl Design {
+    /// The moderator values as the design names them: each moderator by its own name, a
+    /// categorical value by its level's spelling ("Retail STAFF " → "retail staff").
+    pub fn canonical_values(&self, at: &BTreeMap<String, String>) -> BTreeMap<String, String> {
+        at.iter()
+            .map(|(k, v)| {
+                let Some(m) = self.moderators.iter().find(|m| same_name(m.name(), k)) else {
+                    return (k.clone(), v.trim().to_string());
+                };
+                let value = match m {
+                    Moderator::Categorical {
+                        reference, levels, ..
+                    } => std::iter::once(reference)
+                        .chain(levels.iter().map(|(l, _)| l))
+                        .find(|l| same_name(l, v))
+                        .cloned()
+                        .unwrap_or_else(|| v.trim().to_string()),
+                    Moderator::Numeric { .. } => v.trim().to_string(),
+                };
+                (m.name().to_string(), value)
+            })
+            .collect()
+    }
+
     /// The effects and variances of the studies in the model.
     pub fn effects(&self, y: &[f64], v: &[f64]) -> (Vec<f64>, Vec<f64>) {
         self.used.iter().map(|&i| (y[i], v[i])).unzip()
@@ -441,8 +464,12 @@ pub fn build_design(p: &Prepared, specs: &[ModeratorSpec], centring: Centring) -
                 String::new()
             } else {
                 format!(
-                    "; {} row(s) were left out for missing moderator values",
-                    excluded.len()
+                    "; {} left out for missing moderator values",
+                    if excluded.len() == 1 {
+                        "1 row was".to_string()
+                    } else {
+                        format!("{} rows were", excluded.len())
+                    }
                 )
             }
         )));

@@ -39,9 +39,20 @@ impl SpreadMetric {
     }
 }
 
+impl SpreadMetric {
+    /// The metric for readers: "per-item" or "POMP".
+    pub fn label(self) -> &'static str {
+        match self {
+            SpreadMetric::PerItem => "per-item",
+            SpreadMetric::Pomp => "POMP",
+        }
+    }
+}
+
+/// Shown as its label (the JSON keeps the name).
 impl fmt::Display for SpreadMetric {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(self.name())
+        f.write_str(self.label())
     }
 }
 
@@ -664,9 +675,13 @@ fn excluded_note(excluded: &[ExcludedRow]) -> String {
         String::new()
     } else {
         format!(
-            " ({} row(s) were left out for an SD that cannot be used; see docs/coding-sheet.md \
-             on sd, sd_metric and the scale range)",
-            excluded.len()
+            " ({} left out for an SD that cannot be used; see docs/coding-sheet.md on sd, \
+             sd_metric and the scale range)",
+            if excluded.len() == 1 {
+                "1 row was".to_string()
+            } else {
+                format!("{} rows were", excluded.len())
+            }
         )
     }
 }

@@ -103,6 +103,23 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         .iter()
         .map(|level| group(p, &values, level, options, &mut pooled))
         .collect();
+    // What changes how a group's benchmark reads is said with the group named.
+    for g in &groups {
+        if let Ok(b) = &g.result {
+            for w in b.warnings.iter().filter(|w| {
+                matches!(
+                    w,
+                    Warning::RangeBelowZero { .. } | Warning::NotConverged { .. }
+                )
+            }) {
+                warnings.push(Warning::InGroup {
+                    column: column.to_string(),
+                    level: g.level.clone(),
+                    warning: Box::new(w.clone()),
+                });
+            }
+        }
+    }
     let fit_options = FitOptions {
         model: options.model,
         ci: options.ci,

@@ -266,39 +266,44 @@ fn spread_ticks(sds: &[f64]) -> (Vec<f64>, Vec<f64>) {
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &x| {
             (a.min(x), b.max(x))
         });
-    let mut all = Vec::new();
+    let mut sd_ticks = Vec::new();
     if lo.is_finite() && lo > 0.0 && hi >= lo {
-        let mut decade = 10f64.powf(lo.log10().floor() - 1.0);
-        while decade <= hi * 10.0 && all.len() < 200 {
-            for m in [1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0] {
-                all.push(m * decade);
+        // The coarsest set of round values that puts at least three ticks inside the
+        // data's range (the ends of the drawn range fall just outside it).
+        let coarse: &[f64] = &[1.0, 2.0, 5.0];
+        let medium: &[f64] = &[1.0, 1.2, 1.5, 2.0, 2.5, 3.0, 4.0, 5.0, 6.0, 8.0];
+        let fine: Vec<f64> = (10..100).map(|m| f64::from(m) / 10.0).collect();
+        let finer: Vec<f64> = (100..1000).map(|m| f64::from(m) / 100.0).collect();
+        for mantissas in [coarse, medium, &fine[..], &finer[..]] {
+            sd_ticks = round_values_within(lo, hi, mantissas);
+            if sd_ticks.len() >= 3 {
+                break;
             }
-            decade *= 10.0;
         }
+        let step = sd_ticks.len().div_ceil(SPREAD_TICKS_MAX).max(1);
+        sd_ticks = sd_ticks.into_iter().step_by(step).collect();
     }
-    // The candidates within the data's range, and the nearest beyond each end.
-    let below = all
-        .iter()
-        .copied()
-        .filter(|t| *t < lo)
-        .fold(f64::NAN, f64::max);
-    let above = all
-        .iter()
-        .copied()
-        .filter(|t| *t > hi)
-        .fold(f64::NAN, f64::min);
-    let mut inside: Vec<f64> = all.into_iter().filter(|t| *t >= lo && *t <= hi).collect();
-    let mut step = 1;
-    while inside.len().div_ceil(step) > SPREAD_TICKS_MAX - 2 {
-        step += 1;
-    }
-    inside = inside.into_iter().step_by(step).collect();
-    let mut sd_ticks: Vec<f64> = [below].into_iter().chain(inside).chain([above]).collect();
-    sd_ticks.retain(|t| t.is_finite());
     let coefficient_ticks = vec![
         0.0, 0.3, 0.5, 0.6, 0.7, 0.75, 0.8, 0.85, 0.9, 0.93, 0.95, 0.97, 0.98, 0.99, 0.995,
     ];
     (sd_ticks, coefficient_ticks)
+}
+
+/// The values m × 10^d (m from `mantissas`) between `lo` and `hi`.
+fn round_values_within(lo: f64, hi: f64, mantissas: &[f64]) -> Vec<f64> {
+    let mut out = Vec::new();
+    let mut decade = 10f64.powf(lo.log10().floor());
+    while decade <= hi && out.len() < 4000 {
+        for m in mantissas {
+            // Rounded so that 1.2 × 10 prints as 12, not 12.000000000000002.
+            let v = (m * decade * 1e9).round() / 1e9;
+            if v >= lo && v <= hi {
+                out.push(v);
+            }
+        }
+        decade *= 10.0;
+    }
+    out
 }
 
 /// The score-spread model on readable axes (score SD on a log scale, the coefficient on
@@ -347,7 +352,7 @@ pub fn score_spread(p: &Prepared, s: &ScoreSpread) -> Figure {
                 sd_ticks,
                 coefficient_ticks,
             },
-            x_label: format!("score SD ({} metric)", s.metric.name()),
+            x_label: format!("score SD ({} metric)", s.metric.label()),
             y_label: "reliability coefficient".into(),
         },
     }
@@ -400,16 +405,33 @@ fn adjusted_points(p: &Prepared, s: &ScoreSpread, means: &[f64]) -> Vec<BubblePo
 
 /// The score-spread figure's description: what is drawn, from which model.
 fn spread_description(s: &ScoreSpread) -> String {
-    let mut adjusted = s.other_moderators();
+    let mut means: Vec<String> = Vec::new();
+    let mut mixes: Vec<String> = Vec::new();
     if s.log_items_column {
-        adjusted.insert(0, "ln(items)".to_string());
+        means.push("ln(items)".to_string());
     }
-    let others = if adjusted.is_empty() {
+    for m in &s.others.moderators {
+        match m {
+            crate::metareg::Moderator::Numeric { name, .. } => means.push(name.clone()),
+            crate::metareg::Moderator::Categorical { name, .. } => mixes.push(name.clone()),
+        }
+    }
+    let mut to = Vec::new();
+    if !means.is_empty() {
+        to.push(format!("the means of {}", crate::format::and_list(&means)));
+    }
+    if !mixes.is_empty() {
+        to.push(format!(
+            "the benchmark's mix of {}",
+            crate::format::and_list(&mixes)
+        ));
+    }
+    let others = if to.is_empty() {
         String::new()
     } else {
         format!(
-            "; studies adjusted to the means of {} by the same model",
-            crate::format::and_list(&adjusted)
+            "; studies adjusted to {} by the same model",
+            to.join(" and ")
         )
     };
     format!(
@@ -417,7 +439,7 @@ fn spread_description(s: &ScoreSpread) -> String {
          weight, with the score-spread model's fitted line (slope {} of ln(1 − coefficient) on \
          ln(SD), {} CI {} to {}) and its bands{others}; the orange line has slope −2, what the \
          same error variance in every sample implies.",
-        s.metric.name(),
+        s.metric.label(),
         fixed(s.slope.estimate, 2),
         s.fit.options.level.percent(),
         fixed(s.slope.ci.lower, 2),
@@ -553,6 +575,26 @@ mod tests {
     use crate::placement::{Conditions, NewStudy, place};
     use crate::pool::FitOptions;
     use crate::sheet::{CoefType, read_coding_sheet};
+
+    /// The score SD axis has at least three round ticks inside the data, whatever its
+    /// range (12 to 19 had only 12 and 15 before).
+    #[test]
+    fn spread_ticks_cover_the_data() {
+        for (lo, hi) in [
+            (12.0, 19.0),
+            (0.45, 0.9),
+            (8.0, 95.0),
+            (1.02, 1.08),
+            (150.0, 420.0),
+        ] {
+            let (ticks, _) = spread_ticks(&[lo, (lo + hi) / 2.0, hi]);
+            assert!(ticks.len() >= 3, "{lo}..{hi}: {ticks:?}");
+            assert!(ticks.len() <= SPREAD_TICKS_MAX, "{lo}..{hi}: {ticks:?}");
+            assert!(ticks.iter().all(|t| *t >= lo && *t <= hi), "{ticks:?}");
+        }
+        let (t, _) = spread_ticks(&[12.0, 19.0]);
+        assert_eq!(t, [12.0, 14.0, 16.0, 18.0]);
+    }
 
     /// The placement curve is the t distribution of the observed value carried to the
     /// coefficient scale: its area over the expected range is the interval's level (the t

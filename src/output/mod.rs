@@ -28,10 +28,20 @@ local practice govern.";
 /// design's column names.)
 pub fn term_label(ex: &Explanation, j: usize) -> String {
     if j == 0 {
-        return match (ex.design.moderators.is_empty(), ex.design.centring) {
-            (true, _) => "pooled value".into(),
-            (false, Centring::Means) => "intercept (at the means)".into(),
-            (false, Centring::None) => "intercept (moderators at 0)".into(),
+        let mods = &ex.design.moderators;
+        let numeric = mods.iter().any(|m| matches!(m, Moderator::Numeric { .. }));
+        let categorical = mods
+            .iter()
+            .any(|m| matches!(m, Moderator::Categorical { .. }));
+        let numeric_at = match ex.design.centring {
+            Centring::Means => "at the means",
+            Centring::None => "numeric moderators at 0",
+        };
+        return match (numeric, categorical) {
+            (false, false) => "pooled value".into(),
+            (true, false) => format!("intercept ({numeric_at})"),
+            (false, true) => "intercept (at the reference levels)".into(),
+            (true, true) => format!("intercept ({numeric_at}, reference levels)"),
         };
     }
     for m in &ex.design.moderators {

@@ -558,7 +558,8 @@ fn bubble<DB: DrawingBackend>(
     match axes {
         BubbleAxes::Linear => {
             let mut chart = axes!(area, scale, x, y, x_label, y_label, 64.0);
-            bubble_layers(&mut chart, scale, data, SeriesLabelPosition::UpperRight)
+            let corner = emptiest_corner(points, x, y);
+            bubble_layers(&mut chart, scale, data, corner)
         }
         BubbleAxes::Spread {
             sd_ticks,
@@ -668,6 +669,27 @@ where
     }))?;
     legend(chart, scale, legend_at)?;
     Ok(())
+}
+
+/// The corner of the plot with the fewest points near it (the legend goes there, so
+/// that it hides as few studies as possible); ties go to the upper right.
+fn emptiest_corner(points: &[BubblePoint], x: (f64, f64), y: (f64, f64)) -> SeriesLabelPosition {
+    // The legend box covers about 40% of the width and 30% of the height.
+    let near = |p: &BubblePoint, right: bool, upper: bool| {
+        let fx = (p.x - x.0) / (x.1 - x.0);
+        let fy = (p.y - y.0) / (y.1 - y.0);
+        (if right { fx > 0.6 } else { fx < 0.4 }) && (if upper { fy > 0.7 } else { fy < 0.3 })
+    };
+    [
+        (SeriesLabelPosition::UpperRight, true, true),
+        (SeriesLabelPosition::UpperLeft, false, true),
+        (SeriesLabelPosition::LowerRight, true, false),
+        (SeriesLabelPosition::LowerLeft, false, false),
+    ]
+    .into_iter()
+    .min_by_key(|(_, right, upper)| points.iter().filter(|p| near(p, *right, *upper)).count())
+    .map(|(c, _, _)| c)
+    .unwrap_or(SeriesLabelPosition::UpperRight)
 }
 
 fn padded_range(values: impl Iterator<Item = f64>) -> (f64, f64) {

@@ -195,7 +195,9 @@ pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
     let (k, p) = (d.k(), d.p());
     if k <= p {
         return Err(Error::cannot(format!(
-            "{k} studies cannot support a model with {p} coefficient(s): at least {} are needed",
+            "{} cannot support a model with {}: at least {} are needed",
+            crate::format::count(k as u64, "study", "studies"),
+            crate::format::count(p as u64, "coefficient", "coefficients"),
             p + 1
         )));
     }

@@ -201,6 +201,21 @@ pub struct SheetSummary {
     pub rows_outside_subset: usize,
 }
 
+impl SheetSummary {
+    /// The subset in words ("population = nurses and year = 2020"), when there is one.
+    pub fn subset_words(&self) -> Option<String> {
+        if self.subset.is_empty() {
+            return None;
+        }
+        let rules: Vec<String> = self
+            .subset
+            .iter()
+            .map(|r| format!("{} = {}", r.column, r.value))
+            .collect();
+        Some(rules.join(" and "))
+    }
+}
+
 impl CodingSheet {
     /// What the sheet was and how much of it is used (before any subset).
     pub fn summary(&self) -> SheetSummary {
@@ -243,9 +258,10 @@ impl CodingSheet {
             refs.push((c, r.value.as_str()));
         }
         let before = self.records.len() + self.partial.len();
+        self.refuse_empty_subset(rules, &refs)?;
         self.records.retain(|rec| {
             refs.iter()
-                .all(|(c, v)| rec.value(*c).is_some_and(|x| same_name(&x, v)))
+                .all(|(c, v)| rec.value(*c).is_some_and(|x| subset_match(&x, v)))
         });
         // A row that did not parse is set aside only when a rule can be judged on what
         // was read of it and fails; its problems go with it.
@@ -259,7 +275,7 @@ impl CodingSheet {
                     }
                     ColumnRef::Standard(_) => None,
                 };
-                value.is_some_and(|x| !x.is_some_and(|x| same_name(&x, v)))
+                value.is_some_and(|x| !x.is_some_and(|x| subset_match(&x, v)))
             });
             if fails {
                 aside.insert(part.row);
@@ -269,6 +285,69 @@ impl CodingSheet {
         self.problems
             .retain(|p| p.row.is_none_or(|r| !aside.contains(&r)));
         Ok(before - self.records.len() - self.partial.len())
+    }
+
+    /// A subset that no row falls in is an error: name the rule no row matches, with the
+    /// values its column holds.
+    fn refuse_empty_subset(&self, rules: &[SubsetRule], refs: &[(ColumnRef, &str)]) -> Result<()> {
+        let all_match = |rec: &StudyRecord| {
+            refs.iter()
+                .all(|(c, v)| rec.value(*c).is_some_and(|x| subset_match(&x, v)))
+        };
+        if self.records.iter().any(all_match) || !self.partial.is_empty() {
+            return Ok(());
+        }
+        let rule_text = |r: &SubsetRule| format!("{}={}", r.column, r.value);
+        for (r, (c, v)) in rules.iter().zip(refs) {
+            if self
+                .records
+                .iter()
+                .any(|rec| rec.value(*c).is_some_and(|x| subset_match(&x, v)))
+            {
+                continue;
+            }
+            let mut values: Vec<String> = Vec::new();
+            for rec in &self.records {
+                if let Some(x) = rec.value(*c)
+                    && !values.iter().any(|v| same_name(v, &x))
+                {
+                    values.push(x);
+                }
+            }
+            let shown: Vec<String> = values
+                .iter()
+                .take(12)
+                .map(|v| crate::format::quoted(v, 60))
+                .collect();
+            let more = values.len().saturating_sub(12);
+            return Err(Error::setting(
+                Setting::Subset,
+                msg![
+                    given(Setting::Subset, rule_text(r)),
+                    format!(
+                        ": no row has {} = {} (its values: {}{})",
+                        r.column,
+                        r.value,
+                        shown.join(", "),
+                        if more > 0 {
+                            format!(" and {more} more")
+                        } else {
+                            String::new()
+                        }
+                    )
+                ],
+            ));
+        }
+        Err(Error::setting(
+            Setting::Subset,
+            msg![
+                "no row matches every ",
+                Setting::Subset,
+                " rule together (",
+                rules.iter().map(rule_text).collect::<Vec<_>>().join(", "),
+                ")"
+            ],
+        ))
     }
 
     /// True when the sheet has the standard column.
@@ -281,6 +360,16 @@ impl CodingSheet {
     pub fn column_label(&self, role: Role) -> String {
         column_label(&self.columns, role)
     }
+}
+
+/// A cell matches a subset value when they are the same text (capitals and surrounding
+/// spaces aside) or the same number (10 and 10.0).
+fn subset_match(cell: &str, value: &str) -> bool {
+    same_name(cell, value)
+        || matches!(
+            (cell.trim().parse::<f64>(), value.trim().parse::<f64>()),
+            (Ok(a), Ok(b)) if a == b
+        )
 }
 
 fn column_label(columns: &BTreeMap<Role, String>, role: Role) -> String {
@@ -545,9 +634,10 @@ impl Layout {
             return Some(CellProblem::row(
                 raw.row,
                 format!(
-                    "the row has {n_cells} cell(s) but the header has {} columns; check for a \
-                     missing or surplus delimiter",
-                    self.width
+                    "the row has {} but the header has {}; check for a missing or surplus \
+                     delimiter",
+                    crate::format::count(n_cells as u64, "cell", "cells"),
+                    crate::format::count(self.width as u64, "column", "columns")
                 ),
             ));
         }

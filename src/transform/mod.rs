@@ -282,7 +282,12 @@ fn check_alpha_type(s: &StudyInput) -> Vec<Unmet> {
         Some(k) if k < 2.0 => out.push(Unmet::new(
             InputField::Items,
             format!(
-                "{k} item(s) is too few (an internal-consistency coefficient needs at least 2)"
+                "{} too few (an internal-consistency coefficient needs at least 2)",
+                if k == 1.0 {
+                    "1 item is".to_string()
+                } else {
+                    format!("{k} items are")
+                }
             ),
         )),
         _ => {}

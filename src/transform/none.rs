@@ -72,7 +72,8 @@ impl AlreadyTransformed {
         match s.var {
             None => vec![Unmet::new(
                 InputField::Var,
-                "the sampling variance is missing (--transform none needs one for every study)",
+                "the sampling variance is missing (coefficients taken as already transformed need one \
+                 for every study)",
             )],
             Some(v) if v <= 0.0 => vec![Unmet::new(
                 InputField::Var,

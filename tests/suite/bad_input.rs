@@ -75,7 +75,7 @@ fn cases() -> Vec<Case> {
             "too few cells",
             "study,coef,n,items\nA,0.8,100,6\nB,0.7,50\n",
             &[],
-            &["row 3", "3 cell(s)", "4 columns"],
+            &["row 3", "3 cells but the header has 4 columns", "4 columns"],
         ),
         case(
             "too many cells",
@@ -294,7 +294,7 @@ fn all_problems_are_listed() {
         "row 4, column items",
         "row 6, column coef: \"x\"",
         "row 6, column n: a sample size of 2",
-        "row 6, column items: 1 item(s)",
+        "row 6, column items: 1 item is too few",
     ] {
         assert!(err.contains(frag), "missing {frag} in {err}");
     }

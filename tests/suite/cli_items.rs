@@ -48,7 +48,7 @@ fn demo_items_read_well() {
     let text = String::from_utf8_lossy(&out.stdout);
     for frag in [
         "Reliability of 10 items from 275 respondents",
-        "25 left out for 26 missing cell(s)",
+        "25 left out for 26 missing cells",
         "reversed      btci_04, btci_09",
         "(Feldt)",
         "(Bonett)",

@@ -24,7 +24,7 @@ fn demo_sheet_gives_a_readable_benchmark() {
     assert_eq!(out.status.code(), Some(0));
     let text = String::from_utf8_lossy(&out.stdout);
     for frag in [
-        "What a new study of the measure should expect",
+        "What a new study of the demo inventory should expect",
         "95% expected range",
         "Q-profile",
         "For your paper",

@@ -125,8 +125,8 @@ fn every_cross_reference_resolves() {
             "no section of left-out rows"
         );
         // The invalid row (38) and the row without a year (5).
-        assert!(page.contains("left out of the moderator model"));
-        assert!(page.contains("invalid rows skipped"));
+        assert!(page.contains("the moderator model"));
+        assert!(page.contains("every analysis (an invalid row, skipped)"));
     }
     assert!(html.contains("<td>38</td>") && html.contains("<td>5</td>"));
     let headings: Vec<&str> = html
@@ -143,6 +143,42 @@ fn every_cross_reference_resolves() {
             );
         }
     }
+    // Every link within report.md points to a heading's anchor as Markdown renderers
+    // make it (lower case, spaces as hyphens, punctuation dropped), and within the page to
+    // an element's id.
+    let anchor = |t: &str| -> String {
+        t.chars()
+            .filter_map(|c| match c {
+                ' ' => Some('-'),
+                c if c.is_alphanumeric() || c == '-' || c == '_' => c.to_lowercase().next(),
+                _ => None,
+            })
+            .collect()
+    };
+    let md_anchors: Vec<String> = md
+        .lines()
+        .filter_map(|l| {
+            l.trim_start_matches('#')
+                .strip_prefix(' ')
+                .filter(|_| l.starts_with('#'))
+        })
+        .map(|t| anchor(&t.replace('\\', "")))
+        .collect();
+    let mut links = 0;
+    for (i, _) in md.match_indices("](#") {
+        let target = &md[i + 3..];
+        let target = &target[..target.find(')').unwrap()];
+        assert!(
+            md_anchors.iter().any(|a| a == target),
+            "report.md links to #{target}: {md_anchors:?}"
+        );
+        assert!(
+            html.contains(&format!("id=\"{target}\"")),
+            "report.html lacks #{target}"
+        );
+        links += 1;
+    }
+    assert!(links > 0, "the checklist links to the report's sections");
     // Markdown is plain Markdown: no HTML tags in it.
     let tag = md
         .match_indices('<')
@@ -186,7 +222,7 @@ fn score_spread_is_one_model_everywhere() {
     assert!(text.contains("also in the model: year"), "{text}");
     let svg =
         std::fs::read_to_string(dir.join("s").join("figures").join("score-spread.svg")).unwrap();
-    assert!(svg.contains("score SD (pomp metric)") && svg.contains("reliability coefficient"));
+    assert!(svg.contains("score SD (POMP metric)") && svg.contains("reliability coefficient"));
     // Ticks in coefficients (0.8) and SDs (20), not in log units.
     let texts: Vec<&str> = svg
         .split("<text")
@@ -310,7 +346,8 @@ fn level_spellings_are_one_level() {
         "LANGUAGE= Translated",
         "--json",
     ]);
-    assert_eq!(c["at"]["language"], " Translated".trim());
+    // The value as the sheet spells the level.
+    assert_eq!(c["at"]["language"], "translated");
 }
 
 /// Numeric moderators are centred by default: the intercept is the expected value at the
@@ -648,4 +685,172 @@ fn reading_warnings_close_the_summary() {
     let tail = text.rsplit("Read with care").next().unwrap();
     assert!(text.contains("Read with care"), "{text}");
     assert!(tail.contains("only 3 studies were pooled"), "{tail}");
+}
+
+/// The score-spread split uses one baseline (the model's value at the typical SD), the
+/// unexplained rest is the expectation at the study's own SD minus its coefficient, and
+/// an interval for a rise has the rise's sign.
+#[test]
+fn the_spread_split_has_one_baseline() {
+    let run = |sd: &str| {
+        json_ok(&[
+            "check",
+            &demo("candor-benchmark.csv"),
+            "--coef",
+            "0.70",
+            "--n",
+            "150",
+            "--items",
+            "10",
+            "--sd",
+            sd,
+            "--sd-metric",
+            "mean",
+            "--scale-min",
+            "1",
+            "--scale-max",
+            "5",
+            "--json",
+        ])
+    };
+    let j = run("0.62");
+    let s = &j["score_spread"];
+    let f = |k: &str| s[k].as_f64().unwrap();
+    assert!((f("shortfall_from_typical_sd") - (f("expected_at_typical_sd") - 0.70)).abs() < 1e-12);
+    assert!((f("unexplained_shortfall") - (f("expected_at_own_sd") - 0.70)).abs() < 1e-12);
+    assert!(
+        (f("shortfall_from_typical_sd") - f("explained_shortfall") - f("unexplained_shortfall"))
+            .abs()
+            < 1e-12
+    );
+    let conclusion = s["conclusion"].as_str().unwrap();
+    let rest = format!("the rest, {:.2}", f("unexplained_shortfall"));
+    assert!(conclusion.contains(&rest), "{conclusion}");
+    // A wider spread than typical raises the expectation: its interval is positive.
+    let j = run("0.80");
+    let conclusion = j["score_spread"]["conclusion"].as_str().unwrap();
+    let ci = conclusion.split("(CI ").nth(1).unwrap();
+    assert!(!ci.starts_with('−') && !ci.starts_with('-'), "{conclusion}");
+}
+
+/// When every Monte Carlo draw is beyond ±1 there is no Monte Carlo interval.
+#[test]
+fn no_interval_from_impossible_draws() {
+    let j = json_ok(&[
+        "correct", "--r", "0.9", "--n", "50", "--rel-x", "0.6", "--rel-y", "0.7", "--json",
+    ]);
+    assert!(j["mc_ci"].is_null(), "{}", j["mc_ci"]);
+    let text = stdout(&[
+        "correct", "--r", "0.9", "--n", "50", "--rel-x", "0.6", "--rel-y", "0.7",
+    ]);
+    assert!(text.contains("none: 100.0% of"), "{text}");
+}
+
+/// --where compares numbers as numbers, and a value no row has is named with the
+/// column's values.
+#[test]
+fn subsets_match_numbers_and_name_missing_values() {
+    let sheet = demo("candor-benchmark.csv");
+    let a = json_ok(&["pool", &sheet, "--where", "items=10", "--json"]);
+    let b = json_ok(&["pool", &sheet, "--where", "items=10.0", "--json"]);
+    assert_eq!(a["k"], b["k"]);
+    assert!(a["k"].as_u64().unwrap() > 2);
+    let out = relyard(&["pool", &sheet, "--where", "population=doctors"]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("no row has population = doctors") && err.contains("hospital nurses"),
+        "{err}"
+    );
+    // The subset is named in the paragraph for the paper.
+    assert!(
+        a["paragraph"].as_str().unwrap().contains("with items = 10"),
+        "{}",
+        a["paragraph"]
+    );
+}
+
+/// The check paragraph cites what it lists, and names a meta-regression as one.
+#[test]
+fn the_check_paragraph_cites_what_it_lists() {
+    let sheet = demo("candor-benchmark.csv");
+    let j = json_ok(&[
+        "check",
+        &sheet,
+        "--coef",
+        "0.7",
+        "--n",
+        "150",
+        "--items",
+        "10",
+        "--moderator",
+        "year",
+        "--at",
+        "year=2020",
+        "--json",
+    ]);
+    let text = j["paragraph"].as_str().unwrap();
+    for r in j["references"].as_array().unwrap() {
+        let first_author = r.as_str().unwrap().split(',').next().unwrap();
+        assert!(
+            text.contains(first_author),
+            "{first_author} is listed, not cited: {text}"
+        );
+    }
+    assert!(text.contains("mixed-effects meta-regression"), "{text}");
+}
+
+/// The intercept of a model with categorical moderators only is at the reference levels.
+#[test]
+fn the_intercept_says_where_it_is() {
+    let text = stdout(&[
+        "explain",
+        &demo("candor-benchmark.csv"),
+        "--moderator",
+        "language",
+    ]);
+    assert!(
+        text.contains("intercept (at the reference levels)"),
+        "{text}"
+    );
+    let text = stdout(&["explain", &demo("candor-benchmark.csv"), "--by", "language"]);
+    assert!(text.contains("random effects; τ² by"), "{text}");
+    assert!(!text.contains("all terms together"), "{text}");
+}
+
+/// A group whose expected range reaches below 0 is warned about, naming the group.
+#[test]
+fn a_group_range_below_zero_is_warned_about() {
+    let dir = scratch("group-below");
+    let sheet = write_file(
+        &dir,
+        "g.csv",
+        b"study,coef,n,items,site\nA,0.9,100,10,x\nB,0.2,100,10,x\nC,0.85,100,10,x\nD,0.5,100,10,x\nE,0.8,100,10,y\nF,0.82,100,10,y\nG,0.79,100,10,y\n",
+    );
+    let j = json_ok(&["explain", &sheet, "--by", "site", "--json"]);
+    let w: Vec<&str> = j["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|w| w["code"] == "range_below_zero")
+        .map(|w| w["message"].as_str().unwrap())
+        .collect();
+    assert!(w.iter().any(|m| m.contains("site = x")), "{j}");
+}
+
+/// Answers that happen to run 2, 3, 4, … are not a respondent number (one starts at 0 or
+/// 1 and runs for at least five rows).
+#[test]
+fn short_runs_are_not_identifiers() {
+    let dir = scratch("short-run");
+    let items = write_file(
+        &dir,
+        "i.csv",
+        b"a,b,c,d\n2,3,5,1\n3,1,5,4\n4,4,3,2\n5,2,4,5\n6,5,4,4\n",
+    );
+    let j = json_ok(&["items", &items, "--json"]);
+    assert!(
+        !warning_codes(&j).iter().any(|c| c == "identifier_column"),
+        "{j}"
+    );
 }

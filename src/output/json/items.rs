@@ -91,6 +91,8 @@ pub struct ItemsInput {
     pub missing_cells: u64,
     /// listwise or pairwise.
     pub missing: Missing,
+    /// Responses read as missing besides empty cells and NA.
+    pub missing_codes: Vec<f64>,
 }
 
 /// A χ² test.
@@ -171,6 +173,7 @@ impl ItemsDocument {
                 complete_rows: d.complete_rows,
                 missing_cells: d.missing_cells,
                 missing: d.missing,
+                missing_codes: d.missing_codes.clone(),
             },
             n_used: a.n_used,
             items: a.k,
@@ -381,13 +384,33 @@ pub struct PlanDocument {
     /// The formula's value before rounding up.
     pub n_exact: f64,
     /// The inputs, by name.
-    pub inputs: std::collections::BTreeMap<&'static str, f64>,
+    pub inputs: std::collections::BTreeMap<&'static str, PlanInput>,
+}
+
+impl std::fmt::Display for PlanInput {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            PlanInput::Count(n) => write!(f, "{n}"),
+            PlanInput::Number(x) => f.write_str(&crate::format::trimmed(*x, 9)),
+        }
+    }
+}
+
+/// A plan's input: a count (items, sides) or a number.
+#[derive(Debug, Clone, Copy, Serialize)]
+#[serde(untagged)]
+pub enum PlanInput {
+    /// A whole number.
+    Count(u32),
+    /// Any other number.
+    Number(f64),
 }
 
 impl PlanDocument {
     /// Build the document.
     pub fn new(o: &PlanOutcome, level: Level) -> Self {
-        let (goal, inputs): (&'static str, Vec<(&'static str, f64)>) = match o.plan {
+        use PlanInput::{Count, Number};
+        let (goal, inputs): (&'static str, Vec<(&'static str, PlanInput)>) = match o.plan {
             PlanSettings::Width {
                 items,
                 planning,
@@ -395,10 +418,10 @@ impl PlanDocument {
             } => (
                 "width",
                 vec![
-                    ("items", f64::from(items)),
-                    ("planning", planning),
-                    ("width", width),
-                    ("level", level.value()),
+                    ("items", Count(items)),
+                    ("planning", Number(planning)),
+                    ("width", Number(width)),
+                    ("level", Number(level.value())),
                 ],
             ),
             PlanSettings::Test {
@@ -411,12 +434,12 @@ impl PlanDocument {
             } => (
                 "test",
                 vec![
-                    ("items", f64::from(items)),
-                    ("planning", planning),
-                    ("null", null),
-                    ("power", power),
-                    ("significance", significance),
-                    ("sides", if one_sided { 1.0 } else { 2.0 }),
+                    ("items", Count(items)),
+                    ("planning", Number(planning)),
+                    ("null", Number(null)),
+                    ("power", Number(power)),
+                    ("significance", Number(significance)),
+                    ("sides", Count(if one_sided { 1 } else { 2 })),
                 ],
             ),
         };

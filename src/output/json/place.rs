@@ -30,6 +30,10 @@ pub struct CheckSpreadRecord {
     pub explained_shortfall_ci: [f64; 2],
     /// The placement's expected coefficient minus the observed one.
     pub observed_shortfall: f64,
+    /// Expected at the typical SD minus the observed coefficient.
+    pub shortfall_from_typical_sd: f64,
+    /// Expected at the study's own SD minus the observed coefficient.
+    pub unexplained_shortfall: f64,
     /// True when the study's SD lies outside the benchmark studies' SDs.
     pub sd_outside_benchmark: bool,
     /// The score-spread model's reading.
@@ -154,6 +158,8 @@ impl CheckDocument {
                 explained_shortfall: s.explained_shortfall,
                 explained_shortfall_ci: [s.explained_shortfall_ci.0, s.explained_shortfall_ci.1],
                 observed_shortfall: s.observed_shortfall,
+                shortfall_from_typical_sd: s.shortfall_from_typical_sd,
+                unexplained_shortfall: s.unexplained_shortfall,
                 sd_outside_benchmark: s.sd_outside_benchmark,
                 reading: s.model.reading,
                 slope: s.model.slope.estimate,

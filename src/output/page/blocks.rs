@@ -149,6 +149,23 @@ pub fn html_escape(s: &str) -> String {
     out
 }
 
+/// A heading's anchor as Markdown renderers make it: lower case, spaces as hyphens,
+/// letters, digits, hyphens and underscores kept, everything else dropped.
+pub fn heading_anchor(title: &str) -> String {
+    title
+        .chars()
+        .filter_map(|c| {
+            if c.is_alphanumeric() || c == '-' || c == '_' {
+                Some(c.to_lowercase().collect::<String>())
+            } else if c == ' ' {
+                Some("-".to_string())
+            } else {
+                None
+            }
+        })
+        .collect()
+}
+
 /// Escape text for Markdown: the characters that make emphasis, code, links, tables and
 /// strike-through are backslash-escaped anywhere, those that start a heading, a list or
 /// a quote are escaped at the start, angle brackets are backslash-escaped and an
@@ -281,6 +298,11 @@ mod tests {
             "{md}"
         );
         assert!(md.contains("\\*x\\*"), "{md}");
+        assert_eq!(
+            heading_anchor("Reporting checklist (REGEMA)"),
+            "reporting-checklist-regema"
+        );
+        assert_eq!(heading_anchor("What-if correction"), "what-if-correction");
         assert_eq!(markdown_escape("0.783 to 0.9"), "0.783 to 0.9");
         assert_eq!(markdown_escape("p < 0.001"), "p \\< 0.001");
         assert_eq!(markdown_escape("Knapp & Hartung"), "Knapp & Hartung");

@@ -64,7 +64,7 @@ pub struct ChecklistItem {
     pub where_in_report: Option<&'static str>,
     /// That section's anchor in report.html.
     #[serde(skip)]
-    pub anchor: Option<&'static str>,
+    pub anchor: Option<String>,
 }
 
 /// What the run did, for the checklist.

@@ -84,21 +84,10 @@ impl Section {
         }
     }
 
-    /// The anchor.
-    pub fn id(self) -> &'static str {
-        match self {
-            Section::Benchmark => "benchmark",
-            Section::Sheet => "sheet",
-            Section::Moderators => "moderators",
-            Section::Placement => "placement",
-            Section::Correction => "correction",
-            Section::RowsLeftOut => "rows-left-out",
-            Section::Warnings => "warnings",
-            Section::Methods => "methods",
-            Section::References => "references",
-            Section::Checklist => "checklist",
-            Section::Software => "software",
-        }
+    /// The anchor: the title as Markdown renderers make a heading's anchor (lower case,
+    /// letters, digits and hyphens), so that links resolve in report.md as in report.html.
+    pub fn id(self) -> String {
+        blocks::heading_anchor(self.title())
     }
 }
 
@@ -208,7 +197,7 @@ impl ReportPage<'_> {
         let mut out = Vec::new();
         if let Some(p) = &a.prepared {
             out.push((
-                "invalid rows skipped".to_string(),
+                "every analysis (an invalid row, skipped)".to_string(),
                 p.skipped
                     .iter()
                     .map(|s| {
@@ -223,18 +212,15 @@ impl ReportPage<'_> {
             rows.iter().map(|e| (e.row, e.reasons.join("; "))).collect()
         };
         if let Some(e) = &a.explanation {
-            out.push((
-                "left out of the moderator model".into(),
-                ex(&e.main.design.excluded),
-            ));
+            out.push(("the moderator model".into(), ex(&e.main.design.excluded)));
             if let Some(s) = &e.spread {
-                out.push(("left out of the score-spread model".into(), ex(&s.excluded)));
+                out.push(("the score-spread model".into(), ex(&s.excluded)));
             }
         }
         if let Some(pl) = &a.placement
             && let Some(d) = &pl.design
         {
-            out.push(("left out of the new study's model".into(), ex(&d.excluded)));
+            out.push(("the new study's model".into(), ex(&d.excluded)));
         }
         out
     }
@@ -271,7 +257,7 @@ impl ReportPage<'_> {
         let warnings = a.warnings();
         if !warnings.is_empty() {
             out.push(Block::section(
-                Section::Warnings.id(),
+                &Section::Warnings.id(),
                 Section::Warnings.title(),
             ));
             out.push(Block::List(
@@ -283,7 +269,7 @@ impl ReportPage<'_> {
         }
         let (methods, mut refs) = prose::methods(a);
         out.push(Block::section(
-            Section::Methods.id(),
+            &Section::Methods.id(),
             Section::Methods.title(),
         ));
         for m in methods {
@@ -294,7 +280,7 @@ impl ReportPage<'_> {
             ));
         }
         out.push(Block::section(
-            Section::References.id(),
+            &Section::References.id(),
             Section::References.title(),
         ));
         refs.extend(self.paragraphs().iter().flat_map(|p| p.references.clone()));
@@ -327,12 +313,12 @@ impl ReportPage<'_> {
             return Vec::new();
         };
         let mut out = vec![
-            Block::section(Section::Benchmark.id(), Section::Benchmark.title()),
+            Block::section(&Section::Benchmark.id(), Section::Benchmark.title()),
             Block::Para(Inline::default().strong(expected_range_lead(b))),
             Block::Para(Inline::text(pooling_summary(b))),
             benchmark_table(b),
-            differences_table(b),
         ];
+        out.extend(differences_blocks(b));
         out.extend(self.figure_blocks(|n| n == "forest" || n == "precision"));
         out.push(Block::subsection("paragraph", "A paragraph for the paper"));
         out.push(Block::Para(Inline::text(
@@ -375,15 +361,15 @@ impl ReportPage<'_> {
             rows.push(vec![
                 Inline::text("subset"),
                 Inline::text(format!(
-                    "{} ({} row(s) outside it set aside)",
+                    "{} ({} outside it set aside)",
                     rules.join(" and "),
-                    s.rows_outside_subset
+                    crate::format::count(s.rows_outside_subset as u64, "row", "rows")
                 )),
             ]);
         }
         rows.extend(coding_rows(b, p));
         vec![
-            Block::section(Section::Sheet.id(), Section::Sheet.title()),
+            Block::section(&Section::Sheet.id(), Section::Sheet.title()),
             Block::table(&["", ""], rows),
         ]
     }
@@ -395,7 +381,7 @@ impl ReportPage<'_> {
         let level = self.analysis.settings.level.percent();
         let ex = &e.main;
         let mut out = vec![Block::section(
-            Section::Moderators.id(),
+            &Section::Moderators.id(),
             Section::Moderators.title(),
         )];
         if ex.fit.coefficients.len() > 1 {
@@ -456,7 +442,7 @@ impl ReportPage<'_> {
             ]);
         }
         let mut out = vec![
-            Block::section(Section::Placement.id(), Section::Placement.title()),
+            Block::section(&Section::Placement.id(), Section::Placement.title()),
             Block::table(&["", ""], rows),
         ];
         if let Some(sp) = &pl.spread {
@@ -475,7 +461,7 @@ impl ReportPage<'_> {
         };
         let level = self.analysis.settings.level.percent();
         let mut out = vec![Block::section(
-            Section::Correction.id(),
+            &Section::Correction.id(),
             Section::Correction.title(),
         )];
         match c {
@@ -506,14 +492,14 @@ impl ReportPage<'_> {
             }
         }
         vec![
-            Block::section(Section::RowsLeftOut.id(), Section::RowsLeftOut.title()),
+            Block::section(&Section::RowsLeftOut.id(), Section::RowsLeftOut.title()),
             Block::table(&["row", "left out of", "why"], rows),
         ]
     }
 
     fn checklist_blocks(&self) -> Vec<Block> {
         vec![
-            Block::section(Section::Checklist.id(), Section::Checklist.title()),
+            Block::section(&Section::Checklist.id(), Section::Checklist.title()),
             Block::Para(Inline::text(
                 "Items of the reporting guideline for reliability generalization meta-analyses \
                  (Sánchez-Meca et al., 2021), with what this report covers. The guideline's 30 \
@@ -536,7 +522,7 @@ impl ReportPage<'_> {
                     .iter()
                     .map(|i| {
                         let mut note = Inline::text(i.note.clone());
-                        if let (Some(w), Some(id)) = (i.where_in_report, i.anchor) {
+                        if let (Some(w), Some(id)) = (i.where_in_report, &i.anchor) {
                             note = note.and(" — ").push(Span::Link {
                                 text: w.to_string(),
                                 href: format!("#{id}"),
@@ -563,7 +549,7 @@ impl ReportPage<'_> {
             .map(|p| p.file().to_string())
             .unwrap_or_default();
         vec![
-            Block::section(Section::Software.id(), Section::Software.title()),
+            Block::section(&Section::Software.id(), Section::Software.title()),
             Block::table(
                 &["", ""],
                 vec![
@@ -649,13 +635,24 @@ impl ReportPage<'_> {
             "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n\
              <meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n\
              <meta name=\"generator\" content=\"relyard {v}\">\n<title>{t}</title>\n<style>{css}</style>\n</head>\n\
-             <body>\n<main>\n<h1>{t}</h1>\n<p class=\"meta\">Made by relyard {v} from {f} (SHA-256 {s}…).</p>\n{body}</main>\n</body>\n</html>\n",
+             <body>\n<main>\n<h1>{t}</h1>\n<p class=\"meta\">Made by relyard {v} from {f} (SHA-256 {s}…){sub}.</p>\n{body}</main>\n</body>\n</html>\n",
             v = env!("CARGO_PKG_VERSION"),
             t = html_escape(&self.title),
             css = CSS,
             f = html_escape(&file),
             s = &sha[..sha.len().min(12)],
+            sub = html_escape(&self.subset_note()),
         )
+    }
+
+    /// "; only the rows with …" when a subset was analysed.
+    fn subset_note(&self) -> String {
+        self.analysis
+            .prepared
+            .as_ref()
+            .and_then(|p| p.source.subset_words())
+            .map(|w| format!("; only the rows with {w}"))
+            .unwrap_or_default()
     }
 
     /// The report as Markdown (figures linked from figures/); every text escaped, no HTML.
@@ -677,7 +674,7 @@ impl ReportPage<'_> {
             .code(file)
             .and(" (SHA-256 ")
             .code(sha)
-            .and(").")
+            .and(format!("){}.", self.subset_note()))
             .markdown()
         );
         for block in self.blocks() {
@@ -882,43 +879,25 @@ fn benchmark_table(b: &Benchmark) -> Block {
     Block::table(&["", "coefficient scale", "analysis scale"], rows)
 }
 
-/// How much the studies differ: τ², τ, I², H² and Q.
-fn differences_table(b: &Benchmark) -> Block {
-    let p = &b.pool;
-    let level = p.options.level.percent();
-    let het = &p.heterogeneity;
-    let tau2 = match p.options.model {
-        Model::Common => "0 (assumed by the common-effect model)".to_string(),
-        Model::Random(_) => format!(
-            "{}{}",
-            significant(p.tau2.tau2, 3),
-            p.tau2_ci
-                .map(|c| format!(
-                    " ({level} CI {})",
-                    range(c.lower, c.upper, |x| significant(x, 3))
-                ))
-                .unwrap_or_default()
-        ),
-    };
-    let row = |label: &str, value: String| vec![Inline::text(label), Inline::text(value)];
-    Block::table(
-        &["how much the studies differ", ""],
-        vec![
-            row("τ² (between-setting variance)", tau2),
-            row("τ", significant(p.tau2.tau2.sqrt(), 3)),
-            row("I²", format!("{}%", fixed(p.i2, 1))),
-            row("H²", fixed(p.h2, 2)),
-            row(
-                "Q (test of equal values)",
-                format!(
-                    "{} on {} df, p {}",
-                    fixed(het.q, 2),
-                    het.df,
-                    crate::format::p_value(het.p)
-                ),
-            ),
-        ],
-    )
+/// How much the studies differ: the sentence of the readable summary, then the share
+/// beyond sampling error and the test of equal values.
+fn differences_blocks(b: &Benchmark) -> Vec<Block> {
+    let mut rows = Vec::new();
+    if let Some(share) = prose::share_words(b) {
+        rows.push(vec![
+            Inline::text("between-setting share"),
+            Inline::text(share),
+        ]);
+    }
+    rows.push(vec![
+        Inline::text("test of equal values"),
+        Inline::text(prose::equal_values_words(b)),
+    ]);
+    vec![
+        Block::subsection("differences", "How much the studies differ"),
+        Block::Para(Inline::text(prose::differences_sentence(b))),
+        Block::table(&["", ""], rows),
+    ]
 }
 
 /// What the sheet holds: coefficients by type, respondents, and how its columns were read.

@@ -77,15 +77,20 @@ fn opening(b: &Benchmark, w: &Words) -> String {
         1 => "; one further coded row was left out because of a coding problem".to_string(),
         m => format!("; {m} further coded rows were left out because of coding problems"),
     };
+    let subset = b
+        .source
+        .subset_words()
+        .map(|s| format!(" with {s}"))
+        .unwrap_or_default();
     if w.on_coef {
         format!(
             "We judged the reliability of {} against a benchmark built from k = {} prior \
-             administrations{n_part}{left_out}. ",
+             administrations{subset}{n_part}{left_out}. ",
             w.measure, b.pool.k
         )
     } else {
         format!(
-            "We pooled the effects of k = {} studies{n_part}{left_out}. ",
+            "We pooled the effects of k = {} studies{subset}{n_part}{left_out}. ",
             b.pool.k
         )
     }
@@ -284,4 +289,78 @@ fn range_sentence(b: &Benchmark, w: &Words, refs: &mut Vec<Reference>) -> String
         ));
     }
     s
+}
+
+/// How much true coefficients differ between settings, in one sentence (the readable
+/// summary and the page say the same).
+pub fn differences_sentence(b: &Benchmark) -> String {
+    let p = &b.pool;
+    let level = p.options.level.percent();
+    if p.options.model == Model::Common {
+        return format!(
+            "Not estimated: the common-effect model assumes no differences between settings \
+             (τ² = 0). The coefficients' spread relative to sampling error: I² = {}% from Q.",
+            fixed(p.i2, 1)
+        );
+    }
+    let scale = if b.transform == TransformKind::None {
+        "the effects' scale".to_string()
+    } else {
+        format!("the {} scale", b.transform.get().formula())
+    };
+    let ci = p
+        .tau2_ci
+        .map(|c| {
+            format!(
+                ", {level} CI {}",
+                range(c.lower, c.upper, |x| significant(x, 3))
+            )
+        })
+        .unwrap_or_default();
+    let words = if p.tau2.at_zero {
+        "no more than sampling error predicts"
+    } else if p.tau2_ci.is_some_and(|c| c.lower > 0.0) {
+        "beyond sampling error"
+    } else {
+        "somewhat, but not clearly beyond sampling error"
+    };
+    format!(
+        "True coefficients vary between settings {words}: τ = {} on {scale} (τ² = {}{ci}).",
+        significant(p.tau2.tau2.sqrt(), 3),
+        significant(p.tau2.tau2, 3)
+    )
+}
+
+/// The between-setting share: I² with its interval, and H² (random effects only).
+pub fn share_words(b: &Benchmark) -> Option<String> {
+    let p = &b.pool;
+    if p.options.model == Model::Common {
+        return None;
+    }
+    let level = p.options.level.percent();
+    let i2ci = p
+        .i2_ci
+        .map(|c| {
+            format!(
+                ", {level} CI {}",
+                range(c.lower, c.upper, |x| fixed(x, 1) + "%")
+            )
+        })
+        .unwrap_or_default();
+    Some(format!(
+        "I² = {}%{i2ci}; H² = {}",
+        fixed(p.i2, 1),
+        fixed(p.h2, 2)
+    ))
+}
+
+/// The test of equal values: Q on its degrees of freedom.
+pub fn equal_values_words(b: &Benchmark) -> String {
+    let h = &b.pool.heterogeneity;
+    format!(
+        "Q = {} on {} df, p {}",
+        fixed(h.q, 2),
+        h.df,
+        crate::format::p_value(h.p)
+    )
 }

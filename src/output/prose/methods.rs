@@ -80,7 +80,7 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
 fn model_item(b: &Benchmark, level: &str, refs: &mut Vec<Reference>) -> MethodsItem {
     let opts = b.pool.options;
     let ci_detail = match (opts.ci, b.pool.test.df) {
-        (CiMethod::Wald, _) => " (normal quantiles)".to_string(),
+        (CiMethod::Wald, _) => String::new(),
         (_, Some(df)) => format!(
             " (t with k − 1 = {df} degrees of freedom, the variance scaled by the weighted \
              residual mean square)"

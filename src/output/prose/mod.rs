@@ -5,7 +5,7 @@ mod benchmark;
 mod methods;
 mod placement;
 
-pub use benchmark::benchmark_paragraph;
+pub use benchmark::{benchmark_paragraph, differences_sentence, equal_values_words, share_words};
 pub use methods::{MethodsItem, interval_words, methods};
 pub use placement::{ordinal, placement_paragraph, spread_conclusion};
 

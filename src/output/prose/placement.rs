@@ -48,9 +48,11 @@ pub fn spread_conclusion(sp: &SpreadShortfall) -> String {
         );
     }
     let (lo, hi) = sp.explained_shortfall_ci;
-    let ci = format!("CI {} to {}", c2(lo), c2(hi));
-    let (obs, expl) = (sp.observed_shortfall, sp.explained_shortfall);
+    // One baseline throughout: the score-spread model's expectation at the typical SD.
+    let (obs, expl) = (sp.shortfall_from_typical_sd, sp.explained_shortfall);
     if expl < 0.0 {
+        // The interval of the rise, not of the (negative) shortfall.
+        let ci = format!("CI {} to {}", c2(-hi), c2(-lo));
         return format!(
             "The sample's scores spread more than is typical, which raises its expected \
              coefficient by {} ({ci}); score spread accounts for none of {}.",
@@ -62,30 +64,31 @@ pub fn spread_conclusion(sp: &SpreadShortfall) -> String {
             }
         );
     }
+    let ci = format!("CI {} to {}", c2(lo), c2(hi));
     if obs <= 0.0 {
         return format!(
-            "The coefficient is not below its expected value, so there is no shortfall for \
-             score spread to account for (at this SD the benchmark expects a coefficient {} \
-             lower than at the typical SD; {ci}).",
+            "The coefficient is not below the value expected at the typical SD, so there is \
+             no shortfall for score spread to account for (at this SD the benchmark expects a \
+             coefficient {} lower than at the typical SD; {ci}).",
             c2(expl)
         );
     }
     if expl >= obs {
         format!(
-            "Score spread accounts for all of the shortfall of {}: at this SD the benchmark \
-             expects a coefficient {} lower than at the typical SD ({ci}).",
+            "Score spread accounts for all of the shortfall of {} from the value expected at \
+             the typical SD: at this SD the benchmark expects a coefficient {} lower ({ci}).",
             c2(obs),
             c2(expl)
         )
     } else {
         format!(
-            "Score spread accounts for about {}% of the shortfall of {}: at this SD the \
-             benchmark expects a coefficient {} lower than at the typical SD ({ci}); the rest, \
-             {}, is not explained by score spread.",
+            "Score spread accounts for about {}% of the shortfall of {} from the value \
+             expected at the typical SD: at this SD the benchmark expects a coefficient {} \
+             lower ({ci}); the rest, {}, is not explained by score spread.",
             fixed(100.0 * expl / obs, 0),
             c2(obs),
             c2(expl),
-            c2(obs - expl)
+            c2(sp.unexplained_shortfall)
         )
     }
 }
@@ -142,16 +145,34 @@ pub fn placement_paragraph(pl: &Placement, measure: Option<&str>) -> Paragraph {
             )
         }
     );
+    let (scale, scale_ref) = match pl.transform {
+        TransformKind::Bonett => (" (Bonett, 2002)", Some(Reference::Bonett2002)),
+        TransformKind::HakstianWhalen => (
+            " (Hakstian & Whalen, 1976)",
+            Some(Reference::HakstianWhalen1976),
+        ),
+        TransformKind::FisherZ => (" (Fisher, 1921)", Some(Reference::Fisher1921)),
+        _ => ("", None),
+    };
+    refs.extend(scale_ref);
+    let model = match (pl.fit.options.model, pl.at.is_empty()) {
+        (Model::Common, true) => "common-effect model",
+        (Model::Common, false) => "common-effect meta-regression",
+        (Model::Random(_), true) => "random-effects model",
+        (Model::Random(_), false) => "mixed-effects meta-regression",
+    };
+    let intervals = if pl.fit.options.ci == CiMethod::Wald {
+        ""
+    } else {
+        refs.push(Reference::KnappHartung2003);
+        " and Knapp–Hartung intervals (Knapp & Hartung, 2003)"
+    };
     s.push_str(&format!(
-        "Pooled on the {} scale with a {} model, the expected coefficient was {} ({level} CI {}); \
-         the true coefficient in a new, comparable setting is expected between {}, and a \
-         coefficient observed in a sample of n = {} between {} (Higgins, Thompson, & \
-         Spiegelhalter, 2009). ",
+        "Pooled on the {} scale{scale} with a {model}{intervals}, the expected coefficient was \
+         {} ({level} CI {}); the true coefficient in a new, comparable setting is expected \
+         between {}, and a coefficient observed in a sample of n = {} between {} (Higgins, \
+         Thompson, & Spiegelhalter, 2009). ",
         pl.transform.label(),
-        match pl.fit.options.model {
-            Model::Common => "common-effect",
-            Model::Random(_) => "random-effects",
-        },
         c2(pl.expected),
         r(pl.ci),
         between(pl.pi),
@@ -168,12 +189,6 @@ pub fn placement_paragraph(pl: &Placement, measure: Option<&str>) -> Paragraph {
     if let Some(sp) = &pl.spread {
         s.push(' ');
         s.push_str(&spread_sentence(sp));
-    }
-    if pl.fit.options.ci != CiMethod::Wald {
-        refs.push(Reference::KnappHartung2003);
-    }
-    if pl.transform == TransformKind::Bonett || pl.spread.is_some() {
-        refs.push(Reference::Bonett2002);
     }
     Paragraph::new(s, refs)
 }

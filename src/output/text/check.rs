@@ -153,7 +153,10 @@ fn spread_lines(o: &mut String, pl: &Placement, sp: &SpreadShortfall) {
     line(
         o,
         "shortfall observed",
-        &format!("{} (expected minus observed)", c3(sp.observed_shortfall)),
+        &format!(
+            "{} (expected at the typical SD minus observed)",
+            c3(sp.shortfall_from_typical_sd)
+        ),
     );
     para(o, &spread_conclusion(sp));
 }

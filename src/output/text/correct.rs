@@ -95,7 +95,17 @@ fn corrected_correlation(o: &mut String, c: &CorrelationCorrection, level: Level
             fixed(100.0 * c.inadmissible_share, 1)
         );
     }
-    if c.mc_bound.0 || c.mc_bound.1 || c.ci_capped {
+    if c.mc_ci.is_none() && c.draws > 0 {
+        let _ = writeln!(
+            o,
+            "  {:<26}none: {}% of {} draws lie beyond ±1 (seed {})",
+            format!("{lv} CI (Monte Carlo)"),
+            fixed(100.0 * c.inadmissible_share, 1),
+            thousands(c.draws as u64),
+            c.seed
+        );
+    }
+    if (c.mc_ci.is_some() && (c.mc_bound.0 || c.mc_bound.1)) || (c.ci.is_some() && c.ci_capped) {
         let _ = writeln!(
             o,
             "  (bound): the end is ±1 itself — the data do not limit the corrected correlation there"

@@ -66,11 +66,17 @@ fn terms(o: &mut String, names: &[String], fit: &ModelFit, perm: Option<&[Option
     }
     let _ = writeln!(o);
     for (j, (name, c)) in names.iter().zip(&fit.coefficients).enumerate() {
-        let short: String = name.chars().take(36).collect();
+        // A long term name takes a line of its own, the numbers the next.
+        let label = if name.chars().count() > 36 {
+            let _ = writeln!(o, "  {name}");
+            ""
+        } else {
+            name.as_str()
+        };
         let _ = write!(
             o,
             "  {:<36} {:>9} {:>8} {:>21} {:>9}",
-            short,
+            label,
             fixed(c.estimate, 4),
             fixed(c.se, 4),
             range(c.ci.lower, c.ci.upper, |x| fixed(x, 4)),
@@ -126,7 +132,11 @@ pub fn explain_summary(p: &Prepared, e: &Explained, names: &dyn SettingNames) ->
     );
     line(
         &mut o,
-        "test of no differences",
+        if ex.design.moderators.is_empty() {
+            "test of equal values"
+        } else {
+            "test of no remaining differences"
+        },
         &format!(
             "Q = {} on {} df, p {}",
             fixed(fit.heterogeneity.q, 2),
@@ -160,27 +170,48 @@ pub fn explain_summary(p: &Prepared, e: &Explained, names: &dyn SettingNames) ->
         "analysis scale",
         &format!("{}: {}", p.transform.label(), p.transform.get().formula()),
     );
-    line(&mut o, "model", &model_words(fit));
+    line(
+        &mut o,
+        "model",
+        &model_words(fit, !ex.design.moderators.is_empty()),
+    );
     skipped_rows(&mut o, &p.skipped, names);
     read_with_care(&mut o, &e.warnings, names);
     o
 }
 
-/// The model and its tests in words.
-fn model_words(fit: &ModelFit) -> String {
+/// The model and its tests in words (a meta-regression, or the plain random-effects model
+/// when there are no moderators).
+fn model_words(fit: &ModelFit, with_moderators: bool) -> String {
     let opts = fit.options;
-    let model = match opts.model {
-        Model::Common => "common effect (τ² = 0 assumed)".to_string(),
-        Model::Random(est) => format!(
+    let model = match (opts.model, with_moderators) {
+        (Model::Common, _) => "common effect (τ² = 0 assumed)".to_string(),
+        (Model::Random(est), true) => format!(
             "mixed effects; the remaining τ² by {} ({})",
             est.label(),
             est.abbreviation()
         ),
+        (Model::Random(est), false) => format!(
+            "random effects; τ² by {} ({})",
+            est.label(),
+            est.abbreviation()
+        ),
+    };
+    let together = if with_moderators {
+        "; all terms together F"
+    } else {
+        ""
     };
     let tests = match opts.ci {
-        CiMethod::Wald => "Wald tests (z; all terms together χ²)".to_string(),
+        CiMethod::Wald if with_moderators => "Wald tests (z; all terms together χ²)".to_string(),
+        CiMethod::Wald => "Wald intervals (z)".to_string(),
         CiMethod::KnappHartung | CiMethod::KnappHartungFloor => format!(
-            "Knapp–Hartung tests (t with {} df; all terms together F){}",
+            "Knapp–Hartung {} (t with {} df{together}){}",
+            if with_moderators {
+                "tests"
+            } else {
+                "intervals"
+            },
             fit.k - fit.p,
             if opts.ci == CiMethod::KnappHartungFloor {
                 ", factor at least 1"

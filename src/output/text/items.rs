@@ -7,7 +7,7 @@ use crate::items::bootstrap::OmegaBootstrap;
 use crate::items::{FactorPart, ItemAnalysis, ItemData, Missing, Recommendation};
 use crate::level::Level;
 use crate::numeric::MinimizeStop;
-use crate::setting::SettingNames;
+use crate::setting::{Setting, SettingNames};
 use std::fmt::Write;
 
 /// Render the items summary.
@@ -17,7 +17,7 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
     items_heading(&mut o, d, a);
     items_input(&mut o, d);
     let _ = writeln!(o);
-    coefficient_rows(&mut o, o_);
+    coefficient_rows(&mut o, o_, names);
     match &a.factor {
         Ok(f) => factor_model(&mut o, f),
         Err(why) => {
@@ -81,18 +81,26 @@ fn items_input(o: &mut String, d: &ItemData) {
     }
     let missing = match d.missing {
         Missing::Listwise => format!(
-            "listwise: {} complete respondents used, {} left out for {} missing cell(s)",
+            "listwise: {} complete respondents used, {} left out for {}",
             thousands(d.complete_rows),
             thousands(d.rows_read - d.complete_rows),
-            thousands(d.missing_cells)
+            crate::format::count(d.missing_cells, "missing cell", "missing cells")
         ),
         Missing::Pairwise => format!(
-            "pairwise: each covariance from the respondents who answered both items (fewest {}); {} missing cell(s)",
+            "pairwise: each covariance from the respondents who answered both items (fewest {}); {}",
             thousands(d.moments.n_min()),
-            thousands(d.missing_cells)
+            crate::format::count(d.missing_cells, "missing cell", "missing cells")
         ),
     };
     let _ = writeln!(o, "  missing       {missing}");
+    if !d.missing_codes.is_empty() {
+        let codes: Vec<String> = d
+            .missing_codes
+            .iter()
+            .map(|c| crate::format::trimmed(*c, 9))
+            .collect();
+        let _ = writeln!(o, "  missing codes {} (read as missing)", codes.join(", "));
+    }
     let reversed: Vec<&str> = d
         .names
         .iter()
@@ -106,7 +114,7 @@ fn items_input(o: &mut String, d: &ItemData) {
 }
 
 /// The coefficients with their intervals: alpha, standardized alpha, λ2 and omega.
-fn coefficient_rows(o: &mut String, o_: &ItemsOutcome) {
+fn coefficient_rows(o: &mut String, o_: &ItemsOutcome, names: &dyn SettingNames) {
     let (d, a) = (&o_.data, &o_.analysis);
     let c3 = |x: f64| fixed(x, 3);
     let _ = writeln!(
@@ -142,7 +150,9 @@ fn coefficient_rows(o: &mut String, o_: &ItemsOutcome) {
             .bootstrap
             .as_ref()
             .map(|b| bootstrap_interval(b, d.missing))
-            .unwrap_or_else(|| "(add --bootstrap N for an interval)".into());
+            .unwrap_or_else(|| {
+                crate::setting::msg!["(", Setting::Bootstrap, " gives an interval)"].render(names)
+            });
         let _ = writeln!(
             o,
             "  {:<30}{:<10}{}",
@@ -182,28 +192,28 @@ fn factor_model(o: &mut String, f: &FactorPart) {
     let _ = writeln!(o);
     let _ = writeln!(o, "  One-factor model");
     let fit = &f.fit;
-    let _ = match (fit.rmsea, fit.cfi, fit.p) {
-        (Some(r), Some(c), Some(p)) => writeln!(
-            o,
-            "    fit                χ²({}) = {}, p {}; RMSEA {}; CFI {}",
+    let fit_words = match (fit.rmsea, fit.cfi, fit.p) {
+        (Some(r), Some(c), Some(p)) => format!(
+            "χ²({}) = {}, p {}; RMSEA {}; CFI {}",
             fit.df,
             fixed(fit.chi2, 2),
             p_value(p),
             fixed(r, 3),
             fixed(c, 3)
         ),
-        _ => writeln!(
-            o,
-            "    fit                exact (3 items leave no degrees of freedom to test it)"
-        ),
+        _ => "exact (3 items leave no degrees of freedom to test it)".to_string(),
     };
+    model_line(o, "fit", &fit_words);
     let t = &f.tau_test;
-    let _ = writeln!(
+    model_line(
         o,
-        "    tau-equivalence    χ²({}) = {}, p {}  (equal loadings against free loadings)",
-        t.df,
-        fixed(t.chi2, 2),
-        p_value(t.p)
+        "tau-equivalence",
+        &format!(
+            "χ²({}) = {}, p {}  (equal loadings against free loadings)",
+            t.df,
+            fixed(t.chi2, 2),
+            p_value(t.p)
+        ),
     );
     let conv = |s: MinimizeStop, it: usize| {
         if s.converged() {
@@ -212,12 +222,22 @@ fn factor_model(o: &mut String, f: &FactorPart) {
             format!("NOT converged ({s:?}) after {it} iterations")
         }
     };
-    let _ = writeln!(
+    model_line(
         o,
-        "    estimation         maximum likelihood; free loadings {}; equal loadings {}",
-        conv(f.congeneric.stop, f.congeneric.iterations),
-        conv(f.tau_equivalent.stop, f.tau_equivalent.iterations)
+        "estimation",
+        &format!(
+            "maximum likelihood; free loadings {}; equal loadings {}",
+            conv(f.congeneric.stop, f.congeneric.iterations),
+            conv(f.tau_equivalent.stop, f.tau_equivalent.iterations)
+        ),
     );
+}
+
+/// A line of the factor model: its label, then the value wrapped under itself.
+fn model_line(o: &mut String, label: &str, value: &str) {
+    const INDENT: usize = 23;
+    let wrapped = wrap(value, 86 - INDENT, &" ".repeat(INDENT));
+    let _ = write!(o, "    {label:<19}{}", wrapped.trim_start());
 }
 
 /// One line per item: mean, SD, item-rest correlation, alpha without it, loadings.
@@ -303,6 +323,14 @@ pub fn compare_summary(c: &Comparison, names: &dyn SettingNames) -> String {
         samples.len()
     );
     let _ = writeln!(o, "{}", "─".repeat(72));
+    if let Some(source) = &c.source {
+        let _ = writeln!(
+            o,
+            "  {}",
+            super::sheet_line(source, c.from_sheet, c.skipped.len())
+        );
+        let _ = writeln!(o);
+    }
     let _ = writeln!(
         o,
         "  {:<24} {:>8} {:>8} {:>6}",

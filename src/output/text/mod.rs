@@ -58,20 +58,20 @@ fn sheet_line(s: &SheetSummary, used: usize, skipped: usize) -> String {
         Some(w) => format!("{}, worksheet \"{w}\"", s.format.describe()),
         None => s.format.describe(),
     };
-    let subset = if s.subset.is_empty() {
-        String::new()
-    } else {
-        let rules: Vec<String> = s
-            .subset
-            .iter()
-            .map(|r| format!("{} = {}", r.column, r.value))
-            .collect();
-        format!(
-            "; subset {} ({} row(s) outside it set aside)",
-            rules.join(" and "),
-            s.rows_outside_subset
-        )
-    };
+    let subset = s
+        .subset_words()
+        .map(|w| {
+            format!(
+                "; subset {w} ({} {} outside it set aside)",
+                s.rows_outside_subset,
+                if s.rows_outside_subset == 1 {
+                    "row"
+                } else {
+                    "rows"
+                }
+            )
+        })
+        .unwrap_or_default();
     format!(
         "{} ({format}; {} rows read, {used} used, {skipped} left out{subset})",
         s.file, s.rows_read

@@ -2,7 +2,7 @@
 
 use super::{heading, line, paper, para, read_with_care, sheet_line, skipped_rows, t4};
 use crate::benchmark::Benchmark;
-use crate::format::{fixed, p_value, range, significant, thousands};
+use crate::format::{fixed, range, significant, thousands};
 use crate::output::prose::Paragraph;
 use crate::pool::{CiMethod, Model, PoolResult, Prediction, Termination};
 use crate::setting::SettingNames;
@@ -13,11 +13,12 @@ use std::fmt::Write;
 pub fn benchmark_summary(
     b: &Benchmark,
     paragraph: &Paragraph,
+    measure: Option<&str>,
     show_studies: bool,
     names: &dyn SettingNames,
 ) -> String {
     let mut o = String::new();
-    expectation(&mut o, b);
+    expectation(&mut o, b, measure);
     let _ = writeln!(o);
     differences(&mut o, b);
     let _ = writeln!(o);
@@ -44,7 +45,7 @@ pub fn benchmark_summary(
 }
 
 /// What a new study should expect: the expected range first, then the pooled value.
-fn expectation(o: &mut String, b: &Benchmark) {
+fn expectation(o: &mut String, b: &Benchmark, measure: Option<&str>) {
     let p = &b.pool;
     let level = p.options.level.percent();
     let c3 = |x: f64| fixed(x, 3);
@@ -69,7 +70,13 @@ fn expectation(o: &mut String, b: &Benchmark) {
         }
         return;
     };
-    heading(o, "What a new study of the measure should expect");
+    heading(
+        o,
+        &format!(
+            "What a new study of {} should expect",
+            measure.unwrap_or("the measure")
+        ),
+    );
     match (p.prediction, c.pi) {
         (Prediction::Available { .. }, Some(pi)) => {
             para(
@@ -125,71 +132,15 @@ fn expectation(o: &mut String, b: &Benchmark) {
 
 /// How much the studies differ.
 fn differences(o: &mut String, b: &Benchmark) {
-    let p = &b.pool;
-    let level = p.options.level.percent();
-    let h = &p.heterogeneity;
     heading(o, "How much the studies differ");
-    let scale = if b.transform == TransformKind::None {
-        "the effects' scale".to_string()
-    } else {
-        format!("the {} scale", b.transform.get().formula())
-    };
-    match p.options.model {
-        Model::Common => para(
-            o,
-            &format!(
-                "Not estimated: the common-effect model assumes no differences between \
-                 settings (τ² = 0). The coefficients' spread relative to sampling error: \
-                 I² = {}% from Q.",
-                fixed(p.i2, 1)
-            ),
-        ),
-        Model::Random(_) => {
-            let ci = p
-                .tau2_ci
-                .map(|c| {
-                    format!(
-                        ", {level} CI {}",
-                        range(c.lower, c.upper, |x| significant(x, 3))
-                    )
-                })
-                .unwrap_or_default();
-            let words = if p.tau2.at_zero {
-                "no more than sampling error predicts"
-            } else if p.tau2_ci.is_some_and(|c| c.lower > 0.0) {
-                "beyond sampling error"
-            } else {
-                "somewhat, but not clearly beyond sampling error"
-            };
-            para(
-                o,
-                &format!(
-                    "True coefficients vary between settings {words}: τ = {} on {scale} \
-                     (τ² = {}{ci}).",
-                    significant(p.tau2.tau2.sqrt(), 3),
-                    significant(p.tau2.tau2, 3)
-                ),
-            );
-            let i2ci = p
-                .i2_ci
-                .map(|c| {
-                    format!(
-                        ", {level} CI {}",
-                        range(c.lower, c.upper, |x| fixed(x, 1) + "%")
-                    )
-                })
-                .unwrap_or_default();
-            line(
-                o,
-                "between-setting share",
-                &format!("I² = {}%{i2ci}; H² = {}", fixed(p.i2, 1), fixed(p.h2, 2)),
-            );
-        }
+    para(o, &crate::output::prose::differences_sentence(b));
+    if let Some(share) = crate::output::prose::share_words(b) {
+        line(o, "between-setting share", &share);
     }
     line(
         o,
         "test of equal values",
-        &format!("Q = {} on {} df, p {}", fixed(h.q, 2), h.df, p_value(h.p)),
+        &crate::output::prose::equal_values_words(b),
     );
 }
 
