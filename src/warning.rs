@@ -517,8 +517,9 @@ impl Warning {
                 msg![format!("{what} could not be done, the rest stands: ")].then(why.clone())
             }
             Warning::RowsLeftOutOfModel { rows, why } => msg![format!(
-                "{} left out of the model because {why}; they are listed with the results",
-                list_rows(rows)
+                "{} left out of the model because {why}; {} listed with the results",
+                list_rows(rows),
+                if rows.len() == 1 { "it is" } else { "they are" }
             )],
             Warning::NegativeCoefficients { rows } => msg![format!(
                 "negative coefficients on {}: a negative alpha is a valid estimate but usually \

@@ -113,7 +113,7 @@ fn spread_part(
             if !sp.excluded.is_empty() {
                 warnings.push(Warning::RowsLeftOutOfModel {
                     rows: sp.excluded.iter().map(|e| e.row).collect(),
-                    why: "their SD cannot be used (score-spread model)".into(),
+                    why: "the SD cannot be used (score-spread model)".into(),
                 });
             }
             Ok(Some(sp))
