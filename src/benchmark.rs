@@ -538,6 +538,7 @@ fn sheet_warnings(
     transform: TransformKind,
     warnings: &mut Vec<Warning>,
 ) {
+    warnings.extend(sheet.reading_notes.iter().cloned());
     if !sheet.empty_rows.is_empty() {
         warnings.push(Warning::EmptyRowsIgnored {
             rows: sheet.empty_rows.clone(),

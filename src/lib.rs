@@ -19,6 +19,7 @@ pub mod error;
 pub mod format;
 pub mod items;
 pub mod level;
+pub mod limits;
 pub mod metareg;
 pub mod numeric;
 pub mod output;

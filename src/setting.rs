@@ -21,6 +21,10 @@ pub enum Setting {
     Delimiter,
     /// The worksheet of a workbook.
     Worksheet,
+    /// The bound on how far a workbook may unpack.
+    WorkbookBytes,
+    /// The bound on a worksheet's cells with content.
+    WorkbookCells,
     /// Leaving invalid rows out instead of stopping.
     SkipInvalid,
     /// The subset of rows analysed (column = value).
@@ -155,6 +159,8 @@ impl Setting {
             ColumnMap => "the column mapping",
             Delimiter => "the delimiter",
             Worksheet => "the worksheet",
+            WorkbookBytes => "the bound on a workbook's unpacked size",
+            WorkbookCells => "the bound on a worksheet's cells",
             SkipInvalid => "leaving invalid rows out",
             Subset => "the subset of rows",
             Transform => "the analysis scale (transform)",

@@ -177,6 +177,22 @@ pub enum Warning {
         /// How many.
         count: usize,
     },
+    /// The workbook's first worksheets are hidden: the first visible one was read.
+    HiddenWorksheetsPassedOver {
+        /// The worksheet read.
+        read: String,
+        /// The hidden worksheets before it.
+        hidden: Vec<String>,
+    },
+    /// Cells of the worksheet hold formulas: their stored values were used.
+    FormulaCells {
+        /// The worksheet.
+        worksheet: String,
+        /// How many cells hold a formula.
+        count: u64,
+        /// The first of them ("C4").
+        first: String,
+    },
     /// Entirely empty rows were passed over.
     EmptyRowsIgnored {
         /// Spreadsheet rows.
@@ -253,6 +269,8 @@ impl Warning {
             Warning::DuplicateLabel { .. } => "duplicate_label",
             Warning::RowsSkipped { .. } => "rows_skipped",
             Warning::EmptyRowsIgnored { .. } => "empty_rows_ignored",
+            Warning::HiddenWorksheetsPassedOver { .. } => "hidden_worksheets_passed_over",
+            Warning::FormulaCells { .. } => "formula_cells",
             Warning::VarColumnUnused { .. } => "var_column_unused",
             Warning::MixedFamiliesPooled => "mixed_families_pooled",
             Warning::TransformFamilyMismatch { .. } => "transform_family_mismatch",
@@ -308,6 +326,8 @@ impl Warning {
                 | Warning::DuplicateLabel { .. }
                 | Warning::MixedFamiliesPooled
                 | Warning::Collinearity { .. }
+                | Warning::FormulaCells { .. }
+                | Warning::HiddenWorksheetsPassedOver { .. }
         )
     }
 
@@ -547,6 +567,51 @@ impl Warning {
                 S::SkipInvalid,
                 "); each is listed with its reason"
             ],
+            Warning::HiddenWorksheetsPassedOver { read, hidden } => msg![
+                format!(
+                    "the workbook's first {} hidden ({}), so worksheet \"{read}\", the first \
+                     visible one, was read; to read another, name it with ",
+                    if hidden.len() == 1 {
+                        "worksheet is"
+                    } else {
+                        "worksheets are"
+                    },
+                    hidden
+                        .iter()
+                        .map(|h| format!("\"{}\"", format::quoted(h, 40)))
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                ),
+                S::Worksheet
+            ],
+            Warning::FormulaCells {
+                worksheet,
+                count,
+                first,
+            } => {
+                let (holds, stored) = if *count == 1 {
+                    (
+                        "holds a formula",
+                        "the value the spreadsheet program last stored for it was",
+                    )
+                } else {
+                    (
+                        "hold formulas",
+                        "the values the spreadsheet program last stored for them were",
+                    )
+                };
+                let first = if *count == 1 {
+                    format!("cell {first}")
+                } else {
+                    format!("the first is {first}")
+                };
+                msg![format!(
+                    "{} of worksheet \"{worksheet}\" {holds} ({first}); {stored} used — \
+                     recalculate and save in the spreadsheet program if in doubt (a file written \
+                     by another program may never have been calculated)",
+                    format::count(*count, "cell", "cells"),
+                )]
+            }
             Warning::EmptyRowsIgnored { rows } => {
                 msg![format!("entirely empty {} passed over", list_rows(rows))]
             }

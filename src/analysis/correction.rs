@@ -215,11 +215,17 @@ fn regression_input(
         rows: None,
         standardized_only: false,
         data_note: None,
+        data_file: None,
+        sheet_name: None,
     };
     match data {
         RegressionData::Raw { path, read } => {
             let (d, missing) = raw_regression_data(path, read, names)?;
+            warnings.extend(d.notes.iter().cloned());
             warnings.extend(missing);
+            input.data_file = Some(path.display().to_string());
+            input.sheet_name = d.worksheet.clone();
+            check_complete_rows(&input.predictors, &d)?;
             input.cov = d.moments.cov.clone();
             input.n = d.complete_rows;
             input.data_note = Some(format!(
@@ -255,6 +261,7 @@ fn regression_input(
                 })?;
                 idx.push(i);
             }
+            input.data_file = Some(path.display().to_string());
             input.cov = sm.cov.select_rows(&idx).select_columns(&idx);
             input.n = *n;
             input.standardized_only = sm.standardized_only;
@@ -282,6 +289,23 @@ fn raw_regression_data(
         cells: d.missing_cells,
     });
     Ok((d, warning))
+}
+
+/// Raw data need at least three complete respondents more than the regression has
+/// variables (said of the file, which gave the count).
+fn check_complete_rows(predictors: &[String], d: &ItemData) -> Result<()> {
+    let variables = predictors.len() + 1;
+    if d.complete_rows < variables as u64 + 3 {
+        return Err(Error::cannot(format!(
+            "{}: only {} with every variable ({} read); a regression with {} needs at least {}",
+            d.file,
+            crate::format::count(d.complete_rows, "respondent", "respondents"),
+            crate::format::count(d.rows_read, "row", "rows"),
+            crate::format::count(predictors.len() as u64, "predictor", "predictors"),
+            variables + 3
+        )));
+    }
+    Ok(())
 }
 
 /// A regression needs at least three respondents more than it has variables.

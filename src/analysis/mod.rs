@@ -153,6 +153,7 @@ pub(crate) fn fit_options(s: &Settings) -> FitOptions {
 /// Run every part the settings ask for. The coding sheet is read and checked once;
 /// every part that uses it starts from the same prepared studies.
 pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
+    settings.check_bounds()?;
     let needs_sheet = settings.benchmark
         || settings.explain.is_some()
         || settings.new_study.is_some()

@@ -4,12 +4,15 @@
 use crate::benchmark::BenchmarkOptions;
 use crate::compare::AlphaSample;
 use crate::correct::ReliabilitySpec;
+use crate::error::{Error, Result};
+use crate::format::thousands;
 use crate::items::ItemReadOptions;
 use crate::level::Level;
 use crate::metareg::spread::SpreadMetric;
 use crate::metareg::{Centring, ModeratorSpec};
 use crate::placement::NewStudy;
 use crate::pool::{CiMethod, Model, PoolOptions, Tau2Estimator};
+use crate::setting::{Setting, given, msg};
 use crate::sheet::SheetOptions;
 pub use crate::sheet::SubsetRule;
 use crate::transform::TransformKind;
@@ -197,6 +200,24 @@ pub struct ComparisonSettings {
     pub samples: Vec<AlphaSample>,
 }
 
+/// An error unless `value` is at most `max`.
+fn at_most(setting: Setting, value: usize, max: usize, what: &str) -> Result<()> {
+    if value <= max {
+        return Ok(());
+    }
+    Err(Error::setting(
+        setting,
+        msg![
+            given(setting, thousands(value as u64)),
+            format!(
+                ": at most {} {what} are allowed (a bound that keeps a run within memory and \
+                 time; see docs/limits.md)",
+                thousands(max as u64)
+            )
+        ],
+    ))
+}
+
 /// A sample size for coefficient alpha.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum PlanSettings {
@@ -227,6 +248,55 @@ pub enum PlanSettings {
 }
 
 impl Settings {
+    /// Check every count the settings ask for against its bound (see [`crate::limits`]),
+    /// before any work or allocation it would size.
+    pub fn check_bounds(&self) -> Result<()> {
+        use crate::limits::*;
+        if let Some(e) = &self.explain
+            && let Some(p) = e.permutations
+        {
+            at_most(Setting::Permutations, p, MAX_PERMUTATIONS, "permutations")?;
+        }
+        if let Some(b) = self.items.as_ref().and_then(|i| i.bootstrap) {
+            at_most(Setting::Bootstrap, b, MAX_BOOTSTRAP, "bootstrap replicates")?;
+        }
+        match &self.correction {
+            Some(CorrectionSettings::Correlation { draws, grid, .. }) => {
+                at_most(Setting::Draws, *draws, MAX_DRAWS, "draws")?;
+                at_most(Setting::Grid, *grid, MAX_GRID, "grid points")?;
+            }
+            Some(CorrectionSettings::Regression {
+                draws,
+                grid,
+                predictors,
+                ..
+            }) => {
+                at_most(Setting::Draws, *draws, MAX_DRAWS, "draws")?;
+                at_most(Setting::Grid, *grid, MAX_GRID, "grid points")?;
+                let per_draw = 8 * (predictors.len() + 1);
+                let fits = MAX_DRAW_BYTES / per_draw;
+                if *draws > fits {
+                    return Err(Error::setting(
+                        Setting::Draws,
+                        msg![
+                            given(Setting::Draws, thousands(*draws as u64)),
+                            format!(
+                                ": with {} predictors the draws would hold {} MB (at most {} \
+                                 MB); use at most {} draws",
+                                predictors.len(),
+                                (*draws as u128 * per_draw as u128) >> 20,
+                                MAX_DRAW_BYTES >> 20,
+                                thousands(fits as u64)
+                            )
+                        ],
+                    ));
+                }
+            }
+            None => {}
+        }
+        Ok(())
+    }
+
     /// The library options of the benchmark model.
     pub fn benchmark_options(&self) -> BenchmarkOptions {
         BenchmarkOptions {

@@ -160,9 +160,12 @@ pub struct SheetArgs {
     pub delimiter: Option<DelimiterArg>,
 
     /// For a workbook (.xlsx, .xlsm, .xlsb, .xls, .ods): the worksheet holding the coding
-    /// sheet (the first when not given).
+    /// sheet (the first visible one when not given).
     #[arg(long, value_name = "NAME")]
     pub worksheet: Option<String>,
+
+    #[command(flatten)]
+    pub workbook: WorkbookBoundArgs,
 
     /// Pool the valid rows and list each row left out with its reason, instead of
     /// stopping at the first bad sheet.
@@ -373,9 +376,12 @@ pub struct ItemsArgs {
     #[arg(long = "missing-code", value_name = "X", allow_negative_numbers = true)]
     pub missing_codes: Vec<f64>,
 
-    /// For a workbook: the worksheet holding the data (the first when not given).
+    /// For a workbook: the worksheet holding the data (the first visible one when not given).
     #[arg(long, value_name = "NAME")]
     pub worksheet: Option<String>,
+
+    #[command(flatten)]
+    pub workbook: WorkbookBoundArgs,
 
     /// Bootstrap interval for omega with this many replicates. The bootstrap keeps the
     /// complete rows in memory (the rest of the analysis does not); runs on all cores.
@@ -413,9 +419,12 @@ pub struct CompareArgs {
     #[arg(long = "column", value_name = "ROLE=NAME")]
     pub columns: Vec<String>,
 
-    /// For a workbook: the worksheet holding the samples (the first when not given).
+    /// For a workbook: the worksheet holding the samples (the first visible one when not given).
     #[arg(long, value_name = "NAME")]
     pub worksheet: Option<String>,
+
+    #[command(flatten)]
+    pub workbook: WorkbookBoundArgs,
 
     /// Compare the valid rows and list each row left out with its reason.
     #[arg(long)]
@@ -548,9 +557,12 @@ pub struct CorrectArgs {
     #[arg(long, value_name = "DELIMITER", ignore_case = true)]
     pub delimiter: Option<DelimiterArg>,
 
-    /// For --data in a workbook: the worksheet (the first when not given).
+    /// For --data in a workbook: the worksheet (the first visible one when not given).
     #[arg(long, value_name = "NAME")]
     pub worksheet: Option<String>,
+
+    #[command(flatten)]
+    pub workbook: WorkbookBoundArgs,
 
     /// A value in --data that means "missing", such as -99 (repeatable).
     #[arg(long = "missing-code", value_name = "X", allow_negative_numbers = true)]
@@ -652,4 +664,30 @@ pub struct StudyArgs {
     /// The new study's value of a moderator, NAME=VALUE (repeatable; one per --moderator).
     #[arg(long = "at", value_name = "NAME=VALUE")]
     pub at: Vec<String>,
+}
+
+/// Bounds on what a workbook may hold (see docs/limits.md).
+#[derive(Debug, Args, Clone, Copy, Default)]
+pub struct WorkbookBoundArgs {
+    /// For a workbook: how many megabytes its parts may unpack to [default: 256].
+    #[arg(long = "workbook-max-mb", value_name = "MB")]
+    pub max_mb: Option<u64>,
+
+    /// For a workbook: how many cells with content its worksheet may hold
+    /// [default: 10,000,000].
+    #[arg(long = "workbook-max-cells", value_name = "N")]
+    pub max_cells: Option<u64>,
+}
+
+impl WorkbookBoundArgs {
+    /// The library's limits: the defaults, raised (or lowered) as asked.
+    pub fn limits(self) -> relyard::sheet::WorkbookLimits {
+        let d = relyard::sheet::WorkbookLimits::default();
+        relyard::sheet::WorkbookLimits {
+            unpacked_bytes: self
+                .max_mb
+                .map_or(d.unpacked_bytes, |m| m.saturating_mul(1 << 20)),
+            cells: self.max_cells.unwrap_or(d.cells),
+        }
+    }
 }

@@ -150,6 +150,7 @@ fn sheet_settings(a: SheetArgs) -> Result<SheetSettings, Failure> {
             delimiter: a.delimiter.map(u8::from),
             columns,
             worksheet: a.worksheet,
+            workbook: a.workbook.limits(),
         },
         skip_invalid: a.skip_invalid,
         subset,
@@ -384,6 +385,7 @@ pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
                 },
                 missing_codes: a.missing_codes,
                 worksheet: a.worksheet,
+                workbook: a.workbook.limits(),
                 ..ItemReadOptions::default()
             },
             bootstrap: a.bootstrap,
@@ -425,6 +427,7 @@ pub fn compare(a: CompareArgs) -> Result<Settings, Failure> {
             columns: a.columns,
             delimiter: None,
             worksheet: a.worksheet,
+            workbook: a.workbook,
             skip_invalid: a.skip_invalid,
             subset: a.subset,
         })?),
@@ -637,6 +640,7 @@ fn regression_data(a: &CorrectArgs) -> Result<RegressionData, Failure> {
                     delimiter: a.delimiter.map(u8::from),
                     missing_codes: a.missing_codes.clone(),
                     worksheet: a.worksheet.clone(),
+                    workbook: a.workbook.limits(),
                     ..ItemReadOptions::default()
                 },
             }

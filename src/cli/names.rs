@@ -17,6 +17,8 @@ impl SettingNames for OptionNames {
             ColumnMap => "--column",
             Delimiter => "--delimiter",
             Worksheet => "--worksheet",
+            WorkbookBytes => "--workbook-max-mb",
+            WorkbookCells => "--workbook-max-cells",
             SkipInvalid => "--skip-invalid",
             Subset => "--where",
             Transform => "--transform",

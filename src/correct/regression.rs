@@ -31,6 +31,10 @@ pub struct RegressionInput {
     pub standardized_only: bool,
     /// What happened to the raw data's rows (e.g. respondents left out for missing values).
     pub data_note: Option<String>,
+    /// The file the data came from (raw data or a summary).
+    pub data_file: Option<String>,
+    /// The worksheet read, when the raw data are in a workbook.
+    pub sheet_name: Option<String>,
 }
 
 /// One fit of the model.

@@ -24,15 +24,25 @@ pub struct Summary {
 /// cell is filled from its mirror across the diagonal.
 pub fn read_summary(path: &Path) -> Result<Summary> {
     let file = path.display().to_string();
-    let bytes = std::fs::read(path).map_err(|e| match e.kind() {
+    let bytes = crate::sheet::read_whole(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => {
             Error::setting(Setting::Summary, format!("{file}: no such file"))
         }
+        std::io::ErrorKind::InvalidData => Error::InvalidSheet {
+            file: file.clone(),
+            problems: vec![CellProblem::file(e.to_string())],
+        },
         _ => Error::io(format!("reading {file}"), e),
     })?;
     let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
     let delimiter = crate::sheet::detect_delimiter(body);
     let decimal_comma = crate::sheet::SheetFormat::Delimited(delimiter).decimal_comma();
+    if let Some(line) = crate::sheet::first_long_line(body) {
+        return Err(invalid(
+            &file,
+            vec![CellProblem::row(line, crate::sheet::line_too_long(None))],
+        ));
+    }
     if let Some(line) = crate::sheet::unclosed_quote(body, delimiter) {
         return Err(invalid(
             &file,

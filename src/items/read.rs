@@ -40,8 +40,10 @@ pub struct ItemReadOptions {
     pub missing_codes: Vec<f64>,
     /// Keep the complete rows in memory (for the bootstrap).
     pub keep_rows: bool,
-    /// The worksheet of a workbook (the first when `None`).
+    /// The worksheet of a workbook (the first visible one when `None`).
     pub worksheet: Option<String>,
+    /// How much a workbook may hold.
+    pub workbook: crate::sheet::WorkbookLimits,
     /// The setting that chose the columns, for messages (the item columns, or a
     /// regression's variables).
     pub columns_setting: Setting,
@@ -58,6 +60,7 @@ impl Default for ItemReadOptions {
             missing_codes: Vec::new(),
             keep_rows: false,
             worksheet: None,
+            workbook: Default::default(),
             columns_setting: Setting::ItemColumns,
         }
     }
@@ -163,7 +166,7 @@ impl Source {
             } => {
                 let more = reader
                     .read_byte_record(record)
-                    .map_err(|e| Error::io(format!("reading {file}"), std::io::Error::other(e)))?;
+                    .map_err(|e| text_failure(file, reader.get_ref().state(), e))?;
                 if !more {
                     if reader.get_ref().state().unclosed().is_some() {
                         return Err(Problems::one(
@@ -192,10 +195,22 @@ impl Source {
     }
 }
 
+/// A failure of the text reader: a line over the length limit is the file's fault (with
+/// its line); anything else is the system's.
+fn text_failure(file: &str, state: &crate::sheet::QuoteState, e: csv::Error) -> Error {
+    match state.too_long() {
+        Some(line) => Problems::one(file, line, crate::sheet::line_too_long(None)),
+        None => Error::io(format!("reading {file}"), std::io::Error::other(e)),
+    }
+}
+
 /// The file opened: its header, and the source of its rows.
 struct Opened {
     format: SheetFormat,
     worksheet: Option<String>,
+    /// What the reader passed over or could not check (a workbook's hidden worksheets,
+    /// its formulas).
+    notes: Vec<crate::Warning>,
     header: Vec<String>,
     source: Source,
 }
@@ -290,7 +305,7 @@ fn open_text(
     let mut record = csv::ByteRecord::new();
     let more = reader
         .read_byte_record(&mut record)
-        .map_err(|e| Error::io(format!("reading {file}"), std::io::Error::other(e)))?;
+        .map_err(|e| text_failure(file, reader.get_ref().state(), e))?;
     if !more {
         return Err(Problems::one(file, 1, "the file has no header row"));
     }
@@ -304,6 +319,7 @@ fn open_text(
     Ok(Opened {
         format: SheetFormat::Delimited(delimiter),
         worksheet: None,
+        notes: Vec::new(),
         header,
         source: Source::Text {
             reader,
@@ -329,14 +345,29 @@ fn open_workbook(
             ],
         ));
     }
-    rest.read_to_end(&mut head)
+    let max = crate::limits::MAX_FILE_BYTES;
+    (&mut rest)
+        .take(max + 1 - head.len() as u64)
+        .read_to_end(&mut head)
         .map_err(|e| Error::io(format!("reading {file}"), e))?;
-    let book = WorkbookRows::read(file, head, options.worksheet.as_deref())?;
+    if head.len() as u64 > max {
+        return Err(Problems::one(
+            file,
+            1,
+            format!(
+                "the workbook is larger than {} MB; export the sheet as CSV",
+                max >> 20
+            ),
+        ));
+    }
+    let book = WorkbookRows::read(file, head, options.worksheet.as_deref(), options.workbook)?;
     let worksheet = Some(book.worksheet.clone());
+    let notes = book.notes.clone();
     let (header, _, rows) = book.into_table();
     Ok(Opened {
         format: SheetFormat::Workbook,
         worksheet,
+        notes,
         header,
         source: Source::Workbook {
             rows: rows.into_iter(),
@@ -528,9 +559,14 @@ fn read_items_with(
     let Opened {
         format,
         worksheet,
+        notes,
         header,
         mut source,
     } = open(path, options)?;
+    let with_notes = |mut data: ItemData| {
+        data.notes.splice(0..0, notes.iter().cloned());
+        data
+    };
     let decimal_comma = format.decimal_comma();
     // The first data row (to tell identifier columns) is read here and handed on.
     let mut first = csv::ByteRecord::new();
@@ -571,7 +607,8 @@ fn read_items_with(
             part_bytes,
         };
         if let Some(t) = read_fast(path, &file, *start, &layout)? {
-            return finish(file, format, worksheet, cols, &header, t, None, options);
+            return finish(file, format, worksheet, cols, &header, t, None, options)
+                .map(with_notes);
         }
     }
     let careful = Careful {
@@ -584,7 +621,7 @@ fn read_items_with(
         optional: vec![None; k],
     };
     let (t, pairwise) = careful.read_all(&file, &mut source, first, first_row)?;
-    finish(file, format, worksheet, cols, &header, t, pairwise, options)
+    finish(file, format, worksheet, cols, &header, t, pairwise, options).map(with_notes)
 }
 
 /// For each column of the file, its item slot (None: not an item).

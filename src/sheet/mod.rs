@@ -7,18 +7,20 @@
 //! problems of a file are reported together.
 
 mod cells;
+mod ods_scan;
 mod quotes;
 mod read;
 mod schema;
 pub mod template;
 mod workbook;
 
-pub use workbook::{WorkbookRows, is_workbook};
+pub use workbook::{WorkbookLimits, WorkbookRows, cell_name, is_workbook, panic_is_contained};
 
 pub use cells::{is_missing, parse_number};
-pub use quotes::{QuoteState, TrackQuotes, unclosed_quote};
+pub use quotes::{QuoteState, TrackQuotes, first_long_line, line_too_long, unclosed_quote};
 pub use read::{
     DELIMITERS, SheetFormat, UNCLOSED_QUOTE, delimiter_name, detect_delimiter, parse_delimiter,
+    read_whole,
 };
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 
@@ -35,8 +37,10 @@ pub struct SheetOptions {
     pub delimiter: Option<u8>,
     /// The sheet's own names for the standard columns.
     pub columns: ColumnMap,
-    /// The worksheet to read from a workbook (the first when `None`).
+    /// The worksheet to read from a workbook (the first visible one when `None`).
     pub worksheet: Option<String>,
+    /// How much a workbook may hold.
+    pub workbook: WorkbookLimits,
 }
 
 /// One coded study as read from the sheet (values checked for type and range, not yet
@@ -117,6 +121,9 @@ pub struct CodingSheet {
     pub rows_read: usize,
     /// Entirely empty rows between data rows.
     pub empty_rows: Vec<usize>,
+    /// What the reader passed over or could not check (a workbook's hidden worksheets,
+    /// its formulas).
+    pub reading_notes: Vec<crate::Warning>,
 }
 
 /// A column of the sheet as a name can refer to it: a standard column or another one.
@@ -388,7 +395,7 @@ pub fn read_coding_sheet(path: &Path, options: &SheetOptions) -> Result<CodingSh
 /// The bytes of a coding sheet file, with the usual messages for a wrong path.
 pub fn read_sheet_bytes(path: &Path) -> Result<Vec<u8>> {
     let file = path.display().to_string();
-    std::fs::read(path).map_err(|e| match e.kind() {
+    read::read_whole(path).map_err(|e| match e.kind() {
         std::io::ErrorKind::NotFound => Error::setting(
             Setting::SheetFile,
             format!("{file}: no such file; check the path of the coding sheet"),
@@ -397,6 +404,10 @@ pub fn read_sheet_bytes(path: &Path) -> Result<Vec<u8>> {
             Setting::SheetFile,
             format!("{file} is a folder; give the path of the coding sheet itself"),
         ),
+        std::io::ErrorKind::InvalidData => Error::InvalidSheet {
+            file: file.clone(),
+            problems: vec![CellProblem::file(e.to_string())],
+        },
         _ => Error::io(format!("reading {file}"), e),
     })
 }
@@ -419,10 +430,16 @@ pub fn coding_sheet_from_bytes(
                 ],
             ));
         }
-        let mut rows = workbook::WorkbookRows::read(&file, bytes, options.worksheet.as_deref())?;
+        let mut rows = workbook::WorkbookRows::read(
+            &file,
+            bytes,
+            options.worksheet.as_deref(),
+            options.workbook,
+        )?;
         let expected = rows.data_rows();
         let mut sheet = parse_rows(&file, &mut rows, options, expected)?;
         sheet.worksheet = Some(rows.worksheet.clone());
+        sheet.reading_notes = rows.notes.clone();
         return Ok(sheet);
     }
     if options.worksheet.is_some() {
@@ -487,6 +504,7 @@ fn parse_rows(
         partial,
         rows_read: table.rows_read(),
         empty_rows: table.empty_rows(),
+        reading_notes: Vec::new(),
     })
 }
 

@@ -4,7 +4,30 @@
 //! cell; `""` inside it is a quote; the cell ends at the next lone quote), byte by byte,
 //! so it can run over a stream as it is read.
 
+use crate::limits::MAX_LINE_BYTES;
 use std::io::Read;
+
+/// Why a line was refused: longer than [`MAX_LINE_BYTES`] (a file with no line breaks,
+/// such as a device that never ends, or a cell far larger than any table needs). With
+/// the line's number when the message does not already name it.
+pub fn line_too_long(line: Option<usize>) -> String {
+    let which = line.map_or("the line".to_string(), |l| format!("line {l}"));
+    format!(
+        "{which} is longer than {} MB; a table's lines are far shorter (this is not \
+         delimited text of rows, or a cell holds far more than a table needs)",
+        MAX_LINE_BYTES >> 20
+    )
+}
+
+/// The first line of `text` longer than [`MAX_LINE_BYTES`], if one is.
+pub fn first_long_line(text: &[u8]) -> Option<usize> {
+    if text.len() <= MAX_LINE_BYTES {
+        return None;
+    }
+    text.split(|&b| b == b'\n')
+        .position(|l| l.len() > MAX_LINE_BYTES)
+        .map(|i| i + 1)
+}
 
 /// Quote state over delimited text.
 #[derive(Debug, Clone)]
@@ -15,6 +38,8 @@ pub struct QuoteState {
     quote_seen: bool,
     line: usize,
     opened_at: usize,
+    line_bytes: usize,
+    too_long: Option<usize>,
 }
 
 impl QuoteState {
@@ -27,6 +52,8 @@ impl QuoteState {
             quote_seen: false,
             line: 1,
             opened_at: 0,
+            line_bytes: 0,
+            too_long: None,
         }
     }
 
@@ -35,6 +62,12 @@ impl QuoteState {
         for &b in bytes {
             if b == b'\n' {
                 self.line += 1;
+                self.line_bytes = 0;
+            } else {
+                self.line_bytes += 1;
+                if self.line_bytes > MAX_LINE_BYTES && self.too_long.is_none() {
+                    self.too_long = Some(self.line);
+                }
             }
             if self.in_quotes {
                 if self.quote_seen {
@@ -58,6 +91,11 @@ impl QuoteState {
                 self.at_cell_start = false;
             }
         }
+    }
+
+    /// The first line longer than [`MAX_LINE_BYTES`], if one was read.
+    pub fn too_long(&self) -> Option<usize> {
+        self.too_long
     }
 
     /// At the end of the text: the line (counted from 1, every line break counting) where
@@ -99,7 +137,13 @@ impl<R: Read> Read for TrackQuotes<R> {
     fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
         let n = self.inner.read(buf)?;
         self.state.feed(&buf[..n]);
-        Ok(n)
+        match self.state.too_long() {
+            Some(line) => Err(std::io::Error::new(
+                std::io::ErrorKind::InvalidData,
+                line_too_long(Some(line)),
+            )),
+            None => Ok(n),
+        }
     }
 }
 

@@ -179,6 +179,12 @@ impl<'a> TableReader<'a> {
                     .into(),
             ));
         }
+        if let Some(line) = super::quotes::first_long_line(body) {
+            return Err(Error::InvalidSheet {
+                file: file.to_string(),
+                problems: vec![CellProblem::row(line, super::quotes::line_too_long(None))],
+            });
+        }
         let delimiter = delimiter.unwrap_or_else(|| detect_delimiter(body));
         let reader = csv::ReaderBuilder::new()
             .delimiter(delimiter)
@@ -351,6 +357,39 @@ pub fn detect_delimiter(body: &[u8]) -> u8 {
         b','
     } else {
         DELIMITERS[best]
+    }
+}
+
+/// The whole of a file, up to [`MAX_FILE_BYTES`](crate::limits::MAX_FILE_BYTES), read in
+/// blocks: a larger file, or text with a line longer than
+/// [`MAX_LINE_BYTES`](crate::limits::MAX_LINE_BYTES) (a device that never ends gives
+/// one), is an error of kind `InvalidData` that says so, as soon as it is seen.
+pub fn read_whole(path: &std::path::Path) -> std::io::Result<Vec<u8>> {
+    use std::io::Read;
+    let max = crate::limits::MAX_FILE_BYTES;
+    let invalid = |m: String| std::io::Error::new(std::io::ErrorKind::InvalidData, m);
+    let mut file = std::fs::File::open(path)?;
+    let mut bytes = Vec::new();
+    let mut lines = super::quotes::QuoteState::new(b',');
+    loop {
+        let start = bytes.len();
+        let got = (&mut file).take(1 << 20).read_to_end(&mut bytes)?;
+        if got == 0 {
+            return Ok(bytes);
+        }
+        if bytes.len() as u64 > max {
+            return Err(invalid(format!(
+                "the file is larger than {} MB, far more than a table of this kind needs (or \
+                 it never ends, as a device can)",
+                max >> 20
+            )));
+        }
+        if !super::workbook::is_workbook(&bytes) {
+            lines.feed(&bytes[start..]);
+            if let Some(line) = lines.too_long() {
+                return Err(invalid(super::quotes::line_too_long(Some(line))));
+            }
+        }
     }
 }
 

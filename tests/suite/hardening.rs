@@ -239,3 +239,134 @@ fn an_unclosed_quote_is_an_error_at_its_row() {
     let j = json_ok(&["pool", &fine, "--json"]);
     assert_eq!(j["k"], 3);
 }
+
+/// Counts at the edge of what a machine holds (2^64 − 1) are refused with exit 2 and the
+/// bound, for every command that takes them, before anything is allocated.
+#[test]
+fn absurd_counts_are_refused_with_their_bound() {
+    let dir = scratch("counts");
+    let sheet = write_file(
+        &dir,
+        "sheet.csv",
+        b"study,coef,n,items,sd\nA,0.81,120,8,5\nB,0.74,95,8,4\nC,0.78,150,8,6\nD,0.70,80,8,3\n",
+    );
+    let items = write_file(&dir, "items.csv", b"a,b,c\n1,2,3\n2,3,3\n3,3,4\n4,4,5\n");
+    let huge = "18446744073709551615";
+    let correlation = [
+        "correct", "--r", "0.3", "--n", "100", "--rel-x", "0.8", "--rel-y", "0.7",
+    ];
+    let cases: Vec<(Vec<&str>, &str)> = vec![
+        (
+            [&correlation[..], &["--draws", huge]].concat(),
+            "1,000,000 draws",
+        ),
+        (
+            [&correlation[..], &["--grid", huge]].concat(),
+            "101 grid points",
+        ),
+        (
+            vec![
+                "explain",
+                &sheet,
+                "--moderator",
+                "sd",
+                "--permutations",
+                huge,
+            ],
+            "1,000,000 permutations",
+        ),
+        (
+            vec!["items", &items, "--bootstrap", huge],
+            "100,000 bootstrap",
+        ),
+        (
+            vec![
+                "report",
+                &sheet,
+                "--out",
+                dir.to_str().unwrap(),
+                "--coef",
+                "0.8",
+                "--n",
+                "90",
+                "--r",
+                "0.3",
+                "--rel-y",
+                "0.8",
+                "--draws",
+                huge,
+            ],
+            "1,000,000 draws",
+        ),
+    ];
+    for (args, bound) in cases {
+        let o = relyard(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
+        assert!(stderr(&o).contains(bound), "{args:?}: {}", stderr(&o));
+        assert!(!stderr(&o).contains("panicked"), "{}", stderr(&o));
+    }
+}
+
+/// Endless input (a device that never ends) and a line longer than the limit are refused
+/// by every reader with exit 2, the line named, before the line is held in memory.
+#[test]
+fn endless_and_overlong_lines_are_refused() {
+    let dir = scratch("long-lines");
+    let mut long = b"a,b\n1,2\n".to_vec();
+    long.extend(std::iter::repeat_n(
+        b'7',
+        relyard::limits::MAX_LINE_BYTES + 10,
+    ));
+    long.extend_from_slice(b",3\n4,5\n");
+    let long = write_file(&dir, "long.csv", &long);
+    let mut sources = vec![long.clone()];
+    if cfg!(unix) && Path::new("/dev/zero").exists() {
+        sources.push("/dev/zero".into());
+    }
+    for source in &sources {
+        let runs: Vec<Vec<&str>> = vec![
+            vec!["pool", source],
+            vec!["items", source],
+            vec![
+                "correct",
+                "--data",
+                source,
+                "--outcome",
+                "a",
+                "--predictor",
+                "b",
+                "--rel",
+                "b=0.8",
+            ],
+            vec![
+                "correct",
+                "--summary",
+                source,
+                "--n",
+                "100",
+                "--outcome",
+                "a",
+                "--predictor",
+                "b",
+                "--rel",
+                "b=0.8",
+            ],
+        ];
+        for args in runs {
+            let o = relyard(&args);
+            assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
+            assert!(
+                stderr(&o).contains("longer than 16 MB"),
+                "{args:?}: {}",
+                stderr(&o)
+            );
+            if *source == long {
+                assert!(
+                    stderr(&o).contains("3"),
+                    "{args:?}: the line is named: {}",
+                    stderr(&o)
+                );
+            }
+        }
+    }
+}

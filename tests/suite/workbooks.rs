@@ -20,8 +20,13 @@ fn zip_file(path: &std::path::Path, parts: &[(&str, String)]) {
     let mut z = zip::ZipWriter::new(file);
     for (name, body) in parts {
         // The ODS mimetype must come first and stored uncompressed.
-        let opts = zip::write::SimpleFileOptions::default()
-            .compression_method(zip::CompressionMethod::Stored);
+        // Padding parts (tests of the unpacked-size bound) are compressed.
+        let method = if name.ends_with(".pad") {
+            zip::CompressionMethod::Deflated
+        } else {
+            zip::CompressionMethod::Stored
+        };
+        let opts = zip::write::SimpleFileOptions::default().compression_method(method);
         z.start_file(*name, opts).unwrap();
         z.write_all(body.as_bytes()).unwrap();
     }
@@ -42,6 +47,46 @@ fn column_letter(i: usize) -> String {
 /// An .xlsx with one worksheet per (name, rows); `first_row` is the spreadsheet row of
 /// rows[0] (rows above it are left empty).
 fn write_xlsx(path: &std::path::Path, sheets: &[(&str, usize, Vec<Vec<Cell>>)]) {
+    let raw: Vec<RawSheet> = sheets
+        .iter()
+        .map(|(name, first_row, rows)| {
+            let mut data = String::new();
+            for (r, row) in rows.iter().enumerate() {
+                let rn = first_row + r;
+                data.push_str(&format!(r#"<row r="{rn}">"#));
+                for (c, cell) in row.iter().enumerate() {
+                    let at = format!("{}{rn}", column_letter(c));
+                    match cell {
+                        Num(x) => data.push_str(&format!(r#"<c r="{at}"><v>{x}</v></c>"#)),
+                        Text(t) => data.push_str(&format!(
+                            r#"<c r="{at}" t="inlineStr"><is><t>{t}</t></is></c>"#
+                        )),
+                        Empty => {}
+                    }
+                }
+                data.push_str("</row>");
+            }
+            RawSheet {
+                name: name.to_string(),
+                hidden: false,
+                data,
+            }
+        })
+        .collect();
+    write_raw_xlsx(path, &raw, &[]);
+}
+
+/// A worksheet as written: its name, whether it is hidden, and the XML inside its
+/// `sheetData` element (rows and cells exactly as given, so that tests can write what
+/// no spreadsheet program would).
+struct RawSheet {
+    name: String,
+    hidden: bool,
+    data: String,
+}
+
+/// An .xlsx from raw worksheets, with extra parts (name, body) in the container.
+fn write_raw_xlsx(path: &std::path::Path, sheets: &[RawSheet], extra: &[(&str, String)]) {
     let mut content_types = String::from(
         r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Types xmlns="http://schemas.openxmlformats.org/package/2006/content-types"><Default Extension="rels" ContentType="application/vnd.openxmlformats-package.relationships+xml"/><Default Extension="xml" ContentType="application/xml"/><Override PartName="/xl/workbook.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.sheet.main+xml"/>"#,
     );
@@ -52,36 +97,27 @@ fn write_xlsx(path: &std::path::Path, sheets: &[(&str, usize, Vec<Vec<Cell>>)]) 
         r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">"#,
     );
     let mut parts = Vec::new();
-    for (i, (name, first_row, rows)) in sheets.iter().enumerate() {
+    for (i, sheet) in sheets.iter().enumerate() {
         let n = i + 1;
         content_types.push_str(&format!(
             r#"<Override PartName="/xl/worksheets/sheet{n}.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.worksheet+xml"/>"#
         ));
+        let state = if sheet.hidden {
+            r#" state="hidden""#
+        } else {
+            ""
+        };
         book.push_str(&format!(
-            r#"<sheet name="{name}" sheetId="{n}" r:id="rId{n}"/>"#
+            r#"<sheet name="{}" sheetId="{n}"{state} r:id="rId{n}"/>"#,
+            sheet.name
         ));
         rels.push_str(&format!(
             r#"<Relationship Id="rId{n}" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/worksheet" Target="worksheets/sheet{n}.xml"/>"#
         ));
-        let mut data = String::from(
-            r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>"#,
+        let data = format!(
+            r#"<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData>{}</sheetData></worksheet>"#,
+            sheet.data
         );
-        for (r, row) in rows.iter().enumerate() {
-            let rn = first_row + r;
-            data.push_str(&format!(r#"<row r="{rn}">"#));
-            for (c, cell) in row.iter().enumerate() {
-                let at = format!("{}{rn}", column_letter(c));
-                match cell {
-                    Num(x) => data.push_str(&format!(r#"<c r="{at}"><v>{x}</v></c>"#)),
-                    Text(t) => data.push_str(&format!(
-                        r#"<c r="{at}" t="inlineStr"><is><t>{t}</t></is></c>"#
-                    )),
-                    Empty => {}
-                }
-            }
-            data.push_str("</row>");
-        }
-        data.push_str("</sheetData></worksheet>");
         parts.push((format!("xl/worksheets/sheet{n}.xml"), data));
     }
     content_types.push_str("</Types>");
@@ -97,6 +133,7 @@ fn write_xlsx(path: &std::path::Path, sheets: &[(&str, usize, Vec<Vec<Cell>>)]) 
     for (n, d) in &parts {
         all.push((n.as_str(), d.clone()));
     }
+    all.extend(extra.iter().map(|(n, d)| (*n, d.clone())));
     zip_file(path, &all);
 }
 
@@ -119,6 +156,11 @@ fn write_ods(path: &std::path::Path, name: &str, rows: &[Vec<Cell>]) {
         table.push_str("</table:table-row>");
     }
     table.push_str("</table:table>");
+    write_raw_ods(path, &table);
+}
+
+/// An .ods whose content holds `table` (the whole `table:table` element) as given.
+fn write_raw_ods(path: &std::path::Path, table: &str) {
     let content = format!(
         r#"<?xml version="1.0" encoding="UTF-8"?><office:document-content xmlns:office="urn:oasis:names:tc:opendocument:xmlns:office:1.0" xmlns:table="urn:oasis:names:tc:opendocument:xmlns:table:1.0" xmlns:text="urn:oasis:names:tc:opendocument:xmlns:text:1.0" office:version="1.2"><office:body><office:spreadsheet>{table}</office:spreadsheet></office:body></office:document-content>"#
     );
@@ -417,4 +459,217 @@ fn item_data_and_raw_data_from_workbooks() {
         0.0,
         "ols",
     );
+}
+
+/// The cells of the small sheet the hostile workbooks start from, as worksheet XML.
+fn small_table() -> String {
+    let rows = [
+        ["study", "coef", "n", "items"],
+        ["A", "0.81", "120", "8"],
+        ["B", "0.74", "95", "8"],
+        ["C", "0.78", "150", "8"],
+    ];
+    let mut x = String::new();
+    for (r, row) in rows.iter().enumerate() {
+        x.push_str(&format!(r#"<row r="{}">"#, r + 1));
+        for (c, v) in row.iter().enumerate() {
+            let at = format!("{}{}", column_letter(c), r + 1);
+            if v.parse::<f64>().is_ok() {
+                x.push_str(&format!(r#"<c r="{at}"><v>{v}</v></c>"#));
+            } else {
+                x.push_str(&format!(
+                    r#"<c r="{at}" t="inlineStr"><is><t>{v}</t></is></c>"#
+                ));
+            }
+        }
+        x.push_str("</row>");
+    }
+    x
+}
+
+fn one_sheet(data: String) -> Vec<RawSheet> {
+    vec![RawSheet {
+        name: "Coding".into(),
+        hidden: false,
+        data,
+    }]
+}
+
+fn err(o: &std::process::Output) -> String {
+    String::from_utf8_lossy(&o.stderr).into_owned()
+}
+
+/// Workbooks no spreadsheet program writes, each refused with exit 2 and the cell named,
+/// quickly and without asking for memory by a cell's address: a value in the last legal
+/// cell (which once asked for 550 GB), cells beyond the format's last row and column,
+/// two records for one cell, and a row number too large for the reader.
+#[test]
+fn hostile_cells_are_refused_by_name() {
+    let dir = scratch("hostile-cells");
+    let last = r#"<row r="1048576"><c r="XFD1048576"><v>1</v></c></row>"#;
+    let cases: Vec<(&str, String, &[&str])> = vec![
+        (
+            "far.xlsx",
+            format!("{}{last}", small_table()),
+            &["XFD1048576", "beyond the header"],
+        ),
+        (
+            "column.xlsx",
+            format!(
+                r#"{}<row r="5"><c r="XFE5"><v>1</v></c></row>"#,
+                small_table()
+            ),
+            &["XFE5", "beyond the last row"],
+        ),
+        (
+            "row.xlsx",
+            format!(
+                r#"{}<row r="1048577"><c r="A1048577"><v>1</v></c></row>"#,
+                small_table()
+            ),
+            &["A1048577"],
+        ),
+        (
+            "twice.xlsx",
+            format!(
+                r#"{}<row r="3"><c r="B3"><v>0.99</v></c></row>"#,
+                small_table()
+            ),
+            &["two records for cell B3", "0.74", "0.99"],
+        ),
+        (
+            "overflow.xlsx",
+            format!(
+                r#"{}<row r="5"><c r="A99999999999"><v>1</v></c></row>"#,
+                small_table()
+            ),
+            &["damaged"],
+        ),
+    ];
+    for (name, data, wanted) in cases {
+        let path = dir.join(name);
+        write_raw_xlsx(&path, &one_sheet(data), &[]);
+        let o = relyard(&["pool", path.to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(2), "{name}: {}", err(&o));
+        for w in wanted {
+            assert!(err(&o).contains(w), "{name}: wants {w}: {}", err(&o));
+        }
+        assert!(!err(&o).contains("panicked"), "{name}: {}", err(&o));
+    }
+    // The same table without the hostile cell pools.
+    let ok = dir.join("ok.xlsx");
+    write_raw_xlsx(&ok, &one_sheet(small_table()), &[]);
+    let o = relyard(&["pool", ok.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+}
+
+/// A part that unpacks far beyond its packed size is refused at the bound (lowered here
+/// to keep the test fast), naming the part and the option that raises it; raised, the
+/// same file is read. A worksheet with more cells than the cell bound is refused too.
+#[test]
+fn unpacked_size_and_cell_count_are_bounded() {
+    let dir = scratch("bomb");
+    let path = dir.join("padded.xlsx");
+    let padding = " ".repeat(3 << 20);
+    write_raw_xlsx(
+        &path,
+        &one_sheet(small_table()),
+        &[("xl/filler.pad", padding)],
+    );
+    let packed = std::fs::metadata(&path).unwrap().len();
+    assert!(packed < 100_000, "the padding packs small ({packed} bytes)");
+    let p = path.to_str().unwrap();
+    let o = relyard(&["pool", p, "--workbook-max-mb", "2"]);
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    for w in ["more than 2 MB", "xl/filler.pad", "--workbook-max-mb"] {
+        assert!(err(&o).contains(w), "wants {w}: {}", err(&o));
+    }
+    let o = relyard(&["pool", p, "--workbook-max-mb", "8"]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+
+    let o = relyard(&["pool", p, "--workbook-max-cells", "10"]);
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    for w in ["more than 10 cells", "--workbook-max-cells"] {
+        assert!(err(&o).contains(w), "wants {w}: {}", err(&o));
+    }
+    // Item data read the same way.
+    let o = relyard(&["items", p, "--workbook-max-mb", "2"]);
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    assert!(err(&o).contains("--workbook-max-mb"), "{}", err(&o));
+}
+
+/// An OpenDocument row repeated a million times with a thousand repeated cells (a few
+/// hundred bytes asking for a billion cells) is measured before it is read and refused,
+/// naming its farthest cell.
+#[test]
+fn repeated_rows_and_columns_are_measured_first() {
+    let dir = scratch("ods-repeats");
+    let path = dir.join("repeats.ods");
+    let table = r#"<table:table table:name="Coding"><table:table-row><table:table-cell office:value-type="string"><text:p>study</text:p></table:table-cell><table:table-cell office:value-type="string"><text:p>coef</text:p></table:table-cell></table:table-row><table:table-row table:number-rows-repeated="1000000"><table:table-cell table:number-columns-repeated="1000" office:value-type="float" office:value="0.8"><text:p>0.8</text:p></table:table-cell></table:table-row></table:table>"#;
+    write_raw_ods(&path, table);
+    let start = std::time::Instant::now();
+    let o = relyard(&["pool", path.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    assert!(err(&o).contains("ALL1000001"), "{}", err(&o));
+    assert!(err(&o).contains("--workbook-max-cells"), "{}", err(&o));
+    assert!(start.elapsed().as_secs() < 20, "refused before reading");
+}
+
+/// A hidden first worksheet is passed over for the first visible one, and the output
+/// says so; formula cells are counted and named; every output names the worksheet read.
+#[test]
+fn hidden_worksheets_and_formulas_are_said() {
+    let dir = scratch("hidden-formulas");
+    let path = dir.join("book.xlsx");
+    let with_formula = small_table().replace(
+        r#"<c r="B3"><v>0.74</v></c>"#,
+        r#"<c r="B3"><f>0.7+0.04</f><v>0.74</v></c>"#,
+    );
+    let sheets = vec![
+        RawSheet {
+            name: "Old draft".into(),
+            hidden: true,
+            data: r#"<row r="1"><c r="A1" t="inlineStr"><is><t>nothing here</t></is></c></row>"#
+                .into(),
+        },
+        RawSheet {
+            name: "Coding".into(),
+            hidden: false,
+            data: with_formula,
+        },
+    ];
+    write_raw_xlsx(&path, &sheets, &[]);
+    let p = path.to_str().unwrap();
+    let o = relyard(&["pool", p, "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["input"]["sheet_name"], "Coding");
+    let codes: Vec<&str> = v["warnings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter_map(|w| w["code"].as_str())
+        .collect();
+    assert!(
+        codes.contains(&"hidden_worksheets_passed_over"),
+        "{codes:?}"
+    );
+    assert!(codes.contains(&"formula_cells"), "{codes:?}");
+    let text = relyard(&["pool", p]);
+    let all = format!("{}{}", String::from_utf8_lossy(&text.stdout), err(&text));
+    for w in ["\"Old draft\"", "\"Coding\"", "B3", "recalculate"] {
+        assert!(all.contains(w), "wants {w}: {all}");
+    }
+    // Asked for by name, the hidden sheet is read (and found wanting).
+    let o = relyard(&["pool", p, "--worksheet", "Old draft"]);
+    assert_eq!(o.status.code(), Some(2), "{}", err(&o));
+    // Item data say the same.
+    let items = dir.join("items.xlsx");
+    let data = r#"<row r="1"><c r="A1" t="inlineStr"><is><t>q1</t></is></c><c r="B1" t="inlineStr"><is><t>q2</t></is></c><c r="C1" t="inlineStr"><is><t>q3</t></is></c></row><row r="2"><c r="A2"><v>1</v></c><c r="B2"><v>2</v></c><c r="C2"><f>A2+1</f><v>2</v></c></row><row r="3"><c r="A3"><v>3</v></c><c r="B3"><v>3</v></c><c r="C3"><v>4</v></c></row><row r="4"><c r="A4"><v>4</v></c><c r="B4"><v>5</v></c><c r="C4"><v>4</v></c></row><row r="5"><c r="A5"><v>2</v></c><c r="B5"><v>2</v></c><c r="C5"><v>3</v></c></row>"#;
+    write_raw_xlsx(&items, &one_sheet(data.into()), &[]);
+    let o = relyard(&["items", items.to_str().unwrap(), "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["input"]["sheet_name"], "Coding", "{v}");
+    assert!(v.to_string().contains("formula_cells"), "{v}");
 }

@@ -218,6 +218,10 @@ pub struct RegressionDocument {
     pub case: &'static str,
     /// Level.
     pub level: Level,
+    /// The file the data came from (raw data or a summary).
+    pub data_file: Option<String>,
+    /// The worksheet read, when the raw data are in a workbook (null otherwise).
+    pub sheet_name: Option<String>,
     /// Outcome.
     pub outcome: String,
     /// Sample size.
@@ -298,6 +302,8 @@ impl RegressionDocument {
             relyard_version: RELYARD_VERSION,
             case: "regression",
             level,
+            data_file: input.data_file.clone(),
+            sheet_name: input.sheet_name.clone(),
             outcome: input.outcome.clone(),
             n: input.n,
             standardized_only: input.standardized_only,
