@@ -66,7 +66,13 @@ pub(crate) fn explain(
         None => None,
     };
     let infl = if e.influence {
-        Some(influence(&main.data(p)?, &main.fit)?)
+        let data = main.data(p)?;
+        Some(with_progress(
+            progress,
+            Task::Influence,
+            data.k(),
+            |tick| influence(&data, &main.fit, tick),
+        )?)
     } else {
         None
     };

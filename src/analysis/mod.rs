@@ -34,6 +34,8 @@ pub enum Task {
     Bootstrap,
     /// Monte Carlo draws.
     Draws,
+    /// Leave-one-out refits.
+    Influence,
 }
 
 impl Task {
@@ -43,6 +45,7 @@ impl Task {
             Task::Permutations => "permutations",
             Task::Bootstrap => "bootstrap",
             Task::Draws => "draws",
+            Task::Influence => "studies left out in turn",
         }
     }
 }

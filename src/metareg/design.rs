@@ -3,6 +3,7 @@
 
 use crate::benchmark::Prepared;
 use crate::error::{CellProblem, Error, Result};
+use crate::limits::MAX_LEVELS;
 use crate::setting::msg;
 use crate::setting::{Setting, given};
 use crate::sheet::{
@@ -10,7 +11,7 @@ use crate::sheet::{
 };
 use crate::warning::{VIF_LIMIT, Warning};
 use nalgebra::DMatrix;
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 
 /// How a moderator is to be treated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -382,21 +383,31 @@ pub fn column_values(p: &Prepared, name: &str) -> Result<Vec<Option<String>>> {
 
 /// The levels of a categorical column: each value's level (its first spelling in sheet
 /// order, so that values differing only in case or spaces are one level), with a warning
-/// for every level written more than one way.
+/// for every level written more than one way. More than [`MAX_LEVELS`] levels are
+/// refused: a model with that many has more coefficients than a coding sheet can inform.
+/// The work is linear in the rows (each value is looked up, not compared with every
+/// level).
 pub fn levels_of(
     name: &str,
     cells: &[(usize, String)],
     warnings: &mut Vec<Warning>,
-) -> Vec<String> {
+) -> Result<Vec<String>> {
     let mut order: Vec<String> = Vec::new();
+    let mut index: HashMap<String, usize> = HashMap::new();
     let mut spellings: BTreeMap<usize, (Vec<String>, Vec<usize>)> = BTreeMap::new();
     let mut out = Vec::with_capacity(cells.len());
     for (row, t) in cells {
         let t = t.trim();
-        let i = match order.iter().position(|l| same_name(l, t)) {
-            Some(i) => i,
+        // The key `same_name` compares by: trimmed, then lower case.
+        let key = t.to_lowercase();
+        let i = match index.get(&key) {
+            Some(&i) => i,
             None => {
+                if order.len() == MAX_LEVELS {
+                    return Err(too_many_levels(name, cells));
+                }
                 order.push(t.to_string());
+                index.insert(key, order.len() - 1);
                 order.len() - 1
             }
         };
@@ -419,7 +430,21 @@ pub fn levels_of(
             rows,
         });
     }
-    out
+    Ok(out)
+}
+
+fn too_many_levels(name: &str, cells: &[(usize, String)]) -> Error {
+    let distinct: std::collections::HashSet<String> =
+        cells.iter().map(|(_, t)| t.trim().to_lowercase()).collect();
+    Error::cannot(format!(
+        "column {} has {} different values among the studies, more than the {MAX_LEVELS} \
+         levels a categorical moderator or a benchmark per level may have (a model with that \
+         many has more coefficients than a coding sheet can inform, and its cost grows with \
+         the cube of the levels); group the values into fewer categories in a new column, or \
+         use the column as a number if it is one",
+        crate::format::quoted(name, 60),
+        crate::format::thousands(distinct.len() as u64)
+    ))
 }
 
 /// Build the design for the given moderators over the prepared studies. Studies with a
@@ -645,14 +670,15 @@ impl Builder {
     }
 
     fn add_categorical(&mut self, s: &ModeratorSpec, cells: &[(usize, String)]) -> Result<()> {
-        let levels = levels_of(&s.name, cells, &mut self.warnings);
+        let levels = levels_of(&s.name, cells, &mut self.warnings)?;
         let mut order: Vec<String> = Vec::new();
         let mut counts: BTreeMap<String, usize> = BTreeMap::new();
         for l in &levels {
-            if !order.contains(l) {
+            let n = counts.entry(l.clone()).or_insert(0);
+            if *n == 0 {
                 order.push(l.clone());
             }
-            *counts.entry(l.clone()).or_insert(0) += 1;
+            *n += 1;
         }
         if order.len() < 2 {
             return Err(Error::cannot(format!(
@@ -844,7 +870,7 @@ mod tests {
                 .map(|(r, t)| (*r, t.to_string()))
                 .collect();
         let mut w = Vec::new();
-        let levels = levels_of("mode", &cells, &mut w);
+        let levels = levels_of("mode", &cells, &mut w).unwrap();
         assert_eq!(levels, ["Online", "Online", "paper", "Online"]);
         assert!(
             matches!(

@@ -81,14 +81,15 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
         }
     }
     let mut warnings = Vec::new();
-    let mut levels = levels_of(column, &cells, &mut warnings).into_iter();
+    let mut levels = levels_of(column, &cells, &mut warnings)?.into_iter();
     let values: Vec<Option<String>> = raw
         .iter()
         .map(|v| v.as_ref().and_then(|_| levels.next()))
         .collect();
     let mut order: Vec<String> = Vec::new();
+    let mut seen = std::collections::HashSet::new();
     for v in values.iter().flatten() {
-        if !order.contains(v) {
+        if seen.insert(v.as_str()) {
             order.push(v.clone());
         }
     }

@@ -11,6 +11,7 @@ pub mod tau2;
 pub use data::MetaData;
 pub use heterogeneity::Heterogeneity;
 pub(crate) use model::fit_coefficients;
+pub(crate) use model::fit_light;
 pub use model::{Coefficient, FitOptions, ModelFit, fit_model};
 pub use prediction::{Predictive, prediction_df};
 pub use qprofile::{Tau2Interval, q_profile};

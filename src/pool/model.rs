@@ -123,6 +123,16 @@ pub(crate) struct CoreFit {
 }
 
 pub(crate) fn core_fit(d: &MetaData, options: &FitOptions) -> Result<CoreFit> {
+    core_fit_from(d, options, None)
+}
+
+/// [`core_fit`], with τ² estimated from `start` when given (see
+/// [`super::Tau2Estimator::estimate_from`]).
+pub(crate) fn core_fit_from(
+    d: &MetaData,
+    options: &FitOptions,
+    start: Option<f64>,
+) -> Result<CoreFit> {
     let mut warnings = Vec::new();
     let tau2 = match options.model {
         Model::Common => Tau2Fit {
@@ -132,7 +142,10 @@ pub(crate) fn core_fit(d: &MetaData, options: &FitOptions) -> Result<CoreFit> {
             at_zero: true,
         },
         Model::Random(est) => {
-            let fit = est.estimate(d)?;
+            let fit = match start {
+                Some(s) => est.estimate_from(d, s)?,
+                None => est.estimate(d)?,
+            };
             if !fit.converged() {
                 warnings.push(Warning::NotConverged {
                     what: format!("the {} estimate of τ²", est.name()),
@@ -183,6 +196,48 @@ pub(crate) fn fit_coefficients(
     }
     let core = core_fit(d, options)?;
     Ok((core.fit.beta, core.cov))
+}
+
+/// What a leave-one-out refit needs of a model: the coefficients, the interval of the
+/// first, τ² and I² — none of the tables, tests or τ² interval of a [`ModelFit`].
+#[derive(Debug, Clone)]
+pub(crate) struct LightFit {
+    pub beta: DVector<f64>,
+    pub cov_wald: DMatrix<f64>,
+    pub first_ci: Interval,
+    pub tau2: f64,
+    pub i2: f64,
+}
+
+/// Fit the model as [`fit_model`] does (the same estimate, covariance and intervals),
+/// keeping only a [`LightFit`]; τ² is estimated from `start` when given.
+pub(crate) fn fit_light(
+    d: &MetaData,
+    options: &FitOptions,
+    start: Option<f64>,
+) -> Result<LightFit> {
+    if d.k() <= d.p() {
+        return Err(Error::cannot("too few studies for the model"));
+    }
+    let heterogeneity = Heterogeneity::of(d)?;
+    let core = core_fit_from(d, options, start)?;
+    let i2 = match options.model {
+        Model::Common => heterogeneity.i2_from_q(),
+        Model::Random(_) => heterogeneity.i2(core.tau2.tau2),
+    };
+    let upper = options.level.upper();
+    let crit = match core.df {
+        Some(df) => t_quantile(upper, df),
+        None => normal_quantile(upper),
+    };
+    let b0 = core.fit.beta[0];
+    Ok(LightFit {
+        first_ci: Interval::around(b0, crit * core.cov[(0, 0)].max(0.0).sqrt()),
+        beta: core.fit.beta,
+        cov_wald: core.fit.xtwx_inv,
+        tau2: core.tau2.tau2,
+        i2,
+    })
 }
 
 /// Fit the model to the data.

@@ -370,3 +370,45 @@ fn endless_and_overlong_lines_are_refused() {
         }
     }
 }
+
+/// A categorical moderator or a benchmark per level with thousands of levels is refused
+/// at once (not after minutes of a design that grows with the cube of the levels), the
+/// column and its number of levels named; within the bound the levels are read in time
+/// linear in the rows.
+#[test]
+fn many_levels_are_refused_quickly() {
+    let dir = scratch("levels");
+    let mut text = String::from("study,coef,n,items,site\n");
+    for i in 0..5000 {
+        text.push_str(&format!("S{i},0.{},{},8,L{i}\n", 70 + i % 20, 60 + i % 200));
+    }
+    let sheet = write_file(&dir, "many.csv", text.as_bytes());
+    for args in [
+        vec!["explain", &sheet, "--moderator", "site"],
+        vec!["explain", &sheet, "--by", "site"],
+    ] {
+        let start = std::time::Instant::now();
+        let o = relyard(&args);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {}", stderr(&o));
+        assert!(
+            stderr(&o).contains("5,000 different values"),
+            "{}",
+            stderr(&o)
+        );
+        assert!(stderr(&o).contains("200 levels"), "{}", stderr(&o));
+        assert!(start.elapsed().as_secs() < 10, "refused at once");
+    }
+    // At the bound it runs.
+    let mut text = String::from("study,coef,n,items,site\n");
+    for i in 0..600 {
+        text.push_str(&format!(
+            "S{i},0.{},{},8,L{}\n",
+            70 + i % 20,
+            60 + i % 200,
+            i % 200
+        ));
+    }
+    let sheet = write_file(&dir, "bound.csv", text.as_bytes());
+    let o = relyard(&["explain", &sheet, "--by", "site", "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+}

@@ -82,7 +82,7 @@ fn derivatives(d: &MetaData, fit: &WeightedFit, restricted: bool) -> Derivatives
 /// Maximize the (restricted) likelihood over τ² ≥ 0 by Fisher scoring from several
 /// starting values (the likelihood can have more than one local maximum), keeping the
 /// highest maximum found.
-pub(super) fn maximize(d: &MetaData, starts: &[f64], restricted: bool) -> Result<Tau2Fit> {
+pub(crate) fn maximize(d: &MetaData, starts: &[f64], restricted: bool) -> Result<Tau2Fit> {
     let mut best: Option<(Tau2Fit, f64)> = None;
     let mut tried: Vec<f64> = Vec::new();
     for &s in starts {

@@ -119,6 +119,22 @@ impl Tau2Estimator {
         fit.tau2 *= s;
         Ok(fit)
     }
+
+    /// The estimate with the likelihood's maximization started at `start` alone (a nearby
+    /// model's τ², such as the full model's for a leave-one-out refit) instead of the
+    /// usual starting values; the estimators that do not maximize a likelihood are
+    /// computed as always.
+    pub fn estimate_from(self, d: &MetaData, start: f64) -> Result<Tau2Fit> {
+        let restricted = match self {
+            Tau2Estimator::Reml => true,
+            Tau2Estimator::Ml => false,
+            _ => return self.estimate(d),
+        };
+        let (scaled, s) = d.rescaled();
+        let mut fit = likelihood::maximize(&scaled, &[start / s], restricted)?;
+        fit.tau2 *= s;
+        Ok(fit)
+    }
 }
 
 impl fmt::Display for Tau2Estimator {
