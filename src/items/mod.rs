@@ -209,6 +209,15 @@ fn fit_factor(
     warnings: &mut Vec<Warning>,
 ) -> std::result::Result<FactorPart, String> {
     let k = cov.nrows();
+    if k > crate::limits::MAX_FACTOR_ITEMS {
+        return Err(format!(
+            "with {} items (more than {}) the one-factor model is not fitted, so omega, its \
+             tests and its fit are left out (a bound on time and memory, see docs/limits.md); \
+             alpha and the item statistics stand",
+            crate::format::thousands(k as u64),
+            crate::format::thousands(crate::limits::MAX_FACTOR_ITEMS as u64)
+        ));
+    }
     if n <= k as f64 {
         return Err(format!(
             "with {n} respondents and {k} items the items' covariance matrix is singular (a \

@@ -9,6 +9,7 @@ use crate::setting::{Setting, given};
 use crate::sheet::{
     SheetFormat, TrackQuotes, WorkbookRows, detect_delimiter, is_workbook, same_name,
 };
+use std::collections::HashMap;
 use std::io::{BufRead, BufReader, Cursor, Read, Seek, SeekFrom};
 use std::path::Path;
 
@@ -405,7 +406,7 @@ fn choose_columns(
         // Without chosen items every named column is an item, except text columns (in the
         // first row), which are identifier candidates; unnamed columns must stay empty.
         None => (0..header.len())
-            .filter(|i| !unnamed.contains(i))
+            .filter(|&i| !header[i].is_empty())
             .filter(|&i| {
                 let cell = first_row.and_then(|r| r.get(i)).unwrap_or(b"").trim_ascii();
                 let text = !missing_cell(cell)
@@ -445,12 +446,30 @@ fn choose_columns(
     })
 }
 
-/// Fail when a column name appears twice in the header.
+/// Fail when a column name appears twice in the header (in time linear in the columns:
+/// each name is looked up by the key [`same_name`] compares by), or when the header has
+/// more columns than [`MAX_COLUMNS`](crate::limits::MAX_COLUMNS).
 fn check_unique_names(file: &str, header: &[String]) -> Result<()> {
+    let max = crate::limits::MAX_COLUMNS;
+    if header.len() > max {
+        return Err(Problems::one(
+            file,
+            1,
+            format!(
+                "the header has {} columns, more than the {} an item file may have (a bound on \
+                 memory and time, see docs/limits.md); keep the item columns in a file of \
+                 their own",
+                crate::format::thousands(header.len() as u64),
+                crate::format::thousands(max as u64)
+            ),
+        ));
+    }
+    let mut first: HashMap<String, usize> = HashMap::with_capacity(header.len());
     for (i, h) in header.iter().enumerate() {
-        if !h.is_empty()
-            && let Some(j) = header[..i].iter().position(|g| same_name(g, h))
-        {
+        if h.is_empty() {
+            continue;
+        }
+        if let Some(&j) = first.get(&name_key(h)) {
             return Err(Problems::one(
                 file,
                 1,
@@ -463,8 +482,14 @@ fn check_unique_names(file: &str, header: &[String]) -> Result<()> {
                 ),
             ));
         }
+        first.insert(name_key(h), i);
     }
     Ok(())
+}
+
+/// The key two names are the same by (see [`same_name`]): trimmed, in lower case.
+fn name_key(name: &str) -> String {
+    name.trim().to_lowercase()
 }
 
 /// The file columns of the items the user named, each named once and present.
@@ -474,17 +499,19 @@ fn chosen_items(
     names: &[String],
     setting: Setting,
 ) -> Result<Vec<usize>> {
-    let find = |name: &str| {
-        header
-            .iter()
-            .position(|h| h == name)
-            .or_else(|| header.iter().position(|h| same_name(h, name)))
-    };
+    // Names are unique by their key (checked before), so one lookup finds a column.
+    let by_key: HashMap<String, usize> = header
+        .iter()
+        .enumerate()
+        .filter(|(_, h)| !h.is_empty())
+        .map(|(i, h)| (name_key(h), i))
+        .collect();
     let mut idx = Vec::new();
+    let mut taken = std::collections::HashSet::new();
     let mut unknown = Vec::new();
     for n in names {
-        match find(n) {
-            Some(i) if idx.contains(&i) => {
+        match by_key.get(&name_key(n)).copied() {
+            Some(i) if !taken.insert(i) => {
                 return Err(Error::setting(
                     setting,
                     msg![setting, format!(" names {n} twice")],

@@ -412,3 +412,46 @@ fn many_levels_are_refused_quickly() {
     let o = relyard(&["explain", &sheet, "--by", "site", "--json"]);
     assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
 }
+
+/// Wide item files: above the column bound the file is refused at once (the header is
+/// checked in time linear in its columns); above the factor-model bound, alpha and the
+/// item statistics are computed and omega is left out with the reason.
+#[test]
+fn wide_item_files_are_bounded() {
+    let dir = scratch("wide");
+    let wide = |k: usize, n: usize| {
+        let mut t: String = (1..=k)
+            .map(|i| format!("q{i}"))
+            .collect::<Vec<_>>()
+            .join(",");
+        t.push('\n');
+        for r in 0..n {
+            let row: Vec<String> = (0..k)
+                .map(|i| ((i * 7 + r * 3) % 5 + 1).to_string())
+                .collect();
+            t.push_str(&row.join(","));
+            t.push('\n');
+        }
+        t
+    };
+    let too_wide = write_file(&dir, "too-wide.csv", wide(20_001, 3).as_bytes());
+    let o = relyard(&["items", &too_wide]);
+    assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+    assert!(stderr(&o).contains("20,001 columns"), "{}", stderr(&o));
+    assert!(stderr(&o).contains("20,000"), "{}", stderr(&o));
+
+    let many = write_file(&dir, "many-items.csv", wide(1_001, 6).as_bytes());
+    let o = relyard(&["items", &many, "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert!(v["alpha"].is_number(), "{v}");
+    assert_eq!(v["item_statistics"].as_array().map(Vec::len), Some(1_001));
+    assert!(v["omega"].is_null(), "{v}");
+    assert!(
+        v["factor_note"]
+            .as_str()
+            .is_some_and(|n| n.contains("more than 1,000")),
+        "omega left out with its reason: {}",
+        v["factor_note"]
+    );
+}
