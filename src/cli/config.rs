@@ -775,7 +775,8 @@ fn report_measure_reliability(
 #[derive(Debug)]
 pub struct TemplateConfig {
     pub sheet_path: PathBuf,
-    pub dictionary_path: PathBuf,
+    /// The dictionary's own file (`None` for a workbook, which holds it as a worksheet).
+    pub dictionary_path: Option<PathBuf>,
     pub extra_columns: Vec<String>,
     pub force: bool,
 }
@@ -808,7 +809,23 @@ impl TemplateConfig {
             .file_stem()
             .map(|s| s.to_string_lossy().into_owned())
             .unwrap_or_else(|| "coding-sheet".into());
-        let dictionary_path = a.path.with_file_name(format!("{stem}-dictionary.csv"));
+        let extension = a
+            .path
+            .extension()
+            .map(|e| e.to_string_lossy().to_ascii_lowercase())
+            .unwrap_or_default();
+        let dictionary_path = match extension.as_str() {
+            "xlsx" => None,
+            "xls" | "xlsm" | "xlsb" | "ods" | "numbers" => {
+                return Err(usage(format!(
+                    "{}: template writes a CSV file (with its dictionary beside it) or an .xlsx \
+                     workbook (with the dictionary on a second worksheet), not .{extension}; \
+                     give a name ending in .csv or .xlsx",
+                    a.path.display()
+                )));
+            }
+            _ => Some(a.path.with_file_name(format!("{stem}-dictionary.csv"))),
+        };
         Ok(TemplateConfig {
             sheet_path: a.path,
             dictionary_path,

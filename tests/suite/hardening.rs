@@ -455,3 +455,32 @@ fn wide_item_files_are_bounded() {
         v["factor_note"]
     );
 }
+
+/// `template out.xlsx` writes a real workbook (read back by the workbook reader, the
+/// dictionary on its second worksheet, no CSV beside it); other workbook extensions are
+/// refused rather than filled with CSV text.
+#[test]
+fn template_workbooks_are_workbooks() {
+    let dir = scratch("template-xlsx");
+    let out = dir.join("sheet.xlsx");
+    let o = relyard(&["template", out.to_str().unwrap(), "--extra-column", "stage"]);
+    assert_eq!(o.status.code(), Some(0), "{}", stderr(&o));
+    let bytes = std::fs::read(&out).unwrap();
+    assert!(relyard::sheet::is_workbook(&bytes));
+    assert!(!dir.join("sheet-dictionary.csv").exists());
+    let o = relyard(&["pool", out.to_str().unwrap()]);
+    assert!(
+        stderr(&o).contains("no data rows"),
+        "read as a workbook: {}",
+        stderr(&o)
+    );
+    let o = relyard(&["pool", out.to_str().unwrap(), "--worksheet", "Dictionary"]);
+    assert_eq!(o.status.code(), Some(2));
+    for ext in ["ods", "xls", "XLSM"] {
+        let p = dir.join(format!("sheet.{ext}"));
+        let o = relyard(&["template", p.to_str().unwrap()]);
+        assert_eq!(o.status.code(), Some(2), "{}", stderr(&o));
+        assert!(stderr(&o).contains(".csv or .xlsx"), "{}", stderr(&o));
+        assert!(!p.exists());
+    }
+}
