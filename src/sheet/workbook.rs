@@ -474,20 +474,29 @@ impl WorkbookRows {
                 )],
             });
         }
+        // Every data row is as wide as the header (as a delimited file's rows are), so the
+        // rectangle of data rows by header columns must fit the cell bound too.
+        let data_rows = cells.chunk_by(|a, b| a.0 == b.0).count().saturating_sub(1) as u64;
+        if data_rows.saturating_mul(header_width as u64) > b.limits.cells {
+            let last = cells.iter().map(|c| c.0).max().unwrap_or(first_row);
+            return Err(b.far_cells(
+                name,
+                data_rows.saturating_mul(header_width as u64),
+                (last, first_col + header_width - 1),
+            ));
+        }
         let mut header = Vec::new();
         let mut rows = Vec::new();
         let mut empty_rows = Vec::new();
         let mut previous = first_row;
         for line in cells.chunk_by_mut(|a, b| a.0 == b.0) {
             let row = line[0].0;
-            let width = (line[line.len() - 1].1 - first_col + 1) as usize;
-            let mut texts = vec![String::new(); width];
+            let mut texts = vec![String::new(); header_width as usize];
             for (_, c, text) in line {
                 texts[(*c - first_col) as usize] = std::mem::take(text);
             }
             if row == first_row {
                 header = texts.iter().map(|t| t.trim().to_string()).collect();
-                header.resize(header_width as usize, String::new());
                 continue;
             }
             empty_rows.extend((previous + 1..row).map(|r| r as usize + 1));

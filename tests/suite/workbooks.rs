@@ -712,3 +712,58 @@ fn damaged_bytes_end_in_rows_or_an_error() {
     }
     assert!(outcomes[0] > 0, "some damage is refused: {outcomes:?}");
 }
+
+/// Rows whose last cells are empty are as wide as the header (a workbook stores no empty
+/// cells): in item data the empty cell is a missing answer, in a coding sheet an empty
+/// optional column.
+#[test]
+fn rows_with_empty_last_cells_keep_the_header_width() {
+    let dir = scratch("short-rows");
+    let items = dir.join("items.xlsx");
+    write_xlsx(
+        &items,
+        &[(
+            "Items",
+            1,
+            vec![
+                vec![Text("q1"), Text("q2"), Text("q3")],
+                vec![Num(1.0), Num(2.0), Num(2.0)],
+                vec![Num(3.0), Num(3.0)],
+                vec![Num(4.0), Num(5.0), Num(4.0)],
+                vec![Num(2.0), Num(2.0), Num(3.0)],
+                vec![Num(5.0), Num(4.0), Num(5.0)],
+            ],
+        )],
+    );
+    let o = relyard(&["items", items.to_str().unwrap(), "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(
+        v["n_used"], 4,
+        "the short row is a respondent with a missing answer: {v}"
+    );
+    let sheet = dir.join("sheet.xlsx");
+    write_xlsx(
+        &sheet,
+        &[(
+            "Coding",
+            1,
+            vec![
+                vec![
+                    Text("study"),
+                    Text("coef"),
+                    Text("n"),
+                    Text("items"),
+                    Text("sd"),
+                ],
+                vec![Text("A"), Num(0.81), Num(120.0), Num(8.0), Num(4.0)],
+                vec![Text("B"), Num(0.74), Num(95.0), Num(8.0)],
+                vec![Text("C"), Num(0.78), Num(150.0), Num(8.0), Num(5.0)],
+            ],
+        )],
+    );
+    let o = relyard(&["pool", sheet.to_str().unwrap(), "--json"]);
+    assert_eq!(o.status.code(), Some(0), "{}", err(&o));
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    assert_eq!(v["input"]["rows_used"], 3, "{v}");
+}
