@@ -4,7 +4,7 @@ use super::settings::{ItemSettings, Settings};
 use super::{Progress, Task, with_progress};
 use crate::error::Result;
 use crate::items::bootstrap::{OmegaBootstrap, bootstrap_omega};
-use crate::items::{ItemAnalysis, ItemData, analyze, read_items};
+use crate::items::{ItemAnalysis, ItemData, analyze, analyze_with, read_items};
 use crate::warning::Warning;
 
 /// Item data, their analysis, and omega's bootstrap.
@@ -28,7 +28,14 @@ pub(crate) fn items(
     let mut read = i.read.clone();
     read.keep_rows = i.bootstrap.is_some();
     let data = read_items(&i.path, &read)?;
-    let analysis = analyze(&data, s.level)?;
+    // The factor models take seconds only for hundreds of items: shown then.
+    let analysis = if data.moments.k() >= 100 {
+        with_progress(progress, Task::FactorModels, 2, |tick| {
+            analyze_with(&data, s.level, tick)
+        })?
+    } else {
+        analyze(&data, s.level)?
+    };
     let mut warnings = analysis.warnings.clone();
     let bootstrap = match (i.bootstrap, &data.rows, analysis.factor.is_ok()) {
         (Some(b), Some(rows), true) => Some(with_progress(progress, Task::Bootstrap, b, |tick| {
@@ -49,4 +56,75 @@ pub(crate) fn items(
         bootstrap,
         warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::{Progress, Task};
+    use std::sync::Mutex;
+
+    /// What a progress display was told.
+    #[derive(Default)]
+    struct Recorder(Mutex<Vec<(Task, u64, u64)>>);
+
+    impl Progress for Recorder {
+        fn start(&self, task: Task, total: u64) {
+            self.0.lock().unwrap().push((task, total, 0));
+        }
+        fn advance(&self, steps: u64) {
+            if let Some(last) = self.0.lock().unwrap().last_mut() {
+                last.2 += steps;
+            }
+        }
+        fn finish(&self) {}
+    }
+
+    /// A wide item set shows the one-factor fits as a task of two steps, both done; a
+    /// narrow one shows nothing.
+    #[test]
+    fn wide_item_sets_report_the_factor_fits() {
+        let dir = std::env::temp_dir().join(format!("relyard-progress-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        for (k, shown) in [(120usize, true), (5, false)] {
+            let mut text: String = (1..=k)
+                .map(|i| format!("q{i}"))
+                .collect::<Vec<_>>()
+                .join(",");
+            text.push('\n');
+            let mut state: u64 = 88_172_645_463_325_252;
+            let mut next = move || {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                state
+            };
+            for _ in 0..300usize {
+                let common = next() % 3;
+                let row: Vec<String> = (0..k)
+                    .map(|_| (1 + common + next() % 3).to_string())
+                    .collect();
+                text.push_str(&row.join(","));
+                text.push('\n');
+            }
+            let path = dir.join(format!("items{k}.csv"));
+            std::fs::write(&path, text).unwrap();
+            let settings = Settings {
+                items: Some(ItemSettings {
+                    path,
+                    ..ItemSettings::default()
+                }),
+                ..Settings::default()
+            };
+            let recorder = Recorder::default();
+            items(settings.items.as_ref().unwrap(), &settings, &recorder).unwrap();
+            let seen = recorder.0.into_inner().unwrap();
+            if shown {
+                assert_eq!(seen, vec![(Task::FactorModels, 2, 2)]);
+            } else {
+                assert!(seen.is_empty(), "{seen:?}");
+            }
+        }
+        let _ = std::fs::remove_dir_all(&dir);
+    }
 }

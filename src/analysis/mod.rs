@@ -36,6 +36,8 @@ pub enum Task {
     Draws,
     /// Leave-one-out refits.
     Influence,
+    /// The one-factor models of an item set.
+    FactorModels,
 }
 
 impl Task {
@@ -46,6 +48,7 @@ impl Task {
             Task::Bootstrap => "bootstrap",
             Task::Draws => "draws",
             Task::Influence => "studies left out in turn",
+            Task::FactorModels => "one-factor models",
         }
     }
 }

@@ -142,6 +142,16 @@ impl ItemAnalysis {
 
 /// Analyze item data at a confidence level.
 pub fn analyze(data: &ItemData, level: Level) -> Result<ItemAnalysis> {
+    analyze_with(data, level, &|_| {})
+}
+
+/// [`analyze`], telling `tick` of each one-factor model fitted (two in all: free and equal
+/// loadings), for a progress display on wide item sets.
+pub fn analyze_with(
+    data: &ItemData,
+    level: Level,
+    tick: &(dyn Fn(usize) + Sync),
+) -> Result<ItemAnalysis> {
     let cov = &data.moments.cov;
     let k = data.moments.k();
     let n_used = data.n_used();
@@ -181,7 +191,7 @@ pub fn analyze(data: &ItemData, level: Level) -> Result<ItemAnalysis> {
             crate::Setting::ItemColumns
         ]));
     }
-    let factor = fit_factor(cov, n, &data.names, data.missing, &mut warnings);
+    let factor = fit_factor(cov, n, &data.names, data.missing, &mut warnings, tick);
     let (recommendation, reading) = read(a, &factor, &data.names, k);
     Ok(ItemAnalysis {
         n_used,
@@ -207,6 +217,7 @@ fn fit_factor(
     names: &[String],
     missing: Missing,
     warnings: &mut Vec<Warning>,
+    tick: &(dyn Fn(usize) + Sync),
 ) -> std::result::Result<FactorPart, String> {
     let k = cov.nrows();
     if k > crate::limits::MAX_FACTOR_ITEMS {
@@ -242,7 +253,9 @@ fn fit_factor(
     }
     let reason = |e: crate::Error| e.to_string();
     let cong = fit_one_factor(cov, FactorModel::Congeneric).map_err(reason)?;
+    tick(1);
     let tau = fit_one_factor(cov, FactorModel::TauEquivalent).map_err(reason)?;
+    tick(1);
     for (name, f) in [
         ("the congeneric one-factor model", &cong),
         ("the tau-equivalent model", &tau),
