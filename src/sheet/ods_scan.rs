@@ -127,21 +127,13 @@ pub fn scan(bytes: &[u8]) -> Result<HashMap<String, TableScan>, String> {
                 }
             }
             (Event::End(e), Some(t)) if e.name().as_ref() == "table:table-row" => t.end_row(),
-            (Event::Start(e), Some(t))
+            (Event::Start(e) | Event::Empty(e), Some(t))
                 if matches!(
                     e.name().as_ref(),
                     "table:table-cell" | "table:covered-table-cell"
                 ) =>
             {
-                t.cell(e, true)
-            }
-            (Event::Empty(e), Some(t))
-                if matches!(
-                    e.name().as_ref(),
-                    "table:table-cell" | "table:covered-table-cell"
-                ) =>
-            {
-                t.cell(e, false)
+                t.cell(e, matches!(event, Event::Start(_)))
             }
             _ => {}
         }
