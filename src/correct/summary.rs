@@ -64,6 +64,18 @@ pub fn read_summary(path: &Path) -> Result<Summary> {
     if !problems.is_empty() {
         return Err(invalid(&file, problems));
     }
+    let mut lines = crate::sheet::QuoteState::new(delimiter);
+    lines.feed(body);
+    let read = reader.position().record() as usize;
+    if read != lines.records() {
+        return Err(invalid(
+            &file,
+            vec![CellProblem::file(crate::sheet::records_differ(
+                read,
+                lines.records(),
+            ))],
+        ));
+    }
     let m = cells.matrix(&header.names, &mut problems);
     if !problems.is_empty() {
         return Err(invalid(&file, problems));

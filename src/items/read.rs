@@ -176,6 +176,16 @@ impl Source {
                             crate::sheet::UNCLOSED_QUOTE,
                         ));
                     }
+                    let read = reader.position().record() as usize;
+                    let counted = reader.get_ref().state().records();
+                    if read != counted {
+                        return Err(Error::InvalidSheet {
+                            file: file.to_string(),
+                            problems: vec![CellProblem::file(crate::sheet::records_differ(
+                                read, counted,
+                            ))],
+                        });
+                    }
                     return Ok(None);
                 }
                 // Spreadsheet row: blank lines before the record count as rows.

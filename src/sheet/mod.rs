@@ -20,7 +20,7 @@ pub use cells::{is_missing, parse_number};
 pub use quotes::{QuoteState, TrackQuotes, first_long_line, line_too_long, unclosed_quote};
 pub use read::{
     DELIMITERS, SheetFormat, UNCLOSED_QUOTE, delimiter_name, detect_delimiter, parse_delimiter,
-    read_whole,
+    read_whole, records_differ,
 };
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 

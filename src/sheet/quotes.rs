@@ -40,6 +40,8 @@ pub struct QuoteState {
     opened_at: usize,
     line_bytes: usize,
     too_long: Option<usize>,
+    records: usize,
+    record_open: bool,
 }
 
 impl QuoteState {
@@ -54,6 +56,8 @@ impl QuoteState {
             opened_at: 0,
             line_bytes: 0,
             too_long: None,
+            records: 0,
+            record_open: false,
         }
     }
 
@@ -81,7 +85,18 @@ impl QuoteState {
                     continue;
                 }
             }
-            if b == self.delimiter || b == b'\n' || b == b'\r' {
+            if b == b'\n' || b == b'\r' {
+                // A line break outside quotes ends a record, unless the line was empty
+                // (the reader skips empty lines).
+                if self.record_open {
+                    self.records += 1;
+                }
+                self.record_open = false;
+                self.at_cell_start = true;
+                continue;
+            }
+            self.record_open = true;
+            if b == self.delimiter {
                 self.at_cell_start = true;
             } else if self.at_cell_start && b == b'"' {
                 self.in_quotes = true;
@@ -91,6 +106,13 @@ impl QuoteState {
                 self.at_cell_start = false;
             }
         }
+    }
+
+    /// The records in the text so far, as the reader counts them (a record ends at a
+    /// line break outside quotes; empty lines are none; a last line without a break is
+    /// one): a count of its own, to check the reader's against.
+    pub fn records(&self) -> usize {
+        self.records + usize::from(self.record_open)
     }
 
     /// The first line longer than [`MAX_LINE_BYTES`], if one was read.
@@ -189,6 +211,34 @@ mod tests {
             } else {
                 assert_eq!(records + line_breaks_in_cells, lines);
             }
+        }
+    }
+
+    /// The records counted by the quote state are the records the csv crate's reader
+    /// returns, on blank lines, CR, CRLF, quoted line breaks, lone-delimiter lines and a
+    /// last line without a break.
+    #[test]
+    fn records_are_counted_as_the_reader_counts_them() {
+        let cases: [&[u8]; 8] = [
+            b"a,b\n1,2\n3,4\n",
+            b"a,b\n\n\n1,2\n",
+            b"a,b\r\n1,2\r\n\r\n3,4",
+            b"a,b\r1,2\r3,4\r",
+            b"a,b\n\"x\ny\",2\n3,4\n",
+            b"a,b\n,\n  \n5,6\n",
+            b"a,b\n\"q\"\"\",1\n",
+            b"\n\na\n",
+        ];
+        for text in cases {
+            let mut st = QuoteState::new(b',');
+            st.feed(text);
+            let got = csv::ReaderBuilder::new()
+                .has_headers(false)
+                .flexible(true)
+                .from_reader(text)
+                .byte_records()
+                .count();
+            assert_eq!(st.records(), got, "{}", String::from_utf8_lossy(text));
         }
     }
 

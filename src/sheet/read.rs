@@ -151,6 +151,10 @@ pub struct TableReader<'a> {
     /// Whether the text ends inside a quoted cell (the last record then swallowed every
     /// later line).
     unclosed_quote: bool,
+    /// Records the reader returned, and the records a count of the text's own finds:
+    /// checked to be equal at the end, so that no row is lost between them.
+    records: usize,
+    expected_records: usize,
 }
 
 /// The message for a quote that is never closed.
@@ -203,8 +207,14 @@ impl<'a> TableReader<'a> {
             header: Vec::new(),
             header_row: 1,
             delimiter,
-            unclosed_quote: super::quotes::unclosed_quote(body, delimiter).is_some(),
+            unclosed_quote: false,
+            records: 0,
+            expected_records: 0,
         };
+        let mut state = super::quotes::QuoteState::new(delimiter);
+        state.feed(body);
+        t.unclosed_quote = state.unclosed().is_some();
+        t.expected_records = state.records();
         if !t.advance()? {
             return Err(fail("the file has no header row".into()));
         }
@@ -253,8 +263,18 @@ impl<'a> TableReader<'a> {
                     problems: vec![CellProblem::row(self.row_number.max(1), UNCLOSED_QUOTE)],
                 });
             }
+            if self.records != self.expected_records {
+                return Err(Error::InvalidSheet {
+                    file: self.file.clone(),
+                    problems: vec![CellProblem::file(records_differ(
+                        self.records,
+                        self.expected_records,
+                    ))],
+                });
+            }
             return Ok(false);
         }
+        self.records += 1;
         // Blank lines are skipped by the reader but shown as rows by a spreadsheet.
         let start = self
             .record
@@ -307,6 +327,14 @@ impl<'a> TableReader<'a> {
             .filter(|&r| r < last)
             .collect()
     }
+}
+
+/// Why a file was refused when the reader's records and the text's own count differ.
+pub fn records_differ(read: usize, counted: usize) -> String {
+    format!(
+        "the reader found {read} rows where the file's lines hold {counted}, so rows could be \
+         lost; save the sheet again as CSV from the spreadsheet program"
+    )
 }
 
 /// Count the empty lines between the end of the previous record and the record whose
