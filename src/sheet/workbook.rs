@@ -280,6 +280,17 @@ impl Book<'_> {
             Sheets::Xlsb(x) => {
                 {
                     let mut cells = x.worksheet_cells_reader(name).map_err(|e| unreadable(&e))?;
+                    // The reader stops without a word at a row beyond the format's last:
+                    // the sheet's declared extent says whether it has one.
+                    let end = cells.dimensions().end;
+                    if end.0 >= SHEET_ROWS || end.1 >= SHEET_COLUMNS {
+                        return Err(self.fail(format!(
+                            "worksheet {name} declares cells up to {}, beyond the last row or \
+                             column a worksheet can have, which the reader of this format would \
+                             pass over; save the workbook again as .xlsx",
+                            cell_name(end.0, end.1)
+                        )));
+                    }
                     while let Some(c) = cells.next_cell().map_err(|e| unreadable(&e))? {
                         let at = c.get_position();
                         let text = cell_text(&Data::from(c.get_value().clone()));
