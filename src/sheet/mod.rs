@@ -14,13 +14,13 @@ mod schema;
 pub mod template;
 mod workbook;
 
-pub use workbook::{WorkbookLimits, WorkbookRows, cell_name, is_workbook, panic_is_contained};
+pub use workbook::{WorkbookLimits, WorkbookRows, cell_name, panic_is_contained};
 
 pub use cells::{is_missing, parse_number};
 pub use quotes::{QuoteState, TrackQuotes, first_long_line, line_too_long, unclosed_quote};
 pub use read::{
-    DELIMITERS, SheetFormat, UNCLOSED_QUOTE, delimiter_name, detect_delimiter, parse_delimiter,
-    read_whole, records_differ,
+    DELIMITERS, SheetFormat, UNCLOSED_QUOTE, delimiter_name, detect_delimiter, is_workbook,
+    parse_delimiter, read_whole, records_differ,
 };
 pub use schema::{CoefType, ColumnMap, MAX_ITEMS, MAX_LABEL_CHARS, MAX_N, Role, SdMetric};
 
@@ -420,7 +420,7 @@ pub fn coding_sheet_from_bytes(
     options: &SheetOptions,
 ) -> Result<CodingSheet> {
     let file = path.display().to_string();
-    if workbook::is_workbook(&bytes) {
+    if read::is_workbook(&bytes) {
         if options.delimiter.is_some() {
             return Err(Error::setting(
                 Setting::Delimiter,

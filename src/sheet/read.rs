@@ -388,6 +388,13 @@ pub fn detect_delimiter(body: &[u8]) -> u8 {
     }
 }
 
+/// True for a workbook: by its first bytes (a zip container or an old binary workbook),
+/// whatever its name, so that a text file named .xlsx is read as text and a workbook
+/// named .csv as a workbook.
+pub fn is_workbook(bytes: &[u8]) -> bool {
+    bytes.starts_with(b"PK\x03\x04") || bytes.starts_with(b"\xD0\xCF\x11\xE0")
+}
+
 /// The whole of a file, up to [`MAX_FILE_BYTES`](crate::limits::MAX_FILE_BYTES), read in
 /// blocks: a larger file, or text with a line longer than
 /// [`MAX_LINE_BYTES`](crate::limits::MAX_LINE_BYTES) (a device that never ends gives
@@ -412,7 +419,7 @@ pub fn read_whole(path: &std::path::Path) -> std::io::Result<Vec<u8>> {
                 max >> 20
             )));
         }
-        if !super::workbook::is_workbook(&bytes) {
+        if !is_workbook(&bytes) {
             lines.feed(&bytes[start..]);
             if let Some(line) = lines.too_long() {
                 return Err(invalid(super::quotes::line_too_long(Some(line))));

@@ -19,13 +19,6 @@ use crate::warning::Warning;
 use calamine::{Data, Reader, SheetType, SheetVisible, Sheets};
 use std::io::{Cursor, Read};
 
-/// True for a workbook: by its first bytes (a zip container or an old binary workbook),
-/// whatever its name, so that a text file named .xlsx is read as text and a workbook
-/// named .csv as a workbook.
-pub fn is_workbook(bytes: &[u8]) -> bool {
-    bytes.starts_with(b"PK\x03\x04") || bytes.starts_with(b"\xD0\xCF\x11\xE0")
-}
-
 /// How much a workbook may hold: bounds on its unpacked size and on its cells with
 /// content (defaults in [`crate::limits`]; a face may raise them).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
