@@ -6,6 +6,14 @@ usage: compare_fixtures.py COMMITTED_DIR FRESH_DIR
 Numbers must agree to a relative tolerance of 1e-9 (absolute 1e-12 near zero); any
 other difference (a missing key, a changed string other than the library versions in
 `made_by`) fails. Exit status 1 on any difference.
+
+Two allowances, because the pinned libraries' linear algebra picks its kernels by the
+processor (results then differ in the last digits between machines):
+- values found by a library's iterative optimizer (the factor analyses in items.json)
+  agree to 1e-6, the precision those optimizers are run to;
+- a library's iteration that did not reach its root on one of the machines (a record with
+  `reached_root` false on either side) is no reference there and is not compared; each
+  such record is named. (The Rust tests use such records only where they converged.)
 """
 
 import json
@@ -15,12 +23,19 @@ import sys
 
 REL = 1e-9
 ABS = 1e-12
+OPTIMIZER_REL = 1e-6
+OPTIMIZER_PATHS = ("items.json.scipy.", "items.json.sklearn.")
+SKIPPED = []
 
 
 def diff(a, b, path, out):
     if path.endswith("made_by"):
         return
     if isinstance(a, dict) and isinstance(b, dict):
+        if a.get("reached_root") is False or b.get("reached_root") is False:
+            if a.get("reached_root") != b.get("reached_root"):
+                SKIPPED.append(path)
+            return
         for k in sorted(set(a) | set(b)):
             if k not in a or k not in b:
                 out.append(f"{path}.{k}: present in only one version")
@@ -33,7 +48,8 @@ def diff(a, b, path, out):
             diff(x, y, f"{path}[{i}]", out)
     elif isinstance(a, (int, float)) and isinstance(b, (int, float)) \
             and not isinstance(a, bool) and not isinstance(b, bool):
-        if not math.isclose(a, b, rel_tol=REL, abs_tol=ABS):
+        rel = OPTIMIZER_REL if path.startswith(OPTIMIZER_PATHS) else REL
+        if not math.isclose(a, b, rel_tol=rel, abs_tol=ABS):
             out.append(f"{path}: committed {a!r}, fresh {b!r}")
     elif a != b:
         out.append(f"{path}: committed {a!r}, fresh {b!r}")
@@ -60,6 +76,8 @@ def main():
         with open(fresh_path, encoding="utf-8") as fh:
             b = json.load(fh)
         diff(a, b, name, problems)
+    for p in SKIPPED:
+        print(f"not compared: {p} (the library's iteration reached its root on one machine only)")
     for p in problems[:50]:
         print(f"fixture difference: {p}")
     if problems:
