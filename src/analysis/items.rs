@@ -20,6 +20,10 @@ pub struct ItemsOutcome {
     pub warnings: Vec<Warning>,
 }
 
+/// Items from which the factor fits are shown as progress (they take seconds only for
+/// hundreds of items).
+const PROGRESS_ITEMS: usize = 100;
+
 pub(crate) fn items(
     i: &ItemSettings,
     s: &Settings,
@@ -28,8 +32,7 @@ pub(crate) fn items(
     let mut read = i.read.clone();
     read.keep_rows = i.bootstrap.is_some();
     let data = read_items(&i.path, &read)?;
-    // The factor models take seconds only for hundreds of items: shown then.
-    let analysis = if data.moments.k() >= 100 {
+    let analysis = if data.moments.k() >= PROGRESS_ITEMS {
         with_progress(progress, Task::FactorModels, 2, |tick| {
             analyze_with(&data, s.level, tick)
         })?

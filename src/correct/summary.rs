@@ -37,13 +37,11 @@ pub fn read_summary(path: &Path) -> Result<Summary> {
     let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
     let delimiter = crate::sheet::detect_delimiter(body);
     let decimal_comma = crate::sheet::SheetFormat::Delimited(delimiter).decimal_comma();
-    if let Some(line) = crate::sheet::first_long_line(body) {
-        return Err(invalid(
-            &file,
-            vec![CellProblem::row(line, crate::sheet::line_too_long(None))],
-        ));
-    }
-    if let Some(line) = crate::sheet::unclosed_quote(body, delimiter) {
+    // The text's own reading (an unclosed quote, the records the reader must return);
+    // line lengths were checked as the file was read.
+    let mut state = crate::sheet::QuoteState::new(delimiter);
+    state.feed(body);
+    if let Some(line) = state.unclosed() {
         return Err(invalid(
             &file,
             vec![CellProblem::row(line, crate::sheet::UNCLOSED_QUOTE)],
@@ -64,15 +62,13 @@ pub fn read_summary(path: &Path) -> Result<Summary> {
     if !problems.is_empty() {
         return Err(invalid(&file, problems));
     }
-    let mut lines = crate::sheet::QuoteState::new(delimiter);
-    lines.feed(body);
     let read = reader.position().record() as usize;
-    if read != lines.records() {
+    if read != state.records() {
         return Err(invalid(
             &file,
             vec![CellProblem::file(crate::sheet::records_differ(
                 read,
-                lines.records(),
+                state.records(),
             ))],
         ));
     }

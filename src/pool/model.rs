@@ -87,11 +87,7 @@ pub struct ModelFit {
 impl ModelFit {
     /// The quantile multiplying standard errors for a two-sided interval.
     pub fn critical_value(&self) -> f64 {
-        let upper = self.options.level.upper();
-        match self.df {
-            Some(df) => t_quantile(upper, df),
-            None => normal_quantile(upper),
-        }
+        critical_value(self.options.level, self.df)
     }
 
     /// Two-sided p value of a statistic under the fit's reference distribution.
@@ -198,6 +194,23 @@ pub(crate) fn fit_coefficients(
     Ok((core.fit.beta, core.cov))
 }
 
+/// The quantile multiplying standard errors for a two-sided interval at `level`: t with
+/// `df` degrees of freedom (Knapp–Hartung), else normal.
+fn critical_value(level: Level, df: Option<f64>) -> f64 {
+    match df {
+        Some(df) => t_quantile(level.upper(), df),
+        None => normal_quantile(level.upper()),
+    }
+}
+
+/// I² and H² of a model: from Q for the common-effect model, from τ² otherwise.
+fn shares(model: Model, heterogeneity: &Heterogeneity, tau2: f64) -> (f64, f64) {
+    match model {
+        Model::Common => (heterogeneity.i2_from_q(), heterogeneity.h2_from_q()),
+        Model::Random(_) => (heterogeneity.i2(tau2), heterogeneity.h2(tau2)),
+    }
+}
+
 /// What a leave-one-out refit needs of a model: the coefficients, the interval of the
 /// first, τ² and I² — none of the tables, tests or τ² interval of a [`ModelFit`].
 #[derive(Debug, Clone)]
@@ -221,15 +234,8 @@ pub(crate) fn fit_light(
     }
     let heterogeneity = Heterogeneity::of(d)?;
     let core = core_fit_from(d, options, start)?;
-    let i2 = match options.model {
-        Model::Common => heterogeneity.i2_from_q(),
-        Model::Random(_) => heterogeneity.i2(core.tau2.tau2),
-    };
-    let upper = options.level.upper();
-    let crit = match core.df {
-        Some(df) => t_quantile(upper, df),
-        None => normal_quantile(upper),
-    };
+    let (i2, _) = shares(options.model, &heterogeneity, core.tau2.tau2);
+    let crit = critical_value(options.level, core.df);
     let b0 = core.fit.beta[0];
     Ok(LightFit {
         first_ci: Interval::around(b0, crit * core.cov[(0, 0)].max(0.0).sqrt()),
@@ -278,10 +284,7 @@ pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
         }
         _ => None,
     };
-    let (i2, h2) = match options.model {
-        Model::Common => (heterogeneity.i2_from_q(), heterogeneity.h2_from_q()),
-        Model::Random(_) => (heterogeneity.i2(tau2.tau2), heterogeneity.h2(tau2.tau2)),
-    };
+    let (i2, h2) = shares(options.model, &heterogeneity, tau2.tau2);
     let mut out = ModelFit {
         k,
         p,

@@ -17,7 +17,7 @@ mod workbook;
 pub use workbook::{WorkbookLimits, WorkbookRows, cell_name, panic_is_contained};
 
 pub use cells::{is_missing, parse_number};
-pub use quotes::{QuoteState, TrackQuotes, first_long_line, line_too_long, unclosed_quote};
+pub use quotes::{QuoteState, TrackQuotes, line_too_long};
 pub use read::{
     DELIMITERS, SheetFormat, UNCLOSED_QUOTE, delimiter_name, detect_delimiter, is_workbook,
     parse_delimiter, read_whole, records_differ,

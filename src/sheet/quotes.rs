@@ -19,16 +19,6 @@ pub fn line_too_long(line: Option<usize>) -> String {
     )
 }
 
-/// The first line of `text` longer than [`MAX_LINE_BYTES`], if one is.
-pub fn first_long_line(text: &[u8]) -> Option<usize> {
-    if text.len() <= MAX_LINE_BYTES {
-        return None;
-    }
-    text.split(|&b| b == b'\n')
-        .position(|l| l.len() > MAX_LINE_BYTES)
-        .map(|i| i + 1)
-}
-
 /// Quote state over delimited text.
 #[derive(Debug, Clone)]
 pub struct QuoteState {
@@ -64,8 +54,9 @@ impl QuoteState {
     /// Take in the next bytes of the text.
     pub fn feed(&mut self, bytes: &[u8]) {
         for &b in bytes {
-            if b == b'\n' {
-                self.line += 1;
+            if b == b'\n' || b == b'\r' {
+                // Either ends a line for the reader (only \n counts in line numbers).
+                self.line += usize::from(b == b'\n');
                 self.line_bytes = 0;
             } else {
                 self.line_bytes += 1;
@@ -127,13 +118,6 @@ impl QuoteState {
     }
 }
 
-/// The line where an unclosed quote opened in `text`, if one did.
-pub fn unclosed_quote(text: &[u8], delimiter: u8) -> Option<usize> {
-    let mut s = QuoteState::new(delimiter);
-    s.feed(text);
-    s.unclosed()
-}
-
 /// A reader that follows the quote state of the bytes read through it.
 pub struct TrackQuotes<R> {
     inner: R,
@@ -172,6 +156,13 @@ impl<R: Read> Read for TrackQuotes<R> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The line where an unclosed quote opened in `text`, if one did.
+    fn unclosed_quote(text: &[u8], delimiter: u8) -> Option<usize> {
+        let mut s = QuoteState::new(delimiter);
+        s.feed(text);
+        s.unclosed()
+    }
 
     /// Cross-checked with the csv crate's reader: where it reads as many records as there
     /// are lines, no quote is open; where one record swallows the rest, one is.

@@ -183,13 +183,17 @@ impl<'a> TableReader<'a> {
                     .into(),
             ));
         }
-        if let Some(line) = super::quotes::first_long_line(body) {
+        let delimiter = delimiter.unwrap_or_else(|| detect_delimiter(body));
+        // One pass of the text's own reading: line lengths, an unclosed quote, and the
+        // records the reader must return.
+        let mut state = super::quotes::QuoteState::new(delimiter);
+        state.feed(body);
+        if let Some(line) = state.too_long() {
             return Err(Error::InvalidSheet {
                 file: file.to_string(),
                 problems: vec![CellProblem::row(line, super::quotes::line_too_long(None))],
             });
         }
-        let delimiter = delimiter.unwrap_or_else(|| detect_delimiter(body));
         let reader = csv::ReaderBuilder::new()
             .delimiter(delimiter)
             .has_headers(false)
@@ -207,14 +211,10 @@ impl<'a> TableReader<'a> {
             header: Vec::new(),
             header_row: 1,
             delimiter,
-            unclosed_quote: false,
+            unclosed_quote: state.unclosed().is_some(),
             records: 0,
-            expected_records: 0,
+            expected_records: state.records(),
         };
-        let mut state = super::quotes::QuoteState::new(delimiter);
-        state.feed(body);
-        t.unclosed_quote = state.unclosed().is_some();
-        t.expected_records = state.records();
         if !t.advance()? {
             return Err(fail("the file has no header row".into()));
         }

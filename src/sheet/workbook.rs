@@ -77,17 +77,22 @@ fn cell_text(cell: &Data) -> String {
     }
 }
 
-/// A cell's name as a spreadsheet shows it ("B7"), from its 0-based row and column.
-pub fn cell_name(row: u32, col: u32) -> String {
+/// A column's letters as a spreadsheet shows them ("A", "Z", "AA", …), from its 0-based
+/// index.
+fn column_letters(col: u32) -> String {
     let mut letters = Vec::new();
     let mut c = col as u64 + 1;
     while c > 0 {
-        let d = ((c - 1) % 26) as u8;
-        letters.push(b'A' + d);
+        letters.push(b'A' + ((c - 1) % 26) as u8);
         c = (c - 1) / 26;
     }
     letters.reverse();
-    format!("{}{}", String::from_utf8_lossy(&letters), row as u64 + 1)
+    String::from_utf8_lossy(&letters).into_owned()
+}
+
+/// A cell's name as a spreadsheet shows it ("B7"), from its 0-based row and column.
+pub fn cell_name(row: u32, col: u32) -> String {
+    format!("{}{}", column_letters(col), row as u64 + 1)
 }
 
 /// The cells with content of one worksheet, as read.
@@ -125,10 +130,12 @@ impl Book<'_> {
 
     /// Every part of a zip container unpacked (to nowhere) within the bound, before any
     /// reader holds one: the sizes a file declares can lie, so the bytes are counted.
-    fn check_unpacked_size(&self, bytes: &[u8]) -> Result<()> {
+    /// True when the container is an OpenDocument file (it has a `content.xml`).
+    fn check_unpacked_size(&self, bytes: &[u8]) -> Result<bool> {
         let Ok(mut zip) = zip::ZipArchive::new(Cursor::new(bytes)) else {
-            return Ok(()); // not a readable container: the workbook reader says why
+            return Ok(false); // not a readable container: the workbook reader says why
         };
+        let open_document = zip.index_for_name("content.xml").is_some();
         let max = self.limits.unpacked_bytes;
         let mut total = 0u64;
         for i in 0..zip.len() {
@@ -158,7 +165,7 @@ impl Book<'_> {
                 ));
             }
         }
-        Ok(())
+        Ok(open_document)
     }
 
     /// The worksheet to read: the one asked for, else the first visible worksheet, with
@@ -364,14 +371,12 @@ impl WorkbookRows {
         limits: WorkbookLimits,
     ) -> Result<Self> {
         let book = Book { file, limits };
-        if bytes.starts_with(b"PK\x03\x04") {
-            book.check_unpacked_size(&bytes)?;
-        }
+        let open_document = bytes.starts_with(b"PK\x03\x04") && book.check_unpacked_size(&bytes)?;
         // A reader that fails on a damaged file by panicking must not take the process
         // with it: the file is refused with a reason instead.
         let was = CONTAINING.with(|c| c.replace(true));
         let read = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
-            Self::read_checked(&book, bytes, worksheet)
+            Self::read_checked(&book, bytes, worksheet, open_document)
         }));
         CONTAINING.with(|c| c.set(was));
         read.unwrap_or_else(|_| {
@@ -384,13 +389,15 @@ impl WorkbookRows {
         })
     }
 
-    fn read_checked(b: &Book<'_>, bytes: Vec<u8>, worksheet: Option<&str>) -> Result<Self> {
+    fn read_checked(
+        b: &Book<'_>,
+        bytes: Vec<u8>,
+        worksheet: Option<&str>,
+        open_document: bool,
+    ) -> Result<Self> {
         // An OpenDocument file is measured before its reader opens it (which holds its
         // worksheets in full).
-        let ods = bytes.starts_with(b"PK\x03\x04")
-            && zip::ZipArchive::new(Cursor::new(&bytes[..]))
-                .is_ok_and(|z| z.index_for_name("content.xml").is_some());
-        let scanned = if ods {
+        let scanned = if open_document {
             let tables = super::ods_scan::scan(&bytes)
                 .map_err(|e| b.fail(format!("the file could not be read as a workbook ({e})")))?;
             // The reader holds every table as it opens the file: each must fit.
@@ -472,8 +479,7 @@ impl WorkbookRows {
                          a column name (delete it, or name its column in the header row)",
                         cell_name(beyond.0, beyond.1),
                         super::cells::quote(&beyond.2),
-                        cell_name(first_row, first_col + header_width - 1)
-                            .trim_end_matches(|ch: char| ch.is_ascii_digit())
+                        column_letters(first_col + header_width - 1)
                     ),
                 )],
             });
