@@ -28,6 +28,10 @@ pub const MAX_BOOTSTRAP: usize = 100_000;
 /// inform; the design's cost grows with the cube of the levels.
 pub const MAX_LEVELS: usize = 200;
 
+/// Rows of one cluster in a multilevel fit: each cluster's covariance matrix is inverted
+/// at every step, at a cost that grows with the cube of its rows.
+pub const MAX_CLUSTER_ROWS: usize = 2_000;
+
 /// Items a one-factor model is fitted to; alpha and the item statistics are still
 /// computed above it.
 pub const MAX_FACTOR_ITEMS: usize = 1_000;

@@ -40,6 +40,12 @@ pub enum Setting {
     Level,
     /// Pooling internal-consistency and correlation-type coefficients together.
     MixedTypes,
+    /// How rows that share a sample or a cluster are pooled.
+    Dependence,
+    /// The assumed correlation of sampling errors within a sample.
+    SamplingCorrelation,
+    /// Cluster-robust or model-based inference.
+    Inference,
     // Moderators and the explanation.
     /// The moderators of a meta-regression.
     Moderators,
@@ -168,6 +174,9 @@ impl Setting {
             IntervalMethod => "the interval method",
             Level => "the confidence level",
             MixedTypes => "pooling mixed coefficient types",
+            Dependence => "the handling of dependent rows",
+            SamplingCorrelation => "the sampling correlation within a sample",
+            Inference => "the inference of the multilevel model",
             Moderators => "the moderators",
             Categorical => "the categorical moderators",
             ReferenceLevel => "the reference level",

@@ -172,6 +172,45 @@ pub enum Warning {
         /// Spreadsheet rows.
         rows: Vec<usize>,
     },
+    /// The sheet groups its rows into samples or clusters, and they were pooled as
+    /// independent at the user's request.
+    DependenceIgnored {
+        /// Rows.
+        rows: usize,
+        /// Samples.
+        samples: usize,
+        /// Clusters.
+        clusters: usize,
+    },
+    /// Composites of each sample were pooled, and some clusters hold several samples.
+    ClusterDependenceRemains {
+        /// Samples (composites).
+        samples: usize,
+        /// Clusters.
+        clusters: usize,
+    },
+    /// No cluster has two rows: the variance within clusters cannot be told apart.
+    WithinVarianceNotIdentified {
+        /// Clusters.
+        clusters: usize,
+    },
+    /// A cluster-robust test has few Satterthwaite degrees of freedom.
+    FewRobustDf {
+        /// The degrees of freedom.
+        df: f64,
+    },
+    /// Rows of one sample give different sample sizes.
+    SampleSizesDiffer {
+        /// The sample.
+        sample: String,
+        /// Spreadsheet rows.
+        rows: Vec<usize>,
+    },
+    /// A part of the analysis does not yet model the sheet's dependent rows.
+    DependenceNotModelled {
+        /// Which part.
+        part: String,
+    },
     /// Rows with problems were left out at the user's request.
     RowsSkipped {
         /// How many.
@@ -268,6 +307,12 @@ impl Warning {
             Warning::NegativeCoefficients { .. } => "negative_coefficients",
             Warning::DuplicateLabel { .. } => "duplicate_label",
             Warning::RowsSkipped { .. } => "rows_skipped",
+            Warning::DependenceIgnored { .. } => "dependence_ignored",
+            Warning::ClusterDependenceRemains { .. } => "cluster_dependence_remains",
+            Warning::WithinVarianceNotIdentified { .. } => "within_variance_not_identified",
+            Warning::FewRobustDf { .. } => "few_robust_df",
+            Warning::SampleSizesDiffer { .. } => "sample_sizes_differ",
+            Warning::DependenceNotModelled { .. } => "dependence_not_modelled",
             Warning::EmptyRowsIgnored { .. } => "empty_rows_ignored",
             Warning::HiddenWorksheetsPassedOver { .. } => "hidden_worksheets_passed_over",
             Warning::FormulaCells { .. } => "formula_cells",
@@ -324,6 +369,10 @@ impl Warning {
                 | Warning::LowerBoundReliability { .. }
                 | Warning::UnstableCorrection
                 | Warning::DuplicateLabel { .. }
+                | Warning::DependenceIgnored { .. }
+                | Warning::ClusterDependenceRemains { .. }
+                | Warning::FewRobustDf { .. }
+                | Warning::DependenceNotModelled { .. }
                 | Warning::MixedFamiliesPooled
                 | Warning::Collinearity { .. }
                 | Warning::FormulaCells { .. }
@@ -551,6 +600,55 @@ impl Warning {
                 "the study label \"{label}\" appears on {}; if these are the same sample, pool \
                  only one of them (dependent samples make the intervals too narrow)",
                 list_rows(rows)
+            )],
+            Warning::DependenceIgnored {
+                rows,
+                samples,
+                clusters,
+            } => msg![
+                format!(
+                    "the sheet says its {rows} rows come from {samples} samples in {clusters} \
+                     clusters, and they were pooled as if every row were independent: the \
+                     confidence and prediction intervals are TOO NARROW and the total N counts \
+                     no respondent twice only because it is counted per sample; use "
+                ),
+                given(S::Dependence, "multilevel"),
+                " (the default) or ",
+                given(S::Dependence, "aggregate")
+            ],
+            Warning::ClusterDependenceRemains { samples, clusters } => msg![
+                format!(
+                    "one composite per sample was pooled ({samples} composites), but they come \
+                     from only {clusters} clusters: composites of one cluster are still \
+                     related, so the intervals may be too narrow; "
+                ),
+                given(S::Dependence, "multilevel"),
+                " models the clusters"
+            ],
+            Warning::WithinVarianceNotIdentified { clusters } => msg![format!(
+                "each of the {clusters} clusters holds one row, so the variance within clusters \
+                 cannot be told from the variance between them: it is held at 0 and the model \
+                 is the usual two-level one"
+            )],
+            Warning::FewRobustDf { df } => msg![
+                format!(
+                    "the cluster-robust test has only {df:.1} Satterthwaite degrees of freedom \
+                     (below 4): its p value and interval are unreliable, typically because a \
+                     few clusters carry most of the weight (Tipton 2015); read them with care \
+                     or compare with "
+                ),
+                given(S::Inference, "model")
+            ],
+            Warning::SampleSizesDiffer { sample, rows } => msg![format!(
+                "the rows of sample \"{sample}\" ({}) give different sample sizes; the total N \
+                 counts the sample once, at its largest n — check whether they really share \
+                 their respondents",
+                list_rows(rows)
+            )],
+            Warning::DependenceNotModelled { part } => msg![format!(
+                "{part} does not yet model the sheet's samples and clusters: it treats every \
+                 row as independent, so its intervals and tests are too narrow when rows share \
+                 respondents or a cluster"
             )],
             Warning::RowsSkipped { count } => msg![
                 format!(

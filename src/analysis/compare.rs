@@ -82,6 +82,7 @@ fn sheet_samples(sheet: &SheetSettings, s: &Settings) -> Result<SheetSamples> {
         allow_mixed_types: false,
         skip_invalid: sheet.skip_invalid,
         pool: s.pool_options(),
+        dependence: s.model.dependence,
     };
     let prepared = prepare_from(cs, summary, &options)?;
     let warnings = prepared

@@ -59,7 +59,7 @@ pub(crate) fn explain(
     };
     let groups = match &e.by {
         Some(col) => {
-            let g = subgroups(p, col, &s.pool_options())?;
+            let g = subgroups(p, col, &s.pool_options(), &s.model.dependence)?;
             warnings.extend(g.warnings.iter().cloned());
             Some(g)
         }

@@ -175,7 +175,11 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
         _ => (None, None),
     };
     let benchmark = match (&prepared, settings.benchmark) {
-        (Some(p), true) => Some(from_prepared(p.clone(), &settings.pool_options())?),
+        (Some(p), true) => Some(from_prepared(
+            p.clone(),
+            &settings.pool_options(),
+            &settings.model.dependence,
+        )?),
         _ => None,
     };
     let explanation = match (&prepared, &settings.explain) {

@@ -11,6 +11,7 @@ use crate::level::Level;
 use crate::metareg::spread::SpreadMetric;
 use crate::metareg::{Centring, ModeratorSpec};
 use crate::placement::NewStudy;
+use crate::pool::dependence::DependenceOptions;
 use crate::pool::{CiMethod, Model, PoolOptions, Tau2Estimator};
 use crate::setting::{Setting, given, msg};
 use crate::sheet::SheetOptions;
@@ -81,6 +82,8 @@ pub struct ModelSettings {
     pub interval: CiMethod,
     /// Pool internal-consistency and correlation-type coefficients together.
     pub mixed_types: bool,
+    /// How rows that share a sample or a cluster are pooled.
+    pub dependence: DependenceOptions,
 }
 
 impl Default for ModelSettings {
@@ -90,6 +93,7 @@ impl Default for ModelSettings {
             model: Model::Random(Tau2Estimator::Reml),
             interval: CiMethod::KnappHartung,
             mixed_types: false,
+            dependence: DependenceOptions::default(),
         }
     }
 }
@@ -304,6 +308,7 @@ impl Settings {
             allow_mixed_types: self.model.mixed_types,
             skip_invalid: self.sheet.as_ref().is_some_and(|s| s.skip_invalid),
             pool: self.pool_options(),
+            dependence: self.model.dependence,
         }
     }
 

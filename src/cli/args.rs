@@ -50,6 +50,27 @@ pub enum CiArg {
     Wald,
 }
 
+/// How rows that share a sample or a cluster are pooled (`--dependence`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum DependenceArg {
+    /// A multilevel model: variance between clusters and within them, sampling errors of
+    /// one sample correlated.
+    Multilevel,
+    /// One composite per sample (the mean of its rows), pooled as independent.
+    Aggregate,
+    /// Every row taken as independent (intervals too narrow).
+    Ignore,
+}
+
+/// Where a multilevel model's standard errors come from (`--inference`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum InferenceArg {
+    /// Cluster-robust (CR2) standard errors with Satterthwaite degrees of freedom.
+    Robust,
+    /// The model's own standard errors.
+    Model,
+}
+
 /// The metric score SDs are put on (`--spread-metric`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum SpreadMetricArg {
@@ -215,6 +236,22 @@ pub struct ModelArgs {
     /// --transform).
     #[arg(long)]
     pub allow_mixed_types: bool,
+
+    /// How rows that share a sample or a cluster (the sheet's sample and cluster columns)
+    /// are pooled (when not given: multilevel when the sheet has those columns).
+    #[arg(long, value_name = "METHOD", ignore_case = true)]
+    pub dependence: Option<DependenceArg>,
+
+    /// Assumed correlation between the sampling errors of coefficients from one sample,
+    /// at least 0 and below 1 (common practice, no source; the results at 0, 0.3, 0.6 and
+    /// 0.9 are always shown too).
+    #[arg(long, value_name = "R", default_value_t = 0.6)]
+    pub sampling_correlation: f64,
+
+    /// Standard errors of the multilevel model: robust (CR2 with Satterthwaite degrees of
+    /// freedom, the default) or the model's own.
+    #[arg(long, value_name = "KIND", ignore_case = true)]
+    pub inference: Option<InferenceArg>,
 }
 
 /// Moderators of a meta-regression, shared by explain and check.

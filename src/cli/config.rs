@@ -2,9 +2,9 @@
 //! command goes args → config → `analysis::run` → a rendering.
 
 use super::args::{
-    CheckArgs, CiArg, CoefTypeArg, CompareArgs, CorrectArgs, DelimiterArg, ExplainArgs, ItemsArgs,
-    ModelArgs, ModeratorArgs, PlanArgs, PoolArgs, ReportArgs, SdMetricArg, SheetArgs,
-    SpreadMetricArg, StudyArgs, Tau2Arg, TemplateArgs, TransformArg,
+    CheckArgs, CiArg, CoefTypeArg, CompareArgs, CorrectArgs, DelimiterArg, DependenceArg,
+    ExplainArgs, InferenceArg, ItemsArgs, ModelArgs, ModeratorArgs, PlanArgs, PoolArgs, ReportArgs,
+    SdMetricArg, SheetArgs, SpreadMetricArg, StudyArgs, Tau2Arg, TemplateArgs, TransformArg,
 };
 use super::output::{Failure, UsageError};
 use relyard::Level;
@@ -19,6 +19,7 @@ use relyard::items::{ItemReadOptions, Missing};
 use relyard::metareg::spread::SpreadMetric;
 use relyard::metareg::{Centring, ModeratorKind, ModeratorSpec};
 use relyard::placement::NewStudy;
+use relyard::pool::dependence::{DependenceMethod, DependenceOptions, Inference};
 use relyard::pool::{CiMethod, Model, Tau2Estimator};
 use relyard::sheet::{CoefType, ColumnMap, Role, SdMetric, SheetOptions, same_name};
 use relyard::transform::TransformKind;
@@ -165,11 +166,30 @@ fn model_settings(m: &ModelArgs) -> Result<ModelSettings, Failure> {
              of coefficients are to be pooled",
         ));
     }
+    let r = m.sampling_correlation;
+    if !(0.0..1.0).contains(&r) {
+        return Err(usage(format!(
+            "--sampling-correlation {r}: the sampling correlation must be at least 0 and \
+             below 1"
+        )));
+    }
     Ok(ModelSettings {
         transform: m.transform.map(TransformKind::from),
         model: m.tau2.into(),
         interval: m.ci.into(),
         mixed_types: m.allow_mixed_types,
+        dependence: DependenceOptions {
+            method: m.dependence.map(|d| match d {
+                DependenceArg::Multilevel => DependenceMethod::Multilevel,
+                DependenceArg::Aggregate => DependenceMethod::Aggregate,
+                DependenceArg::Ignore => DependenceMethod::Ignore,
+            }),
+            sampling_correlation: r,
+            inference: m.inference.map(|i| match i {
+                InferenceArg::Robust => Inference::Robust,
+                InferenceArg::Model => Inference::Model,
+            }),
+        },
     })
 }
 

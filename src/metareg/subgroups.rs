@@ -6,6 +6,7 @@ use super::{OmnibusTest, explain};
 use crate::benchmark::{Benchmark, Prepared, from_prepared};
 use crate::dist::chi2_sf;
 use crate::error::{Error, Result};
+use crate::pool::dependence::DependenceOptions;
 use crate::pool::{FitOptions, PoolOptions};
 use crate::setting::msg;
 use crate::setting::{Message, Setting, given};
@@ -57,7 +58,12 @@ pub struct Subgroups {
 /// # References
 /// Borenstein, M., Hedges, L. V., Higgins, J. P. T., & Rothstein, H. R. (2009).
 /// *Introduction to meta-analysis*, chapter 19. Chichester: Wiley.
-pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Subgroups> {
+pub fn subgroups(
+    p: &Prepared,
+    column: &str,
+    options: &PoolOptions,
+    dependence: &DependenceOptions,
+) -> Result<Subgroups> {
     // The design of the column as a categorical moderator gives its levels and the rows
     // without a value; it is fitted below for the common-τ² test.
     let spec = ModeratorSpec {
@@ -102,7 +108,7 @@ pub fn subgroups(p: &Prepared, column: &str, options: &PoolOptions) -> Result<Su
     let mut pooled: Vec<(f64, f64)> = Vec::new();
     let groups: Vec<Group> = order
         .iter()
-        .map(|level| group(p, &values, level, options, &mut pooled))
+        .map(|level| group(p, &values, level, (options, dependence), &mut pooled))
         .collect();
     // What changes how a group's benchmark reads is said with the group named.
     for g in &groups {
@@ -149,7 +155,7 @@ fn group(
     p: &Prepared,
     values: &[Option<String>],
     level: &str,
-    options: &PoolOptions,
+    (options, dependence): (&PoolOptions, &DependenceOptions),
     pooled: &mut Vec<(f64, f64)>,
 ) -> Group {
     let idx: Vec<usize> = values
@@ -165,7 +171,7 @@ fn group(
             p.records[idx[0]].coef
         )))
     } else {
-        match from_prepared(p.subset(&idx), options) {
+        match from_prepared(p.subset(&idx), options, dependence) {
             Ok(b) => {
                 pooled.push((b.pool.estimate, b.pool.se_wald));
                 Ok(Box::new(b))

@@ -2,8 +2,10 @@
 //! interval, heterogeneity, and the prediction interval for a new setting.
 
 mod data;
+pub mod dependence;
 mod heterogeneity;
 mod model;
+pub mod multilevel;
 pub mod prediction;
 mod qprofile;
 pub mod tau2;
@@ -226,6 +228,13 @@ pub struct PoolResult {
     pub weights_percent: Vec<f64>,
     /// Warnings about the result.
     pub warnings: Vec<Warning>,
+    /// How rows that share a sample or cluster were pooled (`None` when the sheet does not
+    /// group its rows).
+    pub dependence: Option<dependence::DependenceResult>,
+    /// The inference in force for a multilevel fit.
+    pub inference: Option<dependence::Inference>,
+    /// Cluster-robust inference for the pooled value of a multilevel fit.
+    pub robust: Option<dependence::RobustTest>,
 }
 
 /// Pool effects `y` with sampling variances `v`.
@@ -297,6 +306,9 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
         prediction_at_tau2_upper,
         weights_percent,
         warnings,
+        dependence: None,
+        inference: None,
+        robust: None,
     })
 }
 

@@ -53,6 +53,10 @@ pub struct StudyRecord {
     pub label: String,
     /// True when the label came from the sheet.
     pub label_given: bool,
+    /// The sample the row's coefficient comes from, when the sheet says.
+    pub sample: Option<String>,
+    /// The cluster the row's sample belongs to, when the sheet says.
+    pub cluster: Option<String>,
     /// Reported coefficient (or effect).
     pub coef: f64,
     /// Kind of coefficient.
@@ -167,6 +171,8 @@ impl StudyRecord {
             ColumnRef::Other(i) => self.extra.get(i).cloned().flatten(),
             ColumnRef::Standard(role) => match role {
                 Role::Study => self.label_given.then(|| self.label.clone()),
+                Role::Sample => self.sample.clone(),
+                Role::Cluster => self.cluster.clone(),
                 Role::Coef => Some(self.coef.to_string()),
                 Role::N => self.n.map(|n| n.to_string()),
                 Role::Items => self.items.map(|k| k.to_string()),
@@ -595,9 +601,11 @@ impl Layout {
 
         let coef_unreadable = check.failed.contains(&Role::Coef);
         let label = match cells.study {
-            Some(s) => check.label(s),
+            Some(s) => check.label(Role::Study, s),
             None => format!("row {row}"),
         };
+        let sample = cells.sample.map(|s| check.label(Role::Sample, s));
+        let cluster = cells.cluster.map(|s| check.label(Role::Cluster, s));
         let coef = check.coef(cells.coef, coef_unreadable);
         let n = check.whole(Role::N, cells.n, MAX_N, "sample size");
         let items = check
@@ -631,6 +639,8 @@ impl Layout {
             row,
             label,
             label_given: cells.study.is_some(),
+            sample,
+            cluster,
             coef: coef.expect("checked above"),
             coef_type: coef_type.expect("checked above"),
             n,
@@ -687,6 +697,8 @@ impl Layout {
             if is_missing(s) { None } else { Some(s) }
         };
         let study = cell_of(Role::Study);
+        let sample = cell_of(Role::Sample);
+        let cluster = cell_of(Role::Cluster);
         let coef = cell_of(Role::Coef);
         let n = cell_of(Role::N);
         let items = cell_of(Role::Items);
@@ -706,6 +718,8 @@ impl Layout {
         }
         RowCells {
             study,
+            sample,
+            cluster,
             coef,
             n,
             items,
@@ -822,6 +836,8 @@ fn find_roles(
 /// values of its other columns.
 struct RowCells<'r> {
     study: Option<&'r str>,
+    sample: Option<&'r str>,
+    cluster: Option<&'r str>,
     coef: Option<&'r str>,
     n: Option<&'r str>,
     items: Option<&'r str>,
@@ -876,7 +892,8 @@ impl RowCheck<'_> {
     }
 
     /// The study label with its spaces tidied, checked for length and control characters.
-    fn label(&mut self, s: &str) -> String {
+    /// A label (of a study, sample or cluster), its runs of white space made one space.
+    fn label(&mut self, role: Role, s: &str) -> String {
         // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
         let trimmed = s.trim();
         let plain = !trimmed
@@ -892,7 +909,7 @@ impl RowCheck<'_> {
         let chars = t.chars().count();
         if chars > MAX_LABEL_CHARS {
             self.push(
-                Role::Study,
+                role,
                 format!(
                     "the label is {chars} characters long (at most {MAX_LABEL_CHARS} are \
                      allowed); shorten it"
@@ -901,7 +918,7 @@ impl RowCheck<'_> {
         }
         if t.chars().any(|c| c.is_control()) {
             self.push(
-                Role::Study,
+                role,
                 "the label holds a control character (such as a line break); remove it".into(),
             );
         }

@@ -11,6 +11,10 @@ use std::str::FromStr;
 pub enum Role {
     /// Study label.
     Study,
+    /// Which sample (set of respondents) a row's coefficient comes from.
+    Sample,
+    /// Which cluster (paper, lab, data set or research group) a row's sample belongs to.
+    Cluster,
     /// Reported coefficient (or effect, for already-transformed input).
     Coef,
     /// Sample size.
@@ -33,8 +37,10 @@ pub enum Role {
 
 impl Role {
     /// Every role, in the order of the template sheet.
-    pub const ALL: [Role; 10] = [
+    pub const ALL: [Role; 12] = [
         Role::Study,
+        Role::Sample,
+        Role::Cluster,
         Role::Coef,
         Role::N,
         Role::Items,
@@ -50,6 +56,8 @@ impl Role {
     pub fn name(self) -> &'static str {
         match self {
             Role::Study => "study",
+            Role::Sample => "sample",
+            Role::Cluster => "cluster",
             Role::Coef => "coef",
             Role::N => "n",
             Role::Items => "items",
@@ -65,7 +73,7 @@ impl Role {
     /// Kind of value, for the data dictionary.
     pub fn value_kind(self) -> &'static str {
         match self {
-            Role::Study => "text",
+            Role::Study | Role::Sample | Role::Cluster => "text",
             Role::Coef | Role::Sd | Role::ScaleMin | Role::ScaleMax | Role::Var => "number",
             Role::N | Role::Items => "whole number",
             Role::CoefType | Role::SdMetric => "one of a list",
@@ -76,6 +84,14 @@ impl Role {
     pub fn when_needed(self) -> &'static str {
         match self {
             Role::Study => "recommended (rows without a label are called \"row N\")",
+            Role::Sample => {
+                "when several rows come from the same respondents (empty: the row is its own \
+                 sample)"
+            }
+            Role::Cluster => {
+                "when several samples share a paper, lab, data set or research group (empty: \
+                 the sample is its own cluster)"
+            }
             Role::Coef => "always",
             Role::N => "always, except when coef already holds effects (transform none)",
             Role::Items => "for bonett, hakstian-whalen and raw",
@@ -90,7 +106,9 @@ impl Role {
     /// Allowed values, for the data dictionary.
     pub fn allowed(self) -> String {
         match self {
-            Role::Study => format!("any text up to {MAX_LABEL_CHARS} characters"),
+            Role::Study | Role::Sample | Role::Cluster => {
+                format!("any text up to {MAX_LABEL_CHARS} characters")
+            }
             Role::Coef => "below 1; a correlation-type coefficient above −1; with transform \
                            none any finite number"
                 .into(),
@@ -112,6 +130,14 @@ impl Role {
     pub fn description(self) -> &'static str {
         match self {
             Role::Study => "a label for the study or sample (author and year, or a code)",
+            Role::Sample => {
+                "rows with the same value come from the same respondents (alpha and omega of \
+                 one sample, subscales, waves); their sampling errors are correlated"
+            }
+            Role::Cluster => {
+                "samples with the same value share a paper, lab, data set or research group; \
+                 their true coefficients are more alike than those of unrelated samples"
+            }
             Role::Coef => "the reliability coefficient the study reported for its sample",
             Role::N => "the number of respondents the coefficient was computed on",
             Role::Items => "the number of items in the scale as administered",

@@ -179,9 +179,13 @@ mod tests {
     #[test]
     fn template_header_is_readable_by_the_reader() {
         let mut text = empty_sheet(&["field_maturity".into()]);
-        text.push_str("A,0.8,100,6,,,,,,,established\n");
+        // study, sample, cluster, coef, n, items, then the six optional columns.
+        text.push_str("A,S1,P1,0.8,100,6,,,,,,,established\n");
         let s = parse_coding_sheet("t.csv", text.as_bytes(), &SheetOptions::default()).unwrap();
         assert_eq!(s.records.len(), 1);
+        assert_eq!(s.records[0].sample.as_deref(), Some("S1"));
+        assert_eq!(s.records[0].cluster.as_deref(), Some("P1"));
+        assert_eq!(s.records[0].coef, 0.8);
         assert_eq!(s.extra_columns, vec!["field_maturity"]);
     }
 

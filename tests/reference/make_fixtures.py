@@ -19,7 +19,10 @@ Sources of the computations:
   * transform variances: numpy Monte Carlo of item data under compound symmetry;
   * meta-regression: explicit k x k matrices in numpy (score equations solved by brentq),
     with statsmodels WLS (coefficients, Knapp-Hartung SEs, F test, predictions) at the
-    fitted tau2; an exact permutation distribution by enumerating all orderings.
+    fitted tau2; an exact permutation distribution by enumerating all orderings;
+  * the multilevel model of dependent coefficients (REML/ML, profile intervals, the
+    likelihood-ratio test, CR2 with Satterthwaite df): dense numpy and scipy.optimize in
+    multilevel_reference.py.
 """
 
 import json
@@ -32,6 +35,9 @@ import scipy
 import statsmodels
 from scipy import optimize, stats
 from statsmodels.stats.meta_analysis import combine_effects
+
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from multilevel_reference import multilevel_fixture  # noqa: E402
 
 SCRIPT = "tests/reference/make_fixtures.py"
 
@@ -977,7 +983,8 @@ def main():
     for name, make in [("quantiles.json", quantile_fixture), ("pool.json", pool_fixture),
                        ("transforms.json", transform_fixture), ("metareg.json", metareg_fixture),
                        ("items.json", lambda: items_fixture(out_dir)),
-                       ("inference.json", inference_fixture)]:
+                       ("inference.json", inference_fixture),
+                       ("multilevel.json", lambda: multilevel_fixture(stamp))]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

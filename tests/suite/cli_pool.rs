@@ -344,7 +344,8 @@ fn template_writes_a_sheet_and_dictionary_and_does_not_overwrite() {
     );
     let sheet = std::fs::read_to_string(&path).unwrap();
     assert!(sheet.starts_with(
-        "study,coef,n,items,coef_type,sd,sd_metric,scale_min,scale_max,var,field_maturity"
+        "study,sample,cluster,coef,n,items,coef_type,sd,sd_metric,scale_min,scale_max,var,\
+         field_maturity"
     ));
     let dict = std::fs::read_to_string(dir.join("my-sheet-dictionary.csv")).unwrap();
     assert!(dict.contains("coef_type") && dict.contains("field_maturity"));
@@ -361,10 +362,12 @@ fn template_writes_a_sheet_and_dictionary_and_does_not_overwrite() {
     assert_eq!(forced.status.code(), Some(0));
     // The template, once filled in, is a valid sheet.
     let mut filled = std::fs::read_to_string(&path).unwrap();
-    filled.push_str("A,0.8,100,6,,,,,,\nB,0.75,90,6,,,,,,\nC,0.85,150,6,,,,,,\n");
+    filled.push_str("A,,,0.8,100,6,,,,,,\nB,,,0.75,90,6,,,,,,\nC,,,0.85,150,6,,,,,,\n");
     std::fs::write(&path, filled).unwrap();
     let j = json_ok(&["pool", &p, "--json"]);
     assert_eq!(j["k"], 3);
+    // Empty sample and cluster cells: every row is independent, pooled as always.
+    assert!(j.get("dependence").is_none());
 }
 
 /// A reader that goes away early (`relyard pool … | head -1`) is not an error.

@@ -19,6 +19,7 @@ mod published_bcg;
 mod reference_correct;
 mod reference_items;
 mod reference_metareg;
+mod reference_multilevel;
 mod reference_pool;
 mod reference_quantiles;
 mod reference_transforms;

@@ -145,7 +145,17 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
     let mut a = vec!["pool", sheet.as_str()];
     a.extend(sheet_args);
     let pool = run(&a);
-    compare_sets("pool", &with_shared("pool"), &paths(&pool));
+    // A sheet whose rows share samples and clusters prints the dependence keys too.
+    let grouped = write_file(
+        &dir,
+        "grouped.csv",
+        b"study,sample,cluster,coef,n,items\nA,s1,p1,0.8,100,6\nB,s1,p1,0.82,100,6\n\
+          C,s2,p1,0.75,120,6\nD,s3,p2,0.7,90,6\nE,s4,p3,0.86,200,6\nF,s5,p4,0.78,150,6\n\
+          G,s5,p4,0.8,150,6\nH,s6,p5,0.72,80,6\n",
+    );
+    let mut printed = paths(&pool);
+    printed.extend(paths(&run(&["pool", &grouped])));
+    compare_sets("pool", &with_shared("pool"), &printed);
 
     let mut a = vec!["explain", sheet.as_str()];
     a.extend(sheet_args);

@@ -7,7 +7,8 @@ use super::{
 use crate::benchmark::Benchmark;
 use crate::output::INDIVIDUAL_DECISIONS_CAUTION;
 use crate::output::prose::Paragraph;
-use crate::pool::Prediction;
+use crate::pool::dependence::DependenceResult;
+use crate::pool::{Interval, Prediction};
 use crate::setting::SettingNames;
 use crate::warning::WarningRecord;
 use serde::Serialize;
@@ -35,6 +36,112 @@ pub struct StudyRecordOut {
     pub weight_percent: f64,
 }
 
+/// An interval as [lower, upper].
+fn ends(i: Interval) -> [f64; 2] {
+    [i.lower, i.upper]
+}
+
+/// The likelihood-ratio test of no variance between clusters.
+#[derive(Debug, Clone, Serialize)]
+pub struct LrtRecord {
+    /// 2 (ℓ_full − ℓ_reduced).
+    pub statistic: f64,
+    /// Degrees of freedom of the χ² part of the 50:50 mixture.
+    pub df: f64,
+    /// P value from the mixture.
+    pub p: f64,
+}
+
+/// The results at one assumed sampling correlation.
+#[derive(Debug, Clone, Serialize)]
+pub struct SensitivityRecord {
+    /// The sampling correlation.
+    pub sampling_correlation: f64,
+    /// Pooled value (transformed scale).
+    pub estimate: f64,
+    /// Its CI.
+    pub ci: [f64; 2],
+    /// The prediction interval.
+    pub pi: Option<[f64; 2]>,
+}
+
+/// How rows that share a sample or a cluster were pooled.
+#[derive(Debug, Clone, Serialize)]
+pub struct DependenceRecord {
+    /// "multilevel", "aggregate" or "ignore".
+    pub method: &'static str,
+    /// The assumed sampling correlation.
+    pub sampling_correlation: f64,
+    /// Rows pooled.
+    pub k_rows: usize,
+    /// Samples among them.
+    pub k_samples: usize,
+    /// Clusters among them.
+    pub k_clusters: usize,
+    /// Variance between clusters.
+    pub tau2_cluster: Option<f64>,
+    /// Variance within clusters.
+    pub tau2_within: Option<f64>,
+    /// Its profile-likelihood CI.
+    pub tau2_cluster_ci: Option<[f64; 2]>,
+    /// Its profile-likelihood CI.
+    pub tau2_within_ci: Option<[f64; 2]>,
+    /// Share of variance between clusters, percent.
+    pub i2_cluster: Option<f64>,
+    /// Share of variance within clusters, percent.
+    pub i2_within: Option<f64>,
+    /// Test of no variance between clusters.
+    pub lrt: Option<LrtRecord>,
+    /// Results at sampling correlations 0, 0.3, 0.6 and 0.9.
+    pub sensitivity: Vec<SensitivityRecord>,
+}
+
+impl From<&DependenceResult> for DependenceRecord {
+    fn from(d: &DependenceResult) -> Self {
+        DependenceRecord {
+            method: d.method.name(),
+            sampling_correlation: d.sampling_correlation,
+            k_rows: d.k_rows,
+            k_samples: d.k_samples,
+            k_clusters: d.k_clusters,
+            tau2_cluster: d.tau2_cluster,
+            tau2_within: d.tau2_within,
+            tau2_cluster_ci: d.tau2_cluster_ci.map(|c| [c.lower, c.upper]),
+            tau2_within_ci: d.tau2_within_ci.map(|c| [c.lower, c.upper]),
+            i2_cluster: d.i2_cluster,
+            i2_within: d.i2_within,
+            lrt: d.lrt.map(|t| LrtRecord {
+                statistic: t.statistic,
+                df: t.df,
+                p: t.p,
+            }),
+            sensitivity: d
+                .sensitivity
+                .iter()
+                .map(|s| SensitivityRecord {
+                    sampling_correlation: s.sampling_correlation,
+                    estimate: s.estimate,
+                    ci: ends(s.ci),
+                    pi: s.pi.map(ends),
+                })
+                .collect(),
+        }
+    }
+}
+
+/// Cluster-robust inference for the pooled value.
+#[derive(Debug, Clone, Serialize)]
+pub struct RobustRecord {
+    /// CR2 standard error.
+    pub se: f64,
+    /// Satterthwaite degrees of freedom.
+    pub df: f64,
+    /// Its CI.
+    pub ci: [f64; 2],
+    /// Two-sided p value of the test against 0.
+    pub p: f64,
+}
+
 /// `relyard pool --json`.
 #[derive(Debug, Clone, Serialize)]
 pub struct PoolDocument {
@@ -43,8 +150,10 @@ pub struct PoolDocument {
     pub head: DocumentHead,
     /// Number of studies pooled.
     pub k: usize,
-    /// Sum of the sample sizes of the pooled studies that report one.
+    /// The respondents of the pooled studies, each sample counted once.
     pub n_total: u64,
+    /// The same count under the name of the dependent-coefficients layout.
+    pub total_n: u64,
     /// Pooled studies without a sample size.
     pub n_missing: usize,
     /// Pooled value (transformed scale).
@@ -103,6 +212,17 @@ pub struct PoolDocument {
     pub references: Vec<String>,
     /// The caution about decisions on individuals.
     pub caution: &'static str,
+    /// How rows that share a sample or cluster were pooled (only when the sheet has a
+    /// sample or cluster column).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dependence: Option<DependenceRecord>,
+    /// "robust" or "model" for a multilevel fit (only when the sheet has a sample or
+    /// cluster column; null unless the multilevel model was fitted).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub inference: Option<Option<&'static str>>,
+    /// Cluster-robust inference for the pooled value (only with a multilevel fit).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub robust: Option<RobustRecord>,
 }
 
 impl PoolDocument {
@@ -125,6 +245,7 @@ impl PoolDocument {
             ),
             k: p.k,
             n_total: b.n_total,
+            total_n: b.n_total,
             n_missing: b.n_missing,
             estimate: p.estimate,
             se: p.se,
@@ -175,6 +296,14 @@ impl PoolDocument {
             paragraph: paragraph.text.clone(),
             references: paragraph.citations(),
             caution: INDIVIDUAL_DECISIONS_CAUTION,
+            dependence: p.dependence.as_ref().map(DependenceRecord::from),
+            inference: p.dependence.as_ref().map(|_| p.inference.map(|i| i.name())),
+            robust: p.robust.map(|r| RobustRecord {
+                se: r.se,
+                df: r.df,
+                ci: ends(r.ci),
+                p: r.p,
+            }),
         }
     }
 }

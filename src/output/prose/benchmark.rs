@@ -1,9 +1,10 @@
 //! The paragraph for a benchmark: what was pooled, how, and the range a new study should
 //! expect.
 
-use super::{Paragraph, Reference};
+use super::{Paragraph, Reference, dependence};
 use crate::benchmark::{Benchmark, describe_types};
 use crate::format::{fixed, range, significant, thousands};
+use crate::pool::dependence::DependenceMethod;
 use crate::pool::{CiMethod, Model, PoolOptions, Tau2Estimator};
 use crate::transform::TransformKind;
 
@@ -13,16 +14,41 @@ pub fn benchmark_paragraph(b: &Benchmark, measure: Option<&str>) -> Paragraph {
     let w = Words::new(b, measure);
     let mut refs = vec![Reference::HigginsThompson2002];
     let mut s = opening(b, &w);
-    s.push_str(&format!(
-        "The reported {} {} {}{}. ",
-        w.what,
-        transform_words(b.transform, &mut refs),
-        model_words(b.pool.options.model, &mut refs),
-        interval_words(&b.pool.options, &w, &mut refs)
-    ));
+    let dep = dependence::dependence(b);
+    let transformed = transform_words(b.transform, &mut refs);
+    let method = dep.and_then(|d| dependence::method_words(b, d, &mut refs));
+    let multilevel = dep.is_some_and(|d| d.method == DependenceMethod::Multilevel);
+    match (&method, multilevel) {
+        (Some(m), true) => s.push_str(&format!("The reported {} {transformed} {m}. ", w.what)),
+        _ => s.push_str(&format!(
+            "The reported {} {transformed} {}{}{}. ",
+            w.what,
+            method.map(|m| m + " ").unwrap_or_default(),
+            model_words(b.pool.options.model, &mut refs),
+            interval_words(&b.pool.options, &w, &mut refs)
+        )),
+    }
     s.push_str(&pooled_sentence(b, &w));
-    s.push_str(&spread_sentence(b, &w, &mut refs));
+    match dep {
+        Some(d) if multilevel => s.push_str(&dependence::levels_sentence(b, d, &mut refs)),
+        _ => s.push_str(&spread_sentence(b, &w, &mut refs)),
+    }
     s.push_str(&range_sentence(b, &w, &mut refs));
+    if let Some(d) = dep {
+        match d.method {
+            DependenceMethod::Ignore => s.push_str(
+                " Coefficients that share a sample or a cluster were treated as independent, \
+                 so these intervals are too narrow.",
+            ),
+            _ => {
+                let t = dependence::sensitivity_sentence(b, d);
+                if !t.is_empty() {
+                    s.push(' ');
+                    s.push_str(&t);
+                }
+            }
+        }
+    }
     Paragraph::new(s, refs)
 }
 
@@ -82,7 +108,18 @@ fn opening(b: &Benchmark, w: &Words) -> String {
         .subset_words()
         .map(|s| format!(" with {s}"))
         .unwrap_or_default();
-    if w.on_coef {
+    if let Some(d) = dependence::dependence(b) {
+        let n_part = n_part.replace(")", ", each sample counted once)");
+        format!(
+            "We judged the reliability of {} against a benchmark built from k = {} {} reported \
+             for {} samples in {} clusters{subset}{n_part}{left_out}. ",
+            w.measure,
+            d.k_rows,
+            w.noun.to_string() + "s",
+            d.k_samples,
+            d.k_clusters
+        )
+    } else if w.on_coef {
         format!(
             "We judged the reliability of {} against a benchmark built from k = {} prior \
              administrations{subset}{n_part}{left_out}. ",
@@ -270,9 +307,13 @@ fn range_sentence(b: &Benchmark, w: &Words, refs: &mut Vec<Reference>) -> String
     } else {
         String::new()
     };
+    let setting = match dependence::dependence(b).map(|d| d.method) {
+        Some(DependenceMethod::Multilevel) => "a new sample from a new cluster",
+        _ => "a new, comparable setting",
+    };
     let mut s = format!(
         "The {level} prediction interval (Higgins, Thompson, & Spiegelhalter, 2009) \
-         indicates that the true {noun}{of_measure} in a new, comparable setting can be \
+         indicates that the true {noun}{of_measure} in {setting} can be \
          expected to lie between {lo} and {hi}; {} {noun} observed in a single new \
          sample will vary somewhat more because of that sample's own sampling error.",
         w.article

@@ -2,6 +2,7 @@
 //! report, and the one list of references they cite.
 
 mod benchmark;
+pub mod dependence;
 mod methods;
 mod placement;
 
@@ -75,6 +76,14 @@ pub enum Reference {
     SanchezMeca2021,
     /// Thompson & Higgins (2002), meta-regression.
     ThompsonHiggins2002,
+    /// Pustejovsky & Tipton (2022), the correlated-and-hierarchical-effects working model.
+    PustejovskyTipton2022,
+    /// Tipton (2015), small-sample robust variance estimation (CR2, Satterthwaite df).
+    Tipton2015,
+    /// Cheung (2014), three-level meta-analysis and I² at each level.
+    Cheung2014,
+    /// Borenstein, Hedges, Higgins & Rothstein (2009), composites of dependent estimates.
+    Borenstein2009,
 }
 
 impl Reference {
@@ -171,6 +180,24 @@ impl Reference {
                 meta-regression analyses be undertaken and interpreted? Statistics in \
                 Medicine, 21(11), 1559–1573."
             }
+            PustejovskyTipton2022 => {
+                "Pustejovsky, J. E., & Tipton, E. (2022). Meta-analysis with \
+                robust variance estimation: Expanding the range of working models. Prevention \
+                Science, 23(3), 425–438."
+            }
+            Tipton2015 => {
+                "Tipton, E. (2015). Small sample adjustments for robust variance \
+                estimation with meta-regression. Psychological Methods, 20(3), 375–393."
+            }
+            Cheung2014 => {
+                "Cheung, M. W.-L. (2014). Modeling dependent effect sizes with \
+                three-level meta-analyses: A structural equation modeling approach. \
+                Psychological Methods, 19(2), 211–229."
+            }
+            Borenstein2009 => {
+                "Borenstein, M., Hedges, L. V., Higgins, J. P. T., & Rothstein, \
+                H. R. (2009). Introduction to meta-analysis. Chichester, UK: Wiley."
+            }
         }
     }
 }
@@ -188,6 +215,10 @@ mod tests {
             Bonett2002,
             SanchezMeca2021,
             RoverKnappFriede2015,
+            PustejovskyTipton2022,
+            Tipton2015,
+            Cheung2014,
+            Borenstein2009,
             HigginsThompsonSpiegelhalter2009,
         ] {
             let c = r.citation();

@@ -4,6 +4,8 @@ use super::{heading, line, paper, para, read_with_care, sheet_line, skipped_rows
 use crate::benchmark::Benchmark;
 use crate::format::{fixed, range, significant, thousands};
 use crate::output::prose::Paragraph;
+use crate::output::prose::dependence::{counted_words, dependence};
+use crate::pool::dependence::{DependenceMethod, DependenceResult, Inference};
 use crate::pool::{CiMethod, Model, PoolResult, Prediction, Termination};
 use crate::setting::SettingNames;
 use crate::transform::TransformKind;
@@ -23,6 +25,9 @@ pub fn benchmark_summary(
     differences(&mut o, b);
     let _ = writeln!(o);
     computation(&mut o, b);
+    if let Some(d) = dependence(b) {
+        sensitivity(&mut o, b, d);
+    }
     if show_studies {
         studies(&mut o, b);
     }
@@ -77,18 +82,22 @@ fn expectation(o: &mut String, b: &Benchmark, measure: Option<&str>) {
             measure.unwrap_or("the measure")
         ),
     );
+    let setting = match dependence(b).map(|d| d.method) {
+        Some(DependenceMethod::Multilevel) => "In a new sample from a new cluster",
+        _ => "In a new, comparable setting",
+    };
     match (p.prediction, c.pi) {
         (Prediction::Available { .. }, Some(pi)) => {
             para(
                 o,
                 &format!(
-                    "In a new, comparable setting the true coefficient is expected between {} \
-                     and {} ({level} expected range, from {} coded studies). A coefficient \
-                     observed in one new sample scatters a little more, by that sample's own \
-                     sampling error; relyard check places a particular study.",
+                    "{setting} the true coefficient is expected between {} and {} ({level} \
+                     expected range; {}). A coefficient observed in one new sample \
+                     scatters a little more, by that sample's own sampling error; relyard \
+                     check places a particular study.",
                     c3(pi.lower),
                     c3(pi.upper),
-                    p.k
+                    counted_words(b)
                 ),
             );
             if let Some(w) = c.pi_at_tau2_upper {
@@ -133,6 +142,12 @@ fn expectation(o: &mut String, b: &Benchmark, measure: Option<&str>) {
 /// How much the studies differ.
 fn differences(o: &mut String, b: &Benchmark) {
     heading(o, "How much the studies differ");
+    if let Some(d) = dependence(b)
+        && d.method == DependenceMethod::Multilevel
+    {
+        levels(o, b, d);
+        return;
+    }
     para(o, &crate::output::prose::differences_sentence(b));
     if let Some(share) = crate::output::prose::share_words(b) {
         line(o, "between-setting share", &share);
@@ -141,6 +156,131 @@ fn differences(o: &mut String, b: &Benchmark) {
         o,
         "test of equal values",
         &crate::output::prose::equal_values_words(b),
+    );
+}
+
+/// The variance between and within clusters, their shares and tests.
+fn levels(o: &mut String, b: &Benchmark, d: &DependenceResult) {
+    let level = b.pool.options.level.percent();
+    let component = |t: Option<f64>, ci: Option<crate::pool::multilevel::ComponentInterval>| {
+        let ci = ci
+            .map(|c| {
+                format!(
+                    "; {level} CI {} (profile likelihood)",
+                    range(c.lower, c.upper, |x| significant(x, 3))
+                )
+            })
+            .unwrap_or_default();
+        t.map(|t| format!("τ² = {}{ci}", significant(t, 3)))
+            .unwrap_or_default()
+    };
+    para(
+        o,
+        "True coefficients differ between clusters (papers, labs, data sets) and, within a \
+         cluster, between samples and coefficients; the two variances on the analysis scale:",
+    );
+    line(
+        o,
+        "between clusters",
+        &component(d.tau2_cluster, d.tau2_cluster_ci),
+    );
+    if d.within_identified {
+        line(
+            o,
+            "within clusters",
+            &component(d.tau2_within, d.tau2_within_ci),
+        );
+    } else {
+        line(
+            o,
+            "within clusters",
+            "not estimable (every cluster holds one row)",
+        );
+    }
+    if let (Some(a), Some(w)) = (d.i2_cluster, d.i2_within) {
+        line(
+            o,
+            "shares of variance",
+            &format!(
+                "I² = {}% between, {}% within clusters",
+                fixed(a, 1),
+                fixed(w, 1)
+            ),
+        );
+    }
+    if let Some(t) = d.lrt {
+        line(
+            o,
+            "cluster variance = 0?",
+            &format!(
+                "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1): the value \
+                 tested is on the boundary)",
+                fixed(t.statistic, 2),
+                crate::format::p_value(t.p)
+            ),
+        );
+    }
+    line(
+        o,
+        "test of equal values",
+        &crate::output::prose::equal_values_words(b),
+    );
+}
+
+/// The results at each assumed sampling correlation.
+fn sensitivity(o: &mut String, b: &Benchmark, d: &DependenceResult) {
+    if d.sensitivity.is_empty() {
+        return;
+    }
+    let _ = writeln!(o);
+    heading(o, "What the assumed sampling correlation changes");
+    let tr = b.transform.get();
+    let shown = |lo: f64, hi: f64| -> String {
+        match b.coefficient {
+            Some(_) => crate::transform::back_interval(
+                tr,
+                crate::transform::Transformed(lo),
+                crate::transform::Transformed(hi),
+            )
+            .map(|c| range(c.lower, c.upper, |x| fixed(x, 3)))
+            .unwrap_or_default(),
+            None => range(lo, hi, t4),
+        }
+    };
+    let one = |x: f64| match b.coefficient {
+        Some(_) => tr
+            .back(crate::transform::Transformed(x))
+            .map(|c| fixed(c.0.min(crate::transform::COEFFICIENT_MAX), 3))
+            .unwrap_or_default(),
+        None => t4(x),
+    };
+    let _ = writeln!(
+        o,
+        "  {:>12}  {:>8}  {:<18}  expected range",
+        "correlation", "pooled", "CI"
+    );
+    for row in &d.sensitivity {
+        let mark = if (row.sampling_correlation - d.sampling_correlation).abs() < 1e-12 {
+            " (in force)"
+        } else {
+            ""
+        };
+        let text = format!(
+            "  {:>12}  {:>8}  {:<18}  {:<18}{mark}",
+            fixed(row.sampling_correlation, 1),
+            one(row.estimate),
+            shown(row.ci.lower, row.ci.upper),
+            row.pi
+                .map(|i| shown(i.lower, i.upper))
+                .unwrap_or_else(|| "–".into()),
+        );
+        let _ = writeln!(o, "{}", text.trim_end());
+    }
+    para(
+        o,
+        "The correlation between the sampling errors of coefficients from one sample is \
+         assumed, not estimated (common practice, no source); read the benchmark as firm \
+         when these rows agree.",
     );
 }
 
@@ -171,7 +311,23 @@ fn computation(o: &mut String, b: &Benchmark) {
     } else {
         "not given".into()
     };
-    line(o, "respondents", &n_text);
+    if let Some(d) = dependence(b) {
+        line(
+            o,
+            "rows, samples, clusters",
+            &format!(
+                "{} rows from {} samples in {} clusters",
+                d.k_rows, d.k_samples, d.k_clusters
+            ),
+        );
+        line(
+            o,
+            "respondents",
+            &format!("{n_text} (each sample counted once)"),
+        );
+    } else {
+        line(o, "respondents", &n_text);
+    }
     let scale = if b.transform == TransformKind::None {
         "as coded: coef holds the effect, var its sampling variance".to_string()
     } else {
@@ -187,8 +343,34 @@ fn computation(o: &mut String, b: &Benchmark) {
         )
     };
     line(o, "analysis scale", &scale);
-    line(o, "model", &model_words(p));
-    line(o, "intervals", &interval_words(p));
+    match dependence(b) {
+        Some(d) if d.method == DependenceMethod::Multilevel => {
+            line(o, "model", &multilevel_words(p, d));
+            line(o, "intervals", &robust_words(p));
+        }
+        Some(d) => {
+            let how = if d.method == DependenceMethod::Aggregate {
+                format!(
+                    "one composite per sample (its rows averaged, sampling correlation {} \
+                     assumed), then {}",
+                    fixed(d.sampling_correlation, 2),
+                    model_words(p)
+                )
+            } else {
+                format!(
+                    "{}; rows of one sample or cluster taken as INDEPENDENT (intervals too \
+                     narrow)",
+                    model_words(p)
+                )
+            };
+            line(o, "model", &how);
+            line(o, "intervals", &interval_words(p));
+        }
+        None => {
+            line(o, "model", &model_words(p));
+            line(o, "intervals", &interval_words(p));
+        }
+    }
     if b.transform != TransformKind::None {
         let pi = p
             .prediction
@@ -230,6 +412,40 @@ fn model_words(p: &PoolResult) -> String {
                 e.abbreviation()
             )
         }
+    }
+}
+
+/// The multilevel model in words.
+fn multilevel_words(p: &PoolResult, d: &DependenceResult) -> String {
+    let how = match p.tau2.termination {
+        Termination::IterationLimit => {
+            format!("NOT converged after {} iterations", p.tau2.iterations)
+        }
+        _ => format!("converged in {} iterations", p.tau2.iterations),
+    };
+    let by = match p.options.model {
+        Model::Random(e) => e.abbreviation(),
+        Model::Common => "REML",
+    };
+    format!(
+        "multilevel random effects (between and within clusters) by {by}, {how}; sampling \
+         errors within a sample correlated at {} (assumed)",
+        fixed(d.sampling_correlation, 2)
+    )
+}
+
+/// The inference of a multilevel fit.
+fn robust_words(p: &PoolResult) -> String {
+    let level = p.options.level.percent();
+    match (p.inference, p.robust) {
+        (Some(Inference::Robust), Some(r)) => format!(
+            "cluster-robust (CR2) SE with {} Satterthwaite df; level {level}",
+            fixed(r.df, 1)
+        ),
+        _ => match p.test.df {
+            Some(df) => format!("model-based SE, t with {df} df (clusters − 1); level {level}"),
+            None => format!("model-based SE, normal quantiles; level {level}"),
+        },
     }
 }
 

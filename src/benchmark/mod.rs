@@ -1,7 +1,11 @@
 //! From a coding sheet to a benchmark: choose and check the transform, transform each
 //! coefficient, pool, and map the results back to the coefficient scale.
 
+mod groups;
+
 use crate::error::{CellProblem, Error, Result};
+use crate::pool::dependence::{DependenceMethod, DependenceOptions, composites, pool_dependent};
+use crate::pool::multilevel::Grouping;
 use crate::pool::{PoolOptions, PoolResult, pool};
 use crate::setting::msg;
 use crate::setting::{Message, Setting, given};
@@ -24,6 +28,8 @@ pub struct BenchmarkOptions {
     pub skip_invalid: bool,
     /// The pooling model.
     pub pool: PoolOptions,
+    /// How rows that share a sample or a cluster are pooled.
+    pub dependence: DependenceOptions,
 }
 
 /// One pooled study.
@@ -79,10 +85,16 @@ pub struct Benchmark {
     pub studies: Vec<StudyEffect>,
     /// Rows left out, in sheet order.
     pub skipped: Vec<SkippedRow>,
-    /// Sum of the sample sizes of the pooled studies that report one.
+    /// The respondents of the pooled studies, each sample counted once (at its largest n).
     pub n_total: u64,
-    /// Pooled studies without a sample size.
+    /// Pooled samples without a sample size.
     pub n_missing: usize,
+    /// Rows of the sheet that were pooled (before any composites were formed).
+    pub k_rows: usize,
+    /// Samples among them.
+    pub k_samples: usize,
+    /// Clusters among them.
+    pub k_clusters: usize,
     /// The pooling result on the analysis scale.
     pub pool: PoolResult,
     /// The results on the coefficient scale (`None` for already-transformed input).
@@ -112,11 +124,18 @@ pub struct Prepared {
     pub v: Vec<f64>,
     /// Rows left out, in sheet order.
     pub skipped: Vec<SkippedRow>,
+    /// True when the sheet has a sample or cluster column (its rows may be dependent).
+    pub grouped: bool,
     /// Sheet-level warnings.
     pub warnings: Vec<Warning>,
 }
 
 impl Prepared {
+    /// Which rows share a sample or a cluster, when the sheet says.
+    pub fn grouping(&self) -> Option<Grouping> {
+        self.grouped.then(|| groups::grouping(&self.records))
+    }
+
     /// The same sheet restricted to the studies at `indices` (in that order).
     pub fn subset(&self, indices: &[usize]) -> Prepared {
         Prepared {
@@ -139,6 +158,7 @@ impl Prepared {
             y: Vec::new(),
             v: Vec::new(),
             skipped: self.skipped.clone(),
+            grouped: self.grouped,
             warnings: Vec::new(),
         }
     }
@@ -220,6 +240,20 @@ pub fn prepare_from(
         return Err(Error::CannotAnalyse(m));
     }
 
+    // Rows are grouped when at least two share a sample or a cluster; a sheet whose sample
+    // and cluster cells are empty or all different is pooled as one of independent rows.
+    let columns = sheet.has(Role::Sample) || sheet.has(Role::Cluster);
+    if columns {
+        let split = groups::split_samples(&usable, &sheet.column_label(Role::Cluster));
+        if !split.is_empty() {
+            return Err(Error::InvalidSheet {
+                file: sheet.file.clone(),
+                problems: split,
+            });
+        }
+        warnings.extend(groups::differing_sizes(&usable));
+    }
+    let grouped = columns && groups::shares_any(&groups::grouping(&usable));
     sheet_warnings(&sheet, &usable, transform, &mut warnings);
 
     let (y, v): (Vec<f64>, Vec<f64>) = values.into_iter().unzip();
@@ -233,6 +267,7 @@ pub fn prepare_from(
         y,
         v,
         skipped,
+        grouped,
         warnings,
     })
 }
@@ -358,16 +393,22 @@ pub fn join_reasons(reasons: &[Message]) -> Message {
 /// Build a benchmark from a coding sheet.
 pub fn build(sheet: CodingSheet, options: &BenchmarkOptions) -> Result<Benchmark> {
     let prepared = prepare(sheet, options)?;
-    from_prepared(prepared, &options.pool)
+    from_prepared(prepared, &options.pool, &options.dependence)
 }
 
-/// Pool prepared studies into a benchmark.
-pub fn from_prepared(prepared: Prepared, options: &PoolOptions) -> Result<Benchmark> {
+/// Pool prepared studies into a benchmark; rows that the sheet groups into samples and
+/// clusters are pooled as `dependence` says.
+pub fn from_prepared(
+    prepared: Prepared,
+    options: &PoolOptions,
+    dependence: &DependenceOptions,
+) -> Result<Benchmark> {
+    let grouping = prepared.grouping();
     let Prepared {
         source,
         transform,
         transform_chosen,
-        records: usable,
+        records,
         y,
         v,
         skipped,
@@ -375,22 +416,35 @@ pub fn from_prepared(prepared: Prepared, options: &PoolOptions) -> Result<Benchm
         ..
     } = prepared;
     let tr = transform.get();
-    let pooled = pool(&y, &v, options)?;
+    let counted = grouping
+        .clone()
+        .unwrap_or_else(|| groups::grouping(&records));
+    let (n_total, n_missing) = groups::respondents(&records, &counted);
+    let (k_rows, k_samples, k_clusters) = (records.len(), counted.samples(), counted.clusters());
+    let pooled = match &grouping {
+        Some(g) => pool_dependent(&y, &v, g, options, dependence)?,
+        None => pool(&y, &v, options)?,
+    };
     warnings.extend(pooled.warnings.iter().cloned());
-
     let coefficient = coefficient_scale(tr, &pooled, &mut warnings);
 
     let mut coef_types = BTreeMap::new();
     let mut families = Vec::new();
-    for r in &usable {
+    for r in &records {
         *coef_types.entry(r.coef_type.name()).or_insert(0) += 1;
         if !families.contains(&r.coef_type.family()) {
             families.push(r.coef_type.family());
         }
     }
-    let n_total = usable.iter().filter_map(|r| r.n).sum();
-    let n_missing = usable.iter().filter(|r| r.n.is_none()).count();
-    let studies = usable
+    let aggregated = pooled
+        .dependence
+        .as_ref()
+        .is_some_and(|d| d.method == DependenceMethod::Aggregate);
+    let (records, y, v) = match (&grouping, aggregated) {
+        (Some(g), true) => composite_studies(records, &y, &v, g, dependence, tr),
+        _ => (records, y, v),
+    };
+    let studies = records
         .into_iter()
         .zip(y.iter().zip(&v))
         .zip(&pooled.weights_percent)
@@ -414,10 +468,43 @@ pub fn from_prepared(prepared: Prepared, options: &PoolOptions) -> Result<Benchm
         skipped,
         n_total,
         n_missing,
+        k_rows,
+        k_samples,
+        k_clusters,
         pool: pooled,
         coefficient,
         warnings,
     })
+}
+
+/// One study per sample: the sample's composite on the analysis scale, listed under the
+/// sample's name at its first row, with its largest n and the composite mapped back.
+fn composite_studies(
+    records: Vec<StudyRecord>,
+    y: &[f64],
+    v: &[f64],
+    g: &Grouping,
+    dependence: &DependenceOptions,
+    tr: &dyn CoefficientTransform,
+) -> (Vec<StudyRecord>, Vec<f64>, Vec<f64>) {
+    let (ys, vs, rows) = composites(y, v, &g.sample, dependence.sampling_correlation);
+    let out = rows
+        .iter()
+        .zip(&ys)
+        .map(|(members, &yc)| {
+            let mut r = records[members[0]].clone();
+            if let Some(s) = &r.sample {
+                r.label = s.clone();
+                r.label_given = true;
+            }
+            r.n = members.iter().filter_map(|&i| records[i].n).max();
+            if let Some(c) = tr.back(Transformed(yc)) {
+                r.coef = c.0;
+            }
+            r
+        })
+        .collect();
+    (out, ys, vs)
 }
 
 /// What a transform needs to know about a study record.

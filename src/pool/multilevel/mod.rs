@@ -1,0 +1,282 @@
+//! The multilevel random-effects model for dependent coefficients:
+//! y = Xβ + u(cluster) + w(row) + e, with u ~ N(0, τ²_cluster), w ~ N(0, τ²_within) and
+//! the sampling errors e of rows from one sample correlated with an assumed sampling
+//! correlation — the correlated-and-hierarchical-effects working model — fitted by REML
+//! or ML cluster by cluster.
+//!
+//! # References
+//! Pustejovsky, J. E., & Tipton, E. (2022). Meta-analysis with robust variance estimation:
+//! Expanding the range of working models. *Prevention Science*, 23, 425–438.
+//! Konstantopoulos, S. (2011). Fixed effects and variance components estimation in
+//! three-level meta-analysis. *Research Synthesis Methods*, 2(1), 61–76.
+//! Cheung, M. W.-L. (2014). Modeling dependent effect sizes with three-level
+//! meta-analyses: A structural equation modeling approach. *Psychological Methods*, 19(2),
+//! 211–229.
+
+mod data;
+mod profile;
+mod robust;
+
+pub use data::{Grouping, NestedData};
+pub use profile::{ComponentInterval, LikelihoodRatio, cluster_test, component_intervals};
+pub use robust::{RobustCovariance, cr2};
+
+use super::tau2::{TAU2_FLOOR, TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Termination};
+use crate::error::{Error, Result};
+use data::{Evaluation, evaluate};
+use nalgebra::{DMatrix, DVector};
+
+/// The sampling correlation assumed between coefficients of one sample when the user
+/// gives none (common practice, no source: a middling value, with the sensitivity to it
+/// always shown).
+pub const DEFAULT_SAMPLING_CORRELATION: f64 = 0.6;
+
+/// The sampling correlations every multilevel result is also shown at.
+pub const SENSITIVITY_CORRELATIONS: [f64; 4] = [0.0, 0.3, 0.6, 0.9];
+
+/// Step halvings allowed when a scoring step lowers the likelihood.
+const MAX_HALVINGS: usize = 60;
+
+/// Options of a multilevel fit.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MultilevelOptions {
+    /// REML (true) or ML.
+    pub restricted: bool,
+    /// Assumed correlation of the sampling errors of rows from one sample, in [0, 1).
+    pub sampling_correlation: f64,
+}
+
+/// A fitted multilevel model, on the analysis scale.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MultilevelFit {
+    /// Rows.
+    pub k: usize,
+    /// Coefficients.
+    pub p: usize,
+    /// Clusters.
+    pub clusters: usize,
+    /// Samples.
+    pub samples: usize,
+    /// The options used.
+    pub options: MultilevelOptions,
+    /// Variance between clusters.
+    pub tau2_cluster: f64,
+    /// Variance between rows within a cluster.
+    pub tau2_within: f64,
+    /// False when no cluster has two rows: τ²_within cannot be told from τ²_cluster and
+    /// is held at 0 (the model is then the two-level model).
+    pub within_identified: bool,
+    /// Coefficients.
+    pub beta: DVector<f64>,
+    /// Their model-based covariance, (XᵀV⁻¹X)⁻¹.
+    pub cov: DMatrix<f64>,
+    /// The maximized (restricted) log-likelihood, without its constant.
+    pub log_lik: f64,
+    /// r'S⁻¹r at τ² = 0 (S the sampling covariance): the heterogeneity statistic Q with
+    /// k − p degrees of freedom.
+    pub q: f64,
+    /// Scoring iterations.
+    pub iterations: usize,
+    /// Why the scoring stopped.
+    pub termination: Termination,
+    /// Each row's share of the first coefficient's estimate, in percent, in input order
+    /// (the row sums of V⁻¹ for plain pooling; negative shares can occur when sampling
+    /// errors are correlated).
+    pub weights_percent: Vec<f64>,
+}
+
+impl MultilevelFit {
+    /// True unless the scoring ran out of iterations.
+    pub fn converged(&self) -> bool {
+        self.termination != Termination::IterationLimit
+    }
+}
+
+/// The maximum of the likelihood over the free components.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Maximum {
+    pub theta: [f64; 2],
+    pub log_lik: f64,
+    pub iterations: usize,
+    pub termination: Termination,
+}
+
+/// Fit the model.
+///
+/// Fewer than two clusters is refused (τ²_cluster and the between-cluster inference need
+/// at least two); with one row per cluster τ²_within is held at 0.
+pub fn fit(d: &NestedData, options: &MultilevelOptions) -> Result<MultilevelFit> {
+    check(d, options)?;
+    let (scaled, s) = d.rescaled();
+    let within_identified = d.largest_cluster() > 1;
+    let fixed = [None, (!within_identified).then_some(0.0)];
+    let start = starting_values(&scaled);
+    let m = maximize(&scaled, options, start, fixed)?;
+    let theta = [m.theta[0] * s, m.theta[1] * s];
+    let r = options.sampling_correlation;
+    let e = evaluate(d, r, theta, options.restricted, false)?;
+    let q = evaluate(d, r, [0.0, 0.0], options.restricted, false)?.quad;
+    Ok(MultilevelFit {
+        k: d.k(),
+        p: d.p(),
+        clusters: d.clusters(),
+        samples: d.samples(),
+        options: *options,
+        tau2_cluster: theta[0],
+        tau2_within: theta[1],
+        within_identified,
+        weights_percent: weights_percent(d, r, theta)?,
+        beta: e.beta,
+        cov: e.cov,
+        log_lik: e.log_lik,
+        q,
+        iterations: m.iterations,
+        termination: m.termination,
+    })
+}
+
+fn check(d: &NestedData, options: &MultilevelOptions) -> Result<()> {
+    let r = options.sampling_correlation;
+    if !(0.0..1.0).contains(&r) {
+        return Err(Error::cannot(format!(
+            "the sampling correlation must be at least 0 and below 1 (got {r})"
+        )));
+    }
+    if d.clusters() < 2 {
+        return Err(Error::cannot(
+            "every row is in one cluster: a multilevel model needs at least two clusters to \
+             tell the variance between clusters from the pooled value",
+        ));
+    }
+    if d.clusters() <= d.p() {
+        return Err(Error::cannot(format!(
+            "{} cannot support a model with {}: at least {} clusters are needed",
+            crate::format::count(d.clusters() as u64, "cluster", "clusters"),
+            crate::format::count(d.p() as u64, "coefficient", "coefficients"),
+            d.p() + 1
+        )));
+    }
+    let largest = d.largest_cluster();
+    if largest > crate::limits::MAX_CLUSTER_ROWS {
+        return Err(Error::cannot(format!(
+            "a cluster holds {largest} rows; a multilevel fit takes at most {} rows per \
+             cluster (its cost grows with the cube of a cluster's rows)",
+            crate::limits::MAX_CLUSTER_ROWS
+        )));
+    }
+    Ok(())
+}
+
+/// Half the spread of the effects beyond their sampling variance at each level (on the
+/// rescaled data), or a small share of the typical sampling variance.
+fn starting_values(d: &NestedData) -> [f64; 2] {
+    let k = d.k() as f64;
+    let mean = d.y.iter().sum::<f64>() / k;
+    let var = d.y.iter().map(|y| (y - mean).powi(2)).sum::<f64>() / (k - 1.0).max(1.0);
+    let mean_v = d.v.iter().sum::<f64>() / k;
+    let total = (var - mean_v).max(0.1);
+    [total / 2.0, total / 2.0]
+}
+
+/// Projected Fisher scoring over the components not held fixed, with step halving; a
+/// component on its boundary 0 whose score points below it stays there.
+pub(crate) fn maximize(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    start: [f64; 2],
+    fixed: [Option<f64>; 2],
+) -> Result<Maximum> {
+    let (r, restricted) = (options.sampling_correlation, options.restricted);
+    let mut theta = [0, 1].map(|i| fixed[i].unwrap_or(start[i].max(0.0)));
+    let mut current = evaluate(d, r, theta, restricted, true)?;
+    for it in 1..=TAU2_MAX_ITERATIONS {
+        let free: Vec<usize> = (0..2)
+            .filter(|&i| fixed[i].is_none() && !(theta[i] <= 0.0 && current.score[i] <= 0.0))
+            .collect();
+        if free.is_empty() {
+            return Ok(done(theta, &current, it - 1, Termination::Converged));
+        }
+        let step = scoring_step(&current, &free);
+        let (next, eval) = halve_until_better(d, options, theta, step, &current)?;
+        let moved = (0..2).all(|i| {
+            (next[i] - theta[i]).abs() <= TAU2_TOLERANCE * next[i].max(theta[i]).max(TAU2_FLOOR)
+        });
+        theta = next;
+        current = eval;
+        if moved {
+            return Ok(done(theta, &current, it, Termination::Converged));
+        }
+    }
+    Ok(done(
+        theta,
+        &current,
+        TAU2_MAX_ITERATIONS,
+        Termination::IterationLimit,
+    ))
+}
+
+fn done(theta: [f64; 2], e: &Evaluation, iterations: usize, termination: Termination) -> Maximum {
+    Maximum {
+        theta,
+        log_lik: e.log_lik,
+        iterations,
+        termination,
+    }
+}
+
+/// The scoring step I⁻¹s over the free components (zero for the others); a nearly
+/// singular information is solved component by component.
+fn scoring_step(e: &Evaluation, free: &[usize]) -> [f64; 2] {
+    let mut step = [0.0; 2];
+    if let [i] = free {
+        step[*i] = e.score[*i] / e.info[*i][*i];
+        return step;
+    }
+    let [[a, b], [c, dd]] = e.info;
+    let det = a * dd - b * c;
+    if det > 1e-10 * a * dd {
+        step[0] = (dd * e.score[0] - b * e.score[1]) / det;
+        step[1] = (a * e.score[1] - c * e.score[0]) / det;
+    } else {
+        step[0] = e.score[0] / a;
+        step[1] = e.score[1] / dd;
+    }
+    step
+}
+
+/// Take the step (projected onto θ ≥ 0), halving it while the likelihood falls.
+fn halve_until_better(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    theta: [f64; 2],
+    step: [f64; 2],
+    current: &Evaluation,
+) -> Result<([f64; 2], Evaluation)> {
+    let (r, restricted) = (options.sampling_correlation, options.restricted);
+    let mut t = 1.0;
+    for _ in 0..MAX_HALVINGS {
+        let next = [0, 1].map(|i| (theta[i] + t * step[i]).max(0.0));
+        let eval = evaluate(d, r, next, restricted, true)?;
+        if eval.log_lik >= current.log_lik - 1e-12 * current.log_lik.abs().max(1.0) {
+            return Ok((next, eval));
+        }
+        t /= 2.0;
+    }
+    Ok((theta, current.clone()))
+}
+
+/// Each row's share of the first coefficient's estimate in percent: the row sums of V⁻¹
+/// over their total (plain pooling), in input order.
+fn weights_percent(d: &NestedData, r: f64, theta: [f64; 2]) -> Result<Vec<f64>> {
+    let mut permuted = Vec::with_capacity(d.k());
+    for b in &d.blocks {
+        let (w, _) = data::inverse_and_log_det(d.marginal_cov(b, r, theta))?;
+        permuted.extend(w.column_sum().iter().copied());
+    }
+    let total: f64 = permuted.iter().sum();
+    let mut out = vec![0.0; d.k()];
+    for (i, &row) in d.order.iter().enumerate() {
+        out[row] = 100.0 * permuted[i] / total;
+    }
+    Ok(out)
+}

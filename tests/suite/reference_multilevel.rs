@@ -1,0 +1,190 @@
+//! The multilevel model of dependent coefficients against a dense reference in numpy and
+//! scipy (tests/reference/multilevel_reference.py → tests/reference/fixtures/multilevel.json):
+//! REML/ML maximized by scipy.optimize and polished on the dense score equations; profile
+//! intervals by brentq; the likelihood-ratio test of τ²_cluster = 0; CR2 from the full hat
+//! matrix with Cholesky factors of the working covariance, and Satterthwaite degrees of
+//! freedom from the explicit vectors pⱼ (Tipton 2015; Pustejovsky & Tipton 2018).
+
+use crate::common::*;
+use nalgebra::DMatrix;
+use relyard::Level;
+use relyard::pool::multilevel::{
+    Grouping, MultilevelOptions, NestedData, cluster_test, component_intervals, cr2, fit,
+};
+
+/// Tolerance for values the reference reaches by a library optimizer polished on its score
+/// equations (its score is below 1e-13 at the estimate): relative.
+const ML_REL: f64 = 1e-7;
+/// Absolute tolerance near 0 (a component on its boundary).
+const ML_ABS: f64 = 1e-10;
+/// Profile-interval ends: the reference's inner maximization is a bounded scalar search.
+const PROFILE_REL: f64 = 1e-5;
+
+fn ids(v: &serde_json::Value) -> Vec<usize> {
+    let mut seen: Vec<String> = Vec::new();
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|s| {
+            let s = s.as_str().unwrap().to_string();
+            match seen.iter().position(|x| *x == s) {
+                Some(i) => i,
+                None => {
+                    seen.push(s);
+                    seen.len() - 1
+                }
+            }
+        })
+        .collect()
+}
+
+fn case_data(c: &serde_json::Value) -> (NestedData, MultilevelOptions) {
+    let y = floats(&c["y"]);
+    let v = floats(&c["v"]);
+    let rows: Vec<Vec<f64>> = c["x"].as_array().unwrap().iter().map(floats).collect();
+    let p = rows[0].len();
+    let x = DMatrix::from_fn(y.len(), p, |i, j| rows[i][j]);
+    let grouping = Grouping {
+        cluster: ids(&c["cluster"]),
+        sample: ids(&c["sample"]),
+    };
+    let options = MultilevelOptions {
+        restricted: c["restricted"].as_bool().unwrap(),
+        sampling_correlation: c["sampling_correlation"].as_f64().unwrap(),
+    };
+    (NestedData::new(&y, &v, &x, &grouping).unwrap(), options)
+}
+
+fn matrix(v: &serde_json::Value) -> Vec<Vec<f64>> {
+    v.as_array().unwrap().iter().map(floats).collect()
+}
+
+#[test]
+fn fits_match_the_dense_reference() {
+    let f = fixture("multilevel.json");
+    let cases = f["cases"].as_array().unwrap();
+    assert!(cases.len() >= 9);
+    for c in cases {
+        let name = c["name"].as_str().unwrap();
+        let (d, options) = case_data(c);
+        let got = fit(&d, &options).unwrap();
+        assert!(got.converged(), "{name}: converged");
+        let close = |a: f64, key: &str| {
+            assert_close(
+                a,
+                c[key].as_f64().unwrap(),
+                ML_REL,
+                ML_ABS,
+                &format!("{name} {key}"),
+            )
+        };
+        close(got.tau2_cluster, "tau2_cluster");
+        close(got.tau2_within, "tau2_within");
+        close(got.q, "q");
+        let beta = floats(&c["beta"]);
+        let cov = matrix(&c["cov_model"]);
+        for j in 0..got.p {
+            assert_close(
+                got.beta[j],
+                beta[j],
+                ML_REL,
+                ML_ABS,
+                &format!("{name} beta {j}"),
+            );
+            for (l, &want) in cov[j].iter().enumerate() {
+                assert_close(
+                    got.cov[(j, l)],
+                    want,
+                    ML_REL,
+                    ML_ABS,
+                    &format!("{name} cov"),
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn cr2_and_its_degrees_of_freedom_match_the_dense_reference() {
+    let f = fixture("multilevel.json");
+    for c in f["cases"].as_array().unwrap() {
+        let name = c["name"].as_str().unwrap();
+        let (d, options) = case_data(c);
+        let got = fit(&d, &options).unwrap();
+        let robust = cr2(&d, &got).unwrap();
+        let cov = matrix(&c["cov_cr2"]);
+        let df = floats(&c["df_cr2"]);
+        for j in 0..got.p {
+            assert_close(robust.df[j], df[j], 1e-6, 1e-9, &format!("{name} df {j}"));
+            for (l, &want) in cov[j].iter().enumerate() {
+                assert_close(
+                    robust.cov[(j, l)],
+                    want,
+                    1e-6,
+                    1e-12,
+                    &format!("{name} cr2 {j},{l}"),
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn profile_intervals_and_the_cluster_test_match_the_dense_reference() {
+    let f = fixture("multilevel.json");
+    let level = Level::new(f["level"].as_f64().unwrap()).unwrap();
+    for c in f["cases"].as_array().unwrap() {
+        let name = c["name"].as_str().unwrap();
+        let (d, options) = case_data(c);
+        let got = fit(&d, &options).unwrap();
+        let [ci_c, ci_w] = component_intervals(&d, &got, level).unwrap();
+        let want_c = floats(&c["tau2_cluster_ci"]);
+        let ci_c = ci_c.unwrap();
+        assert!(ci_c.converged, "{name}");
+        assert_close(
+            ci_c.lower,
+            want_c[0],
+            PROFILE_REL,
+            1e-9,
+            &format!("{name} ci_c lower"),
+        );
+        assert_close(
+            ci_c.upper,
+            want_c[1],
+            PROFILE_REL,
+            1e-9,
+            &format!("{name} ci_c upper"),
+        );
+        match (ci_w, c["tau2_within_ci"].as_array()) {
+            (Some(ci), Some(_)) => {
+                let want = floats(&c["tau2_within_ci"]);
+                assert_close(
+                    ci.lower,
+                    want[0],
+                    PROFILE_REL,
+                    1e-9,
+                    &format!("{name} ci_w lo"),
+                );
+                assert_close(
+                    ci.upper,
+                    want[1],
+                    PROFILE_REL,
+                    1e-9,
+                    &format!("{name} ci_w up"),
+                );
+            }
+            (None, None) => {}
+            other => panic!("{name}: within interval {other:?}"),
+        }
+        let lrt = cluster_test(&d, &got).unwrap();
+        let want = c["lrt_statistic"].as_f64().unwrap();
+        assert_close(lrt.statistic, want, 1e-6, 1e-8, &format!("{name} lrt"));
+        assert_close(
+            lrt.p,
+            c["lrt_p"].as_f64().unwrap(),
+            1e-5,
+            1e-9,
+            &format!("{name} p"),
+        );
+    }
+}
