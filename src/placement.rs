@@ -152,6 +152,10 @@ pub struct Placement {
     pub spread: Option<SpreadShortfall>,
     /// The new study.
     pub study: NewStudy,
+    /// The multilevel fit, when the sheet's rows share samples or clusters.
+    pub dependent: Option<Box<crate::metareg::dependent::DependentExplanation>>,
+    /// The known cluster the ranges are for (`None`: a new sample in a new cluster).
+    pub in_cluster: Option<String>,
     /// Warnings.
     pub warnings: Vec<Warning>,
 }
@@ -168,6 +172,8 @@ pub struct Conditions<'a> {
     pub centring: Centring,
     /// The SD metric of the score-spread comparison (chosen from the sheet when `None`).
     pub spread_metric: Option<SpreadMetric>,
+    /// A known cluster of the sheet the new study belongs to (multilevel fits only).
+    pub in_cluster: Option<&'a str>,
 }
 
 /// Place a new study against the prepared studies, conditional on moderator values when
@@ -190,7 +196,12 @@ pub fn place(
     let input = study_input(study);
     let new_effect = tr.effect(&input).0;
 
-    let FitAt { fit, design, x0 } = fit_at(
+    let FitAt {
+        fit,
+        design,
+        x0,
+        dependent,
+    } = fit_at(
         p,
         cond.moderators,
         cond.at,
@@ -200,23 +211,58 @@ pub fn place(
     )?;
     let mut warnings = model_warnings(p, &fit, design.as_ref(), &x0)?;
     let (k, np) = (fit.k, fit.p);
-    let (expected_t, var_t) = fit.predict(&x0);
+    let (mut expected_t, var_t) = fit.predict(&x0);
     // The new study's sampling variance at the expected coefficient, so that the range
     // does not depend on the coefficient being judged (it would for raw and
     // Hakstian–Whalen, whose variances depend on the coefficient).
     let back1 = |t: f64| tr.back(Transformed(t)).map_or(f64::NAN, |c| c.0);
+    let mut se_t = var_t.sqrt();
+    let mut ci_t = match &dependent {
+        // The pooled benchmark of a multilevel fit: the first coefficient's own interval
+        // (its Satterthwaite df under robust inference).
+        Some(d) if x0 == [1.0] => d.summary.coefficients[0].ci,
+        _ => Interval::around(expected_t, fit.critical_value() * se_t),
+    };
+    // Under the common-effect model the range is that of the one true value (τ² = 0).
+    let mut true_value = Predictive::new_setting(&fit, &x0).unwrap_or(Predictive {
+        centre: expected_t,
+        scale: se_t,
+        df: (k - np - 1) as f64,
+    });
+    let in_cluster = match (cond.in_cluster, &dependent) {
+        (Some(name), Some(d)) => {
+            let used: Vec<usize> = match &design {
+                Some(ds) => ds.used.clone(),
+                None => (0..p.records.len()).collect(),
+            };
+            let (known, pev, spelled) = known_cluster(p, &used, d, name, &x0, true_value.df)?;
+            // The expected value is the cluster's own, with its prediction error.
+            expected_t = known.centre;
+            se_t = pev.sqrt();
+            ci_t = Interval::around(
+                expected_t,
+                crate::dist::t_quantile(options.level.upper(), known.df) * se_t,
+            );
+            true_value = known;
+            Some(spelled)
+        }
+        (Some(name), None) => {
+            return Err(Error::setting(
+                Setting::InCluster,
+                msg![
+                    given(Setting::InCluster, name),
+                    ": the benchmark's rows do not share clusters (the sheet has no sample or \
+                     cluster column whose values repeat, or dependence is not modelled), so \
+                     there is no cluster to place the study in"
+                ],
+            ));
+        }
+        (None, _) => None,
+    };
     let expected = back1(expected_t);
     let new_variance = tr.variance(&StudyInput {
         coef: expected.min(1.0 - 1e-12),
         ..input
-    });
-    let se_t = var_t.sqrt();
-    let ci_t = Interval::around(expected_t, fit.critical_value() * se_t);
-    // Under the common-effect model the range is that of the one true value (τ² = 0).
-    let true_value = Predictive::new_setting(&fit, &x0).unwrap_or(Predictive {
-        centre: expected_t,
-        scale: se_t,
-        df: (k - np - 1) as f64,
     });
     let observed = true_value.observed(new_variance);
     let (pi_t, pi_observed_t) = (
@@ -257,8 +303,69 @@ pub fn place(
         verdict,
         spread,
         study: study.clone(),
+        dependent,
+        in_cluster,
         warnings,
     })
+}
+
+/// The true value of a new sample in the known cluster `name`: the cluster's predicted
+/// value with the prediction-error variance and τ²_within, on the benchmark's df.
+fn known_cluster(
+    p: &Prepared,
+    used: &[usize],
+    d: &crate::metareg::dependent::DependentExplanation,
+    name: &str,
+    x0: &[f64],
+    df: f64,
+) -> Result<(Predictive, f64, String)> {
+    let wanted = name.trim().to_lowercase();
+    let s = &d.summary;
+    // The cluster index of the first row whose cluster (or, without one, sample) is named.
+    let grouping = p
+        .grouping_of(used)
+        .ok_or_else(|| Error::cannot("the sheet has no clusters"))?;
+    let records: Vec<&crate::sheet::StudyRecord> = used.iter().map(|&i| &p.records[i]).collect();
+    let hit = records.iter().position(|r| {
+        r.cluster
+            .as_deref()
+            .or(r.sample.as_deref())
+            .is_some_and(|c| c.trim().to_lowercase() == wanted)
+    });
+    let Some(row) = hit else {
+        let mut names: Vec<String> = records
+            .iter()
+            .filter_map(|r| r.cluster.clone().or_else(|| r.sample.clone()))
+            .collect();
+        names.dedup();
+        names.truncate(12);
+        return Err(Error::setting(
+            Setting::InCluster,
+            msg![
+                given(Setting::InCluster, name),
+                format!(
+                    ": no cluster of the sheet has this name (clusters include: {})",
+                    names.join(", ")
+                )
+            ],
+        ));
+    };
+    let (centre, pev) =
+        crate::pool::multilevel::in_cluster(&s.data, &s.fit, grouping.cluster[row], x0)?;
+    let spelled = records[row]
+        .cluster
+        .clone()
+        .or_else(|| records[row].sample.clone())
+        .unwrap_or_default();
+    Ok((
+        Predictive {
+            centre,
+            scale: (pev + s.fit.tau2_within).sqrt(),
+            df,
+        },
+        pev,
+        spelled,
+    ))
 }
 
 /// The percentile of the new study's value in the distribution of observed values
@@ -303,7 +410,7 @@ fn model_warnings(
         }
     }
     warnings.extend(fit.warnings.iter().cloned());
-    let (k, np) = (fit.k, fit.p);
+    let (k, np) = (fit.units, fit.p);
     if crate::pool::prediction_df(k, np).is_none() {
         return Err(Error::cannot(format!(
             "{k} studies leave no degrees of freedom for an expected range (k − p − 1 = {}); \

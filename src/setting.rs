@@ -88,6 +88,8 @@ pub enum Setting {
     StudyScaleMax,
     /// The new study's moderator values.
     StudyModerators,
+    /// The known cluster the new study belongs to.
+    InCluster,
     // Raw item data.
     /// The item data file.
     ItemFile,
@@ -197,6 +199,7 @@ impl Setting {
             StudyScaleMin => "the new study's lowest item response",
             StudyScaleMax => "the new study's highest item response",
             StudyModerators => "the new study's moderator values",
+            InCluster => "the new study's cluster",
             ItemFile => "the item data",
             ItemColumns => "the item columns",
             ReverseKeyed => "the reverse-keyed items",

@@ -84,6 +84,7 @@ fn permutations(c: &mut Criterion) {
         ci: opts.pool.ci,
         level: relyard::Level::NINETY_FIVE,
         tau2_interval: true,
+        dependence: Default::default(),
     };
     let ex = explain(&p, design, &fit_options).unwrap();
     let mut group = c.benchmark_group("explain");

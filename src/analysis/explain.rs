@@ -5,13 +5,17 @@ use super::settings::{ExplainSettings, Settings};
 use super::{Progress, Task, fit_options, with_progress};
 use crate::benchmark::Prepared;
 use crate::error::Result;
+use crate::metareg::dependent::explain_dependent;
 use crate::metareg::influence::{StudyInfluence, influence};
+use crate::metareg::multilevel_grouping;
 use crate::metareg::permutation::{PermutationResult, permutation_test};
 use crate::metareg::spread::{ScoreSpread, score_spread};
 use crate::metareg::subgroups::{Subgroups, subgroups};
 use crate::metareg::{
-    Centring, Explanation, Moderator, ModeratorSpec, build_design, explain as fit_explanation,
+    Centring, Design, Explanation, Moderator, ModeratorSpec, build_design,
+    explain as fit_explanation,
 };
+use crate::pool::dependence::{DependenceMethod, method_in_force};
 use crate::warning::Warning;
 
 /// Everything the explanation found.
@@ -40,12 +44,12 @@ pub(crate) fn explain(
     e: &ExplainSettings,
     progress: &dyn Progress,
 ) -> Result<Explained> {
-    let opts = fit_options(s);
     let specs = &s.moderators.specs;
     let design = build_design(p, specs, s.moderators.centring)?;
-    let main = fit_explanation(p, design, &opts)?;
+    let main = fit_main(p, design, s)?;
     let mut warnings = p.warnings.clone();
     warnings.extend(main.warnings.iter().cloned());
+    warnings.extend(not_modelled(p, s, e));
     let permutation = match e.permutations {
         Some(n) => Some(with_progress(progress, Task::Permutations, n, |tick| {
             permutation_test(p, &main, n, s.seed, tick)
@@ -81,7 +85,7 @@ pub(crate) fn explain(
         for m in &main.design.moderators {
             if let Moderator::Numeric { name, .. } = m {
                 let d = build_design(p, &[ModeratorSpec::auto(name.clone())], Centring::None)?;
-                marginal.push(fit_explanation(p, d, &opts)?);
+                marginal.push(fit_main(p, d, s)?);
             }
         }
     }
@@ -94,6 +98,47 @@ pub(crate) fn explain(
         marginal,
         warnings,
     })
+}
+
+/// The moderators' model: the multilevel model when the sheet's rows share samples or
+/// clusters (and dependence is modelled), else the usual mixed-effects model.
+fn fit_main(p: &Prepared, design: Design, s: &Settings) -> Result<Explanation> {
+    let opts = fit_options(s);
+    match multilevel_grouping(p, &design.used, &opts) {
+        Some(g) => explain_dependent(p, design, &opts, &opts.dependence, &g),
+        None => fit_explanation(p, design, &opts),
+    }
+}
+
+/// The warnings of the parts that treat dependent rows as independent.
+fn not_modelled(p: &Prepared, s: &Settings, e: &ExplainSettings) -> Vec<Warning> {
+    if !p.grouped {
+        return Vec::new();
+    }
+    let method = method_in_force(&s.model.dependence, true);
+    let mut parts: Vec<&str> = Vec::new();
+    match method {
+        DependenceMethod::Multilevel => {}
+        DependenceMethod::Aggregate => parts.push("the meta-regression (with composites)"),
+        DependenceMethod::Ignore => {
+            return vec![Warning::DependenceNotModelled {
+                part: "the meta-regression (--dependence ignore)".into(),
+            }];
+        }
+    }
+    if e.permutations.is_some() {
+        parts.push("the permutation test");
+    }
+    if e.score_spread {
+        parts.push("the score-spread test");
+    }
+    if e.influence {
+        parts.push("the leave-one-out diagnostics");
+    }
+    parts
+        .into_iter()
+        .map(|part| Warning::DependenceNotModelled { part: part.into() })
+        .collect()
 }
 
 /// The score-variance test with the run's moderators; a model that cannot be fitted

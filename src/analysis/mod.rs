@@ -153,6 +153,7 @@ pub(crate) fn fit_options(s: &Settings) -> FitOptions {
         ci: s.model.interval,
         level: s.level,
         tau2_interval: true,
+        dependence: s.model.dependence,
     }
 }
 
@@ -195,6 +196,7 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
                 at: &n.at,
                 centring: settings.moderators.centring,
                 spread_metric: settings.moderators.spread_metric,
+                in_cluster: n.in_cluster.as_deref(),
             },
             &fit_options(settings),
         )?),

@@ -129,6 +129,9 @@ pub struct NewStudySettings {
     pub study: NewStudy,
     /// Its moderator values, by moderator name.
     pub at: BTreeMap<String, String>,
+    /// The known cluster of the sheet it belongs to (its ranges are then for a new sample
+    /// of that cluster).
+    pub in_cluster: Option<String>,
 }
 
 /// A correction for unreliability.

@@ -136,6 +136,16 @@ impl Prepared {
         self.grouped.then(|| groups::grouping(&self.records))
     }
 
+    /// The grouping of the studies at `indices` (in that order), when the sheet groups
+    /// its rows.
+    pub fn grouping_of(&self, indices: &[usize]) -> Option<Grouping> {
+        self.grouped.then(|| {
+            let records: Vec<StudyRecord> =
+                indices.iter().map(|&i| self.records[i].clone()).collect();
+            groups::grouping(&records)
+        })
+    }
+
     /// The same sheet restricted to the studies at `indices` (in that order).
     pub fn subset(&self, indices: &[usize]) -> Prepared {
         Prepared {

@@ -701,6 +701,12 @@ pub struct StudyArgs {
     /// The new study's value of a moderator, NAME=VALUE (repeatable; one per --moderator).
     #[arg(long = "at", value_name = "NAME=VALUE")]
     pub at: Vec<String>,
+
+    /// The study belongs to this cluster of the coding sheet (a paper, lab or data set
+    /// already in it): its expected range is then for a new sample of that cluster, not
+    /// of a new one.
+    #[arg(long, value_name = "NAME")]
+    pub in_cluster: Option<String>,
 }
 
 /// Bounds on what a workbook may hold (see docs/limits.md).

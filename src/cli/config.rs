@@ -346,6 +346,11 @@ fn new_study(
             scale_max: study.scale_max,
         },
         at: at_values(&study.at, moderators)?,
+        in_cluster: study
+            .in_cluster
+            .as_ref()
+            .map(|c| c.trim().to_string())
+            .filter(|c| !c.is_empty()),
     })
 }
 

@@ -49,6 +49,7 @@ impl SettingNames for OptionNames {
             StudyScaleMin => "--scale-min",
             StudyScaleMax => "--scale-max",
             StudyModerators => "--at",
+            InCluster => "--in-cluster",
             ItemFile => "the DATA argument",
             ItemColumns => "--items",
             ReverseKeyed => "--reverse",

@@ -139,6 +139,7 @@ mod tests {
                 ci: CiMethod::KnappHartung,
                 level: crate::Level::default(),
                 tau2_interval: false,
+                dependence: Default::default(),
             };
             let full = fit_model(&data, &opts).unwrap();
             let ticks = std::sync::atomic::AtomicUsize::new(0);

@@ -1,6 +1,7 @@
 //! Mixed-effects meta-regression: moderators, the omnibus test, R², permutation tests,
 //! influence diagnostics, the score-spread test and subgroup benchmarks.
 
+pub mod dependent;
 pub mod design;
 pub mod influence;
 pub mod permutation;
@@ -89,6 +90,8 @@ pub struct Explanation {
     pub omnibus: Option<OmnibusTest>,
     /// Warnings about the fit.
     pub warnings: Vec<Warning>,
+    /// The multilevel fit behind it, when the sheet's rows share samples or clusters.
+    pub dependent: Option<Box<dependent::DependentExplanation>>,
 }
 
 impl Explanation {
@@ -162,6 +165,7 @@ pub fn explain(p: &Prepared, design: Design, options: &FitOptions) -> Result<Exp
         r2,
         omnibus,
         warnings,
+        dependent: None,
     })
 }
 
@@ -175,6 +179,19 @@ pub struct FitAt {
     pub design: Option<Design>,
     /// The study's design row.
     pub x0: Vec<f64>,
+    /// The multilevel fit behind `fit`, when the sheet's rows share samples or clusters.
+    pub dependent: Option<Box<dependent::DependentExplanation>>,
+}
+
+/// The grouping of a design's studies when they are to be fitted by the multilevel model.
+pub(crate) fn multilevel_grouping(
+    p: &Prepared,
+    used: &[usize],
+    options: &FitOptions,
+) -> Option<crate::pool::multilevel::Grouping> {
+    use crate::pool::dependence::{DependenceMethod, method_in_force};
+    p.grouping_of(used)
+        .filter(|_| method_in_force(&options.dependence, true) == DependenceMethod::Multilevel)
 }
 
 /// Fit the benchmark model for a study with the moderator values `at` (intercept only when
@@ -200,20 +217,42 @@ pub fn fit_at(
                 ],
             ));
         }
+        let all: Vec<usize> = (0..p.records.len()).collect();
+        if let Some(g) = multilevel_grouping(p, &all, options) {
+            let design = build_design(p, &[], centring)?;
+            let ex = dependent::explain_dependent(p, design, options, &options.dependence, &g)?;
+            return Ok(FitAt {
+                fit: ex.fit,
+                design: None,
+                x0: vec![1.0],
+                dependent: ex.dependent,
+            });
+        }
         let data = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
         return Ok(FitAt {
             fit: fit_model(&data, options)?,
             design: None,
             x0: vec![1.0],
+            dependent: None,
         });
     }
     let design = build_design(p, moderators, centring)?;
     let x0 = design.row_for(at, p.source.format, setting)?;
+    if let Some(g) = multilevel_grouping(p, &design.used, options) {
+        let ex = dependent::explain_dependent(p, design, options, &options.dependence, &g)?;
+        return Ok(FitAt {
+            fit: ex.fit,
+            design: Some(ex.design),
+            x0,
+            dependent: ex.dependent,
+        });
+    }
     let (y, v) = design.effects(&p.y, &p.v);
     let data = MetaData::with_design(y, v, design.x.clone())?;
     Ok(FitAt {
         fit: fit_model(&data, options)?,
         design: Some(design),
         x0,
+        dependent: None,
     })
 }

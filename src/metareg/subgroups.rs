@@ -132,6 +132,7 @@ pub fn subgroups(
         ci: options.ci,
         level: options.level,
         tau2_interval: false,
+        dependence: *dependence,
     };
     let (moderator_test, moderator_test_note) =
         match build_design(p, &[spec], Centring::None).and_then(|d| explain(p, d, &fit_options)) {

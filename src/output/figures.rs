@@ -615,6 +615,7 @@ mod tests {
             ci: opts.pool.ci,
             level: Level::new(0.9).unwrap(),
             tau2_interval: false,
+            dependence: Default::default(),
         };
         let study = NewStudy {
             coef: 0.72,
@@ -632,6 +633,7 @@ mod tests {
             at: &at,
             centring: Centring::Means,
             spread_metric: None,
+            in_cluster: None,
         };
         let pl = place(&p, &study, &cond, &fit).unwrap();
         let Kind::Placement { curve, range, .. } = placement(&pl).kind else {

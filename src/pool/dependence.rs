@@ -6,7 +6,7 @@
 use super::heterogeneity::Heterogeneity;
 use super::multilevel::{
     ComponentInterval, Grouping, LikelihoodRatio, MultilevelFit, MultilevelOptions, NestedData,
-    SENSITIVITY_CORRELATIONS, cluster_test, component_intervals, cr2, fit,
+    RobustCovariance, SENSITIVITY_CORRELATIONS, cluster_test, component_intervals, cr2, fit,
 };
 use super::prediction::prediction_df;
 use super::tau2::Tau2Fit;
@@ -299,65 +299,94 @@ fn aggregated(
     Ok(result)
 }
 
-/// The pooled value's interval and test under the inference in force.
-struct Inferred {
-    se: f64,
-    df: Option<f64>,
-    ci: Interval,
-    statistic: f64,
-    p: f64,
+/// One coefficient's interval and test under an inference.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Inferred {
+    /// Estimate.
+    pub estimate: f64,
+    /// Standard error.
+    pub se: f64,
+    /// Degrees of freedom of the t quantile (`None` for normal quantiles).
+    pub df: Option<f64>,
+    /// Confidence interval.
+    pub ci: Interval,
+    /// z or t statistic against 0.
+    pub statistic: f64,
+    /// Two-sided p value.
+    pub p: f64,
 }
 
-fn infer(fit: &MultilevelFit, robust: Option<&RobustTest>, ci: CiMethod, level: Level) -> Inferred {
-    if let Some(r) = robust {
-        return Inferred {
-            se: r.se,
-            df: Some(r.df),
-            ci: r.ci,
-            statistic: r.statistic,
-            p: r.p,
+impl Inferred {
+    fn of(estimate: f64, se: f64, df: Option<f64>, level: Level) -> Inferred {
+        let statistic = estimate / se;
+        let (crit, p) = match df {
+            Some(df) => (t_quantile(level.upper(), df), t_two_sided_p(statistic, df)),
+            None => (
+                normal_quantile(level.upper()),
+                normal_two_sided_p(statistic),
+            ),
         };
+        Inferred {
+            estimate,
+            se,
+            df,
+            ci: Interval::around(estimate, crit * se),
+            statistic,
+            p,
+        }
     }
-    let estimate = fit.beta[0];
-    let se = fit.cov[(0, 0)].max(0.0).sqrt();
-    let statistic = estimate / se;
-    // Model-based: normal quantiles for Wald, else t with clusters − p df (the independent
-    // units; common practice, no source).
-    let df = (ci != CiMethod::Wald).then(|| (fit.clusters - fit.p) as f64);
-    let (crit, p) = match df {
-        Some(df) => (t_quantile(level.upper(), df), t_two_sided_p(statistic, df)),
-        None => (
-            normal_quantile(level.upper()),
-            normal_two_sided_p(statistic),
-        ),
-    };
-    Inferred {
-        se,
-        df,
-        ci: Interval::around(estimate, crit * se),
-        statistic,
-        p,
+
+    /// The cluster-robust test record.
+    pub fn robust_test(&self) -> RobustTest {
+        RobustTest {
+            se: self.se,
+            df: self.df.unwrap_or(f64::NAN),
+            ci: self.ci,
+            statistic: self.statistic,
+            p: self.p,
+        }
     }
 }
 
-fn robust_test(d: &NestedData, fit: &MultilevelFit, level: Level) -> Result<RobustTest> {
+/// Each coefficient under the model's own covariance: normal quantiles for the Wald
+/// method, else t with clusters − p df (the independent units; common practice, no
+/// source).
+pub fn model_based(fit: &MultilevelFit, ci: CiMethod, level: Level) -> Vec<Inferred> {
+    let df = (ci != CiMethod::Wald).then(|| (fit.clusters - fit.p) as f64);
+    (0..fit.p)
+        .map(|j| Inferred::of(fit.beta[j], fit.cov[(j, j)].max(0.0).sqrt(), df, level))
+        .collect()
+}
+
+/// Each coefficient under CR2 with its Satterthwaite df.
+pub fn cluster_robust(fit: &MultilevelFit, rc: &RobustCovariance, level: Level) -> Vec<Inferred> {
+    (0..fit.p)
+        .map(|j| {
+            Inferred::of(
+                fit.beta[j],
+                rc.cov[(j, j)].max(0.0).sqrt(),
+                Some(rc.df[j]),
+                level,
+            )
+        })
+        .collect()
+}
+
+/// The CR2 test of the pooled value (the first coefficient) against 0.
+pub fn robust_test(d: &NestedData, fit: &MultilevelFit, level: Level) -> Result<RobustTest> {
     let rc = cr2(d, fit)?;
-    let se = rc.cov[(0, 0)].max(0.0).sqrt();
-    let df = rc.df[0];
-    let estimate = fit.beta[0];
-    let statistic = estimate / se;
-    Ok(RobustTest {
-        se,
-        df,
-        ci: Interval::around(estimate, t_quantile(level.upper(), df) * se),
-        statistic,
-        p: t_two_sided_p(statistic, df),
-    })
+    Ok(cluster_robust(fit, &rc, level)[0].robust_test())
 }
 
 /// The prediction interval for the true value in a new sample of a new cluster:
-/// μ̂ ± t(m − p − 1)·√(τ²_cluster + τ²_within + SE²), m the clusters.
-fn new_cluster_interval(fit: &MultilevelFit, se: f64, level: Level) -> Option<(Interval, f64)> {
+/// μ̂ ± t(m − p − 1)·√(τ²_cluster + τ²_within + SE²), m the clusters, SE the first
+/// coefficient's standard error under the inference in force; with its df. `None` when
+/// m < p + 2.
+///
+/// The df rule is that of the two-level benchmark (Higgins, Thompson & Spiegelhalter 2009)
+/// with clusters as the independent units: one df more than the coefficients' is spent
+/// because the variances are estimated too.
+pub fn new_cluster_interval(fit: &MultilevelFit, se: f64, level: Level) -> Option<(Interval, f64)> {
     let df = prediction_df(fit.clusters, fit.p)?;
     let scale = (fit.tau2_cluster + fit.tau2_within + se * se).sqrt();
     Some((
@@ -381,37 +410,55 @@ fn estimator_is_likelihood(model: Model) -> Result<bool> {
     }
 }
 
-fn multilevel(
+/// A multilevel fit with everything its faces show: the coefficients under the inference
+/// in force and under CR2, the variance components with their intervals and test, the
+/// heterogeneity statistics and the sensitivity to the sampling correlation.
+#[derive(Debug, Clone)]
+pub struct MultilevelSummary {
+    /// The data, grouped by cluster.
+    pub data: NestedData,
+    /// The fit.
+    pub fit: MultilevelFit,
+    /// The CR2 covariance and df.
+    pub robust_cov: RobustCovariance,
+    /// Each coefficient under CR2.
+    pub robust: Vec<Inferred>,
+    /// Each coefficient under the inference in force.
+    pub coefficients: Vec<Inferred>,
+    /// The inference in force.
+    pub inference: Inference,
+    /// Components, intervals, shares, test, counts, sensitivity.
+    pub dependence: DependenceResult,
+    /// Q from the sampling covariance (k − p df) and the typical within-study variance.
+    pub heterogeneity: Heterogeneity,
+    /// Warnings.
+    pub warnings: Vec<Warning>,
+}
+
+/// Fit the multilevel model with design `x` and summarise it.
+pub fn summarize(
     y: &[f64],
     v: &[f64],
+    x: &DMatrix<f64>,
     grouping: &Grouping,
     options: &PoolOptions,
     dependence: &DependenceOptions,
-) -> Result<PoolResult> {
+) -> Result<MultilevelSummary> {
     let restricted = estimator_is_likelihood(options.model)?;
-    let x = DMatrix::from_element(y.len(), 1, 1.0);
-    let data = NestedData::new(y, v, &x, grouping)?;
+    let data = NestedData::new(y, v, x, grouping)?;
     let ml = MultilevelOptions {
         restricted,
         sampling_correlation: dependence.sampling_correlation,
     };
     let f = fit(&data, &ml)?;
     let inference = dependence.inference.unwrap_or(Inference::Robust);
-    let robust = robust_test(&data, &f, options.level)?;
-    let mut warnings = fit_warnings(&f, &robust, inference);
-    let inferred = infer(
-        &f,
-        (inference == Inference::Robust).then_some(&robust),
-        options.ci,
-        options.level,
-    );
-    let prediction = match new_cluster_interval(&f, inferred.se, options.level) {
-        Some((interval, df)) => Prediction::Available { interval, df },
-        None => {
-            warnings.push(Warning::NoPredictionInterval { k: f.clusters });
-            Prediction::TooFewStudies
-        }
+    let robust_cov = cr2(&data, &f)?;
+    let robust = cluster_robust(&f, &robust_cov, options.level);
+    let coefficients = match inference {
+        Inference::Robust => robust.clone(),
+        Inference::Model => model_based(&f, options.ci, options.level),
     };
+    let mut warnings = fit_warnings(&f, &robust, inference);
     let [ci_c, ci_w] = component_intervals(&data, &f, options.level)?;
     if [ci_c, ci_w].iter().flatten().any(|c| !c.converged) {
         warnings.push(Warning::NotConverged {
@@ -420,7 +467,7 @@ fn multilevel(
         });
     }
     let lrt = cluster_test(&data, &f)?;
-    let heterogeneity = typical(y, v, &f)?;
+    let heterogeneity = typical(y, v, x, &f)?;
     let s2 = heterogeneity.typical_variance;
     let total = f.tau2_cluster + f.tau2_within;
     let share = |t: f64| 100.0 * t / (total + s2);
@@ -444,45 +491,104 @@ fn multilevel(
         lrt: Some(lrt),
         sensitivity,
     };
-    Ok(PoolResult {
-        k: f.k,
-        options: *options,
-        estimate: f.beta[0],
-        se: inferred.se,
-        se_wald: f.cov[(0, 0)].max(0.0).sqrt(),
-        kh_scale: None,
-        ci: inferred.ci,
-        test: ZeroTest {
-            statistic: inferred.statistic,
-            df: inferred.df,
-            p: inferred.p,
-        },
-        tau2: Tau2Fit {
-            tau2: total,
-            iterations: f.iterations,
-            termination: f.termination,
-            at_zero: total == 0.0,
-        },
-        tau2_ci: None,
+    Ok(MultilevelSummary {
+        data,
+        fit: f,
+        robust_cov,
+        robust,
+        coefficients,
+        inference,
+        dependence: dependence_result,
         heterogeneity,
-        i2: share(total),
-        h2: (total + s2) / s2,
+        warnings,
+    })
+}
+
+impl MultilevelSummary {
+    /// τ²_cluster + τ²_within, as the two-level fits report τ².
+    pub fn total_tau2(&self) -> Tau2Fit {
+        let total = self.fit.tau2_cluster + self.fit.tau2_within;
+        Tau2Fit {
+            tau2: total,
+            iterations: self.fit.iterations,
+            termination: self.fit.termination,
+            at_zero: total == 0.0,
+        }
+    }
+
+    /// I² and H² of the total variance.
+    pub fn shares(&self) -> (f64, f64) {
+        let s2 = self.heterogeneity.typical_variance;
+        let total = self.fit.tau2_cluster + self.fit.tau2_within;
+        (100.0 * total / (total + s2), (total + s2) / s2)
+    }
+
+    /// The covariance of the coefficients under the inference in force.
+    pub fn cov_in_force(&self) -> DMatrix<f64> {
+        match self.inference {
+            Inference::Robust => self.robust_cov.cov.clone(),
+            Inference::Model => self.fit.cov.clone(),
+        }
+    }
+}
+
+fn multilevel(
+    y: &[f64],
+    v: &[f64],
+    grouping: &Grouping,
+    options: &PoolOptions,
+    dependence: &DependenceOptions,
+) -> Result<PoolResult> {
+    let x = DMatrix::from_element(y.len(), 1, 1.0);
+    let s = summarize(y, v, &x, grouping, options, dependence)?;
+    let mut warnings = s.warnings.clone();
+    let first = s.coefficients[0];
+    let prediction = match new_cluster_interval(&s.fit, first.se, options.level) {
+        Some((interval, df)) => Prediction::Available { interval, df },
+        None => {
+            warnings.push(Warning::NoPredictionInterval { k: s.fit.clusters });
+            Prediction::TooFewStudies
+        }
+    };
+    let (i2, h2) = s.shares();
+    Ok(PoolResult {
+        k: s.fit.k,
+        options: *options,
+        estimate: first.estimate,
+        se: first.se,
+        se_wald: s.fit.cov[(0, 0)].max(0.0).sqrt(),
+        kh_scale: None,
+        ci: first.ci,
+        test: ZeroTest {
+            statistic: first.statistic,
+            df: first.df,
+            p: first.p,
+        },
+        tau2: s.total_tau2(),
+        tau2_ci: None,
+        heterogeneity: s.heterogeneity,
+        i2,
+        h2,
         i2_ci: None,
         prediction,
         prediction_at_tau2_upper: None,
-        weights_percent: f.weights_percent.clone(),
+        weights_percent: s.fit.weights_percent.clone(),
         warnings,
-        dependence: Some(dependence_result),
-        inference: Some(inference),
-        robust: Some(robust),
+        dependence: Some(s.dependence.clone()),
+        inference: Some(s.inference),
+        robust: Some(s.robust[0].robust_test()),
     })
 }
 
 /// The heterogeneity statistics of a multilevel fit: Q from the sampling covariance with
 /// k − p df, and the typical within-study variance of the rows (Higgins & Thompson 2002),
 /// which the shares of variance at each level are taken against (Cheung 2014).
-fn typical(y: &[f64], v: &[f64], f: &MultilevelFit) -> Result<Heterogeneity> {
-    let base = Heterogeneity::of(&super::MetaData::intercept_only(y.to_vec(), v.to_vec())?)?;
+fn typical(y: &[f64], v: &[f64], x: &DMatrix<f64>, f: &MultilevelFit) -> Result<Heterogeneity> {
+    let base = Heterogeneity::of(&super::MetaData::with_design(
+        y.to_vec(),
+        v.to_vec(),
+        x.clone(),
+    )?)?;
     let df = (f.k - f.p) as f64;
     Ok(Heterogeneity {
         q: f.q,
@@ -492,7 +598,7 @@ fn typical(y: &[f64], v: &[f64], f: &MultilevelFit) -> Result<Heterogeneity> {
     })
 }
 
-fn fit_warnings(f: &MultilevelFit, robust: &RobustTest, inference: Inference) -> Vec<Warning> {
+fn fit_warnings(f: &MultilevelFit, robust: &[Inferred], inference: Inference) -> Vec<Warning> {
     let mut w = Vec::new();
     if !f.converged() {
         w.push(Warning::NotConverged {
@@ -515,8 +621,14 @@ fn fit_warnings(f: &MultilevelFit, robust: &RobustTest, inference: Inference) ->
             estimator: "within clusters".into(),
         });
     }
-    if inference == Inference::Robust && robust.df < FEW_ROBUST_DF {
-        w.push(Warning::FewRobustDf { df: robust.df });
+    if inference == Inference::Robust
+        && let Some(df) = robust
+            .iter()
+            .filter_map(|r| r.df)
+            .filter(|df| *df < FEW_ROBUST_DF)
+            .reduce(f64::min)
+    {
+        w.push(Warning::FewRobustDf { df });
     }
     w
 }
@@ -536,18 +648,15 @@ fn sensitivity(
                 ..*ml
             },
         )?;
-        let robust = robust_test(data, &f, options.level)?;
-        let inferred = infer(
-            &f,
-            (inference == Inference::Robust).then_some(&robust),
-            options.ci,
-            options.level,
-        );
+        let first = match inference {
+            Inference::Robust => cluster_robust(&f, &cr2(data, &f)?, options.level)[0],
+            Inference::Model => model_based(&f, options.ci, options.level)[0],
+        };
         out.push(SensitivityRow {
             sampling_correlation: r,
-            estimate: f.beta[0],
-            ci: inferred.ci,
-            pi: new_cluster_interval(&f, inferred.se, options.level).map(|(i, _)| i),
+            estimate: first.estimate,
+            ci: first.ci,
+            pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
         });
     }
     Ok(out)

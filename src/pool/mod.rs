@@ -267,6 +267,7 @@ pub fn pool(y: &[f64], v: &[f64], options: &PoolOptions) -> Result<PoolResult> {
             ci: options.ci,
             level: options.level,
             tau2_interval: true,
+            dependence: Default::default(),
         },
     )?;
     let mut warnings = fit_warnings(&fit, options);

@@ -28,6 +28,9 @@ pub struct FitOptions {
     pub level: Level,
     /// Compute the Q-profile interval for τ² (skipped inside permutation loops).
     pub tau2_interval: bool,
+    /// How the rows of a coding sheet that share samples or clusters are fitted (read by
+    /// the fits of prepared studies; a fit of bare effects has no grouping).
+    pub dependence: super::dependence::DependenceOptions,
 }
 
 /// One coefficient of a fitted model.
@@ -50,6 +53,9 @@ pub struct Coefficient {
 pub struct ModelFit {
     /// Studies.
     pub k: usize,
+    /// The independent units the prediction interval's df counts: the studies, or the
+    /// clusters of a multilevel fit.
+    pub units: usize,
     /// Coefficients, intercept included.
     pub p: usize,
     /// The options used.
@@ -287,6 +293,7 @@ pub fn fit_model(d: &MetaData, options: &FitOptions) -> Result<ModelFit> {
     let (i2, h2) = shares(options.model, &heterogeneity, tau2.tau2);
     let mut out = ModelFit {
         k,
+        units: k,
         p,
         options: *options,
         tau2,

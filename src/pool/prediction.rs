@@ -51,7 +51,7 @@ impl Predictive {
         if !matches!(fit.options.model, Model::Random(_)) {
             return None;
         }
-        let df = prediction_df(fit.k, fit.p)?;
+        let df = prediction_df(fit.units, fit.p)?;
         let (centre, var) = fit.predict(x0);
         Some(Predictive {
             centre,

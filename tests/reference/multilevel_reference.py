@@ -208,6 +208,54 @@ def cr2(case, theta):
     return b, M, meat, dfs
 
 
+def htz(case, theta, columns):
+    """The approximate Hotelling T^2 test of Pustejovsky & Tipton (2018, section 3.2) from
+    the explicit vectors p_si = (I - H)_i' A_i W_i X_i M C' g_s, g_s the columns of
+    G^(-1/2), G = C M X' W Phi W X M C' (the working-model variance of C b)."""
+    y, X = case["y"], case["X"]
+    Phi, _ = marginal(case, theta)
+    W = np.linalg.inv(Phi)
+    M = np.linalg.inv(X.T @ W @ X)
+    k, p = X.shape
+    IH = np.eye(k) - X @ M @ X.T @ W
+    q = len(columns)
+    C = np.zeros((q, p))
+    for s, j in enumerate(columns):
+        C[s, j] = 1.0
+    G = C @ M @ X.T @ W @ Phi @ W @ X @ M @ C.T
+    vals, vecs = np.linalg.eigh(G)
+    Gih = vecs @ np.diag(vals ** -0.5) @ vecs.T
+    b, _, V, _ = cr2(case, theta)
+    cl = np.asarray(case["cluster"])
+    groups = [np.where(cl == c)[0] for c in dict.fromkeys(cl.tolist())]
+    P = {}
+    for i, g in enumerate(groups):
+        D = np.linalg.cholesky(Phi[np.ix_(g, g)]).T
+        B = D @ IH[g, :] @ Phi @ IH[g, :].T @ D.T
+        ev, evec = np.linalg.eigh((B + B.T) / 2)
+        root_inv = evec @ np.diag([1 / math.sqrt(x) if x > 1e-12 * ev.max() else 0.0
+                                   for x in ev]) @ evec.T
+        A = D.T @ root_inv @ D
+        for s in range(q):
+            u = np.zeros(k)
+            u[g] = A @ W[np.ix_(g, g)] @ X[g, :] @ M @ C.T @ Gih[:, s]
+            P[(s, i)] = IH.T @ u
+    m = len(groups)
+    total = 0.0
+    for s in range(q):
+        for t in range(q):
+            for i in range(m):
+                for j in range(m):
+                    total += (P[(s, i)] @ Phi @ P[(t, j)]) * (P[(t, i)] @ Phi @ P[(s, j)]) \
+                        + (P[(s, i)] @ Phi @ P[(s, j)]) * (P[(t, i)] @ Phi @ P[(t, j)])
+    eta = q * (q + 1) / total
+    cb = C @ b
+    Q = float(cb @ np.linalg.solve(C @ V @ C.T, cb))
+    F = (eta - q + 1) / (eta * q) * Q
+    return {"columns": list(columns), "eta": eta, "statistic": F, "df_num": q,
+            "df_den": eta - q + 1, "p": float(stats.f.sf(F, q, eta - q + 1))}
+
+
 def case_of(name, y, v, X, cluster, sample, r, restricted, source):
     case = {"y": np.asarray(y, float), "v": np.asarray(v, float), "X": np.asarray(X, float),
             "cluster": list(cluster), "sample": list(sample)}
@@ -238,6 +286,8 @@ def case_of(name, y, v, X, cluster, sample, r, restricted, source):
         "lrt_statistic": lrt, "lrt_p": float(0.5 * stats.chi2.sf(lrt, 1)) if lrt > 0 else 1.0,
         "q": float(r0 @ np.linalg.solve(V0, r0)),
         "score_at_estimate": score(case, theta, restricted).tolist(),
+        "htz": htz(case, theta, list(range(1, case["X"].shape[1]))) if case["X"].shape[1] > 1
+        else None,
     }
 
 
@@ -279,6 +329,12 @@ def multilevel_fixture(stamp):
     X2 = np.column_stack([np.ones(len(y2)), x2])
     cases.append(case_of("moderator", y2, v2, X2, cl2, sa2, 0.6, True,
                          "invented: 15 clusters, one numeric moderator"))
+    # Two moderators: the second an invented category (0/1) by cluster.
+    y6, v6, cl6, sa6, x6 = invented_sheet(rng, 16, 2, 3, 0.03, 0.02, 0.6, slope=0.05)
+    grp = [float(int(c[1:]) % 2) for c in cl6]
+    X6 = np.column_stack([np.ones(len(y6)), x6, grp])
+    cases.append(case_of("two_moderators", y6, v6, X6, cl6, sa6, 0.6, True,
+                         "invented: 16 clusters, a numeric and a two-level moderator"))
     y3, v3, cl3, sa3, _ = invented_sheet(rng, 10, 2, 2, 0.0, 0.05, 0.5)
     X3 = np.ones((len(y3), 1))
     cases.append(case_of("no_cluster_variance", y3, v3, X3, cl3, sa3, 0.5, True,

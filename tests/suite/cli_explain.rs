@@ -43,7 +43,7 @@ fn explain_on_the_demo_reads_well() {
         "compared with",
         "all moderators together",
         "(R²",
-        "test of no remaining differences",
+        "remaining differences   Q = ",
         "always on the Bonett scale",
         "slope of ln(SD)",
         "test of slope −2",

@@ -7,6 +7,7 @@ mod common;
 
 mod bad_input;
 mod cli_correct;
+mod cli_dependence;
 mod cli_explain;
 mod cli_items;
 mod cli_pool;
@@ -25,5 +26,6 @@ mod reference_quantiles;
 mod reference_transforms;
 mod report;
 mod simulation_items;
+mod simulation_multilevel;
 mod simulation_spread;
 mod workbooks;

@@ -172,7 +172,10 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
         "30",
     ]);
     let explain = run(&a);
-    compare_sets("explain", &with_shared("explain"), &paths(&explain));
+    let mut printed = paths(&explain);
+    let grouped_explain = run(&["explain", &grouped, "--moderator", "n"]);
+    printed.extend(paths(&grouped_explain));
+    compare_sets("explain", &with_shared("explain"), &printed);
 
     let mut a = vec!["check", sheet.as_str()];
     a.extend(sheet_args);
@@ -197,7 +200,11 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
         "year=2015",
     ]);
     let check = run(&a);
-    compare_sets("check", &with_shared("check"), &paths(&check));
+    let mut printed = paths(&check);
+    printed.extend(paths(&run(&[
+        "check", &grouped, "--coef", "0.8", "--n", "120", "--items", "6",
+    ])));
+    compare_sets("check", &with_shared("check"), &printed);
 
     let items = run(&["items", &demo("candor-items.csv"), "--bootstrap", "30"]);
     compare_sets("items", &doc.sections["items"], &paths(&items));

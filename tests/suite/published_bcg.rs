@@ -118,6 +118,7 @@ fn latitude_meta_regression_of_log_odds_ratios_by_ml() {
         ci: CiMethod::Wald,
         level: relyard::Level::NINETY_FIVE,
         tau2_interval: false,
+        dependence: Default::default(),
     };
     let f = fit_model(&d, &opts).unwrap();
     assert_close(f.beta[0], 0.371, 0.0, PRINTED_3DP, "intercept");

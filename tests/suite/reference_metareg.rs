@@ -33,6 +33,7 @@ fn every_estimator_matches_the_reference_meta_regressions() {
                     ci,
                     level: relyard::Level::new(level).unwrap(),
                     tau2_interval: true,
+                    dependence: Default::default(),
                 };
                 let fit = fit_model(&data, &opts).unwrap();
                 let what = |k: &str| format!("{name} {} {} {k}", est.name(), ci.name());

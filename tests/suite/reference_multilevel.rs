@@ -9,7 +9,7 @@ use crate::common::*;
 use nalgebra::DMatrix;
 use relyard::Level;
 use relyard::pool::multilevel::{
-    Grouping, MultilevelOptions, NestedData, cluster_test, component_intervals, cr2, fit,
+    Grouping, MultilevelOptions, NestedData, cluster_test, component_intervals, cr2, fit, hotelling,
 };
 
 /// Tolerance for values the reference reaches by a library optimizer polished on its score
@@ -187,4 +187,44 @@ fn profile_intervals_and_the_cluster_test_match_the_dense_reference() {
             &format!("{name} p"),
         );
     }
+}
+
+/// The approximate Hotelling T² test of the moderators against the reference's explicit
+/// double sum over clusters (Pustejovsky & Tipton 2018, section 3.2).
+#[test]
+fn the_hotelling_test_matches_the_dense_reference() {
+    let f = fixture("multilevel.json");
+    let mut checked = 0;
+    for c in f["cases"].as_array().unwrap() {
+        let want = &c["htz"];
+        if want.is_null() {
+            continue;
+        }
+        let name = c["name"].as_str().unwrap();
+        let (d, options) = case_data(c);
+        let got = fit(&d, &options).unwrap();
+        let robust = cr2(&d, &got).unwrap();
+        let columns: Vec<usize> = want["columns"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|j| j.as_u64().unwrap() as usize)
+            .collect();
+        let h = hotelling(&d, &got, &robust, &columns).unwrap().unwrap();
+        let close = |a: f64, key: &str| {
+            assert_close(
+                a,
+                want[key].as_f64().unwrap(),
+                1e-6,
+                1e-12,
+                &format!("{name} {key}"),
+            )
+        };
+        close(h.statistic, "statistic");
+        close(h.df_den, "df_den");
+        close(h.df_num, "df_num");
+        close(h.p, "p");
+        checked += 1;
+    }
+    assert!(checked >= 2);
 }

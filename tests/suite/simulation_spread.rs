@@ -64,6 +64,7 @@ fn simulate(sd_error: bool) -> Summary {
         ci: CiMethod::KnappHartung,
         level: relyard::Level::NINETY_FIVE,
         tau2_interval: false,
+        dependence: Default::default(),
     };
     let mut slopes = Vec::new();
     for r in 0..reps {

@@ -1,5 +1,6 @@
 //! `relyard explain --json`: the moderators' model, score spread, subgroups, influence.
 
+use super::pool::DependenceRecord;
 use super::{
     DocumentHead, InputSummary, ModelUsed, ReliabilityRecord, SkippedRecord, Tau2FitRecord,
     TestRecord, skipped, warnings,
@@ -32,6 +33,31 @@ pub struct CoefficientRecord {
     pub statistic: f64,
     /// Permutation p value (null for the intercept or without permutations).
     pub permutation_p: Option<f64>,
+    /// CR2 standard error (only when the rows share samples or clusters).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub robust_se: Option<f64>,
+    /// Its Satterthwaite df.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub robust_df: Option<f64>,
+    /// The CR2 confidence interval.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub robust_ci: Option<[f64; 2]>,
+    /// The CR2 p value.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub robust_p: Option<f64>,
+}
+
+/// The approximate Hotelling test of the moderators.
+#[derive(Debug, Clone, Serialize)]
+pub struct RobustOmnibusRecord {
+    /// F statistic.
+    pub statistic: f64,
+    /// Numerator df q.
+    pub df_num: f64,
+    /// Denominator df η − q + 1.
+    pub df_den: f64,
+    /// p value.
+    pub p: f64,
 }
 
 /// The omnibus test in JSON.
@@ -248,6 +274,16 @@ pub struct ExplainDocument {
     pub influence: Option<Vec<InfluenceRecord>>,
     /// Warnings.
     pub warnings: Vec<WarningRecord>,
+    /// How rows that share a sample or a cluster were modelled (only when they do).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dependence: Option<DependenceRecord>,
+    /// "robust" or "model" (only when the rows share samples or clusters).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub inference: Option<&'static str>,
+    /// The approximate Hotelling test of the moderators (only when the rows share samples
+    /// or clusters and there are moderators; null when it cannot be formed).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub robust_omnibus: Option<Option<RobustOmnibusRecord>>,
 }
 
 /// The permutation run in JSON.
@@ -278,6 +314,10 @@ fn coefficients(
             p: c.p,
             statistic: c.statistic,
             permutation_p: perm.and_then(|p| p[j]),
+            robust_se: None,
+            robust_df: None,
+            robust_ci: None,
+            robust_p: None,
         })
         .collect()
 }
@@ -315,7 +355,7 @@ impl ExplainDocument {
             k: fit.k,
             centring: ex.design.centring.name(),
             moderators: ex.design.moderators.iter().map(moderator_record).collect(),
-            coefficients: coefficients(&ex.design.names, fit, perm),
+            coefficients: with_robust(coefficients(&ex.design.names, fit, perm), ex),
             tau2: fit.tau2.tau2,
             tau2_ci: fit.tau2_ci.map(|c| [c.lower, c.upper]),
             tau2_fit: Tau2FitRecord::from(&fit.tau2),
@@ -340,8 +380,41 @@ impl ExplainDocument {
             subgroups: e.subgroups.as_ref().map(|g| subgroups_record(g, names)),
             influence: e.influence.as_ref().map(|inf| influence_records(p, e, inf)),
             warnings: warnings(&e.warnings, names),
+            dependence: ex
+                .dependent
+                .as_ref()
+                .map(|d| DependenceRecord::from(&d.summary.dependence)),
+            inference: ex.dependent.as_ref().map(|d| d.summary.inference.name()),
+            robust_omnibus: ex
+                .dependent
+                .as_ref()
+                .filter(|_| ex.design.x.ncols() > 1)
+                .map(|d| {
+                    d.robust_omnibus.map(|h| RobustOmnibusRecord {
+                        statistic: h.statistic,
+                        df_num: h.df_num,
+                        df_den: h.df_den,
+                        p: h.p,
+                    })
+                }),
         }
     }
+}
+
+/// The coefficients with their cluster-robust tests, when the model has them.
+fn with_robust(
+    mut records: Vec<CoefficientRecord>,
+    ex: &crate::metareg::Explanation,
+) -> Vec<CoefficientRecord> {
+    if let Some(d) = &ex.dependent {
+        for (r, c) in records.iter_mut().zip(&d.summary.robust) {
+            r.robust_se = Some(c.se);
+            r.robust_df = c.df;
+            r.robust_ci = Some([c.ci.lower, c.ci.upper]);
+            r.robust_p = Some(c.p);
+        }
+    }
+    records
 }
 
 /// A moderator as the model used it: numeric with its centre, or categorical with its

@@ -14,7 +14,7 @@ pub use correct::{CorrectionDocument, CorrelationDocument, RegressionDocument, S
 pub use explain::ExplainDocument;
 pub use items::{CompareDocument, ItemsDocument, PlanDocument};
 pub use place::CheckDocument;
-pub use pool::PoolDocument;
+pub use pool::{DependenceRecord, PoolDocument};
 pub use report::{ReportInput, ResultsDocument};
 
 use crate::Level;

@@ -84,6 +84,16 @@ pub struct CheckDocument {
     pub references: Vec<String>,
     /// Caution.
     pub caution: &'static str,
+    /// How rows that share a sample or a cluster were modelled (only when they do).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub dependence: Option<super::DependenceRecord>,
+    /// "robust" or "model" (only when the rows share samples or clusters).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub inference: Option<&'static str>,
+    /// The known cluster the ranges are for; null for a new sample from a new cluster
+    /// (only when the rows share samples or clusters).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub in_cluster: Option<Option<String>>,
 }
 
 /// Transformed-scale values of a placement.
@@ -170,6 +180,12 @@ impl CheckDocument {
             paragraph: paragraph.text.clone(),
             references: paragraph.citations(),
             caution: INDIVIDUAL_DECISIONS_CAUTION,
+            dependence: pl
+                .dependent
+                .as_ref()
+                .map(|d| super::DependenceRecord::from(&d.summary.dependence)),
+            inference: pl.dependent.as_ref().map(|d| d.summary.inference.name()),
+            in_cluster: pl.dependent.as_ref().map(|_| pl.in_cluster.clone()),
         }
     }
 }

@@ -19,6 +19,7 @@ use crate::output::json::{
 };
 use crate::output::prose::{self, Paragraph, Reference};
 use crate::plot::Figure;
+use crate::pool::dependence::{DependenceMethod, DependenceResult, Inference};
 use crate::pool::{Model, Prediction};
 use crate::setting::SettingNames;
 use blocks::{Block, Inline, Span, html_escape};
@@ -184,6 +185,20 @@ impl ReportPage<'_> {
             format!("level {}", fixed(s.level.value(), 3).trim_end_matches('0')),
             format!("centring {}", s.moderators.centring.name()),
         ];
+        if let Some(d) = a
+            .benchmark
+            .as_ref()
+            .and_then(|b| b.pool.dependence.as_ref())
+        {
+            parts.push(format!("dependence {}", d.method.name()));
+            parts.push(format!(
+                "sampling correlation {}",
+                fixed(d.sampling_correlation, 2)
+            ));
+            if let Some(i) = a.benchmark.as_ref().and_then(|b| b.pool.inference) {
+                parts.push(format!("inference {}", i.name()));
+            }
+        }
         if let Some(crate::analysis::CorrectionSettings::Correlation { draws, .. }) = &s.correction
         {
             parts.push(format!("Monte Carlo draws {draws}, seed {}", s.seed));
@@ -801,10 +816,14 @@ a { color: var(--blue); }
 /// The benchmark's first sentence: the expected range for a new setting.
 fn expected_range_lead(b: &Benchmark) -> String {
     let level = b.pool.options.level.percent();
+    let setting = match prose::dependence::dependence(b).map(|d| d.method) {
+        Some(DependenceMethod::Multilevel) => "In a new sample from a new cluster",
+        _ => "In a new, comparable setting",
+    };
     match (b.coefficient.and_then(|c| c.pi), b.pool.prediction) {
         (Some(pi), Prediction::Available { .. }) => format!(
-            "In a new, comparable setting the true coefficient is expected between {} and {} \
-             ({level} prediction interval).",
+            "{setting} the true coefficient is expected between {} and {} ({level} prediction \
+             interval).",
             fixed(pi.lower, 3),
             fixed(pi.upper, 3)
         ),
@@ -826,6 +845,47 @@ fn pooling_summary(b: &Benchmark) -> String {
             e.abbreviation()
         ),
     };
+    if let Some(d) = prose::dependence::dependence(b) {
+        let how = match d.method {
+            DependenceMethod::Multilevel => format!(
+                "a multilevel random-effects model (variance between and within clusters by \
+                 {}; sampling errors within a sample correlated at an assumed {}); confidence \
+                 intervals {}",
+                match p.options.model {
+                    Model::Random(e) => e.abbreviation(),
+                    Model::Common => "REML",
+                },
+                fixed(d.sampling_correlation, 2),
+                if p.inference == Some(Inference::Model) {
+                    "from the model's standard errors"
+                } else {
+                    "cluster-robust (CR2, Satterthwaite df)"
+                }
+            ),
+            DependenceMethod::Aggregate => format!(
+                "one composite per sample (sampling correlation {} assumed), then {model}; \
+                 confidence intervals by {}",
+                fixed(d.sampling_correlation, 2),
+                prose::interval_words(p.options.ci)
+            ),
+            DependenceMethod::Ignore => format!(
+                "{model}, every row taken as independent (intervals too narrow); confidence \
+                 intervals by {}",
+                prose::interval_words(p.options.ci)
+            ),
+        };
+        return format!(
+            "{} ({}) pooled on the {} scale, {}, with {how}.",
+            prose::dependence::counted_words(b),
+            if b.n_total > 0 {
+                format!("N = {}, each sample counted once", thousands(b.n_total))
+            } else {
+                "sample sizes not given".to_string()
+            },
+            b.transform.label(),
+            b.transform.get().formula(),
+        );
+    }
     format!(
         "{} studies ({}) pooled on the {} scale, {}, with {model}; confidence intervals by {}.",
         p.k,
@@ -882,6 +942,11 @@ fn benchmark_table(b: &Benchmark) -> Block {
 /// How much the studies differ: the sentence of the readable summary, then the share
 /// beyond sampling error and the test of equal values.
 fn differences_blocks(b: &Benchmark) -> Vec<Block> {
+    if let Some(d) = prose::dependence::dependence(b)
+        && d.method == DependenceMethod::Multilevel
+    {
+        return multilevel_blocks(b, d);
+    }
     let mut rows = Vec::new();
     if let Some(share) = prose::share_words(b) {
         rows.push(vec![
@@ -900,6 +965,60 @@ fn differences_blocks(b: &Benchmark) -> Vec<Block> {
     ]
 }
 
+/// How much the studies differ under the multilevel model: the variance at each level, the
+/// shares, the test of no cluster variance, and the results at other sampling correlations.
+fn multilevel_blocks(b: &Benchmark, d: &DependenceResult) -> Vec<Block> {
+    let level = b.pool.options.level.percent();
+    let part = |t, ci| prose::dependence::component_words(t, ci, &level);
+    let mut rows = vec![vec![
+        Inline::text("between clusters"),
+        Inline::text(part(d.tau2_cluster, d.tau2_cluster_ci)),
+    ]];
+    rows.push(vec![
+        Inline::text("within clusters"),
+        Inline::text(if d.within_identified {
+            part(d.tau2_within, d.tau2_within_ci)
+        } else {
+            "not estimable (every cluster holds one row)".into()
+        }),
+    ]);
+    if let (Some(a), Some(w)) = (d.i2_cluster, d.i2_within) {
+        rows.push(vec![
+            Inline::text("shares of variance"),
+            Inline::text(format!(
+                "I² = {}% between, {}% within clusters",
+                fixed(a, 1),
+                fixed(w, 1)
+            )),
+        ]);
+    }
+    if let Some(t) = d.lrt {
+        rows.push(vec![
+            Inline::text("no variance between clusters?"),
+            Inline::text(format!(
+                "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1))",
+                fixed(t.statistic, 2),
+                crate::format::p_value(t.p)
+            )),
+        ]);
+    }
+    rows.push(vec![
+        Inline::text("test of equal values"),
+        Inline::text(prose::equal_values_words(b)),
+    ]);
+    let mut refs = Vec::new();
+    vec![
+        Block::subsection("differences", "How much the studies differ"),
+        Block::Para(Inline::text(
+            prose::dependence::levels_sentence(b, d, &mut refs)
+                .trim()
+                .to_string(),
+        )),
+        Block::table(&["", ""], rows),
+        Block::Para(Inline::text(prose::dependence::sensitivity_sentence(b, d))),
+    ]
+}
+
 /// What the sheet holds: coefficients by type, respondents, and how its columns were read.
 fn coding_rows(b: &Benchmark, p: &Prepared) -> Vec<Vec<Inline>> {
     let mut rows = Vec::new();
@@ -912,12 +1031,22 @@ fn coding_rows(b: &Benchmark, p: &Prepared) -> Vec<Vec<Inline>> {
         Inline::text("coefficients"),
         Inline::text(counts.join(", ")),
     ]);
+    let grouped = prose::dependence::dependence(b).is_some();
+    if grouped {
+        rows.push(vec![
+            Inline::text("rows, samples, clusters"),
+            Inline::text(format!(
+                "{} rows from {} samples in {} clusters",
+                b.k_rows, b.k_samples, b.k_clusters
+            )),
+        ]);
+    }
     rows.push(vec![
         Inline::text("respondents"),
-        Inline::text(if b.n_total > 0 {
-            thousands(b.n_total)
-        } else {
-            "not given".into()
+        Inline::text(match (b.n_total > 0, grouped) {
+            (true, true) => format!("{} (each sample counted once)", thousands(b.n_total)),
+            (true, false) => thousands(b.n_total),
+            (false, _) => "not given".into(),
         }),
     ]);
     let standard: Vec<String> = p

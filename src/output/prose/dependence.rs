@@ -8,6 +8,25 @@ use crate::benchmark::Benchmark;
 use crate::format::{fixed, p_value, range, significant};
 use crate::pool::dependence::{DependenceMethod, DependenceResult, Inference};
 
+/// A variance component with its profile-likelihood interval: "τ² = 0.113; 95% CI 0.0255
+/// to 0.449 (profile likelihood)" (the readable summaries and the page say the same).
+pub fn component_words(
+    tau2: Option<f64>,
+    ci: Option<crate::pool::multilevel::ComponentInterval>,
+    level: &str,
+) -> String {
+    let ci = ci
+        .map(|c| {
+            format!(
+                "; {level} CI {} (profile likelihood)",
+                range(c.lower, c.upper, |x| significant(x, 3))
+            )
+        })
+        .unwrap_or_default();
+    tau2.map(|t| format!("τ² = {}{ci}", significant(t, 3)))
+        .unwrap_or_else(|| "–".into())
+}
+
 /// The dependence result of a benchmark whose sheet groups its rows.
 pub fn dependence(b: &Benchmark) -> Option<&DependenceResult> {
     b.pool.dependence.as_ref()

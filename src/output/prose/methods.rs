@@ -4,7 +4,9 @@
 use super::Reference;
 use crate::analysis::{Analysis, Correction, Explained};
 use crate::benchmark::Benchmark;
+use crate::format::fixed;
 use crate::metareg::Centring;
+use crate::pool::dependence::{DependenceMethod, DependenceResult, Inference};
 use crate::pool::{CiMethod, Model, Prediction};
 
 /// One paragraph of the methods: a short title and its text.
@@ -36,30 +38,54 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
     };
     let level = a.settings.level.percent();
     let mut refs = vec![Reference::HigginsThompson2002, Reference::SterneEgger2001];
-    let mut m = vec![
-        item(
-            "Transformation",
-            format!(
-                "Each coefficient was analysed on the {} scale, T = {}, with its sampling \
-                 variance vᵢ; results were transformed back to the coefficient's own scale for \
-                 reporting.",
-                b.transform.label(),
-                b.transform.get().formula()
-            ),
+    let mut m = vec![item(
+        "Transformation",
+        format!(
+            "Each coefficient was analysed on the {} scale, T = {}, with its sampling variance \
+             vᵢ; results were transformed back to the coefficient's own scale for reporting.",
+            b.transform.label(),
+            b.transform.get().formula()
         ),
-        model_item(b, &level, &mut refs),
-        heterogeneity_item(&mut refs),
-        range_item(b, &level, &mut refs),
-        item(
-            "Small-study patterns",
-            "The precision plot shows each study's transformed value against its standard \
-             error with lines at ±1.96 SE around the pooled value (Sterne & Egger, 2001); it \
-             is a visual check, not a test."
-                .into(),
-        ),
-    ];
+    )];
+    match b.pool.dependence.as_ref() {
+        Some(d) if d.method == DependenceMethod::Multilevel => {
+            m.extend(multilevel_items(b, d, &level, &mut refs));
+        }
+        other => {
+            if let Some(d) = other {
+                m.push(dependence_item(d, &mut refs));
+            }
+            m.push(model_item(b, &level, &mut refs));
+            m.push(heterogeneity_item(&mut refs));
+            m.push(range_item(b, &level, &mut refs));
+        }
+    }
+    m.push(item(
+        "Small-study patterns",
+        "The precision plot shows each study's transformed value against its standard error \
+         with lines at ±1.96 SE around the pooled value (Sterne & Egger, 2001); it is a visual \
+         check, not a test."
+            .into(),
+    ));
     if let Some(e) = &a.explanation {
         m.push(moderators_item(a, e, &mut refs));
+    }
+    if a.explanation
+        .as_ref()
+        .is_some_and(|e| e.main.dependent.is_some())
+    {
+        refs.push(Reference::TiptonPustejovsky2015);
+        m.push(item(
+            "Moderators of dependent coefficients",
+            "The moderators' model is the multilevel model above with the moderators as \
+             fixed effects; each coefficient's test and interval are cluster-robust (CR2 with \
+             Satterthwaite degrees of freedom) unless model-based inference was chosen, and \
+             all moderators are tested together by the approximate Hotelling T² test \
+             (Tipton & Pustejovsky, 2015): Q = (Cβ̂)ᵀ(CV^CR2Cᵀ)⁻¹(Cβ̂) referred as \
+             ((η − q + 1)/(ηq))·Q to F(q, η − q + 1); R² compares the two variances' sum \
+             with that of the model without moderators."
+                .into(),
+        ));
     }
     if a.placement.is_some() {
         m.push(item(
@@ -74,6 +100,105 @@ pub fn methods(a: &Analysis) -> (Vec<MethodsItem>, Vec<Reference>) {
         m.push(correction_item(c, &mut refs));
     }
     (m, refs)
+}
+
+/// The multilevel model, its variance components, their intervals and test, the robust
+/// inference and the expected range for a new sample from a new cluster.
+fn multilevel_items(
+    b: &Benchmark,
+    d: &DependenceResult,
+    level: &str,
+    refs: &mut Vec<Reference>,
+) -> Vec<MethodsItem> {
+    refs.push(Reference::PustejovskyTipton2022);
+    refs.push(Reference::Cheung2014);
+    refs.push(Reference::SelfLiang1987);
+    let est = match b.pool.options.model {
+        Model::Random(e) => format!("{} ({})", e.label(), e.abbreviation()),
+        Model::Common => "restricted maximum likelihood (REML)".into(),
+    };
+    let r = fixed(d.sampling_correlation, 2);
+    let model = format!(
+        "Rows that share a sample (the same respondents) or a cluster (a paper, lab or data \
+         set) were modelled as dependent: Tᵢⱼ = μ + uⱼ + wᵢⱼ + eᵢⱼ for row i of cluster j, with \
+         uⱼ ~ N(0, τ²_cluster), wᵢⱼ ~ N(0, τ²_within) and sampling errors eᵢⱼ ~ N(0, vᵢⱼ) \
+         correlated at an assumed r = {r} between rows of one sample and independent \
+         otherwise (the correlated-and-hierarchical-effects working model; Pustejovsky & \
+         Tipton, 2022); both variances by {est}, fitted cluster by cluster; μ̂ the \
+         generalized least-squares mean with weights V⁻¹. The sampling correlation is an \
+         assumption (common practice, no source): the results at r = 0, 0.3, 0.6 and 0.9 \
+         are shown beside."
+    );
+    let inference = match b.pool.inference {
+        Some(Inference::Model) => format!(
+            "The pooled value's {level} confidence interval uses the model-based standard error √((XᵀV⁻¹X)⁻¹) \
+             with {}.",
+            if b.pool.test.df.is_some() {
+                "t quantiles on clusters − 1 degrees of freedom"
+            } else {
+                "normal quantiles"
+            }
+        ),
+        _ => {
+            refs.push(Reference::Tipton2015);
+            format!(
+                "The pooled value's {level} confidence interval uses the cluster-robust CR2 standard error with \
+                 Satterthwaite degrees of freedom under the working model (Tipton, 2015), so \
+                 that it holds even when the working model's assumptions are not exact."
+            )
+        }
+    };
+    let heterogeneity = "Q = rᵀS⁻¹r, r the residuals from the fit with both variances 0 and S \
+        the rows' sampling covariance, on k − 1 degrees of freedom; the shares of the total \
+        variance at each level I²_cluster = 100·τ̂²_cluster/(τ̂²_cluster + τ̂²_within + s²) and \
+        likewise within clusters (Cheung, 2014), s² the typical within-study variance; \
+        profile-likelihood intervals for both variances (the other maximized out); and the \
+        likelihood-ratio test of τ²_cluster = 0, whose null value lies on the boundary, so \
+        that its statistic is referred to a 50:50 mixture of χ²(0) and χ²(1) (Self & Liang, \
+        1987)."
+        .to_string();
+    let range = match b.pool.prediction {
+        Prediction::Available { df, .. } => {
+            refs.push(Reference::HigginsThompsonSpiegelhalter2009);
+            format!(
+                "The {level} prediction interval for the true coefficient in a new sample from \
+                 a new cluster, μ̂ ± t·√(τ̂²_cluster + τ̂²_within + SE²), t on m − 2 = {df} \
+                 degrees of freedom for m clusters (Higgins, Thompson & Spiegelhalter, 2009, \
+                 with clusters as the independent units), transformed back."
+            )
+        }
+        _ => "None is stated: fewer than three clusters leave no room for a prediction \
+              interval (see the warnings)."
+            .to_string(),
+    };
+    vec![
+        item("Model", format!("{model} {inference}")),
+        item("Heterogeneity", heterogeneity),
+        item("Expected range", range),
+    ]
+}
+
+/// How the rows of one sample were combined, or that they were taken as independent.
+fn dependence_item(d: &DependenceResult, refs: &mut Vec<Reference>) -> MethodsItem {
+    let text = match d.method {
+        DependenceMethod::Aggregate => {
+            refs.push(Reference::Borenstein2009);
+            format!(
+                "The rows of each sample were averaged on the analysis scale into one \
+                 composite with the variance of a mean of correlated estimates, \
+                 (Σvᵢ + Σᵢ≠ⱼ r√(vᵢvⱼ))/m², r = {} assumed (Borenstein, Hedges, Higgins & \
+                 Rothstein, 2009, ch. 24); the {} composites were pooled as independent.",
+                fixed(d.sampling_correlation, 2),
+                d.k_samples
+            )
+        }
+        _ => format!(
+            "The {} rows come from {} samples in {} clusters, but were pooled as if \
+             independent: the intervals below are too narrow.",
+            d.k_rows, d.k_samples, d.k_clusters
+        ),
+    };
+    item("Dependent rows", text)
 }
 
 /// The pooling model, its weights and its confidence interval.

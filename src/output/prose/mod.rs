@@ -84,6 +84,10 @@ pub enum Reference {
     Cheung2014,
     /// Borenstein, Hedges, Higgins & Rothstein (2009), composites of dependent estimates.
     Borenstein2009,
+    /// Self & Liang (1987), likelihood-ratio tests on the boundary.
+    SelfLiang1987,
+    /// Tipton & Pustejovsky (2015), the approximate Hotelling test.
+    TiptonPustejovsky2015,
 }
 
 impl Reference {
@@ -194,6 +198,17 @@ impl Reference {
                 three-level meta-analyses: A structural equation modeling approach. \
                 Psychological Methods, 19(2), 211–229."
             }
+            SelfLiang1987 => {
+                "Self, S. G., & Liang, K.-Y. (1987). Asymptotic properties of maximum \
+                likelihood estimators and likelihood ratio tests under nonstandard conditions. \
+                Journal of the American Statistical Association, 82(398), 605–610."
+            }
+            TiptonPustejovsky2015 => {
+                "Tipton, E., & Pustejovsky, J. E. (2015). Small-sample \
+                adjustments for tests of moderators and model fit using robust variance \
+                estimation in meta-regression. Journal of Educational and Behavioral \
+                Statistics, 40(6), 604–634."
+            }
             Borenstein2009 => {
                 "Borenstein, M., Hedges, L. V., Higgins, J. P. T., & Rothstein, \
                 H. R. (2009). Introduction to meta-analysis. Chichester, UK: Wiley."
@@ -219,6 +234,8 @@ mod tests {
             Tipton2015,
             Cheung2014,
             Borenstein2009,
+            SelfLiang1987,
+            TiptonPustejovsky2015,
             HigginsThompsonSpiegelhalter2009,
         ] {
             let c = r.citation();

@@ -128,13 +128,19 @@ pub fn placement_paragraph(pl: &Placement, measure: Option<&str>) -> Paragraph {
     let r = |i: BackInterval| range(i.lower, i.upper, c2);
     let between = |i: BackInterval| format!("{} and {}", c2(i.lower), c2(i.upper));
     let mut refs = vec![Reference::HigginsThompsonSpiegelhalter2009];
+    let source = match &pl.dependent {
+        Some(d) => format!(
+            "k = {} coefficients from {} samples in {} clusters",
+            d.summary.fit.k, d.summary.fit.samples, d.summary.fit.clusters
+        ),
+        None => format!("k = {} prior administrations", pl.fit.k),
+    };
     let mut s = format!(
-        "We compared the {} of {} observed in our sample (n = {}) with a benchmark from k = {} \
-         prior administrations{}. ",
+        "We compared the {} of {} observed in our sample (n = {}) with a benchmark from {}{}. ",
         pl.study.coef_type.words(),
         measure,
         thousands(pl.study.n),
-        pl.fit.k,
+        source,
         if pl.at.is_empty() {
             String::new()
         } else {
@@ -155,23 +161,47 @@ pub fn placement_paragraph(pl: &Placement, measure: Option<&str>) -> Paragraph {
         _ => ("", None),
     };
     refs.extend(scale_ref);
-    let model = match (pl.fit.options.model, pl.at.is_empty()) {
-        (Model::Common, true) => "common-effect model",
-        (Model::Common, false) => "common-effect meta-regression",
-        (Model::Random(_), true) => "random-effects model",
-        (Model::Random(_), false) => "mixed-effects meta-regression",
+    let model = match (pl.fit.options.model, pl.at.is_empty(), &pl.dependent) {
+        (_, true, Some(_)) => "multilevel random-effects model",
+        (_, false, Some(_)) => "multilevel mixed-effects meta-regression",
+        (Model::Common, true, None) => "common-effect model",
+        (Model::Common, false, None) => "common-effect meta-regression",
+        (Model::Random(_), true, None) => "random-effects model",
+        (Model::Random(_), false, None) => "mixed-effects meta-regression",
     };
-    let intervals = if pl.fit.options.ci == CiMethod::Wald {
-        ""
-    } else {
-        refs.push(Reference::KnappHartung2003);
-        " and Knapp–Hartung intervals (Knapp & Hartung, 2003)"
+    let intervals = match &pl.dependent {
+        Some(d) => {
+            refs.push(Reference::PustejovskyTipton2022);
+            let robust = if d.summary.inference == crate::pool::dependence::Inference::Robust
+                && pl.in_cluster.is_none()
+            {
+                refs.push(Reference::Tipton2015);
+                "; cluster-robust intervals, Tipton, 2015"
+            } else {
+                ""
+            };
+            format!(
+                " (variance between and within clusters, sampling errors within a sample \
+                 correlated at an assumed r = {}; Pustejovsky & Tipton, 2022{robust})",
+                fixed(d.summary.dependence.sampling_correlation, 2)
+            )
+        }
+        None if pl.fit.options.ci == CiMethod::Wald => String::new(),
+        None => {
+            refs.push(Reference::KnappHartung2003);
+            " and Knapp–Hartung intervals (Knapp & Hartung, 2003)".to_string()
+        }
+    };
+    let setting = match (&pl.in_cluster, &pl.dependent) {
+        (Some(c), _) => format!("a new sample of the benchmark's cluster \"{c}\""),
+        (None, Some(_)) => "a new sample from a new cluster".to_string(),
+        (None, None) => "a new, comparable setting".to_string(),
     };
     s.push_str(&format!(
         "Pooled on the {} scale{scale} with a {model}{intervals}, the expected coefficient was \
-         {} ({level} CI {}); the true coefficient in a new, comparable setting is expected \
-         between {}, and a coefficient observed in a sample of n = {} between {} (Higgins, \
-         Thompson, & Spiegelhalter, 2009). ",
+         {} ({level} CI {}); the true coefficient in {setting} is expected between {}, and \
+         a coefficient observed in a sample of n = {} between {} (Higgins, Thompson, & \
+         Spiegelhalter, 2009). ",
         pl.transform.label(),
         c2(pl.expected),
         r(pl.ci),

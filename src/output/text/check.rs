@@ -48,15 +48,42 @@ pub fn check_summary(
         "analysis scale",
         &format!("{}: {}", pl.transform.label(), pl.transform.get().formula()),
     );
-    line(
-        &mut o,
-        "benchmark studies",
-        &format!(
-            "{} in the model, τ² = {}",
-            pl.fit.k,
-            significant(pl.fit.tau2.tau2, 3)
+    match &pl.dependent {
+        Some(d) => {
+            let s = &d.summary;
+            line(
+                &mut o,
+                "benchmark rows",
+                &format!(
+                    "{} rows from {} samples in {} clusters; τ² = {} between and {} within \
+                     clusters (multilevel, sampling correlation {} assumed)",
+                    s.fit.k,
+                    s.fit.samples,
+                    s.fit.clusters,
+                    significant(s.fit.tau2_cluster, 3),
+                    significant(s.fit.tau2_within, 3),
+                    fixed(s.dependence.sampling_correlation, 2)
+                ),
+            );
+            let whose = match &pl.in_cluster {
+                Some(c) => format!(
+                    "a new sample of the sheet's cluster \"{c}\" (its predicted value; \
+                     model-based prediction error)"
+                ),
+                None => "a new sample from a new cluster".to_string(),
+            };
+            line(&mut o, "ranges for", &whose);
+        }
+        None => line(
+            &mut o,
+            "benchmark studies",
+            &format!(
+                "{} in the model, τ² = {}",
+                pl.fit.k,
+                significant(pl.fit.tau2.tau2, 3)
+            ),
         ),
-    );
+    }
     paper(&mut o, "For your paper (adapt as needed)", paragraph);
     read_with_care(&mut o, &pl.warnings, names);
     o

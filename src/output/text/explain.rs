@@ -5,10 +5,12 @@ use super::{excluded_rows, heading, line, para, read_with_care, sheet_line, skip
 use crate::analysis::Explained;
 use crate::benchmark::Prepared;
 use crate::format::{fixed, p_cell, p_value, range, significant, wrap};
+use crate::metareg::dependent::DependentExplanation;
 use crate::metareg::influence::StudyInfluence;
 use crate::metareg::spread::ScoreSpread;
 use crate::metareg::subgroups::Subgroups;
 use crate::metareg::{Centring, Explanation, Moderator, OmnibusTest};
+use crate::pool::dependence::Inference;
 use crate::pool::{CiMethod, Model, ModelFit};
 use crate::setting::SettingNames;
 use crate::transform::TransformKind;
@@ -36,7 +38,11 @@ pub(crate) fn omnibus_words(t: &OmnibusTest) -> String {
         Some(d2) => format!(
             "F({}, {}) = {}, p {}",
             t.df,
-            d2,
+            if d2.fract() == 0.0 {
+                d2.to_string()
+            } else {
+                fixed(d2, 1)
+            },
             fixed(t.statistic, 2),
             p_value(t.p)
         ),
@@ -125,6 +131,9 @@ pub fn explain_summary(p: &Prepared, e: &Explained, names: &dyn SettingNames) ->
         "spread of true values",
         &format!("τ² = {}{tau_ci}", significant(fit.tau2.tau2, 3)),
     );
+    if let Some(d) = &ex.dependent {
+        dependent_lines(&mut o, d, &level);
+    }
     line(
         &mut o,
         "between-setting share",
@@ -135,7 +144,7 @@ pub fn explain_summary(p: &Prepared, e: &Explained, names: &dyn SettingNames) ->
         if ex.design.moderators.is_empty() {
             "test of equal values"
         } else {
-            "test of no remaining differences"
+            "remaining differences"
         },
         &format!(
             "Q = {} on {} df, p {}",
@@ -170,14 +179,81 @@ pub fn explain_summary(p: &Prepared, e: &Explained, names: &dyn SettingNames) ->
         "analysis scale",
         &format!("{}: {}", p.transform.label(), p.transform.get().formula()),
     );
-    line(
-        &mut o,
-        "model",
-        &model_words(fit, !ex.design.moderators.is_empty()),
-    );
+    match &ex.dependent {
+        Some(d) => {
+            let s = &d.summary;
+            line(
+                &mut o,
+                "rows, samples, clusters",
+                &format!(
+                    "{} rows from {} samples in {} clusters",
+                    s.fit.k, s.fit.samples, s.fit.clusters
+                ),
+            );
+            line(&mut o, "model", &dependent_words(fit, d));
+        }
+        None => line(
+            &mut o,
+            "model",
+            &model_words(fit, !ex.design.moderators.is_empty()),
+        ),
+    }
     skipped_rows(&mut o, &p.skipped, names);
     read_with_care(&mut o, &e.warnings, names);
     o
+}
+
+/// The variance left between and within clusters (a multilevel model).
+fn dependent_lines(o: &mut String, d: &DependentExplanation, level: &str) {
+    let r = &d.summary.dependence;
+    let part = |t, ci| crate::output::prose::dependence::component_words(t, ci, level);
+    line(
+        o,
+        "  between clusters",
+        &part(r.tau2_cluster, r.tau2_cluster_ci),
+    );
+    if r.within_identified {
+        line(
+            o,
+            "  within clusters",
+            &part(r.tau2_within, r.tau2_within_ci),
+        );
+    }
+    if let Some(t) = r.lrt {
+        line(
+            o,
+            "  cluster variance = 0?",
+            &format!(
+                "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1))",
+                fixed(t.statistic, 2),
+                p_value(t.p)
+            ),
+        );
+    }
+}
+
+/// The multilevel model and its tests in words.
+fn dependent_words(fit: &ModelFit, d: &DependentExplanation) -> String {
+    let s = &d.summary;
+    let est = match fit.options.model {
+        Model::Random(e) => e.abbreviation(),
+        Model::Common => "REML",
+    };
+    let tests = match s.inference {
+        Inference::Robust => "cluster-robust (CR2) tests with Satterthwaite df; all terms \
+                              together the approximate Hotelling test"
+            .to_string(),
+        Inference::Model => match fit.df {
+            Some(df) => format!("model-based tests (t with {df} df, clusters − coefficients)"),
+            None => "model-based Wald tests (z; all terms together χ²)".to_string(),
+        },
+    };
+    format!(
+        "multilevel mixed effects (variance between and within clusters) by {est}; sampling \
+         errors within a sample correlated at {} (assumed); {tests}; level {}",
+        fixed(s.dependence.sampling_correlation, 2),
+        fit.options.level.percent()
+    )
 }
 
 /// The model and its tests in words (a meta-regression, or the plain random-effects model

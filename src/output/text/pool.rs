@@ -4,7 +4,7 @@ use super::{heading, line, paper, para, read_with_care, sheet_line, skipped_rows
 use crate::benchmark::Benchmark;
 use crate::format::{fixed, range, significant, thousands};
 use crate::output::prose::Paragraph;
-use crate::output::prose::dependence::{counted_words, dependence};
+use crate::output::prose::dependence::{component_words, counted_words, dependence};
 use crate::pool::dependence::{DependenceMethod, DependenceResult, Inference};
 use crate::pool::{CiMethod, Model, PoolResult, Prediction, Termination};
 use crate::setting::SettingNames;
@@ -162,18 +162,7 @@ fn differences(o: &mut String, b: &Benchmark) {
 /// The variance between and within clusters, their shares and tests.
 fn levels(o: &mut String, b: &Benchmark, d: &DependenceResult) {
     let level = b.pool.options.level.percent();
-    let component = |t: Option<f64>, ci: Option<crate::pool::multilevel::ComponentInterval>| {
-        let ci = ci
-            .map(|c| {
-                format!(
-                    "; {level} CI {} (profile likelihood)",
-                    range(c.lower, c.upper, |x| significant(x, 3))
-                )
-            })
-            .unwrap_or_default();
-        t.map(|t| format!("τ² = {}{ci}", significant(t, 3)))
-            .unwrap_or_default()
-    };
+    let component = |t, ci| component_words(t, ci, &level);
     para(
         o,
         "True coefficients differ between clusters (papers, labs, data sets) and, within a \

@@ -19,7 +19,7 @@ mod robust;
 
 pub use data::{Grouping, NestedData};
 pub use profile::{ComponentInterval, LikelihoodRatio, cluster_test, component_intervals};
-pub use robust::{RobustCovariance, cr2};
+pub use robust::{HotellingTest, RobustCovariance, cr2, hotelling};
 
 use super::tau2::{TAU2_FLOOR, TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Termination};
 use crate::error::{Error, Result};
@@ -113,6 +113,16 @@ pub fn fit(d: &NestedData, options: &MultilevelOptions) -> Result<MultilevelFit>
     let start = starting_values(&scaled);
     let m = maximize(&scaled, options, start, fixed)?;
     let theta = [m.theta[0] * s, m.theta[1] * s];
+    assemble(d, options, theta, (m.iterations, m.termination))
+}
+
+/// The fit at θ = (τ²_cluster, τ²_within): coefficients, covariance, Q and weights.
+fn assemble(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    theta: [f64; 2],
+    (iterations, termination): (usize, Termination),
+) -> Result<MultilevelFit> {
     let r = options.sampling_correlation;
     let e = evaluate(d, r, theta, options.restricted, false)?;
     let q = evaluate(d, r, [0.0, 0.0], options.restricted, false)?.quad;
@@ -124,15 +134,63 @@ pub fn fit(d: &NestedData, options: &MultilevelOptions) -> Result<MultilevelFit>
         options: *options,
         tau2_cluster: theta[0],
         tau2_within: theta[1],
-        within_identified,
+        within_identified: d.largest_cluster() > 1,
         weights_percent: weights_percent(d, r, theta)?,
         beta: e.beta,
         cov: e.cov,
         log_lik: e.log_lik,
         q,
-        iterations: m.iterations,
-        termination: m.termination,
+        iterations,
+        termination,
     })
+}
+
+/// The model with its variance components held at given values (no estimation): the
+/// generalized least-squares fit at those values.
+pub fn fit_with_components(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    tau2_cluster: f64,
+    tau2_within: f64,
+) -> Result<MultilevelFit> {
+    check(d, options)?;
+    let theta = [tau2_cluster.max(0.0), tau2_within.max(0.0)];
+    assemble(d, options, theta, (0, Termination::ClosedForm))
+}
+
+/// The prediction of x₀β + u_j for a known cluster j (its index in the grouping): the
+/// centre x₀β̂ + û_j with û_j = τ²_c·1ᵀV_j⁻¹(y_j − X_jβ̂) (the best linear unbiased predictor)
+/// and its prediction-error variance
+/// x₀ᵀMx₀ + τ²_c − τ²_c²·1ᵀV_j⁻¹1 + τ²_c²·bᵀMb − 2τ²_c·x₀ᵀMb, b = X_jᵀV_j⁻¹1, M = (XᵀV⁻¹X)⁻¹
+/// (model-based). A new sample of the cluster adds τ²_within.
+///
+/// # References
+/// Henderson, C. R. (1975). Best linear unbiased estimation and prediction under a
+/// selection model. *Biometrics*, 31(2), 423–447.
+pub fn in_cluster(
+    d: &NestedData,
+    fit: &MultilevelFit,
+    cluster: usize,
+    x0: &[f64],
+) -> Result<(f64, f64)> {
+    let b = d
+        .blocks
+        .get(cluster)
+        .ok_or_else(|| Error::cannot("no such cluster in the model"))?;
+    let r = fit.options.sampling_correlation;
+    let tc = fit.tau2_cluster;
+    let (w, _) = data::inverse_and_log_det(d.marginal_cov(b, r, [tc, fit.tau2_within]))?;
+    let x = d.x_of(b);
+    let resid = d.y_of(b) - &x * &fit.beta;
+    let u = w.column_sum();
+    let x0 = DVector::from_column_slice(x0);
+    let m = &fit.cov;
+    let bvec = x.transpose() * &u;
+    let centre = x0.dot(&fit.beta) + tc * u.dot(&resid);
+    let pev = (x0.transpose() * m * &x0)[(0, 0)] + tc - tc * tc * u.sum()
+        + tc * tc * (bvec.transpose() * m * &bvec)[(0, 0)]
+        - 2.0 * tc * (x0.transpose() * m * &bvec)[(0, 0)];
+    Ok((centre, pev.max(0.0)))
 }
 
 fn check(d: &NestedData, options: &MultilevelOptions) -> Result<()> {
@@ -279,4 +337,51 @@ fn weights_percent(d: &NestedData, r: f64, theta: [f64; 2]) -> Result<Vec<f64>> 
         out[row] = 100.0 * permuted[i] / total;
     }
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::pool::{MetaData, Tau2Estimator};
+
+    /// One row per cluster: the multilevel fit is the two-level random-effects model —
+    /// τ²_cluster is the usual REML (and ML) τ², τ²_within is held at 0, and the pooled
+    /// value and its model-based variance 1/Σw agree.
+    #[test]
+    fn one_row_per_cluster_is_the_two_level_model() {
+        let y = [
+            -1.71, -1.51, -2.12, -1.35, -1.66, -1.17, -1.90, -2.30, -1.47,
+        ];
+        let v = [
+            0.0087, 0.0122, 0.0056, 0.0194, 0.0077, 0.0246, 0.0044, 0.0036, 0.0154,
+        ];
+        let k = y.len();
+        let x = DMatrix::from_element(k, 1, 1.0);
+        let d = NestedData::new(&y, &v, &x, &Grouping::independent(k)).unwrap();
+        for (restricted, est) in [(true, Tau2Estimator::Reml), (false, Tau2Estimator::Ml)] {
+            let f = fit(
+                &d,
+                &MultilevelOptions {
+                    restricted,
+                    sampling_correlation: 0.6,
+                },
+            )
+            .unwrap();
+            let two = est
+                .estimate(&MetaData::intercept_only(y.to_vec(), v.to_vec()).unwrap())
+                .unwrap();
+            assert!(!f.within_identified && f.tau2_within == 0.0);
+            assert!(
+                (f.tau2_cluster - two.tau2).abs() < 1e-9 * two.tau2,
+                "{restricted}: {} vs {}",
+                f.tau2_cluster,
+                two.tau2
+            );
+            let w: Vec<f64> = v.iter().map(|vi| 1.0 / (vi + two.tau2)).collect();
+            let sw: f64 = w.iter().sum();
+            let mean = w.iter().zip(&y).map(|(w, y)| w * y).sum::<f64>() / sw;
+            assert!((f.beta[0] - mean).abs() < 1e-9);
+            assert!((f.cov[(0, 0)] - 1.0 / sw).abs() < 1e-9 / sw);
+        }
+    }
 }

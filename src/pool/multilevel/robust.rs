@@ -78,6 +78,98 @@ pub fn cr2(d: &NestedData, fit: &MultilevelFit) -> Result<RobustCovariance> {
     Ok(RobustCovariance { cov: meat, df })
 }
 
+/// The approximate Hotelling T² test of several coefficients at once.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HotellingTest {
+    /// F = ((η − q + 1)/(η q))·Q, Q the cluster-robust Wald statistic.
+    pub statistic: f64,
+    /// Numerator degrees of freedom q (the coefficients tested).
+    pub df_num: f64,
+    /// Denominator degrees of freedom η − q + 1.
+    pub df_den: f64,
+    /// P(F(q, η − q + 1) > statistic).
+    pub p: f64,
+}
+
+/// The approximate Hotelling T² (HTZ) test that the coefficients in `columns` are all 0:
+/// Q = (Cβ̂)ᵀ(C V^CR2 Cᵀ)⁻¹(Cβ̂), referred as ((η − q + 1)/(η q))·Q to F(q, η − q + 1), with
+/// η = q(q + 1) / Σₛₜ Σᵢⱼ (pₛᵢᵀΦpₜⱼ·pₜᵢᵀΦpₛⱼ + pₛᵢᵀΦpₛⱼ·pₜᵢᵀΦpₜⱼ) under the working model,
+/// pₛᵢ = (I − H)ᵢᵀAᵢWᵢXᵢMCᵀgₛ and gₛ the columns of (CMCᵀ)^{-1/2}. With
+/// pₛᵢᵀΦpₜⱼ = δᵢⱼ(Dᵢ)ₛₜ − bₛᵢᵀMbₜⱼ (Dᵢ = GᵢᵀΦᵢGᵢ, bₛᵢ = Xᵢᵀgₛᵢ) the double sum over clusters
+/// becomes one sum and traces of Gₜₛ = Σᵢ bₜᵢbₛᵢᵀ. `None` when η − q + 1 ≤ 0 or the robust
+/// covariance of the tested coefficients is singular.
+///
+/// # References
+/// Tipton, E., & Pustejovsky, J. E. (2015). Small-sample adjustments for tests of
+/// moderators and model fit using robust variance estimation in meta-regression.
+/// *Journal of Educational and Behavioral Statistics*, 40(6), 604–634.
+/// Pustejovsky, J. E., & Tipton, E. (2018), section 3.2 (as [`cr2`]).
+pub fn hotelling(
+    d: &NestedData,
+    fit: &MultilevelFit,
+    robust: &RobustCovariance,
+    columns: &[usize],
+) -> Result<Option<HotellingTest>> {
+    let q = columns.len();
+    if q == 0 {
+        return Ok(None);
+    }
+    let p = d.p();
+    let m = &fit.cov;
+    let c = DMatrix::from_fn(q, p, |s, j| if columns[s] == j { 1.0 } else { 0.0 });
+    let cmc = &c * m * c.transpose();
+    // L = Cᵀ(CMCᵀ)^{-1/2}: its columns are Cᵀgₛ.
+    let l = c.transpose() * matrix_power(&cmc, -0.5);
+    let r = fit.options.sampling_correlation;
+    let theta = [fit.tau2_cluster, fit.tau2_within];
+    let mut single = 0.0;
+    let mut g_ts: Vec<DMatrix<f64>> = vec![DMatrix::zeros(p, p); q * q];
+    for b in &d.blocks {
+        let vj = d.marginal_cov(b, r, theta);
+        let (wj, _) = inverse_and_log_det(vj.clone())?;
+        let x = d.x_of(b);
+        let aj = adjustment(&vj, &x, m);
+        let gi = &aj * &wj * &x * m * &l; // kⱼ × q: columns gₛᵢ
+        let di = gi.transpose() * &vj * &gi;
+        let bi = x.transpose() * &gi; // p × q: columns bₛᵢ
+        let ei = bi.transpose() * m * &bi;
+        single += (&di * &di).trace() + di.trace().powi(2)
+            - 2.0 * (&di * &ei).trace()
+            - 2.0 * di.trace() * ei.trace();
+        for s in 0..q {
+            for t in 0..q {
+                g_ts[t * q + s] += bi.column(t) * bi.column(s).transpose();
+            }
+        }
+    }
+    let mut pairs = 0.0;
+    for s in 0..q {
+        for t in 0..q {
+            let gts = &g_ts[t * q + s];
+            let gst = &g_ts[s * q + t];
+            pairs += (gts * m * gts * m).trace() + (gts * m * gst * m).trace();
+        }
+    }
+    let eta = (q * (q + 1)) as f64 / (single + pairs);
+    let df_den = eta - q as f64 + 1.0;
+    let beta = c * &fit.beta;
+    let vr = DMatrix::from_fn(q, q, |a, bb| robust.cov[(columns[a], columns[bb])]);
+    let Some(ch) = vr.cholesky() else {
+        return Ok(None);
+    };
+    if df_den.is_nan() || df_den <= 0.0 {
+        return Ok(None);
+    }
+    let wald = beta.dot(&ch.solve(&beta));
+    let statistic = df_den / (eta * q as f64) * wald;
+    Ok(Some(HotellingTest {
+        statistic,
+        df_num: q as f64,
+        df_den,
+        p: crate::dist::f_sf(statistic, q as f64, df_den),
+    }))
+}
+
 /// Aⱼ = V̂ⱼ^{1/2} (V̂ⱼ^{1/2}(V̂ⱼ − XⱼMXⱼᵀ)V̂ⱼ^{1/2})^{-1/2} V̂ⱼ^{1/2} (the symmetric square root
 /// as Dⱼ: any factor with DⱼᵀDⱼ = V̂ⱼ gives the same Aⱼ).
 fn adjustment(v: &DMatrix<f64>, x: &DMatrix<f64>, m: &DMatrix<f64>) -> DMatrix<f64> {
@@ -106,6 +198,45 @@ fn matrix_power(a: &DMatrix<f64>, e: f64) -> DMatrix<f64> {
 mod tests {
     use super::super::{Grouping, MultilevelOptions, NestedData, fit};
     use super::*;
+
+    /// With one coefficient tested, the Hotelling test is the square of the CR2 t test with
+    /// its Satterthwaite df (η reduces to ν; Pustejovsky & Tipton 2018, section 3.2): F =
+    /// t², df (1, ν).
+    #[test]
+    fn hotelling_with_one_coefficient_is_the_squared_t_test() {
+        let y = [0.3, -0.1, 0.45, 0.2, 0.9, -0.35, 0.05, 0.6, 0.1, 0.25];
+        let v = [0.04, 0.02, 0.05, 0.03, 0.04, 0.06, 0.02, 0.03, 0.05, 0.04];
+        let mods = [1.0, 2.0, 0.5, 3.0, 2.5, 1.5, 0.0, 4.0, 2.0, 1.0];
+        let x = DMatrix::from_fn(10, 2, |i, j| if j == 0 { 1.0 } else { mods[i] });
+        let g = Grouping {
+            cluster: vec![0, 0, 1, 1, 2, 3, 3, 4, 5, 5],
+            sample: vec![0, 0, 1, 2, 3, 4, 4, 5, 6, 7],
+        };
+        let d = NestedData::new(&y, &v, &x, &g).unwrap();
+        let f = fit(
+            &d,
+            &MultilevelOptions {
+                restricted: true,
+                sampling_correlation: 0.6,
+            },
+        )
+        .unwrap();
+        let r = cr2(&d, &f).unwrap();
+        let h = hotelling(&d, &f, &r, &[1]).unwrap().unwrap();
+        let t = f.beta[1] / r.cov[(1, 1)].sqrt();
+        assert!(
+            (h.statistic - t * t).abs() < 1e-9 * t * t,
+            "{} vs {}",
+            h.statistic,
+            t * t
+        );
+        assert!(
+            (h.df_den - r.df[1]).abs() < 1e-9 * r.df[1],
+            "{} vs {}",
+            h.df_den,
+            r.df[1]
+        );
+    }
 
     /// Intercept only, equal variances, one row per cluster: the weights are equal, so the
     /// CR2 variance is s²/m (s² the sample variance of the m effects) with m − 1 degrees of
