@@ -201,10 +201,12 @@ pub enum Warning {
     },
     /// Rows of one sample give different sample sizes.
     SampleSizesDiffer {
-        /// The sample.
+        /// The first such sample.
         sample: String,
-        /// Spreadsheet rows.
+        /// Its spreadsheet rows.
         rows: Vec<usize>,
+        /// How many other samples do the same.
+        others: usize,
     },
     /// A part of the analysis does not yet model the sheet's dependent rows.
     DependenceNotModelled {
@@ -639,11 +641,23 @@ impl Warning {
                 ),
                 given(S::Inference, "model")
             ],
-            Warning::SampleSizesDiffer { sample, rows } => msg![format!(
-                "the rows of sample \"{sample}\" ({}) give different sample sizes; the total N \
-                 counts the sample once, at its largest n — check whether they really share \
-                 their respondents",
-                list_rows(rows)
+            Warning::SampleSizesDiffer {
+                sample,
+                rows,
+                others,
+            } => msg![format!(
+                "the rows of sample \"{sample}\" ({}) give different sample sizes{}; the total \
+                 N counts each sample once, at its largest n — check whether the rows really \
+                 share their respondents",
+                list_rows(rows),
+                match others {
+                    0 => String::new(),
+                    1 => ", and so do those of one other sample".to_string(),
+                    m => format!(
+                        ", and so do those of {} other samples",
+                        format::thousands(*m as u64)
+                    ),
+                }
             )],
             Warning::DependenceNotModelled { part } => msg![format!(
                 "{part} does not yet model the sheet's samples and clusters: it treats every \

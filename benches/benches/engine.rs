@@ -1,6 +1,6 @@
 //! Criterion benchmarks of the four heavy workloads, in process (no start-up, no file
-//! output): pooling 100,000 coefficients, a permutation test, reading item data, and
-//! Monte Carlo corrections. Inputs are generated here with a fixed seed (invented
+//! output): pooling 100,000 coefficients, the multilevel fit of 100,000 dependent
+//! coefficients, a permutation test, reading item data, and Monte Carlo corrections. Inputs are generated here with a fixed seed (invented
 //! values). Whole-process timings against Python baselines: benches/side_by_side.py.
 //!
 //!     cargo bench -p relyard-benches
@@ -11,6 +11,9 @@ use relyard::correct::ReliabilitySource;
 use relyard::correct::correlation::{CorrelationInput, correct_correlation};
 use relyard::items::{ItemReadOptions, read_items};
 use relyard::metareg::{ModeratorSpec, build_design, explain, permutation::permutation_test};
+use relyard::pool::multilevel::{
+    Grouping, MultilevelOptions, NestedData, component_intervals, cr2, fit,
+};
 use relyard::sheet::parse_coding_sheet;
 use std::fmt::Write;
 use std::hint::black_box;
@@ -65,9 +68,60 @@ fn pooling(c: &mut Criterion) {
         b.iter(|| {
             let s = parse_coding_sheet("bench.csv", text.as_bytes(), &Default::default()).unwrap();
             let p = prepare(s, &opts).unwrap();
-            black_box(from_prepared(p, &opts.pool).unwrap())
+            black_box(from_prepared(p, &opts.pool, &opts.dependence).unwrap())
         })
     });
+}
+
+/// 100,000 rows in 10,000 clusters of 10 rows (each in 1 to 3 samples): effects drawn from
+/// the multilevel model (invented values).
+fn nested(clusters: usize) -> (Vec<f64>, Vec<f64>, Grouping) {
+    let mut g = Gen(17);
+    let (mut y, mut v, mut cl, mut sa) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
+    let mut sample = 0;
+    for c in 0..clusters {
+        let u = 0.2 * g.normal();
+        let samples = 1 + (g.next() * 3.0) as usize;
+        for i in 0..10 {
+            let vi = 0.005 + 0.045 * g.next();
+            y.push(-1.6 + u + 0.1 * g.normal() + vi.sqrt() * g.normal());
+            v.push(vi);
+            cl.push(c);
+            sa.push(sample + i % samples);
+        }
+        sample += samples;
+    }
+    (
+        y,
+        v,
+        Grouping {
+            cluster: cl,
+            sample: sa,
+        },
+    )
+}
+
+fn multilevel(c: &mut Criterion) {
+    let (y, v, grouping) = nested(10_000);
+    let x = nalgebra::DMatrix::from_element(y.len(), 1, 1.0);
+    let d = NestedData::new(&y, &v, &x, &grouping).unwrap();
+    let options = MultilevelOptions {
+        restricted: true,
+        sampling_correlation: 0.6,
+    };
+    let mut group = c.benchmark_group("multilevel");
+    group.sample_size(10);
+    group.bench_function("REML fit, 100,000 rows in 10,000 clusters", |b| {
+        b.iter(|| black_box(fit(&d, &options).unwrap()))
+    });
+    let f = fit(&d, &options).unwrap();
+    group.bench_function("CR2 and Satterthwaite df, 100,000 rows", |b| {
+        b.iter(|| black_box(cr2(&d, &f).unwrap()))
+    });
+    group.bench_function("profile-likelihood intervals of both variances", |b| {
+        b.iter(|| black_box(component_intervals(&d, &f, relyard::Level::NINETY_FIVE).unwrap()))
+    });
+    group.finish();
 }
 
 fn permutations(c: &mut Criterion) {
@@ -166,5 +220,12 @@ fn monte_carlo(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(engine, pooling, permutations, item_data, monte_carlo);
+criterion_group!(
+    engine,
+    pooling,
+    multilevel,
+    permutations,
+    item_data,
+    monte_carlo
+);
 criterion_main!(engine);

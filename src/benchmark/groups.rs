@@ -43,21 +43,71 @@ fn number(keys: &[String]) -> Vec<usize> {
         .collect()
 }
 
+/// Each row's sample key and cluster key, formed once.
+struct Keys {
+    sample: Vec<String>,
+    cluster: Vec<String>,
+}
+
+impl Keys {
+    fn of(records: &[StudyRecord]) -> Keys {
+        Keys {
+            sample: records
+                .iter()
+                .enumerate()
+                .map(|(i, r)| sample_key(i, r))
+                .collect(),
+            cluster: records
+                .iter()
+                .enumerate()
+                .map(|(i, r)| cluster_key(i, r))
+                .collect(),
+        }
+    }
+
+    /// The rows of each named sample, samples in order of first appearance.
+    fn named_samples(&self, records: &[StudyRecord]) -> Vec<Vec<usize>> {
+        let mut slot: HashMap<&str, usize> = HashMap::new();
+        let mut out: Vec<Vec<usize>> = Vec::new();
+        for (i, r) in records.iter().enumerate() {
+            if r.sample.is_some() {
+                let next = out.len();
+                let j = *slot.entry(self.sample[i].as_str()).or_insert(next);
+                if j == out.len() {
+                    out.push(Vec::new());
+                }
+                out[j].push(i);
+            }
+        }
+        out
+    }
+}
+
 /// The grouping of the records.
 pub fn grouping(records: &[StudyRecord]) -> Grouping {
-    let samples: Vec<String> = records
-        .iter()
-        .enumerate()
-        .map(|(i, r)| sample_key(i, r))
-        .collect();
-    let clusters: Vec<String> = records
-        .iter()
-        .enumerate()
-        .map(|(i, r)| cluster_key(i, r))
-        .collect();
+    let k = Keys::of(records);
     Grouping {
-        cluster: number(&clusters),
-        sample: number(&samples),
+        cluster: number(&k.cluster),
+        sample: number(&k.sample),
+    }
+}
+
+/// The grouping of some of the rows of a grouping (at `indices`, in that order),
+/// renumbered from 0 in order of first appearance.
+pub fn restrict(g: &Grouping, indices: &[usize]) -> Grouping {
+    let renumber = |ids: &[usize]| -> Vec<usize> {
+        let mut map: HashMap<usize, usize> = HashMap::new();
+        indices
+            .iter()
+            .map(|&i| {
+                let next = map.len();
+                *map.entry(ids[i]).or_insert(next)
+            })
+            .collect()
+    };
+    Grouping {
+        cluster: renumber(&g.cluster),
+        sample: renumber(&g.sample),
     }
 }
 
@@ -66,24 +116,16 @@ pub fn shares_any(g: &Grouping) -> bool {
     g.clusters() < g.cluster.len()
 }
 
-/// The problems of samples whose rows name different clusters: one per row of such a
-/// sample, naming the other rows.
-pub fn split_samples(records: &[StudyRecord], cluster_label: &str) -> Vec<CellProblem> {
-    let mut by_sample: HashMap<String, Vec<usize>> = HashMap::new();
-    for (i, r) in records.iter().enumerate() {
-        if r.sample.is_some() {
-            by_sample.entry(sample_key(i, r)).or_default().push(i);
-        }
-    }
+/// The checks of the sample and cluster columns: the problems of samples whose rows name
+/// different clusters (one per row of such a sample, naming the other rows), and one
+/// warning about the samples whose rows give different sample sizes.
+pub fn check(records: &[StudyRecord], cluster_label: &str) -> (Vec<CellProblem>, Vec<Warning>) {
+    let keys = Keys::of(records);
+    let samples = keys.named_samples(records);
     let mut problems = Vec::new();
-    let mut groups: Vec<&Vec<usize>> = by_sample.values().collect();
-    groups.sort_by_key(|g| g[0]);
-    for members in groups {
-        let first = cluster_key(members[0], &records[members[0]]);
-        if members
-            .iter()
-            .all(|&i| cluster_key(i, &records[i]) == first)
-        {
+    for members in &samples {
+        let first = &keys.cluster[members[0]];
+        if members.iter().all(|&i| &keys.cluster[i] == first) {
             continue;
         }
         let rows: Vec<usize> = members.iter().map(|&i| records[i].row).collect();
@@ -103,30 +145,22 @@ pub fn split_samples(records: &[StudyRecord], cluster_label: &str) -> Vec<CellPr
             ));
         }
     }
-    problems
-}
-
-/// A warning for each sample whose rows give different sample sizes.
-pub fn differing_sizes(records: &[StudyRecord]) -> Vec<Warning> {
-    let mut by_sample: HashMap<String, Vec<usize>> = HashMap::new();
-    for (i, r) in records.iter().enumerate() {
-        if r.sample.is_some() {
-            by_sample.entry(sample_key(i, r)).or_default().push(i);
-        }
-    }
-    let mut groups: Vec<&Vec<usize>> = by_sample.values().collect();
-    groups.sort_by_key(|g| g[0]);
-    groups
-        .into_iter()
+    let differing: Vec<&Vec<usize>> = samples
+        .iter()
         .filter(|m| {
             let first = records[m[0]].n;
             m.iter().any(|&i| records[i].n != first)
         })
-        .map(|m| Warning::SampleSizesDiffer {
+        .collect();
+    let warnings = match differing.first() {
+        Some(m) => vec![Warning::SampleSizesDiffer {
             sample: records[m[0]].sample.clone().unwrap_or_default(),
             rows: m.iter().map(|&i| records[i].row).collect(),
-        })
-        .collect()
+            others: differing.len() - 1,
+        }],
+        None => Vec::new(),
+    };
+    (problems, warnings)
 }
 
 /// The respondents counted once per sample (each sample at its largest n), and the

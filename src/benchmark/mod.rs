@@ -124,8 +124,10 @@ pub struct Prepared {
     pub v: Vec<f64>,
     /// Rows left out, in sheet order.
     pub skipped: Vec<SkippedRow>,
-    /// True when the sheet has a sample or cluster column (its rows may be dependent).
+    /// True when rows of the sheet share a sample or a cluster.
     pub grouped: bool,
+    /// Which rows share a sample or a cluster (when some do).
+    grouping: Option<Grouping>,
     /// Sheet-level warnings.
     pub warnings: Vec<Warning>,
 }
@@ -133,26 +135,25 @@ pub struct Prepared {
 impl Prepared {
     /// Which rows share a sample or a cluster, when the sheet says.
     pub fn grouping(&self) -> Option<Grouping> {
-        self.grouped.then(|| groups::grouping(&self.records))
+        self.grouping.clone()
     }
 
     /// The grouping of the studies at `indices` (in that order), when the sheet groups
     /// its rows.
     pub fn grouping_of(&self, indices: &[usize]) -> Option<Grouping> {
-        self.grouped.then(|| {
-            let records: Vec<StudyRecord> =
-                indices.iter().map(|&i| self.records[i].clone()).collect();
-            groups::grouping(&records)
-        })
+        self.grouping.as_ref().map(|g| groups::restrict(g, indices))
     }
 
     /// The same sheet restricted to the studies at `indices` (in that order).
     pub fn subset(&self, indices: &[usize]) -> Prepared {
+        let grouping = self.grouping_of(indices).filter(groups::shares_any);
         Prepared {
             records: indices.iter().map(|&i| self.records[i].clone()).collect(),
             y: indices.iter().map(|&i| self.y[i]).collect(),
             v: indices.iter().map(|&i| self.v[i]).collect(),
             warnings: Vec::new(),
+            grouped: grouping.is_some(),
+            grouping,
             ..self.clone_shell()
         }
     }
@@ -169,6 +170,7 @@ impl Prepared {
             v: Vec::new(),
             skipped: self.skipped.clone(),
             grouped: self.grouped,
+            grouping: None,
             warnings: Vec::new(),
         }
     }
@@ -253,17 +255,18 @@ pub fn prepare_from(
     // Rows are grouped when at least two share a sample or a cluster; a sheet whose sample
     // and cluster cells are empty or all different is pooled as one of independent rows.
     let columns = sheet.has(Role::Sample) || sheet.has(Role::Cluster);
+    let mut grouping = None;
     if columns {
-        let split = groups::split_samples(&usable, &sheet.column_label(Role::Cluster));
+        let (split, notes) = groups::check(&usable, &sheet.column_label(Role::Cluster));
         if !split.is_empty() {
             return Err(Error::InvalidSheet {
                 file: sheet.file.clone(),
                 problems: split,
             });
         }
-        warnings.extend(groups::differing_sizes(&usable));
+        warnings.extend(notes);
+        grouping = Some(groups::grouping(&usable)).filter(groups::shares_any);
     }
-    let grouped = columns && groups::shares_any(&groups::grouping(&usable));
     sheet_warnings(&sheet, &usable, transform, &mut warnings);
 
     let (y, v): (Vec<f64>, Vec<f64>) = values.into_iter().unzip();
@@ -277,7 +280,8 @@ pub fn prepare_from(
         y,
         v,
         skipped,
-        grouped,
+        grouped: grouping.is_some(),
+        grouping,
         warnings,
     })
 }

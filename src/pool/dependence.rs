@@ -471,7 +471,15 @@ pub fn summarize(
     let s2 = heterogeneity.typical_variance;
     let total = f.tau2_cluster + f.tau2_within;
     let share = |t: f64| 100.0 * t / (total + s2);
-    let sensitivity = sensitivity(&data, &ml, inference, options)?;
+    let start = Some([f.tau2_cluster, f.tau2_within]);
+    let first = coefficients[0];
+    let in_force = SensitivityRow {
+        sampling_correlation: ml.sampling_correlation,
+        estimate: first.estimate,
+        ci: first.ci,
+        pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
+    };
+    let sensitivity = sensitivity(&data, &ml, (inference, start, Some(in_force)), options)?;
     if f.clusters < FEW_STUDIES {
         warnings.push(Warning::FewStudies { k: f.clusters });
     }
@@ -636,17 +644,23 @@ fn fit_warnings(f: &MultilevelFit, robust: &[Inferred], inference: Inference) ->
 fn sensitivity(
     data: &NestedData,
     ml: &MultilevelOptions,
-    inference: Inference,
+    (inference, start, in_force): (Inference, Option<[f64; 2]>, Option<SensitivityRow>),
     options: &PoolOptions,
 ) -> Result<Vec<SensitivityRow>> {
     let mut out = Vec::with_capacity(SENSITIVITY_CORRELATIONS.len());
     for r in SENSITIVITY_CORRELATIONS {
-        let f = fit(
+        // The correlation in force is the main fit itself.
+        if let Some(row) = in_force.filter(|row| row.sampling_correlation == r) {
+            out.push(row);
+            continue;
+        }
+        let f = super::multilevel::fit_from(
             data,
             &MultilevelOptions {
                 sampling_correlation: r,
                 ..*ml
             },
+            start,
         )?;
         let first = match inference {
             Inference::Robust => cluster_robust(&f, &cr2(data, &f)?, options.level)[0],

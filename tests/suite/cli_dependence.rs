@@ -203,3 +203,139 @@ H,h,p7,0.90,640,8
     assert_eq!(j["dependence"]["k_clusters"], 7);
     assert_eq!(j["dependence"]["k_samples"], 8);
 }
+
+/// The invented sheet with two moderators (a year and a setting).
+fn sheet_with_moderators(name: &str) -> String {
+    let settings = [
+        "clinic", "school", "clinic", "firm", "firm", "school", "clinic", "clinic", "school",
+        "firm", "clinic", "school", "school", "firm",
+    ];
+    let mut lines = SHEET.lines();
+    let mut text = format!("{},setting,year\n", lines.next().unwrap());
+    for (line, setting) in lines.zip(settings) {
+        let year = &line.split(',').next().unwrap().split(' ').nth(1).unwrap()[..4];
+        text.push_str(&format!("{line},{setting},{year}\n"));
+    }
+    sheet(name, &text)
+}
+
+#[test]
+fn explain_fits_the_multilevel_model_with_robust_tests_of_every_coefficient() {
+    let p = sheet_with_moderators("dep-explain");
+    let j = json_ok(&[
+        "explain",
+        &p,
+        "--moderator",
+        "year",
+        "--moderator",
+        "setting",
+        "--influence",
+        "--json",
+    ]);
+    assert_eq!(j["dependence"]["method"], "multilevel");
+    assert_eq!(j["dependence"]["k_clusters"], 8);
+    assert_eq!(j["inference"], "robust");
+    let coefs = j["coefficients"].as_array().unwrap();
+    assert_eq!(coefs.len(), 4);
+    for c in coefs {
+        // The coefficient's own se and p are the robust ones (the inference in force).
+        assert_json_close(&c["se"], &c["robust_se"], 1e-15, 0.0, "se = robust_se");
+        assert_json_close(&c["p"], &c["robust_p"], 1e-15, 0.0, "p = robust_p");
+        assert!(c["robust_df"].as_f64().unwrap() > 0.0);
+    }
+    let h = &j["robust_omnibus"];
+    assert_eq!(h["df_num"], 3.0);
+    assert_json_close(
+        &j["omnibus"]["p"],
+        &h["p"],
+        1e-15,
+        0.0,
+        "omnibus = Hotelling",
+    );
+    // Leave-one-out diagnostics do not model the dependence yet, and say so.
+    assert!(warning_codes(&j).contains(&"dependence_not_modelled".to_string()));
+    let model = json_ok(&[
+        "explain",
+        &p,
+        "--moderator",
+        "year",
+        "--inference",
+        "model",
+        "--json",
+    ]);
+    assert_eq!(model["inference"], "model");
+    let c = &model["coefficients"][1];
+    assert!(c["se"] != c["robust_se"], "model-based se differs from CR2");
+}
+
+#[test]
+fn check_places_a_study_in_a_new_or_a_known_cluster() {
+    let p = sheet("dep-check", SHEET);
+    let args = [
+        "check",
+        p.as_str(),
+        "--coef",
+        "0.8",
+        "--n",
+        "200",
+        "--items",
+        "8",
+    ];
+    let mut a = args.to_vec();
+    a.push("--json");
+    let new = json_ok(&a);
+    assert!(new["in_cluster"].is_null());
+    assert_eq!(new["dependence"]["k_samples"], 11);
+    // The true range for a new cluster is the benchmark's prediction interval.
+    let pool = json_ok(&["pool", &p, "--json"]);
+    assert_json_close(
+        &new["pi"][0],
+        &pool["reliability"]["pi"][0],
+        1e-12,
+        0.0,
+        "check pi = pool pi",
+    );
+    let mut a = args.to_vec();
+    a.extend(["--in-cluster", " brisk 2013 ", "--json"]);
+    let known = json_ok(&a);
+    assert_eq!(known["in_cluster"], "Brisk 2013");
+    let width = |j: &serde_json::Value| {
+        j["transformed"]["pi"][1].as_f64().unwrap() - j["transformed"]["pi"][0].as_f64().unwrap()
+    };
+    // A known cluster's range is narrower (its own variance is partly known) and centred on
+    // its predicted value, above the benchmark for this cluster of high coefficients.
+    assert!(
+        width(&known) < width(&new),
+        "{} vs {}",
+        width(&known),
+        width(&new)
+    );
+    assert!(known["expected"].as_f64().unwrap() > new["expected"].as_f64().unwrap());
+    let mut a = args.to_vec();
+    a.extend(["--in-cluster", "Nowhere 1999"]);
+    let out = relyard(&a);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("--in-cluster") && err.contains("Arden 2011"),
+        "{err}"
+    );
+    // Without dependent rows there is no cluster to name.
+    let plain = sheet(
+        "dep-check-plain",
+        "study,coef,n,items\nA,0.8,100,6\nB,0.7,90,6\nC,0.85,120,6\n",
+    );
+    let out = relyard(&[
+        "check",
+        &plain,
+        "--coef",
+        "0.8",
+        "--n",
+        "100",
+        "--items",
+        "6",
+        "--in-cluster",
+        "A",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+}

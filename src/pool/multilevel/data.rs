@@ -227,21 +227,268 @@ pub(crate) struct Evaluation {
     pub info: [[f64; 2]; 2],
 }
 
-/// Sums over clusters that the score and information are made of.
-#[derive(Default)]
+/// Clusters per unit of parallel work: the partial sums of a chunk are added in chunk
+/// order, so that results do not depend on the number of threads.
+pub(crate) const CLUSTERS_PER_CHUNK: usize = 256;
+
+/// Sums over clusters that the likelihood, its score and its information are made of,
+/// all in one pass (p × p matrices flat, column by column). The quantities that depend on
+/// β̂ — r'Wr, Σ(1ᵀWr)² and Σ‖Wr‖² with r = y − Xβ̂ — are quadratic in β, so their parts
+/// are summed before β̂ is known.
+#[derive(Clone)]
 struct Sums {
+    log_det: f64,
+    /// XᵀWX, XᵀWy, yᵀWy.
+    a: Vec<f64>,
+    b: Vec<f64>,
+    y_w_y: f64,
+    /// Σ(1ᵀWy)², Σ(1ᵀWy)·XᵀW1, and B_c = Σ XᵀW1(XᵀW1)ᵀ.
+    sy2: f64,
+    sy_xu: Vec<f64>,
+    b_c: Vec<f64>,
+    /// yᵀW²y, XᵀW²y and B_w = XᵀW²X.
+    y_w2_y: f64,
+    x_w2_y: Vec<f64>,
+    b_w: Vec<f64>,
+    /// Σ1ᵀW1 and Σ tr W.
     tr_w: [f64; 2],
-    qdq: [f64; 2],
-    t1: [[f64; 2]; 2],
-    b: [Option<DMatrix<f64>>; 2],
-    k: [[Option<DMatrix<f64>>; 2]; 2],
+    /// Σ(1ᵀW1)², Σ‖W1‖², Σ‖W‖²_F.
+    t1: [f64; 3],
+    /// K_cc = Σ(1ᵀW1)·XᵀW1(XᵀW1)ᵀ, K_ww = XᵀW³X, K_cw = Σ XᵀW1·(XᵀW²1)ᵀ.
+    k_cc: Vec<f64>,
+    k_ww: Vec<f64>,
+    k_cw: Vec<f64>,
 }
 
-fn add(slot: &mut Option<DMatrix<f64>>, m: DMatrix<f64>) {
-    match slot {
-        Some(s) => *s += m,
-        None => *slot = Some(m),
+impl Sums {
+    fn zeros(p: usize) -> Sums {
+        let m = vec![0.0; p * p];
+        let v = vec![0.0; p];
+        Sums {
+            log_det: 0.0,
+            a: m.clone(),
+            b: v.clone(),
+            y_w_y: 0.0,
+            sy2: 0.0,
+            sy_xu: v.clone(),
+            b_c: m.clone(),
+            y_w2_y: 0.0,
+            x_w2_y: v,
+            b_w: m.clone(),
+            tr_w: [0.0; 2],
+            t1: [0.0; 3],
+            k_cc: m.clone(),
+            k_ww: m.clone(),
+            k_cw: m,
+        }
     }
+
+    fn add(&mut self, o: &Sums) {
+        self.log_det += o.log_det;
+        self.y_w_y += o.y_w_y;
+        self.sy2 += o.sy2;
+        self.y_w2_y += o.y_w2_y;
+        for i in 0..2 {
+            self.tr_w[i] += o.tr_w[i];
+        }
+        for i in 0..3 {
+            self.t1[i] += o.t1[i];
+        }
+        let pairs = [
+            (&mut self.a, &o.a),
+            (&mut self.b, &o.b),
+            (&mut self.sy_xu, &o.sy_xu),
+            (&mut self.b_c, &o.b_c),
+            (&mut self.x_w2_y, &o.x_w2_y),
+            (&mut self.b_w, &o.b_w),
+            (&mut self.k_cc, &o.k_cc),
+            (&mut self.k_ww, &o.k_ww),
+            (&mut self.k_cw, &o.k_cw),
+        ];
+        for (a, b) in pairs {
+            a.iter_mut().zip(b).for_each(|(x, y)| *x += y);
+        }
+    }
+}
+
+/// Cholesky factorization in place of the n × n symmetric matrix `a` (column-major, lower
+/// triangle used); false when it is not positive definite.
+fn cholesky_in_place(a: &mut [f64], n: usize) -> bool {
+    for j in 0..n {
+        let mut d = a[j * n + j];
+        for k in 0..j {
+            d -= a[k * n + j] * a[k * n + j];
+        }
+        if !(d > 0.0 && d.is_finite()) {
+            return false;
+        }
+        let d = d.sqrt();
+        a[j * n + j] = d;
+        for i in j + 1..n {
+            let mut s = a[j * n + i];
+            for k in 0..j {
+                s -= a[k * n + i] * a[k * n + j];
+            }
+            a[j * n + i] = s / d;
+        }
+    }
+    true
+}
+
+/// W = V⁻¹ from the lower Cholesky factor L (column-major): L⁻¹ by forward substitution,
+/// then W = L⁻ᵀL⁻¹. Writes W (full, symmetric) into `w`; `linv` is scratch.
+fn inverse_from_cholesky(l: &[f64], n: usize, linv: &mut [f64], w: &mut [f64]) {
+    linv.iter_mut().for_each(|x| *x = 0.0);
+    for c in 0..n {
+        // Column c of L⁻¹: solve L z = e_c (z is 0 above row c).
+        linv[c * n + c] = 1.0 / l[c * n + c];
+        for i in c + 1..n {
+            let mut s = 0.0;
+            for k in c..i {
+                s -= l[k * n + i] * linv[c * n + k];
+            }
+            linv[c * n + i] = s / l[i * n + i];
+        }
+    }
+    // W[a][b] = Σ_k L⁻¹[k][a] L⁻¹[k][b], k ≥ max(a, b).
+    for a in 0..n {
+        for b in 0..=a {
+            let mut s = 0.0;
+            for k in a..n {
+                s += linv[a * n + k] * linv[b * n + k];
+            }
+            w[a * n + b] = s;
+            w[b * n + a] = s;
+        }
+    }
+}
+
+/// Scratch buffers of one worker, reused from cluster to cluster.
+#[derive(Default)]
+struct Scratch {
+    v: Vec<f64>,
+    linv: Vec<f64>,
+    w: Vec<f64>,
+    x: Vec<f64>,
+    u: Vec<f64>,
+    wy: Vec<f64>,
+    wx: Vec<f64>,
+    wwx: Vec<f64>,
+}
+
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    a.iter().zip(b).map(|(x, y)| x * y).sum()
+}
+
+/// out = W·col for the n × n matrix W (column-major).
+fn mat_vec(w: &[f64], n: usize, col: &[f64], out: &mut [f64]) {
+    out.iter_mut().for_each(|o| *o = 0.0);
+    for (c, &xc) in col.iter().enumerate() {
+        if xc != 0.0 {
+            for (o, wc) in out.iter_mut().zip(&w[c * n..(c + 1) * n]) {
+                *o += wc * xc;
+            }
+        }
+    }
+}
+
+/// Invert one cluster's marginal covariance and add its parts to `s`.
+fn add_cluster(
+    d: &NestedData,
+    b: &Block,
+    (r, theta): (f64, [f64; 2]),
+    k: &mut Scratch,
+    s: &mut Sums,
+) -> Result<()> {
+    let (n, p) = (b.len, d.p());
+    for buf in [&mut k.v, &mut k.linv, &mut k.w] {
+        buf.resize(n * n, 0.0);
+    }
+    for buf in [&mut k.x, &mut k.wx, &mut k.wwx] {
+        buf.resize(n * p, 0.0);
+    }
+    k.u.resize(n, 0.0);
+    k.wy.resize(n, 0.0);
+    let vs = &d.v[b.start..b.start + n];
+    for j in 0..n {
+        for i in j..n {
+            let c = if i == j {
+                vs[i] + theta[1]
+            } else if b.sample[i] == b.sample[j] {
+                r * (vs[i] * vs[j]).sqrt()
+            } else {
+                0.0
+            };
+            k.v[j * n + i] = c + theta[0];
+        }
+    }
+    if !cholesky_in_place(&mut k.v, n) {
+        return Err(Error::cannot(
+            "a cluster's covariance matrix is not positive definite (check the sampling \
+             correlation and the sampling variances)",
+        ));
+    }
+    s.log_det += 2.0 * (0..n).map(|j| k.v[j * n + j].ln()).sum::<f64>();
+    inverse_from_cholesky(&k.v, n, &mut k.linv, &mut k.w);
+    let w = &k.w;
+    k.u.iter_mut().for_each(|x| *x = 0.0);
+    let mut norm_w = 0.0;
+    for c in 0..n {
+        for i in 0..n {
+            let x = w[c * n + i];
+            k.u[i] += x;
+            norm_w += x * x;
+        }
+        s.tr_w[1] += w[c * n + c];
+    }
+    let y = &d.y[b.start..b.start + n];
+    mat_vec(w, n, y, &mut k.wy);
+    for j in 0..p {
+        for i in 0..n {
+            k.x[j * n + i] = d.x[(b.start + i, j)];
+        }
+        mat_vec(
+            w,
+            n,
+            &k.x[j * n..(j + 1) * n],
+            &mut k.wx[j * n..(j + 1) * n],
+        );
+        mat_vec(
+            w,
+            n,
+            &k.wx[j * n..(j + 1) * n],
+            &mut k.wwx[j * n..(j + 1) * n],
+        );
+    }
+    let s1: f64 = k.u.iter().sum();
+    let sy: f64 = k.wy.iter().sum();
+    s.tr_w[0] += s1;
+    s.t1[0] += s1 * s1;
+    s.t1[1] += dot(&k.u, &k.u);
+    s.t1[2] += norm_w;
+    s.y_w_y += dot(y, &k.wy);
+    s.sy2 += sy * sy;
+    s.y_w2_y += dot(&k.wy, &k.wy);
+    let col = |_: &[f64], j: usize| -> std::ops::Range<usize> { j * n..(j + 1) * n };
+    for j in 0..p {
+        let wxj = &k.wx[col(&k.wx, j)];
+        let xu_j: f64 = wxj.iter().sum();
+        s.b[j] += dot(wxj, y);
+        s.sy_xu[j] += sy * xu_j;
+        s.x_w2_y[j] += dot(wxj, &k.wy);
+        for l in 0..p {
+            let at = l * p + j;
+            let wxl = &k.wx[col(&k.wx, l)];
+            let xu_l: f64 = wxl.iter().sum();
+            s.a[at] += dot(&k.x[col(&k.x, l)], wxj);
+            s.b_c[at] += xu_j * xu_l;
+            s.b_w[at] += dot(wxj, wxl);
+            s.k_cc[at] += s1 * xu_j * xu_l;
+            s.k_ww[at] += dot(wxj, &k.wwx[col(&k.wwx, l)]);
+            s.k_cw[at] += xu_j * dot(wxl, &k.u);
+        }
+    }
+    Ok(())
 }
 
 /// Evaluate the likelihood at θ = (τ²_cluster, τ²_within) with sampling correlation `r`.
@@ -250,7 +497,8 @@ fn add(slot: &mut Option<DMatrix<f64>>, m: DMatrix<f64>) {
 /// cluster), D_w = I the derivatives of V: score_r = −½ tr(PD_r) + ½ rᵀW D_r W r and
 /// information ½ tr(PD_rPD_s), with tr(PD_r) = tr(WD_r) − tr(A⁻¹XᵀWD_rWX) and
 /// tr(PD_rPD_s) = tr(WD_rWD_s) − 2 tr(A⁻¹XᵀWD_rWD_sWX) + tr(A⁻¹XᵀWD_rWX·A⁻¹XᵀWD_sWX);
-/// for ML the A terms are left out. Each trace is a sum over clusters.
+/// for ML the A terms are left out. Each trace is a sum over clusters, computed in one
+/// pass over parallel chunks of clusters.
 ///
 /// # References
 /// Harville, D. A. (1977). Maximum likelihood approaches to variance component estimation
@@ -263,39 +511,44 @@ pub(crate) fn evaluate(
     restricted: bool,
     derivatives: bool,
 ) -> Result<Evaluation> {
+    use rayon::prelude::*;
     let p = d.p();
-    let mut a = DMatrix::<f64>::zeros(p, p);
-    let mut bvec = DVector::<f64>::zeros(p);
-    let mut log_det = 0.0;
-    let mut inverses = Vec::with_capacity(d.blocks.len());
-    for b in &d.blocks {
-        let (w, ld) = inverse_and_log_det(d.marginal_cov(b, r, theta))?;
-        log_det += ld;
-        let x = d.x_of(b);
-        let wx = &w * &x;
-        a += x.transpose() * &wx;
-        bvec += wx.transpose() * d.y_of(b);
-        inverses.push((w, wx));
+    let partial: Vec<Result<Sums>> = d
+        .blocks
+        .par_chunks(CLUSTERS_PER_CHUNK)
+        .map(|chunk| {
+            let mut scratch = Scratch::default();
+            let mut sums = Sums::zeros(p);
+            for b in chunk {
+                add_cluster(d, b, (r, theta), &mut scratch, &mut sums)?;
+            }
+            Ok(sums)
+        })
+        .collect();
+    let mut s = Sums::zeros(p);
+    for part in partial {
+        s.add(&part?);
     }
-    let (cov, log_det_a) = inverse_and_log_det(a)
+    let (cov, log_det_a) = inverse_and_log_det(DMatrix::from_column_slice(p, p, &s.a))
         .map_err(|_| Error::cannot("the design is singular: a coefficient cannot be estimated"))?;
-    let beta = &cov * &bvec;
-    let mut quad = 0.0;
-    let mut sums = Sums::default();
-    for (b, (w, wx)) in d.blocks.iter().zip(&inverses) {
-        let resid = d.y_of(b) - d.x_of(b) * &beta;
-        let q = w * &resid;
-        quad += resid.dot(&q);
-        if derivatives {
-            accumulate(&mut sums, w, wx, &q);
-        }
-    }
-    let mut log_lik = -0.5 * (log_det + quad);
+    let beta = &cov * DVector::from_column_slice(&s.b);
+    // A quadratic form c − 2βᵀv + βᵀMβ.
+    let form = |c: f64, v: &[f64], m: &[f64]| {
+        let v = DVector::from_column_slice(v);
+        let m = DMatrix::from_column_slice(p, p, m);
+        c - 2.0 * beta.dot(&v) + (beta.transpose() * m * &beta)[(0, 0)]
+    };
+    let quad = form(s.y_w_y, &s.b, &s.a);
+    let mut log_lik = -0.5 * (s.log_det + quad);
     if restricted {
         log_lik -= 0.5 * log_det_a;
     }
     let (score, info) = if derivatives {
-        score_and_info(&sums, &cov, restricted)
+        let qdq = [
+            form(s.sy2, &s.sy_xu, &s.b_c),
+            form(s.y_w2_y, &s.x_w2_y, &s.b_w),
+        ];
+        score_and_info(&s, qdq, &cov, restricted)
     } else {
         ([0.0; 2], [[0.0; 2]; 2])
     };
@@ -309,48 +562,34 @@ pub(crate) fn evaluate(
     })
 }
 
-/// Add one cluster's parts: W, WX and q = W r.
-fn accumulate(s: &mut Sums, w: &DMatrix<f64>, wx: &DMatrix<f64>, q: &DVector<f64>) {
-    let u = w.column_sum(); // W1 (W is symmetric)
-    let s1 = u.sum(); // 1ᵀW1
-    let xu = wx.row_sum().transpose(); // XᵀW1
-    s.tr_w[0] += s1;
-    s.tr_w[1] += w.trace();
-    s.qdq[0] += q.sum().powi(2);
-    s.qdq[1] += q.norm_squared();
-    s.t1[0][0] += s1 * s1;
-    s.t1[1][1] += w.norm_squared();
-    s.t1[0][1] += u.norm_squared();
-    add(&mut s.b[0], &xu * xu.transpose());
-    add(&mut s.b[1], wx.transpose() * wx);
-    add(&mut s.k[0][0], &xu * xu.transpose() * s1);
-    add(&mut s.k[1][1], wx.transpose() * w * wx);
-    add(&mut s.k[0][1], &xu * (wx.transpose() * &u).transpose());
-}
-
-fn score_and_info(s: &Sums, cov: &DMatrix<f64>, restricted: bool) -> ([f64; 2], [[f64; 2]; 2]) {
+fn score_and_info(
+    s: &Sums,
+    qdq: [f64; 2],
+    cov: &DMatrix<f64>,
+    restricted: bool,
+) -> ([f64; 2], [[f64; 2]; 2]) {
+    let p = cov.nrows();
+    let m = |v: &[f64]| DMatrix::from_column_slice(p, p, v);
     let mut score = [0.0; 2];
     let mut info = [[0.0; 2]; 2];
-    let t1 = [[s.t1[0][0], s.t1[0][1]], [s.t1[0][1], s.t1[1][1]]];
-    let ab: Vec<DMatrix<f64>> = (0..2)
-        .map(|r| cov * s.b[r].as_ref().expect("accumulated"))
-        .collect();
+    // T1 = tr(W D_r W D_s): cc = Σ(1ᵀW1)², cw = Σ‖W1‖², ww = Σ‖W‖²_F.
+    let t1 = [[s.t1[0], s.t1[1]], [s.t1[1], s.t1[2]]];
+    let ab = [cov * m(&s.b_c), cov * m(&s.b_w)];
+    let k = [
+        [(cov * m(&s.k_cc)).trace(), (cov * m(&s.k_cw)).trace()],
+        [(cov * m(&s.k_cw)).trace(), (cov * m(&s.k_ww)).trace()],
+    ];
     for r in 0..2 {
         let tr_pd = if restricted {
             s.tr_w[r] - ab[r].trace()
         } else {
             s.tr_w[r]
         };
-        score[r] = -0.5 * tr_pd + 0.5 * s.qdq[r];
+        score[r] = -0.5 * tr_pd + 0.5 * qdq[r];
         for c in 0..2 {
             let mut v = t1[r][c];
             if restricted {
-                let k = match (r, c) {
-                    (0, 1) => (cov * s.k[0][1].as_ref().expect("accumulated")).trace(),
-                    (1, 0) => (cov * s.k[0][1].as_ref().expect("accumulated")).trace(),
-                    _ => (cov * s.k[r][r].as_ref().expect("accumulated")).trace(),
-                };
-                v += -2.0 * k + (&ab[r] * &ab[c]).trace();
+                v += -2.0 * k[r][c] + (&ab[r] * &ab[c]).trace();
             }
             info[r][c] = 0.5 * v;
         }

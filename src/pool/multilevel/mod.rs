@@ -106,11 +106,24 @@ pub(crate) struct Maximum {
 /// Fewer than two clusters is refused (τ²_cluster and the between-cluster inference need
 /// at least two); with one row per cluster τ²_within is held at 0.
 pub fn fit(d: &NestedData, options: &MultilevelOptions) -> Result<MultilevelFit> {
+    fit_from(d, options, None)
+}
+
+/// [`fit`], the scoring started from `start` = (τ²_cluster, τ²_within) when given (a
+/// nearby fit's values, such as the same data's at another sampling correlation).
+pub fn fit_from(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    start: Option<[f64; 2]>,
+) -> Result<MultilevelFit> {
     check(d, options)?;
     let (scaled, s) = d.rescaled();
     let within_identified = d.largest_cluster() > 1;
     let fixed = [None, (!within_identified).then_some(0.0)];
-    let start = starting_values(&scaled);
+    let start = match start {
+        Some([c, w]) => [c / s, w / s],
+        None => starting_values(&scaled),
+    };
     let m = maximize(&scaled, options, start, fixed)?;
     let theta = [m.theta[0] * s, m.theta[1] * s];
     assemble(d, options, theta, (m.iterations, m.termination))
@@ -244,6 +257,18 @@ pub(crate) fn maximize(
     start: [f64; 2],
     fixed: [Option<f64>; 2],
 ) -> Result<Maximum> {
+    maximize_to(d, options, start, fixed, TAU2_TOLERANCE)
+}
+
+/// [`maximize`] to a relative tolerance of its own (the points of a profile need less:
+/// an error δ in the maximized-out component changes the profile by O(δ²)).
+pub(crate) fn maximize_to(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    start: [f64; 2],
+    fixed: [Option<f64>; 2],
+    tolerance: f64,
+) -> Result<Maximum> {
     let (r, restricted) = (options.sampling_correlation, options.restricted);
     let mut theta = [0, 1].map(|i| fixed[i].unwrap_or(start[i].max(0.0)));
     let mut current = evaluate(d, r, theta, restricted, true)?;
@@ -257,7 +282,7 @@ pub(crate) fn maximize(
         let step = scoring_step(&current, &free);
         let (next, eval) = halve_until_better(d, options, theta, step, &current)?;
         let moved = (0..2).all(|i| {
-            (next[i] - theta[i]).abs() <= TAU2_TOLERANCE * next[i].max(theta[i]).max(TAU2_FLOOR)
+            (next[i] - theta[i]).abs() <= tolerance * next[i].max(theta[i]).max(TAU2_FLOOR)
         });
         theta = next;
         current = eval;

@@ -38,16 +38,79 @@ pub struct RobustCovariance {
 /// variance estimation and hypothesis testing in fixed effects models. *Journal of
 /// Business & Economic Statistics*, 36(4), 672–683.
 pub fn cr2(d: &NestedData, fit: &MultilevelFit) -> Result<RobustCovariance> {
+    use rayon::prelude::*;
     let p = d.p();
-    let r = fit.options.sampling_correlation;
-    let theta = [fit.tau2_cluster, fit.tau2_within];
     let m = &fit.cov;
-    let mut meat = DMatrix::<f64>::zeros(p, p);
-    let mut num = vec![0.0; p];
-    let mut d2 = vec![0.0; p];
-    let mut da = vec![0.0; p];
-    let mut g_sum: Vec<DMatrix<f64>> = vec![DMatrix::zeros(p, p); p];
-    for b in &d.blocks {
+    // Partial sums per chunk of clusters, added in chunk order (the same whatever the
+    // number of threads).
+    let parts: Vec<Result<Cr2Sums>> = d
+        .blocks
+        .par_chunks(super::data::CLUSTERS_PER_CHUNK)
+        .map(|chunk| {
+            let mut s = Cr2Sums::zeros(p);
+            for b in chunk {
+                s.add_cluster(d, b, fit)?;
+            }
+            Ok(s)
+        })
+        .collect();
+    let mut total = Cr2Sums::zeros(p);
+    for part in parts {
+        total.add(&part?);
+    }
+    let df = (0..p)
+        .map(|c| {
+            let mg = m * &total.g_sum[c];
+            let den = total.d2[c] - 2.0 * total.da[c] + (&mg * &mg).trace();
+            total.num[c] * total.num[c] / den
+        })
+        .collect();
+    Ok(RobustCovariance {
+        cov: total.meat,
+        df,
+    })
+}
+
+/// The sums over clusters behind CR2 and its degrees of freedom.
+struct Cr2Sums {
+    meat: DMatrix<f64>,
+    num: Vec<f64>,
+    d2: Vec<f64>,
+    da: Vec<f64>,
+    g_sum: Vec<DMatrix<f64>>,
+}
+
+impl Cr2Sums {
+    fn zeros(p: usize) -> Cr2Sums {
+        Cr2Sums {
+            meat: DMatrix::zeros(p, p),
+            num: vec![0.0; p],
+            d2: vec![0.0; p],
+            da: vec![0.0; p],
+            g_sum: vec![DMatrix::zeros(p, p); p],
+        }
+    }
+
+    fn add(&mut self, o: &Cr2Sums) {
+        self.meat += &o.meat;
+        for c in 0..self.num.len() {
+            self.num[c] += o.num[c];
+            self.d2[c] += o.d2[c];
+            self.da[c] += o.da[c];
+            self.g_sum[c] += &o.g_sum[c];
+        }
+    }
+
+    /// One cluster's part: its adjustment, its share of the meat and of the df sums.
+    fn add_cluster(
+        &mut self,
+        d: &NestedData,
+        b: &super::data::Block,
+        fit: &MultilevelFit,
+    ) -> Result<()> {
+        let r = fit.options.sampling_correlation;
+        let theta = [fit.tau2_cluster, fit.tau2_within];
+        let m = &fit.cov;
         let vj = d.marginal_cov(b, r, theta);
         let (wj, _) = inverse_and_log_det(vj.clone())?;
         let x = d.x_of(b);
@@ -56,26 +119,19 @@ pub fn cr2(d: &NestedData, fit: &MultilevelFit) -> Result<RobustCovariance> {
         // Gⱼ = AⱼWⱼXⱼM: column c is gⱼ for coefficient c (cᵀβ̂'s CR2 variance is Σⱼ (gⱼᵀeⱼ)²).
         let g = &aj * &wj * &x * m;
         let h = g.transpose() * &resid;
-        meat += &h * h.transpose();
-        for c in 0..p {
+        self.meat += &h * h.transpose();
+        for c in 0..d.p() {
             let gc: DVector<f64> = g.column(c).into_owned();
             let dj = (gc.transpose() * &vj * &gc)[(0, 0)];
             let a = x.transpose() * &gc;
             let ama = (a.transpose() * m * &a)[(0, 0)];
-            num[c] += dj - ama;
-            d2[c] += dj * dj;
-            da[c] += dj * ama;
-            g_sum[c] += &a * a.transpose();
+            self.num[c] += dj - ama;
+            self.d2[c] += dj * dj;
+            self.da[c] += dj * ama;
+            self.g_sum[c] += &a * a.transpose();
         }
+        Ok(())
     }
-    let df = (0..p)
-        .map(|c| {
-            let mg = m * &g_sum[c];
-            let den = d2[c] - 2.0 * da[c] + (&mg * &mg).trace();
-            num[c] * num[c] / den
-        })
-        .collect();
-    Ok(RobustCovariance { cov: meat, df })
 }
 
 /// The approximate Hotelling T² test of several coefficients at once.
@@ -170,12 +226,18 @@ pub fn hotelling(
     }))
 }
 
-/// Aⱼ = V̂ⱼ^{1/2} (V̂ⱼ^{1/2}(V̂ⱼ − XⱼMXⱼᵀ)V̂ⱼ^{1/2})^{-1/2} V̂ⱼ^{1/2} (the symmetric square root
-/// as Dⱼ: any factor with DⱼᵀDⱼ = V̂ⱼ gives the same Aⱼ).
+/// Aⱼ = Dⱼᵀ (Dⱼ(V̂ⱼ − XⱼMXⱼᵀ)Dⱼᵀ)^{-1/2} Dⱼ with Dⱼ = Lᵀ, V̂ⱼ = LLᵀ (the upper Cholesky
+/// factor: DⱼᵀDⱼ = V̂ⱼ; any such factor gives the same Aⱼ).
 fn adjustment(v: &DMatrix<f64>, x: &DMatrix<f64>, m: &DMatrix<f64>) -> DMatrix<f64> {
-    let root = matrix_power(v, 0.5);
-    let b = &root * (v - x * m * x.transpose()) * &root;
-    &root * matrix_power(&b, -0.5) * &root
+    let Some(chol) = nalgebra::Cholesky::new(v.clone()) else {
+        // Not positive definite: the symmetric root (of the non-negative part) instead.
+        let root = matrix_power(v, 0.5);
+        let b = &root * (v - x * m * x.transpose()) * &root;
+        return &root * matrix_power(&b, -0.5) * &root;
+    };
+    let l = chol.l();
+    let b = l.transpose() * (v - x * m * x.transpose()) * &l;
+    &l * matrix_power(&b, -0.5) * l.transpose()
 }
 
 /// A symmetric positive semi-definite matrix to the power `e`, eigenvalues below
