@@ -210,6 +210,11 @@ pub fn place(
         Setting::StudyModerators,
     )?;
     let mut warnings = model_warnings(p, &fit, design.as_ref(), &x0)?;
+    if p.grouped && dependent.is_none() {
+        warnings.push(Warning::DependenceNotModelled {
+            part: "the placement (--dependence aggregate or ignore)".into(),
+        });
+    }
     let (k, np) = (fit.k, fit.p);
     let (mut expected_t, var_t) = fit.predict(&x0);
     // The new study's sampling variance at the expected coefficient, so that the range
@@ -221,6 +226,15 @@ pub fn place(
         // The pooled benchmark of a multilevel fit: the first coefficient's own interval
         // (its Satterthwaite df under robust inference).
         Some(d) if x0 == [1.0] => d.summary.coefficients[0].ci,
+        // At moderator values, under robust inference: the contrast x₀'s own df.
+        Some(d) if d.summary.inference == crate::pool::dependence::Inference::Robust => {
+            let s = &d.summary;
+            let df = crate::pool::multilevel::contrast_df(&s.data, &s.fit, &x0)?;
+            Interval::around(
+                expected_t,
+                crate::dist::t_quantile(options.level.upper(), df) * se_t,
+            )
+        }
         _ => Interval::around(expected_t, fit.critical_value() * se_t),
     };
     // Under the common-effect model the range is that of the one true value (τ² = 0).
@@ -326,17 +340,22 @@ fn known_cluster(
         .grouping_of(used)
         .ok_or_else(|| Error::cannot("the sheet has no clusters"))?;
     let records: Vec<&crate::sheet::StudyRecord> = used.iter().map(|&i| &p.records[i]).collect();
-    let hit = records.iter().position(|r| {
-        r.cluster
-            .as_deref()
-            .or(r.sample.as_deref())
-            .is_some_and(|c| c.trim().to_lowercase() == wanted)
-    });
+    // A cluster of that name first; else a sample of that name that is its own cluster.
+    let named = |s: Option<&str>| s.is_some_and(|c| c.trim().to_lowercase() == wanted);
+    let hit = records
+        .iter()
+        .position(|r| named(r.cluster.as_deref()))
+        .or_else(|| {
+            records
+                .iter()
+                .position(|r| r.cluster.is_none() && named(r.sample.as_deref()))
+        });
     let Some(row) = hit else {
         let mut names: Vec<String> = records
             .iter()
             .filter_map(|r| r.cluster.clone().or_else(|| r.sample.clone()))
             .collect();
+        names.sort();
         names.dedup();
         names.truncate(12);
         return Err(Error::setting(

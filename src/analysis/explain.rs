@@ -49,8 +49,26 @@ pub(crate) fn explain(
     let main = fit_main(p, design, s)?;
     let mut warnings = p.warnings.clone();
     warnings.extend(main.warnings.iter().cloned());
-    warnings.extend(not_modelled(p, s, e));
+    warnings.extend(not_modelled(p, s));
+    // The permutation test and the leave-one-out diagnostics refit the two-level model:
+    // beside a multilevel fit their numbers would compare two different models, so they
+    // are not run (and a warning says why).
+    let dependent = main.dependent.is_some();
+    let not_run = |what: &str, warnings: &mut Vec<Warning>| {
+        warnings.push(Warning::PartFailed {
+            what: what.into(),
+            why: crate::setting::Message::from(
+                "it does not yet respect rows that share samples or clusters, so it was not \
+                 run (use --dependence ignore to run it on rows taken as independent)"
+                    .to_string(),
+            ),
+        });
+    };
     let permutation = match e.permutations {
+        Some(_) if dependent => {
+            not_run("the permutation test", &mut warnings);
+            None
+        }
         Some(n) => Some(with_progress(progress, Task::Permutations, n, |tick| {
             permutation_test(p, &main, n, s.seed, tick)
         })?),
@@ -69,7 +87,10 @@ pub(crate) fn explain(
         }
         None => None,
     };
-    let infl = if e.influence {
+    let infl = if e.influence && dependent {
+        not_run("the leave-one-out diagnostics", &mut warnings);
+        None
+    } else if e.influence {
         let data = main.data(p)?;
         Some(with_progress(
             progress,
@@ -111,7 +132,7 @@ fn fit_main(p: &Prepared, design: Design, s: &Settings) -> Result<Explanation> {
 }
 
 /// The warnings of the parts that treat dependent rows as independent.
-fn not_modelled(p: &Prepared, s: &Settings, e: &ExplainSettings) -> Vec<Warning> {
+fn not_modelled(p: &Prepared, s: &Settings) -> Vec<Warning> {
     if !p.grouped {
         return Vec::new();
     }
@@ -119,21 +140,10 @@ fn not_modelled(p: &Prepared, s: &Settings, e: &ExplainSettings) -> Vec<Warning>
     let mut parts: Vec<&str> = Vec::new();
     match method {
         DependenceMethod::Multilevel => {}
-        DependenceMethod::Aggregate => parts.push("the meta-regression (with composites)"),
-        DependenceMethod::Ignore => {
-            return vec![Warning::DependenceNotModelled {
-                part: "the meta-regression (--dependence ignore)".into(),
-            }];
+        DependenceMethod::Aggregate => {
+            parts.push("the meta-regression (composites are formed only by pool)")
         }
-    }
-    if e.permutations.is_some() {
-        parts.push("the permutation test");
-    }
-    if e.score_spread {
-        parts.push("the score-spread test");
-    }
-    if e.influence {
-        parts.push("the leave-one-out diagnostics");
+        DependenceMethod::Ignore => parts.push("the meta-regression (--dependence ignore)"),
     }
     parts
         .into_iter()

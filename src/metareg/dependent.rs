@@ -9,7 +9,7 @@ use crate::benchmark::Prepared;
 use crate::dist::{chi2_sf, f_sf};
 use crate::error::{Error, Result};
 use crate::pool::dependence::{DependenceOptions, Inference, MultilevelSummary, summarize};
-use crate::pool::multilevel::{Grouping, HotellingTest, hotelling};
+use crate::pool::multilevel::{Grouping, HotellingTest, NestedData, hotelling};
 use crate::pool::{CiMethod, Coefficient, FitOptions, ModelFit, PoolOptions};
 use crate::warning::Warning;
 
@@ -94,8 +94,9 @@ pub fn explain_dependent(
         ));
     }
     let ones = nalgebra::DMatrix::from_element(y.len(), 1, 1.0);
-    let base = summarize(&y, &v, &ones, grouping, &pool, dependence)?;
-    let tau2_0 = base.fit.tau2_cluster + base.fit.tau2_within;
+    let base =
+        crate::pool::multilevel::fit(&NestedData::new(&y, &v, &ones, grouping)?, &s.fit.options)?;
+    let tau2_0 = base.tau2_cluster + base.tau2_within;
     let r2 = (tau2_0 > 0.0).then(|| (100.0 * (tau2_0 - fit.tau2.tau2) / tau2_0).max(0.0));
     let columns: Vec<usize> = (1..design.x.ncols()).collect();
     let robust_omnibus = hotelling(&s.data, &s.fit, &s.robust_cov, &columns)?;

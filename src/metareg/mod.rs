@@ -191,6 +191,7 @@ pub(crate) fn multilevel_grouping(
 ) -> Option<crate::pool::multilevel::Grouping> {
     use crate::pool::dependence::{DependenceMethod, method_in_force};
     p.grouping_of(used)
+        .filter(|g| g.clusters() < g.cluster.len())
         .filter(|_| method_in_force(&options.dependence, true) == DependenceMethod::Multilevel)
 }
 

@@ -406,10 +406,15 @@ fn score_spread_inner(
     let cols = x.ncols();
     let y: Vec<f64> = used.iter().map(|&i| sub.y[i]).collect();
     let v: Vec<f64> = used.iter().map(|&i| sub.v[i]).collect();
-    let (fit, tau2_without) = fit_with_and_without_sd(y, v, &x, options)?;
+    let grouping = super::multilevel_grouping(&sub, &used, options);
+    let (fit, tau2_without, slope_df) =
+        fit_with_and_without_sd(y, v, &x, options, grouping.as_ref())?;
     let slope = fit.coefficients[1];
     let stat2 = (slope.estimate + 2.0) / slope.se;
-    let p_minus_two = fit.two_sided_p(stat2);
+    let p_minus_two = match slope_df {
+        Some(df) => crate::dist::t_two_sided_p(stat2, df),
+        None => fit.two_sided_p(stat2),
+    };
     let tau2_share = tau2_share(options.model, tau2_without, fit.tau2.tau2);
     let reading = read_slope(slope.ci.lower, slope.ci.upper, slope.estimate, tau2_share);
     let model_sds: Vec<f64> = used.iter().map(|&i| sds[i]).collect();
@@ -622,16 +627,34 @@ fn spread_design(
 }
 
 /// Fit the score-spread model, and the same model without ln(SD) (the design's second
-/// column) for the share of τ² it explains: the fit and τ² without ln(SD).
+/// column) for the share of τ² it explains: the fit, τ² without ln(SD), and the slope's
+/// own degrees of freedom when it has them (a multilevel fit under robust inference).
+/// With a `grouping` both are the multilevel model (τ² the sum of its two variances).
 fn fit_with_and_without_sd(
     y: Vec<f64>,
     v: Vec<f64>,
     x: &DMatrix<f64>,
     options: &FitOptions,
-) -> Result<(ModelFit, f64)> {
+    grouping: Option<&crate::pool::multilevel::Grouping>,
+) -> Result<(ModelFit, f64, Option<f64>)> {
+    let keep_cols: Vec<usize> = (0..x.ncols()).filter(|&j| j != 1).collect();
+    if let Some(g) = grouping {
+        let pool = crate::pool::PoolOptions {
+            model: options.model,
+            ci: options.ci,
+            level: options.level,
+        };
+        let dep = &options.dependence;
+        let s = crate::pool::dependence::summarize(&y, &v, x, g, &pool, dep)?;
+        let fit = super::dependent::model_fit(&s, options, &y);
+        let without =
+            crate::pool::multilevel::NestedData::new(&y, &v, &x.select_columns(&keep_cols), g)?;
+        let w = crate::pool::multilevel::fit(&without, &s.fit.options)?;
+        let slope_df = s.coefficients[1].df;
+        return Ok((fit, w.tau2_cluster + w.tau2_within, slope_df));
+    }
     let data = MetaData::with_design(y.clone(), v.clone(), x.clone())?;
     let fit = fit_model(&data, options)?;
-    let keep_cols: Vec<usize> = (0..x.ncols()).filter(|&j| j != 1).collect();
     let without = MetaData::with_design(y, v, x.select_columns(&keep_cols))?;
     let fit_without = fit_model(
         &without,
@@ -640,7 +663,7 @@ fn fit_with_and_without_sd(
             ..*options
         },
     )?;
-    Ok((fit, fit_without.tau2.tau2))
+    Ok((fit, fit_without.tau2.tau2, None))
 }
 
 /// The share of τ² (without ln(SD)) that ln(SD) explains, in percent; `None` when

@@ -479,7 +479,14 @@ pub fn summarize(
         ci: first.ci,
         pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
     };
-    let sensitivity = sensitivity(&data, &ml, (inference, start, Some(in_force)), options)?;
+    let (sensitivity, refits_converged) =
+        sensitivity(&data, &ml, (inference, start, Some(in_force)), options)?;
+    if !refits_converged {
+        warnings.push(Warning::NotConverged {
+            what: "a refit at another sampling correlation (the sensitivity table)".into(),
+            iterations: super::tau2::TAU2_MAX_ITERATIONS,
+        });
+    }
     if f.clusters < FEW_STUDIES {
         warnings.push(Warning::FewStudies { k: f.clusters });
     }
@@ -646,8 +653,9 @@ fn sensitivity(
     ml: &MultilevelOptions,
     (inference, start, in_force): (Inference, Option<[f64; 2]>, Option<SensitivityRow>),
     options: &PoolOptions,
-) -> Result<Vec<SensitivityRow>> {
+) -> Result<(Vec<SensitivityRow>, bool)> {
     let mut out = Vec::with_capacity(SENSITIVITY_CORRELATIONS.len());
+    let mut converged = true;
     for r in SENSITIVITY_CORRELATIONS {
         // The correlation in force is the main fit itself.
         if let Some(row) = in_force.filter(|row| row.sampling_correlation == r) {
@@ -662,6 +670,7 @@ fn sensitivity(
             },
             start,
         )?;
+        converged &= f.converged();
         let first = match inference {
             Inference::Robust => cluster_robust(&f, &cr2(data, &f)?, options.level)[0],
             Inference::Model => model_based(&f, options.ci, options.level)[0],
@@ -673,5 +682,5 @@ fn sensitivity(
             pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
         });
     }
-    Ok(out)
+    Ok((out, converged))
 }

@@ -252,8 +252,9 @@ fn explain_fits_the_multilevel_model_with_robust_tests_of_every_coefficient() {
         0.0,
         "omnibus = Hotelling",
     );
-    // Leave-one-out diagnostics do not model the dependence yet, and say so.
-    assert!(warning_codes(&j).contains(&"dependence_not_modelled".to_string()));
+    // Leave-one-out diagnostics do not respect the dependence yet: not run, and said so.
+    assert!(j["influence"].is_null());
+    assert!(warning_codes(&j).contains(&"part_failed".to_string()));
     let model = json_ok(&[
         "explain",
         &p,
@@ -338,4 +339,37 @@ fn check_places_a_study_in_a_new_or_a_known_cluster() {
         "A",
     ]);
     assert_eq!(out.status.code(), Some(2));
+}
+
+/// The score-spread test of dependent rows is the multilevel model too: ln(1 − coefficient)
+/// on ln(SD), its slope tested on its own Satterthwaite df.
+#[test]
+fn the_score_spread_test_models_the_dependence() {
+    let sds = [
+        "0.62", "0.62", "0.55", "0.80", "0.78", "0.45", "0.66", "0.58", "0.70", "0.40", "0.75",
+        "0.52", "0.52", "0.90",
+    ];
+    let mut lines = SHEET.lines();
+    let mut text = format!("{},sd,sd_metric\n", lines.next().unwrap());
+    for (line, sd) in lines.zip(sds) {
+        text.push_str(&format!("{line},{sd},mean\n"));
+    }
+    let p = sheet("dep-spread", &text);
+    let j = json_ok(&["explain", &p, "--score-spread", "--json"]);
+    let s = &j["score_spread"];
+    assert_eq!(s["k"], 14);
+    // The spread model's slope carries the robust test of the main model's kind.
+    assert!(!warning_codes(&j).contains(&"dependence_not_modelled".to_string()));
+    let plain = json_ok(&[
+        "explain",
+        &p,
+        "--score-spread",
+        "--dependence",
+        "ignore",
+        "--json",
+    ]);
+    assert!(
+        (s["se"].as_f64().unwrap() - plain["score_spread"]["se"].as_f64().unwrap()).abs() > 1e-6,
+        "the multilevel slope's SE differs from the independent one"
+    );
 }

@@ -391,7 +391,7 @@ fn model_words(p: &PoolResult) -> String {
                     p.tau2.iterations,
                     if p.tau2.iterations == 1 { "" } else { "s" }
                 ),
-                Termination::IterationLimit => {
+                Termination::IterationLimit | Termination::Stalled => {
                     format!("NOT converged after {} iterations", p.tau2.iterations)
                 }
             };
@@ -407,7 +407,7 @@ fn model_words(p: &PoolResult) -> String {
 /// The multilevel model in words.
 fn multilevel_words(p: &PoolResult, d: &DependenceResult) -> String {
     let how = match p.tau2.termination {
-        Termination::IterationLimit => {
+        Termination::IterationLimit | Termination::Stalled => {
             format!("NOT converged after {} iterations", p.tau2.iterations)
         }
         _ => format!("converged in {} iterations", p.tau2.iterations),

@@ -145,12 +145,21 @@ impl NestedData {
     }
 
     /// The same data with effects divided by √s and variances by s, s the median
-    /// sampling variance (so that tolerances are relative to the typical variance).
+    /// sampling variance (so that tolerances are relative to the typical variance), and
+    /// the effects centred at their mean when the design has an intercept: for the
+    /// estimation of the variances only (β̂ is taken from the unscaled data).
     pub(crate) fn rescaled(&self) -> (NestedData, f64) {
         let s = crate::numeric::select_quantile(&mut self.v.clone(), 0.5);
         let root = s.sqrt();
         let mut out = self.clone();
-        out.y.iter_mut().for_each(|y| *y /= root);
+        // With an intercept, centring the effects changes only the intercept, not the
+        // likelihood of the variances: it spares the quadratic forms a cancellation.
+        let centre = if (0..self.k()).all(|i| self.x[(i, 0)] == 1.0) {
+            self.y.iter().sum::<f64>() / self.k() as f64
+        } else {
+            0.0
+        };
+        out.y.iter_mut().for_each(|y| *y = (*y - centre) / root);
         out.v.iter_mut().for_each(|v| *v /= s);
         (out, s)
     }

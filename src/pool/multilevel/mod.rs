@@ -19,7 +19,7 @@ mod robust;
 
 pub use data::{Grouping, NestedData};
 pub use profile::{ComponentInterval, LikelihoodRatio, cluster_test, component_intervals};
-pub use robust::{HotellingTest, RobustCovariance, cr2, hotelling};
+pub use robust::{HotellingTest, RobustCovariance, contrast_df, cr2, hotelling};
 
 use super::tau2::{TAU2_FLOOR, TAU2_MAX_ITERATIONS, TAU2_TOLERANCE, Termination};
 use crate::error::{Error, Result};
@@ -79,9 +79,9 @@ pub struct MultilevelFit {
     pub iterations: usize,
     /// Why the scoring stopped.
     pub termination: Termination,
-    /// Each row's share of the first coefficient's estimate, in percent, in input order
-    /// (the row sums of V⁻¹ for plain pooling; negative shares can occur when sampling
-    /// errors are correlated).
+    /// Each row's weight in percent, in input order: the row sums of V⁻¹ over their total —
+    /// for plain pooling each row's share of the pooled value (negative shares can occur
+    /// when sampling errors are correlated); with moderators a relative weight for figures.
     pub weights_percent: Vec<f64>,
 }
 
@@ -175,7 +175,9 @@ pub fn fit_with_components(
 /// centre x₀β̂ + û_j with û_j = τ²_c·1ᵀV_j⁻¹(y_j − X_jβ̂) (the best linear unbiased predictor)
 /// and its prediction-error variance
 /// x₀ᵀMx₀ + τ²_c − τ²_c²·1ᵀV_j⁻¹1 + τ²_c²·bᵀMb − 2τ²_c·x₀ᵀMb, b = X_jᵀV_j⁻¹1, M = (XᵀV⁻¹X)⁻¹
-/// (model-based). A new sample of the cluster adds τ²_within.
+/// (model-based). A new sample of the cluster adds τ²_within. `cluster` is the cluster's
+/// number in the [`Grouping`] (clusters are numbered 0, 1, … without gaps, and the data's
+/// blocks are in that order).
 ///
 /// # References
 /// Henderson, C. R. (1975). Best linear unbiased estimation and prediction under a
@@ -280,13 +282,23 @@ pub(crate) fn maximize_to(
             return Ok(done(theta, &current, it - 1, Termination::Converged));
         }
         let step = scoring_step(&current, &free);
-        let (next, eval) = halve_until_better(d, options, theta, step, &current)?;
-        let moved = (0..2).all(|i| {
-            (next[i] - theta[i]).abs() <= tolerance * next[i].max(theta[i]).max(TAU2_FLOOR)
+        // Converged when the whole (projected) scoring step is within the tolerance: a
+        // step that had to be halved says nothing about being near the maximum.
+        let full = [0, 1].map(|i| (theta[i] + step[i]).max(0.0));
+        let small = (0..2).all(|i| {
+            (full[i] - theta[i]).abs() <= tolerance * full[i].max(theta[i]).max(TAU2_FLOOR)
         });
+        let Some((next, eval)) = halve_until_better(d, options, theta, step, &current)? else {
+            let stop = if small {
+                Termination::Converged
+            } else {
+                Termination::Stalled
+            };
+            return Ok(done(theta, &current, it, stop));
+        };
         theta = next;
         current = eval;
-        if moved {
+        if small {
             return Ok(done(theta, &current, it, Termination::Converged));
         }
     }
@@ -327,25 +339,26 @@ fn scoring_step(e: &Evaluation, free: &[usize]) -> [f64; 2] {
     step
 }
 
-/// Take the step (projected onto θ ≥ 0), halving it while the likelihood falls.
+/// Take the step (projected onto θ ≥ 0), halving it while the likelihood falls; `None`
+/// when no fraction of it raised the likelihood.
 fn halve_until_better(
     d: &NestedData,
     options: &MultilevelOptions,
     theta: [f64; 2],
     step: [f64; 2],
     current: &Evaluation,
-) -> Result<([f64; 2], Evaluation)> {
+) -> Result<Option<([f64; 2], Evaluation)>> {
     let (r, restricted) = (options.sampling_correlation, options.restricted);
     let mut t = 1.0;
     for _ in 0..MAX_HALVINGS {
         let next = [0, 1].map(|i| (theta[i] + t * step[i]).max(0.0));
         let eval = evaluate(d, r, next, restricted, true)?;
         if eval.log_lik >= current.log_lik - 1e-12 * current.log_lik.abs().max(1.0) {
-            return Ok((next, eval));
+            return Ok(Some((next, eval)));
         }
         t /= 2.0;
     }
-    Ok((theta, current.clone()))
+    Ok(None)
 }
 
 /// Each row's share of the first coefficient's estimate in percent: the row sums of V⁻¹

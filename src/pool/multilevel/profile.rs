@@ -122,7 +122,7 @@ fn lower_end(
             lo = 0.0;
             break;
         }
-        if f(lo) < 0.0 {
+        if outside(f(lo)) {
             break;
         }
         hi = lo;
@@ -139,6 +139,12 @@ fn lower_end(
             lo.max(0.0)
         }
     }
+}
+
+/// True when a profile value (minus its threshold) lies outside the interval, or could not
+/// be computed.
+fn outside(value: f64) -> bool {
+    value.is_nan() || value < 0.0
 }
 
 impl ComponentInterval {
@@ -171,7 +177,9 @@ fn interval(mut f: impl FnMut(f64) -> f64, at: f64, step: f64) -> ComponentInter
     let mut grow = step;
     let mut bracketed = false;
     for _ in 0..MAX_DOUBLINGS {
-        if f(hi) < 0.0 {
+        // A point whose profile could not be computed ends the search as if outside
+        // (the root search then fails and the interval is marked not converged).
+        if outside(f(hi)) {
             bracketed = true;
             break;
         }

@@ -6,9 +6,9 @@ use super::data::{NestedData, inverse_and_log_det};
 use crate::error::Result;
 use nalgebra::{DMatrix, DVector, SymmetricEigen};
 
-/// Eigenvalues of a cluster's adjustment matrix below this share of its largest are
-/// treated as 0 (a cluster that determines a coefficient on its own: the generalized
-/// inverse square root is used).
+/// Eigenvalues of a cluster's adjustment matrix below this share of its scale (that of
+/// V̂ⱼ²) are treated as 0 (a cluster that determines a coefficient on its own: the
+/// generalized inverse square root is used).
 const EIGEN_FLOOR: f64 = 1e-12;
 
 /// The CR2 covariance of a fit's coefficients and the Satterthwaite degrees of freedom of
@@ -69,6 +69,33 @@ pub fn cr2(d: &NestedData, fit: &MultilevelFit) -> Result<RobustCovariance> {
         cov: total.meat,
         df,
     })
+}
+
+/// The Satterthwaite degrees of freedom of the CR2 test of one contrast cᵀβ (as [`cr2`]
+/// computes them for each coefficient).
+pub fn contrast_df(d: &NestedData, fit: &MultilevelFit, c: &[f64]) -> Result<f64> {
+    let p = d.p();
+    let m = &fit.cov;
+    let cv = DVector::from_column_slice(c);
+    let r = fit.options.sampling_correlation;
+    let theta = [fit.tau2_cluster, fit.tau2_within];
+    let (mut num, mut d2, mut da) = (0.0, 0.0, 0.0);
+    let mut g_sum = DMatrix::<f64>::zeros(p, p);
+    for b in &d.blocks {
+        let vj = d.marginal_cov(b, r, theta);
+        let (wj, _) = inverse_and_log_det(vj.clone())?;
+        let x = d.x_of(b);
+        let g = adjustment(&vj, &x, m) * &wj * &x * m * &cv;
+        let dj = (g.transpose() * &vj * &g)[(0, 0)];
+        let a = x.transpose() * &g;
+        let ama = (a.transpose() * m * &a)[(0, 0)];
+        num += dj - ama;
+        d2 += dj * dj;
+        da += dj * ama;
+        g_sum += &a * a.transpose();
+    }
+    let mg = m * &g_sum;
+    Ok(num * num / (d2 - 2.0 * da + (&mg * &mg).trace()))
 }
 
 /// The sums over clusters behind CR2 and its degrees of freedom.
@@ -175,7 +202,7 @@ pub fn hotelling(
     let c = DMatrix::from_fn(q, p, |s, j| if columns[s] == j { 1.0 } else { 0.0 });
     let cmc = &c * m * c.transpose();
     // L = Cᵀ(CMCᵀ)^{-1/2}: its columns are Cᵀgₛ.
-    let l = c.transpose() * matrix_power(&cmc, -0.5);
+    let l = c.transpose() * matrix_power(&cmc, -0.5, EIGEN_FLOOR * cmc.diagonal().max());
     let r = fit.options.sampling_correlation;
     let theta = [fit.tau2_cluster, fit.tau2_within];
     let mut single = 0.0;
@@ -229,30 +256,29 @@ pub fn hotelling(
 /// Aⱼ = Dⱼᵀ (Dⱼ(V̂ⱼ − XⱼMXⱼᵀ)Dⱼᵀ)^{-1/2} Dⱼ with Dⱼ = Lᵀ, V̂ⱼ = LLᵀ (the upper Cholesky
 /// factor: DⱼᵀDⱼ = V̂ⱼ; any such factor gives the same Aⱼ).
 fn adjustment(v: &DMatrix<f64>, x: &DMatrix<f64>, m: &DMatrix<f64>) -> DMatrix<f64> {
+    // Bⱼ is on the scale of V̂ⱼ²: its eigenvalues below 1e-12 of that scale are rounding
+    // (a cluster that determines a coefficient on its own) and are treated as 0.
+    let top = v.diagonal().max();
+    let floor = EIGEN_FLOOR * top * top;
     let Some(chol) = nalgebra::Cholesky::new(v.clone()) else {
         // Not positive definite: the symmetric root (of the non-negative part) instead.
-        let root = matrix_power(v, 0.5);
+        let root = matrix_power(v, 0.5, EIGEN_FLOOR * top);
         let b = &root * (v - x * m * x.transpose()) * &root;
-        return &root * matrix_power(&b, -0.5) * &root;
+        return &root * matrix_power(&b, -0.5, floor) * &root;
     };
     let l = chol.l();
     let b = l.transpose() * (v - x * m * x.transpose()) * &l;
-    &l * matrix_power(&b, -0.5) * l.transpose()
+    &l * matrix_power(&b, -0.5, floor) * l.transpose()
 }
 
-/// A symmetric positive semi-definite matrix to the power `e`, eigenvalues below
-/// [`EIGEN_FLOOR`] times the largest sent to 0.
-fn matrix_power(a: &DMatrix<f64>, e: f64) -> DMatrix<f64> {
+/// A symmetric positive semi-definite matrix to the power `e`, eigenvalues at or below
+/// `floor` (and any that is not a number) sent to 0.
+fn matrix_power(a: &DMatrix<f64>, e: f64, floor: f64) -> DMatrix<f64> {
     let sym = (a + a.transpose()) * 0.5;
     let eig = SymmetricEigen::new(sym);
-    let top = eig.eigenvalues.max();
-    let vals = eig.eigenvalues.map(|l| {
-        if l > EIGEN_FLOOR * top {
-            l.powf(e)
-        } else {
-            0.0
-        }
-    });
+    let vals = eig
+        .eigenvalues
+        .map(|l| if l > floor { l.powf(e) } else { 0.0 });
     &eig.eigenvectors * DMatrix::from_diagonal(&vals) * eig.eigenvectors.transpose()
 }
 
@@ -285,6 +311,13 @@ mod tests {
         .unwrap();
         let r = cr2(&d, &f).unwrap();
         let h = hotelling(&d, &f, &r, &[1]).unwrap().unwrap();
+        // The df of a unit contrast is that coefficient's own.
+        for j in 0..2 {
+            let mut c = [0.0; 2];
+            c[j] = 1.0;
+            let df = contrast_df(&d, &f, &c).unwrap();
+            assert!((df - r.df[j]).abs() < 1e-9 * r.df[j], "{df} vs {}", r.df[j]);
+        }
         let t = f.beta[1] / r.cov[(1, 1)].sqrt();
         assert!(
             (h.statistic - t * t).abs() < 1e-9 * t * t,

@@ -164,6 +164,9 @@ pub enum Termination {
     Converged,
     /// The iteration limit was reached first: the value may be wrong.
     IterationLimit,
+    /// No step along the scoring direction raised the likelihood although the tolerance
+    /// was not met (a multilevel fit): the value may be wrong.
+    Stalled,
 }
 
 /// An estimate of τ² with how it was reached.
@@ -192,7 +195,10 @@ impl Tau2Fit {
 
     /// True unless an iterative estimator ran out of iterations.
     pub fn converged(&self) -> bool {
-        self.termination != Termination::IterationLimit
+        !matches!(
+            self.termination,
+            Termination::IterationLimit | Termination::Stalled
+        )
     }
 }
 
