@@ -14,6 +14,10 @@ Workloads (issue 7):
   b. explain: k = 300, 5 moderators, 10,000 permutations
   c. items: 1,000,000 respondents x 40 five-point items (CSV, about 80 MB)
   d. correct: one correlation, 1,000,000 Monte Carlo draws
+  e. pool of dependent rows: 100,000 rows in 10,000 clusters of 10 (1 to 3 samples each);
+     relyard's whole `pool` (REML fit, CR2, profile intervals, likelihood-ratio test,
+     sensitivity refits) against a numpy baseline of the REML fit and CR2 alone, batched
+     over the clusters (so the baseline does less of the work)
 
 The baselines use the same algorithms as relyard (Fisher scoring for REML, a root finder
 for the Q-profile limits, REML refits per permutation, one pass over the data for the
@@ -71,12 +75,27 @@ def make_items(path, rows, k, rng, chunk=100_000):
             done += m
 
 
+def make_nested_sheet(path, clusters, rng, rows=10):
+    """Rows of invented samples nested in invented clusters, from the multilevel model."""
+    with open(path, "w") as f:
+        f.write("study,sample,cluster,coef,n,items\n")
+        for c in range(clusters):
+            u = rng.normal(scale=0.2)
+            samples = int(rng.integers(1, 4))
+            for i in range(rows):
+                n = int(rng.integers(80, 600))
+                v = 2 * 8 / (7 * (n - 2))
+                t = np.log(1 - 0.8) + u + rng.normal(scale=0.1) + rng.normal() * np.sqrt(v)
+                f.write(f"r{c * rows + i},s{c}_{i % samples},c{c},{1 - np.exp(t):.4f},{n},8\n")
+
+
 def make_inputs(d):
     os.makedirs(d, exist_ok=True)
     rng = np.random.default_rng(SEED)
     make_pool_sheet(os.path.join(d, "pool-100k.csv"), 100_000, rng)
     make_pool_sheet(os.path.join(d, "explain-300.csv"), 300, rng, moderators=5)
     make_items(os.path.join(d, "items-1m-40.csv"), 1_000_000, 40, rng)
+    make_nested_sheet(os.path.join(d, "nested-100k.csv"), 10_000, rng)
     print(f"inputs written to {d}")
 
 
@@ -123,6 +142,64 @@ tau_ci = (root(lo_t), root(hi_t))
 pi_half = stats.t.ppf(0.975, K - 2) * np.sqrt(t + se_kh ** 2)
 pi = (mu - pi_half, mu + pi_half)
 print(1 - np.exp(mu), t, tau_ci, 1 - np.exp(pi[1]), 1 - np.exp(pi[0]))
+'''
+
+BASELINE_NESTED = r'''
+import sys, numpy as np, pandas as pd
+df = pd.read_csv(sys.argv[1])
+a, n = df["coef"].to_numpy(), df["n"].to_numpy(float)
+y = np.log(1 - a); v = 2 * 8 / (7 * (n - 2))
+cl = pd.factorize(df["cluster"])[0]; sa = pd.factorize(df["sample"])[0]
+order = np.argsort(cl, kind="stable")
+m = cl.max() + 1; size = 10  # every cluster of the input holds 10 rows
+Y = y[order].reshape(m, size); Vs = v[order].reshape(m, size); S_ = sa[order].reshape(m, size)
+r = 0.6
+same = S_[:, :, None] == S_[:, None, :]
+S = np.where(same, r * np.sqrt(Vs[:, :, None] * Vs[:, None, :]), 0.0)
+S[:, np.arange(size), np.arange(size)] = Vs
+ones = np.ones(size)
+def parts(c, w):
+    V = S + c + w * np.eye(size)
+    W = np.linalg.inv(V)
+    u = W.sum(axis=2)
+    A = u.sum(); b = (u * Y).sum(); beta = b / A
+    q = np.einsum("mij,mj->mi", W, Y - beta)
+    return W, u, A, beta, q
+th = np.array([0.02, 0.02])
+for it in range(200):
+    W, u, A, beta, q = parts(*th)
+    s1 = u.sum(axis=1)
+    # REML score and expected information in (c, w), intercept only.
+    trWJ = s1.sum(); trW = np.trace(W, axis1=1, axis2=2).sum()
+    Bc = (s1 ** 2).sum(); Bw = (u ** 2).sum()
+    tr_pc = trWJ - Bc / A; tr_pw = trW - Bw / A
+    score = 0.5 * np.array([(q.sum(axis=1) ** 2).sum() - tr_pc, (q ** 2).sum() - tr_pw])
+    WW = np.einsum("mij,mjk->mik", W, W)
+    t_cc = (s1 ** 2).sum(); t_cw = Bw; t_ww = (W ** 2).sum()
+    Wu = np.einsum("mij,mj->mi", W, u)
+    k_cc = (s1 ** 3).sum(); k_ww = np.einsum("mi,mi->", u, Wu); k_cw = (s1 * (u ** 2).sum(axis=1)).sum()
+    I = 0.5 * np.array([[t_cc - 2 * k_cc / A + (Bc / A) ** 2, t_cw - 2 * k_cw / A + Bc * Bw / A ** 2],
+                        [t_cw - 2 * k_cw / A + Bc * Bw / A ** 2, t_ww - 2 * k_ww / A + (Bw / A) ** 2]])
+    step = np.linalg.solve(I, score)
+    new = np.maximum(th + step, 0.0)
+    if np.all(np.abs(new - th) <= 1e-10 * np.maximum(new, 1e-4)):
+        th = new; break
+    th = new
+W, u, A, beta, q = parts(*th)
+# CR2 for the intercept: A_j = D'(D(V - 1M1')D')^(-1/2)D with D' D = V (Cholesky).
+V = S + th[0] + th[1] * np.eye(size)
+L = np.linalg.cholesky(V)
+M = 1 / A
+B = np.einsum("mji,mjk,mkl->mil", L, V - M, L)
+ev, evec = np.linalg.eigh(B)
+Bih = np.einsum("mij,mj,mkj->mik", evec, ev ** -0.5, evec)
+Aj = np.einsum("mij,mjk,mlk->mil", L, Bih, L)
+g = np.einsum("mij,mjk,k->mi", Aj, W, ones) * M
+e = Y - beta
+cr2 = (np.einsum("mi,mi->m", g, e) ** 2).sum()
+dj = np.einsum("mi,mij,mj->m", g, V, g); aj = g.sum(axis=1)
+num = (dj - M * aj ** 2).sum(); den = (dj ** 2).sum() - 2 * (dj * M * aj ** 2).sum() + (M * (aj ** 2).sum()) ** 2
+print(beta, th, np.sqrt(cr2), num ** 2 / den)
 '''
 
 BASELINE_EXPLAIN = r'''
@@ -245,6 +322,9 @@ def run(d, repeat):
          [exe, "correct", "--r", "0.3", "--n", "200", "--rel-x", "0.8,n=200,items=10",
           "--rel-y", "0.7,n=200,items=8", "--draws", "1000000"],
          [py, "-c", BASELINE_CORRECT, "1000000"], 0.1, 5),
+        ("e. pool, 100,000 rows in 10,000 clusters",
+         [exe, "pool", f"{d}/nested-100k.csv", "--json"],
+         [py, "-c", BASELINE_NESTED, f"{d}/nested-100k.csv"], 0.5, 1),
     ]
     rows = []
     for name, ours, theirs, target, factor in cases:
