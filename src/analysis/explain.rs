@@ -140,9 +140,7 @@ fn not_modelled(p: &Prepared, s: &Settings) -> Vec<Warning> {
     let mut parts: Vec<&str> = Vec::new();
     match method {
         DependenceMethod::Multilevel => {}
-        DependenceMethod::Aggregate => {
-            parts.push("the meta-regression (composites are formed only by pool)")
-        }
+        DependenceMethod::Aggregate => {}
         DependenceMethod::Ignore => parts.push("the meta-regression (--dependence ignore)"),
     }
     parts

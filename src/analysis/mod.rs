@@ -100,7 +100,9 @@ pub struct PlanOutcome {
 pub struct Analysis {
     /// The settings the run was given.
     pub settings: Settings,
-    /// The coding sheet, read and checked, its studies on the analysis scale.
+    /// The coding sheet, read and checked, its studies on the analysis scale (one composite
+    /// per sample under dependence aggregate, as the models other than the benchmark saw
+    /// them).
     pub prepared: Option<Prepared>,
     /// The SHA-256 of the coding sheet's bytes (hex).
     pub sheet_sha256: Option<String>,
@@ -183,11 +185,23 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
         )?),
         _ => None,
     };
-    let explanation = match (&prepared, &settings.explain) {
+    // Composites of each sample for the models other than the benchmark's own (which forms
+    // them itself, at every sampling correlation of its sensitivity table).
+    let modelled = prepared.as_ref().map(|p| {
+        let dep = &settings.model.dependence;
+        match crate::pool::dependence::method_in_force(dep, p.grouped) {
+            crate::pool::dependence::DependenceMethod::Aggregate => {
+                p.aggregated(dep.sampling_correlation)
+            }
+            _ => p.clone(),
+        }
+    });
+    let prepared_for_models = &modelled;
+    let explanation = match (prepared_for_models, &settings.explain) {
         (Some(p), Some(e)) => Some(explain::explain(p, settings, e, progress)?),
         _ => None,
     };
-    let placement = match (&prepared, &settings.new_study) {
+    let placement = match (prepared_for_models, &settings.new_study) {
         (Some(p), Some(n)) => Some(place(
             p,
             &n.study,
@@ -205,7 +219,7 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
     let correction = match &settings.correction {
         Some(c) => Some(correction::correct(
             c,
-            prepared.as_ref(),
+            prepared_for_models.as_ref(),
             settings,
             progress,
         )?),
@@ -228,7 +242,9 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
     };
     Ok(Analysis {
         settings: settings.clone(),
-        prepared,
+        // The studies as the explanation, the placement and the correction saw them (one
+        // composite per sample under dependence aggregate; the benchmark lists its own).
+        prepared: modelled,
         sheet_sha256,
         benchmark,
         explanation,

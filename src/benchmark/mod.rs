@@ -9,7 +9,7 @@ use crate::pool::multilevel::Grouping;
 use crate::pool::{PoolOptions, PoolResult, pool};
 use crate::setting::msg;
 use crate::setting::{Message, Setting, given};
-use crate::sheet::{CodingSheet, Role, SheetSummary, StudyRecord};
+use crate::sheet::{CodingSheet, ColumnRef, Role, SheetSummary, StudyRecord};
 use crate::transform::{
     BackInterval, CoefficientFamily, CoefficientTransform, InputField, StudyInput, TransformKind,
     Transformed, back_interval,
@@ -128,6 +128,10 @@ pub struct Prepared {
     pub grouped: bool,
     /// Which rows share a sample or a cluster (when some do).
     grouping: Option<Grouping>,
+    /// For composites of samples (one study per sample): the columns whose values differ
+    /// between the rows of one sample, each with the first such sample and its rows; such
+    /// a column cannot be a moderator of the composites.
+    pub varying_within_sample: Vec<(ColumnRef, String, Vec<usize>)>,
     /// Sheet-level warnings.
     pub warnings: Vec<Warning>,
 }
@@ -136,6 +140,83 @@ impl Prepared {
     /// Which rows share a sample or a cluster, when the sheet says.
     pub fn grouping(&self) -> Option<Grouping> {
         self.grouping.clone()
+    }
+
+    /// One study per sample, for the models fitted to composites (dependence aggregate):
+    /// each sample's rows averaged on the analysis scale with the variance of a mean of
+    /// estimates correlated at `r`, listed under the sample's name at its first row; the
+    /// composites are taken as independent (a warning says when several share a cluster).
+    /// A sheet whose rows share nothing is returned as it is.
+    pub fn aggregated(&self, r: f64) -> Prepared {
+        let Some(g) = &self.grouping else {
+            return self.clone();
+        };
+        let options = DependenceOptions {
+            sampling_correlation: r,
+            ..DependenceOptions::default()
+        };
+        let (records, y, v) = composite_studies(
+            self.records.clone(),
+            &self.y,
+            &self.v,
+            g,
+            &options,
+            self.transform.get(),
+        );
+        let mut warnings = self.warnings.clone();
+        if g.clusters() < records.len() {
+            warnings.push(Warning::ClusterDependenceRemains {
+                samples: records.len(),
+                clusters: g.clusters(),
+            });
+        }
+        Prepared {
+            records,
+            y,
+            v,
+            grouped: false,
+            grouping: None,
+            varying_within_sample: self.varying_columns(g),
+            warnings,
+            ..self.clone_shell()
+        }
+    }
+
+    /// The columns whose values differ between the rows of one sample.
+    fn varying_columns(&self, g: &Grouping) -> Vec<(ColumnRef, String, Vec<usize>)> {
+        let mut columns: Vec<ColumnRef> = [
+            Role::Items,
+            Role::CoefType,
+            Role::Sd,
+            Role::SdMetric,
+            Role::ScaleMin,
+            Role::ScaleMax,
+        ]
+        .into_iter()
+        .filter(|r| self.columns.contains_key(r))
+        .map(ColumnRef::Standard)
+        .collect();
+        columns.extend((0..self.extra_columns.len()).map(ColumnRef::Other));
+        let mut members: Vec<Vec<usize>> = vec![Vec::new(); g.samples()];
+        for (i, &s) in g.sample.iter().enumerate() {
+            members[s].push(i);
+        }
+        let mut out = Vec::new();
+        for c in columns {
+            let differing = members.iter().find(|m| {
+                let first = self.records[m[0]].value(c);
+                m.iter().any(|&i| self.records[i].value(c) != first)
+            });
+            if let Some(m) = differing {
+                let r = &self.records[m[0]];
+                out.push((
+                    c,
+                    r.sample.clone().unwrap_or_else(|| r.label.clone()),
+                    m.iter().map(|&i| self.records[i].row).collect(),
+                ));
+            }
+        }
+        out
     }
 
     /// The grouping of the studies at `indices` (in that order), when the sheet groups
@@ -171,6 +252,7 @@ impl Prepared {
             skipped: self.skipped.clone(),
             grouped: self.grouped,
             grouping: None,
+            varying_within_sample: self.varying_within_sample.clone(),
             warnings: Vec::new(),
         }
     }
@@ -282,6 +364,7 @@ pub fn prepare_from(
         skipped,
         grouped: grouping.is_some(),
         grouping,
+        varying_within_sample: Vec::new(),
         warnings,
     })
 }

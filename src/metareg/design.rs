@@ -306,8 +306,23 @@ fn moderator_column(p: &Prepared, name: &str) -> Result<ColumnRef> {
             msg![given(Setting::Moderators, name), format!(": {why}")],
         )
     };
-    match find_column(&p.columns, &p.extra_columns, name) {
+    let found = find_column(&p.columns, &p.extra_columns, name);
+    if let Some(c) = found
+        && let Some((_, sample, rows)) = p.varying_within_sample.iter().find(|(v, ..)| *v == c)
+    {
+        return Err(not(&format!(
+            "its value differs between the rows of one sample (sample \"{sample}\", {}), so \
+             it cannot be a moderator of one composite per sample; use the multilevel model \
+             (the default) instead of composites",
+            crate::warning::list_rows(rows)
+        )));
+    }
+    match found {
         Some(ColumnRef::Standard(role)) => match role {
+            Role::Sample | Role::Cluster => Err(not(
+                "sample and cluster say which rows share respondents or a paper; the model \
+                 uses them as its levels of variation, not as moderators",
+            )),
             Role::Coef => Err(not(
                 "coef holds the coefficients the moderators are to explain; it cannot also \
                  explain them",

@@ -373,3 +373,60 @@ fn the_score_spread_test_models_the_dependence() {
         "the multilevel slope's SE differs from the independent one"
     );
 }
+
+/// Under --dependence aggregate the explanation and the placement work on one composite
+/// per sample; a moderator that varies within a sample, and sample or cluster as a
+/// moderator, are refused with the reason.
+#[test]
+fn composites_reach_every_model_and_their_moderators_are_checked() {
+    let p = sheet_with_moderators("dep-aggregate");
+    let j = json_ok(&[
+        "explain",
+        &p,
+        "--moderator",
+        "year",
+        "--dependence",
+        "aggregate",
+        "--json",
+    ]);
+    assert_eq!(j["k"], 11, "one composite per sample");
+    assert!(j.get("dependence").is_none());
+    assert!(warning_codes(&j).contains(&"cluster_dependence_remains".to_string()));
+    let out = relyard(&[
+        "explain",
+        &p,
+        "--moderator",
+        "setting",
+        "--dependence",
+        "aggregate",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("sample \"A1\", rows 2 and 3"), "{err}");
+    for column in ["sample", "cluster"] {
+        let out = relyard(&["explain", &p, "--moderator", column]);
+        assert_eq!(out.status.code(), Some(2), "{column}");
+    }
+    let check = json_ok(&[
+        "check",
+        &p,
+        "--coef",
+        "0.8",
+        "--n",
+        "200",
+        "--items",
+        "8",
+        "--dependence",
+        "aggregate",
+        "--json",
+    ]);
+    assert_eq!(check["k"], 11);
+    let pool = json_ok(&["pool", &p, "--dependence", "aggregate", "--json"]);
+    assert_json_close(
+        &check["expected"],
+        &pool["reliability"]["estimate"],
+        1e-12,
+        0.0,
+        "check and pool agree on the composites",
+    );
+}
