@@ -16,6 +16,16 @@ pub enum Warning {
         /// Number of studies pooled.
         k: usize,
     },
+    /// Fewer than five clusters in a multilevel fit.
+    FewClusters {
+        /// Clusters.
+        clusters: usize,
+    },
+    /// Two clusters: a multilevel fit's prediction interval needs at least three.
+    NoClusterPrediction {
+        /// Clusters.
+        clusters: usize,
+    },
     /// Two studies: the prediction interval needs at least three.
     NoPredictionInterval {
         /// Number of studies pooled.
@@ -284,7 +294,10 @@ impl Warning {
     pub fn code(&self) -> &'static str {
         match self {
             Warning::FewStudies { .. } => "few_studies",
-            Warning::NoPredictionInterval { .. } => "no_prediction_interval",
+            Warning::NoPredictionInterval { .. } | Warning::NoClusterPrediction { .. } => {
+                "no_prediction_interval"
+            }
+            Warning::FewClusters { .. } => "few_clusters",
             Warning::Tau2AtZero { .. } => "tau2_at_zero",
             Warning::NotConverged { .. } => "not_converged",
             Warning::IntervalCapped { .. } => "interval_capped",
@@ -362,6 +375,8 @@ impl Warning {
             self,
             Warning::FewStudies { .. }
                 | Warning::NoPredictionInterval { .. }
+                | Warning::NoClusterPrediction { .. }
+                | Warning::FewClusters { .. }
                 | Warning::NotConverged { .. }
                 | Warning::CommonEffectAssumed
                 | Warning::CommonEffectContradicted { .. }
@@ -390,6 +405,17 @@ impl Warning {
                 "only {k} studies were pooled: the between-study variance and the prediction \
                  interval rest on very little information; read them as rough and look at the \
                  width of the τ² interval"
+            )],
+            Warning::FewClusters { clusters } => msg![format!(
+                "only {clusters} clusters were pooled: the variance between clusters, the \
+                 cluster-robust tests and the prediction interval rest on very little \
+                 information (the clusters, not the rows, are the independent units); read \
+                 them as rough"
+            )],
+            Warning::NoClusterPrediction { clusters } => msg![format!(
+                "with {clusters} clusters no prediction interval can be given (its t quantile \
+                 has clusters − 2 = 0 degrees of freedom); code more papers or samples to \
+                 state an expected range"
             )],
             Warning::NoPredictionInterval { k } => msg![format!(
                 "with k = {k} studies no prediction interval can be given (its t quantile has \

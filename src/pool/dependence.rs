@@ -488,7 +488,9 @@ pub fn summarize(
         });
     }
     if f.clusters < FEW_STUDIES {
-        warnings.push(Warning::FewStudies { k: f.clusters });
+        warnings.push(Warning::FewClusters {
+            clusters: f.clusters,
+        });
     }
     let dependence_result = DependenceResult {
         method: DependenceMethod::Multilevel,
@@ -561,7 +563,9 @@ fn multilevel(
     let prediction = match new_cluster_interval(&s.fit, first.se, options.level) {
         Some((interval, df)) => Prediction::Available { interval, df },
         None => {
-            warnings.push(Warning::NoPredictionInterval { k: s.fit.clusters });
+            warnings.push(Warning::NoClusterPrediction {
+                clusters: s.fit.clusters,
+            });
             Prediction::TooFewStudies
         }
     };

@@ -118,6 +118,17 @@ fn expectation(o: &mut String, b: &Benchmark, measure: Option<&str>) {
             "The common-effect model assumes one true coefficient for every setting, so it \
              states no expected range for a new one beyond the interval of the pooled value.",
         ),
+        _ if dependence(b).is_some_and(|d| d.method == DependenceMethod::Multilevel) => {
+            para(
+                o,
+                &format!(
+                    "No expected range can be stated: {} clusters leave the t quantile no \
+                     degrees of freedom (clusters − 2).",
+                    b.k_clusters
+                ),
+            );
+            para(o, "Code more papers or samples to state one.");
+        }
         _ => {
             para(
                 o,

@@ -216,10 +216,15 @@ fn check(d: &NestedData, options: &MultilevelOptions) -> Result<()> {
         )));
     }
     if d.clusters() < 2 {
-        return Err(Error::cannot(
+        return Err(Error::cannot(crate::setting::msg![
             "every row is in one cluster: a multilevel model needs at least two clusters to \
-             tell the variance between clusters from the pooled value",
-        ));
+             tell the variance between clusters from the pooled value; pool the rows as \
+             composites of their samples (",
+            crate::setting::given(crate::setting::Setting::Dependence, "aggregate"),
+            ") or as independent (",
+            crate::setting::given(crate::setting::Setting::Dependence, "ignore"),
+            ", intervals too narrow)"
+        ]));
     }
     if d.clusters() <= d.p() {
         return Err(Error::cannot(format!(
