@@ -88,8 +88,10 @@ pub(crate) fn explain(
         None => None,
     };
     let infl = if e.influence && dependent {
-        not_run("the leave-one-out diagnostics", &mut warnings);
-        None
+        let rows = main.design.used.len();
+        Some(with_progress(progress, Task::Influence, rows, |tick| {
+            crate::metareg::dependent::influence_dependent(p, &main, tick)
+        })?)
     } else if e.influence {
         let data = main.data(p)?;
         Some(with_progress(

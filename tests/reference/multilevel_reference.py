@@ -256,7 +256,37 @@ def htz(case, theta, columns):
             "df_den": eta - q + 1, "p": float(stats.f.sf(F, q, eta - q + 1))}
 
 
-def case_of(name, y, v, X, cluster, sample, r, restricted, source):
+def leave_one_out(case, restricted, theta, beta, M):
+    """Each row left out: the refit (dense, started at the full fit's variances), the
+    externally studentized residual from the full conditional distribution of the row given
+    every other row under the refit, and Cook's distance against the full fit."""
+    y, X, v = case["y"], case["X"], case["v"]
+    k, p = X.shape
+    out = []
+    for i in range(k):
+        keep = [j for j in range(k) if j != i]
+        sub = {"y": y[keep], "v": v[keep], "X": X[keep], "S": case["S"][np.ix_(keep, keep)],
+               "cluster": [case["cluster"][j] for j in keep],
+               "sample": [case["sample"][j] for j in keep]}
+        th, _ = maximize(sub, restricted, (None, None), starts=[list(theta)])
+        Vs, _ = marginal(sub, th)
+        Ws = np.linalg.inv(Vs)
+        Ms = np.linalg.inv(sub["X"].T @ Ws @ sub["X"])
+        bs = Ms @ sub["X"].T @ Ws @ sub["y"]
+        Vf, _ = marginal(case, th)
+        vio = Vf[i, keep]
+        w = np.linalg.solve(Vf[np.ix_(keep, keep)], vio)
+        mean = X[i] @ bs + w @ (y[keep] - X[keep] @ bs)
+        h = X[i] - X[keep].T @ w
+        var = Vf[i, i] - w @ vio + h @ Ms @ h
+        diff = beta - bs
+        out.append({"beta": bs.tolist(), "tau2": float(th[0] + th[1]),
+                    "rstudent": float((y[i] - mean) / math.sqrt(var)),
+                    "cooks": float(diff @ np.linalg.solve(M, diff) / p)})
+    return out
+
+
+def case_of(name, y, v, X, cluster, sample, r, restricted, source, loo=False):
     case = {"y": np.asarray(y, float), "v": np.asarray(v, float), "X": np.asarray(X, float),
             "cluster": list(cluster), "sample": list(sample)}
     case["S"] = sampling_cov(case["v"], sample, r)
@@ -288,6 +318,7 @@ def case_of(name, y, v, X, cluster, sample, r, restricted, source):
         "score_at_estimate": score(case, theta, restricted).tolist(),
         "htz": htz(case, theta, list(range(1, case["X"].shape[1]))) if case["X"].shape[1] > 1
         else None,
+        "leave_one_out": leave_one_out(case, restricted, theta, b, M) if loo else None,
     }
 
 
@@ -328,7 +359,7 @@ def multilevel_fixture(stamp):
     y2, v2, cl2, sa2, x2 = invented_sheet(rng, 15, 2, 3, 0.03, 0.03, 0.6, slope=0.1)
     X2 = np.column_stack([np.ones(len(y2)), x2])
     cases.append(case_of("moderator", y2, v2, X2, cl2, sa2, 0.6, True,
-                         "invented: 15 clusters, one numeric moderator"))
+                         "invented: 15 clusters, one numeric moderator", loo=True))
     # Two moderators: the second an invented category (0/1) by cluster.
     y6, v6, cl6, sa6, x6 = invented_sheet(rng, 16, 2, 3, 0.03, 0.02, 0.6, slope=0.05)
     grp = [float(int(c[1:]) % 2) for c in cl6]

@@ -252,9 +252,22 @@ fn explain_fits_the_multilevel_model_with_robust_tests_of_every_coefficient() {
         0.0,
         "omnibus = Hotelling",
     );
-    // Leave-one-out diagnostics do not respect the dependence yet: not run, and said so.
-    assert!(j["influence"].is_null());
-    assert!(warning_codes(&j).contains(&"part_failed".to_string()));
+    // Each row left out of the multilevel model in turn (checked against the dense
+    // reference in reference_multilevel.rs).
+    assert_eq!(j["influence"].as_array().unwrap().len(), 14);
+    assert!(!warning_codes(&j).contains(&"part_failed".to_string()));
+    // The permutation test does not respect the dependence yet: not run, and said so.
+    let perm = json_ok(&[
+        "explain",
+        &p,
+        "--moderator",
+        "year",
+        "--permutations",
+        "20",
+        "--json",
+    ]);
+    assert!(perm["permutations"].is_null());
+    assert!(warning_codes(&perm).contains(&"part_failed".to_string()));
     let model = json_ok(&[
         "explain",
         &p,
