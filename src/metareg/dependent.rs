@@ -219,15 +219,12 @@ pub fn influence_dependent(
             Ok((loo, rs, cooks)) => (Some(loo), Some(rs), Some(cooks)),
             Err(_) => (None, None, None),
         };
-        super::influence::StudyInfluence {
-            index: i,
-            residual: y[i] - fitted,
-            without,
-            rstudent,
-            cooks_distance: cooks,
-            outlier: rstudent.is_some_and(|r| r.abs() > z),
-            influential: cooks.is_some_and(|d| d > cook_cut),
-        }
+        super::influence::StudyInfluence::flagged(
+            i,
+            y[i] - fitted,
+            (without, rstudent, cooks),
+            (z, cook_cut),
+        )
     };
     Ok((0..k).into_par_iter().map(one).collect())
 }

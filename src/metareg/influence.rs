@@ -40,6 +40,27 @@ pub struct StudyInfluence {
     pub influential: bool,
 }
 
+impl StudyInfluence {
+    /// A study's diagnostics, flagged as outlying when |rstudent| exceeds `z` and as
+    /// influential when Cook's distance exceeds `cook_cut`.
+    pub(crate) fn flagged(
+        index: usize,
+        residual: f64,
+        (without, rstudent, cooks): (Option<LeaveOneOut>, Option<f64>, Option<f64>),
+        (z, cook_cut): (f64, f64),
+    ) -> StudyInfluence {
+        StudyInfluence {
+            index,
+            residual,
+            without,
+            rstudent,
+            cooks_distance: cooks,
+            outlier: rstudent.is_some_and(|r| r.abs() > z),
+            influential: cooks.is_some_and(|d| d > cook_cut),
+        }
+    }
+}
+
 /// Leave each study out in turn: the refits run in parallel (each deterministic, so the
 /// result is the same on any machine), each with τ² estimated from the full model's τ²
 /// (a warm start: the likelihood of k − 1 studies is near that of k), and `tick` is told
@@ -101,15 +122,12 @@ pub fn influence(
             Err(_) => (None, None, None),
         };
         tick(1);
-        StudyInfluence {
-            index: i,
-            residual: fit.residuals[i],
-            without,
-            rstudent,
-            cooks_distance: cooks,
-            outlier: rstudent.is_some_and(|r| r.abs() > z),
-            influential: cooks.is_some_and(|d| d > cook_cut),
-        }
+        StudyInfluence::flagged(
+            i,
+            fit.residuals[i],
+            (without, rstudent, cooks),
+            (z, cook_cut),
+        )
     };
     Ok((0..k).into_par_iter().map(one).collect())
 }
