@@ -301,12 +301,16 @@ fn model_words(fit: &ModelFit, with_moderators: bool) -> String {
 
 fn moderators(o: &mut String, p: &Prepared, e: &Explained) {
     let ex = &e.main;
+    let counted = match &ex.dependent {
+        Some(d) => format!(
+            "{} rows from {} samples in {} clusters",
+            d.summary.fit.k, d.summary.fit.samples, d.summary.fit.clusters
+        ),
+        None => format!("{} studies", ex.fit.k),
+    };
     heading(
         o,
-        &format!(
-            "What the moderators explain ({} studies in the model)",
-            ex.fit.k
-        ),
+        &format!("What the moderators explain ({counted} in the model)"),
     );
     para(o, &explained_lead(e));
     let _ = writeln!(o);
