@@ -4,8 +4,9 @@
 
 use crate::benchmark::Prepared;
 use crate::error::{Error, Result};
+use crate::metareg::at::{FitAt, fit_at};
 use crate::metareg::spread::{ScoreSpread, SpreadMetric, harmonize, score_spread};
-use crate::metareg::{Centring, Design, FitAt, ModeratorSpec, fit_at};
+use crate::metareg::{Centring, Design, ModeratorSpec};
 use crate::pool::{FitOptions, Interval, ModelFit, Predictive};
 use crate::setting::msg;
 use crate::setting::{Setting, given};
@@ -153,7 +154,7 @@ pub struct Placement {
     /// The new study.
     pub study: NewStudy,
     /// The multilevel fit, when the sheet's rows share samples or clusters.
-    pub dependent: Option<Box<crate::metareg::dependent::DependentExplanation>>,
+    pub dependent: Option<Box<crate::metareg::DependentExplanation>>,
     /// The known cluster the ranges are for (`None`: a new sample in a new cluster).
     pub in_cluster: Option<String>,
     /// Warnings.
@@ -328,7 +329,7 @@ pub fn place(
 fn known_cluster(
     p: &Prepared,
     used: &[usize],
-    d: &crate::metareg::dependent::DependentExplanation,
+    d: &crate::metareg::DependentExplanation,
     name: &str,
     x0: &[f64],
     df: f64,

@@ -4,23 +4,25 @@
 //! Hotelling test of all moderators together.
 
 use super::design::Design;
-use super::{Explanation, OmnibusTest, wald_statistic};
+use super::{DependentExplanation, Explanation, OmnibusTest, wald_statistic};
 use crate::benchmark::Prepared;
 use crate::dist::{chi2_sf, f_sf};
 use crate::error::{Error, Result};
 use crate::pool::dependence::{DependenceOptions, Inference, MultilevelSummary, summarize};
-use crate::pool::multilevel::{Grouping, HotellingTest, NestedData, hotelling};
+use crate::pool::multilevel::{Grouping, NestedData, hotelling};
 use crate::pool::{CiMethod, Coefficient, FitOptions, ModelFit, PoolOptions};
 use crate::warning::Warning;
 
-/// What a meta-regression of dependent coefficients adds to an [`Explanation`].
-#[derive(Debug, Clone)]
-pub struct DependentExplanation {
-    /// The multilevel fit and its summaries.
-    pub summary: MultilevelSummary,
-    /// The approximate Hotelling test of every moderator coefficient (CR2; `None`
-    /// without moderators or when it cannot be formed).
-    pub robust_omnibus: Option<HotellingTest>,
+/// The grouping of a design's studies when they are to be fitted by the multilevel model.
+pub fn multilevel_grouping(
+    p: &Prepared,
+    used: &[usize],
+    options: &FitOptions,
+) -> Option<crate::pool::multilevel::Grouping> {
+    use crate::pool::dependence::{DependenceMethod, method_in_force};
+    p.grouping_of(used)
+        .filter(|g| g.clusters() < g.cluster.len())
+        .filter(|_| method_in_force(&options.dependence, true) == DependenceMethod::Multilevel)
 }
 
 /// The two-level view of a multilevel fit, for the parts that read a [`ModelFit`]: τ² is

@@ -1,6 +1,7 @@
 //! Mixed-effects meta-regression: moderators, the omnibus test, R², permutation tests,
 //! influence diagnostics, the score-spread test and subgroup benchmarks.
 
+pub mod at;
 pub mod dependent;
 pub mod design;
 pub mod influence;
@@ -16,11 +17,8 @@ use crate::benchmark::Prepared;
 use crate::dist::{chi2_sf, f_sf};
 use crate::error::{Error, Result};
 use crate::pool::{FitOptions, MetaData, Model, ModelFit, fit_model};
-use crate::setting::Setting;
-use crate::setting::msg;
 use crate::warning::Warning;
 use nalgebra::{DMatrix, DVector};
-use std::collections::BTreeMap;
 
 /// A joint test that every moderator coefficient is zero.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -75,6 +73,16 @@ pub(crate) fn wald_statistic(beta: &DVector<f64>, cov: &DMatrix<f64>, columns: &
     }
 }
 
+/// What a meta-regression of dependent coefficients adds to an [`Explanation`].
+#[derive(Debug, Clone)]
+pub struct DependentExplanation {
+    /// The multilevel fit and its summaries.
+    pub summary: crate::pool::dependence::MultilevelSummary,
+    /// The approximate Hotelling test of every moderator coefficient (CR2; `None`
+    /// without moderators or when it cannot be formed).
+    pub robust_omnibus: Option<crate::pool::multilevel::HotellingTest>,
+}
+
 /// A fitted meta-regression.
 #[derive(Debug, Clone)]
 pub struct Explanation {
@@ -91,7 +99,7 @@ pub struct Explanation {
     /// Warnings about the fit.
     pub warnings: Vec<Warning>,
     /// The multilevel fit behind it, when the sheet's rows share samples or clusters.
-    pub dependent: Option<Box<dependent::DependentExplanation>>,
+    pub dependent: Option<Box<DependentExplanation>>,
 }
 
 impl Explanation {
@@ -165,95 +173,6 @@ pub fn explain(p: &Prepared, design: Design, options: &FitOptions) -> Result<Exp
         r2,
         omnibus,
         warnings,
-        dependent: None,
-    })
-}
-
-/// A model fitted for a study with given moderator values: the fit, its design (none
-/// without moderators) and the study's design row.
-#[derive(Debug, Clone)]
-pub struct FitAt {
-    /// The fit (intercept only without moderators).
-    pub fit: ModelFit,
-    /// The design, when there are moderators.
-    pub design: Option<Design>,
-    /// The study's design row.
-    pub x0: Vec<f64>,
-    /// The multilevel fit behind `fit`, when the sheet's rows share samples or clusters.
-    pub dependent: Option<Box<dependent::DependentExplanation>>,
-}
-
-/// The grouping of a design's studies when they are to be fitted by the multilevel model.
-pub(crate) fn multilevel_grouping(
-    p: &Prepared,
-    used: &[usize],
-    options: &FitOptions,
-) -> Option<crate::pool::multilevel::Grouping> {
-    use crate::pool::dependence::{DependenceMethod, method_in_force};
-    p.grouping_of(used)
-        .filter(|g| g.clusters() < g.cluster.len())
-        .filter(|_| method_in_force(&options.dependence, true) == DependenceMethod::Multilevel)
-}
-
-/// Fit the benchmark model for a study with the moderator values `at` (intercept only when
-/// `moderators` is empty): the one owner of "the design plus the new study's row". `setting`
-/// names where the values came from in messages.
-pub fn fit_at(
-    p: &Prepared,
-    moderators: &[ModeratorSpec],
-    at: &BTreeMap<String, String>,
-    centring: Centring,
-    options: &FitOptions,
-    setting: Setting,
-) -> Result<FitAt> {
-    if moderators.is_empty() {
-        if !at.is_empty() {
-            return Err(Error::setting(
-                setting,
-                msg![
-                    setting,
-                    " sets moderator values, but no ",
-                    Setting::Moderators,
-                    " was given"
-                ],
-            ));
-        }
-        let all: Vec<usize> = (0..p.records.len()).collect();
-        if let Some(g) = multilevel_grouping(p, &all, options) {
-            let design = build_design(p, &[], centring)?;
-            let ex = dependent::explain_dependent(p, design, options, &options.dependence, &g)?;
-            return Ok(FitAt {
-                fit: ex.fit,
-                design: None,
-                x0: vec![1.0],
-                dependent: ex.dependent,
-            });
-        }
-        let data = MetaData::intercept_only(p.y.clone(), p.v.clone())?;
-        return Ok(FitAt {
-            fit: fit_model(&data, options)?,
-            design: None,
-            x0: vec![1.0],
-            dependent: None,
-        });
-    }
-    let design = build_design(p, moderators, centring)?;
-    let x0 = design.row_for(at, p.source.format, setting)?;
-    if let Some(g) = multilevel_grouping(p, &design.used, options) {
-        let ex = dependent::explain_dependent(p, design, options, &options.dependence, &g)?;
-        return Ok(FitAt {
-            fit: ex.fit,
-            design: Some(ex.design),
-            x0,
-            dependent: ex.dependent,
-        });
-    }
-    let (y, v) = design.effects(&p.y, &p.v);
-    let data = MetaData::with_design(y, v, design.x.clone())?;
-    Ok(FitAt {
-        fit: fit_model(&data, options)?,
-        design: Some(design),
-        x0,
         dependent: None,
     })
 }

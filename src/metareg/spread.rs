@@ -406,7 +406,7 @@ fn score_spread_inner(
     let cols = x.ncols();
     let y: Vec<f64> = used.iter().map(|&i| sub.y[i]).collect();
     let v: Vec<f64> = used.iter().map(|&i| sub.v[i]).collect();
-    let grouping = super::multilevel_grouping(&sub, &used, options);
+    let grouping = super::dependent::multilevel_grouping(&sub, &used, options);
     let (fit, tau2_without, slope_df) =
         fit_with_and_without_sd(y, v, &x, options, grouping.as_ref())?;
     let slope = fit.coefficients[1];

@@ -136,10 +136,11 @@ pub fn subgroups(
     };
     // The test of the groups as one moderator: the multilevel model (its approximate
     // Hotelling test) when the rows share samples or clusters.
-    let fit_groups = |d: super::Design| match super::multilevel_grouping(p, &d.used, &fit_options) {
-        Some(g) => super::dependent::explain_dependent(p, d, &fit_options, dependence, &g),
-        None => explain(p, d, &fit_options),
-    };
+    let fit_groups =
+        |d: super::Design| match super::dependent::multilevel_grouping(p, &d.used, &fit_options) {
+            Some(g) => super::dependent::explain_dependent(p, d, &fit_options, dependence, &g),
+            None => explain(p, d, &fit_options),
+        };
     let (moderator_test, moderator_test_note) =
         match build_design(p, &[spec], Centring::None).and_then(fit_groups) {
             Ok(ex) => (ex.omnibus, None),

@@ -5,7 +5,7 @@ use super::{excluded_rows, heading, line, para, read_with_care, sheet_line, skip
 use crate::analysis::Explained;
 use crate::benchmark::Prepared;
 use crate::format::{fixed, p_cell, p_value, range, significant, wrap};
-use crate::metareg::dependent::DependentExplanation;
+use crate::metareg::DependentExplanation;
 use crate::metareg::influence::StudyInfluence;
 use crate::metareg::spread::ScoreSpread;
 use crate::metareg::subgroups::Subgroups;
