@@ -439,7 +439,9 @@ pub fn benchmark_source(
         tau2_interval: false,
         ..*options
     };
-    let FitAt { fit, x0, .. } = fit_at(
+    let FitAt {
+        fit, x0, dependent, ..
+    } = fit_at(
         p,
         place.moderators,
         place.at,
@@ -464,8 +466,15 @@ pub fn benchmark_source(
         None => return Err(no_df(label, fit.k)),
     };
     let at_text: Vec<String> = place.at.iter().map(|(k, v)| format!("{k} = {v}")).collect();
+    let label = match &dependent {
+        Some(d) => format!(
+            "{label}; {} samples in {} clusters, multilevel",
+            d.summary.fit.samples, d.summary.fit.clusters
+        ),
+        None => label.to_string(),
+    };
     let label = if at_text.is_empty() {
-        label.to_string()
+        label
     } else {
         format!("{label} at {}", at_text.join(", "))
     };

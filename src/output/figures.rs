@@ -103,11 +103,16 @@ pub fn forest(b: &Benchmark) -> Figure {
             f3(pooled.lower),
             f3(pooled.upper),
             match prediction {
-                Some((a, b)) => format!(
-                    "; the expected range for a new setting ({level} prediction interval) {} \
-                     to {}",
+                Some((a, z)) => format!(
+                    "; the expected range for {} ({level} prediction interval) {} to {}",
+                    match p.dependence.as_ref().map(|d| d.method) {
+                        Some(crate::pool::dependence::DependenceMethod::Multilevel) => {
+                            "a new sample from a new cluster"
+                        }
+                        _ => "a new setting",
+                    },
                     f3(a),
-                    f3(b)
+                    f3(z)
                 ),
                 None => String::new(),
             }
