@@ -293,19 +293,16 @@ pub(crate) fn maximize_to(
         let small = (0..2).all(|i| {
             (full[i] - theta[i]).abs() <= tolerance * full[i].max(theta[i]).max(TAU2_FLOOR)
         });
+        // A step within the tolerance is not taken: the point is already as close to the
+        // maximum as asked (and its likelihood differs from the maximum's by the square).
+        if small {
+            return Ok(done(theta, &current, it - 1, Termination::Converged));
+        }
         let Some((next, eval)) = halve_until_better(d, options, theta, step, &current)? else {
-            let stop = if small {
-                Termination::Converged
-            } else {
-                Termination::Stalled
-            };
-            return Ok(done(theta, &current, it, stop));
+            return Ok(done(theta, &current, it, Termination::Stalled));
         };
         theta = next;
         current = eval;
-        if small {
-            return Ok(done(theta, &current, it, Termination::Converged));
-        }
     }
     Ok(done(
         theta,
