@@ -211,7 +211,7 @@ pub fn place(
         Setting::StudyModerators,
     )?;
     let mut warnings = model_warnings(p, &fit, design.as_ref(), &x0)?;
-    if p.grouped && dependent.is_none() {
+    if p.grouped() && dependent.is_none() {
         warnings.push(Warning::DependenceNotModelled {
             part: "the placement (--dependence aggregate or ignore)".into(),
         });

@@ -135,19 +135,15 @@ fn fit_main(p: &Prepared, design: Design, s: &Settings) -> Result<Explanation> {
 
 /// The warnings of the parts that treat dependent rows as independent.
 fn not_modelled(p: &Prepared, s: &Settings) -> Vec<Warning> {
-    if !p.grouped {
-        return Vec::new();
-    }
-    let method = method_in_force(&s.model.dependence, true);
-    let mut parts: Vec<&str> = Vec::new();
-    match method {
-        DependenceMethod::Multilevel => {}
-        DependenceMethod::Aggregate => {}
-        DependenceMethod::Ignore => parts.push("the meta-regression (--dependence ignore)"),
-    }
-    parts
+    // Under composites the explanation's studies are the composites (not grouped); only an
+    // explicit `ignore` fits rows that share samples or clusters as independent.
+    let ignored =
+        p.grouped() && method_in_force(&s.model.dependence, true) == DependenceMethod::Ignore;
+    ignored
+        .then(|| Warning::DependenceNotModelled {
+            part: "the meta-regression (--dependence ignore)".into(),
+        })
         .into_iter()
-        .map(|part| Warning::DependenceNotModelled { part: part.into() })
         .collect()
 }
 

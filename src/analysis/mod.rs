@@ -189,7 +189,7 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
     // them itself, at every sampling correlation of its sensitivity table).
     let modelled = prepared.as_ref().map(|p| {
         let dep = &settings.model.dependence;
-        match crate::pool::dependence::method_in_force(dep, p.grouped) {
+        match crate::pool::dependence::method_in_force(dep, p.grouped()) {
             crate::pool::dependence::DependenceMethod::Aggregate => {
                 p.aggregated(dep.sampling_correlation)
             }

@@ -124,8 +124,6 @@ pub struct Prepared {
     pub v: Vec<f64>,
     /// Rows left out, in sheet order.
     pub skipped: Vec<SkippedRow>,
-    /// True when rows of the sheet share a sample or a cluster.
-    pub grouped: bool,
     /// Which rows share a sample or a cluster (when some do).
     grouping: Option<Grouping>,
     /// For composites of samples (one study per sample): the columns whose values differ
@@ -137,6 +135,11 @@ pub struct Prepared {
 }
 
 impl Prepared {
+    /// True when rows of the sheet share a sample or a cluster.
+    pub fn grouped(&self) -> bool {
+        self.grouping.is_some()
+    }
+
     /// Which rows share a sample or a cluster, when the sheet says.
     pub fn grouping(&self) -> Option<Grouping> {
         self.grouping.clone()
@@ -174,7 +177,6 @@ impl Prepared {
             records,
             y,
             v,
-            grouped: false,
             grouping: None,
             varying_within_sample: self.varying_columns(g),
             warnings,
@@ -233,7 +235,6 @@ impl Prepared {
             y: indices.iter().map(|&i| self.y[i]).collect(),
             v: indices.iter().map(|&i| self.v[i]).collect(),
             warnings: Vec::new(),
-            grouped: grouping.is_some(),
             grouping,
             ..self.clone_shell()
         }
@@ -250,7 +251,6 @@ impl Prepared {
             y: Vec::new(),
             v: Vec::new(),
             skipped: self.skipped.clone(),
-            grouped: self.grouped,
             grouping: None,
             varying_within_sample: self.varying_within_sample.clone(),
             warnings: Vec::new(),
@@ -362,7 +362,6 @@ pub fn prepare_from(
         y,
         v,
         skipped,
-        grouped: grouping.is_some(),
         grouping,
         varying_within_sample: Vec::new(),
         warnings,

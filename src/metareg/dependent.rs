@@ -11,7 +11,6 @@ use crate::error::{Error, Result};
 use crate::pool::dependence::{DependenceOptions, Inference, MultilevelSummary, summarize};
 use crate::pool::multilevel::{Grouping, NestedData, hotelling};
 use crate::pool::{CiMethod, Coefficient, FitOptions, ModelFit, PoolOptions};
-use crate::warning::Warning;
 
 /// The grouping of a design's studies when they are to be fitted by the multilevel model.
 pub fn multilevel_grouping(
@@ -112,13 +111,7 @@ pub fn explain_dependent(
         Inference::Model => model_omnibus(&fit, &columns),
     };
     let mut warnings = fit.warnings.clone();
-    warnings.extend(design.warnings.iter().cloned());
-    if !design.excluded.is_empty() {
-        warnings.push(Warning::RowsLeftOutOfModel {
-            rows: design.excluded.iter().map(|e| e.row).collect(),
-            why: "a moderator value is missing".into(),
-        });
-    }
+    super::design_warnings(&design, &mut warnings);
     Ok(Explanation {
         design,
         fit,
@@ -251,7 +244,7 @@ fn leave_out(
     let vk: Vec<f64> = keep.iter().map(|&j| v[j]).collect();
     let d = NestedData::new(&yk, &vk, &ex.design.x.select_rows(keep), &g)?;
     let start = Some([s.fit.tau2_cluster, s.fit.tau2_within]);
-    let f = crate::pool::multilevel::fit_from(&d, &s.fit.options, start)?;
+    let f = crate::pool::multilevel::refit_from(&d, &s.fit.options, start)?;
     let level = ex.fit.options.level;
     let first = match s.inference {
         Inference::Robust => {
@@ -277,15 +270,10 @@ fn studentized(
         .filter(|&j| j != i && g.cluster[j] == g.cluster[i])
         .collect();
     let r = f.options.sampling_correlation;
+    let theta = [f.tau2_cluster, f.tau2_within];
     let cov = |a: usize, b: usize| -> f64 {
-        let within = if a == b {
-            v[a] + f.tau2_within
-        } else if g.sample[a] == g.sample[b] {
-            r * (v[a] * v[b]).sqrt()
-        } else {
-            0.0
-        };
-        within + f.tau2_cluster
+        let same = (a == b, g.sample[a] == g.sample[b]);
+        crate::pool::multilevel::row_covariance((v[a], v[b]), same, r, theta)
     };
     let xi = DVector::from_fn(np, |j, _| x[(i, j)]);
     let mut mean = xi.dot(&f.beta);

@@ -115,6 +115,18 @@ impl Explanation {
     }
 }
 
+/// The design's own warnings, and one naming the rows it left out for a missing moderator
+/// value (shared by the two-level and the multilevel meta-regression).
+pub(crate) fn design_warnings(design: &Design, warnings: &mut Vec<Warning>) {
+    warnings.extend(design.warnings.iter().cloned());
+    if !design.excluded.is_empty() {
+        warnings.push(Warning::RowsLeftOutOfModel {
+            rows: design.excluded.iter().map(|e| e.row).collect(),
+            why: "a moderator value is missing".into(),
+        });
+    }
+}
+
 /// Fit a meta-regression of the prepared studies on a design.
 ///
 /// # References
@@ -154,13 +166,7 @@ pub fn explain(p: &Prepared, design: Design, options: &FitOptions) -> Result<Exp
     };
     let columns: Vec<usize> = (1..design.x.ncols()).collect();
     let omnibus = omnibus(&fit, &columns);
-    warnings.extend(design.warnings.iter().cloned());
-    if !design.excluded.is_empty() {
-        warnings.push(Warning::RowsLeftOutOfModel {
-            rows: design.excluded.iter().map(|e| e.row).collect(),
-            why: "a moderator value is missing".into(),
-        });
-    }
+    design_warnings(&design, &mut warnings);
     if fit.coefficients.iter().any(|c| !c.se.is_finite()) {
         return Err(Error::Numerical(
             "the coefficients' standard errors could not be computed".into(),

@@ -170,7 +170,7 @@ pub fn pool_dependent(
 ) -> Result<PoolResult> {
     let method = method_in_force(dependence, true);
     let counts = (y.len(), grouping.samples(), grouping.clusters());
-    let mut result = match method {
+    let result = match method {
         DependenceMethod::Multilevel => multilevel(y, v, grouping, options, dependence)?,
         DependenceMethod::Aggregate => aggregated(y, v, grouping, options, dependence)?,
         DependenceMethod::Ignore => {
@@ -188,9 +188,6 @@ pub fn pool_dependent(
             r
         }
     };
-    if let Some(d) = &mut result.dependence {
-        d.k_rows = counts.0;
-    }
     Ok(result)
 }
 
@@ -666,7 +663,7 @@ fn sensitivity(
             out.push(row);
             continue;
         }
-        let f = super::multilevel::fit_from(
+        let f = super::multilevel::refit_from(
             data,
             &MultilevelOptions {
                 sampling_correlation: r,

@@ -995,11 +995,7 @@ fn multilevel_blocks(b: &Benchmark, d: &DependenceResult) -> Vec<Block> {
     if let Some(t) = d.lrt {
         rows.push(vec![
             Inline::text("no variance between clusters?"),
-            Inline::text(format!(
-                "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1))",
-                fixed(t.statistic, 2),
-                crate::format::p_value(t.p)
-            )),
+            Inline::text(prose::dependence::lrt_words(&t)),
         ]);
     }
     rows.push(vec![

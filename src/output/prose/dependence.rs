@@ -27,6 +27,17 @@ pub fn component_words(
         .unwrap_or_else(|| "–".into())
 }
 
+/// The likelihood-ratio test of no variance between clusters: "likelihood ratio 5.29, p =
+/// 0.011 (50:50 mixture of χ²(0) and χ²(1): the value tested is on the boundary)".
+pub fn lrt_words(t: &crate::pool::multilevel::LikelihoodRatio) -> String {
+    format!(
+        "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1): the value tested is on \
+         the boundary)",
+        fixed(t.statistic, 2),
+        p_value(t.p)
+    )
+}
+
 /// The dependence result of a benchmark whose sheet groups its rows.
 pub fn dependence(b: &Benchmark) -> Option<&DependenceResult> {
     b.pool.dependence.as_ref()

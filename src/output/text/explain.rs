@@ -223,11 +223,7 @@ fn dependent_lines(o: &mut String, d: &DependentExplanation, level: &str) {
         line(
             o,
             "  cluster variance = 0?",
-            &format!(
-                "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1))",
-                fixed(t.statistic, 2),
-                p_value(t.p)
-            ),
+            &crate::output::prose::dependence::lrt_words(&t),
         );
     }
 }

@@ -212,12 +212,7 @@ fn levels(o: &mut String, b: &Benchmark, d: &DependenceResult) {
         line(
             o,
             "cluster variance = 0?",
-            &format!(
-                "likelihood ratio {}, p {} (50:50 mixture of χ²(0) and χ²(1): the value \
-                 tested is on the boundary)",
-                fixed(t.statistic, 2),
-                crate::format::p_value(t.p)
-            ),
+            &crate::output::prose::dependence::lrt_words(&t),
         );
     }
     line(

@@ -135,15 +135,6 @@ impl NestedData {
         self.blocks.iter().map(|b| b.len).max().unwrap_or(0)
     }
 
-    /// True when some sample has more than one row (its sampling errors are correlated).
-    pub fn has_shared_samples(&self) -> bool {
-        self.blocks.iter().any(|b| {
-            let mut s = b.sample.clone();
-            s.sort_unstable();
-            s.windows(2).any(|w| w[0] == w[1])
-        })
-    }
-
     /// The same data with effects divided by √s and variances by s, s the median
     /// sampling variance (so that tolerances are relative to the typical variance), and
     /// the effects centred at their mean when the design has an intercept: for the
@@ -174,30 +165,32 @@ impl NestedData {
         DVector::from_column_slice(&self.y[b.start..b.start + b.len])
     }
 
-    /// The sampling covariance of a block: vᵢ on the diagonal, r·√(vᵢvⱼ) between rows of
-    /// one sample, 0 between samples.
-    pub(crate) fn sampling_cov(&self, b: &Block, r: f64) -> DMatrix<f64> {
-        let v = &self.v[b.start..b.start + b.len];
-        DMatrix::from_fn(b.len, b.len, |i, j| {
-            if i == j {
-                v[i]
-            } else if b.sample[i] == b.sample[j] {
-                r * (v[i] * v[j]).sqrt()
-            } else {
-                0.0
-            }
-        })
-    }
-
     /// The marginal covariance of a block, S + τ²_within·I + τ²_cluster·J.
     pub(crate) fn marginal_cov(&self, b: &Block, r: f64, theta: [f64; 2]) -> DMatrix<f64> {
-        let mut m = self.sampling_cov(b, r);
-        m.add_scalar_mut(theta[0]);
-        for i in 0..b.len {
-            m[(i, i)] += theta[1];
-        }
-        m
+        let v = &self.v[b.start..b.start + b.len];
+        DMatrix::from_fn(b.len, b.len, |i, j| {
+            row_covariance((v[i], v[j]), (i == j, b.sample[i] == b.sample[j]), r, theta)
+        })
     }
+}
+
+/// The covariance of two rows of one cluster under the model, the one owner of the working
+/// model: vᵢ + τ²_within + τ²_cluster for a row with itself; r·√(vᵢvⱼ) + τ²_cluster for two
+/// rows of one sample; τ²_cluster otherwise. `(same_row, same_sample)` say which.
+pub fn row_covariance(
+    (vi, vj): (f64, f64),
+    (same_row, same_sample): (bool, bool),
+    r: f64,
+    theta: [f64; 2],
+) -> f64 {
+    let sampling = if same_row {
+        vi + theta[1]
+    } else if same_sample {
+        r * (vi * vj).sqrt()
+    } else {
+        0.0
+    };
+    sampling + theta[0]
 }
 
 /// The inverse and log-determinant of a positive-definite block.
@@ -421,14 +414,8 @@ fn add_cluster(
     let vs = &d.v[b.start..b.start + n];
     for j in 0..n {
         for i in j..n {
-            let c = if i == j {
-                vs[i] + theta[1]
-            } else if b.sample[i] == b.sample[j] {
-                r * (vs[i] * vs[j]).sqrt()
-            } else {
-                0.0
-            };
-            k.v[j * n + i] = c + theta[0];
+            let same = (i == j, b.sample[i] == b.sample[j]);
+            k.v[j * n + i] = row_covariance((vs[i], vs[j]), same, r, theta);
         }
     }
     if !cholesky_in_place(&mut k.v, n) {

@@ -17,7 +17,7 @@ mod data;
 mod profile;
 mod robust;
 
-pub use data::{Grouping, NestedData};
+pub use data::{Grouping, NestedData, row_covariance};
 pub use profile::{ComponentInterval, LikelihoodRatio, cluster_test, component_intervals};
 pub use robust::{HotellingTest, RobustCovariance, contrast_df, cr2, hotelling};
 
@@ -73,7 +73,7 @@ pub struct MultilevelFit {
     /// The maximized (restricted) log-likelihood, without its constant.
     pub log_lik: f64,
     /// r'S⁻¹r at τ² = 0 (S the sampling covariance): the heterogeneity statistic Q with
-    /// k − p degrees of freedom.
+    /// k − p degrees of freedom (NaN in the crate's internal refits, which do not read it).
     pub q: f64,
     /// Scoring iterations.
     pub iterations: usize,
@@ -81,7 +81,8 @@ pub struct MultilevelFit {
     pub termination: Termination,
     /// Each row's weight in percent, in input order: the row sums of V⁻¹ over their total —
     /// for plain pooling each row's share of the pooled value (negative shares can occur
-    /// when sampling errors are correlated); with moderators a relative weight for figures.
+    /// when sampling errors are correlated); with moderators a relative weight for figures
+    /// (empty in the crate's internal refits).
     pub weights_percent: Vec<f64>,
 }
 
@@ -116,6 +117,26 @@ pub fn fit_from(
     options: &MultilevelOptions,
     start: Option<[f64; 2]>,
 ) -> Result<MultilevelFit> {
+    fit_with(d, options, start, true)
+}
+
+/// [`fit_from`] without Q and the weights (`q` is NaN, `weights_percent` empty): for the
+/// refits of the sensitivity table and the leave-one-out diagnostics, which read only the
+/// coefficients, their covariance and the variances (two passes over the data fewer).
+pub(crate) fn refit_from(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    start: Option<[f64; 2]>,
+) -> Result<MultilevelFit> {
+    fit_with(d, options, start, false)
+}
+
+fn fit_with(
+    d: &NestedData,
+    options: &MultilevelOptions,
+    start: Option<[f64; 2]>,
+    detail: bool,
+) -> Result<MultilevelFit> {
     check(d, options)?;
     let (scaled, s) = d.rescaled();
     let within_identified = d.largest_cluster() > 1;
@@ -126,7 +147,7 @@ pub fn fit_from(
     };
     let m = maximize(&scaled, options, start, fixed)?;
     let theta = [m.theta[0] * s, m.theta[1] * s];
-    assemble(d, options, theta, (m.iterations, m.termination))
+    assemble(d, options, theta, (m.iterations, m.termination), detail)
 }
 
 /// The fit at θ = (τ²_cluster, τ²_within): coefficients, covariance, Q and weights.
@@ -135,10 +156,18 @@ fn assemble(
     options: &MultilevelOptions,
     theta: [f64; 2],
     (iterations, termination): (usize, Termination),
+    detail: bool,
 ) -> Result<MultilevelFit> {
     let r = options.sampling_correlation;
     let e = evaluate(d, r, theta, options.restricted, false)?;
-    let q = evaluate(d, r, [0.0, 0.0], options.restricted, false)?.quad;
+    let (q, weights) = if detail {
+        (
+            evaluate(d, r, [0.0, 0.0], options.restricted, false)?.quad,
+            weights_percent(d, r, theta)?,
+        )
+    } else {
+        (f64::NAN, Vec::new())
+    };
     Ok(MultilevelFit {
         k: d.k(),
         p: d.p(),
@@ -148,7 +177,7 @@ fn assemble(
         tau2_cluster: theta[0],
         tau2_within: theta[1],
         within_identified: d.largest_cluster() > 1,
-        weights_percent: weights_percent(d, r, theta)?,
+        weights_percent: weights,
         beta: e.beta,
         cov: e.cov,
         log_lik: e.log_lik,
@@ -168,7 +197,7 @@ pub fn fit_with_components(
 ) -> Result<MultilevelFit> {
     check(d, options)?;
     let theta = [tau2_cluster.max(0.0), tau2_within.max(0.0)];
-    assemble(d, options, theta, (0, Termination::ClosedForm))
+    assemble(d, options, theta, (0, Termination::ClosedForm), true)
 }
 
 /// The prediction of x₀β + u_j for a known cluster j (its index in the grouping): the
