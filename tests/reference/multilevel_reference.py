@@ -286,6 +286,22 @@ def leave_one_out(case, restricted, theta, beta, M):
     return out
 
 
+def known_cluster(case, theta, beta, M, cluster, x0):
+    """The prediction of x0'b + u_j for a cluster of the sheet: the BLUP and its
+    prediction-error variance from the dense mixed-model expression
+    k'Mk - 2 k'M X'V^-1 Z G + G - G Z'PZ G (Henderson 1975), Z the cluster's indicator."""
+    y, X = case["y"], case["X"]
+    V, _ = marginal(case, theta)
+    W = np.linalg.inv(V)
+    P = W - W @ X @ M @ X.T @ W
+    z = np.array([1.0 if c == cluster else 0.0 for c in case["cluster"]])
+    g = theta[0]
+    k = np.asarray(x0, float)
+    centre = k @ beta + g * z @ W @ (y - X @ beta)
+    pev = k @ M @ k - 2 * g * k @ M @ X.T @ W @ z + g - g * g * z @ P @ z
+    return {"cluster": cluster, "x0": list(x0), "centre": float(centre), "pev": float(pev)}
+
+
 def case_of(name, y, v, X, cluster, sample, r, restricted, source, loo=False):
     case = {"y": np.asarray(y, float), "v": np.asarray(v, float), "X": np.asarray(X, float),
             "cluster": list(cluster), "sample": list(sample)}
@@ -319,6 +335,8 @@ def case_of(name, y, v, X, cluster, sample, r, restricted, source, loo=False):
         "htz": htz(case, theta, list(range(1, case["X"].shape[1]))) if case["X"].shape[1] > 1
         else None,
         "leave_one_out": leave_one_out(case, restricted, theta, b, M) if loo else None,
+        "known_cluster": known_cluster(case, theta, b, M, cluster[0],
+                                       [1.0] + [0.5] * (case["X"].shape[1] - 1)),
     }
 
 

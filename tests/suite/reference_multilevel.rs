@@ -9,7 +9,8 @@ use crate::common::*;
 use nalgebra::DMatrix;
 use relyard::Level;
 use relyard::pool::multilevel::{
-    Grouping, MultilevelOptions, NestedData, cluster_test, component_intervals, cr2, fit, hotelling,
+    Grouping, MultilevelOptions, NestedData, cluster_test, component_intervals, cr2, fit,
+    hotelling, in_cluster,
 };
 
 /// Tolerance for values the reference reaches by a library optimizer polished on its score
@@ -297,5 +298,33 @@ fn leave_one_out_diagnostics_match_the_dense_reference() {
             1e-10,
             &what("cooks"),
         );
+    }
+}
+
+/// The prediction for a cluster of the sheet (`check --in-cluster`): the best linear
+/// unbiased predictor of x₀ᵀβ + uⱼ and its prediction-error variance against the dense
+/// mixed-model expression with the full P matrix (Henderson 1975).
+#[test]
+fn the_known_cluster_prediction_matches_the_dense_reference() {
+    let f = fixture("multilevel.json");
+    for c in f["cases"].as_array().unwrap() {
+        let name = c["name"].as_str().unwrap();
+        let want = &c["known_cluster"];
+        let (d, options) = case_data(c);
+        let got = fit(&d, &options).unwrap();
+        // The first row's cluster is cluster 0 (numbered in order of first appearance).
+        let x0 = floats(&want["x0"]);
+        let (centre, pev) = in_cluster(&d, &got, 0, &x0).unwrap();
+        let close = |a: f64, k: &str| {
+            assert_close(
+                a,
+                want[k].as_f64().unwrap(),
+                1e-7,
+                1e-12,
+                &format!("{name} {k}"),
+            )
+        };
+        close(centre, "centre");
+        close(pev, "pev");
     }
 }
