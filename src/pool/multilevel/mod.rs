@@ -97,6 +97,7 @@ impl MultilevelFit {
 #[derive(Debug, Clone, Copy)]
 pub(crate) struct Maximum {
     pub theta: [f64; 2],
+    pub score: [f64; 2],
     pub log_lik: f64,
     pub iterations: usize,
     pub termination: Termination,
@@ -308,6 +309,8 @@ pub(crate) fn maximize_to(
     let (r, restricted) = (options.sampling_correlation, options.restricted);
     let mut theta = [0, 1].map(|i| fixed[i].unwrap_or(start[i].max(0.0)));
     let mut current = evaluate(d, r, theta, restricted, true)?;
+    // The last point and score of a one-component search, for its secant step.
+    let mut previous: Option<(usize, f64, f64)> = None;
     for it in 1..=TAU2_MAX_ITERATIONS {
         let free: Vec<usize> = (0..2)
             .filter(|&i| fixed[i].is_none() && !(theta[i] <= 0.0 && current.score[i] <= 0.0))
@@ -315,7 +318,16 @@ pub(crate) fn maximize_to(
         if free.is_empty() {
             return Ok(done(theta, &current, it - 1, Termination::Converged));
         }
-        let step = scoring_step(&current, &free);
+        let mut step = scoring_step(&current, &free);
+        if let ([i], Some((j, t0, s0))) = (free.as_slice(), previous)
+            && *i == j
+        {
+            step[*i] = secant_step(theta[*i], current.score[*i], (t0, s0)).unwrap_or(step[*i]);
+        }
+        previous = match free.as_slice() {
+            [i] => Some((*i, theta[*i], current.score[*i])),
+            _ => None,
+        };
         // Converged when the whole (projected) scoring step is within the tolerance: a
         // step that had to be halved says nothing about being near the maximum.
         let full = [0, 1].map(|i| (theta[i] + step[i]).max(0.0));
@@ -341,9 +353,20 @@ pub(crate) fn maximize_to(
     ))
 }
 
+/// The step to the root of the score along the secant through the last two points of a
+/// one-component search: where the expected information misjudges the curvature (a model
+/// far from the data, as when τ²_cluster is held at 0), scoring converges only linearly and
+/// the secant superlinearly. `None` unless the secant falls (the likelihood is concave
+/// there).
+fn secant_step(t: f64, score: f64, (t0, s0): (f64, f64)) -> Option<f64> {
+    let slope = (score - s0) / (t - t0);
+    (slope < 0.0 && slope.is_finite()).then(|| -score / slope)
+}
+
 fn done(theta: [f64; 2], e: &Evaluation, iterations: usize, termination: Termination) -> Maximum {
     Maximum {
         theta,
+        score: e.score,
         log_lik: e.log_lik,
         iterations,
         termination,

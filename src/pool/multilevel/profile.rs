@@ -10,7 +10,6 @@ const PROFILE_INNER_TOLERANCE: f64 = 1e-6;
 use crate::dist::{chi2_quantile, chi2_sf};
 use crate::error::Result;
 use crate::level::Level;
-use crate::numeric::{RootStop, brent_root};
 use serde::Serialize;
 
 /// Doublings allowed while looking for an upper end beyond which the profile falls below
@@ -80,7 +79,10 @@ pub fn component_intervals(
         // Each point's maximization starts where the last one ended (the root search
         // moves in small steps near its end).
         let mut last = theta;
-        let profile = |t: f64| -> f64 {
+        // The profile minus its threshold, and its slope: at the maximum over the other
+        // component, the score of this one (the other's score is 0 there, or it is held on
+        // its boundary).
+        let profile = |t: f64| -> (f64, f64) {
             let mut fixed = [None, None];
             fixed[i] = Some(t);
             if !fit.within_identified {
@@ -89,56 +91,14 @@ pub fn component_intervals(
             match maximize_to(&scaled, &fit.options, last, fixed, PROFILE_INNER_TOLERANCE) {
                 Ok(m) => {
                     last = m.theta;
-                    m.log_lik - threshold
+                    (m.log_lik - threshold, m.score[i])
                 }
-                Err(_) => f64::NAN,
+                Err(_) => (f64::NAN, f64::NAN),
             }
         };
         *slot = Some(interval(profile, theta[i], steps[i]).scaled(s));
     }
     Ok(out)
-}
-
-/// The lower end: 0 when the profile at 0 lies within the threshold, else the root in a
-/// bracket found by stepping down from the estimate.
-fn lower_end(
-    f: &mut impl FnMut(f64) -> f64,
-    at: f64,
-    step: f64,
-    xtol: f64,
-    converged: &mut bool,
-) -> f64 {
-    if at <= 0.0 {
-        return 0.0;
-    }
-    let mut hi = at;
-    let mut lo = at - step;
-    let mut grow = step;
-    for _ in 0..MAX_DOUBLINGS {
-        if lo <= 0.0 {
-            if f(0.0) >= 0.0 {
-                return 0.0;
-            }
-            lo = 0.0;
-            break;
-        }
-        if outside(f(lo)) {
-            break;
-        }
-        hi = lo;
-        grow *= 1.5;
-        lo -= grow;
-    }
-    match brent_root(&mut *f, lo, hi, xtol, MAX_ROOT_ITERATIONS) {
-        Some(root) => {
-            *converged &= root.stop == RootStop::Converged;
-            root.x
-        }
-        None => {
-            *converged = false;
-            lo.max(0.0)
-        }
-    }
 }
 
 /// True when a profile value (minus its threshold) lies outside the interval, or could not
@@ -157,9 +117,9 @@ impl ComponentInterval {
     }
 }
 
-/// The interval where `f` (the profile minus its threshold, positive at `at`) is ≥ 0;
-/// `step` is a first guess at the distance from `at` to either end.
-fn interval(mut f: impl FnMut(f64) -> f64, at: f64, step: f64) -> ComponentInterval {
+/// The interval where `f` (the profile minus its threshold, positive at `at`, with its
+/// slope) is ≥ 0; `step` is a first guess at the distance from `at` to either end.
+fn interval(mut f: impl FnMut(f64) -> (f64, f64), at: f64, step: f64) -> ComponentInterval {
     let scale = at.max(1e-2);
     // Interval ends are shown to three significant digits: 1e-6 of the scale is ample.
     let xtol = 1e-6 * scale;
@@ -169,44 +129,96 @@ fn interval(mut f: impl FnMut(f64) -> f64, at: f64, step: f64) -> ComponentInter
         scale
     };
     let mut converged = true;
-    let lower = lower_end(&mut f, at, step, xtol, &mut converged);
-    // The upper end: step out from the estimate until the profile falls below its
-    // threshold, the step growing by half each time.
-    let mut lo = at;
-    let mut hi = at + step;
-    let mut grow = step;
-    let mut bracketed = false;
-    for _ in 0..MAX_DOUBLINGS {
-        // A point whose profile could not be computed ends the search as if outside
-        // (the root search then fails and the interval is marked not converged).
-        if outside(f(hi)) {
-            bracketed = true;
-            break;
-        }
-        lo = hi;
-        grow *= 1.5;
-        hi += grow;
-    }
-    let upper = if !bracketed {
-        converged = false;
-        f64::INFINITY
+    let lower = if at <= 0.0 {
+        0.0
     } else {
-        match brent_root(&mut f, lo, hi, xtol, MAX_ROOT_ITERATIONS) {
-            Some(root) => {
-                converged &= root.stop == RootStop::Converged;
-                root.x
-            }
-            None => {
-                converged = false;
-                hi
-            }
-        }
+        end(&mut f, at, -step, xtol, &mut converged)
     };
+    let upper = end(&mut f, at, step, xtol, &mut converged);
     ComponentInterval {
         lower,
         upper,
         converged,
     }
+}
+
+/// One end of the interval, searched from `at` in the direction of `step`: Newton steps on
+/// the profile (its slope is known at every point), kept within the bracket once a point
+/// outside is found and bisecting when a step would leave it; before that, a step may move
+/// at most a growing distance beyond the last point inside. The lower end stops at 0 when
+/// the profile at 0 lies within the threshold; an upper end never bracketed is infinite
+/// (and marked not converged).
+fn end(
+    f: &mut impl FnMut(f64) -> (f64, f64),
+    at: f64,
+    step: f64,
+    xtol: f64,
+    converged: &mut bool,
+) -> f64 {
+    let down = step < 0.0;
+    let mut inside = at;
+    let mut out: Option<f64> = None;
+    let mut reach = step.abs();
+    let mut t = if down {
+        (at + step).max(0.0)
+    } else {
+        at + step
+    };
+    for _ in 0..MAX_ROOT_ITERATIONS {
+        let (value, slope) = f(t);
+        if outside(value) {
+            out = Some(t);
+        } else {
+            if down && t <= 0.0 {
+                return 0.0;
+            }
+            inside = t;
+        }
+        let newton = t - value / slope;
+        let next = match out {
+            Some(o) => {
+                let (a, b) = (inside.min(o), inside.max(o));
+                if newton.is_finite() && newton > a && newton < b {
+                    newton
+                } else {
+                    0.5 * (a + b)
+                }
+            }
+            None => {
+                let limit = if down {
+                    (inside - reach).max(0.0)
+                } else {
+                    inside + reach
+                };
+                let outward = if down {
+                    newton < inside
+                } else {
+                    newton > inside
+                };
+                let within = if down {
+                    newton >= limit
+                } else {
+                    newton <= limit
+                };
+                if newton.is_finite() && outward && within {
+                    newton
+                } else {
+                    reach *= 2.0;
+                    limit
+                }
+            }
+        };
+        if (next - t).abs() <= xtol {
+            return next;
+        }
+        if !down && out.is_none() && reach > step.abs() * 2f64.powi(MAX_DOUBLINGS as i32) {
+            *converged = false;
+            return f64::INFINITY;
+        }
+        t = next;
+    }
+    *converged = false;
+    t
 }
 
 /// The likelihood-ratio test of τ²_cluster = 0 against τ²_cluster > 0: the model refitted
@@ -242,4 +254,53 @@ pub fn cluster_test(d: &NestedData, fit: &MultilevelFit) -> Result<LikelihoodRat
         df: 1.0,
         p,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A skewed profile with known ends: ℓ(t) = 2 ln t − t (maximum at t = 2), threshold
+    /// ℓ(2) − 1, so the ends solve 2 ln t − t = 2 ln 2 − 3.
+    #[test]
+    fn newton_ends_match_the_roots_of_a_skewed_profile() {
+        let threshold = 2.0 * 2f64.ln() - 2.0 - 1.0;
+        let f = |t: f64| (2.0 * t.ln() - t - threshold, 2.0 / t - 1.0);
+        let i = interval(f, 2.0, 0.5);
+        assert!(i.converged);
+        for end in [i.lower, i.upper] {
+            assert!((2.0 * end.ln() - end - threshold).abs() < 1e-9, "{end}");
+        }
+        assert!(i.lower < 2.0 && i.upper > 2.0);
+    }
+
+    #[test]
+    fn a_profile_within_the_threshold_at_zero_gives_a_lower_end_of_zero() {
+        // ℓ(t) = −(t − 0.1)², threshold −1: the profile at 0 lies within it.
+        let f = |t: f64| (1.0 - (t - 0.1) * (t - 0.1), -2.0 * (t - 0.1));
+        let i = interval(f, 0.1, 0.3);
+        assert_eq!(i.lower, 0.0);
+        assert!((i.upper - 1.1).abs() < 1e-9 && i.converged);
+    }
+
+    #[test]
+    fn a_profile_that_never_falls_below_its_threshold_has_an_infinite_upper_end() {
+        let f = |t: f64| (1.0 / (1.0 + t), -1.0 / (1.0 + t).powi(2));
+        let i = interval(f, 1.0, 0.5);
+        assert!(i.upper.is_infinite() && !i.converged);
+    }
+
+    #[test]
+    fn an_uncomputable_point_is_treated_as_outside() {
+        // NaN beyond 3: the search bisects back into the computable part and ends at 3.
+        let f = |t: f64| {
+            if t > 3.0 {
+                (f64::NAN, f64::NAN)
+            } else {
+                (1.0, 0.0)
+            }
+        };
+        let i = interval(f, 1.0, 0.5);
+        assert!((i.upper - 3.0).abs() < 1e-5, "{}", i.upper);
+    }
 }

@@ -2,8 +2,8 @@
 //! degrees of freedom, computed cluster by cluster (O(Σ kⱼ³)).
 
 use super::MultilevelFit;
-use super::data::{NestedData, inverse_and_log_det};
-use crate::error::Result;
+use super::data::NestedData;
+use crate::error::{Error, Result};
 use nalgebra::{DMatrix, DVector, SymmetricEigen};
 
 /// Eigenvalues of a cluster's adjustment matrix below this share of its scale (that of
@@ -77,15 +77,11 @@ pub fn contrast_df(d: &NestedData, fit: &MultilevelFit, c: &[f64]) -> Result<f64
     let p = d.p();
     let m = &fit.cov;
     let cv = DVector::from_column_slice(c);
-    let r = fit.options.sampling_correlation;
-    let theta = [fit.tau2_cluster, fit.tau2_within];
     let (mut num, mut d2, mut da) = (0.0, 0.0, 0.0);
     let mut g_sum = DMatrix::<f64>::zeros(p, p);
     for b in &d.blocks {
-        let vj = d.marginal_cov(b, r, theta);
-        let (wj, _) = inverse_and_log_det(vj.clone())?;
-        let x = d.x_of(b);
-        let g = adjustment(&vj, &x, m) * &wj * &x * m * &cv;
+        let ClusterParts { v: vj, x, g } = cluster_parts(d, b, fit)?;
+        let g = g * &cv;
         let dj = (g.transpose() * &vj * &g)[(0, 0)];
         let a = x.transpose() * &g;
         let ama = (a.transpose() * m * &a)[(0, 0)];
@@ -135,16 +131,10 @@ impl Cr2Sums {
         b: &super::data::Block,
         fit: &MultilevelFit,
     ) -> Result<()> {
-        let r = fit.options.sampling_correlation;
-        let theta = [fit.tau2_cluster, fit.tau2_within];
         let m = &fit.cov;
-        let vj = d.marginal_cov(b, r, theta);
-        let (wj, _) = inverse_and_log_det(vj.clone())?;
-        let x = d.x_of(b);
-        let resid = d.y_of(b) - &x * &fit.beta;
-        let aj = adjustment(&vj, &x, m);
         // Gⱼ = AⱼWⱼXⱼM: column c is gⱼ for coefficient c (cᵀβ̂'s CR2 variance is Σⱼ (gⱼᵀeⱼ)²).
-        let g = &aj * &wj * &x * m;
+        let ClusterParts { v: vj, x, g } = cluster_parts(d, b, fit)?;
+        let resid = d.y_of(b) - &x * &fit.beta;
         let h = g.transpose() * &resid;
         self.meat += &h * h.transpose();
         for c in 0..d.p() {
@@ -203,16 +193,11 @@ pub fn hotelling(
     let cmc = &c * m * c.transpose();
     // L = Cᵀ(CMCᵀ)^{-1/2}: its columns are Cᵀgₛ.
     let l = c.transpose() * matrix_power(&cmc, -0.5, EIGEN_FLOOR * cmc.diagonal().max());
-    let r = fit.options.sampling_correlation;
-    let theta = [fit.tau2_cluster, fit.tau2_within];
     let mut single = 0.0;
     let mut g_ts: Vec<DMatrix<f64>> = vec![DMatrix::zeros(p, p); q * q];
     for b in &d.blocks {
-        let vj = d.marginal_cov(b, r, theta);
-        let (wj, _) = inverse_and_log_det(vj.clone())?;
-        let x = d.x_of(b);
-        let aj = adjustment(&vj, &x, m);
-        let gi = &aj * &wj * &x * m * &l; // kⱼ × q: columns gₛᵢ
+        let ClusterParts { v: vj, x, g } = cluster_parts(d, b, fit)?;
+        let gi = g * &l; // kⱼ × q: columns gₛᵢ
         let di = gi.transpose() * &vj * &gi;
         let bi = x.transpose() * &gi; // p × q: columns bₛᵢ
         let ei = bi.transpose() * m * &bi;
@@ -253,25 +238,56 @@ pub fn hotelling(
     }))
 }
 
-/// Aⱼ = Dⱼᵀ (Dⱼ(V̂ⱼ − XⱼMXⱼᵀ)Dⱼᵀ)^{-1/2} Dⱼ with Dⱼ = Lᵀ, V̂ⱼ = LLᵀ (the upper Cholesky
-/// factor: DⱼᵀDⱼ = V̂ⱼ; any such factor gives the same Aⱼ).
-fn adjustment(v: &DMatrix<f64>, x: &DMatrix<f64>, m: &DMatrix<f64>) -> DMatrix<f64> {
+/// One cluster's working covariance V̂ⱼ, its design rows Xⱼ and Gⱼ = AⱼWⱼXⱼM, with
+/// Aⱼ = Dⱼᵀ (Dⱼ(V̂ⱼ − XⱼMXⱼᵀ)Dⱼᵀ)^{-1/2} Dⱼ, Dⱼ = Lᵀ and V̂ⱼ = LLᵀ (the upper Cholesky factor:
+/// DⱼᵀDⱼ = V̂ⱼ; any such factor gives the same Aⱼ). Since Wⱼ = L⁻ᵀL⁻¹, AⱼWⱼ = L B^{-1/2} L⁻¹
+/// with B = Lᵀ(V̂ⱼ − XⱼMXⱼᵀ)L: Gⱼ = L B^{-1/2} (L⁻¹XⱼM), and neither Wⱼ nor Aⱼ is formed.
+struct ClusterParts {
+    v: DMatrix<f64>,
+    x: DMatrix<f64>,
+    g: DMatrix<f64>,
+}
+
+fn cluster_parts(
+    d: &NestedData,
+    b: &super::data::Block,
+    fit: &MultilevelFit,
+) -> Result<ClusterParts> {
+    let r = fit.options.sampling_correlation;
+    let m = &fit.cov;
+    let v = d.marginal_cov(b, r, [fit.tau2_cluster, fit.tau2_within]);
+    let x = d.x_of(b);
+    let xm = &x * m;
+    let chol = nalgebra::Cholesky::new(v.clone()).ok_or_else(|| {
+        Error::cannot(
+            "a cluster's covariance matrix is not positive definite (check the sampling \
+             correlation and the sampling variances)",
+        )
+    })?;
+    let l = chol.l();
+    let bm = l.transpose() * (&v - &xm * x.transpose()) * &l;
     // Bⱼ is on the scale of V̂ⱼ²: its eigenvalues below 1e-12 of that scale are rounding
     // (a cluster that determines a coefficient on its own) and are treated as 0.
     let top = v.diagonal().max();
-    let floor = EIGEN_FLOOR * top * top;
-    let Some(chol) = nalgebra::Cholesky::new(v.clone()) else {
-        // Not positive definite: the symmetric root (of the non-negative part) instead.
-        let root = matrix_power(v, 0.5, EIGEN_FLOOR * top);
-        let b = &root * (v - x * m * x.transpose()) * &root;
-        return &root * matrix_power(&b, -0.5, floor) * &root;
-    };
-    let l = chol.l();
-    let b = l.transpose() * (v - x * m * x.transpose()) * &l;
-    &l * matrix_power(&b, -0.5, floor) * l.transpose()
+    let y = l
+        .solve_lower_triangular(&xm)
+        .ok_or_else(|| Error::cannot("a cluster's Cholesky factor is singular"))?;
+    let z = power_times(&bm, -0.5, EIGEN_FLOOR * top * top, &y);
+    Ok(ClusterParts { g: &l * z, v, x })
 }
 
-/// A symmetric positive semi-definite matrix to the power `e`, eigenvalues at or below
+/// (Aᵉ)·y for the symmetric part of A, eigenvalues at or below `floor` taken as 0.
+fn power_times(a: &DMatrix<f64>, e: f64, floor: f64, y: &DMatrix<f64>) -> DMatrix<f64> {
+    let sym = (a + a.transpose()) * 0.5;
+    let eig = SymmetricEigen::new(sym);
+    let mut qy = eig.eigenvectors.transpose() * y;
+    for (i, l) in eig.eigenvalues.iter().enumerate() {
+        let f = if *l > floor { l.powf(e) } else { 0.0 };
+        qy.row_mut(i).iter_mut().for_each(|x| *x *= f);
+    }
+    &eig.eigenvectors * qy
+}
+
 /// `floor` (and any that is not a number) sent to 0.
 fn matrix_power(a: &DMatrix<f64>, e: f64, floor: f64) -> DMatrix<f64> {
     let sym = (a + a.transpose()) * 0.5;
