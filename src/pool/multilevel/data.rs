@@ -394,27 +394,17 @@ impl Factored<'_> {
     }
 }
 
-/// Add one cluster's parts to `s`, from its covariance inverted in factored form.
-fn add_cluster(
+/// One cluster's factored inverse: fills the per-row and per-sample parts of `k` (1/dᵢ, gᵢ,
+/// r_s and a = M⁻¹1) and returns log det V and 1 + τ²_cluster·1ᵀa.
+fn factor(
     d: &NestedData,
     b: &Block,
     (r, theta): (f64, [f64; 2]),
     k: &mut Scratch,
-    s: &mut Sums,
-) -> Result<()> {
-    let (n, p, m) = (b.len, d.p(), b.samples);
-    for buf in [
-        &mut k.dinv,
-        &mut k.g,
-        &mut k.a,
-        &mut k.ma,
-        &mut k.u,
-        &mut k.wy,
-    ] {
+) -> Result<(f64, f64)> {
+    let (n, m) = (b.len, b.samples);
+    for buf in [&mut k.dinv, &mut k.g, &mut k.a] {
         buf.resize(n, 0.0);
-    }
-    for buf in [&mut k.x, &mut k.wx, &mut k.wwx] {
-        buf.resize(n * p, 0.0);
     }
     k.rs.clear();
     k.rs.resize(m, 0.0);
@@ -453,21 +443,63 @@ fn add_cluster(
     // a = M⁻¹1.
     k.ones.clear();
     k.ones.resize(n, 1.0);
-    {
-        let f = Factored {
-            b,
-            dinv: &k.dinv,
-            g: &k.g,
-            rs: &k.rs,
-            a: &[],
-            c: 0.0,
-        };
-        f.apply_m(&k.ones, &mut k.dots, &mut k.a);
-    }
+    let f = Factored {
+        b,
+        dinv: &k.dinv,
+        g: &k.g,
+        rs: &k.rs,
+        a: &[],
+        c: 0.0,
+    };
+    f.apply_m(&k.ones, &mut k.dots, &mut k.a);
     let m1: f64 = k.a.iter().sum();
     let one_plus = 1.0 + theta[0] * m1;
     times(one_plus);
-    s.log_det += log_det + product.ln();
+    Ok((log_det + product.ln(), one_plus))
+}
+
+/// The weight of each row in the pooled value's estimate, W1 (row sums of each cluster's
+/// inverse covariance), in the permuted order, cluster by cluster in parallel.
+pub(crate) fn row_weights(d: &NestedData, r: f64, theta: [f64; 2]) -> Result<Vec<f64>> {
+    use rayon::prelude::*;
+    let parts: Vec<Result<Vec<f64>>> = d
+        .blocks
+        .par_chunks(CLUSTERS_PER_CHUNK)
+        .map(|chunk| {
+            let mut k = Scratch::default();
+            let mut out = Vec::new();
+            for b in chunk {
+                let (_, one_plus) = factor(d, b, (r, theta), &mut k)?;
+                out.extend(k.a.iter().map(|a| a / one_plus));
+            }
+            Ok(out)
+        })
+        .collect();
+    let mut all = Vec::with_capacity(d.k());
+    for part in parts {
+        all.extend(part?);
+    }
+    Ok(all)
+}
+
+/// Add one cluster's parts to `s`, from its covariance inverted in factored form.
+fn add_cluster(
+    d: &NestedData,
+    b: &Block,
+    (r, theta): (f64, [f64; 2]),
+    k: &mut Scratch,
+    s: &mut Sums,
+) -> Result<()> {
+    let (n, p) = (b.len, d.p());
+    let (log_det, one_plus) = factor(d, b, (r, theta), k)?;
+    for buf in [&mut k.ma, &mut k.u, &mut k.wy] {
+        buf.resize(n, 0.0);
+    }
+    for buf in [&mut k.x, &mut k.wx, &mut k.wwx] {
+        buf.resize(n * p, 0.0);
+    }
+    let m1: f64 = k.a.iter().sum();
+    s.log_det += log_det;
     let c = theta[0] / one_plus;
     let f = Factored {
         b,

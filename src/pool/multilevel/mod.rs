@@ -418,11 +418,7 @@ fn halve_until_better(
 /// Each row's share of the first coefficient's estimate in percent: the row sums of V⁻¹
 /// over their total (plain pooling), in input order.
 fn weights_percent(d: &NestedData, r: f64, theta: [f64; 2]) -> Result<Vec<f64>> {
-    let mut permuted = Vec::with_capacity(d.k());
-    for b in &d.blocks {
-        let (w, _) = data::inverse_and_log_det(d.marginal_cov(b, r, theta))?;
-        permuted.extend(w.column_sum().iter().copied());
-    }
+    let permuted = data::row_weights(d, r, theta)?;
     let total: f64 = permuted.iter().sum();
     let mut out = vec![0.0; d.k()];
     for (i, &row) in d.order.iter().enumerate() {
