@@ -159,6 +159,29 @@ pub enum Command {
     /// Write a shareable report (HTML, Markdown, JSON and figures) of a benchmark, its
     /// moderators, a new study's placement and a correction.
     Report(ReportArgs),
+    /// Start the browser interface on this machine (127.0.0.1 only) and print its address.
+    Serve(ServeArgs),
+}
+
+/// Options of `relyard serve`.
+#[derive(Debug, Args)]
+pub struct ServeArgs {
+    /// Port to listen on, on 127.0.0.1 only (a free port is chosen when not given).
+    #[arg(long, value_name = "N")]
+    pub port: Option<u16>,
+
+    /// Open the page in the default browser.
+    #[arg(long)]
+    pub open: bool,
+
+    /// Start with the invented demo sheet loaded.
+    #[arg(long)]
+    pub demo: bool,
+
+    /// Largest upload accepted: a number of bytes or a size such as 200MB (the default),
+    /// 20MB or 1GB.
+    #[arg(long, value_name = "SIZE", default_value = "200MB")]
+    pub max_upload: String,
 }
 
 /// Options for reading a coding sheet, shared by the commands that read one.

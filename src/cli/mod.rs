@@ -17,6 +17,7 @@ mod plan;
 mod pool;
 mod progress;
 mod report;
+mod serve;
 mod template;
 
 use clap::Parser;
@@ -53,6 +54,7 @@ pub fn run() -> i32 {
         args::Command::Correct(a) => correct::run_correct(a),
         args::Command::Template(a) => template::run_template(a),
         args::Command::Report(a) => report::run_report(a),
+        args::Command::Serve(a) => serve::run_serve(a),
     };
     let stderr = std::io::stderr();
     let mut h = stderr.lock();

@@ -25,6 +25,7 @@ mod reference_pool;
 mod reference_quantiles;
 mod reference_transforms;
 mod report;
+mod serve_http;
 mod simulation_items;
 mod simulation_multilevel;
 mod simulation_spread;

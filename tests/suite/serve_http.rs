@@ -1,0 +1,373 @@
+//! `relyard serve` at the HTTP level: the real binary started on a free port, spoken to
+//! over plain TCP (one request per connection), stopped with SIGINT.
+
+use super::common::{demo_file, relyard};
+use std::io::{BufRead, BufReader, Read, Write};
+use std::net::TcpStream;
+use std::process::{Child, ChildStdout, Command, Stdio};
+use std::time::Duration;
+
+/// A running server: its process, port and launch token.
+struct Server {
+    child: Child,
+    stdout: BufReader<ChildStdout>,
+    port: u16,
+    token: String,
+}
+
+impl Server {
+    fn start(extra: &[&str]) -> Server {
+        let mut child = Command::new(env!("CARGO_BIN_EXE_relyard"))
+            .arg("serve")
+            .args(extra)
+            .stdout(Stdio::piped())
+            .stderr(Stdio::null())
+            .spawn()
+            .expect("the server starts");
+        let mut stdout = BufReader::new(child.stdout.take().expect("stdout"));
+        let mut line = String::new();
+        stdout.read_line(&mut line).expect("the address line");
+        let url = line
+            .split_whitespace()
+            .find(|w| w.starts_with("http://127.0.0.1:"))
+            .unwrap_or_else(|| panic!("no address in {line:?}"))
+            .to_string();
+        let rest = url.trim_start_matches("http://127.0.0.1:");
+        let (port, query) = rest.split_once('/').expect("a path");
+        let token = query.split_once("token=").expect("a token").1.to_string();
+        Server {
+            child,
+            stdout,
+            port: port.parse().expect("a port"),
+            token,
+        }
+    }
+
+    fn host(&self) -> String {
+        format!("127.0.0.1:{}", self.port)
+    }
+
+    fn cookie(&self) -> String {
+        format!("relyard_session={}", self.token)
+    }
+
+    /// Send one request; the status, the headers (lower-cased names) and the body.
+    fn send(&self, method: &str, path: &str, headers: &[(&str, &str)], body: &[u8]) -> Reply {
+        let mut s = TcpStream::connect(("127.0.0.1", self.port)).expect("connect");
+        s.set_read_timeout(Some(Duration::from_secs(60))).unwrap();
+        let mut head = format!("{method} {path} HTTP/1.1\r\nConnection: close\r\n");
+        if !headers.iter().any(|(k, _)| k.eq_ignore_ascii_case("host")) {
+            head.push_str(&format!("Host: {}\r\n", self.host()));
+        }
+        for (k, v) in headers {
+            head.push_str(&format!("{k}: {v}\r\n"));
+        }
+        head.push_str(&format!("Content-Length: {}\r\n\r\n", body.len()));
+        s.write_all(head.as_bytes()).unwrap();
+        // A refused upload may close the connection before all of it is sent.
+        let _ = s.write_all(body);
+        let mut raw = Vec::new();
+        let _ = s.read_to_end(&mut raw);
+        Reply::parse(&raw)
+    }
+
+    fn get(&self, path: &str) -> Reply {
+        self.send("GET", path, &[("Cookie", &self.cookie())], b"")
+    }
+
+    fn post(&self, path: &str, body: &[u8]) -> Reply {
+        let origin = format!("http://{}", self.host());
+        self.send(
+            "POST",
+            path,
+            &[("Cookie", &self.cookie()), ("Origin", &origin)],
+            body,
+        )
+    }
+
+    /// Stop with SIGINT (as Ctrl-C does) and return what it printed after the address.
+    fn interrupt(mut self) -> (bool, String) {
+        let pid = self.child.id().to_string();
+        let sent = Command::new("kill").args(["-INT", &pid]).status();
+        assert!(sent.is_ok_and(|s| s.success()), "kill -INT");
+        let status = self.child.wait().expect("the server ends");
+        let mut rest = String::new();
+        let _ = self.stdout.read_to_string(&mut rest);
+        (status.success(), rest)
+    }
+}
+
+impl Drop for Server {
+    fn drop(&mut self) {
+        let _ = self.child.kill();
+        let _ = self.child.wait();
+    }
+}
+
+struct Reply {
+    status: u16,
+    headers: Vec<(String, String)>,
+    body: Vec<u8>,
+}
+
+impl Reply {
+    fn parse(raw: &[u8]) -> Reply {
+        let split = raw
+            .windows(4)
+            .position(|w| w == b"\r\n\r\n")
+            .unwrap_or_else(|| panic!("no header end in {:?}", String::from_utf8_lossy(raw)));
+        let head = String::from_utf8_lossy(&raw[..split]).into_owned();
+        let mut lines = head.lines();
+        let status = lines
+            .next()
+            .and_then(|l| l.split_whitespace().nth(1))
+            .and_then(|c| c.parse().ok())
+            .expect("a status line");
+        let headers: Vec<(String, String)> = lines
+            .filter_map(|l| l.split_once(':'))
+            .map(|(k, v)| (k.trim().to_ascii_lowercase(), v.trim().to_string()))
+            .collect();
+        let mut body = raw[split + 4..].to_vec();
+        if headers
+            .iter()
+            .any(|(k, v)| k == "transfer-encoding" && v.contains("chunked"))
+        {
+            body = unchunk(&body);
+        }
+        Reply {
+            status,
+            headers,
+            body,
+        }
+    }
+
+    fn header(&self, name: &str) -> Option<&str> {
+        self.headers
+            .iter()
+            .find(|(k, _)| k == name)
+            .map(|(_, v)| v.as_str())
+    }
+
+    fn text(&self) -> String {
+        String::from_utf8_lossy(&self.body).into_owned()
+    }
+
+    fn json(&self) -> serde_json::Value {
+        serde_json::from_slice(&self.body).unwrap_or_else(|e| panic!("{e}: {}", self.text()))
+    }
+}
+
+fn unchunk(mut b: &[u8]) -> Vec<u8> {
+    let mut out = Vec::new();
+    loop {
+        let Some(end) = b.windows(2).position(|w| w == b"\r\n") else {
+            return out;
+        };
+        let size =
+            usize::from_str_radix(String::from_utf8_lossy(&b[..end]).trim(), 16).unwrap_or(0);
+        if size == 0 {
+            return out;
+        }
+        out.extend_from_slice(&b[end + 2..end + 2 + size]);
+        b = &b[end + 4 + size..];
+    }
+}
+
+#[test]
+fn the_token_address_sets_the_session_and_nothing_is_served_without_it() {
+    let s = Server::start(&[]);
+    let open = s.send("GET", &format!("/open?token={}", s.token), &[], b"");
+    assert_eq!(open.status, 303);
+    let cookie = open.header("set-cookie").expect("a cookie");
+    assert!(cookie.contains(&s.token) && cookie.contains("HttpOnly"));
+    assert!(cookie.contains("SameSite=Strict"));
+    let wrong = s.send("GET", "/open?token=0123", &[], b"");
+    assert_eq!(wrong.status, 403);
+    for path in ["/", "/app.js", "/app.css", "/api/start"] {
+        assert_eq!(
+            s.send("GET", path, &[], b"").status,
+            403,
+            "{path} without token"
+        );
+        let bad = s.send("GET", path, &[("Cookie", "relyard_session=00")], b"");
+        assert_eq!(bad.status, 403, "{path} with a wrong token");
+        let ok = s.get(path);
+        assert_eq!(ok.status, 200, "{path} with the token");
+        assert!(ok.header("content-security-policy").is_some());
+    }
+    let page = s.get("/").text();
+    assert!(page.contains("<script src=\"/app.js\""));
+    assert!(
+        !page.contains("http://") && !page.contains("https://"),
+        "nothing from elsewhere"
+    );
+    assert_eq!(
+        s.send("POST", "/api/pool?demo=1", &[], b"").status,
+        403,
+        "an analysis without the token"
+    );
+}
+
+#[test]
+fn foreign_hosts_origins_and_cross_site_requests_are_refused() {
+    let s = Server::start(&[]);
+    let cookie = s.cookie();
+    let foreign_host = s.send(
+        "GET",
+        "/",
+        &[
+            ("Host", &format!("rebound.example:{}", s.port)),
+            ("Cookie", &cookie),
+        ],
+        b"",
+    );
+    assert_eq!(foreign_host.status, 403);
+    let local_name = s.send(
+        "GET",
+        "/",
+        &[
+            ("Host", &format!("localhost:{}", s.port)),
+            ("Cookie", &cookie),
+        ],
+        b"",
+    );
+    assert_eq!(local_name.status, 200);
+    let foreign_origin = s.send(
+        "POST",
+        "/api/pool?demo=1",
+        &[("Cookie", &cookie), ("Origin", "http://elsewhere.example")],
+        b"",
+    );
+    assert_eq!(foreign_origin.status, 403);
+    let cross = s.send(
+        "POST",
+        "/api/pool?demo=1",
+        &[("Cookie", &cookie), ("Sec-Fetch-Site", "cross-site")],
+        b"",
+    );
+    assert_eq!(cross.status, 403);
+}
+
+#[test]
+fn the_demo_pooled_by_the_server_gives_the_numbers_of_the_command_line() {
+    let s = Server::start(&["--demo"]);
+    let start = s.get("/api/start").json();
+    assert_eq!(start["demo"], true);
+    let served = s.post("/api/pool?demo=1&tau2=dl&ci=wald", b"");
+    assert_eq!(served.status, 200, "{}", served.text());
+    let page = served.json();
+    let out = relyard(&[
+        "pool",
+        &demo_file("candor-benchmark.csv"),
+        "--measure",
+        "the Brindlewood Team Candor Inventory",
+        "--tau2",
+        "dl",
+        "--ci",
+        "wald",
+        "--json",
+    ]);
+    assert!(out.status.success());
+    let cli: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for key in [
+        "estimate",
+        "se",
+        "ci",
+        "pi",
+        "tau2",
+        "i2",
+        "k",
+        "reliability",
+        "paragraph",
+    ] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    assert_eq!(page["tau2_method"], "dl");
+}
+
+#[test]
+fn an_uploaded_sheet_is_pooled_and_a_malformed_one_gets_the_row_and_column() {
+    let s = Server::start(&[]);
+    let sheet = std::fs::read(demo_file("candor-benchmark.csv")).unwrap();
+    let good = s.post("/api/pool?name=mine.csv", &sheet);
+    assert_eq!(good.status, 200, "{}", good.text());
+    assert!(good.json()["k"].as_u64().unwrap() > 10);
+    let bad = b"study,coef,n,items\nA,0.81,120,6\nB,high,95,6\nC,0.77,140,6\nD,0.8,200,6\n";
+    let reply = s.post("/api/pool?name=%2Fhome%2Fsomeone%2Fcoded.csv", bad);
+    assert_eq!(reply.status, 400);
+    let message = reply.json()["error"].as_str().unwrap().to_string();
+    assert!(
+        message.contains("coded.csv") && message.contains("row 3") && message.contains("coef"),
+        "{message}"
+    );
+    assert!(
+        !message.contains("/home/someone"),
+        "a sent path is never used: {message}"
+    );
+    // Left out when asked, and listed.
+    let skipped = s.post("/api/pool?name=coded.csv&skip_invalid=1", bad);
+    assert_eq!(skipped.status, 200, "{}", skipped.text());
+    let doc = skipped.json();
+    assert_eq!(doc["k"], 3);
+    assert_eq!(doc["skipped_rows"][0]["row"], 3);
+    // Garbage, an empty body and an unknown setting: clear errors, and the server goes on.
+    assert_eq!(
+        s.post("/api/pool?name=x.xlsx", b"PK\x03\x04garbage").status,
+        400
+    );
+    assert_eq!(s.post("/api/pool?name=x.csv", b"").status, 400);
+    let unknown = s.post("/api/pool?name=x.csv&output=%2Ftmp%2Fx", &sheet);
+    assert_eq!(unknown.status, 400);
+    assert!(unknown.text().contains("unknown setting"));
+    assert_eq!(s.post("/api/pool?name=again.csv", &sheet).status, 200);
+}
+
+#[test]
+fn an_upload_over_the_limit_is_refused_and_the_server_goes_on() {
+    let s = Server::start(&["--max-upload", "2KB"]);
+    let big = vec![b'x'; 10_000];
+    let reply = s.post("/api/pool?name=big.csv", &big);
+    assert_eq!(reply.status, 413);
+    let small = b"study,coef,n,items\nA,0.81,120,6\nB,0.75,95,6\nC,0.77,140,6\nD,0.8,200,6\n";
+    assert_eq!(s.post("/api/pool?name=small.csv", small).status, 200);
+    assert!(!relyard(&["serve", "--max-upload", "lots"]).status.success());
+}
+
+#[test]
+fn interrupting_the_server_stops_it_cleanly() {
+    let s = Server::start(&[]);
+    assert_eq!(s.get("/").status, 200);
+    let (ok, rest) = s.interrupt();
+    assert!(ok, "exit status 0");
+    assert!(rest.contains("stopped"), "{rest}");
+}
+
+#[test]
+fn concurrent_clients_are_all_answered() {
+    let s = std::sync::Arc::new(Server::start(&["--demo"]));
+    let sheet = std::sync::Arc::new(std::fs::read(demo_file("candor-benchmark.csv")).unwrap());
+    let until = std::time::Instant::now() + Duration::from_secs(3);
+    let workers: Vec<_> = (0..20)
+        .map(|i| {
+            let (s, sheet) = (s.clone(), sheet.clone());
+            std::thread::spawn(move || {
+                let mut answered = 0;
+                while std::time::Instant::now() < until {
+                    let reply = if i % 2 == 0 {
+                        s.post("/api/pool?name=c.csv", &sheet)
+                    } else {
+                        s.get("/")
+                    };
+                    assert_eq!(reply.status, 200);
+                    answered += 1;
+                }
+                answered
+            })
+        })
+        .collect();
+    let total: usize = workers
+        .into_iter()
+        .map(|w| w.join().expect("no failure"))
+        .sum();
+    assert!(total >= 20, "{total} answers");
+}
