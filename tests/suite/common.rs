@@ -167,3 +167,18 @@ pub fn assert_json_close(
         .unwrap_or_else(|| panic!("{what}: {expected} is not a number"));
     assert_close(a, e, rel, abs, what);
 }
+
+/// The Chromium binary on the path, if any (the browser tests skip without it, except under
+/// CI, which sets RELYARD_REQUIRE_BROWSER=1 and installs it).
+pub fn chromium() -> Option<PathBuf> {
+    ["chromium", "chromium-browser", "google-chrome"]
+        .iter()
+        .find_map(|b| {
+            Command::new("which")
+                .arg(b)
+                .output()
+                .ok()
+                .filter(|o| o.status.success())
+                .map(|o| PathBuf::from(String::from_utf8_lossy(&o.stdout).trim()))
+        })
+}

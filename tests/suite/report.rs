@@ -305,26 +305,13 @@ fn axis_labels(figure: &str) -> Vec<&'static str> {
     }
 }
 
-fn browser() -> Option<PathBuf> {
-    ["chromium", "chromium-browser", "google-chrome"]
-        .iter()
-        .find_map(|b| {
-            Command::new("which")
-                .arg(b)
-                .output()
-                .ok()
-                .filter(|o| o.status.success())
-                .map(|o| PathBuf::from(String::from_utf8_lossy(&o.stdout).trim()))
-        })
-}
-
 /// The page loads in headless Chromium with no console errors, and every figure is in
 /// the rendered page with its axes and labels. CI sets RELYARD_REQUIRE_BROWSER=1 (and
 /// installs Chromium), so there a missing browser fails the test; elsewhere it is skipped
 /// with a note.
 #[test]
 fn renders_in_a_browser() {
-    let Some(chromium) = browser() else {
+    let Some(chromium) = super::common::chromium() else {
         assert!(
             std::env::var_os("RELYARD_REQUIRE_BROWSER").is_none(),
             "RELYARD_REQUIRE_BROWSER is set but no Chromium was found"

@@ -1,7 +1,7 @@
 //! `relyard serve` at the HTTP level: the real binary started on a free port, spoken to
 //! over plain TCP (one request per connection), stopped with SIGINT.
 
-use super::common::{demo_file, relyard};
+use super::common::{chromium, demo_file, relyard, scratch};
 use std::io::{BufRead, BufReader, Read, Write};
 use std::net::TcpStream;
 use std::process::{Child, ChildStdout, Command, Stdio};
@@ -370,4 +370,99 @@ fn concurrent_clients_are_all_answered() {
         .map(|w| w.join().expect("no failure"))
         .sum();
     assert!(total >= 20, "{total} answers");
+}
+
+/// The page in headless Chromium: opened from the token address with `--demo`, it pools the
+/// demo and shows the numbers and paragraph of `relyard pool --json`, with no console error.
+/// CI sets RELYARD_REQUIRE_BROWSER=1, so there a missing browser fails the test.
+#[test]
+fn the_page_in_a_browser_shows_the_numbers_of_the_command_line() {
+    let Some(browser) = chromium() else {
+        assert!(
+            std::env::var_os("RELYARD_REQUIRE_BROWSER").is_none(),
+            "RELYARD_REQUIRE_BROWSER is set but no Chromium was found"
+        );
+        eprintln!("note: Chromium not found; the browser test of the page was skipped");
+        return;
+    };
+    let s = Server::start(&["--demo"]);
+    let dir = scratch("serve-browser");
+    let out = Command::new(&browser)
+        .args([
+            "--headless=new",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-dev-shm-usage",
+            "--no-first-run",
+            "--enable-logging=stderr",
+            "--v=0",
+            &format!("--user-data-dir={}", dir.join("profile").display()),
+            "--virtual-time-budget=10000",
+            "--dump-dom",
+            &format!("http://127.0.0.1:{}/open?token={}", s.port, s.token),
+        ])
+        .output()
+        .expect("chromium runs");
+    let dom = String::from_utf8_lossy(&out.stdout);
+    let log = String::from_utf8_lossy(&out.stderr);
+    assert!(out.status.success(), "chromium failed: {log}");
+    for line in log.lines() {
+        assert!(
+            !(line.contains("CONSOLE")
+                || line.contains("Uncaught")
+                || line.contains("Failed to load")),
+            "browser console: {line}"
+        );
+    }
+    let cli = relyard(&[
+        "pool",
+        &demo_file("candor-benchmark.csv"),
+        "--measure",
+        "the Brindlewood Team Candor Inventory",
+        "--json",
+    ]);
+    let cli: serde_json::Value = serde_json::from_slice(&cli.stdout).unwrap();
+    let r = &cli["reliability"];
+    let cell = |id: &str| -> String {
+        let start = dom
+            .find(&format!("id=\"{id}\""))
+            .unwrap_or_else(|| panic!("no {id} in the page: {dom}"));
+        let rest = &dom[start..];
+        let open = rest.find('>').unwrap() + 1;
+        let close = rest.find("</").unwrap();
+        rest[open..close].to_string()
+    };
+    let f3 = |v: &serde_json::Value| format!("{:.3}", v.as_f64().unwrap());
+    assert_eq!(cell("r-estimate"), f3(&r["estimate"]));
+    assert_eq!(
+        cell("r-ci"),
+        format!("{} to {}", f3(&r["ci"][0]), f3(&r["ci"][1]))
+    );
+    assert_eq!(
+        cell("r-pi"),
+        format!("{} to {}", f3(&r["pi"][0]), f3(&r["pi"][1]))
+    );
+    assert_eq!(cell("r-k"), cli["k"].to_string());
+    let paragraph = cli["paragraph"].as_str().unwrap();
+    let shown = cell("paragraph").replace("&amp;", "&");
+    assert_eq!(shown, paragraph);
+}
+
+/// Every text the page shows from an upload goes in as text: the script never writes markup.
+#[test]
+fn the_page_script_never_writes_markup() {
+    let script = std::fs::read_to_string(
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("src/cli/serve/page/app.js"),
+    )
+    .unwrap();
+    for sink in [
+        "innerHTML",
+        "outerHTML",
+        "insertAdjacentHTML",
+        "document.write",
+        "eval(",
+    ] {
+        assert!(!script.contains(sink), "app.js uses {sink}");
+    }
+    assert!(script.contains("textContent"));
 }
