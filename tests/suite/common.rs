@@ -182,3 +182,36 @@ pub fn chromium() -> Option<PathBuf> {
                 .map(|o| PathBuf::from(String::from_utf8_lossy(&o.stdout).trim()))
         })
 }
+
+/// The DOM of `url` as headless Chromium renders it (after `budget_ms` of virtual time, a
+/// fresh profile under `profile`), asserting that the browser ran and logged no console
+/// message, uncaught error or failed load.
+pub fn rendered_dom(browser: &Path, profile: &Path, url: &str, budget_ms: u32) -> String {
+    let out = Command::new(browser)
+        .args([
+            "--headless=new",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-dev-shm-usage",
+            "--no-first-run",
+            "--enable-logging=stderr",
+            "--v=0",
+            &format!("--user-data-dir={}", profile.display()),
+            &format!("--virtual-time-budget={budget_ms}"),
+            "--dump-dom",
+            url,
+        ])
+        .output()
+        .expect("chromium runs");
+    let log = String::from_utf8_lossy(&out.stderr);
+    assert!(out.status.success(), "chromium failed: {log}");
+    for line in log.lines() {
+        assert!(
+            !(line.contains("CONSOLE")
+                || line.contains("Uncaught")
+                || line.contains("Failed to load")),
+            "browser console: {line}"
+        );
+    }
+    String::from_utf8_lossy(&out.stdout).into_owned()
+}

@@ -322,33 +322,12 @@ fn renders_in_a_browser() {
     let dir = full_report("browser");
     let page = dir.join("report.html");
     let profile = dir.join("chromium-profile");
-    let out = Command::new(&chromium)
-        .args([
-            "--headless=new",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-dev-shm-usage",
-            "--no-first-run",
-            "--enable-logging=stderr",
-            "--v=0",
-            &format!("--user-data-dir={}", profile.display()),
-            "--virtual-time-budget=5000",
-            "--dump-dom",
-            &format!("file://{}", page.display()),
-        ])
-        .output()
-        .expect("chromium runs");
-    let dom = String::from_utf8_lossy(&out.stdout);
-    let log = String::from_utf8_lossy(&out.stderr);
-    assert!(out.status.success(), "chromium failed: {log}");
-    for line in log.lines() {
-        assert!(
-            !(line.contains("CONSOLE")
-                || line.contains("Uncaught")
-                || line.contains("Failed to load")),
-            "browser console: {line}"
-        );
-    }
+    let dom = super::common::rendered_dom(
+        &chromium,
+        &profile,
+        &format!("file://{}", page.display()),
+        5000,
+    );
     assert!(dom.contains("<h1>Reliability benchmark report"), "{dom}");
     let r = read_json(&dir.join("results.json"));
     for f in r["figures"].as_array().unwrap() {

@@ -1,7 +1,7 @@
 //! `relyard serve` at the HTTP level: the real binary started on a free port, spoken to
 //! over plain TCP (one request per connection), stopped with SIGINT.
 
-use super::common::{chromium, demo_file, relyard, scratch};
+use super::common::{chromium, demo_file, relyard, rendered_dom, scratch};
 use std::io::{BufRead, BufReader, Read, Write};
 use std::net::TcpStream;
 use std::process::{Child, ChildStdout, Command, Stdio};
@@ -387,33 +387,12 @@ fn the_page_in_a_browser_shows_the_numbers_of_the_command_line() {
     };
     let s = Server::start(&["--demo"]);
     let dir = scratch("serve-browser");
-    let out = Command::new(&browser)
-        .args([
-            "--headless=new",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-dev-shm-usage",
-            "--no-first-run",
-            "--enable-logging=stderr",
-            "--v=0",
-            &format!("--user-data-dir={}", dir.join("profile").display()),
-            "--virtual-time-budget=10000",
-            "--dump-dom",
-            &format!("http://127.0.0.1:{}/open?token={}", s.port, s.token),
-        ])
-        .output()
-        .expect("chromium runs");
-    let dom = String::from_utf8_lossy(&out.stdout);
-    let log = String::from_utf8_lossy(&out.stderr);
-    assert!(out.status.success(), "chromium failed: {log}");
-    for line in log.lines() {
-        assert!(
-            !(line.contains("CONSOLE")
-                || line.contains("Uncaught")
-                || line.contains("Failed to load")),
-            "browser console: {line}"
-        );
-    }
+    let dom = rendered_dom(
+        &browser,
+        &dir.join("profile"),
+        &format!("http://127.0.0.1:{}/open?token={}", s.port, s.token),
+        10_000,
+    );
     let cli = relyard(&[
         "pool",
         &demo_file("candor-benchmark.csv"),
