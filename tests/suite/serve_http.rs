@@ -323,6 +323,34 @@ fn an_uploaded_sheet_is_pooled_and_a_malformed_one_gets_the_row_and_column() {
 }
 
 #[test]
+fn the_figures_come_with_the_document_and_a_label_from_an_upload_is_text() {
+    let s = Server::start(&[]);
+    let sheet = b"study,coef,n,items\n<script>alert(1)</script>,0.81,120,6\nB,0.75,95,6\nC,0.77,140,6\nD,0.8,200,6\n";
+    let reply = s.post("/api/pool?name=labels.csv", sheet);
+    assert_eq!(reply.status, 200, "{}", reply.text());
+    let doc = reply.json();
+    for name in ["forest", "precision"] {
+        let svg = doc["figures"][name]
+            .as_str()
+            .unwrap_or_else(|| panic!("no {name}"));
+        assert!(
+            svg.trim_start().starts_with("<svg") || svg.contains("<svg"),
+            "{name}"
+        );
+        assert!(
+            !svg.contains("<script"),
+            "{name} holds markup from the upload"
+        );
+    }
+    let forest = doc["figures"]["forest"].as_str().unwrap();
+    // Escaped (and shortened to fit the column of labels).
+    assert!(
+        forest.contains("&lt;script&gt;alert(1)"),
+        "the label shows as text"
+    );
+}
+
+#[test]
 fn an_upload_over_the_limit_is_refused_and_the_server_goes_on() {
     let s = Server::start(&["--max-upload", "2KB"]);
     let big = vec![b'x'; 10_000];
@@ -422,6 +450,12 @@ fn the_page_in_a_browser_shows_the_numbers_of_the_command_line() {
         format!("{} to {}", f3(&r["pi"][0]), f3(&r["pi"][1]))
     );
     assert_eq!(cell("r-k"), cli["k"].to_string());
+    for id in ["forest", "precision"] {
+        let start = dom.find(&format!("id=\"{id}\"")).expect("the figure");
+        let tag = &dom[dom[..start].rfind('<').unwrap()..];
+        let tag = &tag[..tag.find('>').unwrap()];
+        assert!(tag.contains("src=\"data:image/svg+xml"), "{id}: {tag}");
+    }
     let paragraph = cli["paragraph"].as_str().unwrap();
     let shown = cell("paragraph").replace("&amp;", "&");
     assert_eq!(shown, paragraph);

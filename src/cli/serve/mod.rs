@@ -333,7 +333,16 @@ fn pooled(args: Vec<String>, bytes: Vec<u8>) -> Result<serde_json::Value, String
         .as_ref()
         .ok_or_else(|| "no benchmark was computed".to_string())?;
     let paragraph = benchmark_paragraph(b, settings.measure.as_deref());
-    serde_json::to_value(PoolDocument::new(b, &paragraph, &OptionNames)).map_err(|e| e.to_string())
+    let mut doc = serde_json::to_value(PoolDocument::new(b, &paragraph, &OptionNames))
+        .map_err(|e| e.to_string())?;
+    // The figures as SVG text: the page shows them as images (an SVG in an image runs no
+    // script, whatever its labels hold).
+    let svg = |f: relyard::plot::Figure| f.svg().map_err(|e| message(Failure::Lib(e)));
+    doc["figures"] = serde_json::json!({
+        "forest": svg(relyard::output::figures::forest(b))?,
+        "precision": svg(relyard::output::figures::funnel(b))?,
+    });
+    Ok(doc)
 }
 
 /// Ask the desktop to open the address; say so when it cannot.

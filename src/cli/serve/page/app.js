@@ -24,6 +24,13 @@
     $("headline").textContent = Array.isArray(r.pi)
       ? "A new study of this measure should expect a coefficient between " + fmt(r.pi[0], 2) + " and " + fmt(r.pi[1], 2) + "."
       : "The pooled coefficient is " + fmt(r.estimate, 2) + ".";
+    const figures = doc.figures || {};
+    for (const id of ["forest", "precision"]) {
+      const svg = figures[id];
+      const img = $(id);
+      img.hidden = !svg;
+      if (svg) img.src = "data:image/svg+xml;charset=utf-8," + encodeURIComponent(svg);
+    }
     $("paragraph").textContent = doc.paragraph || "";
     $("caution").textContent = doc.caution || "";
     const list = $("warnings");
@@ -44,6 +51,10 @@
     params.set("tau2", $("tau2").value);
     params.set("ci", $("ci").value);
     params.set("level", $("level").value);
+    for (const id of ["transform", "dependence"]) {
+      if ($(id).value) params.set(id, $(id).value);
+    }
+    if ($("worksheet").value.trim()) params.set("worksheet", $("worksheet").value.trim());
     if ($("skip-invalid").checked) params.set("skip_invalid", "1");
     let body = null;
     if (useDemo) {
