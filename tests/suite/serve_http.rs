@@ -479,3 +479,55 @@ fn the_page_script_never_writes_markup() {
     }
     assert!(script.contains("textContent"));
 }
+
+#[test]
+fn a_new_study_placed_by_the_server_gets_the_verdict_of_the_command_line() {
+    let s = Server::start(&[]);
+    let sheet = std::fs::read(demo_file("candor-benchmark.csv")).unwrap();
+    let reply = s.post(
+        "/api/check?name=sheet.csv&coef=0.66&n=180&items=8&coef_type=alpha&tau2=pm",
+        &sheet,
+    );
+    assert_eq!(reply.status, 200, "{}", reply.text());
+    let page = reply.json();
+    let out = relyard(&[
+        "check",
+        &demo_file("candor-benchmark.csv"),
+        "--coef",
+        "0.66",
+        "--n",
+        "180",
+        "--items",
+        "8",
+        "--tau2",
+        "pm",
+        "--json",
+    ]);
+    assert!(out.status.success());
+    let cli: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for key in [
+        "coef",
+        "expected",
+        "pi",
+        "pi_observed",
+        "percentile",
+        "verdict",
+        "paragraph",
+    ] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    assert!(
+        page["figures"]["placement"]
+            .as_str()
+            .unwrap()
+            .contains("<svg")
+    );
+    // A study without its n is the command line's usage error, as text.
+    let missing = s.post("/api/check?name=sheet.csv&coef=0.66", &sheet);
+    assert_eq!(missing.status, 400);
+    assert!(
+        missing.json()["error"].as_str().unwrap().contains("--n"),
+        "{}",
+        missing.text()
+    );
+}

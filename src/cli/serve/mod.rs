@@ -21,8 +21,8 @@ use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use clap::Parser;
 use relyard::analysis::{Silent, run};
-use relyard::output::json::PoolDocument;
-use relyard::output::prose::benchmark_paragraph;
+use relyard::output::json::{CheckDocument, PoolDocument};
+use relyard::output::prose::{benchmark_paragraph, placement_paragraph};
 use std::sync::Arc;
 use std::time::Duration;
 
@@ -78,6 +78,7 @@ async fn serve(a: ServeArgs, limit: u64) -> Result<(), Failure> {
         .route("/app.css", get(style))
         .route("/api/start", get(start))
         .route("/api/pool", post(pool))
+        .route("/api/check", post(check))
         .layer(DefaultBodyLimit::max(
             usize::try_from(limit).unwrap_or(usize::MAX),
         ))
@@ -217,8 +218,27 @@ fn error_response(status: StatusCode, message: &str) -> Response {
 }
 
 /// Pool an uploaded sheet (the request's body) or the demo sheet (`demo=1`) with the
-/// settings in the query; answer the document `relyard pool --json` prints.
+/// settings in the query; answer the document `relyard pool --json` prints, with the
+/// figures.
 async fn pool(Query(q): Query<Vec<(String, String)>>, body: Bytes) -> Response {
+    analyse(Kind::Pool, q, body).await
+}
+
+/// Place a new study (its coefficient, n and the rest in the query) against the benchmark
+/// of the uploaded or demo sheet: the document of `relyard check --json`, with the
+/// placement figure.
+async fn check(Query(q): Query<Vec<(String, String)>>, body: Bytes) -> Response {
+    analyse(Kind::Check, q, body).await
+}
+
+/// Which command a request runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Kind {
+    Pool,
+    Check,
+}
+
+async fn analyse(kind: Kind, q: Vec<(String, String)>, body: Bytes) -> Response {
     let demo = q.iter().any(|(k, v)| k == "demo" && v == "1");
     let (name, bytes) = if demo {
         (DEMO_NAME.to_string(), DEMO_SHEET.to_vec())
@@ -233,11 +253,11 @@ async fn pool(Query(q): Query<Vec<(String, String)>>, body: Bytes) -> Response {
     if bytes.is_empty() {
         return error_response(StatusCode::BAD_REQUEST, "the upload is empty");
     }
-    let args = match pool_arguments(&q, &name, demo) {
+    let args = match arguments(kind, &q, &name, demo) {
         Ok(a) => a,
         Err(m) => return error_response(StatusCode::BAD_REQUEST, &m),
     };
-    let job = tokio::task::spawn_blocking(move || pooled(args, bytes));
+    let job = tokio::task::spawn_blocking(move || analysed(kind, args, bytes));
     match tokio::time::timeout(TIME_LIMIT, job).await {
         Err(_) => error_response(
             StatusCode::SERVICE_UNAVAILABLE,
@@ -263,8 +283,8 @@ fn display_name(given: &str) -> String {
     }
 }
 
-/// The settings the page may send, as the options of `relyard pool` (no option that names
-/// a file is among them).
+/// The settings the page may send, as options of the command line (no option that names
+/// a file is among them): the model's for every request, the new study's for `check`.
 const VALUE_SETTINGS: [(&str, &str); 11] = [
     ("transform", "--transform"),
     ("tau2", "--tau2"),
@@ -278,20 +298,45 @@ const VALUE_SETTINGS: [(&str, &str); 11] = [
     ("measure", "--measure"),
     ("column", "--column"),
 ];
+const STUDY_SETTINGS: [(&str, &str); 9] = [
+    ("coef", "--coef"),
+    ("n", "--n"),
+    ("items", "--items"),
+    ("coef_type", "--coef-type"),
+    ("sd", "--sd"),
+    ("sd_metric", "--sd-metric"),
+    ("scale_min", "--scale-min"),
+    ("scale_max", "--scale-max"),
+    ("at", "--at"),
+];
 const FLAG_SETTINGS: [(&str, &str); 2] = [
     ("skip_invalid", "--skip-invalid"),
     ("allow_mixed_types", "--allow-mixed-types"),
 ];
 
-/// The command line of `relyard pool` for the page's settings.
-fn pool_arguments(q: &[(String, String)], name: &str, demo: bool) -> Result<Vec<String>, String> {
-    let mut args = vec!["relyard".to_string(), "pool".to_string()];
+/// The command line of `relyard pool` or `relyard check` for the page's settings.
+fn arguments(
+    kind: Kind,
+    q: &[(String, String)],
+    name: &str,
+    demo: bool,
+) -> Result<Vec<String>, String> {
+    let command = match kind {
+        Kind::Pool => "pool",
+        Kind::Check => "check",
+    };
+    let mut args = vec!["relyard".to_string(), command.to_string()];
     let mut measure = false;
+    let study: &[(&str, &str)] = match kind {
+        Kind::Pool => &[],
+        Kind::Check => &STUDY_SETTINGS,
+    };
     for (key, value) in q {
         if key == "name" || key == "demo" {
             continue;
         }
-        if let Some((_, option)) = VALUE_SETTINGS.iter().find(|(k, _)| k == key) {
+        let value_option = VALUE_SETTINGS.iter().chain(study).find(|(k, _)| k == key);
+        if let Some((_, option)) = value_option {
             measure |= key == "measure";
             args.push(format!("{option}={value}"));
         } else if let Some((_, option)) = FLAG_SETTINGS.iter().find(|(k, _)| k == key) {
@@ -311,38 +356,54 @@ fn pool_arguments(q: &[(String, String)], name: &str, demo: bool) -> Result<Vec<
     Ok(args)
 }
 
-/// Run the analysis on the uploaded bytes: the JSON document, or the message the command
-/// line would print.
-fn pooled(args: Vec<String>, bytes: Vec<u8>) -> Result<serde_json::Value, String> {
-    let command = Cli::try_parse_from(&args).map_err(|e| e.to_string())?;
-    let Command::Pool(a) = command.command else {
-        return Err("not a pool request".into());
-    };
+/// Run the analysis on the uploaded bytes: the JSON document with its figures, or the
+/// message the command line would print.
+fn analysed(kind: Kind, args: Vec<String>, bytes: Vec<u8>) -> Result<serde_json::Value, String> {
     let message = |f: Failure| match f {
         Failure::Usage(u) => u.0,
         Failure::Lib(e) => e.render(&OptionNames),
         Failure::ClosedPipe => "the connection closed".into(),
     };
-    let mut settings = super::config::pool(a).map_err(message)?;
+    let command = Cli::try_parse_from(&args).map_err(|e| e.to_string())?;
+    let mut settings = match command.command {
+        Command::Pool(a) => super::config::pool(a),
+        Command::Check(a) => super::config::check(a),
+        _ => return Err("not an analysis request".into()),
+    }
+    .map_err(message)?;
     if let Some(sheet) = settings.sheet.as_mut() {
         sheet.bytes = Some(Arc::new(bytes));
     }
     let analysis = run(&settings, &Silent).map_err(|e| message(Failure::Lib(e)))?;
-    let b = analysis
-        .benchmark
-        .as_ref()
-        .ok_or_else(|| "no benchmark was computed".to_string())?;
-    let paragraph = benchmark_paragraph(b, settings.measure.as_deref());
-    let mut doc = serde_json::to_value(PoolDocument::new(b, &paragraph, &OptionNames))
-        .map_err(|e| e.to_string())?;
+    let measure = settings.measure.as_deref();
     // The figures as SVG text: the page shows them as images (an SVG in an image runs no
     // script, whatever its labels hold).
     let svg = |f: relyard::plot::Figure| f.svg().map_err(|e| message(Failure::Lib(e)));
-    doc["figures"] = serde_json::json!({
-        "forest": svg(relyard::output::figures::forest(b))?,
-        "precision": svg(relyard::output::figures::funnel(b))?,
-    });
-    Ok(doc)
+    let missing = || "the analysis gave no result".to_string();
+    match kind {
+        Kind::Pool => {
+            let b = analysis.benchmark.as_ref().ok_or_else(missing)?;
+            let paragraph = benchmark_paragraph(b, measure);
+            let mut doc = serde_json::to_value(PoolDocument::new(b, &paragraph, &OptionNames))
+                .map_err(|e| e.to_string())?;
+            doc["figures"] = serde_json::json!({
+                "forest": svg(relyard::output::figures::forest(b))?,
+                "precision": svg(relyard::output::figures::funnel(b))?,
+            });
+            Ok(doc)
+        }
+        Kind::Check => {
+            let p = analysis.prepared.as_ref().ok_or_else(missing)?;
+            let pl = analysis.placement.as_ref().ok_or_else(missing)?;
+            let paragraph = placement_paragraph(pl, measure);
+            let mut doc = serde_json::to_value(CheckDocument::new(p, pl, &paragraph, &OptionNames))
+                .map_err(|e| e.to_string())?;
+            doc["figures"] = serde_json::json!({
+                "placement": svg(relyard::output::figures::placement(pl))?,
+            });
+            Ok(doc)
+        }
+    }
 }
 
 /// Ask the desktop to open the address; say so when it cannot.
@@ -374,8 +435,13 @@ mod tests {
 
     #[test]
     fn the_page_settings_become_pool_options_and_nothing_else() {
-        let args =
-            pool_arguments(&q(&[("tau2", "dl"), ("skip_invalid", "1")]), "s.csv", false).unwrap();
+        let args = arguments(
+            Kind::Pool,
+            &q(&[("tau2", "dl"), ("skip_invalid", "1")]),
+            "s.csv",
+            false,
+        )
+        .unwrap();
         assert_eq!(
             args,
             [
@@ -388,9 +454,22 @@ mod tests {
                 "s.csv"
             ]
         );
-        assert!(pool_arguments(&q(&[("output", "/etc/passwd")]), "s.csv", false).is_err());
+        assert!(arguments(Kind::Pool, &q(&[("output", "/etc/passwd")]), "s.csv", false).is_err());
+        // The new study's settings belong to check only.
+        assert!(arguments(Kind::Pool, &q(&[("coef", "0.7")]), "s.csv", false).is_err());
+        let args = arguments(
+            Kind::Check,
+            &q(&[("coef", "0.7"), ("n", "90")]),
+            "s.csv",
+            true,
+        );
+        assert!(args.unwrap().starts_with(&[
+            "relyard".into(),
+            "check".into(),
+            "--coef=0.7".into()
+        ]));
         // A value that looks like an option stays a value.
-        let args = pool_arguments(&q(&[("measure", "--json")]), "s.csv", false).unwrap();
+        let args = arguments(Kind::Pool, &q(&[("measure", "--json")]), "s.csv", false).unwrap();
         assert!(args.contains(&"--measure=--json".to_string()));
     }
 

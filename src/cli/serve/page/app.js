@@ -25,27 +25,19 @@
       ? "A new study of this measure should expect a coefficient between " + fmt(r.pi[0], 2) + " and " + fmt(r.pi[1], 2) + "."
       : "The pooled coefficient is " + fmt(r.estimate, 2) + ".";
     const figures = doc.figures || {};
-    for (const id of ["forest", "precision"]) {
-      const svg = figures[id];
-      const img = $(id);
-      img.hidden = !svg;
-      if (svg) img.src = "data:image/svg+xml;charset=utf-8," + encodeURIComponent(svg);
-    }
+    showImage("forest", figures.forest);
+    showImage("precision", figures.precision);
     $("paragraph").textContent = doc.paragraph || "";
     $("caution").textContent = doc.caution || "";
-    const list = $("warnings");
-    list.textContent = "";
-    for (const w of doc.warnings || []) {
-      const li = document.createElement("li");
-      li.textContent = w.message;
-      list.appendChild(li);
-    }
+    listWarnings("warnings", doc.warnings);
   }
-  async function pool() {
+  // The sheet and model settings the benchmark step shows, as query parameters; null
+  // (with a message in `problems`) when no sheet is chosen.
+  function sheetRequest(problems) {
     const file = $("sheet").files[0];
     if (!useDemo && !file) {
-      $("problems").textContent = "Choose a coding sheet, or use the invented demo sheet.";
-      return;
+      $(problems).textContent = "Choose a coding sheet, or use the invented demo sheet.";
+      return null;
     }
     const params = new URLSearchParams();
     params.set("tau2", $("tau2").value);
@@ -56,16 +48,69 @@
     }
     if ($("worksheet").value.trim()) params.set("worksheet", $("worksheet").value.trim());
     if ($("skip-invalid").checked) params.set("skip_invalid", "1");
-    let body = null;
     if (useDemo) {
       params.set("demo", "1");
-    } else {
-      params.set("name", file.name);
-      body = file;
+      return { params: params, body: null, label: "the invented demo sheet" };
     }
+    params.set("name", file.name);
+    return { params: params, body: file, label: file.name };
+  }
+  function showImage(id, svg) {
+    const img = $(id);
+    img.hidden = !svg;
+    if (svg) img.src = "data:image/svg+xml;charset=utf-8," + encodeURIComponent(svg);
+  }
+  function listWarnings(id, warnings) {
+    const list = $(id);
+    list.textContent = "";
+    for (const w of warnings || []) {
+      const li = document.createElement("li");
+      li.textContent = w.message;
+      list.appendChild(li);
+    }
+  }
+  const WHERE = { below: "below", within: "within", above: "above" };
+  async function place() {
+    const request = sheetRequest("check-problems");
+    if (!request) return;
+    const p = request.params;
+    p.set("coef", $("s-coef").value);
+    p.set("n", $("s-n").value);
+    if ($("s-items").value) p.set("items", $("s-items").value);
+    p.set("coef_type", $("s-type").value);
+    $("check-status").textContent = "Placing your study…";
+    $("check-problems").textContent = "";
+    try {
+      const response = await fetch("/api/check?" + p.toString(), { method: "POST", body: request.body });
+      const doc = await response.json();
+      $("check-status").textContent = "";
+      if (!response.ok) {
+        $("check-result").hidden = true;
+        $("check-problems").textContent = doc.error || "The request failed.";
+        return;
+      }
+      $("check-result").hidden = false;
+      const where = WHERE[doc.verdict] || doc.verdict;
+      $("verdict").textContent = "Your coefficient of " + fmt(doc.coef, 2) + " lies " + where +
+        " the range expected for a study like yours (" + interval(doc.pi_observed, 2) + ").";
+      $("c-coef").textContent = fmt(doc.coef, 3);
+      $("c-expected").textContent = fmt(doc.expected, 3);
+      $("c-range").textContent = interval(doc.pi_observed, 3);
+      $("c-percentile").textContent = fmt(doc.percentile, 0);
+      showImage("placement", (doc.figures || {}).placement);
+      $("check-paragraph").textContent = doc.paragraph || "";
+      listWarnings("check-warnings", doc.warnings);
+    } catch (e) {
+      $("check-status").textContent = "";
+      $("check-problems").textContent = "The server did not answer: " + e;
+    }
+  }
+  async function pool() {
+    const request = sheetRequest("problems");
+    if (!request) return;
     $("status").textContent = "Pooling…";
     try {
-      const response = await fetch("/api/pool?" + params.toString(), { method: "POST", body: body });
+      const response = await fetch("/api/pool?" + request.params.toString(), { method: "POST", body: request.body });
       const doc = await response.json();
       $("status").textContent = "";
       if (!response.ok) {
@@ -73,7 +118,7 @@
         $("problems").textContent = doc.error || "The request failed.";
         return;
       }
-      $("status").textContent = "Pooled " + (useDemo ? "the invented demo sheet" : file.name) + ".";
+      $("status").textContent = "Pooled " + request.label + ".";
       show(doc);
     } catch (e) {
       $("status").textContent = "";
@@ -82,6 +127,7 @@
   }
   document.addEventListener("DOMContentLoaded", async function () {
     $("pool-form").addEventListener("submit", function (e) { e.preventDefault(); pool(); });
+    $("check-form").addEventListener("submit", function (e) { e.preventDefault(); place(); });
     $("sheet").addEventListener("change", function () { useDemo = false; });
     $("use-demo").addEventListener("click", function () { useDemo = true; $("sheet").value = ""; pool(); });
     $("copy").addEventListener("click", async function () {
