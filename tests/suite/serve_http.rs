@@ -66,9 +66,7 @@ impl Server {
         s.write_all(head.as_bytes()).unwrap();
         // A refused upload may close the connection before all of it is sent.
         let _ = s.write_all(body);
-        let mut raw = Vec::new();
-        let _ = s.read_to_end(&mut raw);
-        Reply::parse(&raw)
+        read_reply(&mut s)
     }
 
     fn get(&self, path: &str) -> Reply {
@@ -530,4 +528,304 @@ fn a_new_study_placed_by_the_server_gets_the_verdict_of_the_command_line() {
         "{}",
         missing.text()
     );
+}
+
+/// A ChromeDriver session over the W3C WebDriver protocol (plain HTTP and JSON).
+struct Driver {
+    child: Child,
+    port: u16,
+    session: String,
+}
+
+impl Driver {
+    fn start(browser: &std::path::Path, profile: &std::path::Path) -> Option<Driver> {
+        let port = std::net::TcpListener::bind("127.0.0.1:0")
+            .ok()?
+            .local_addr()
+            .ok()?
+            .port();
+        let child = Command::new("chromedriver")
+            .arg(format!("--port={port}"))
+            .stdout(Stdio::null())
+            .stderr(Stdio::null())
+            .spawn()
+            .ok()?;
+        let mut d = Driver {
+            child,
+            port,
+            session: String::new(),
+        };
+        let ready = (0..100).any(|_| {
+            std::thread::sleep(Duration::from_millis(100));
+            TcpStream::connect(("127.0.0.1", port)).is_ok()
+        });
+        assert!(ready, "chromedriver did not start");
+        let caps = serde_json::json!({"capabilities": {"alwaysMatch": {
+            "browserName": "chrome",
+            "goog:loggingPrefs": {"browser": "ALL"},
+            "goog:chromeOptions": {
+                "binary": browser.to_string_lossy(),
+                "args": ["--headless=new", "--no-sandbox", "--disable-gpu",
+                         "--disable-dev-shm-usage", "--window-size=1100,2400",
+                         format!("--user-data-dir={}", profile.display())]
+            }
+        }}});
+        let v = d.call("POST", "/session", Some(caps));
+        d.session = v["sessionId"]
+            .as_str()
+            .unwrap_or_else(|| panic!("no session: {v}"))
+            .to_string();
+        Some(d)
+    }
+
+    /// One WebDriver command; its `value`.
+    fn call(&self, method: &str, path: &str, body: Option<serde_json::Value>) -> serde_json::Value {
+        let body = body.map(|b| b.to_string()).unwrap_or_default();
+        let mut s = TcpStream::connect(("127.0.0.1", self.port)).expect("chromedriver");
+        s.set_read_timeout(Some(Duration::from_secs(60))).unwrap();
+        let head = format!(
+            "{method} {path} HTTP/1.1\r\nHost: 127.0.0.1:{}\r\nConnection: close\r\n\
+             Content-Type: application/json\r\nContent-Length: {}\r\n\r\n",
+            self.port,
+            body.len()
+        );
+        s.write_all(head.as_bytes()).unwrap();
+        s.write_all(body.as_bytes()).unwrap();
+        let reply = read_reply(&mut s);
+        let v = reply.json();
+        assert!(reply.status < 400, "{method} {path}: {v}");
+        v["value"].clone()
+    }
+
+    fn at(&self, path: &str) -> String {
+        format!("/session/{}{path}", self.session)
+    }
+
+    fn element(&self, css: &str) -> String {
+        let v = self.call(
+            "POST",
+            &self.at("/element"),
+            Some(serde_json::json!({"using": "css selector", "value": css})),
+        );
+        v.as_object()
+            .and_then(|o| o.values().next())
+            .and_then(|e| e.as_str())
+            .unwrap_or_else(|| panic!("no element {css}: {v}"))
+            .to_string()
+    }
+
+    fn click(&self, css: &str) {
+        let e = self.element(css);
+        self.call(
+            "POST",
+            &self.at(&format!("/element/{e}/click")),
+            Some(serde_json::json!({})),
+        );
+    }
+
+    fn type_into(&self, css: &str, text: &str) {
+        let e = self.element(css);
+        self.call(
+            "POST",
+            &self.at(&format!("/element/{e}/value")),
+            Some(serde_json::json!({"text": text})),
+        );
+    }
+
+    fn text(&self, css: &str) -> String {
+        let e = self.element(css);
+        self.call("GET", &self.at(&format!("/element/{e}/text")), None)
+            .as_str()
+            .unwrap_or_default()
+            .to_string()
+    }
+
+    /// Wait up to 20 s until the text of `css` satisfies `ok`; the text.
+    fn wait_for(&self, css: &str, ok: impl Fn(&str) -> bool) -> String {
+        for _ in 0..200 {
+            let t = self.text(css);
+            if ok(&t) {
+                return t;
+            }
+            std::thread::sleep(Duration::from_millis(100));
+        }
+        panic!(
+            "{css} never became as expected (last: {:?})",
+            self.text(css)
+        );
+    }
+
+    fn screenshot(&self, file: &std::path::Path) {
+        let b64 = self.call("GET", &self.at("/screenshot"), None);
+        let bytes = base64_decode(b64.as_str().expect("base64"));
+        assert!(bytes.starts_with(b"\x89PNG"), "a PNG");
+        std::fs::create_dir_all(file.parent().unwrap()).unwrap();
+        std::fs::write(file, bytes).unwrap();
+    }
+
+    /// The browser console's messages of level SEVERE.
+    fn severe_console(&self) -> Vec<String> {
+        let v = self.call(
+            "POST",
+            &self.at("/se/log"),
+            Some(serde_json::json!({"type": "browser"})),
+        );
+        v.as_array()
+            .map(|a| {
+                a.iter()
+                    .filter(|e| e["level"] == "SEVERE")
+                    .map(|e| e["message"].to_string())
+                    .collect()
+            })
+            .unwrap_or_default()
+    }
+}
+
+impl Drop for Driver {
+    fn drop(&mut self) {
+        if !self.session.is_empty() {
+            let path = format!("/session/{}", self.session);
+            let _ = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+                self.call("DELETE", &path, None)
+            }));
+        }
+        let _ = self.child.kill();
+        let _ = self.child.wait();
+    }
+}
+
+fn base64_decode(text: &str) -> Vec<u8> {
+    let value = |c: u8| -> Option<u32> {
+        Some(match c {
+            b'A'..=b'Z' => c - b'A',
+            b'a'..=b'z' => c - b'a' + 26,
+            b'0'..=b'9' => c - b'0' + 52,
+            b'+' => 62,
+            b'/' => 63,
+            _ => return None,
+        } as u32)
+    };
+    let mut out = Vec::new();
+    let (mut acc, mut bits) = (0u32, 0);
+    for v in text.bytes().filter_map(value) {
+        acc = (acc << 6) | v;
+        bits += 6;
+        if bits >= 8 {
+            bits -= 8;
+            out.push((acc >> bits) as u8);
+            acc &= (1 << bits) - 1;
+        }
+    }
+    out
+}
+
+/// The page driven as a user would, in headless Chromium through ChromeDriver: the demo
+/// loads, the estimator is changed and the sheet pooled again, a new study is entered and
+/// its verdict read — each number as the command line gives it — with no console error;
+/// a screenshot is kept in target/test-artefacts/. CI installs both and sets
+/// RELYARD_REQUIRE_BROWSER=1; elsewhere the test skips without them.
+#[test]
+fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
+    let have_driver = Command::new("chromedriver")
+        .arg("--version")
+        .output()
+        .is_ok_and(|o| o.status.success());
+    let Some(browser) = chromium().filter(|_| have_driver) else {
+        assert!(
+            std::env::var_os("RELYARD_REQUIRE_BROWSER").is_none(),
+            "RELYARD_REQUIRE_BROWSER is set but Chromium or ChromeDriver was not found"
+        );
+        eprintln!("note: Chromium or ChromeDriver not found; the driven page test was skipped");
+        return;
+    };
+    let s = Server::start(&["--demo"]);
+    let dir = scratch("serve-driven");
+    let d = Driver::start(&browser, &dir.join("profile")).expect("chromedriver runs");
+    d.call(
+        "POST",
+        &d.at("/url"),
+        Some(serde_json::json!({
+            "url": format!("http://127.0.0.1:{}/open?token={}", s.port, s.token)
+        })),
+    );
+    let cli = |extra: &[&str]| -> serde_json::Value {
+        let demo = demo_file("candor-benchmark.csv");
+        let mut args = vec![extra[0], demo.as_str()];
+        args.extend_from_slice(&extra[1..]);
+        args.push("--json");
+        let out = relyard(&args);
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        serde_json::from_slice(&out.stdout).unwrap()
+    };
+    let f3 = |v: &serde_json::Value| format!("{:.3}", v.as_f64().unwrap());
+    let reml = cli(&["pool"]);
+    d.wait_for("#r-estimate", |t| t == f3(&reml["reliability"]["estimate"]));
+    // Change the estimator and pool again.
+    let dl = cli(&["pool", "--tau2", "dl"]);
+    assert_ne!(
+        f3(&dl["tau2"]),
+        f3(&reml["tau2"]),
+        "the demo tells the estimators apart"
+    );
+    d.click("#tau2 option[value=dl]");
+    d.click("#run");
+    let tau2 = format!("{:.4}", dl["tau2"].as_f64().unwrap());
+    d.wait_for("#r-tau2", |t| t == tau2);
+    assert_eq!(d.text("#r-estimate"), f3(&dl["reliability"]["estimate"]));
+    // A new study.
+    d.type_into("#s-coef", "0.66");
+    d.type_into("#s-n", "180");
+    d.type_into("#s-items", "8");
+    d.click("#place");
+    let check = cli(&[
+        "check", "--tau2", "dl", "--coef", "0.66", "--n", "180", "--items", "8",
+    ]);
+    let verdict = d.wait_for("#verdict", |t| !t.is_empty());
+    assert!(
+        verdict.contains(check["verdict"].as_str().unwrap()),
+        "{verdict} vs {}",
+        check["verdict"]
+    );
+    assert_eq!(
+        d.text("#c-percentile"),
+        format!("{:.0}", check["percentile"].as_f64().unwrap())
+    );
+    d.screenshot(
+        &std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("target/test-artefacts/serve-page-driven.png"),
+    );
+    let severe = d.severe_console();
+    assert!(severe.is_empty(), "browser console: {severe:?}");
+}
+
+/// Read one HTTP reply: the head, then exactly Content-Length bytes (a server may keep the
+/// connection open after it).
+fn read_reply(s: &mut TcpStream) -> Reply {
+    let mut raw = Vec::new();
+    let mut buf = [0u8; 65536];
+    loop {
+        // A reset after the reply (a refused upload) ends the reading as a close does.
+        let n = s.read(&mut buf).unwrap_or(0);
+        if n == 0 {
+            break;
+        }
+        raw.extend_from_slice(&buf[..n]);
+        if let Some(end) = raw.windows(4).position(|w| w == b"\r\n\r\n") {
+            let head = String::from_utf8_lossy(&raw[..end]).to_ascii_lowercase();
+            let length = head
+                .lines()
+                .find_map(|l| l.strip_prefix("content-length:"))
+                .and_then(|v| v.trim().parse::<usize>().ok());
+            if let Some(length) = length
+                && raw.len() >= end + 4 + length
+            {
+                break;
+            }
+        }
+    }
+    Reply::parse(&raw)
 }
