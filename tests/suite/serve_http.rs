@@ -368,34 +368,61 @@ fn interrupting_the_server_stops_it_cleanly() {
     assert!(rest.contains("stopped"), "{rest}");
 }
 
+/// Resident memory of a process in kB (Linux), if it can be read.
+fn resident_kb(pid: u32) -> Option<u64> {
+    let status = std::fs::read_to_string(format!("/proc/{pid}/status")).ok()?;
+    status
+        .lines()
+        .find_map(|l| l.strip_prefix("VmRSS:"))
+        .and_then(|v| v.trim().trim_end_matches("kB").trim().parse().ok())
+}
+
+/// 20 clients for 10 seconds, pooling uploads and fetching the page: every request
+/// answered, and the server's memory no larger at the end than after a first round
+/// (within 20 MB: allocator slack, not growth per request).
 #[test]
-fn concurrent_clients_are_all_answered() {
+fn concurrent_clients_are_all_answered_without_growing_memory() {
     let s = std::sync::Arc::new(Server::start(&["--demo"]));
     let sheet = std::sync::Arc::new(std::fs::read(demo_file("candor-benchmark.csv")).unwrap());
-    let until = std::time::Instant::now() + Duration::from_secs(3);
-    let workers: Vec<_> = (0..20)
-        .map(|i| {
-            let (s, sheet) = (s.clone(), sheet.clone());
-            std::thread::spawn(move || {
-                let mut answered = 0;
-                while std::time::Instant::now() < until {
-                    let reply = if i % 2 == 0 {
-                        s.post("/api/pool?name=c.csv", &sheet)
-                    } else {
-                        s.get("/")
-                    };
-                    assert_eq!(reply.status, 200);
-                    answered += 1;
-                }
-                answered
+    let round = |seconds: u64| -> usize {
+        let until = std::time::Instant::now() + Duration::from_secs(seconds);
+        let workers: Vec<_> = (0..20)
+            .map(|i| {
+                let (s, sheet) = (s.clone(), sheet.clone());
+                std::thread::spawn(move || {
+                    let mut answered = 0;
+                    while std::time::Instant::now() < until {
+                        let reply = if i % 2 == 0 {
+                            s.post("/api/pool?name=c.csv", &sheet)
+                        } else {
+                            s.get("/")
+                        };
+                        assert_eq!(reply.status, 200);
+                        answered += 1;
+                    }
+                    answered
+                })
             })
-        })
-        .collect();
-    let total: usize = workers
-        .into_iter()
-        .map(|w| w.join().expect("no failure"))
-        .sum();
-    assert!(total >= 20, "{total} answers");
+            .collect();
+        workers
+            .into_iter()
+            .map(|w| w.join().expect("no failure"))
+            .sum()
+    };
+    let warm = round(2);
+    let before = resident_kb(s.child.id());
+    let total = round(10);
+    let after = resident_kb(s.child.id());
+    eprintln!(
+        "concurrent clients: {warm} then {total} answers; resident {before:?} → {after:?} kB"
+    );
+    assert!(warm >= 20 && total >= 100, "{warm} then {total} answers");
+    if let (Some(b), Some(a)) = (before, after) {
+        assert!(
+            a < b + 20_000,
+            "memory grew from {b} kB to {a} kB over {total} requests"
+        );
+    }
 }
 
 /// The page in headless Chromium: opened from the token address with `--demo`, it pools the
