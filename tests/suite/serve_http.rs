@@ -690,6 +690,19 @@ impl Driver {
         std::fs::write(file, bytes).unwrap();
     }
 
+    /// The text of an open alert dialog, if one is open.
+    fn alert_open(&self) -> Option<String> {
+        let mut s = TcpStream::connect(("127.0.0.1", self.port)).expect("chromedriver");
+        let head = format!(
+            "GET {} HTTP/1.1\r\nHost: 127.0.0.1:{}\r\nConnection: close\r\n\r\n",
+            self.at("/alert/text"),
+            self.port
+        );
+        s.write_all(head.as_bytes()).unwrap();
+        let reply = read_reply(&mut s);
+        (reply.status == 200).then(|| reply.json()["value"].to_string())
+    }
+
     /// The browser console's messages of level SEVERE.
     fn severe_console(&self) -> Vec<String> {
         let v = self.call(
@@ -825,6 +838,30 @@ fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
         &std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
             .join("target/test-artefacts/serve-page-driven.png"),
     );
+    // An uploaded sheet whose study label is a script: pooled, shown, and nothing runs.
+    let xss = dir.join("labels.csv");
+    std::fs::write(
+        &xss,
+        "study,coef,n,items\n<script>alert(1)</script>,0.81,120,6\nB,0.75,95,6\nC,0.77,140,6\nD,0.8,200,6\n",
+    )
+    .unwrap();
+    d.type_into("#sheet", &xss.to_string_lossy());
+    d.click("#run");
+    d.wait_for("#status", |t| t == "Pooled labels.csv.");
+    assert_eq!(d.text("#r-k"), "4");
+    let forest = d.element("#forest");
+    let src = d.call(
+        "GET",
+        &d.at(&format!("/element/{forest}/attribute/src")),
+        None,
+    );
+    assert!(
+        src.as_str()
+            .unwrap_or_default()
+            .contains("%26lt%3Bscript%26gt%3B"),
+        "the label is escaped text in the figure"
+    );
+    assert!(d.alert_open().is_none(), "a script from the upload ran");
     let severe = d.severe_console();
     assert!(severe.is_empty(), "browser console: {severe:?}");
 }
