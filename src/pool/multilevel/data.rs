@@ -52,10 +52,8 @@ pub(crate) struct Block {
     pub start: usize,
     /// Rows.
     pub len: usize,
-    /// The sample of each row (any numbering; equal numbers share respondents).
-    pub sample: Vec<usize>,
     /// The sample of each row numbered within the cluster from 0, in order of first
-    /// appearance.
+    /// appearance (equal numbers share respondents).
     pub local: Vec<usize>,
     /// Samples in the cluster.
     pub samples: usize,
@@ -97,14 +95,14 @@ impl NestedData {
         let mut blocks = Vec::with_capacity(rows.len());
         let mut start = 0;
         for r in &rows {
-            let sample: Vec<usize> = r.iter().map(|&i| grouping.sample[i]).collect();
             let mut seen: Vec<usize> = Vec::new();
-            let local = sample
+            let local = r
                 .iter()
-                .map(|s| match seen.iter().position(|t| t == s) {
+                .map(|&i| grouping.sample[i])
+                .map(|s| match seen.iter().position(|t| *t == s) {
                     Some(at) => at,
                     None => {
-                        seen.push(*s);
+                        seen.push(s);
                         seen.len() - 1
                     }
                 })
@@ -112,7 +110,6 @@ impl NestedData {
             blocks.push(Block {
                 start,
                 len: r.len(),
-                sample,
                 local,
                 samples: seen.len(),
             });
@@ -188,14 +185,16 @@ impl NestedData {
     pub(crate) fn marginal_cov(&self, b: &Block, r: f64, theta: [f64; 2]) -> DMatrix<f64> {
         let v = &self.v[b.start..b.start + b.len];
         DMatrix::from_fn(b.len, b.len, |i, j| {
-            row_covariance((v[i], v[j]), (i == j, b.sample[i] == b.sample[j]), r, theta)
+            row_covariance((v[i], v[j]), (i == j, b.local[i] == b.local[j]), r, theta)
         })
     }
 }
 
-/// The covariance of two rows of one cluster under the model, the one owner of the working
+/// The covariance of two rows of one cluster under the model, the definition of the working
 /// model: vᵢ + τ²_within + τ²_cluster for a row with itself; r·√(vᵢvⱼ) + τ²_cluster for two
-/// rows of one sample; τ²_cluster otherwise. `(same_row, same_sample)` say which.
+/// rows of one sample; τ²_cluster otherwise. `(same_row, same_sample)` say which. The
+/// likelihood pass inverts the same matrix in factored form ([`Factored`]; checked against
+/// this one in a unit test).
 pub fn row_covariance(
     (vi, vj): (f64, f64),
     (same_row, same_sample): (bool, bool),
@@ -212,14 +211,17 @@ pub fn row_covariance(
     sampling + theta[0]
 }
 
+/// The error of a cluster whose covariance matrix is not positive definite.
+pub(crate) fn not_positive_definite() -> Error {
+    Error::cannot(
+        "a cluster's covariance matrix is not positive definite (check the sampling \
+         correlation and the sampling variances)",
+    )
+}
+
 /// The inverse and log-determinant of a positive-definite block.
 pub(crate) fn inverse_and_log_det(m: DMatrix<f64>) -> Result<(DMatrix<f64>, f64)> {
-    let chol = nalgebra::Cholesky::new(m).ok_or_else(|| {
-        Error::cannot(
-            "a cluster's covariance matrix is not positive definite (check the sampling \
-             correlation and the sampling variances)",
-        )
-    })?;
+    let chol = nalgebra::Cholesky::new(m).ok_or_else(not_positive_definite)?;
     let log_det = 2.0
         * chol
             .l_dirty()
@@ -395,13 +397,13 @@ impl Factored<'_> {
 }
 
 /// One cluster's factored inverse: fills the per-row and per-sample parts of `k` (1/dᵢ, gᵢ,
-/// r_s and a = M⁻¹1) and returns log det V and 1 + τ²_cluster·1ᵀa.
+/// r_s and a = M⁻¹1) and returns log det V, 1ᵀa and 1 + τ²_cluster·1ᵀa.
 fn factor(
     d: &NestedData,
     b: &Block,
     (r, theta): (f64, [f64; 2]),
     k: &mut Scratch,
-) -> Result<(f64, f64)> {
+) -> Result<(f64, f64, f64)> {
     let (n, m) = (b.len, b.samples);
     for buf in [&mut k.dinv, &mut k.g, &mut k.a] {
         buf.resize(n, 0.0);
@@ -424,10 +426,7 @@ fn factor(
     for (i, &v) in vs.iter().enumerate() {
         let di = (1.0 - r) * v + theta[1];
         if !(di > 0.0 && di.is_finite()) {
-            return Err(Error::cannot(
-                "a cluster's covariance matrix is not positive definite (check the sampling \
-                 correlation and the sampling variances)",
-            ));
+            return Err(not_positive_definite());
         }
         times(di);
         k.dinv[i] = 1.0 / di;
@@ -455,7 +454,7 @@ fn factor(
     let m1: f64 = k.a.iter().sum();
     let one_plus = 1.0 + theta[0] * m1;
     times(one_plus);
-    Ok((log_det + product.ln(), one_plus))
+    Ok((log_det + product.ln(), m1, one_plus))
 }
 
 /// The weight of each row in the pooled value's estimate, W1 (row sums of each cluster's
@@ -469,7 +468,7 @@ pub(crate) fn row_weights(d: &NestedData, r: f64, theta: [f64; 2]) -> Result<Vec
             let mut k = Scratch::default();
             let mut out = Vec::new();
             for b in chunk {
-                let (_, one_plus) = factor(d, b, (r, theta), &mut k)?;
+                let (_, _, one_plus) = factor(d, b, (r, theta), &mut k)?;
                 out.extend(k.a.iter().map(|a| a / one_plus));
             }
             Ok(out)
@@ -491,14 +490,13 @@ fn add_cluster(
     s: &mut Sums,
 ) -> Result<()> {
     let (n, p) = (b.len, d.p());
-    let (log_det, one_plus) = factor(d, b, (r, theta), k)?;
+    let (log_det, m1, one_plus) = factor(d, b, (r, theta), k)?;
     for buf in [&mut k.ma, &mut k.u, &mut k.wy] {
         buf.resize(n, 0.0);
     }
     for buf in [&mut k.x, &mut k.wx, &mut k.wwx] {
         buf.resize(n * p, 0.0);
     }
-    let m1: f64 = k.a.iter().sum();
     s.log_det += log_det;
     let c = theta[0] / one_plus;
     let f = Factored {

@@ -166,6 +166,10 @@ fn end(
     };
     for _ in 0..MAX_ROOT_ITERATIONS {
         let (value, slope) = f(t);
+        // An end set by a point whose profile could not be computed is not a root.
+        if value.is_nan() {
+            *converged = false;
+        }
         if outside(value) {
             out = Some(t);
         } else {
@@ -302,5 +306,9 @@ mod tests {
         };
         let i = interval(f, 1.0, 0.5);
         assert!((i.upper - 3.0).abs() < 1e-5, "{}", i.upper);
+        assert!(
+            !i.converged,
+            "an end found only by failures is not converged"
+        );
     }
 }

@@ -2,7 +2,7 @@
 //! degrees of freedom, computed cluster by cluster (O(Σ kⱼ³)).
 
 use super::MultilevelFit;
-use super::data::NestedData;
+use super::data::{NestedData, not_positive_definite};
 use crate::error::{Error, Result};
 use nalgebra::{DMatrix, DVector, SymmetricEigen};
 
@@ -192,7 +192,7 @@ pub fn hotelling(
     let c = DMatrix::from_fn(q, p, |s, j| if columns[s] == j { 1.0 } else { 0.0 });
     let cmc = &c * m * c.transpose();
     // L = Cᵀ(CMCᵀ)^{-1/2}: its columns are Cᵀgₛ.
-    let l = c.transpose() * matrix_power(&cmc, -0.5, EIGEN_FLOOR * cmc.diagonal().max());
+    let l = power_times(&cmc, -0.5, EIGEN_FLOOR * cmc.diagonal().max(), &c).transpose();
     let mut single = 0.0;
     let mut g_ts: Vec<DMatrix<f64>> = vec![DMatrix::zeros(p, p); q * q];
     for b in &d.blocks {
@@ -258,12 +258,7 @@ fn cluster_parts(
     let v = d.marginal_cov(b, r, [fit.tau2_cluster, fit.tau2_within]);
     let x = d.x_of(b);
     let xm = &x * m;
-    let chol = nalgebra::Cholesky::new(v.clone()).ok_or_else(|| {
-        Error::cannot(
-            "a cluster's covariance matrix is not positive definite (check the sampling \
-             correlation and the sampling variances)",
-        )
-    })?;
+    let chol = nalgebra::Cholesky::new(v.clone()).ok_or_else(not_positive_definite)?;
     let l = chol.l();
     let bm = l.transpose() * (&v - &xm * x.transpose()) * &l;
     // Bⱼ is on the scale of V̂ⱼ²: its eigenvalues below 1e-12 of that scale are rounding
@@ -276,7 +271,8 @@ fn cluster_parts(
     Ok(ClusterParts { g: &l * z, v, x })
 }
 
-/// (Aᵉ)·y for the symmetric part of A, eigenvalues at or below `floor` taken as 0.
+/// (Aᵉ)·y for the symmetric part of A (a positive semi-definite matrix), eigenvalues at or
+/// below `floor` (and any that is not a number) sent to 0.
 fn power_times(a: &DMatrix<f64>, e: f64, floor: f64, y: &DMatrix<f64>) -> DMatrix<f64> {
     let sym = (a + a.transpose()) * 0.5;
     let eig = SymmetricEigen::new(sym);
@@ -286,16 +282,6 @@ fn power_times(a: &DMatrix<f64>, e: f64, floor: f64, y: &DMatrix<f64>) -> DMatri
         qy.row_mut(i).iter_mut().for_each(|x| *x *= f);
     }
     &eig.eigenvectors * qy
-}
-
-/// `floor` (and any that is not a number) sent to 0.
-fn matrix_power(a: &DMatrix<f64>, e: f64, floor: f64) -> DMatrix<f64> {
-    let sym = (a + a.transpose()) * 0.5;
-    let eig = SymmetricEigen::new(sym);
-    let vals = eig
-        .eigenvalues
-        .map(|l| if l > floor { l.powf(e) } else { 0.0 });
-    &eig.eigenvectors * DMatrix::from_diagonal(&vals) * eig.eigenvectors.transpose()
 }
 
 #[cfg(test)]

@@ -69,7 +69,24 @@
       list.appendChild(li);
     }
   }
-  const WHERE = { below: "below", within: "within", above: "above" };
+  // Post a request to the server: the answer's document, or null with the problem shown
+  // (and the old result hidden).
+  async function send(path, request, status, problems, result, busy) {
+    $(status).textContent = busy;
+    $(problems).textContent = "";
+    try {
+      const response = await fetch(path + "?" + request.params.toString(), { method: "POST", body: request.body });
+      const doc = await response.json();
+      $(status).textContent = "";
+      if (response.ok) return doc;
+      $(result).hidden = true;
+      $(problems).textContent = doc.error || "The request failed.";
+    } catch (e) {
+      $(status).textContent = "";
+      $(problems).textContent = "The server did not answer: " + e;
+    }
+    return null;
+  }
   async function place() {
     const request = sheetRequest("check-problems");
     if (!request) return;
@@ -78,52 +95,27 @@
     p.set("n", $("s-n").value);
     if ($("s-items").value) p.set("items", $("s-items").value);
     p.set("coef_type", $("s-type").value);
-    $("check-status").textContent = "Placing your study…";
-    $("check-problems").textContent = "";
-    try {
-      const response = await fetch("/api/check?" + p.toString(), { method: "POST", body: request.body });
-      const doc = await response.json();
-      $("check-status").textContent = "";
-      if (!response.ok) {
-        $("check-result").hidden = true;
-        $("check-problems").textContent = doc.error || "The request failed.";
-        return;
-      }
-      $("check-result").hidden = false;
-      const where = WHERE[doc.verdict] || doc.verdict;
-      $("verdict").textContent = "Your coefficient of " + fmt(doc.coef, 2) + " lies " + where +
-        " the range expected for a study like yours (" + interval(doc.pi_observed, 2) + ").";
-      $("c-coef").textContent = fmt(doc.coef, 3);
-      $("c-expected").textContent = fmt(doc.expected, 3);
-      $("c-range").textContent = interval(doc.pi_observed, 3);
-      $("c-percentile").textContent = fmt(doc.percentile, 0);
-      showImage("placement", (doc.figures || {}).placement);
-      $("check-paragraph").textContent = doc.paragraph || "";
-      listWarnings("check-warnings", doc.warnings);
-    } catch (e) {
-      $("check-status").textContent = "";
-      $("check-problems").textContent = "The server did not answer: " + e;
-    }
+    const doc = await send("/api/check", request, "check-status", "check-problems", "check-result", "Placing your study…");
+    if (!doc) return;
+    $("check-result").hidden = false;
+    // The verdict is one of below, within or above.
+    $("verdict").textContent = "Your coefficient of " + fmt(doc.coef, 2) + " lies " + doc.verdict +
+      " the range expected for a study like yours (" + interval(doc.pi_observed, 2) + ").";
+    $("c-coef").textContent = fmt(doc.coef, 3);
+    $("c-expected").textContent = fmt(doc.expected, 3);
+    $("c-range").textContent = interval(doc.pi_observed, 3);
+    $("c-percentile").textContent = fmt(doc.percentile, 0);
+    showImage("placement", (doc.figures || {}).placement);
+    $("check-paragraph").textContent = doc.paragraph || "";
+    listWarnings("check-warnings", doc.warnings);
   }
   async function pool() {
     const request = sheetRequest("problems");
     if (!request) return;
-    $("status").textContent = "Pooling…";
-    try {
-      const response = await fetch("/api/pool?" + request.params.toString(), { method: "POST", body: request.body });
-      const doc = await response.json();
-      $("status").textContent = "";
-      if (!response.ok) {
-        $("result").hidden = true;
-        $("problems").textContent = doc.error || "The request failed.";
-        return;
-      }
-      $("status").textContent = "Pooled " + request.label + ".";
-      show(doc);
-    } catch (e) {
-      $("status").textContent = "";
-      $("problems").textContent = "The server did not answer: " + e;
-    }
+    const doc = await send("/api/pool", request, "status", "problems", "result", "Pooling…");
+    if (!doc) return;
+    $("status").textContent = "Pooled " + request.label + ".";
+    show(doc);
   }
   document.addEventListener("DOMContentLoaded", async function () {
     $("pool-form").addEventListener("submit", function (e) { e.preventDefault(); pool(); });
