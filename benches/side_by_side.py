@@ -3,7 +3,8 @@
 Python libraries (numpy, scipy, pandas) on the same generated inputs.
 
     python3 benches/side_by_side.py make-inputs DIR     # generate the four inputs (seeded)
-    python3 benches/side_by_side.py run DIR [--repeat N] # time relyard and the baselines
+    python3 benches/side_by_side.py run DIR [--repeat N] [--only a,e]
+                                                         # time relyard and the baselines
 
 Both sides are timed as whole processes (interpreter start and imports included for
 Python, process start for relyard), best of N runs, with peak resident memory from
@@ -302,7 +303,7 @@ def timed(cmd, repeat):
     return best, peak
 
 
-def run(d, repeat):
+def run(d, repeat, only=None):
     exe = os.path.join(ROOT, "target", "release", "relyard")
     if not os.path.exists(exe):
         subprocess.run(["cargo", "build", "--release"], cwd=ROOT, check=True)
@@ -328,6 +329,8 @@ def run(d, repeat):
     ]
     rows = []
     for name, ours, theirs, target, factor in cases:
+        if only and name[0] not in only:
+            continue
         t_ours, m_ours = timed(ours, repeat)
         t_py, m_py = timed(theirs, max(1, repeat if "explain" not in name else 1))
         rows.append({"workload": name, "relyard_s": t_ours, "relyard_mb": m_ours,
@@ -344,7 +347,8 @@ if __name__ == "__main__":
         make_inputs(sys.argv[2])
     elif len(sys.argv) >= 3 and sys.argv[1] == "run":
         rep = int(sys.argv[sys.argv.index("--repeat") + 1]) if "--repeat" in sys.argv else 3
-        run(sys.argv[2], rep)
+        only = sys.argv[sys.argv.index("--only") + 1].split(",") if "--only" in sys.argv else None
+        run(sys.argv[2], rep, only)
     else:
         print(__doc__)
         sys.exit(2)

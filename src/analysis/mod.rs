@@ -187,13 +187,13 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
     };
     // Composites of each sample for the models other than the benchmark's own (which forms
     // them itself, at every sampling correlation of its sensitivity table).
-    let modelled = prepared.as_ref().map(|p| {
+    let modelled = prepared.map(|p| {
         let dep = &settings.model.dependence;
         match crate::pool::dependence::method_in_force(dep, p.grouped()) {
             crate::pool::dependence::DependenceMethod::Aggregate => {
                 p.aggregated(dep.sampling_correlation)
             }
-            _ => p.clone(),
+            _ => p,
         }
     });
     let prepared_for_models = &modelled;

@@ -7,89 +7,73 @@ use crate::error::CellProblem;
 use crate::pool::multilevel::Grouping;
 use crate::sheet::StudyRecord;
 use crate::warning::Warning;
+use std::borrow::Cow;
 use std::collections::HashMap;
 
-/// The key rows are grouped by: their value, with case and surrounding spaces ignored.
-fn key(s: &str) -> String {
-    s.trim().to_lowercase()
-}
-
-/// A row's sample key (its own row when it names none).
-fn sample_key(i: usize, r: &StudyRecord) -> String {
-    match &r.sample {
-        Some(s) => format!("s\u{1}{}", key(s)),
-        None => format!("r\u{1}{i}"),
+/// The key rows are grouped by: their value, with case and surrounding spaces ignored
+/// (borrowed when the value is already in that form, as most are).
+fn key(s: &str) -> Cow<'_, str> {
+    let t = s.trim();
+    if t.chars().any(char::is_uppercase) {
+        Cow::Owned(t.to_lowercase())
+    } else {
+        Cow::Borrowed(t)
     }
 }
 
-/// A row's cluster key: its cluster, else its sample (a sample without a cluster is its own
-/// cluster), else its own row.
-fn cluster_key(i: usize, r: &StudyRecord) -> String {
-    match (&r.cluster, &r.sample) {
-        (Some(c), _) => format!("c\u{1}{}", key(c)),
-        (None, Some(s)) => format!("s\u{1}{}", key(s)),
-        (None, None) => format!("r\u{1}{i}"),
-    }
+/// Which column a cluster key came from: a row's cluster is its cluster, else its sample
+/// (a sample without a cluster is its own cluster), else its own row.
+#[derive(PartialEq, Eq, Hash)]
+enum From {
+    Cluster,
+    Sample,
 }
 
-/// Number the keys in order of first appearance.
-fn number(keys: &[String]) -> Vec<usize> {
-    let mut ids: HashMap<&str, usize> = HashMap::with_capacity(keys.len());
-    keys.iter()
-        .map(|k| {
-            let next = ids.len();
-            *ids.entry(k.as_str()).or_insert(next)
-        })
-        .collect()
-}
-
-/// Each row's sample key and cluster key, formed once.
-struct Keys {
-    sample: Vec<String>,
-    cluster: Vec<String>,
-}
-
-impl Keys {
-    fn of(records: &[StudyRecord]) -> Keys {
-        Keys {
-            sample: records
-                .iter()
-                .enumerate()
-                .map(|(i, r)| sample_key(i, r))
-                .collect(),
-            cluster: records
-                .iter()
-                .enumerate()
-                .map(|(i, r)| cluster_key(i, r))
-                .collect(),
+/// Number the rows' groups in order of first appearance: a row whose key is `None` is a
+/// group of its own.
+fn number<K: std::hash::Hash + Eq>(keys: impl Iterator<Item = Option<K>>) -> Vec<usize> {
+    let mut ids: HashMap<K, usize> = HashMap::new();
+    let mut next = 0;
+    keys.map(|k| {
+        let id = match k {
+            Some(k) => *ids.entry(k).or_insert(next),
+            None => next,
+        };
+        if id == next {
+            next += 1;
         }
-    }
-
-    /// The rows of each named sample, samples in order of first appearance.
-    fn named_samples(&self, records: &[StudyRecord]) -> Vec<Vec<usize>> {
-        let mut slot: HashMap<&str, usize> = HashMap::new();
-        let mut out: Vec<Vec<usize>> = Vec::new();
-        for (i, r) in records.iter().enumerate() {
-            if r.sample.is_some() {
-                let next = out.len();
-                let j = *slot.entry(self.sample[i].as_str()).or_insert(next);
-                if j == out.len() {
-                    out.push(Vec::new());
-                }
-                out[j].push(i);
-            }
-        }
-        out
-    }
+        id
+    })
+    .collect()
 }
 
 /// The grouping of the records.
 pub fn grouping(records: &[StudyRecord]) -> Grouping {
-    let k = Keys::of(records);
     Grouping {
-        cluster: number(&k.cluster),
-        sample: number(&k.sample),
+        cluster: number(records.iter().map(|r| match (&r.cluster, &r.sample) {
+            (Some(c), _) => Some((From::Cluster, key(c))),
+            (None, Some(s)) => Some((From::Sample, key(s))),
+            (None, None) => None,
+        })),
+        sample: number(records.iter().map(|r| r.sample.as_deref().map(key))),
     }
+}
+
+/// The rows of each named sample, samples in order of first appearance.
+fn named_samples(records: &[StudyRecord], g: &Grouping) -> Vec<Vec<usize>> {
+    let mut slot: HashMap<usize, usize> = HashMap::new();
+    let mut out: Vec<Vec<usize>> = Vec::new();
+    for (i, r) in records.iter().enumerate() {
+        if r.sample.is_some() {
+            let next = out.len();
+            let j = *slot.entry(g.sample[i]).or_insert(next);
+            if j == out.len() {
+                out.push(Vec::new());
+            }
+            out[j].push(i);
+        }
+    }
+    out
 }
 
 /// The grouping of some of the rows of a grouping (at `indices`, in that order),
@@ -119,13 +103,16 @@ pub fn shares_any(g: &Grouping) -> bool {
 /// The checks of the sample and cluster columns: the problems of samples whose rows name
 /// different clusters (one per row of such a sample, naming the other rows), and one
 /// warning about the samples whose rows give different sample sizes.
-pub fn check(records: &[StudyRecord], cluster_label: &str) -> (Vec<CellProblem>, Vec<Warning>) {
-    let keys = Keys::of(records);
-    let samples = keys.named_samples(records);
+pub fn check(
+    records: &[StudyRecord],
+    g: &Grouping,
+    cluster_label: &str,
+) -> (Vec<CellProblem>, Vec<Warning>) {
+    let samples = named_samples(records, g);
     let mut problems = Vec::new();
     for members in &samples {
-        let first = &keys.cluster[members[0]];
-        if members.iter().all(|&i| &keys.cluster[i] == first) {
+        let first = g.cluster[members[0]];
+        if members.iter().all(|&i| g.cluster[i] == first) {
             continue;
         }
         let rows: Vec<usize> = members.iter().map(|&i| records[i].row).collect();

@@ -339,7 +339,8 @@ pub fn prepare_from(
     let columns = sheet.has(Role::Sample) || sheet.has(Role::Cluster);
     let mut grouping = None;
     if columns {
-        let (split, notes) = groups::check(&usable, &sheet.column_label(Role::Cluster));
+        let g = groups::grouping(&usable);
+        let (split, notes) = groups::check(&usable, &g, &sheet.column_label(Role::Cluster));
         if !split.is_empty() {
             return Err(Error::InvalidSheet {
                 file: sheet.file.clone(),
@@ -347,7 +348,7 @@ pub fn prepare_from(
             });
         }
         warnings.extend(notes);
-        grouping = Some(groups::grouping(&usable)).filter(groups::shares_any);
+        grouping = Some(g).filter(groups::shares_any);
     }
     sheet_warnings(&sheet, &usable, transform, &mut warnings);
 
@@ -512,9 +513,11 @@ pub fn from_prepared(
         ..
     } = prepared;
     let tr = transform.get();
+    // Without a grouping every row is its own sample and its own cluster (a sheet whose
+    // rows share no cluster shares no sample either).
     let counted = grouping
         .clone()
-        .unwrap_or_else(|| groups::grouping(&records));
+        .unwrap_or_else(|| Grouping::independent(records.len()));
     let (n_total, n_missing) = groups::respondents(&records, &counted);
     let (k_rows, k_samples, k_clusters) = (records.len(), counted.samples(), counted.clusters());
     let pooled = match &grouping {

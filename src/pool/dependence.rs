@@ -449,26 +449,43 @@ pub fn summarize(
     };
     let f = fit(&data, &ml)?;
     let inference = dependence.inference.unwrap_or(Inference::Robust);
-    let robust_cov = cr2(&data, &f)?;
+    // The main fit's robust covariance, the profile intervals, the likelihood-ratio test
+    // and the refits of the sensitivity table depend on the main fit only: they run side by
+    // side (each is itself parallel over clusters; each gives the same result however it
+    // is scheduled).
+    let start = Some([f.tau2_cluster, f.tau2_within]);
+    let ((robust_cov, others), (intervals, lrt)) = rayon::join(
+        || {
+            rayon::join(
+                || cr2(&data, &f),
+                || sensitivity(&data, &ml, (inference, start), options),
+            )
+        },
+        || {
+            rayon::join(
+                || component_intervals(&data, &f, options.level),
+                || cluster_test(&data, &f),
+            )
+        },
+    );
+    let (robust_cov, (others, refits_converged)) = (robust_cov?, others?);
+    let ([ci_c, ci_w], lrt) = (intervals?, lrt?);
     let robust = cluster_robust(&f, &robust_cov, options.level);
     let coefficients = match inference {
         Inference::Robust => robust.clone(),
         Inference::Model => model_based(&f, options.ci, options.level),
     };
     let mut warnings = fit_warnings(&f, &robust, inference);
-    let [ci_c, ci_w] = component_intervals(&data, &f, options.level)?;
     if [ci_c, ci_w].iter().flatten().any(|c| !c.converged) {
         warnings.push(Warning::NotConverged {
             what: "a profile-likelihood interval of a variance component".into(),
             iterations: super::tau2::TAU2_MAX_ITERATIONS,
         });
     }
-    let lrt = cluster_test(&data, &f)?;
     let heterogeneity = typical(y, v, x, &f)?;
     let s2 = heterogeneity.typical_variance;
     let total = f.tau2_cluster + f.tau2_within;
     let share = |t: f64| 100.0 * t / (total + s2);
-    let start = Some([f.tau2_cluster, f.tau2_within]);
     let first = coefficients[0];
     let in_force = SensitivityRow {
         sampling_correlation: ml.sampling_correlation,
@@ -476,8 +493,11 @@ pub fn summarize(
         ci: first.ci,
         pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
     };
-    let (sensitivity, refits_converged) =
-        sensitivity(&data, &ml, (inference, start, Some(in_force)), options)?;
+    let mut sensitivity = others;
+    if SENSITIVITY_CORRELATIONS.contains(&ml.sampling_correlation) {
+        sensitivity.push(in_force);
+        sensitivity.sort_by(|a, b| a.sampling_correlation.total_cmp(&b.sampling_correlation));
+    }
     if !refits_converged {
         warnings.push(Warning::NotConverged {
             what: "a refit at another sampling correlation (the sensitivity table)".into(),
@@ -649,39 +669,47 @@ fn fit_warnings(f: &MultilevelFit, robust: &[Inferred], inference: Inference) ->
     w
 }
 
+/// The rows of the sensitivity table at the sampling correlations other than the one in
+/// force (whose row is the main fit's own), each refitted from `start`, in order; and
+/// whether every refit converged.
 fn sensitivity(
     data: &NestedData,
     ml: &MultilevelOptions,
-    (inference, start, in_force): (Inference, Option<[f64; 2]>, Option<SensitivityRow>),
+    (inference, start): (Inference, Option<[f64; 2]>),
     options: &PoolOptions,
 ) -> Result<(Vec<SensitivityRow>, bool)> {
+    use rayon::prelude::*;
+    let rows: Vec<Result<(SensitivityRow, bool)>> = SENSITIVITY_CORRELATIONS
+        .par_iter()
+        .filter(|&&r| r != ml.sampling_correlation)
+        .map(|&r| {
+            let f = super::multilevel::refit_from(
+                data,
+                &MultilevelOptions {
+                    sampling_correlation: r,
+                    ..*ml
+                },
+                start,
+            )?;
+            let first = match inference {
+                Inference::Robust => cluster_robust(&f, &cr2(data, &f)?, options.level)[0],
+                Inference::Model => model_based(&f, options.ci, options.level)[0],
+            };
+            let row = SensitivityRow {
+                sampling_correlation: r,
+                estimate: first.estimate,
+                ci: first.ci,
+                pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
+            };
+            Ok((row, f.converged()))
+        })
+        .collect();
     let mut out = Vec::with_capacity(SENSITIVITY_CORRELATIONS.len());
     let mut converged = true;
-    for r in SENSITIVITY_CORRELATIONS {
-        // The correlation in force is the main fit itself.
-        if let Some(row) = in_force.filter(|row| row.sampling_correlation == r) {
-            out.push(row);
-            continue;
-        }
-        let f = super::multilevel::refit_from(
-            data,
-            &MultilevelOptions {
-                sampling_correlation: r,
-                ..*ml
-            },
-            start,
-        )?;
-        converged &= f.converged();
-        let first = match inference {
-            Inference::Robust => cluster_robust(&f, &cr2(data, &f)?, options.level)[0],
-            Inference::Model => model_based(&f, options.ci, options.level)[0],
-        };
-        out.push(SensitivityRow {
-            sampling_correlation: r,
-            estimate: first.estimate,
-            ci: first.ci,
-            pi: new_cluster_interval(&f, first.se, options.level).map(|(i, _)| i),
-        });
+    for row in rows {
+        let (row, ok) = row?;
+        converged &= ok;
+        out.push(row);
     }
     Ok((out, converged))
 }

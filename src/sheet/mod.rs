@@ -517,7 +517,8 @@ fn parse_rows(
 /// Where each column sits in the file.
 struct Layout {
     width: usize,
-    roles: BTreeMap<Role, (usize, String)>,
+    /// The column of each role, by its place in [`Role::ALL`] (looked up for every cell).
+    column_of: [Option<usize>; Role::ALL.len()],
     /// The header name of each standard column (for messages).
     names: BTreeMap<Role, String>,
     extra: Vec<(usize, String)>,
@@ -567,10 +568,11 @@ impl Layout {
             }
         }
         let names = roles.iter().map(|(r, (_, n))| (*r, n.clone())).collect();
+        let column_of = Role::ALL.map(|r| roles.get(&r).map(|(i, _)| *i));
         Ok(Layout {
             width: header.len(),
             names,
-            roles,
+            column_of,
             extra,
             unnamed,
         })
@@ -689,8 +691,8 @@ impl Layout {
     /// The text of a row's standard cells and other columns, noting unreadable ones.
     fn read_cells<'r>(&self, raw: &'r read::RawRow<'_>, check: &mut RowCheck<'_>) -> RowCells<'r> {
         let mut cell_of = |role: Role| -> Option<&'r str> {
-            let (i, _) = self.roles.get(&role)?;
-            let Some(s) = check.text(raw, *i, &|| column_label(&self.names, role)) else {
+            let i = self.column_of[role as usize]?;
+            let Some(s) = check.text(raw, i, &|| column_label(&self.names, role)) else {
                 check.failed.push(role);
                 return None;
             };
@@ -881,6 +883,16 @@ impl RowCheck<'_> {
         }
     }
 
+    fn label_too_long(&mut self, role: Role, chars: usize) {
+        self.push(
+            role,
+            format!(
+                "the label is {chars} characters long (at most {MAX_LABEL_CHARS} are allowed); \
+                 shorten it"
+            ),
+        );
+    }
+
     /// Note a problem with a standard column's value.
     fn push(&mut self, role: Role, reason: String) {
         self.failed.push(role);
@@ -894,8 +906,17 @@ impl RowCheck<'_> {
     /// The study label with its spaces tidied, checked for length and control characters.
     /// A label (of a study, sample or cluster), its runs of white space made one space.
     fn label(&mut self, role: Role, s: &str) -> String {
-        // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
         let trimmed = s.trim();
+        // Printable ASCII with single spaces, as nearly every label is, is kept as it is and
+        // has as many characters as bytes.
+        let simple = trimmed.bytes().all(|c| (b' '..=b'~').contains(&c)) && !trimmed.contains("  ");
+        if simple {
+            if trimmed.len() > MAX_LABEL_CHARS {
+                self.label_too_long(role, trimmed.len());
+            }
+            return trimmed.to_string();
+        }
+        // Line breaks and runs of spaces (Alt+Enter in a spreadsheet) become one space.
         let plain = !trimmed
             .as_bytes()
             .windows(2)
@@ -908,13 +929,7 @@ impl RowCheck<'_> {
         };
         let chars = t.chars().count();
         if chars > MAX_LABEL_CHARS {
-            self.push(
-                role,
-                format!(
-                    "the label is {chars} characters long (at most {MAX_LABEL_CHARS} are \
-                     allowed); shorten it"
-                ),
-            );
+            self.label_too_long(role, chars);
         }
         if t.chars().any(|c| c.is_control()) {
             self.push(

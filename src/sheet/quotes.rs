@@ -20,7 +20,7 @@ pub fn line_too_long(line: Option<usize>) -> String {
 }
 
 /// Quote state over delimited text.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct QuoteState {
     delimiter: u8,
     at_cell_start: bool,
@@ -53,6 +53,15 @@ impl QuoteState {
 
     /// Take in the next bytes of the text.
     pub fn feed(&mut self, bytes: &[u8]) {
+        if !self.in_quotes && memchr::memchr(b'"', bytes).is_none() {
+            self.feed_unquoted(bytes);
+        } else {
+            self.feed_bytewise(bytes);
+        }
+    }
+
+    /// Take in bytes one at a time (any text).
+    fn feed_bytewise(&mut self, bytes: &[u8]) {
         for &b in bytes {
             if b == b'\n' || b == b'\r' {
                 // Either ends a line for the reader (only \n counts in line numbers).
@@ -96,6 +105,38 @@ impl QuoteState {
             } else {
                 self.at_cell_start = false;
             }
+        }
+    }
+
+    /// Take in bytes that hold no quote, outside quotes (as most text is): line by line
+    /// rather than byte by byte, to the same state.
+    fn feed_unquoted(&mut self, bytes: &[u8]) {
+        let mut start = 0;
+        for end in memchr::memchr2_iter(b'\n', b'\r', bytes) {
+            self.line_part(end - start);
+            if self.record_open {
+                self.records += 1;
+            }
+            self.record_open = false;
+            self.line += usize::from(bytes[end] == b'\n');
+            self.line_bytes = 0;
+            start = end + 1;
+        }
+        self.line_part(bytes.len() - start);
+        if let Some(&last) = bytes.last() {
+            self.at_cell_start = last == self.delimiter || last == b'\n' || last == b'\r';
+        }
+    }
+
+    /// `len` more bytes of the current line, none a line break or a quote.
+    fn line_part(&mut self, len: usize) {
+        if len == 0 {
+            return;
+        }
+        self.record_open = true;
+        self.line_bytes += len;
+        if self.line_bytes > MAX_LINE_BYTES && self.too_long.is_none() {
+            self.too_long = Some(self.line);
         }
     }
 
@@ -156,6 +197,48 @@ impl<R: Read> Read for TrackQuotes<R> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use proptest::prelude::*;
+
+    proptest! {
+        /// Text without quotes taken in line by line leaves the state that byte by byte
+        /// does, however the text is cut into pieces (and with quotes, the byte-by-byte
+        /// pass takes over where one appears).
+        #[test]
+        fn lines_at_a_time_agree_with_bytes_at_a_time(
+            text in proptest::collection::vec(
+                proptest::sample::select(vec![b'a', b',', b';', b' ', b'\n', b'\r', b'"']),
+                0..200,
+            ),
+            cuts in proptest::collection::vec(0usize..200, 0..6),
+        ) {
+            let mut cuts: Vec<usize> = cuts.into_iter().map(|c| c.min(text.len())).collect();
+            cuts.push(0);
+            cuts.push(text.len());
+            cuts.sort_unstable();
+            let (mut fast, mut slow) = (QuoteState::new(b','), QuoteState::new(b','));
+            for w in cuts.windows(2) {
+                fast.feed(&text[w[0]..w[1]]);
+                slow.feed_bytewise(&text[w[0]..w[1]]);
+                prop_assert_eq!(&fast, &slow);
+            }
+        }
+    }
+
+    /// A line over the limit is found on the fast path at the line where the slow one
+    /// finds it.
+    #[test]
+    fn a_long_line_is_found_by_either_pass() {
+        let mut text = b"a,b\n1,2\n".to_vec();
+        text.extend(std::iter::repeat_n(b'x', MAX_LINE_BYTES + 1));
+        text.extend(b"\n3,4\n");
+        let (mut fast, mut slow) = (QuoteState::new(b','), QuoteState::new(b','));
+        for piece in text.chunks(1 << 20) {
+            fast.feed(piece);
+            slow.feed_bytewise(piece);
+        }
+        assert_eq!(fast.too_long(), Some(3));
+        assert_eq!(fast, slow);
+    }
 
     /// The line where an unclosed quote opened in `text`, if one did.
     fn unclosed_quote(text: &[u8], delimiter: u8) -> Option<usize> {

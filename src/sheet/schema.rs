@@ -359,6 +359,14 @@ impl ColumnMap {
 mod tests {
     use super::*;
 
+    /// The sheet reader finds a role's column by the role's place in `Role::ALL`.
+    #[test]
+    fn roles_are_listed_in_their_declared_order() {
+        for (i, r) in Role::ALL.iter().enumerate() {
+            assert_eq!(*r as usize, i, "{r:?}");
+        }
+    }
+
     #[test]
     fn coef_type_cells() {
         assert_eq!(CoefType::parse_cell(" Alpha "), Some(CoefType::Alpha));

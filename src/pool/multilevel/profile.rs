@@ -71,10 +71,10 @@ pub fn component_intervals(
         [(1.0 / a).sqrt(), 0.0]
     }
     .map(|se| half_width.sqrt() * se);
-    let mut out = [None, None];
-    for (i, slot) in out.iter_mut().enumerate() {
+    // The two components' intervals are searched side by side.
+    let one = |i: usize| -> Option<ComponentInterval> {
         if i == 1 && !fit.within_identified {
-            continue;
+            return None;
         }
         // Each point's maximization starts where the last one ended (the root search
         // moves in small steps near its end).
@@ -96,8 +96,10 @@ pub fn component_intervals(
                 Err(_) => (f64::NAN, f64::NAN),
             }
         };
-        *slot = Some(interval(profile, theta[i], steps[i]).scaled(s));
-    }
+        Some(interval(profile, theta[i], steps[i]).scaled(s))
+    };
+    let (cluster, within) = rayon::join(|| one(0), || one(1));
+    let out = [cluster, within];
     Ok(out)
 }
 
@@ -239,7 +241,10 @@ pub fn cluster_test(d: &NestedData, fit: &MultilevelFit) -> Result<LikelihoodRat
     let r = fit.options.sampling_correlation;
     let full = evaluate(&scaled, r, theta, fit.options.restricted, false)?.log_lik;
     let within = (!fit.within_identified).then_some(0.0);
-    let reduced = maximize(&scaled, &fit.options, theta, [Some(0.0), within])?.log_lik;
+    // Held at τ²_cluster = 0, the within-cluster component takes up about what both
+    // components held: the search starts there.
+    let start = [0.0, theta[0] + theta[1]];
+    let reduced = maximize(&scaled, &fit.options, start, [Some(0.0), within])?.log_lik;
     // A difference within rounding of the two maxima (they agree to about 1e-12 of the
     // log-likelihood) is no evidence at all: the statistic is then 0.
     let raw = 2.0 * (full - reduced);

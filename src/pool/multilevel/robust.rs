@@ -192,7 +192,7 @@ pub fn hotelling(
     let c = DMatrix::from_fn(q, p, |s, j| if columns[s] == j { 1.0 } else { 0.0 });
     let cmc = &c * m * c.transpose();
     // L = Cᵀ(CMCᵀ)^{-1/2}: its columns are Cᵀgₛ.
-    let l = power_times(&cmc, -0.5, EIGEN_FLOOR * cmc.diagonal().max(), &c).transpose();
+    let l = power_times(cmc.clone(), -0.5, EIGEN_FLOOR * cmc.diagonal().max(), &c).transpose();
     let mut single = 0.0;
     let mut g_ts: Vec<DMatrix<f64>> = vec![DMatrix::zeros(p, p); q * q];
     for b in &d.blocks {
@@ -257,26 +257,41 @@ fn cluster_parts(
     let m = &fit.cov;
     let v = d.marginal_cov(b, r, [fit.tau2_cluster, fit.tau2_within]);
     let x = d.x_of(b);
-    let xm = &x * m;
-    let chol = nalgebra::Cholesky::new(v.clone()).ok_or_else(not_positive_definite)?;
-    let l = chol.l();
-    let bm = l.transpose() * (&v - &xm * x.transpose()) * &l;
+    let mut xm = &x * m;
+    let l = nalgebra::Cholesky::new(v.clone())
+        .ok_or_else(not_positive_definite)?
+        .unpack();
+    // C = V̂ⱼ − XⱼMXⱼᵀ, one rank-one update per coefficient; then B = LᵀCL.
+    let mut c = v.clone();
+    for j in 0..x.ncols() {
+        c.ger(-1.0, &xm.column(j), &x.column(j), 1.0);
+    }
+    let mut t = DMatrix::zeros(b.len, b.len);
+    c.mul_to(&l, &mut t);
+    l.tr_mul_to(&t, &mut c);
     // Bⱼ is on the scale of V̂ⱼ²: its eigenvalues below 1e-12 of that scale are rounding
     // (a cluster that determines a coefficient on its own) and are treated as 0.
     let top = v.diagonal().max();
-    let y = l
-        .solve_lower_triangular(&xm)
-        .ok_or_else(|| Error::cannot("a cluster's Cholesky factor is singular"))?;
-    let z = power_times(&bm, -0.5, EIGEN_FLOOR * top * top, &y);
+    if !l.solve_lower_triangular_mut(&mut xm) {
+        return Err(Error::cannot("a cluster's Cholesky factor is singular"));
+    }
+    let z = power_times(c, -0.5, EIGEN_FLOOR * top * top, &xm);
     Ok(ClusterParts { g: &l * z, v, x })
 }
 
 /// (Aᵉ)·y for the symmetric part of A (a positive semi-definite matrix), eigenvalues at or
 /// below `floor` (and any that is not a number) sent to 0.
-fn power_times(a: &DMatrix<f64>, e: f64, floor: f64, y: &DMatrix<f64>) -> DMatrix<f64> {
-    let sym = (a + a.transpose()) * 0.5;
-    let eig = SymmetricEigen::new(sym);
-    let mut qy = eig.eigenvectors.transpose() * y;
+fn power_times(mut a: DMatrix<f64>, e: f64, floor: f64, y: &DMatrix<f64>) -> DMatrix<f64> {
+    let n = a.nrows();
+    for i in 0..n {
+        for j in 0..i {
+            let mean = 0.5 * (a[(i, j)] + a[(j, i)]);
+            a[(i, j)] = mean;
+            a[(j, i)] = mean;
+        }
+    }
+    let eig = SymmetricEigen::new(a);
+    let mut qy = eig.eigenvectors.tr_mul(y);
     for (i, l) in eig.eigenvalues.iter().enumerate() {
         let f = if *l > floor { l.powf(e) } else { 0.0 };
         qy.row_mut(i).iter_mut().for_each(|x| *x *= f);
