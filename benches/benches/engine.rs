@@ -144,7 +144,7 @@ fn permutations(c: &mut Criterion) {
     let mut group = c.benchmark_group("explain");
     group.sample_size(10);
     group.bench_function("1,000 permutations, k = 300, 5 moderators", |b| {
-        b.iter(|| black_box(permutation_test(&p, &ex, 1000, 1, &|_| {}).unwrap()))
+        b.iter(|| black_box(permutation_test(&p, &ex, 1000, 1, &|_| {}, &|| false).unwrap()))
     });
     group.finish();
 }

@@ -70,7 +70,7 @@ pub(crate) fn explain(
             None
         }
         Some(n) => Some(with_progress(progress, Task::Permutations, n, |tick| {
-            permutation_test(p, &main, n, s.seed, tick)
+            permutation_test(p, &main, n, s.seed, tick, &|| progress.stop_asked())
         })?),
         None => None,
     };

@@ -4,7 +4,9 @@ use super::settings::{ItemSettings, Settings};
 use super::{Progress, Task, with_progress};
 use crate::error::Result;
 use crate::items::bootstrap::{OmegaBootstrap, bootstrap_omega};
-use crate::items::{ItemAnalysis, ItemData, analyze, analyze_with, read_items};
+use crate::items::{
+    ItemAnalysis, ItemData, analyze, analyze_with, read_items, read_items_from_bytes,
+};
 use crate::warning::Warning;
 
 /// Item data, their analysis, and omega's bootstrap.
@@ -31,7 +33,10 @@ pub(crate) fn items(
 ) -> Result<ItemsOutcome> {
     let mut read = i.read.clone();
     read.keep_rows = i.bootstrap.is_some();
-    let data = read_items(&i.path, &read)?;
+    let data = match &i.bytes {
+        Some(b) => read_items_from_bytes(&i.path, b, &read)?,
+        None => read_items(&i.path, &read)?,
+    };
     let analysis = if data.moments.k() >= PROGRESS_ITEMS {
         with_progress(progress, Task::FactorModels, 2, |tick| {
             analyze_with(&data, s.level, tick)

@@ -61,6 +61,12 @@ pub trait Progress: Sync {
     fn advance(&self, steps: u64);
     /// The task has ended.
     fn finish(&self);
+    /// True once whoever watches has asked the run to stop (the browser page's stop
+    /// button): the permutation test then ends early and the run fails with a message
+    /// that says so.
+    fn stop_asked(&self) -> bool {
+        false
+    }
 }
 
 /// Progress that nobody watches.

@@ -191,8 +191,11 @@ pub enum RegressionData {
 /// Reliability from raw item data.
 #[derive(Debug, Clone, Default, PartialEq)]
 pub struct ItemSettings {
-    /// The item file.
+    /// The item file (also its name in messages).
     pub path: PathBuf,
+    /// The file's bytes when they are already in memory (an upload); read from `path` when
+    /// `None`.
+    pub bytes: Option<Arc<Vec<u8>>>,
     /// Which columns, reverse keying, scale, missing values.
     pub read: ItemReadOptions,
     /// Bootstrap replicates for omega's interval.

@@ -398,6 +398,7 @@ pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
     Ok(Settings {
         items: Some(ItemSettings {
             path: input_path(a.data),
+            bytes: None,
             read: ItemReadOptions {
                 delimiter: a.delimiter.map(u8::from),
                 items: (!items.is_empty()).then_some(items),

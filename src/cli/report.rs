@@ -25,7 +25,7 @@ fn unique(name: String, taken: &mut Vec<String>) -> String {
 
 /// An argument quoted for a POSIX shell when it needs it, so that the command can be run
 /// as printed.
-fn shell_quote(arg: &str) -> String {
+pub(super) fn shell_quote(arg: &str) -> String {
     let plain = !arg.is_empty()
         && arg
             .chars()
@@ -78,7 +78,24 @@ pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
     let settings = super::config::report(a)?;
     let analysis = run(&settings, &Bar::default())?;
     warn_all(&analysis.warnings());
-    let rendered = report_figures(&analysis)
+    let files = report_files(&analysis, options, command)?;
+    write_report(&out, &files, force)?;
+    print(&format!(
+        "wrote {} (open it in a browser), report.md, results.json and {} figures in {}\n",
+        out.join("report.html").display(),
+        files.iter().filter(|(n, _)| n.ends_with(".svg")).count(),
+        out.join("figures").display()
+    ))
+}
+
+/// The report's files, by their names inside the report's folder (figures first, the page
+/// last), for a run of `relyard report` with `options` (reproduced by `command`).
+pub(super) fn report_files(
+    analysis: &Analysis,
+    options: Vec<String>,
+    command: String,
+) -> relyard::Result<Vec<(String, Vec<u8>)>> {
+    let rendered = report_figures(analysis)
         .into_iter()
         .map(|figure| {
             let svg = figure.svg()?;
@@ -90,12 +107,12 @@ pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
         .as_ref()
         .map(|p| p.file().to_string())
         .unwrap_or_default();
-    let title = match &settings.measure {
+    let title = match &analysis.settings.measure {
         Some(m) => format!("Reliability benchmark report: {m}"),
         None => format!("Reliability benchmark report: {file}"),
     };
     let page = ReportPage {
-        analysis: &analysis,
+        analysis,
         title,
         options,
         command,
@@ -115,13 +132,7 @@ pub fn run_report(a: ReportArgs) -> Result<(), Failure> {
     files.push(("report.md".into(), page.markdown().into_bytes()));
     // The page last: it is what a reader opens.
     files.push(("report.html".into(), page.html().into_bytes()));
-    write_report(&out, &files, force)?;
-    print(&format!(
-        "wrote {} (open it in a browser), report.md, results.json and {} figures in {}\n",
-        out.join("report.html").display(),
-        page.figures.len(),
-        out.join("figures").display()
-    ))
+    Ok(files)
 }
 
 /// The arguments as given, and the command that re-runs them, quoted for a shell.

@@ -10,7 +10,7 @@ mod fast;
 pub mod moments;
 pub mod read;
 
-pub use read::{ItemData, ItemReadOptions, Missing, read_items};
+pub use read::{ItemData, ItemReadOptions, Missing, read_items, read_items_from_bytes};
 
 use crate::error::Result;
 use crate::level::Level;

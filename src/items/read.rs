@@ -115,7 +115,17 @@ impl ItemData {
 
 /// Read an item file in one pass.
 pub fn read_items(path: &Path, options: &ItemReadOptions) -> Result<ItemData> {
-    read_items_with(path, options, Some(super::fast::PART_BYTES))
+    read_items_with(path, None, options, Some(super::fast::PART_BYTES))
+}
+
+/// Read item data already in memory (an upload), named `path` in messages; nothing is
+/// opened.
+pub fn read_items_from_bytes(
+    path: &Path,
+    bytes: &[u8],
+    options: &ItemReadOptions,
+) -> Result<ItemData> {
+    read_items_with(path, Some(bytes), options, None)
 }
 
 /// The problems of one file, collected.
@@ -143,11 +153,11 @@ impl Problems {
 }
 
 /// Where the rows come from.
-enum Source {
+enum Source<'a> {
     /// Delimited text: the csv reader, and where the data rows start in the file (for
     /// the fast path, which reopens regular files).
     Text {
-        reader: Box<csv::Reader<TrackQuotes<Box<dyn BufRead>>>>,
+        reader: Box<csv::Reader<TrackQuotes<Box<dyn BufRead + 'a>>>>,
         delimiter: u8,
         data_start: Option<u64>,
         row_number: usize,
@@ -158,7 +168,7 @@ enum Source {
     },
 }
 
-impl Source {
+impl Source<'_> {
     /// The next data record and its spreadsheet row (blank text lines are counted as rows).
     fn next(&mut self, record: &mut csv::ByteRecord, file: &str) -> Result<Option<usize>> {
         match self {
@@ -216,25 +226,36 @@ fn text_failure(file: &str, state: &crate::sheet::QuoteState, e: csv::Error) -> 
 }
 
 /// The file opened: its header, and the source of its rows.
-struct Opened {
+struct Opened<'a> {
     format: SheetFormat,
     worksheet: Option<String>,
     /// What the reader passed over or could not check (a workbook's hidden worksheets,
     /// its formulas).
     notes: Vec<crate::Warning>,
     header: Vec<String>,
-    source: Source,
+    source: Source<'a>,
 }
 
-fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
+/// Where an item file's bytes come from, and whether it is a regular file (which the fast
+/// path may open again).
+type Handle<'a> = (Box<dyn Read + 'a>, bool);
+
+fn open<'a>(path: &Path, bytes: Option<&'a [u8]>, options: &ItemReadOptions) -> Result<Opened<'a>> {
     let file = path.display().to_string();
-    let mut handle = std::fs::File::open(path).map_err(|e| match e.kind() {
-        std::io::ErrorKind::NotFound => Error::setting(
-            Setting::ItemFile,
-            format!("{file}: no such file; check the path of the item data"),
-        ),
-        _ => Error::io(format!("reading {file}"), e),
-    })?;
+    let (mut handle, regular): Handle<'_> = match bytes {
+        Some(b) => (Box::new(b), false),
+        None => {
+            let f = std::fs::File::open(path).map_err(|e| match e.kind() {
+                std::io::ErrorKind::NotFound => Error::setting(
+                    Setting::ItemFile,
+                    format!("{file}: no such file; check the path of the item data"),
+                ),
+                _ => Error::io(format!("reading {file}"), e),
+            })?;
+            let regular = f.metadata().map(|m| m.is_file()).unwrap_or(false);
+            (Box::new(f), regular)
+        }
+    };
     // Peek at the start: BOM, encoding, workbook or text, delimiter. Nothing is sought
     // back, so a pipe reads as well as a file.
     let mut head = Vec::with_capacity(64 * 1024);
@@ -249,7 +270,7 @@ fn open(path: &Path, options: &ItemReadOptions) -> Result<Opened> {
     let delimiter = options
         .delimiter
         .unwrap_or_else(|| detect_delimiter(&head[bom..]));
-    open_text(&file, head, handle, bom, delimiter)
+    open_text(&file, head, (handle, regular), bom, delimiter)
 }
 
 /// Check the start of a text file (not UTF-16, not empty, no worksheet asked for) and
@@ -289,15 +310,14 @@ fn check_text_start(file: &str, head: &[u8], options: &ItemReadOptions) -> Resul
 
 /// Open delimited text from its peeked start and the rest of the handle: the header
 /// read, the reader at the first data row.
-fn open_text(
+fn open_text<'a>(
     file: &str,
     head: Vec<u8>,
-    handle: std::fs::File,
+    (handle, regular): Handle<'a>,
     bom: usize,
     delimiter: u8,
-) -> Result<Opened> {
-    let regular = handle.metadata().map(|m| m.is_file()).unwrap_or(false);
-    let body: Box<dyn BufRead> = Box::new(BufReader::with_capacity(
+) -> Result<Opened<'a>> {
+    let body: Box<dyn BufRead + 'a> = Box::new(BufReader::with_capacity(
         1 << 20,
         Cursor::new(head).chain(handle),
     ));
@@ -341,12 +361,12 @@ fn open_text(
     })
 }
 
-fn open_workbook(
+fn open_workbook<'a>(
     file: &str,
     mut head: Vec<u8>,
-    mut rest: std::fs::File,
+    mut rest: Box<dyn Read + 'a>,
     options: &ItemReadOptions,
-) -> Result<Opened> {
+) -> Result<Opened<'a>> {
     if options.delimiter.is_some() {
         return Err(Error::setting(
             Setting::Delimiter,
@@ -589,6 +609,7 @@ fn reversed_items(names: &[String], options: &ItemReadOptions) -> Result<Vec<boo
 /// tests compare the two.
 fn read_items_with(
     path: &Path,
+    bytes: Option<&[u8]>,
     options: &ItemReadOptions,
     fast_parts: Option<usize>,
 ) -> Result<ItemData> {
@@ -599,7 +620,7 @@ fn read_items_with(
         notes,
         header,
         mut source,
-    } = open(path, options)?;
+    } = open(path, bytes, options)?;
     let with_notes = |mut data: ItemData| {
         data.notes.splice(0..0, notes.iter().cloned());
         data
@@ -1025,8 +1046,8 @@ mod tests {
     /// Both readers, with the same options: equal results, or the same error.
     fn both(path: &Path, options: &ItemReadOptions) -> std::result::Result<ItemData, String> {
         // Small parts, so that the tallies are merged across many part boundaries.
-        let fast = read_items_with(path, options, Some(997));
-        let careful = read_items_with(path, options, None);
+        let fast = read_items_with(path, None, options, Some(997));
+        let careful = read_items_with(path, None, options, None);
         match (fast, careful) {
             (Ok(a), Ok(b)) => {
                 assert_eq!(a.rows_read, b.rows_read);

@@ -72,6 +72,7 @@ pub fn permutation_test(
     permutations: usize,
     seed: u64,
     progress: &(dyn Fn(usize) + Sync),
+    stop: &(dyn Fn() -> bool + Sync),
 ) -> Result<PermutationResult> {
     let columns = ex.moderator_columns();
     check_request(permutations, &columns)?;
@@ -103,6 +104,10 @@ pub fn permutation_test(
     let tally = (0..n_chunks)
         .into_par_iter()
         .map(|c| {
+            // Asked to stop: the chunks not yet begun are passed over.
+            if stop() {
+                return Tally::default();
+            }
             let start = c * CHUNK;
             let end = (start + CHUNK).min(permutations);
             let t = refits.run(start, end);
@@ -110,6 +115,13 @@ pub fn permutation_test(
             t
         })
         .reduce(Tally::default, Tally::merge);
+    if stop() {
+        return Err(Error::CannotAnalyse(
+            "the permutation test was stopped before it finished"
+                .to_string()
+                .into(),
+        ));
+    }
 
     if tally.done == 0 {
         return Err(Error::Numerical(

@@ -592,6 +592,11 @@ impl Driver {
             "goog:loggingPrefs": {"browser": "ALL"},
             "goog:chromeOptions": {
                 "binary": browser.to_string_lossy(),
+                // Downloads go beside the profile, without asking.
+                "prefs": {
+                    "download.default_directory": profile.with_file_name("downloads").to_string_lossy(),
+                    "download.prompt_for_download": false
+                },
                 "args": ["--headless=new", "--no-sandbox", "--disable-gpu",
                          "--disable-dev-shm-usage", "--window-size=1100,2400",
                          format!("--user-data-dir={}", profile.display())]
@@ -657,6 +662,16 @@ impl Driver {
             &self.at(&format!("/element/{e}/value")),
             Some(serde_json::json!({"text": text})),
         );
+    }
+
+    /// A property of an element (an input's `value`, a button's `disabled`).
+    fn property(&self, css: &str, name: &str) -> serde_json::Value {
+        let e = self.element(css);
+        self.call(
+            "GET",
+            &self.at(&format!("/element/{e}/property/{name}")),
+            None,
+        )
     }
 
     fn text(&self, css: &str) -> String {
@@ -759,13 +774,10 @@ fn base64_decode(text: &str) -> Vec<u8> {
     out
 }
 
-/// The page driven as a user would, in headless Chromium through ChromeDriver: the demo
-/// loads, the estimator is changed and the sheet pooled again, a new study is entered and
-/// its verdict read — each number as the command line gives it — with no console error;
-/// a screenshot is kept in target/test-artefacts/. CI installs both and sets
-/// RELYARD_REQUIRE_BROWSER=1; elsewhere the test skips without them.
-#[test]
-fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
+/// A server on the demo and a browser driven to its page (a scratch folder `name` for the
+/// browser's profile and downloads); `None`, with a notice, when Chromium or ChromeDriver
+/// is missing (a failure instead when RELYARD_REQUIRE_BROWSER is set, as CI sets it).
+fn driven_demo(name: &str) -> Option<(Server, Driver, std::path::PathBuf)> {
     let have_driver = Command::new("chromedriver")
         .arg("--version")
         .output()
@@ -776,10 +788,10 @@ fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
             "RELYARD_REQUIRE_BROWSER is set but Chromium or ChromeDriver was not found"
         );
         eprintln!("note: Chromium or ChromeDriver not found; the driven page test was skipped");
-        return;
+        return None;
     };
     let s = Server::start(&["--demo"]);
-    let dir = scratch("serve-driven");
+    let dir = scratch(name);
     let d = Driver::start(&browser, &dir.join("profile")).expect("chromedriver runs");
     d.call(
         "POST",
@@ -788,6 +800,19 @@ fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
             "url": format!("http://127.0.0.1:{}/open?token={}", s.port, s.token)
         })),
     );
+    Some((s, d, dir))
+}
+
+/// The page driven as a user would, in headless Chromium through ChromeDriver: the demo
+/// loads, the estimator is changed and the sheet pooled again, a new study is entered and
+/// its verdict read — each number as the command line gives it — with no console error;
+/// a screenshot is kept in target/test-artefacts/. CI installs both and sets
+/// RELYARD_REQUIRE_BROWSER=1; elsewhere the test skips without them.
+#[test]
+fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
+    let Some((_server, d, dir)) = driven_demo("serve-driven") else {
+        return;
+    };
     let cli = |extra: &[&str]| -> serde_json::Value {
         let demo = demo_file("candor-benchmark.csv");
         let mut args = vec![extra[0], demo.as_str()];
@@ -866,6 +891,134 @@ fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
     assert!(severe.is_empty(), "browser console: {severe:?}");
 }
 
+/// The page's other steps driven as a user would: a moderator chosen under Explain (its
+/// coefficient as the command line gives it), the demo's item data analysed with two items
+/// reverse-keyed and the coefficient carried into Your study, the study placed at a
+/// moderator value, and the report downloaded as a zip whose results are the command
+/// line's; no console error; screenshots kept in target/test-artefacts/.
+#[test]
+fn the_page_driven_through_explain_items_study_and_report() {
+    let Some((_server, d, dir)) = driven_demo("serve-driven-steps") else {
+        return;
+    };
+    let sheet = demo_file("candor-benchmark.csv");
+    let artefacts = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("target/test-artefacts");
+    let pooled = cli_json(&["pool", &sheet, "--json"]);
+    let f3 = |v: &serde_json::Value| format!("{:.3}", v.as_f64().unwrap());
+    d.wait_for("#r-estimate", |t| {
+        t == f3(&pooled["reliability"]["estimate"])
+    });
+    // Explain: the first other column of the demo sheet is its year.
+    assert_eq!(d.property("#mod-0", "dataset")["moderator"], "year");
+    d.click("#mod-0");
+    d.click("#explain");
+    let explained = cli_json(&["explain", &sheet, "--moderator", "year", "--json"]);
+    let year = &explained["coefficients"][1];
+    let estimate = format!("{:.4}", year["estimate"].as_f64().unwrap());
+    d.wait_for("#coefficients", |t| t.contains("year"));
+    let table = d.text("#coefficients");
+    assert!(table.contains(&estimate), "{table} lacks {estimate}");
+    d.screenshot(&artefacts.join("serve-page-explain.png"));
+    // Your items: the demo's item data want two items reverse-keyed first.
+    d.click("#items-demo");
+    d.wait_for("#carry", |t| t.starts_with("Nothing to carry"));
+    d.type_into("#i-reverse", "btci_04,btci_09");
+    d.type_into("#i-min", "1");
+    d.type_into("#i-max", "5");
+    d.click("#items-run");
+    let items = cli_json(&[
+        "items",
+        &demo_file("candor-items.csv"),
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    assert_eq!(items["recommendation"], "omega");
+    let omega = f3(&items["omega"]);
+    d.wait_for("#carry", |t| t.contains(&omega));
+    d.click("#carry");
+    assert_eq!(d.property("#s-coef", "value"), omega.as_str());
+    assert_eq!(
+        d.property("#s-n", "value"),
+        items["n_used"].to_string().as_str()
+    );
+    assert_eq!(d.property("#s-type", "value"), "omega");
+    let sd = f3(&items["score"]["sum_sd"]);
+    assert_eq!(d.property("#s-sd", "value"), sd.as_str());
+    // Your study, at a year (the moderator chosen above).
+    d.type_into("#at-0", "2021");
+    d.click("#place");
+    let check = cli_json(&[
+        "check",
+        &sheet,
+        "--moderator",
+        "year",
+        "--at",
+        "year=2021",
+        "--coef",
+        &omega,
+        "--n",
+        &items["n_used"].to_string(),
+        "--items",
+        "10",
+        "--coef-type",
+        "omega",
+        "--sd",
+        &sd,
+        "--sd-metric",
+        "sum",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    let verdict = d.wait_for("#verdict", |t| !t.is_empty());
+    assert!(
+        verdict.contains(check["verdict"].as_str().unwrap()),
+        "{verdict} vs {}",
+        check["verdict"]
+    );
+    assert_eq!(d.text("#c-expected"), f3(&check["expected"]));
+    d.screenshot(&artefacts.join("serve-page-study.png"));
+    // The report: downloaded as a zip, with the command that writes it.
+    d.click("#report");
+    d.wait_for("#report-status", |t| {
+        t.starts_with("Downloaded") || !d.text("#report-problems").is_empty()
+    });
+    assert_eq!(d.text("#report-problems"), "");
+    let command = d.property("#report-command", "value");
+    assert!(
+        command.as_str().unwrap().starts_with("relyard report "),
+        "{command}"
+    );
+    let zip_path = dir.join("downloads").join("relyard-report.zip");
+    let ready = (0..100).any(|_| {
+        std::thread::sleep(Duration::from_millis(100));
+        std::fs::metadata(&zip_path).is_ok_and(|m| m.len() > 0)
+    });
+    assert!(ready, "no zip in {}", zip_path.display());
+    let bytes = std::fs::read(&zip_path).unwrap();
+    let mut archive = zip::ZipArchive::new(std::io::Cursor::new(bytes)).unwrap();
+    let mut results = String::new();
+    archive
+        .by_name("relyard-report/results.json")
+        .unwrap()
+        .read_to_string(&mut results)
+        .unwrap();
+    let results: serde_json::Value = serde_json::from_str(&results).unwrap();
+    assert_eq!(results["placement"]["verdict"], check["verdict"]);
+    assert_eq!(results["placement"]["expected"], check["expected"]);
+    assert!(archive.by_name("relyard-report/report.html").is_ok());
+    d.screenshot(&artefacts.join("serve-page-report.png"));
+    let severe = d.severe_console();
+    assert!(severe.is_empty(), "browser console: {severe:?}");
+}
+
 /// Read one HTTP reply: the head, then exactly Content-Length bytes (a server may keep the
 /// connection open after it).
 fn read_reply(s: &mut TcpStream) -> Reply {
@@ -892,4 +1045,254 @@ fn read_reply(s: &mut TcpStream) -> Reply {
         }
     }
     Reply::parse(&raw)
+}
+
+/// The JSON document a command prints.
+fn cli_json(args: &[&str]) -> serde_json::Value {
+    let out = relyard(args);
+    assert!(
+        out.status.success(),
+        "{args:?}: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    serde_json::from_slice(&out.stdout).unwrap()
+}
+
+#[test]
+fn the_explain_items_and_correction_steps_give_the_command_lines_numbers() {
+    let s = Server::start(&["--demo"]);
+    let sheet = demo_file("candor-benchmark.csv");
+    // Explain: a numeric and a categorical moderator with its reference level, a
+    // permutation test and subgroups.
+    let served = s.post(
+        "/api/explain?demo=1&moderator=year&moderator=field_maturity\
+         &reference=field_maturity=exploratory&permutations=500&by=language",
+        b"",
+    );
+    assert_eq!(served.status, 200, "{}", served.text());
+    let page = served.json();
+    let cli = cli_json(&[
+        "explain",
+        &sheet,
+        "--moderator",
+        "year",
+        "--moderator",
+        "field_maturity",
+        "--reference",
+        "field_maturity=exploratory",
+        "--permutations",
+        "500",
+        "--by",
+        "language",
+        "--json",
+    ]);
+    for key in [
+        "coefficients",
+        "tau2",
+        "r2",
+        "omnibus",
+        "subgroups",
+        "permutations",
+    ] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    let figures = page["figures"].as_array().expect("figures");
+    assert_eq!(figures.len(), 1, "one numeric moderator, one figure");
+    assert!(figures[0]["svg"].as_str().unwrap().starts_with("<svg"));
+
+    // Your items: the demo's item data, two items reverse-keyed.
+    let served = s.post(
+        "/api/items?demo=1&reverse=btci_04,btci_09&scale_min=1&scale_max=5",
+        b"",
+    );
+    assert_eq!(served.status, 200, "{}", served.text());
+    let page = served.json();
+    let cli = cli_json(&[
+        "items",
+        &demo_file("candor-items.csv"),
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    for key in [
+        "alpha",
+        "omega",
+        "n_used",
+        "items",
+        "tau_equivalence",
+        "recommendation",
+        "score",
+    ] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    // An uploaded item file is read from memory, under the name the page gave.
+    let items = std::fs::read(demo_file("candor-items.csv")).unwrap();
+    let up = s.post("/api/items?name=mine.csv", &items).json();
+    assert_eq!(up["input"]["file"], "mine.csv");
+    let plain = cli_json(&["items", &demo_file("candor-items.csv"), "--json"]);
+    assert_eq!(up["alpha"], plain["alpha"]);
+    assert_eq!(up["omega"], plain["omega"]);
+
+    // Correction with values, and with the benchmark as the measure's reliability.
+    let served = s.post(
+        "/api/correct?r=0.3&n=200&rel_x=0.8,n=200,items=10&rel_y=0.7",
+        b"",
+    );
+    assert_eq!(served.status, 200, "{}", served.text());
+    let page = served.json();
+    let cli = cli_json(&[
+        "correct",
+        "--r",
+        "0.3",
+        "--n",
+        "200",
+        "--rel-x",
+        "0.8,n=200,items=10",
+        "--rel-y",
+        "0.7",
+        "--json",
+    ]);
+    for key in ["corrected", "ci", "mc_ci", "reliabilities", "sensitivity"] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    assert!(
+        page["figures"]["sensitivity"]
+            .as_str()
+            .unwrap()
+            .starts_with("<svg")
+    );
+    let served = s.post(
+        "/api/correct-with-benchmark?demo=1&r=0.3&n=200&rel_y=0.7",
+        b"",
+    );
+    assert_eq!(served.status, 200, "{}", served.text());
+    let rel_x = &served.json()["reliabilities"][0];
+    assert_eq!(rel_x["kind"], "benchmark");
+    let pooled = cli_json(&["pool", &sheet, "--json"]);
+    assert_eq!(rel_x["value"], pooled["reliability"]["estimate"]);
+    // A reliability that would open a file is refused before anything runs.
+    let refused = s.post(
+        "/api/correct?r=0.3&n=200&rel_x=sheet=/etc/hostname&rel_y=0.7",
+        b"",
+    );
+    assert_eq!(refused.status, 400);
+    assert!(refused.text().contains("not one"), "{}", refused.text());
+}
+
+#[test]
+fn the_report_zip_is_the_report_its_command_writes() {
+    let s = Server::start(&["--demo"]);
+    let query = "demo=1&tau2=pm&moderator=year&coef=0.81&n=140&items=10&at=year=2021\
+                 &r=0.32&rel_y=0.76";
+    let command = s.post(&format!("/api/report-command?{query}"), b"").json();
+    let command = command["command"].as_str().unwrap().to_string();
+    assert!(command.starts_with("relyard report "), "{command}");
+    let zip = s.post(&format!("/api/report?{query}"), b"");
+    assert_eq!(zip.status, 200, "{}", zip.text());
+    assert_eq!(zip.header("content-type"), Some("application/zip"));
+    let mut archive = zip::ZipArchive::new(std::io::Cursor::new(zip.body.clone())).unwrap();
+    let mut names: Vec<String> = (0..archive.len())
+        .map(|i| archive.by_index(i).unwrap().name().unwrap().into_owned())
+        .collect();
+    names.sort();
+    // The command, run where the sheet is, writes the same files with the same results.
+    let dir = scratch("serve-report");
+    std::fs::copy(
+        demo_file("candor-benchmark.csv"),
+        dir.join("candor-benchmark.csv"),
+    )
+    .unwrap();
+    let out = Command::new("sh")
+        .arg("-c")
+        .arg(command.replacen("relyard", env!("CARGO_BIN_EXE_relyard"), 1))
+        .current_dir(&dir)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let written = dir.join("relyard-report");
+    let mut on_disk: Vec<String> = Vec::new();
+    for entry in std::fs::read_dir(&written).unwrap() {
+        let e = entry.unwrap();
+        let name = e.file_name().to_string_lossy().into_owned();
+        if e.path().is_dir() {
+            for f in std::fs::read_dir(e.path()).unwrap() {
+                on_disk.push(format!(
+                    "relyard-report/{name}/{}",
+                    f.unwrap().file_name().to_string_lossy()
+                ));
+            }
+        } else if !name.starts_with('.') {
+            on_disk.push(format!("relyard-report/{name}"));
+        }
+    }
+    on_disk.sort();
+    let listed: Vec<&String> = names.iter().collect();
+    assert!(
+        on_disk.iter().all(|n| names.contains(n)),
+        "{on_disk:?} vs {listed:?}"
+    );
+    for file in ["results.json", "report.md"] {
+        let mut zipped = String::new();
+        archive
+            .by_name(&format!("relyard-report/{file}"))
+            .unwrap()
+            .read_to_string(&mut zipped)
+            .unwrap();
+        let disk = std::fs::read_to_string(written.join(file)).unwrap();
+        assert_eq!(zipped, disk, "{file}");
+    }
+    assert!(names.iter().any(|n| n.ends_with("figures/placement.svg")));
+    assert!(names.iter().any(|n| n.ends_with("figures/correction.png")));
+}
+
+#[test]
+fn a_long_permutation_test_shows_its_progress_and_stops_when_asked() {
+    let s = Server::start(&["--demo"]);
+    std::thread::scope(|scope| {
+        let running = scope.spawn(|| {
+            s.post(
+                "/api/explain?demo=1&moderator=year&permutations=1000000&job=long-1",
+                b"",
+            )
+        });
+        // Wait until it has begun and made progress.
+        let mut seen = None;
+        for _ in 0..200 {
+            let p = s.get("/api/progress?job=long-1");
+            if p.status == 200 {
+                let p = p.json();
+                if p["running"] == true && p["done"].as_u64().unwrap_or(0) > 0 {
+                    seen = Some(p);
+                    break;
+                }
+            }
+            std::thread::sleep(Duration::from_millis(50));
+        }
+        let seen = seen.expect("progress was shown");
+        assert_eq!(seen["task"], "permutations");
+        assert_eq!(seen["total"], 1_000_000);
+        assert!(seen["done"].as_u64().unwrap() < 1_000_000);
+        assert_eq!(s.post("/api/stop?job=long-1", b"").json()["stopping"], true);
+        let answer = running.join().unwrap();
+        assert_eq!(answer.status, 400);
+        assert!(answer.text().contains("stopped"), "{}", answer.text());
+    });
+    // The job is gone and the server goes on.
+    assert_eq!(s.get("/api/progress?job=long-1").json()["running"], false);
+    assert_eq!(
+        s.post("/api/stop?job=long-1", b"").json()["stopping"],
+        false
+    );
+    assert_eq!(s.post("/api/pool?demo=1", b"").status, 200);
+    // A job name that is not one is refused.
+    let bad = s.post("/api/explain?demo=1&moderator=year&job=a%20b", b"");
+    assert_ne!(bad.status, 200);
 }

@@ -8,9 +8,10 @@
 //! project, with request-size limits and graceful shutdown built in.
 
 mod guard;
+mod jobs;
+mod requests;
 
-use super::args::{Cli, Command, ServeArgs};
-use super::names::OptionNames;
+use super::args::ServeArgs;
 use super::output::{Failure, UsageError};
 use axum::Router;
 use axum::body::Bytes;
@@ -19,17 +20,13 @@ use axum::http::{HeaderMap, HeaderValue, StatusCode, header};
 use axum::middleware::{self, Next};
 use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
-use clap::Parser;
-use relyard::analysis::{Silent, run};
-use relyard::output::json::{CheckDocument, PoolDocument};
-use relyard::output::prose::{benchmark_paragraph, placement_paragraph};
+use jobs::Jobs;
+use requests::{
+    Answer, DEMO_ITEMS, DEMO_ITEMS_NAME, DEMO_NAME, DEMO_SHEET, Kind, Upload, analysed, arguments,
+    display_name, report_command,
+};
 use std::sync::Arc;
 use std::time::Duration;
-
-/// The invented demo sheet, in the binary.
-const DEMO_SHEET: &[u8] = include_bytes!("../../../datasets-demo/candor-benchmark.csv");
-const DEMO_NAME: &str = "candor-benchmark.csv";
-const DEMO_MEASURE: &str = "the Brindlewood Team Candor Inventory";
 
 const PAGE: &str = include_str!("page/index.html");
 const SCRIPT: &str = include_str!("page/app.js");
@@ -43,6 +40,7 @@ struct ServerState {
     port: u16,
     token: String,
     demo: bool,
+    jobs: Arc<Jobs>,
 }
 
 pub fn run_serve(a: ServeArgs) -> Result<(), Failure> {
@@ -70,6 +68,7 @@ async fn serve(a: ServeArgs, limit: u64) -> Result<(), Failure> {
         port,
         token,
         demo: a.demo,
+        jobs: Arc::new(Jobs::default()),
     });
     let app = Router::new()
         .route("/", get(page))
@@ -77,8 +76,33 @@ async fn serve(a: ServeArgs, limit: u64) -> Result<(), Failure> {
         .route("/app.js", get(script))
         .route("/app.css", get(style))
         .route("/api/start", get(start))
-        .route("/api/pool", post(pool))
-        .route("/api/check", post(check))
+        // Each answers what its command prints with --json (and the figures), or for the
+        // report its files in one zip: pool (the benchmark), check (a new study placed),
+        // explain (moderators, score spread, subgroups, influence), items (alpha, omega),
+        // correct (a corrected correlation), correct-with-benchmark (the benchmark as the
+        // measure's reliability, as the report corrects), report (the report's zip).
+        .route("/api/pool", post(|st, q, b| handle(Kind::Pool, st, q, b)))
+        .route("/api/check", post(|st, q, b| handle(Kind::Check, st, q, b)))
+        .route(
+            "/api/explain",
+            post(|st, q, b| handle(Kind::Explain, st, q, b)),
+        )
+        .route("/api/items", post(|st, q, b| handle(Kind::Items, st, q, b)))
+        .route(
+            "/api/correct",
+            post(|st, q, b| handle(Kind::Correct, st, q, b)),
+        )
+        .route(
+            "/api/correct-with-benchmark",
+            post(|st, q, b| handle(Kind::CorrectWithBenchmark, st, q, b)),
+        )
+        .route(
+            "/api/report",
+            post(|st, q, b| handle(Kind::Report, st, q, b)),
+        )
+        .route("/api/report-command", post(command))
+        .route("/api/progress", get(progress))
+        .route("/api/stop", post(stop))
         .layer(DefaultBodyLimit::max(
             usize::try_from(limit).unwrap_or(usize::MAX),
         ))
@@ -199,6 +223,7 @@ async fn start(State(st): State<Arc<ServerState>>) -> Response {
         &serde_json::json!({
             "demo": st.demo,
             "demo_name": DEMO_NAME,
+            "demo_items_name": DEMO_ITEMS_NAME,
             "version": env!("CARGO_PKG_VERSION"),
         }),
     )
@@ -217,48 +242,113 @@ fn error_response(status: StatusCode, message: &str) -> Response {
     json_response(status, &serde_json::json!({ "error": message }))
 }
 
-/// Pool an uploaded sheet (the request's body) or the demo sheet (`demo=1`) with the
-/// settings in the query; answer the document `relyard pool --json` prints, with the
-/// figures.
-async fn pool(Query(q): Query<Vec<(String, String)>>, body: Bytes) -> Response {
-    analyse(Kind::Pool, q, body).await
+type Sent = (State<Arc<ServerState>>, Query<Vec<(String, String)>>, Bytes);
+
+/// The handler of the requests of one kind: the upload (the body, or the demo's file with
+/// `demo=1`) analysed with the settings in the query.
+async fn handle(
+    kind: Kind,
+    state: State<Arc<ServerState>>,
+    q: Query<Vec<(String, String)>>,
+    body: Bytes,
+) -> Response {
+    analyse(kind, (state, q, body)).await
 }
 
-/// Place a new study (its coefficient, n and the rest in the query) against the benchmark
-/// of the uploaded or demo sheet: the document of `relyard check --json`, with the
-/// placement figure.
-async fn check(Query(q): Query<Vec<(String, String)>>, body: Bytes) -> Response {
-    analyse(Kind::Check, q, body).await
+/// The `relyard report` command that reproduces the report of these settings.
+async fn command(Query(q): Query<Vec<(String, String)>>) -> Response {
+    let (name, demo) = upload_name(Upload::Sheet, &q);
+    match arguments(Kind::Report, &q, &name, demo) {
+        Ok(args) => json_response(
+            StatusCode::OK,
+            &serde_json::json!({ "command": report_command(&args) }),
+        ),
+        Err(m) => error_response(StatusCode::BAD_REQUEST, &m),
+    }
 }
 
-/// Which command a request runs.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-enum Kind {
-    Pool,
-    Check,
+/// How far a running job has got; `running` is false for a job that has not begun or has
+/// ended (the page polls from before its request reaches the server until after it ends).
+async fn progress(
+    State(st): State<Arc<ServerState>>,
+    Query(q): Query<Vec<(String, String)>>,
+) -> Response {
+    let Some(w) = job_of(&q).and_then(|id| st.jobs.get(id)) else {
+        return json_response(StatusCode::OK, &serde_json::json!({ "running": false }));
+    };
+    let (task, done, total) = w.state();
+    json_response(
+        StatusCode::OK,
+        &serde_json::json!({
+            "running": true,
+            "task": task.map(|t| t.name()),
+            "done": done,
+            "total": total,
+        }),
+    )
 }
 
-async fn analyse(kind: Kind, q: Vec<(String, String)>, body: Bytes) -> Response {
+/// Ask a running job to stop (its request then answers that it was stopped); `stopping`
+/// is false when no such job is running (it may just have ended).
+async fn stop(
+    State(st): State<Arc<ServerState>>,
+    Query(q): Query<Vec<(String, String)>>,
+) -> Response {
+    let running = job_of(&q).and_then(|id| st.jobs.get(id));
+    if let Some(w) = &running {
+        w.ask_to_stop();
+    }
+    json_response(
+        StatusCode::OK,
+        &serde_json::json!({ "stopping": running.is_some() }),
+    )
+}
+
+fn job_of(q: &[(String, String)]) -> Option<&str> {
+    q.iter().find(|(k, _)| k == "job").map(|(_, v)| v.as_str())
+}
+
+/// The name of the upload for messages, and whether the demo's file stands in for it.
+fn upload_name(upload: Upload, q: &[(String, String)]) -> (String, bool) {
     let demo = q.iter().any(|(k, v)| k == "demo" && v == "1");
-    let (name, bytes) = if demo {
-        (DEMO_NAME.to_string(), DEMO_SHEET.to_vec())
-    } else {
-        let name = q
+    let name = match (demo, upload) {
+        (true, Upload::ItemData) => DEMO_ITEMS_NAME.to_string(),
+        (true, _) => DEMO_NAME.to_string(),
+        (false, _) => q
             .iter()
             .find(|(k, _)| k == "name")
             .map(|(_, v)| display_name(v))
-            .unwrap_or_else(|| "upload.csv".into());
-        (name, body.to_vec())
+            .unwrap_or_else(|| "upload.csv".into()),
     };
-    if bytes.is_empty() {
+    (name, demo)
+}
+
+async fn analyse(kind: Kind, (State(st), Query(q), body): Sent) -> Response {
+    let upload = kind.upload();
+    let (name, demo) = upload_name(upload, &q);
+    let bytes = match (demo, upload) {
+        (_, Upload::None) => Vec::new(),
+        (true, Upload::ItemData) => DEMO_ITEMS.to_vec(),
+        (true, Upload::Sheet) => DEMO_SHEET.to_vec(),
+        (false, _) => body.to_vec(),
+    };
+    if bytes.is_empty() && upload != Upload::None {
         return error_response(StatusCode::BAD_REQUEST, "the upload is empty");
     }
     let args = match arguments(kind, &q, &name, demo) {
         Ok(a) => a,
         Err(m) => return error_response(StatusCode::BAD_REQUEST, &m),
     };
-    let job = tokio::task::spawn_blocking(move || analysed(kind, args, bytes));
-    match tokio::time::timeout(TIME_LIMIT, job).await {
+    // Dropped when this request ends, answered or not: the analysis is then asked to stop.
+    let watched = match st.jobs.watch(job_of(&q)) {
+        Ok(w) => w,
+        Err(m) => return error_response(StatusCode::CONFLICT, &m),
+    };
+    let watch = watched.watch.clone();
+    let job = tokio::task::spawn_blocking(move || analysed(kind, args, bytes, &*watch));
+    let answer = tokio::time::timeout(TIME_LIMIT, job).await;
+    drop(watched);
+    match answer {
         Err(_) => error_response(
             StatusCode::SERVICE_UNAVAILABLE,
             "the analysis took longer than the server's time limit",
@@ -267,142 +357,20 @@ async fn analyse(kind: Kind, q: Vec<(String, String)>, body: Bytes) -> Response 
             StatusCode::INTERNAL_SERVER_ERROR,
             "the analysis failed unexpectedly; the server keeps running",
         ),
-        Ok(Ok(Ok(doc))) => json_response(StatusCode::OK, &doc),
+        Ok(Ok(Ok(Answer::Document(doc)))) => json_response(StatusCode::OK, &doc),
+        Ok(Ok(Ok(Answer::Zip(bytes)))) => (
+            StatusCode::OK,
+            [
+                (header::CONTENT_TYPE, "application/zip"),
+                (
+                    header::CONTENT_DISPOSITION,
+                    "attachment; filename=\"relyard-report.zip\"",
+                ),
+            ],
+            bytes,
+        )
+            .into_response(),
         Ok(Ok(Err(message))) => error_response(StatusCode::BAD_REQUEST, &message),
-    }
-}
-
-/// A file name for messages: the last part of what the page sent, never a path.
-fn display_name(given: &str) -> String {
-    let last = given.rsplit(['/', '\\']).next().unwrap_or("").trim();
-    let clean: String = last.chars().filter(|c| !c.is_control()).take(200).collect();
-    if clean.is_empty() {
-        "upload.csv".into()
-    } else {
-        clean
-    }
-}
-
-/// The settings the page may send, as options of the command line (no option that names
-/// a file is among them): the model's for every request, the new study's for `check`.
-const VALUE_SETTINGS: [(&str, &str); 11] = [
-    ("transform", "--transform"),
-    ("tau2", "--tau2"),
-    ("ci", "--ci"),
-    ("level", "--level"),
-    ("dependence", "--dependence"),
-    ("sampling_correlation", "--sampling-correlation"),
-    ("inference", "--inference"),
-    ("worksheet", "--worksheet"),
-    ("delimiter", "--delimiter"),
-    ("measure", "--measure"),
-    ("column", "--column"),
-];
-const STUDY_SETTINGS: [(&str, &str); 9] = [
-    ("coef", "--coef"),
-    ("n", "--n"),
-    ("items", "--items"),
-    ("coef_type", "--coef-type"),
-    ("sd", "--sd"),
-    ("sd_metric", "--sd-metric"),
-    ("scale_min", "--scale-min"),
-    ("scale_max", "--scale-max"),
-    ("at", "--at"),
-];
-const FLAG_SETTINGS: [(&str, &str); 2] = [
-    ("skip_invalid", "--skip-invalid"),
-    ("allow_mixed_types", "--allow-mixed-types"),
-];
-
-/// The command line of `relyard pool` or `relyard check` for the page's settings.
-fn arguments(
-    kind: Kind,
-    q: &[(String, String)],
-    name: &str,
-    demo: bool,
-) -> Result<Vec<String>, String> {
-    let command = match kind {
-        Kind::Pool => "pool",
-        Kind::Check => "check",
-    };
-    let mut args = vec!["relyard".to_string(), command.to_string()];
-    let mut measure = false;
-    let study: &[(&str, &str)] = match kind {
-        Kind::Pool => &[],
-        Kind::Check => &STUDY_SETTINGS,
-    };
-    for (key, value) in q {
-        if key == "name" || key == "demo" {
-            continue;
-        }
-        let value_option = VALUE_SETTINGS.iter().chain(study).find(|(k, _)| k == key);
-        if let Some((_, option)) = value_option {
-            measure |= key == "measure";
-            args.push(format!("{option}={value}"));
-        } else if let Some((_, option)) = FLAG_SETTINGS.iter().find(|(k, _)| k == key) {
-            if value == "1" || value == "true" {
-                args.push((*option).to_string());
-            }
-        } else {
-            return Err(format!("unknown setting \"{}\"", display_name(key)));
-        }
-    }
-    if demo && !measure {
-        args.push(format!("--measure={DEMO_MEASURE}"));
-    }
-    args.push("--json".into());
-    args.push("--".into());
-    args.push(name.to_string());
-    Ok(args)
-}
-
-/// Run the analysis on the uploaded bytes: the JSON document with its figures, or the
-/// message the command line would print.
-fn analysed(kind: Kind, args: Vec<String>, bytes: Vec<u8>) -> Result<serde_json::Value, String> {
-    let message = |f: Failure| match f {
-        Failure::Usage(u) => u.0,
-        Failure::Lib(e) => e.render(&OptionNames),
-        Failure::ClosedPipe => "the connection closed".into(),
-    };
-    let command = Cli::try_parse_from(&args).map_err(|e| e.to_string())?;
-    let mut settings = match command.command {
-        Command::Pool(a) => super::config::pool(a),
-        Command::Check(a) => super::config::check(a),
-        _ => return Err("not an analysis request".into()),
-    }
-    .map_err(message)?;
-    if let Some(sheet) = settings.sheet.as_mut() {
-        sheet.bytes = Some(Arc::new(bytes));
-    }
-    let analysis = run(&settings, &Silent).map_err(|e| message(Failure::Lib(e)))?;
-    let measure = settings.measure.as_deref();
-    // The figures as SVG text: the page shows them as images (an SVG in an image runs no
-    // script, whatever its labels hold).
-    let svg = |f: relyard::plot::Figure| f.svg().map_err(|e| message(Failure::Lib(e)));
-    let missing = || "the analysis gave no result".to_string();
-    match kind {
-        Kind::Pool => {
-            let b = analysis.benchmark.as_ref().ok_or_else(missing)?;
-            let paragraph = benchmark_paragraph(b, measure);
-            let mut doc = serde_json::to_value(PoolDocument::new(b, &paragraph, &OptionNames))
-                .map_err(|e| e.to_string())?;
-            doc["figures"] = serde_json::json!({
-                "forest": svg(relyard::output::figures::forest(b))?,
-                "precision": svg(relyard::output::figures::funnel(b))?,
-            });
-            Ok(doc)
-        }
-        Kind::Check => {
-            let p = analysis.prepared.as_ref().ok_or_else(missing)?;
-            let pl = analysis.placement.as_ref().ok_or_else(missing)?;
-            let paragraph = placement_paragraph(pl, measure);
-            let mut doc = serde_json::to_value(CheckDocument::new(p, pl, &paragraph, &OptionNames))
-                .map_err(|e| e.to_string())?;
-            doc["figures"] = serde_json::json!({
-                "placement": svg(relyard::output::figures::placement(pl))?,
-            });
-            Ok(doc)
-        }
     }
 }
 
@@ -419,65 +387,5 @@ fn open_browser(address: &str) {
     };
     if tried.is_err() {
         eprintln!("relyard: could not open a browser; open the address above yourself");
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn q(pairs: &[(&str, &str)]) -> Vec<(String, String)> {
-        pairs
-            .iter()
-            .map(|(k, v)| (k.to_string(), v.to_string()))
-            .collect()
-    }
-
-    #[test]
-    fn the_page_settings_become_pool_options_and_nothing_else() {
-        let args = arguments(
-            Kind::Pool,
-            &q(&[("tau2", "dl"), ("skip_invalid", "1")]),
-            "s.csv",
-            false,
-        )
-        .unwrap();
-        assert_eq!(
-            args,
-            [
-                "relyard",
-                "pool",
-                "--tau2=dl",
-                "--skip-invalid",
-                "--json",
-                "--",
-                "s.csv"
-            ]
-        );
-        assert!(arguments(Kind::Pool, &q(&[("output", "/etc/passwd")]), "s.csv", false).is_err());
-        // The new study's settings belong to check only.
-        assert!(arguments(Kind::Pool, &q(&[("coef", "0.7")]), "s.csv", false).is_err());
-        let args = arguments(
-            Kind::Check,
-            &q(&[("coef", "0.7"), ("n", "90")]),
-            "s.csv",
-            true,
-        );
-        assert!(args.unwrap().starts_with(&[
-            "relyard".into(),
-            "check".into(),
-            "--coef=0.7".into()
-        ]));
-        // A value that looks like an option stays a value.
-        let args = arguments(Kind::Pool, &q(&[("measure", "--json")]), "s.csv", false).unwrap();
-        assert!(args.contains(&"--measure=--json".to_string()));
-    }
-
-    #[test]
-    fn a_sent_name_is_never_a_path() {
-        assert_eq!(display_name("/etc/passwd"), "passwd");
-        assert_eq!(display_name("C:\\data\\sheet.xlsx"), "sheet.xlsx");
-        assert_eq!(display_name("../"), "upload.csv");
-        assert_eq!(display_name("a\u{7}b.csv"), "ab.csv");
     }
 }

@@ -1,0 +1,573 @@
+//! What the page may ask for: each request is one command of the command line (`pool`,
+//! `check`, `explain`, `items`, `correct` or `report`) with the page's settings turned into
+//! that command's options — only options on this file's lists, none that names a file — and
+//! the upload in place of the file. The answer is that command's `--json` document with its
+//! figures as SVG text, or for `report` the report's files in one zip.
+
+use super::super::args::{Cli, Command};
+use super::super::names::OptionNames;
+use super::super::output::Failure;
+use super::super::report::{report_files, shell_quote};
+use clap::Parser;
+use relyard::analysis::{Correction, Progress, run};
+use relyard::output::json::{
+    CheckDocument, CorrectionDocument, ExplainDocument, ItemsDocument, PoolDocument,
+};
+use relyard::output::prose::{benchmark_paragraph, placement_paragraph};
+use std::io::Write;
+use std::sync::Arc;
+
+/// The invented demo sheet and item data, in the binary.
+pub(super) const DEMO_SHEET: &[u8] = include_bytes!("../../../datasets-demo/candor-benchmark.csv");
+pub(super) const DEMO_NAME: &str = "candor-benchmark.csv";
+pub(super) const DEMO_ITEMS: &[u8] = include_bytes!("../../../datasets-demo/candor-items.csv");
+pub(super) const DEMO_ITEMS_NAME: &str = "candor-items.csv";
+const DEMO_MEASURE: &str = "the Brindlewood Team Candor Inventory";
+
+/// The folder the reproducing `relyard report` command writes to.
+pub(super) const REPORT_FOLDER: &str = "relyard-report";
+
+/// Which command a request runs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(super) enum Kind {
+    Pool,
+    Check,
+    Explain,
+    Items,
+    Correct,
+    /// A correlation corrected with the benchmark of the uploaded sheet as the measure's
+    /// reliability (as `relyard report` corrects one).
+    CorrectWithBenchmark,
+    Report,
+}
+
+/// The page's name of a setting and the option it becomes.
+type Names = &'static [(&'static str, &'static str)];
+
+/// How the sheet is read and the model fitted: for every request about a coding sheet.
+const SHEET_SETTINGS: Names = &[
+    ("transform", "--transform"),
+    ("tau2", "--tau2"),
+    ("ci", "--ci"),
+    ("level", "--level"),
+    ("dependence", "--dependence"),
+    ("sampling_correlation", "--sampling-correlation"),
+    ("inference", "--inference"),
+    ("worksheet", "--worksheet"),
+    ("delimiter", "--delimiter"),
+    ("column", "--column"),
+    ("where", "--where"),
+];
+/// The measure's name, for the commands whose prose names it.
+const MEASURE_SETTINGS: Names = &[("measure", "--measure")];
+const SHEET_FLAGS: Names = &[
+    ("skip_invalid", "--skip-invalid"),
+    ("allow_mixed_types", "--allow-mixed-types"),
+];
+const MODERATOR_SETTINGS: Names = &[
+    ("moderator", "--moderator"),
+    ("categorical", "--categorical"),
+    ("reference", "--reference"),
+    ("spread_metric", "--spread-metric"),
+];
+const MODERATOR_FLAGS: Names = &[("uncentred", "--uncentred")];
+const STUDY_SETTINGS: Names = &[
+    ("coef", "--coef"),
+    ("n", "--n"),
+    ("items", "--items"),
+    ("coef_type", "--coef-type"),
+    ("sd", "--sd"),
+    ("sd_metric", "--sd-metric"),
+    ("scale_min", "--scale-min"),
+    ("scale_max", "--scale-max"),
+    ("at", "--at"),
+    ("in_cluster", "--in-cluster"),
+];
+const EXPLAIN_SETTINGS: Names = &[
+    ("by", "--by"),
+    ("permutations", "--permutations"),
+    ("seed", "--seed"),
+];
+const EXPLAIN_FLAGS: Names = &[
+    ("score_spread", "--score-spread"),
+    ("influence", "--influence"),
+];
+const ITEM_SETTINGS: Names = &[
+    ("items", "--items"),
+    ("reverse", "--reverse"),
+    ("scale_min", "--scale-min"),
+    ("scale_max", "--scale-max"),
+    ("missing_code", "--missing-code"),
+    ("worksheet", "--worksheet"),
+    ("delimiter", "--delimiter"),
+    ("bootstrap", "--bootstrap"),
+    ("seed", "--seed"),
+    ("level", "--level"),
+];
+const ITEM_FLAGS: Names = &[("pairwise", "--pairwise")];
+const CORRECT_SETTINGS: Names = &[
+    ("r", "--r"),
+    ("n", "--n"),
+    ("rel_x", "--rel-x"),
+    ("rel_y", "--rel-y"),
+    ("draws", "--draws"),
+    ("seed", "--seed"),
+    ("level", "--level"),
+    ("grid", "--grid"),
+];
+const REPORT_SETTINGS: Names = &[
+    ("r", "--r"),
+    ("rel_y", "--rel-y"),
+    ("draws", "--draws"),
+    ("seed", "--seed"),
+];
+const BENCHMARK_CORRECTION_SETTINGS: Names = &[
+    ("r", "--r"),
+    ("n", "--n"),
+    ("rel_y", "--rel-y"),
+    ("draws", "--draws"),
+    ("seed", "--seed"),
+    ("at", "--at"),
+];
+const REPORT_FLAGS: Names = &[("score_spread", "--score-spread")];
+
+impl Kind {
+    fn command(self) -> &'static str {
+        match self {
+            Kind::Pool => "pool",
+            Kind::Check => "check",
+            Kind::Explain => "explain",
+            Kind::Items => "items",
+            Kind::Correct => "correct",
+            Kind::CorrectWithBenchmark | Kind::Report => "report",
+        }
+    }
+
+    /// The settings with a value, and the flags, this kind of request takes.
+    fn settings(self) -> (Vec<Names>, Vec<Names>) {
+        match self {
+            Kind::Pool => (vec![SHEET_SETTINGS, MEASURE_SETTINGS], vec![SHEET_FLAGS]),
+            Kind::Check => (
+                vec![
+                    SHEET_SETTINGS,
+                    MEASURE_SETTINGS,
+                    MODERATOR_SETTINGS,
+                    STUDY_SETTINGS,
+                ],
+                vec![SHEET_FLAGS, MODERATOR_FLAGS],
+            ),
+            Kind::Explain => (
+                vec![SHEET_SETTINGS, MODERATOR_SETTINGS, EXPLAIN_SETTINGS],
+                vec![SHEET_FLAGS, MODERATOR_FLAGS, EXPLAIN_FLAGS],
+            ),
+            Kind::Items => (vec![ITEM_SETTINGS], vec![ITEM_FLAGS]),
+            Kind::Correct => (vec![CORRECT_SETTINGS], vec![]),
+            Kind::CorrectWithBenchmark => (
+                vec![
+                    SHEET_SETTINGS,
+                    MEASURE_SETTINGS,
+                    MODERATOR_SETTINGS,
+                    BENCHMARK_CORRECTION_SETTINGS,
+                ],
+                vec![SHEET_FLAGS, MODERATOR_FLAGS],
+            ),
+            Kind::Report => (
+                vec![
+                    SHEET_SETTINGS,
+                    MEASURE_SETTINGS,
+                    MODERATOR_SETTINGS,
+                    STUDY_SETTINGS,
+                    REPORT_SETTINGS,
+                ],
+                vec![SHEET_FLAGS, MODERATOR_FLAGS, REPORT_FLAGS],
+            ),
+        }
+    }
+
+    /// What the request's upload is: a coding sheet, item data, or nothing.
+    pub(super) fn upload(self) -> Upload {
+        match self {
+            Kind::Items => Upload::ItemData,
+            Kind::Correct => Upload::None,
+            _ => Upload::Sheet,
+        }
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(super) enum Upload {
+    Sheet,
+    ItemData,
+    None,
+}
+
+/// A file name for messages: the last part of what the page sent, never a path.
+pub(super) fn display_name(given: &str) -> String {
+    let last = given.rsplit(['/', '\\']).next().unwrap_or("").trim();
+    let clean: String = last.chars().filter(|c| !c.is_control()).take(200).collect();
+    if clean.is_empty() {
+        "upload.csv".into()
+    } else {
+        clean
+    }
+}
+
+/// A reliability the page gives for a correction: a value, optionally with its sample
+/// (`n=`, `items=`, `kind=`) — never a benchmark read from a file (`sheet=`).
+fn opens_no_file(spec: &str) -> bool {
+    let mut parts = spec.split(',');
+    let first_is_number = parts
+        .next()
+        .is_some_and(|v| v.trim().parse::<f64>().is_ok());
+    first_is_number
+        && parts.all(|p| {
+            p.split_once('=')
+                .is_some_and(|(k, _)| matches!(k.trim(), "n" | "items" | "kind"))
+        })
+}
+
+/// The command line for a request: the command, the page's settings as its options, and
+/// the upload's name as the file (after `--`, so that a name is never read as an option).
+pub(super) fn arguments(
+    kind: Kind,
+    q: &[(String, String)],
+    name: &str,
+    demo: bool,
+) -> Result<Vec<String>, String> {
+    let mut args = vec!["relyard".to_string(), kind.command().to_string()];
+    let (values, flags) = kind.settings();
+    let mut measure = false;
+    for (key, value) in q {
+        if matches!(key.as_str(), "name" | "demo" | "job") {
+            continue;
+        }
+        let value_option = values.iter().flat_map(|l| l.iter()).find(|(k, _)| k == key);
+        if let Some((_, option)) = value_option {
+            if matches!(key.as_str(), "rel_x" | "rel_y") && !opens_no_file(value) {
+                return Err(format!(
+                    "a reliability here is a value such as 0.8, optionally with n=, items= \
+                     and kind= (as in 0.8,n=200,items=10); \"{}\" is not one",
+                    display_name(value)
+                ));
+            }
+            measure |= key == "measure";
+            args.push(format!("{option}={value}"));
+        } else if let Some((_, option)) =
+            flags.iter().flat_map(|l| l.iter()).find(|(k, _)| k == key)
+        {
+            if value == "1" || value == "true" {
+                args.push((*option).to_string());
+            }
+        } else {
+            return Err(format!("unknown setting \"{}\"", display_name(key)));
+        }
+    }
+    let names_measure = values.contains(&MEASURE_SETTINGS);
+    if demo && !measure && names_measure {
+        args.push(format!("--measure={DEMO_MEASURE}"));
+    }
+    match kind {
+        Kind::Report | Kind::CorrectWithBenchmark => args.push(format!("--out={REPORT_FOLDER}")),
+        _ => args.push("--json".into()),
+    }
+    if kind.upload() != Upload::None {
+        args.push("--".into());
+        args.push(name.to_string());
+    }
+    Ok(args)
+}
+
+/// The `relyard report` command that writes, on the user's own machine, the report the page
+/// downloads for these settings (the sheet named as the page uploaded it).
+pub(super) fn report_command(args: &[String]) -> String {
+    args.iter()
+        .map(|a| shell_quote(a))
+        .collect::<Vec<_>>()
+        .join(" ")
+}
+
+/// What an analysis answers: a JSON document, or a zip of files.
+pub(super) enum Answer {
+    Document(serde_json::Value),
+    Zip(Vec<u8>),
+}
+
+/// Run the analysis of `args` on the uploaded bytes: the document with its figures (or the
+/// report's zip), or the message the command line would print.
+pub(super) fn analysed(
+    kind: Kind,
+    args: Vec<String>,
+    bytes: Vec<u8>,
+    progress: &dyn Progress,
+) -> Result<Answer, String> {
+    let message = |f: Failure| match f {
+        Failure::Usage(u) => u.0,
+        Failure::Lib(e) => e.render(&OptionNames),
+        Failure::ClosedPipe => "the connection closed".into(),
+    };
+    let command = Cli::try_parse_from(&args).map_err(|e| e.to_string())?;
+    let mut settings = match command.command {
+        Command::Pool(a) => super::super::config::pool(a),
+        Command::Check(a) => super::super::config::check(a),
+        Command::Explain(a) => super::super::config::explain(a),
+        Command::Items(a) => super::super::config::items(a),
+        Command::Correct(a) => super::super::config::correct(a),
+        Command::Report(a) => super::super::config::report(a),
+        _ => return Err("not an analysis request".into()),
+    }
+    .map_err(message)?;
+    let bytes = Arc::new(bytes);
+    if let Some(sheet) = settings.sheet.as_mut() {
+        sheet.bytes = Some(bytes.clone());
+    }
+    if let Some(items) = settings.items.as_mut() {
+        items.bytes = Some(bytes);
+    }
+    // The page shows the moderators' figures, which the explanation draws on request.
+    settings.figures = true;
+    let analysis = run(&settings, progress).map_err(|e| message(Failure::Lib(e)))?;
+    let measure = settings.measure.as_deref();
+    // The figures as SVG text: the page shows them as images (an SVG in an image runs no
+    // script, whatever its labels hold).
+    let svg = |f: relyard::plot::Figure| f.svg().map_err(|e| message(Failure::Lib(e)));
+    let described = |f: relyard::plot::Figure| -> Result<serde_json::Value, String> {
+        let (title, description) = (f.title.clone(), f.description.clone());
+        Ok(serde_json::json!({ "title": title, "description": description, "svg": svg(f)? }))
+    };
+    let missing = || "the analysis gave no result".to_string();
+    let document = |d: &dyn erased::Document| d.value();
+    let doc = match kind {
+        Kind::Pool => {
+            let b = analysis.benchmark.as_ref().ok_or_else(missing)?;
+            let paragraph = benchmark_paragraph(b, measure);
+            let mut doc = document(&PoolDocument::new(b, &paragraph, &OptionNames))?;
+            doc["figures"] = serde_json::json!({
+                "forest": svg(relyard::output::figures::forest(b))?,
+                "precision": svg(relyard::output::figures::funnel(b))?,
+            });
+            if let Some(p) = &analysis.prepared {
+                doc["columns"] = sheet_columns(p);
+            }
+            doc
+        }
+        Kind::Check => {
+            let p = analysis.prepared.as_ref().ok_or_else(missing)?;
+            let pl = analysis.placement.as_ref().ok_or_else(missing)?;
+            let paragraph = placement_paragraph(pl, measure);
+            let mut doc = document(&CheckDocument::new(p, pl, &paragraph, &OptionNames))?;
+            doc["figures"] = serde_json::json!({
+                "placement": svg(relyard::output::figures::placement(pl))?,
+            });
+            doc
+        }
+        Kind::Explain => {
+            let p = analysis.prepared.as_ref().ok_or_else(missing)?;
+            let e = analysis.explanation.as_ref().ok_or_else(missing)?;
+            let mut doc = document(&ExplainDocument::new(p, e, &OptionNames))?;
+            let mut figures = Vec::new();
+            for m in &e.marginal {
+                if let Some(f) = relyard::output::figures::moderator(p, m) {
+                    figures.push(described(f)?);
+                }
+            }
+            if let Some(s) = &e.spread {
+                figures.push(described(relyard::output::figures::score_spread(p, s))?);
+            }
+            doc["figures"] = serde_json::Value::Array(figures);
+            doc
+        }
+        Kind::Items => {
+            let o = analysis.items.as_ref().ok_or_else(missing)?;
+            document(&ItemsDocument::new(o, &OptionNames))?
+        }
+        Kind::Correct | Kind::CorrectWithBenchmark => {
+            let c = analysis.correction.as_ref().ok_or_else(missing)?;
+            let mut doc = document(&CorrectionDocument::new(c, settings.level, &OptionNames))?;
+            if let Correction::Correlation { input, result, .. } = c {
+                doc["figures"] = serde_json::json!({
+                    "sensitivity": svg(relyard::output::figures::sensitivity(
+                        result,
+                        input.rel_x.point(),
+                        input.rel_y.point(),
+                    ))?,
+                });
+            }
+            doc
+        }
+        Kind::Report => {
+            let command = report_command(&args);
+            let options = args[1..].to_vec();
+            let files =
+                report_files(&analysis, options, command).map_err(|e| message(Failure::Lib(e)))?;
+            return zipped(&files).map(Answer::Zip);
+        }
+    };
+    Ok(Answer::Document(doc))
+}
+
+/// Levels of a column listed for the page's choices (moderator reference levels, a new
+/// study's moderator values); a column with more is offered as typed text.
+const MAX_LEVELS_LISTED: usize = 50;
+
+/// The sheet's columns for the page: each standard role with the column it was read from,
+/// and every other column (a possible moderator) with whether its values are all numbers
+/// and, when it has few, its levels in sorted order.
+fn sheet_columns(p: &relyard::benchmark::Prepared) -> serde_json::Value {
+    let roles: serde_json::Map<String, serde_json::Value> = p
+        .columns
+        .iter()
+        .map(|(role, header)| (role.name().to_string(), header.clone().into()))
+        .collect();
+    let others: Vec<serde_json::Value> = p
+        .extra_columns
+        .iter()
+        .enumerate()
+        .map(|(j, name)| {
+            let values: std::collections::BTreeSet<&str> = p
+                .records
+                .iter()
+                .filter_map(|r| r.extra.get(j).and_then(|v| v.as_deref()))
+                .collect();
+            let numeric = !values.is_empty() && values.iter().all(|v| v.parse::<f64>().is_ok());
+            let levels: Vec<&str> = if values.len() <= MAX_LEVELS_LISTED {
+                values.into_iter().collect()
+            } else {
+                Vec::new()
+            };
+            serde_json::json!({ "name": name, "numeric": numeric, "levels": levels })
+        })
+        .collect();
+    serde_json::json!({ "roles": roles, "others": others })
+}
+
+/// The report's files in one zip, under the report's folder.
+fn zipped(files: &[(String, Vec<u8>)]) -> Result<Vec<u8>, String> {
+    let mut zip = zip::ZipWriter::new(std::io::Cursor::new(Vec::new()));
+    let options = zip::write::SimpleFileOptions::default()
+        .compression_method(zip::CompressionMethod::Deflated);
+    let failed = |e: &dyn std::fmt::Display| format!("the report could not be packed: {e}");
+    for (name, bytes) in files {
+        zip.start_file(format!("{REPORT_FOLDER}/{name}"), options)
+            .map_err(|e| failed(&e))?;
+        zip.write_all(bytes).map_err(|e| failed(&e))?;
+    }
+    Ok(zip.finish().map_err(|e| failed(&e))?.into_inner())
+}
+
+/// Serialising the documents, whatever their type.
+mod erased {
+    pub trait Document {
+        fn value(&self) -> Result<serde_json::Value, String>;
+    }
+
+    impl<T: serde::Serialize> Document for T {
+        fn value(&self) -> Result<serde_json::Value, String> {
+            serde_json::to_value(self).map_err(|e| e.to_string())
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn q(pairs: &[(&str, &str)]) -> Vec<(String, String)> {
+        pairs
+            .iter()
+            .map(|(k, v)| (k.to_string(), v.to_string()))
+            .collect()
+    }
+
+    #[test]
+    fn the_page_settings_become_options_of_the_command_and_nothing_else() {
+        let args = arguments(
+            Kind::Pool,
+            &q(&[("tau2", "dl"), ("skip_invalid", "1")]),
+            "s.csv",
+            false,
+        )
+        .unwrap();
+        assert_eq!(
+            args,
+            [
+                "relyard",
+                "pool",
+                "--tau2=dl",
+                "--skip-invalid",
+                "--json",
+                "--",
+                "s.csv"
+            ]
+        );
+        assert!(arguments(Kind::Pool, &q(&[("output", "/etc/passwd")]), "s.csv", false).is_err());
+        // The new study's settings belong to check (and report) only.
+        assert!(arguments(Kind::Pool, &q(&[("coef", "0.7")]), "s.csv", false).is_err());
+        let args = arguments(
+            Kind::Check,
+            &q(&[("coef", "0.7"), ("n", "90")]),
+            "s.csv",
+            true,
+        );
+        assert!(args.unwrap().starts_with(&[
+            "relyard".into(),
+            "check".into(),
+            "--coef=0.7".into()
+        ]));
+        // A value that looks like an option stays a value.
+        let args = arguments(Kind::Pool, &q(&[("measure", "--json")]), "s.csv", false).unwrap();
+        assert!(args.contains(&"--measure=--json".to_string()));
+        // Repeated settings stay repeated.
+        let args = arguments(
+            Kind::Explain,
+            &q(&[("moderator", "year"), ("moderator", "sd")]),
+            "s.csv",
+            false,
+        )
+        .unwrap();
+        assert!(args.contains(&"--moderator=year".to_string()));
+        assert!(args.contains(&"--moderator=sd".to_string()));
+        // A correction takes no file; a report writes to its folder, not --json.
+        let args = arguments(Kind::Correct, &q(&[("r", "0.3")]), "x", false).unwrap();
+        assert_eq!(args, ["relyard", "correct", "--r=0.3", "--json"]);
+        let args = arguments(Kind::Report, &q(&[]), "s.csv", false).unwrap();
+        assert!(args.contains(&format!("--out={REPORT_FOLDER}")));
+        assert!(!args.contains(&"--json".to_string()));
+    }
+
+    #[test]
+    fn a_reliability_from_the_page_never_names_a_file() {
+        assert!(opens_no_file("0.8"));
+        assert!(opens_no_file("0.8,n=200,items=10,kind=alpha"));
+        assert!(!opens_no_file("sheet=/etc/passwd"));
+        assert!(!opens_no_file("0.8,sheet=/etc/passwd"));
+        assert!(!opens_no_file("0.8,at=x=1"));
+        let sent = q(&[("r", "0.3"), ("rel_x", "sheet=/home/a/b.csv")]);
+        assert!(arguments(Kind::Correct, &sent, "x", false).is_err());
+    }
+
+    #[test]
+    fn a_sent_name_is_never_a_path() {
+        assert_eq!(display_name("/etc/passwd"), "passwd");
+        assert_eq!(display_name("C:\\data\\sheet.xlsx"), "sheet.xlsx");
+        assert_eq!(display_name("../"), "upload.csv");
+        assert_eq!(display_name("a\u{7}b.csv"), "ab.csv");
+    }
+
+    #[test]
+    fn the_reproducing_command_is_quoted_for_a_shell() {
+        let args = arguments(
+            Kind::Report,
+            &q(&[("measure", "the O'Neill scale"), ("tau2", "dl")]),
+            "my sheet.csv",
+            false,
+        )
+        .unwrap();
+        let command = report_command(&args);
+        assert!(command.starts_with("relyard report "), "{command}");
+        assert!(
+            command.contains("'--measure=the O'\\''Neill scale'"),
+            "{command}"
+        );
+        assert!(command.ends_with("-- 'my sheet.csv'"), "{command}");
+    }
+}
