@@ -8,7 +8,7 @@ use crate::benchmark::Prepared;
 use crate::correct::correlation::{CorrelationCorrection, CorrelationInput, correct_correlation};
 use crate::correct::regression::{RegressionCorrection, RegressionInput, correct_regression};
 use crate::correct::reliability::{BenchmarkAt, benchmark_source};
-use crate::correct::summary::read_summary;
+use crate::correct::summary::{read_summary, summary_from_bytes};
 use crate::correct::{ReliabilitySource, ReliabilitySpec, resolve};
 use crate::error::{Error, Result};
 use crate::items::{ItemData, ItemReadOptions, Missing, read_items};
@@ -219,8 +219,8 @@ fn regression_input(
         sheet_name: None,
     };
     match data {
-        RegressionData::Raw { path, read } => {
-            let (d, missing) = raw_regression_data(path, read, names)?;
+        RegressionData::Raw { path, bytes, read } => {
+            let (d, missing) = raw_regression_data(path, bytes.as_deref(), read, names)?;
             warnings.extend(d.notes.iter().cloned());
             warnings.extend(missing);
             input.data_file = Some(path.display().to_string());
@@ -245,8 +245,11 @@ fn regression_input(
             ));
             input.rows = d.rows;
         }
-        RegressionData::Summary { path, n } => {
-            let sm = read_summary(path)?;
+        RegressionData::Summary { path, bytes, n } => {
+            let sm = match bytes {
+                Some(b) => summary_from_bytes(&path.display().to_string(), b)?,
+                None => read_summary(path)?,
+            };
             let mut idx = Vec::with_capacity(names.len());
             for v in &names {
                 let i = sm.names.iter().position(|x| x == v).ok_or_else(|| {
@@ -275,6 +278,7 @@ fn regression_input(
 /// with a warning when rows were left out for missing values.
 fn raw_regression_data(
     path: &std::path::Path,
+    bytes: Option<&Vec<u8>>,
     read: &ItemReadOptions,
     names: Vec<String>,
 ) -> Result<(ItemData, Option<Warning>)> {
@@ -283,7 +287,10 @@ fn raw_regression_data(
     read.missing = Missing::Listwise;
     read.keep_rows = true;
     read.columns_setting = Setting::Predictors;
-    let d = read_items(path, &read)?;
+    let d = match bytes {
+        Some(b) => crate::items::read_items_from_bytes(path, b, &read)?,
+        None => read_items(path, &read)?,
+    };
     let warning = (d.missing_cells > 0).then(|| Warning::RowsWithMissingValues {
         rows: d.rows_read - d.complete_rows,
         cells: d.missing_cells,

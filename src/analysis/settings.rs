@@ -174,15 +174,19 @@ pub enum CorrectionSettings {
 pub enum RegressionData {
     /// Raw data: one row per respondent, scores in columns.
     Raw {
-        /// The file.
+        /// The file (also its name in messages).
         path: PathBuf,
+        /// The file's bytes when they are already in memory (an upload).
+        bytes: Option<Arc<Vec<u8>>>,
         /// How to read it (delimiter, missing-value codes).
         read: ItemReadOptions,
     },
     /// A covariance or correlation matrix with the study's sample size.
     Summary {
-        /// The file.
+        /// The file (also its name in messages).
         path: PathBuf,
+        /// The file's bytes when they are already in memory (an upload).
+        bytes: Option<Arc<Vec<u8>>>,
         /// The sample size.
         n: u64,
     },

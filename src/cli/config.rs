@@ -662,6 +662,7 @@ fn regression_data(a: &CorrectArgs) -> Result<RegressionData, Failure> {
             }
             RegressionData::Raw {
                 path: input_path(path.clone()),
+                bytes: None,
                 read: ItemReadOptions {
                     delimiter: a.delimiter.map(u8::from),
                     missing_codes: a.missing_codes.clone(),
@@ -679,6 +680,7 @@ fn regression_data(a: &CorrectArgs) -> Result<RegressionData, Failure> {
             }
             RegressionData::Summary {
                 path: path.clone(),
+                bytes: None,
                 n,
             }
         }

@@ -34,13 +34,25 @@ pub fn read_summary(path: &Path) -> Result<Summary> {
         },
         _ => Error::io(format!("reading {file}"), e),
     })?;
-    let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(&bytes);
+    summary_from_bytes(&file, &bytes)
+}
+
+/// A summary file already in memory (an upload), named `file` in messages.
+pub fn summary_from_bytes(file: &str, bytes: &[u8]) -> Result<Summary> {
+    let file = file.to_string();
+    let body = bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes);
     let delimiter = crate::sheet::detect_delimiter(body);
     let decimal_comma = crate::sheet::SheetFormat::Delimited(delimiter).decimal_comma();
-    // The text's own reading (an unclosed quote, the records the reader must return);
-    // line lengths were checked as the file was read.
+    // The text's own reading: a line over the limit (a file is checked as it is read, an
+    // upload here), an unclosed quote, the records the reader must return.
     let mut state = crate::sheet::QuoteState::new(delimiter);
     state.feed(body);
+    if let Some(line) = state.too_long() {
+        return Err(invalid(
+            &file,
+            vec![CellProblem::row(line, crate::sheet::line_too_long(None))],
+        ));
+    }
     if let Some(line) = state.unclosed() {
         return Err(invalid(
             &file,

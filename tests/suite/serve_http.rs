@@ -199,11 +199,25 @@ fn the_token_address_sets_the_session_and_nothing_is_served_without_it() {
         !page.contains("http://") && !page.contains("https://"),
         "nothing from elsewhere"
     );
-    assert_eq!(
-        s.send("POST", "/api/pool?demo=1", &[], b"").status,
-        403,
-        "an analysis without the token"
-    );
+    for path in [
+        "/api/pool?demo=1",
+        "/api/check?demo=1&coef=0.8&n=100",
+        "/api/explain?demo=1&moderator=year",
+        "/api/items?demo=1",
+        "/api/correct?r=0.3&n=100&rel_x=0.8&rel_y=0.8",
+        "/api/correct-with-benchmark?demo=1&r=0.3&n=100&rel_y=0.8",
+        "/api/correct-regression?demo=1&outcome=engagement&predictor=candor&rel=candor=0.8",
+        "/api/report?demo=1",
+        "/api/report-command?demo=1",
+        "/api/stop?job=x",
+    ] {
+        assert_eq!(
+            s.send("POST", path, &[], b"").status,
+            403,
+            "{path} without the token"
+        );
+    }
+    assert_eq!(s.send("GET", "/api/progress?job=x", &[], b"").status, 403);
 }
 
 #[test]
@@ -892,7 +906,7 @@ fn the_page_driven_in_a_browser_gives_the_command_lines_numbers() {
 }
 
 /// The page's other steps driven as a user would: a moderator chosen under Explain (its
-/// coefficient as the command line gives it), the demo's item data analysed with two items
+/// coefficient as the command line gives it), the demo's item data uploaded and analysed with two items
 /// reverse-keyed and the coefficient carried into Your study, the study placed at a
 /// moderator value, and the report downloaded as a zip whose results are the command
 /// line's; no console error; screenshots kept in target/test-artefacts/.
@@ -920,7 +934,8 @@ fn the_page_driven_through_explain_items_study_and_report() {
     assert!(table.contains(&estimate), "{table} lacks {estimate}");
     d.screenshot(&artefacts.join("serve-page-explain.png"));
     // Your items: the demo's item data want two items reverse-keyed first.
-    d.click("#items-demo");
+    d.type_into("#item-file", &demo_file("candor-items.csv"));
+    d.click("#items-run");
     d.wait_for("#carry", |t| t.starts_with("Nothing to carry"));
     d.type_into("#i-reverse", "btci_04,btci_09");
     d.type_into("#i-min", "1");
@@ -1174,6 +1189,50 @@ fn the_explain_items_and_correction_steps_give_the_command_lines_numbers() {
     assert_eq!(rel_x["kind"], "benchmark");
     let pooled = cli_json(&["pool", &sheet, "--json"]);
     assert_eq!(rel_x["value"], pooled["reliability"]["estimate"]);
+    // A regression from the demo study's raw data, and from an uploaded summary matrix.
+    let served = s.post(
+        "/api/correct-regression?demo=1&outcome=engagement&predictor=candor&predictor=safety\
+         &rel=candor=0.85&rel=safety=0.8,n=250,items=6",
+        b"",
+    );
+    assert_eq!(served.status, 200, "{}", served.text());
+    let page = served.json();
+    let cli = cli_json(&[
+        "correct",
+        "--data",
+        &demo_file("candor-study.csv"),
+        "--outcome",
+        "engagement",
+        "--predictor",
+        "candor",
+        "--predictor",
+        "safety",
+        "--rel",
+        "candor=0.85",
+        "--rel",
+        "safety=0.8,n=250,items=6",
+        "--json",
+    ]);
+    for key in ["coefficients", "r2", "reliabilities", "n"] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    assert_eq!(page["data_file"], "candor-study.csv");
+    let summary = "variable,x,y\nx,1,0.3\ny,0.3,1\n";
+    let served = s.post(
+        "/api/correct-regression?source=summary&name=m.csv&n=150&outcome=y&predictor=x&rel=x=0.7",
+        summary.as_bytes(),
+    );
+    assert_eq!(served.status, 200, "{}", served.text());
+    let slope = served.json()["coefficients"][0]["corrected"]
+        .as_f64()
+        .unwrap();
+    // One standardized predictor: the corrected slope is r / reliability.
+    assert!((slope - 0.3 / 0.7).abs() < 1e-9, "{slope}");
+    let refused = s.post(
+        "/api/correct-regression?demo=1&outcome=engagement&predictor=candor&rel=candor=sheet=/x",
+        b"",
+    );
+    assert_eq!(refused.status, 400, "{}", refused.text());
     // A reliability that would open a file is refused before anything runs.
     let refused = s.post(
         "/api/correct?r=0.3&n=200&rel_x=sheet=/etc/hostname&rel_y=0.7",

@@ -22,7 +22,7 @@ use axum::response::{IntoResponse, Response};
 use axum::routing::{get, post};
 use jobs::Jobs;
 use requests::{
-    Answer, DEMO_ITEMS, DEMO_ITEMS_NAME, DEMO_NAME, DEMO_SHEET, Kind, Upload, analysed, arguments,
+    Answer, DEMO_ITEMS_NAME, DEMO_NAME, DEMO_STUDY_NAME, Kind, Upload, analysed, arguments,
     display_name, report_command,
 };
 use std::sync::Arc;
@@ -80,7 +80,8 @@ async fn serve(a: ServeArgs, limit: u64) -> Result<(), Failure> {
         // report its files in one zip: pool (the benchmark), check (a new study placed),
         // explain (moderators, score spread, subgroups, influence), items (alpha, omega),
         // correct (a corrected correlation), correct-with-benchmark (the benchmark as the
-        // measure's reliability, as the report corrects), report (the report's zip).
+        // measure's reliability, as the report corrects), correct-regression (a
+        // regression's slopes, from raw data or a summary), report (the report's zip).
         .route("/api/pool", post(|st, q, b| handle(Kind::Pool, st, q, b)))
         .route("/api/check", post(|st, q, b| handle(Kind::Check, st, q, b)))
         .route(
@@ -99,6 +100,10 @@ async fn serve(a: ServeArgs, limit: u64) -> Result<(), Failure> {
         .route(
             "/api/report",
             post(|st, q, b| handle(Kind::Report, st, q, b)),
+        )
+        .route(
+            "/api/correct-regression",
+            post(|st, q, b| handle(Kind::CorrectRegression, st, q, b)),
         )
         .route("/api/report-command", post(command))
         .route("/api/progress", get(progress))
@@ -224,6 +229,7 @@ async fn start(State(st): State<Arc<ServerState>>) -> Response {
             "demo": st.demo,
             "demo_name": DEMO_NAME,
             "demo_items_name": DEMO_ITEMS_NAME,
+            "demo_study_name": DEMO_STUDY_NAME,
             "version": env!("CARGO_PKG_VERSION"),
         }),
     )
@@ -311,10 +317,9 @@ fn job_of(q: &[(String, String)]) -> Option<&str> {
 /// The name of the upload for messages, and whether the demo's file stands in for it.
 fn upload_name(upload: Upload, q: &[(String, String)]) -> (String, bool) {
     let demo = q.iter().any(|(k, v)| k == "demo" && v == "1");
-    let name = match (demo, upload) {
-        (true, Upload::ItemData) => DEMO_ITEMS_NAME.to_string(),
-        (true, _) => DEMO_NAME.to_string(),
-        (false, _) => q
+    let name = match demo {
+        true => upload.demo().0.to_string(),
+        false => q
             .iter()
             .find(|(k, _)| k == "name")
             .map(|(_, v)| display_name(v))
@@ -328,8 +333,7 @@ async fn analyse(kind: Kind, (State(st), Query(q), body): Sent) -> Response {
     let (name, demo) = upload_name(upload, &q);
     let bytes = match (demo, upload) {
         (_, Upload::None) => Vec::new(),
-        (true, Upload::ItemData) => DEMO_ITEMS.to_vec(),
-        (true, Upload::Sheet) => DEMO_SHEET.to_vec(),
+        (true, _) => upload.demo().1.to_vec(),
         (false, _) => body.to_vec(),
     };
     if bytes.is_empty() && upload != Upload::None {

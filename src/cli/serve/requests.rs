@@ -22,6 +22,8 @@ pub(super) const DEMO_SHEET: &[u8] = include_bytes!("../../../datasets-demo/cand
 pub(super) const DEMO_NAME: &str = "candor-benchmark.csv";
 pub(super) const DEMO_ITEMS: &[u8] = include_bytes!("../../../datasets-demo/candor-items.csv");
 pub(super) const DEMO_ITEMS_NAME: &str = "candor-items.csv";
+pub(super) const DEMO_STUDY: &[u8] = include_bytes!("../../../datasets-demo/candor-study.csv");
+pub(super) const DEMO_STUDY_NAME: &str = "candor-study.csv";
 const DEMO_MEASURE: &str = "the Brindlewood Team Candor Inventory";
 
 /// The folder the reproducing `relyard report` command writes to.
@@ -38,6 +40,9 @@ pub(super) enum Kind {
     /// A correlation corrected with the benchmark of the uploaded sheet as the measure's
     /// reliability (as `relyard report` corrects one).
     CorrectWithBenchmark,
+    /// A regression's slopes corrected, from uploaded raw data (`source=data`) or a summary
+    /// matrix (`source=summary`).
+    CorrectRegression,
     Report,
 }
 
@@ -129,6 +134,19 @@ const BENCHMARK_CORRECTION_SETTINGS: Names = &[
     ("seed", "--seed"),
     ("at", "--at"),
 ];
+const REGRESSION_SETTINGS: Names = &[
+    ("outcome", "--outcome"),
+    ("predictor", "--predictor"),
+    ("rel", "--rel"),
+    ("n", "--n"),
+    ("draws", "--draws"),
+    ("seed", "--seed"),
+    ("level", "--level"),
+    ("grid", "--grid"),
+    ("delimiter", "--delimiter"),
+    ("worksheet", "--worksheet"),
+    ("missing_code", "--missing-code"),
+];
 const REPORT_FLAGS: Names = &[("score_spread", "--score-spread")];
 
 impl Kind {
@@ -138,7 +156,7 @@ impl Kind {
             Kind::Check => "check",
             Kind::Explain => "explain",
             Kind::Items => "items",
-            Kind::Correct => "correct",
+            Kind::Correct | Kind::CorrectRegression => "correct",
             Kind::CorrectWithBenchmark | Kind::Report => "report",
         }
     }
@@ -162,6 +180,7 @@ impl Kind {
             ),
             Kind::Items => (vec![ITEM_SETTINGS], vec![ITEM_FLAGS]),
             Kind::Correct => (vec![CORRECT_SETTINGS], vec![]),
+            Kind::CorrectRegression => (vec![REGRESSION_SETTINGS], vec![]),
             Kind::CorrectWithBenchmark => (
                 vec![
                     SHEET_SETTINGS,
@@ -188,6 +207,7 @@ impl Kind {
     pub(super) fn upload(self) -> Upload {
         match self {
             Kind::Items => Upload::ItemData,
+            Kind::CorrectRegression => Upload::StudyData,
             Kind::Correct => Upload::None,
             _ => Upload::Sheet,
         }
@@ -196,9 +216,25 @@ impl Kind {
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(super) enum Upload {
+    /// A coding sheet.
     Sheet,
+    /// Item responses.
     ItemData,
+    /// A study's scale scores, or their summary matrix.
+    StudyData,
     None,
+}
+
+impl Upload {
+    /// The demo's file of this kind: its name and bytes.
+    pub(super) fn demo(self) -> (&'static str, &'static [u8]) {
+        match self {
+            Upload::Sheet => (DEMO_NAME, DEMO_SHEET),
+            Upload::ItemData => (DEMO_ITEMS_NAME, DEMO_ITEMS),
+            Upload::StudyData => (DEMO_STUDY_NAME, DEMO_STUDY),
+            Upload::None => ("", b""),
+        }
+    }
 }
 
 /// A file name for messages: the last part of what the page sent, never a path.
@@ -215,6 +251,9 @@ pub(super) fn display_name(given: &str) -> String {
 /// A reliability the page gives for a correction: a value, optionally with its sample
 /// (`n=`, `items=`, `kind=`) — never a benchmark read from a file (`sheet=`).
 fn opens_no_file(spec: &str) -> bool {
+    if spec.trim() == "1" {
+        return true;
+    }
     let mut parts = spec.split(',');
     let first_is_number = parts
         .next()
@@ -238,12 +277,17 @@ pub(super) fn arguments(
     let (values, flags) = kind.settings();
     let mut measure = false;
     for (key, value) in q {
-        if matches!(key.as_str(), "name" | "demo" | "job") {
+        if matches!(key.as_str(), "name" | "demo" | "job" | "source") {
             continue;
         }
         let value_option = values.iter().flat_map(|l| l.iter()).find(|(k, _)| k == key);
         if let Some((_, option)) = value_option {
-            if matches!(key.as_str(), "rel_x" | "rel_y") && !opens_no_file(value) {
+            let spec = match key.as_str() {
+                "rel_x" | "rel_y" => Some(value.as_str()),
+                "rel" => Some(value.split_once('=').map_or("", |(_, s)| s)),
+                _ => None,
+            };
+            if spec.is_some_and(|s| !opens_no_file(s)) {
                 return Err(format!(
                     "a reliability here is a value such as 0.8, optionally with n=, items= \
                      and kind= (as in 0.8,n=200,items=10); \"{}\" is not one",
@@ -270,7 +314,12 @@ pub(super) fn arguments(
         Kind::Report | Kind::CorrectWithBenchmark => args.push(format!("--out={REPORT_FOLDER}")),
         _ => args.push("--json".into()),
     }
-    if kind.upload() != Upload::None {
+    if kind == Kind::CorrectRegression {
+        // The upload's name as the file option's value; the bytes are the upload's.
+        let summary = q.iter().any(|(k, v)| k == "source" && v == "summary");
+        let option = if summary { "--summary" } else { "--data" };
+        args.push(format!("{option}={name}"));
+    } else if kind.upload() != Upload::None {
         args.push("--".into());
         args.push(name.to_string());
     }
@@ -321,7 +370,17 @@ pub(super) fn analysed(
         sheet.bytes = Some(bytes.clone());
     }
     if let Some(items) = settings.items.as_mut() {
-        items.bytes = Some(bytes);
+        items.bytes = Some(bytes.clone());
+    }
+    if let Some(relyard::analysis::CorrectionSettings::Regression { data, .. }) =
+        settings.correction.as_mut()
+    {
+        match data {
+            relyard::analysis::RegressionData::Raw { bytes: b, .. }
+            | relyard::analysis::RegressionData::Summary { bytes: b, .. } => {
+                *b = Some(bytes.clone())
+            }
+        }
     }
     // The page shows the moderators' figures, which the explanation draws on request.
     settings.figures = true;
@@ -380,7 +439,7 @@ pub(super) fn analysed(
             let o = analysis.items.as_ref().ok_or_else(missing)?;
             document(&ItemsDocument::new(o, &OptionNames))?
         }
-        Kind::Correct | Kind::CorrectWithBenchmark => {
+        Kind::Correct | Kind::CorrectWithBenchmark | Kind::CorrectRegression => {
             let c = analysis.correction.as_ref().ok_or_else(missing)?;
             let mut doc = document(&CorrectionDocument::new(c, settings.level, &OptionNames))?;
             if let Correction::Correlation { input, result, .. } = c {

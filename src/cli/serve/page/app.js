@@ -462,7 +462,14 @@
   }
 
   // ---------------------------------------------------------------- Correction
+  let useDemoStudy = false;
+  function correctionCase() {
+    const regression = $("k-case").value === "regression";
+    $("k-correlation").hidden = regression;
+    $("k-regression").hidden = !regression;
+  }
   async function correct() {
+    if ($("k-case").value === "regression") return correctRegression();
     const withBenchmark = $("k-x-source").value === "benchmark";
     let request;
     if (withBenchmark) {
@@ -486,14 +493,53 @@
     const doc = await send(path, request, { status: "correct-status", problems: "correct-problems", result: "correct-result" }, "Correcting…");
     if (!doc) return;
     $("correct-result").hidden = false;
+    $("k-table").hidden = false;
+    $("g-table").hidden = true;
     $("correct-headline").textContent = "Corrected for the unreliability of both scores, the correlation of " + fmt(doc.observed, 2) +
       " becomes " + fmt(doc.corrected, 2) + " (" + interval(doc.ci, 2) + ").";
     $("k-observed").textContent = fmt(doc.observed, 3);
     $("k-corrected").textContent = fmt(doc.corrected, 3);
     $("k-ci").textContent = interval(doc.ci, 3);
-    $("k-rels").textContent = (doc.reliabilities || []).map(function (r) { return r.variable + ": " + r.description; }).join("; ");
-    showImage("sensitivity", (doc.figures || {}).sensitivity);
+    showCorrectionCommon(doc);
+  }
+  function showCorrectionCommon(doc) {
+    $("k-rels").textContent = "Reliabilities used: " + (doc.reliabilities || []).map(function (r) { return r.variable + ": " + r.description; }).join("; ") + ".";
+    const svg = (doc.figures || {}).sensitivity;
+    $("sensitivity-figure").hidden = !svg;
+    showImage("sensitivity", svg);
     listWarnings("correct-warnings", doc.warnings);
+  }
+  async function correctRegression() {
+    const file = $("g-file").files[0];
+    if (!useDemoStudy && !file) {
+      $("correct-problems").textContent = "Choose your study's data, or use the invented demo study.";
+      return;
+    }
+    const params = new URLSearchParams();
+    params.set("source", $("g-source").value);
+    if ($("g-source").value === "summary" && $("g-n").value) params.set("n", $("g-n").value);
+    params.set("outcome", $("g-outcome").value.trim());
+    for (const name of $("g-predictors").value.split(",")) {
+      if (name.trim()) params.append("predictor", name.trim());
+    }
+    for (const line of $("g-rels").value.split("\n")) {
+      if (line.trim()) params.append("rel", line.trim());
+    }
+    let body = null;
+    if (useDemoStudy) params.set("demo", "1");
+    else { params.set("name", file.name); body = file; }
+    const doc = await send("/api/correct-regression", { params: params, body: body }, { status: "correct-status", problems: "correct-problems", result: "correct-result" }, "Correcting…");
+    if (!doc) return;
+    $("correct-result").hidden = false;
+    $("k-table").hidden = true;
+    $("g-table").hidden = false;
+    const r2 = doc.r2 || {};
+    $("correct-headline").textContent = "Corrected for unreliability, the predictors account for " + fmt(100 * r2.corrected, 1) +
+      "% of the variance of " + doc.outcome + " (observed: " + fmt(100 * r2.observed, 1) + "%).";
+    const body2 = $("g-slopes");
+    body2.textContent = "";
+    for (const c of doc.coefficients || []) body2.appendChild(row([c.name, fmt(c.ols, 3), fmt(c.corrected, 3), interval(c.ci, 3)], true));
+    showCorrectionCommon(doc);
   }
 
   // ---------------------------------------------------------------- Report
@@ -545,6 +591,14 @@
     $("item-file").addEventListener("change", function () { useDemoItems = false; });
     $("use-demo").addEventListener("click", function () { useDemo = true; mapping = {}; $("sheet").value = ""; pool(); });
     $("items-demo").addEventListener("click", function () { useDemoItems = true; $("item-file").value = ""; items(); });
+    $("k-case").addEventListener("change", correctionCase);
+    $("g-file").addEventListener("change", function () { useDemoStudy = false; });
+    $("g-demo").addEventListener("click", function () {
+      useDemoStudy = true;
+      $("g-file").value = "";
+      $("g-source").value = "data";
+      $("correct-status").textContent = "The invented demo study (scores candor, safety and engagement of 250 respondents) will be used.";
+    });
     $("copy").addEventListener("click", async function () {
       try {
         await navigator.clipboard.writeText($("paragraph").textContent);
