@@ -561,13 +561,14 @@ fn a_new_study_placed_by_the_server_gets_the_verdict_of_the_command_line() {
             .unwrap()
             .contains("<svg")
     );
-    // A study without its n is the command line's usage error, as text.
+    // A study without its n is the command line's usage error, in the page's words.
     let missing = s.post("/api/check?name=sheet.csv&coef=0.66", &sheet);
     assert_eq!(missing.status, 400);
+    let error = missing.json()["error"].as_str().unwrap().to_string();
+    assert!(error.contains("“Respondents (n)” (Your study)"), "{error}");
     assert!(
-        missing.json()["error"].as_str().unwrap().contains("--n"),
-        "{}",
-        missing.text()
+        !error.contains("--n") && !error.contains("Usage:"),
+        "{error}"
     );
 }
 

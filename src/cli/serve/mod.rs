@@ -10,6 +10,7 @@
 mod guard;
 mod jobs;
 mod requests;
+mod wording;
 
 use super::args::ServeArgs;
 use super::output::{Failure, UsageError};

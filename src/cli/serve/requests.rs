@@ -5,9 +5,9 @@
 //! figures as SVG text, or for `report` the report's files in one zip.
 
 use super::super::args::{Cli, Command};
-use super::super::names::OptionNames;
 use super::super::output::Failure;
 use super::super::report::{report_files, shell_quote};
+use super::wording::PageNames;
 use clap::Parser;
 use relyard::analysis::{Correction, Progress, run};
 use relyard::output::json::{
@@ -46,108 +46,165 @@ pub(super) enum Kind {
     Report,
 }
 
-/// The page's name of a setting and the option it becomes.
-type Names = &'static [(&'static str, &'static str)];
+/// The page's name of a setting, the option it becomes, and the setting as the page labels
+/// it (for messages).
+type Names = &'static [(&'static str, &'static str, &'static str)];
 
 /// How the sheet is read and the model fitted: for every request about a coding sheet.
 const SHEET_SETTINGS: Names = &[
-    ("transform", "--transform"),
-    ("tau2", "--tau2"),
-    ("ci", "--ci"),
-    ("level", "--level"),
-    ("dependence", "--dependence"),
-    ("sampling_correlation", "--sampling-correlation"),
-    ("inference", "--inference"),
-    ("worksheet", "--worksheet"),
-    ("delimiter", "--delimiter"),
-    ("column", "--column"),
-    ("where", "--where"),
+    ("transform", "--transform", "“Analysis scale” (Benchmark)"),
+    ("tau2", "--tau2", "“Between-study variance” (Benchmark)"),
+    ("ci", "--ci", "“Confidence interval” (Benchmark)"),
+    ("level", "--level", "“Level” (Benchmark)"),
+    (
+        "dependence",
+        "--dependence",
+        "“Rows from one sample or cluster” (Benchmark)",
+    ),
+    (
+        "sampling_correlation",
+        "--sampling-correlation",
+        "the assumed correlation of sampling errors",
+    ),
+    ("inference", "--inference", "the kind of inference"),
+    ("worksheet", "--worksheet", "“Worksheet” (Benchmark)"),
+    ("delimiter", "--delimiter", "the delimiter"),
+    ("column", "--column", "the column mapping (Benchmark)"),
+    ("where", "--where", "the rows chosen"),
 ];
 /// The measure's name, for the commands whose prose names it.
-const MEASURE_SETTINGS: Names = &[("measure", "--measure")];
+const MEASURE_SETTINGS: Names = &[("measure", "--measure", "the measure's name")];
 const SHEET_FLAGS: Names = &[
-    ("skip_invalid", "--skip-invalid"),
-    ("allow_mixed_types", "--allow-mixed-types"),
+    (
+        "skip_invalid",
+        "--skip-invalid",
+        "“Leave invalid rows out” (Benchmark)",
+    ),
+    (
+        "allow_mixed_types",
+        "--allow-mixed-types",
+        "mixing kinds of coefficient",
+    ),
 ];
 const MODERATOR_SETTINGS: Names = &[
-    ("moderator", "--moderator"),
-    ("categorical", "--categorical"),
-    ("reference", "--reference"),
-    ("spread_metric", "--spread-metric"),
+    ("moderator", "--moderator", "the moderators (Explain)"),
+    ("categorical", "--categorical", "“as categories” (Explain)"),
+    ("reference", "--reference", "the reference level (Explain)"),
+    ("spread_metric", "--spread-metric", "the score SDs' metric"),
 ];
-const MODERATOR_FLAGS: Names = &[("uncentred", "--uncentred")];
+const MODERATOR_FLAGS: Names = &[("uncentred", "--uncentred", "uncentred moderators")];
 const STUDY_SETTINGS: Names = &[
-    ("coef", "--coef"),
-    ("n", "--n"),
-    ("items", "--items"),
-    ("coef_type", "--coef-type"),
-    ("sd", "--sd"),
-    ("sd_metric", "--sd-metric"),
-    ("scale_min", "--scale-min"),
-    ("scale_max", "--scale-max"),
-    ("at", "--at"),
-    ("in_cluster", "--in-cluster"),
+    ("coef", "--coef", "“Your coefficient” (Your study)"),
+    ("n", "--n", "“Respondents (n)” (Your study)"),
+    ("items", "--items", "“Items” (Your study)"),
+    (
+        "coef_type",
+        "--coef-type",
+        "“Kind of coefficient” (Your study)",
+    ),
+    ("sd", "--sd", "“Score SD” (Your study)"),
+    ("sd_metric", "--sd-metric", "“SD of” (Your study)"),
+    (
+        "scale_min",
+        "--scale-min",
+        "“Lowest item response” (Your study)",
+    ),
+    (
+        "scale_max",
+        "--scale-max",
+        "“Highest item response” (Your study)",
+    ),
+    ("at", "--at", "your study's moderator values (Your study)"),
+    (
+        "in_cluster",
+        "--in-cluster",
+        "“Cluster of the sheet it belongs to” (Your study)",
+    ),
 ];
 const EXPLAIN_SETTINGS: Names = &[
-    ("by", "--by"),
-    ("permutations", "--permutations"),
-    ("seed", "--seed"),
+    ("by", "--by", "“Subgroups by” (Explain)"),
+    ("permutations", "--permutations", "“Permutations” (Explain)"),
+    ("seed", "--seed", "the random seed"),
 ];
 const EXPLAIN_FLAGS: Names = &[
-    ("score_spread", "--score-spread"),
-    ("influence", "--influence"),
+    ("score_spread", "--score-spread", "“Score spread” (Explain)"),
+    (
+        "influence",
+        "--influence",
+        "“Influence of each study” (Explain)",
+    ),
 ];
 const ITEM_SETTINGS: Names = &[
-    ("items", "--items"),
-    ("reverse", "--reverse"),
-    ("scale_min", "--scale-min"),
-    ("scale_max", "--scale-max"),
-    ("missing_code", "--missing-code"),
-    ("worksheet", "--worksheet"),
-    ("delimiter", "--delimiter"),
-    ("bootstrap", "--bootstrap"),
-    ("seed", "--seed"),
-    ("level", "--level"),
+    ("items", "--items", "“Items” (Your items)"),
+    ("reverse", "--reverse", "“Reverse-keyed items” (Your items)"),
+    ("scale_min", "--scale-min", "“Lowest response” (Your items)"),
+    (
+        "scale_max",
+        "--scale-max",
+        "“Highest response” (Your items)",
+    ),
+    ("missing_code", "--missing-code", "the missing-value codes"),
+    ("worksheet", "--worksheet", "the worksheet"),
+    ("delimiter", "--delimiter", "the delimiter"),
+    ("bootstrap", "--bootstrap", "the bootstrap"),
+    ("seed", "--seed", "the random seed"),
+    ("level", "--level", "the level"),
 ];
-const ITEM_FLAGS: Names = &[("pairwise", "--pairwise")];
+const ITEM_FLAGS: Names = &[("pairwise", "--pairwise", "pairwise deletion")];
 const CORRECT_SETTINGS: Names = &[
-    ("r", "--r"),
-    ("n", "--n"),
-    ("rel_x", "--rel-x"),
-    ("rel_y", "--rel-y"),
-    ("draws", "--draws"),
-    ("seed", "--seed"),
-    ("level", "--level"),
-    ("grid", "--grid"),
+    ("r", "--r", "“Observed correlation” (Correction)"),
+    ("n", "--n", "“Respondents (n)” (Correction)"),
+    (
+        "rel_x",
+        "--rel-x",
+        "the reliability of the measure, x (Correction)",
+    ),
+    (
+        "rel_y",
+        "--rel-y",
+        "the reliability of the other score, y (Correction)",
+    ),
+    ("draws", "--draws", "the number of draws"),
+    ("seed", "--seed", "the random seed"),
+    ("level", "--level", "the level"),
+    ("grid", "--grid", "the sensitivity grid"),
 ];
 const REPORT_SETTINGS: Names = &[
-    ("r", "--r"),
-    ("rel_y", "--rel-y"),
-    ("draws", "--draws"),
-    ("seed", "--seed"),
+    ("r", "--r", "“Observed correlation” (Correction)"),
+    (
+        "rel_y",
+        "--rel-y",
+        "the reliability of the other score, y (Correction)",
+    ),
+    ("draws", "--draws", "the number of draws"),
+    ("seed", "--seed", "the random seed"),
 ];
 const BENCHMARK_CORRECTION_SETTINGS: Names = &[
-    ("r", "--r"),
-    ("n", "--n"),
-    ("rel_y", "--rel-y"),
-    ("draws", "--draws"),
-    ("seed", "--seed"),
-    ("at", "--at"),
+    ("r", "--r", "“Observed correlation” (Correction)"),
+    ("n", "--n", "“Respondents (n)” (Correction)"),
+    (
+        "rel_y",
+        "--rel-y",
+        "the reliability of the other score, y (Correction)",
+    ),
+    ("draws", "--draws", "the number of draws"),
+    ("seed", "--seed", "the random seed"),
+    ("at", "--at", "your study's moderator values (Your study)"),
 ];
 const REGRESSION_SETTINGS: Names = &[
-    ("outcome", "--outcome"),
-    ("predictor", "--predictor"),
-    ("rel", "--rel"),
-    ("n", "--n"),
-    ("draws", "--draws"),
-    ("seed", "--seed"),
-    ("level", "--level"),
-    ("grid", "--grid"),
-    ("delimiter", "--delimiter"),
-    ("worksheet", "--worksheet"),
-    ("missing_code", "--missing-code"),
+    ("outcome", "--outcome", "“Outcome” (Correction)"),
+    ("predictor", "--predictor", "“Predictors” (Correction)"),
+    ("rel", "--rel", "“Reliabilities” (Correction)"),
+    ("n", "--n", "“n” of the summary matrix (Correction)"),
+    ("draws", "--draws", "the number of draws"),
+    ("seed", "--seed", "the random seed"),
+    ("level", "--level", "the level"),
+    ("grid", "--grid", "the sensitivity grid"),
+    ("delimiter", "--delimiter", "the delimiter"),
+    ("worksheet", "--worksheet", "the worksheet"),
+    ("missing_code", "--missing-code", "the missing-value codes"),
 ];
-const REPORT_FLAGS: Names = &[("score_spread", "--score-spread")];
+const REPORT_FLAGS: Names = &[("score_spread", "--score-spread", "“Score spread” (Explain)")];
 
 impl Kind {
     fn command(self) -> &'static str {
@@ -162,7 +219,7 @@ impl Kind {
     }
 
     /// The settings with a value, and the flags, this kind of request takes.
-    fn settings(self) -> (Vec<Names>, Vec<Names>) {
+    pub(super) fn settings(self) -> (Vec<Names>, Vec<Names>) {
         match self {
             Kind::Pool => (vec![SHEET_SETTINGS, MEASURE_SETTINGS], vec![SHEET_FLAGS]),
             Kind::Check => (
@@ -280,8 +337,11 @@ pub(super) fn arguments(
         if matches!(key.as_str(), "name" | "demo" | "job" | "source") {
             continue;
         }
-        let value_option = values.iter().flat_map(|l| l.iter()).find(|(k, _)| k == key);
-        if let Some((_, option)) = value_option {
+        let value_option = values
+            .iter()
+            .flat_map(|l| l.iter())
+            .find(|(k, _, _)| k == key);
+        if let Some((_, option, _)) = value_option {
             let spec = match key.as_str() {
                 "rel_x" | "rel_y" => Some(value.as_str()),
                 "rel" => Some(value.split_once('=').map_or("", |(_, s)| s)),
@@ -296,8 +356,10 @@ pub(super) fn arguments(
             }
             measure |= key == "measure";
             args.push(format!("{option}={value}"));
-        } else if let Some((_, option)) =
-            flags.iter().flat_map(|l| l.iter()).find(|(k, _)| k == key)
+        } else if let Some((_, option, _)) = flags
+            .iter()
+            .flat_map(|l| l.iter())
+            .find(|(k, _, _)| k == key)
         {
             if value == "1" || value == "true" {
                 args.push((*option).to_string());
@@ -349,12 +411,13 @@ pub(super) fn analysed(
     bytes: Vec<u8>,
     progress: &dyn Progress,
 ) -> Result<Answer, String> {
+    let names = PageNames::of(kind);
     let message = |f: Failure| match f {
-        Failure::Usage(u) => u.0,
-        Failure::Lib(e) => e.render(&OptionNames),
+        Failure::Usage(u) => names.reword(&u.0),
+        Failure::Lib(e) => names.reword(&e.render(&names)),
         Failure::ClosedPipe => "the connection closed".into(),
     };
-    let command = Cli::try_parse_from(&args).map_err(|e| e.to_string())?;
+    let command = Cli::try_parse_from(&args).map_err(|e| names.reword(&e.to_string()))?;
     let mut settings = match command.command {
         Command::Pool(a) => super::super::config::pool(a),
         Command::Check(a) => super::super::config::check(a),
@@ -399,7 +462,7 @@ pub(super) fn analysed(
         Kind::Pool => {
             let b = analysis.benchmark.as_ref().ok_or_else(missing)?;
             let paragraph = benchmark_paragraph(b, measure);
-            let mut doc = document(&PoolDocument::new(b, &paragraph, &OptionNames))?;
+            let mut doc = document(&PoolDocument::new(b, &paragraph, &names))?;
             doc["figures"] = serde_json::json!({
                 "forest": svg(relyard::output::figures::forest(b))?,
                 "precision": svg(relyard::output::figures::funnel(b))?,
@@ -413,7 +476,7 @@ pub(super) fn analysed(
             let p = analysis.prepared.as_ref().ok_or_else(missing)?;
             let pl = analysis.placement.as_ref().ok_or_else(missing)?;
             let paragraph = placement_paragraph(pl, measure);
-            let mut doc = document(&CheckDocument::new(p, pl, &paragraph, &OptionNames))?;
+            let mut doc = document(&CheckDocument::new(p, pl, &paragraph, &names))?;
             doc["figures"] = serde_json::json!({
                 "placement": svg(relyard::output::figures::placement(pl))?,
             });
@@ -422,7 +485,7 @@ pub(super) fn analysed(
         Kind::Explain => {
             let p = analysis.prepared.as_ref().ok_or_else(missing)?;
             let e = analysis.explanation.as_ref().ok_or_else(missing)?;
-            let mut doc = document(&ExplainDocument::new(p, e, &OptionNames))?;
+            let mut doc = document(&ExplainDocument::new(p, e, &names))?;
             let mut figures = Vec::new();
             for m in &e.marginal {
                 if let Some(f) = relyard::output::figures::moderator(p, m) {
@@ -437,11 +500,11 @@ pub(super) fn analysed(
         }
         Kind::Items => {
             let o = analysis.items.as_ref().ok_or_else(missing)?;
-            document(&ItemsDocument::new(o, &OptionNames))?
+            document(&ItemsDocument::new(o, &names))?
         }
         Kind::Correct | Kind::CorrectWithBenchmark | Kind::CorrectRegression => {
             let c = analysis.correction.as_ref().ok_or_else(missing)?;
-            let mut doc = document(&CorrectionDocument::new(c, settings.level, &OptionNames))?;
+            let mut doc = document(&CorrectionDocument::new(c, settings.level, &names))?;
             if let Correction::Correlation { input, result, .. } = c {
                 doc["figures"] = serde_json::json!({
                     "sensitivity": svg(relyard::output::figures::sensitivity(
@@ -461,6 +524,15 @@ pub(super) fn analysed(
             return zipped(&files).map(Answer::Zip);
         }
     };
+    let mut doc = doc;
+    // Warnings written out with an option's name get the page's words too.
+    if let Some(list) = doc.get_mut("warnings").and_then(|w| w.as_array_mut()) {
+        for w in list {
+            if let Some(m) = w.get("message").and_then(|m| m.as_str()) {
+                w["message"] = names.reword(m).into();
+            }
+        }
+    }
     Ok(Answer::Document(doc))
 }
 

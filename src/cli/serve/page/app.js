@@ -610,7 +610,8 @@
     try {
       const start = await (await fetch("/api/start")).json();
       $("version").textContent = "relyard " + start.version;
-      if (start.demo) { useDemo = true; pool(); }
+      // With --demo the demo sheet is pooled and the demo item data analysed at once.
+      if (start.demo) { useDemo = true; useDemoItems = true; pool(); items(); }
     } catch (e) { /* the page still works without it */ }
   });
 })();

@@ -1,0 +1,150 @@
+//! The page's words for settings. The analysis names a setting through [`SettingNames`]:
+//! the command line says `--n`, the page says “Respondents (n)” (Your study). Messages the
+//! command line writes out itself (its usage messages, its argument parser's) are reworded
+//! the same way, option by option.
+
+use super::super::names::OptionNames;
+use super::requests::Kind;
+use relyard::setting::{Setting, SettingNames};
+use std::borrow::Cow;
+
+/// The settings of one kind of request, named as the page labels them.
+pub(super) struct PageNames {
+    /// Each option of the request's command and the page's label for it.
+    labels: Vec<(&'static str, &'static str)>,
+}
+
+impl PageNames {
+    pub(super) fn of(kind: Kind) -> PageNames {
+        let (values, flags) = kind.settings();
+        PageNames {
+            labels: values
+                .iter()
+                .chain(&flags)
+                .flat_map(|l| l.iter())
+                .map(|(_, option, label)| (*option, *label))
+                .collect(),
+        }
+    }
+
+    fn label(&self, option: &str) -> Option<&'static str> {
+        self.labels
+            .iter()
+            .find(|(o, _)| *o == option)
+            .map(|(_, l)| *l)
+    }
+
+    /// A message of the command line in the page's words: the argument parser's frame (its
+    /// `error:` and the usage lines after the reason) left out, each option the page has a
+    /// field for named by that field's label, and a value's placeholder (`<N>`) dropped.
+    pub(super) fn reword(&self, message: &str) -> String {
+        let m = message.strip_prefix("error: ").unwrap_or(message);
+        let m = m.split("\n\nUsage:").next().unwrap_or(m);
+        let m = m
+            .split("\n\nFor more information")
+            .next()
+            .unwrap_or(m)
+            .trim_end();
+        let mut out = String::with_capacity(m.len());
+        let mut rest = m;
+        while let Some(at) = rest.find("--") {
+            out.push_str(&rest[..at]);
+            let tail = &rest[at..];
+            let end = 2 + tail[2..]
+                .find(|c: char| !(c.is_ascii_lowercase() || c.is_ascii_digit() || c == '-'))
+                .unwrap_or(tail.len() - 2);
+            let (option, after) = tail.split_at(end);
+            match self.label(option) {
+                Some(label) => {
+                    out.push_str(label);
+                    rest = drop_placeholder(after);
+                }
+                None => {
+                    out.push_str(option);
+                    rest = after;
+                }
+            }
+        }
+        out.push_str(rest);
+        out
+    }
+}
+
+/// Text after an option without the value's placeholder (the parser's ` <N>`, or a word in
+/// capitals such as ` NAME` or ` COLUMN`), if it starts with one.
+fn drop_placeholder(after: &str) -> &str {
+    let placeholder = |c: char| c.is_ascii_uppercase() || c == '_' || c == '=' || c == ',';
+    if let Some(inner) = after.strip_prefix(" <")
+        && let Some(close) = inner.find('>')
+        && inner[..close].chars().all(placeholder)
+    {
+        return &inner[close + 1..];
+    }
+    if let Some(inner) = after.strip_prefix(' ') {
+        let word = inner
+            .find(|c: char| !(c.is_ascii_uppercase() || c == '_' || c == '='))
+            .unwrap_or(inner.len());
+        // A word of capitals, not a capital that starts a sentence.
+        if word >= 2 {
+            return &inner[word..];
+        }
+    }
+    after
+}
+
+impl SettingNames for PageNames {
+    fn name(&self, setting: Setting) -> Cow<'static, str> {
+        let option = OptionNames.name(setting);
+        match self.label(&option) {
+            Some(label) => Cow::Borrowed(label),
+            None => Cow::Borrowed(setting.describe()),
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn options_are_named_as_the_page_labels_them() {
+        let names = PageNames::of(Kind::Check);
+        assert_eq!(
+            names.name(Setting::StudyN),
+            "“Respondents (n)” (Your study)"
+        );
+        let parser = "error: the following required arguments were not provided:\n  --n <N>\n\n\
+                      Usage: relyard check --n <N> --coef <X> -- <SHEET>\n\nFor more \
+                      information, try '--help'.\n";
+        assert_eq!(
+            names.reword(parser),
+            "the following required arguments were not provided:\n  “Respondents (n)” (Your study)"
+        );
+        assert_eq!(
+            PageNames::of(Kind::Explain).reword("give --moderator NAME, --by COLUMN or X"),
+            "give the moderators (Explain), “Subgroups by” (Explain) or X"
+        );
+        assert_eq!(
+            names.reword(
+                "invalid value 'a' for '--coef <X>': no\n\nFor more information, try '--help'.\n"
+            ),
+            "invalid value 'a' for '“Your coefficient” (Your study)': no"
+        );
+        // The same option is another field in another step.
+        assert_eq!(
+            PageNames::of(Kind::Correct).reword("--r needs --n"),
+            "“Observed correlation” (Correction) needs “Respondents (n)” (Correction)"
+        );
+        // An option the page has no field for stays as it is, and so does a near name.
+        let items = PageNames::of(Kind::Items);
+        assert_eq!(
+            items.reword("use --force or --items-x"),
+            "use --force or --items-x"
+        );
+        assert_eq!(
+            items.reword("--reverse needs --scale-min and --scale-max."),
+            "“Reverse-keyed items” (Your items) needs “Lowest response” (Your items) and \
+             “Highest response” (Your items)."
+        );
+    }
+}
