@@ -110,6 +110,8 @@ pub struct CodingSheet {
     pub format: SheetFormat,
     /// The worksheet read, for a workbook.
     pub worksheet: Option<String>,
+    /// Every worksheet of a workbook, in its order (empty for text).
+    pub worksheets: Vec<String>,
     /// Header name of each standard column present.
     pub columns: BTreeMap<Role, String>,
     /// Names of the other columns, in sheet order.
@@ -206,6 +208,8 @@ pub struct SheetSummary {
     pub format: SheetFormat,
     /// The worksheet read, for a workbook.
     pub worksheet: Option<String>,
+    /// Every worksheet of a workbook, in its order (empty for text).
+    pub worksheets: Vec<String>,
     /// Non-empty data rows in the file (or worksheet).
     pub rows_read: usize,
     /// The subset analysed (empty: every row).
@@ -236,6 +240,7 @@ impl CodingSheet {
             file: self.file.clone(),
             format: self.format,
             worksheet: self.worksheet.clone(),
+            worksheets: self.worksheets.clone(),
             rows_read: self.rows_read,
             subset: Vec::new(),
             rows_outside_subset: 0,
@@ -445,6 +450,7 @@ pub fn coding_sheet_from_bytes(
         let expected = rows.data_rows();
         let mut sheet = parse_rows(&file, &mut rows, options, expected)?;
         sheet.worksheet = Some(rows.worksheet.clone());
+        sheet.worksheets = rows.worksheets.clone();
         sheet.reading_notes = rows.notes.clone();
         return Ok(sheet);
     }
@@ -503,6 +509,7 @@ fn parse_rows(
         file: file.to_string(),
         format,
         worksheet: None,
+        worksheets: Vec::new(),
         columns: layout.names(),
         extra_columns: layout.extra.iter().map(|(_, n)| n.clone()).collect(),
         records,

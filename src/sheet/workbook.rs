@@ -53,6 +53,8 @@ pub fn panic_is_contained() -> bool {
 pub struct WorkbookRows {
     /// The worksheet read.
     pub worksheet: String,
+    /// Every worksheet of the workbook, in its order (to offer a choice).
+    pub worksheets: Vec<String>,
     /// What the reader passed over or could not check (hidden worksheets, formulas).
     pub notes: Vec<Warning>,
     header: Vec<String>,
@@ -436,6 +438,12 @@ impl WorkbookRows {
         }
         let mut rows = Self::from_cells(b, &name, &mut g.cells)?;
         rows.notes = notes;
+        rows.worksheets = book
+            .sheets_metadata()
+            .iter()
+            .filter(|s| s.typ == SheetType::WorkSheet)
+            .map(|s| s.name.clone())
+            .collect();
         Ok(rows)
     }
 
@@ -515,6 +523,7 @@ impl WorkbookRows {
         }
         Ok(WorkbookRows {
             worksheet: name.to_string(),
+            worksheets: Vec::new(),
             notes: Vec::new(),
             header,
             header_row: first_row as usize + 1,

@@ -1356,3 +1356,55 @@ fn a_long_permutation_test_shows_its_progress_and_stops_when_asked() {
     let bad = s.post("/api/explain?demo=1&moderator=year&job=a%20b", b"");
     assert_ne!(bad.status, 200);
 }
+
+#[test]
+fn a_workbook_upload_lists_its_worksheets_and_reads_the_one_chosen() {
+    use crate::workbooks::{Cell, write_xlsx};
+    let dir = scratch("serve-workbook");
+    let data = vec![
+        vec![
+            Cell::Text("study"),
+            Cell::Text("coef"),
+            Cell::Text("n"),
+            Cell::Text("items"),
+        ],
+        vec![
+            Cell::Text("A"),
+            Cell::Num(0.81),
+            Cell::Num(120.0),
+            Cell::Num(8.0),
+        ],
+        vec![
+            Cell::Text("B"),
+            Cell::Num(0.74),
+            Cell::Num(95.0),
+            Cell::Num(8.0),
+        ],
+        vec![
+            Cell::Text("C"),
+            Cell::Num(0.86),
+            Cell::Num(300.0),
+            Cell::Num(8.0),
+        ],
+    ];
+    let xlsx = dir.join("two.xlsx");
+    write_xlsx(
+        &xlsx,
+        &[
+            ("Notes", 1, vec![vec![Cell::Text("read me")]]),
+            ("Data", 1, data),
+        ],
+    );
+    let bytes = std::fs::read(&xlsx).unwrap();
+    let s = Server::start(&[]);
+    // The first worksheet has no coef column: the command line's message, naming it.
+    let first = s.post("/api/pool?name=two.xlsx", &bytes);
+    assert_eq!(first.status, 400);
+    assert!(first.text().contains("no coef column"), "{}", first.text());
+    let chosen = s.post("/api/pool?name=two.xlsx&worksheet=Data", &bytes);
+    assert_eq!(chosen.status, 200, "{}", chosen.text());
+    let doc = chosen.json();
+    assert_eq!(doc["k"], 3);
+    assert_eq!(doc["worksheets"], serde_json::json!(["Notes", "Data"]));
+    assert_eq!(doc["input"]["sheet_name"], "Data");
+}

@@ -8,7 +8,7 @@ use std::io::Write;
 
 /// A cell: a number, a text, or empty.
 #[derive(Clone)]
-enum Cell {
+pub(crate) enum Cell {
     Num(f64),
     Text(&'static str),
     Empty,
@@ -46,7 +46,7 @@ fn column_letter(i: usize) -> String {
 
 /// An .xlsx with one worksheet per (name, rows); `first_row` is the spreadsheet row of
 /// rows[0] (rows above it are left empty).
-fn write_xlsx(path: &std::path::Path, sheets: &[(&str, usize, Vec<Vec<Cell>>)]) {
+pub(crate) fn write_xlsx(path: &std::path::Path, sheets: &[(&str, usize, Vec<Vec<Cell>>)]) {
     let raw: Vec<RawSheet> = sheets
         .iter()
         .map(|(name, first_row, rows)| {

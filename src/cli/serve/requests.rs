@@ -469,6 +469,8 @@ pub(super) fn analysed(
             });
             if let Some(p) = &analysis.prepared {
                 doc["columns"] = sheet_columns(p);
+                // A workbook's worksheets, for the page's choice of another.
+                doc["worksheets"] = serde_json::json!(p.source.worksheets);
             }
             doc
         }

@@ -133,6 +133,13 @@
     $("skipped").textContent = "";
     for (const s of skipped) $("skipped").appendChild(element("li", "row " + s.row + ": " + (s.reasons || []).join("; ")));
     if (doc.columns) showColumns(doc.columns);
+    const sheets = doc.worksheets || [];
+    const list = $("worksheets");
+    list.textContent = "";
+    for (const w of sheets) list.appendChild(new Option(w, w));
+    $("worksheet-note").textContent = sheets.length > 1
+      ? "This workbook's worksheets: " + sheets.join(", ") + "; read: " + (doc.input.sheet_name || sheets[0]) + "."
+      : "";
   }
   function headers(cols) {
     const all = Object.values(cols.roles);
