@@ -316,7 +316,12 @@ def case_of(name, y, v, X, cluster, sample, r, restricted, source, loo=False):
     ci_c = profile_interval(case, restricted, 0, theta, ll)
     ci_w = profile_interval(case, restricted, 1, theta, ll) if case["within_identified"] else None
     _, ll0 = maximize(case, restricted, (0.0, fixed[1]))
-    lrt = max(0.0, 2 * (ll - ll0))
+    # Two maxima that agree to rounding (about 1e-12 of the log-likelihood; which side of 0
+    # their difference falls on depends on the processor's arithmetic) are no evidence at
+    # all: the statistic is then 0, as relyard takes it.
+    lrt = 2 * (ll - ll0)
+    if lrt <= 1e-9 * max(abs(ll), 1.0):
+        lrt = 0.0
     q_theta = [0.0, 0.0]
     V0, _ = marginal(case, q_theta)
     b0 = np.linalg.solve(case["X"].T @ np.linalg.solve(V0, case["X"]),

@@ -1408,3 +1408,35 @@ fn a_workbook_upload_lists_its_worksheets_and_reads_the_one_chosen() {
     assert_eq!(doc["worksheets"], serde_json::json!(["Notes", "Data"]));
     assert_eq!(doc["input"]["sheet_name"], "Data");
 }
+
+#[test]
+fn a_request_the_page_abandons_stops_its_analysis() {
+    let s = Server::start(&["--demo"]);
+    // The request is sent and the connection closed without reading the answer (as a page
+    // that stops waiting does).
+    let path = "/api/explain?demo=1&moderator=year&permutations=1000000&job=left-1";
+    let mut c = TcpStream::connect(("127.0.0.1", s.port)).unwrap();
+    let head = format!(
+        "POST {path} HTTP/1.1\r\nHost: {}\r\nCookie: {}\r\nOrigin: http://{}\r\n\
+         Content-Length: 0\r\n\r\n",
+        s.host(),
+        s.cookie(),
+        s.host()
+    );
+    c.write_all(head.as_bytes()).unwrap();
+    let started = (0..200).any(|_| {
+        std::thread::sleep(Duration::from_millis(25));
+        s.get("/api/progress?job=left-1").json()["done"]
+            .as_u64()
+            .is_some_and(|d| d > 0)
+    });
+    assert!(started, "the permutation test began");
+    drop(c);
+    // The server notices, stops the analysis and forgets the job.
+    let ended = (0..200).any(|_| {
+        std::thread::sleep(Duration::from_millis(25));
+        s.get("/api/progress?job=left-1").json()["running"] == false
+    });
+    assert!(ended, "the abandoned job was still running after 5 s");
+    assert_eq!(s.post("/api/pool?demo=1", b"").status, 200);
+}

@@ -9,7 +9,7 @@ use std::collections::HashMap;
 use std::sync::atomic::{AtomicBool, AtomicU64, Ordering};
 use std::sync::{Arc, Mutex};
 
-/// Jobs that may be watched at once (each is a running request).
+/// Analyses that may run at once (each a request, named or not).
 const MAX_JOBS: usize = 32;
 
 /// How far one analysis has got, and whether it was asked to stop.
@@ -54,44 +54,45 @@ impl Progress for Watch {
     }
 }
 
-/// The named jobs now running.
+/// The analyses now running: how many, and the named ones by name.
 #[derive(Debug, Default)]
 pub(super) struct Jobs {
     running: Mutex<HashMap<String, Arc<Watch>>>,
+    count: Mutex<usize>,
 }
 
 impl Jobs {
-    /// A watch for one request, listed under `id` when the page gave one.
+    /// A watch for one request, listed under `id` when the page gave one; refused while
+    /// [`MAX_JOBS`] analyses run.
     pub(super) fn watch(self: &Arc<Self>, id: Option<&str>) -> Result<Watched, String> {
-        let watch = Arc::new(Watch::default());
-        let Some(id) = id else {
-            return Ok(Watched {
-                jobs: None,
-                id: String::new(),
-                watch,
-            });
-        };
-        let valid = !id.is_empty()
-            && id.len() <= 64
-            && id
-                .bytes()
-                .all(|b| b.is_ascii_alphanumeric() || b == b'-' || b == b'_');
-        if !valid {
-            return Err("a job is named by 1 to 64 letters, digits, - or _".into());
+        if let Some(id) = id {
+            let valid = !id.is_empty()
+                && id.len() <= 64
+                && id
+                    .bytes()
+                    .all(|b| b.is_ascii_alphanumeric() || b == b'-' || b == b'_');
+            if !valid {
+                return Err("a job is named by 1 to 64 letters, digits, - or _".into());
+            }
         }
-        let mut running = self.running.lock().unwrap_or_else(|e| e.into_inner());
-        if running.contains_key(id) {
-            return Err(format!("job \"{id}\" is already running"));
-        }
-        if running.len() >= MAX_JOBS {
+        let mut count = self.count.lock().unwrap_or_else(|e| e.into_inner());
+        if *count >= MAX_JOBS {
             return Err(format!(
                 "{MAX_JOBS} analyses are already running; wait for one to end"
             ));
         }
-        running.insert(id.to_string(), watch.clone());
+        let watch = Arc::new(Watch::default());
+        if let Some(id) = id {
+            let mut running = self.running.lock().unwrap_or_else(|e| e.into_inner());
+            if running.contains_key(id) {
+                return Err(format!("job \"{id}\" is already running"));
+            }
+            running.insert(id.to_string(), watch.clone());
+        }
+        *count += 1;
         Ok(Watched {
-            jobs: Some(self.clone()),
-            id: id.to_string(),
+            jobs: self.clone(),
+            id: id.map(str::to_string),
             watch,
         })
     }
@@ -106,18 +107,20 @@ impl Jobs {
 /// One request's watch: when the request ends, however it ends, the analysis is asked to
 /// stop (a finished one does not notice) and its job is no longer listed.
 pub(super) struct Watched {
-    jobs: Option<Arc<Jobs>>,
-    id: String,
+    jobs: Arc<Jobs>,
+    id: Option<String>,
     pub(super) watch: Arc<Watch>,
 }
 
 impl Drop for Watched {
     fn drop(&mut self) {
         self.watch.ask_to_stop();
-        if let Some(jobs) = &self.jobs {
-            let mut running = jobs.running.lock().unwrap_or_else(|e| e.into_inner());
-            running.remove(&self.id);
+        if let Some(id) = &self.id {
+            let mut running = self.jobs.running.lock().unwrap_or_else(|e| e.into_inner());
+            running.remove(id);
         }
+        let mut count = self.jobs.count.lock().unwrap_or_else(|e| e.into_inner());
+        *count -= 1;
     }
 }
 
@@ -142,12 +145,16 @@ mod tests {
     }
 
     #[test]
-    fn the_number_of_jobs_is_bounded() {
+    fn the_number_of_analyses_is_bounded_named_or_not() {
         let jobs = Arc::new(Jobs::default());
-        let held: Vec<Watched> = (0..MAX_JOBS)
+        let mut held: Vec<Watched> = (0..MAX_JOBS / 2)
             .map(|i| jobs.watch(Some(&format!("j{i}"))).unwrap())
             .collect();
+        held.extend((MAX_JOBS / 2..MAX_JOBS).map(|_| jobs.watch(None).unwrap()));
         assert!(jobs.watch(Some("one-more")).is_err());
+        assert!(jobs.watch(None).is_err());
+        held.pop();
+        assert!(jobs.watch(None).is_ok(), "one ended, one may start");
         drop(held);
         assert!(jobs.watch(Some("one-more")).is_ok());
     }

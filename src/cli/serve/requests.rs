@@ -318,7 +318,7 @@ fn opens_no_file(spec: &str) -> bool {
     first_is_number
         && parts.all(|p| {
             p.split_once('=')
-                .is_some_and(|(k, _)| matches!(k.trim(), "n" | "items" | "kind"))
+                .is_some_and(|(k, _)| matches!(k.trim(), "n" | "items" | "k" | "kind"))
         })
 }
 

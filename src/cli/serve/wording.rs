@@ -70,8 +70,26 @@ impl PageNames {
     }
 }
 
-/// Text after an option without the value's placeholder (the parser's ` <N>`, or a word in
-/// capitals such as ` NAME` or ` COLUMN`), if it starts with one.
+/// The command line's names for an option's value, as its messages write them after the
+/// option (` NAME`, ` COLUMN`): left out after a label. A name the user gave is never
+/// among them unless it is one of these words.
+const VALUE_NAMES: [&str; 12] = [
+    "NAME",
+    "COLUMN",
+    "N",
+    "X",
+    "R",
+    "SPEC",
+    "LEVEL",
+    "METRIC",
+    "VALUE",
+    "NAME=LEVEL",
+    "NAME=VALUE",
+    "NAME=SPEC",
+];
+
+/// Text after an option without the value's placeholder (the parser's ` <N>`, or one of
+/// [`VALUE_NAMES`]), if it starts with one.
 fn drop_placeholder(after: &str) -> &str {
     let placeholder = |c: char| c.is_ascii_uppercase() || c == '_' || c == '=' || c == ',';
     if let Some(inner) = after.strip_prefix(" <")
@@ -84,8 +102,7 @@ fn drop_placeholder(after: &str) -> &str {
         let word = inner
             .find(|c: char| !(c.is_ascii_uppercase() || c == '_' || c == '='))
             .unwrap_or(inner.len());
-        // A word of capitals, not a capital that starts a sentence.
-        if word >= 2 {
+        if VALUE_NAMES.contains(&&inner[..word]) {
             return &inner[word..];
         }
     }
@@ -129,6 +146,11 @@ mod tests {
                 "invalid value 'a' for '--coef <X>': no\n\nFor more information, try '--help'.\n"
             ),
             "invalid value 'a' for '“Your coefficient” (Your study)': no"
+        );
+        // A name the user gave stays, in capitals or not.
+        assert_eq!(
+            PageNames::of(Kind::CorrectRegression).reword("--predictor SES is given twice"),
+            "“Predictors” (Correction) SES is given twice"
         );
         // The same option is another field in another step.
         assert_eq!(

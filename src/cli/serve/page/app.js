@@ -91,19 +91,23 @@
 
   // Post a request to the server: the answer's document (or, with `blob`, its bytes), or
   // null with the problem shown (and the old result hidden).
-  async function send(path, request, ids, busy, blob) {
+  async function send(path, request, ids, busy, blob, signal) {
     $(ids.status).textContent = busy;
     $(ids.problems).textContent = "";
     try {
-      const response = await fetch(path + "?" + request.params.toString(), { method: "POST", body: request.body });
+      const response = await fetch(path + "?" + request.params.toString(), { method: "POST", body: request.body, signal: signal });
       $(ids.status).textContent = "";
       if (response.ok) return blob ? await response.blob() : await response.json();
-      const doc = await response.json();
+      // Most refusals are a JSON document with its error; some (a refused session, an
+      // upload over the limit) are plain text.
+      const text = await response.text();
+      let message = text;
+      try { message = JSON.parse(text).error || text; } catch (e) { /* plain text */ }
       if (ids.result) $(ids.result).hidden = true;
-      $(ids.problems).textContent = doc.error || "The request failed.";
+      $(ids.problems).textContent = message || "The request failed.";
     } catch (e) {
       $(ids.status).textContent = "";
-      $(ids.problems).textContent = "The server did not answer: " + e;
+      $(ids.problems).textContent = e.name === "AbortError" ? "Stopped." : "The server did not answer: " + e;
     }
     return null;
   }
@@ -244,6 +248,7 @@
     showAtFields();
   }
   let explainJob = null;
+  let explainAbort = null;
   async function watch(job) {
     while (explainJob === job) {
       try {
@@ -273,33 +278,40 @@
     const job = "explain-" + Date.now().toString(36) + "-" + Math.floor(Math.random() * 1e9).toString(36);
     p.set("job", job);
     explainJob = job;
+    explainAbort = new AbortController();
+    $("explain").disabled = true;
     $("explain-progress").removeAttribute("value");
     $("explain-progress-label").textContent = "Working…";
     $("explain-running").hidden = false;
     watch(job);
-    const doc = await send("/api/explain", request, { status: "explain-status", problems: "explain-problems", result: "explain-result" }, "Explaining…");
+    const doc = await send("/api/explain", request, { status: "explain-status", problems: "explain-problems", result: "explain-result" }, "Explaining…", false, explainAbort.signal);
     explainJob = null;
+    explainAbort = null;
+    $("explain").disabled = false;
     $("explain-running").hidden = true;
     if (!doc) return;
     showExplanation(doc);
   }
+  // Stop a running explanation: the server is asked to stop it, and the page stops waiting
+  // (which also stops it, should the request not have reached the server yet).
   async function stopExplain() {
     if (!explainJob) return;
-    await fetch("/api/stop?job=" + explainJob, { method: "POST" });
     $("explain-progress-label").textContent = "Stopping…";
+    try { await fetch("/api/stop?job=" + explainJob, { method: "POST" }); } catch (e) { /* aborted below */ }
+    if (explainAbort) explainAbort.abort();
   }
   function showExplanation(doc) {
     $("explain-result").hidden = false;
     const terms = $("coefficients");
     terms.textContent = "";
     for (const c of doc.coefficients || []) {
-      const robust = c.robust_ci ? " (robust " + interval(c.robust_ci, 3) + ")" : "";
-      terms.appendChild(row([c.name, fmt(c.estimate, 4), interval(c.ci, 4) + robust, pvalue(c.robust_p !== undefined && c.robust_p !== null ? c.robust_p : c.p), pvalue(c.permutation_p)], true));
+      // The interval and p of the inference in force (cluster-robust when clusters exist).
+      terms.appendChild(row([c.name, fmt(c.estimate, 4), interval(c.ci, 4), pvalue(c.p), pvalue(c.permutation_p)], true));
     }
     const omnibus = doc.omnibus;
     $("explain-headline").textContent = (doc.moderators || []).length
       ? "The moderators account for " + fmt(doc.r2, 1) + "% of the between-study variance" +
-        (omnibus ? " (test of all moderators: p " + (omnibus.p < 0.001 ? "< 0.001" : "= " + omnibus.p.toFixed(3)) + ")." : ".")
+        (omnibus ? " (test of all moderators: p " + pvalue(omnibus.p) + ")." : ".")
       : "No moderator was chosen.";
     const g = doc.subgroups;
     $("subgroups-box").hidden = !g;
@@ -307,7 +319,8 @@
     if (g) {
       for (const s of g.groups || []) {
         const rel = s.reliability || {};
-        $("subgroups").appendChild(row([String(s.level), String(s.k), fmt(rel.estimate, 3), interval(rel.ci, 3)], true));
+        const pooled = s.note ? s.note : fmt(rel.estimate, 3);
+        $("subgroups").appendChild(row([String(s.level), String(s.k), pooled, s.note ? "" : interval(rel.ci, 3)], true));
       }
       if (g.q_between) {
         $("subgroups").appendChild(row(["Difference between the groups", "", "Q = " + fmt(g.q_between.statistic, 2) + ", df " + g.q_between.df, "p " + pvalue(g.q_between.p)], true));
@@ -374,13 +387,14 @@
   // The coefficient the item analysis says to report, if it says one.
   function carriedCoefficient(doc) {
     switch (doc.recommendation) {
+      // One factor does not describe the items (check_dimensionality), they need
+      // reverse-keying first, or share no variance: nothing to carry.
       case "omega":
-      case "check_dimensionality":
         return typeof doc.omega === "number" ? { kind: "omega", value: doc.omega } : null;
       case "either":
       case "alpha_only":
       case "alpha_with_caution":
-        return { kind: "alpha", value: doc.alpha };
+        return typeof doc.alpha === "number" ? { kind: "alpha", value: doc.alpha } : null;
       default:
         return null;
     }
@@ -541,8 +555,12 @@
     $("k-table").hidden = true;
     $("g-table").hidden = false;
     const r2 = doc.r2 || {};
-    $("correct-headline").textContent = "Corrected for unreliability, the predictors account for " + fmt(100 * r2.corrected, 1) +
-      "% of the variance of " + doc.outcome + " (observed: " + fmt(100 * r2.observed, 1) + "%).";
+    const percent = function (x) { return typeof x === "number" ? fmt(100 * x, 1) + "%" : "—"; };
+    $("correct-headline").textContent = typeof r2.corrected === "number"
+      ? "Corrected for unreliability, the predictors account for " + percent(r2.corrected) +
+        " of the variance of " + doc.outcome + " (observed: " + percent(r2.observed) + ")."
+      : "The corrected regression is not available" + (doc.inadmissible_reason ? " (" + doc.inadmissible_reason + ")" : "") +
+        "; observed R²: " + percent(r2.observed) + ".";
     const body2 = $("g-slopes");
     body2.textContent = "";
     for (const c of doc.coefficients || []) body2.appendChild(row([c.name, fmt(c.ols, 3), fmt(c.corrected, 3), interval(c.ci, 3)], true));
@@ -581,6 +599,7 @@
     document.body.appendChild(a);
     a.click();
     a.remove();
+    setTimeout(function () { URL.revokeObjectURL(a.href); }, 60000);
     $("report-status").textContent = "Downloaded relyard-report.zip (" + Math.round(zip.size / 1024) + " KB).";
   }
 
