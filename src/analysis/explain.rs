@@ -8,7 +8,9 @@ use crate::error::Result;
 use crate::metareg::dependent::explain_dependent;
 use crate::metareg::dependent::multilevel_grouping;
 use crate::metareg::influence::{StudyInfluence, influence};
-use crate::metareg::permutation::{PermutationResult, permutation_test};
+use crate::metareg::permutation::{
+    PermutationResult, dependent_permutation_refused, permutation_test, permutation_test_dependent,
+};
 use crate::metareg::spread::{ScoreSpread, score_spread};
 use crate::metareg::subgroups::{Subgroups, subgroups};
 use crate::metareg::{
@@ -50,25 +52,22 @@ pub(crate) fn explain(
     let mut warnings = p.warnings.clone();
     warnings.extend(main.warnings.iter().cloned());
     warnings.extend(not_modelled(p, s));
-    // The permutation test and the leave-one-out diagnostics refit the two-level model:
-    // beside a multilevel fit their numbers would compare two different models, so they
-    // are not run (and a warning says why).
     let dependent = main.dependent.is_some();
-    let not_run = |what: &str, warnings: &mut Vec<Warning>| {
-        warnings.push(Warning::PartFailed {
-            what: what.into(),
-            why: crate::setting::Message::from(
-                "it does not yet respect rows that share samples or clusters, so it was not \
-                 run (use --dependence ignore to run it on rows taken as independent)"
-                    .to_string(),
-            ),
-        });
-    };
     let permutation = match e.permutations {
-        Some(_) if dependent => {
-            not_run("the permutation test", &mut warnings);
+        // Beside a multilevel fit, whole clusters are permuted, when each moderator takes
+        // one value per cluster (said in a warning when not).
+        Some(_) if dependent && dependent_permutation_refused(p, &main).is_some() => {
+            warnings.push(Warning::PartFailed {
+                what: "the permutation test".into(),
+                why: dependent_permutation_refused(p, &main)
+                    .unwrap_or_default()
+                    .into(),
+            });
             None
         }
+        Some(n) if dependent => Some(with_progress(progress, Task::Permutations, n, |tick| {
+            permutation_test_dependent(p, &main, n, s.seed, tick, &|| progress.stop_asked())
+        })?),
         Some(n) => Some(with_progress(progress, Task::Permutations, n, |tick| {
             permutation_test(p, &main, n, s.seed, tick, &|| progress.stop_asked())
         })?),

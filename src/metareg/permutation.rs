@@ -1,6 +1,7 @@
 //! Permutation tests for meta-regression: the moderators are shuffled across studies
-//! (each study keeping its effect and variance), the model refitted, and the observed
-//! statistics compared with their permutation distribution.
+//! (each study keeping its effect and variance) — across clusters beside a multilevel fit —
+//! the model refitted, and the observed statistics compared with their permutation
+//! distribution.
 
 use super::{Explanation, wald_statistic};
 use crate::benchmark::Prepared;
@@ -115,34 +116,61 @@ pub fn permutation_test(
             t
         })
         .reduce(Tally::default, Tally::merge);
-    if stop() {
-        return Err(Error::CannotAnalyse(
-            "the permutation test was stopped before it finished"
-                .to_string()
-                .into(),
-        ));
-    }
+    let observed = Observed {
+        omnibus: obs_omnibus,
+        each: &obs_coef,
+        columns: &columns,
+        p: ex.fit.p,
+    };
+    observed.p_values(tally, (permutations, seed), stop())
+}
 
-    if tally.done == 0 {
-        return Err(Error::Numerical(
-            "no permuted data set could be fitted, so there is no permutation test".into(),
-        ));
-    }
-    let p_of = |count: usize| (count as f64 + 1.0) / (tally.done as f64 + 1.0);
-    let mut coefficient_p = vec![None; ex.fit.p];
-    for (slot, &j) in columns.iter().enumerate() {
-        if obs_coef[slot].is_finite() {
-            coefficient_p[j] = Some(p_of(tally.coefficients[slot]));
+/// The observed statistics a permutation test compares with.
+struct Observed<'a> {
+    omnibus: f64,
+    each: &'a [f64],
+    columns: &'a [usize],
+    /// Coefficients in the model (the intercept's p stays empty).
+    p: usize,
+}
+
+impl Observed<'_> {
+    /// The p values (count + 1)/(done + 1) of the permutations tallied; an error when the
+    /// test was stopped or no permuted data set could be fitted.
+    fn p_values(
+        &self,
+        tally: Tally,
+        (permutations, seed): (usize, u64),
+        stopped: bool,
+    ) -> Result<PermutationResult> {
+        if stopped {
+            return Err(Error::CannotAnalyse(
+                "the permutation test was stopped before it finished"
+                    .to_string()
+                    .into(),
+            ));
         }
+        if tally.done == 0 {
+            return Err(Error::Numerical(
+                "no permuted data set could be fitted, so there is no permutation test".into(),
+            ));
+        }
+        let p_of = |count: usize| (count as f64 + 1.0) / (tally.done as f64 + 1.0);
+        let mut coefficient_p = vec![None; self.p];
+        for (slot, &j) in self.columns.iter().enumerate() {
+            if self.each[slot].is_finite() {
+                coefficient_p[j] = Some(p_of(tally.coefficients[slot]));
+            }
+        }
+        Ok(PermutationResult {
+            permutations,
+            seed,
+            failed: tally.failed,
+            // Without an observed omnibus statistic there is nothing to compare.
+            omnibus_p: self.omnibus.is_finite().then(|| p_of(tally.omnibus)),
+            coefficient_p,
+        })
     }
-    Ok(PermutationResult {
-        permutations,
-        seed,
-        failed: tally.failed,
-        // Without an observed omnibus statistic there is nothing to compare.
-        omnibus_p: obs_omnibus.is_finite().then(|| p_of(tally.omnibus)),
-        coefficient_p,
-    })
 }
 
 /// Refuse no permutations at all, or a model without moderators to permute.
@@ -228,4 +256,161 @@ impl Refits<'_> {
 /// little room for rounding).
 fn at_least(stat: f64, obs: f64) -> bool {
     stat >= obs - 1e-12 * obs.abs()
+}
+
+/// The statistics a permutation of a multilevel meta-regression is judged by, under the
+/// inference in force: each moderator coefficient's |β̂/SE| and the Wald statistic of all
+/// of them, with the cluster-robust (CR2) covariance or the model's.
+fn dependent_statistics(
+    d: &crate::pool::multilevel::NestedData,
+    fit: &crate::pool::multilevel::MultilevelFit,
+    inference: crate::pool::dependence::Inference,
+    columns: &[usize],
+) -> Result<(f64, Vec<f64>)> {
+    let cov = match inference {
+        crate::pool::dependence::Inference::Robust => crate::pool::multilevel::cr2(d, fit)?.cov,
+        crate::pool::dependence::Inference::Model => fit.cov.clone(),
+    };
+    let wald = wald_statistic(&fit.beta, &cov, columns);
+    let each = columns
+        .iter()
+        .map(|&j| (fit.beta[j] / cov[(j, j)].max(0.0).sqrt()).abs())
+        .collect();
+    Ok((wald, each))
+}
+
+/// The permutation test of a multilevel meta-regression: whole clusters' moderator values
+/// permuted among the clusters (each cluster's rows keep their effects, variances, samples
+/// and their cluster, and take another cluster's moderators), the model refitted for each
+/// permutation, and each statistic of [`dependent_statistics`] compared with the observed
+/// one. Under the null hypothesis of no moderator effect the clusters — the independent
+/// units — are exchangeable, as the studies are in the two-level test; so every moderator
+/// must take one value per cluster (a moderator that varies within a cluster cannot be
+/// permuted this way, and the test is refused, saying so). P values (count + 1)/(done + 1).
+///
+/// # References
+/// Higgins, J. P. T., & Thompson, S. G. (2004). Controlling the risk of spurious findings
+/// from meta-regression. *Statistics in Medicine*, 23(11), 1663–1682 (the permutation test
+/// of a meta-regression, here with clusters as the units permuted).
+pub fn permutation_test_dependent(
+    p: &Prepared,
+    ex: &Explanation,
+    permutations: usize,
+    seed: u64,
+    progress: &(dyn Fn(usize) + Sync),
+    stop: &(dyn Fn() -> bool + Sync),
+) -> Result<PermutationResult> {
+    use crate::pool::multilevel::{NestedData, refit_from};
+    let columns = ex.moderator_columns();
+    check_request(permutations, &columns)?;
+    let dep = ex.dependent.as_ref().ok_or_else(|| {
+        Error::Numerical("the permutation test of dependent rows needs the multilevel fit".into())
+    })?;
+    let s = &dep.summary;
+    let (y, v) = ex.design.effects(&p.y, &p.v);
+    let x = &ex.design.x;
+    let grouping = p.grouping_of(&ex.design.used).ok_or_else(|| {
+        Error::Numerical("the permutation test of dependent rows needs the grouping".into())
+    })?;
+    if let Some(why) = varies_within_clusters(p, ex, &grouping) {
+        return Err(Error::cannot(why));
+    }
+    // Each cluster's first row holds its moderator values.
+    let clusters = grouping.clusters();
+    let mut first: Vec<Option<usize>> = vec![None; clusters];
+    for (i, &c) in grouping.cluster.iter().enumerate() {
+        first[c].get_or_insert(i);
+    }
+    let first: Vec<usize> = first.into_iter().flatten().collect();
+    let options = s.fit.options;
+    let start = Some([s.fit.tau2_cluster, s.fit.tau2_within]);
+    let (obs_omnibus, obs_coef) = dependent_statistics(&s.data, &s.fit, s.inference, &columns)?;
+    let n_chunks = permutations.div_ceil(CHUNK);
+    let tally = (0..n_chunks)
+        .into_par_iter()
+        .map(|chunk| {
+            let mut t = Tally {
+                coefficients: vec![0; columns.len()],
+                ..Tally::default()
+            };
+            if stop() {
+                return t;
+            }
+            let (from, to) = (chunk * CHUNK, ((chunk + 1) * CHUNK).min(permutations));
+            let mut order: Vec<usize> = (0..clusters).collect();
+            for b in from..to {
+                let mut rng = stream(seed, b as u64);
+                order.iter_mut().enumerate().for_each(|(i, o)| *o = i);
+                order.shuffle(&mut rng);
+                let mut xb = x.clone();
+                for (i, &c) in grouping.cluster.iter().enumerate() {
+                    let src = first[order[c]];
+                    for &j in &columns {
+                        xb[(i, j)] = x[(src, j)];
+                    }
+                }
+                let refit = NestedData::new(&y, &v, &xb, &grouping).and_then(|d| {
+                    let f = refit_from(&d, &options, start)?;
+                    dependent_statistics(&d, &f, s.inference, &columns)
+                });
+                match refit {
+                    Ok((omnibus, each)) if omnibus.is_finite() => {
+                        t.done += 1;
+                        if at_least(omnibus, obs_omnibus) {
+                            t.omnibus += 1;
+                        }
+                        for (slot, (z, obs)) in each.iter().zip(&obs_coef).enumerate() {
+                            if at_least(*z, *obs) {
+                                t.coefficients[slot] += 1;
+                            }
+                        }
+                    }
+                    _ => t.failed += 1,
+                }
+            }
+            progress(to - from);
+            t
+        })
+        .reduce(Tally::default, Tally::merge);
+    let observed = Observed {
+        omnibus: obs_omnibus,
+        each: &obs_coef,
+        columns: &columns,
+        p: ex.fit.p,
+    };
+    observed.p_values(tally, (permutations, seed), stop())
+}
+
+/// Why whole clusters cannot be permuted for this model: a moderator that varies within a
+/// cluster (named, with two rows of the sheet that differ); `None` when each moderator takes
+/// one value per cluster.
+fn varies_within_clusters(
+    p: &Prepared,
+    ex: &Explanation,
+    grouping: &crate::pool::multilevel::Grouping,
+) -> Option<String> {
+    let x = &ex.design.x;
+    let columns = ex.moderator_columns();
+    let mut first: Vec<Option<usize>> = vec![None; grouping.clusters()];
+    for (i, &c) in grouping.cluster.iter().enumerate() {
+        let f = *first[c].get_or_insert(i);
+        if let Some(&j) = columns.iter().find(|&&j| x[(i, j)] != x[(f, j)]) {
+            return Some(format!(
+                "the permutation test of dependent rows permutes whole clusters, so each \
+                 moderator must take one value per cluster; {} varies within a cluster (rows {} \
+                 and {} of the sheet)",
+                ex.design.names[j],
+                p.records[ex.design.used[f]].row,
+                p.records[ex.design.used[i]].row
+            ));
+        }
+    }
+    None
+}
+
+/// Why the permutation test of a multilevel model cannot be run, if it cannot (see
+/// [`permutation_test_dependent`]).
+pub fn dependent_permutation_refused(p: &Prepared, ex: &Explanation) -> Option<String> {
+    let grouping = p.grouping_of(&ex.design.used)?;
+    varies_within_clusters(p, ex, &grouping)
 }

@@ -256,18 +256,42 @@ fn explain_fits_the_multilevel_model_with_robust_tests_of_every_coefficient() {
     // reference in reference_multilevel.rs).
     assert_eq!(j["influence"].as_array().unwrap().len(), 14);
     assert!(!warning_codes(&j).contains(&"part_failed".to_string()));
-    // The permutation test does not respect the dependence yet: not run, and said so.
+    // The permutation test permutes whole clusters: run for a moderator that takes one
+    // value per cluster (the year of a paper; checked against its exact distribution in
+    // reference_multilevel.rs) ...
     let perm = json_ok(&[
         "explain",
         &p,
         "--moderator",
         "year",
         "--permutations",
+        "200",
+        "--json",
+    ]);
+    assert_eq!(perm["permutations"]["count"], 200);
+    let pp = perm["coefficients"][1]["permutation_p"].as_f64().unwrap();
+    assert!(pp > 0.0 && pp <= 1.0, "{pp}");
+    assert!(!warning_codes(&perm).contains(&"part_failed".to_string()));
+    // ... and refused, saying why, for one that varies within a cluster (the setting of
+    // Arden 2011's samples).
+    let within = json_ok(&[
+        "explain",
+        &p,
+        "--moderator",
+        "setting",
+        "--permutations",
         "20",
         "--json",
     ]);
-    assert!(perm["permutations"].is_null());
-    assert!(warning_codes(&perm).contains(&"part_failed".to_string()));
+    assert!(within["permutations"].is_null());
+    let said = within["warnings"].as_array().unwrap().iter().any(|w| {
+        w["code"] == "part_failed"
+            && w["message"]
+                .as_str()
+                .unwrap()
+                .contains("varies within a cluster")
+    });
+    assert!(said, "{}", within["warnings"]);
     let model = json_ok(&[
         "explain",
         &p,

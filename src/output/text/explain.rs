@@ -330,9 +330,15 @@ fn moderators(o: &mut String, p: &Prepared, e: &Explained) {
         } else {
             String::new()
         };
+        // Beside a multilevel fit whole clusters' moderator values are permuted.
+        let units = if ex.dependent.is_some() {
+            "clusters"
+        } else {
+            "studies"
+        };
         let _ = writeln!(
             o,
-            "  shuffled p: {} permutations of the moderators across studies, seed {}{failed}",
+            "  shuffled p: {} permutations of the moderators across {units}, seed {}{failed}",
             r.permutations, r.seed
         );
     }
@@ -358,8 +364,13 @@ fn explained_lead(e: &Explained) -> String {
                 .as_ref()
                 .and_then(|r| r.omnibus_p)
                 .map(|pp| {
+                    let units = if ex.dependent.is_some() {
+                        "clusters"
+                    } else {
+                        "studies"
+                    };
                     format!(
-                        "; with the moderators shuffled across studies p = {}",
+                        "; with the moderators shuffled across {units} p = {}",
                         fixed(pp, 4)
                     )
                 })
