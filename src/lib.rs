@@ -17,6 +17,7 @@ pub mod correct;
 pub mod dist;
 pub mod error;
 pub mod format;
+pub mod icc;
 pub mod items;
 pub mod level;
 pub mod limits;

@@ -22,7 +22,9 @@ Sources of the computations:
     fitted tau2; an exact permutation distribution by enumerating all orderings;
   * the multilevel model of dependent coefficients (REML/ML, profile intervals, the
     likelihood-ratio test, CR2 with Satterthwaite df): dense numpy and scipy.optimize in
-    multilevel_reference.py.
+    multilevel_reference.py;
+  * intraclass correlations: statsmodels' analysis of variance and scipy.stats.f in
+    icc_reference.py.
 """
 
 import json
@@ -38,6 +40,7 @@ from statsmodels.stats.meta_analysis import combine_effects
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from multilevel_reference import multilevel_fixture  # noqa: E402
+from icc_reference import icc_fixture  # noqa: E402
 
 SCRIPT = "tests/reference/make_fixtures.py"
 
@@ -984,7 +987,8 @@ def main():
                        ("transforms.json", transform_fixture), ("metareg.json", metareg_fixture),
                        ("items.json", lambda: items_fixture(out_dir)),
                        ("inference.json", inference_fixture),
-                       ("multilevel.json", lambda: multilevel_fixture(stamp))]:
+                       ("multilevel.json", lambda: multilevel_fixture(stamp)),
+                       ("icc.json", lambda: icc_fixture(stamp))]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

@@ -18,6 +18,7 @@ mod output_schema;
 mod properties;
 mod published_bcg;
 mod reference_correct;
+mod reference_icc;
 mod reference_items;
 mod reference_metareg;
 mod reference_multilevel;
