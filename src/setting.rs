@@ -95,6 +95,8 @@ pub enum Setting {
     ItemFile,
     /// The item columns used.
     ItemColumns,
+    /// The columns (occasions or raters) of an intraclass correlation's table.
+    IccColumns,
     /// Items to reverse-key.
     ReverseKeyed,
     /// The lowest possible response.
@@ -202,6 +204,7 @@ impl Setting {
             InCluster => "the new study's cluster",
             ItemFile => "the item data",
             ItemColumns => "the item columns",
+            IccColumns => "the columns (occasions or raters)",
             ReverseKeyed => "the reverse-keyed items",
             ResponseMin => "the lowest possible response",
             ResponseMax => "the highest possible response",

@@ -8,6 +8,7 @@
 mod compare;
 mod correction;
 mod explain;
+mod icc;
 mod items;
 pub mod settings;
 mod sheet;
@@ -15,6 +16,7 @@ mod sheet;
 pub use compare::Comparison;
 pub use correction::Correction;
 pub use explain::Explained;
+pub use icc::IccOutcome;
 pub use items::ItemsOutcome;
 pub use settings::*;
 
@@ -122,6 +124,8 @@ pub struct Analysis {
     pub correction: Option<Correction>,
     /// Reliability from raw item data.
     pub items: Option<ItemsOutcome>,
+    /// Intraclass correlations of a table of scores.
+    pub icc: Option<IccOutcome>,
     /// Tests of equality for alphas.
     pub comparison: Option<Comparison>,
     /// A sample size.
@@ -132,12 +136,13 @@ impl Analysis {
     /// Every warning of the run, each once, in the order the parts ran.
     pub fn warnings(&self) -> Vec<Warning> {
         let mut all: Vec<Warning> = Vec::new();
-        let parts: [&[Warning]; 6] = [
+        let parts: [&[Warning]; 7] = [
             self.benchmark.as_ref().map_or(&[], |b| &b.warnings),
             self.explanation.as_ref().map_or(&[], |e| &e.warnings),
             self.placement.as_ref().map_or(&[], |p| &p.warnings),
             self.correction.as_ref().map_or(&[], |c| c.warnings()),
             self.items.as_ref().map_or(&[], |i| &i.warnings),
+            self.icc.as_ref().map_or(&[], |i| &i.warnings),
             self.comparison.as_ref().map_or(&[], |c| &c.warnings),
         ];
         for w in parts.into_iter().flatten() {
@@ -235,6 +240,10 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
         Some(i) => Some(items::items(i, settings, progress)?),
         None => None,
     };
+    let icc = match &settings.icc {
+        Some(i) => Some(icc::icc(i, settings)?),
+        None => None,
+    };
     let comparison = match &settings.comparison {
         Some(c) => Some(compare::compare(c, settings)?),
         None => None,
@@ -257,6 +266,7 @@ pub fn run(settings: &Settings, progress: &dyn Progress) -> Result<Analysis> {
         placement,
         correction,
         items,
+        icc,
         comparison,
         plan,
     })

@@ -41,6 +41,8 @@ pub struct Settings {
     pub correction: Option<CorrectionSettings>,
     /// Reliability from raw item data.
     pub items: Option<ItemSettings>,
+    /// Intraclass correlations from a persons × occasions (or raters) table.
+    pub icc: Option<ItemSettings>,
     /// Tests of equality for independent alphas.
     pub comparison: Option<ComparisonSettings>,
     /// A sample size for estimating or testing alpha.

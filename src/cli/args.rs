@@ -148,6 +148,10 @@ pub enum Command {
     Check(CheckArgs),
     /// Reliability from raw item data: alpha, omega, tau-equivalence, item statistics.
     Items(ItemsArgs),
+    /// Intraclass correlations of a table of scores (rows persons or targets, columns
+    /// occasions or raters): every form with its interval and test, the SEM and the
+    /// smallest detectable change.
+    Icc(IccArgs),
     /// Test whether independent alphas are equal (Feldt; Hakstian–Whalen).
     Compare(CompareArgs),
     /// Sample size for estimating or testing coefficient alpha.
@@ -451,6 +455,44 @@ pub struct ItemsArgs {
     /// Seed of the bootstrap (the same seed gives the same interval on any machine).
     #[arg(long, value_name = "SEED", default_value_t = 1)]
     pub seed: u64,
+
+    /// Confidence level of the intervals, between 0 and 1.
+    #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]
+    pub level: f64,
+
+    /// The file's delimiter, when it is text (detected from the header row when not given).
+    #[arg(long, value_name = "DELIMITER", ignore_case = true)]
+    pub delimiter: Option<DelimiterArg>,
+
+    /// Print one JSON object instead of the readable summary.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, Args)]
+pub struct IccArgs {
+    /// The table: one row per person (or target), one column per occasion (or rater), a
+    /// header of column names (CSV or a workbook: .xlsx, .xls, .ods); rows with a missing
+    /// cell are left out and counted.
+    #[arg(value_name = "DATA")]
+    pub data: PathBuf,
+
+    /// The columns to use, comma-separated (every column when not given; a text column
+    /// with a different value in every row is taken as an identifier and left out).
+    #[arg(long, value_name = "A,B,C", value_delimiter = ',')]
+    pub columns: Vec<String>,
+
+    /// A value that means "missing", such as -99 (repeatable).
+    #[arg(long = "missing-code", value_name = "X", allow_negative_numbers = true)]
+    pub missing_codes: Vec<f64>,
+
+    /// For a workbook: the worksheet holding the table (the first visible one when not
+    /// given).
+    #[arg(long, value_name = "NAME")]
+    pub worksheet: Option<String>,
+
+    #[command(flatten)]
+    pub workbook: WorkbookBoundArgs,
 
     /// Confidence level of the intervals, between 0 and 1.
     #[arg(long, value_name = "LEVEL", default_value_t = 0.95)]

@@ -3,8 +3,9 @@
 
 use super::args::{
     CheckArgs, CiArg, CoefTypeArg, CompareArgs, CorrectArgs, DelimiterArg, DependenceArg,
-    ExplainArgs, InferenceArg, ItemsArgs, ModelArgs, ModeratorArgs, PlanArgs, PoolArgs, ReportArgs,
-    SdMetricArg, SheetArgs, SpreadMetricArg, StudyArgs, Tau2Arg, TemplateArgs, TransformArg,
+    ExplainArgs, IccArgs, InferenceArg, ItemsArgs, ModelArgs, ModeratorArgs, PlanArgs, PoolArgs,
+    ReportArgs, SdMetricArg, SheetArgs, SpreadMetricArg, StudyArgs, Tau2Arg, TemplateArgs,
+    TransformArg,
 };
 use super::output::{Failure, UsageError};
 use relyard::Level;
@@ -373,6 +374,36 @@ fn input_path(p: PathBuf) -> PathBuf {
 }
 
 /// `relyard items`.
+/// `relyard icc`.
+pub fn icc(a: IccArgs) -> Result<Settings, Failure> {
+    if let Some(c) = a.missing_codes.iter().find(|c| !c.is_finite()) {
+        return Err(usage(format!("--missing-code {c} is not a finite number")));
+    }
+    let columns: Vec<String> = a
+        .columns
+        .iter()
+        .map(|s| s.trim().to_string())
+        .filter(|s| !s.is_empty())
+        .collect();
+    Ok(Settings {
+        icc: Some(ItemSettings {
+            path: input_path(a.data),
+            bytes: None,
+            read: ItemReadOptions {
+                delimiter: a.delimiter.map(u8::from),
+                items: (!columns.is_empty()).then_some(columns),
+                missing_codes: a.missing_codes,
+                worksheet: a.worksheet,
+                workbook: a.workbook.limits(),
+                ..ItemReadOptions::default()
+            },
+            bootstrap: None,
+        }),
+        level: level(a.level)?,
+        ..Settings::default()
+    })
+}
+
 pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
     let scale = match (a.scale_min, a.scale_max) {
         (Some(lo), Some(hi)) if lo < hi => Some((lo, hi)),

@@ -10,6 +10,7 @@ mod config;
 mod correct;
 mod explain;
 mod files;
+mod icc;
 mod items;
 mod names;
 mod output;
@@ -49,6 +50,7 @@ pub fn run() -> i32 {
         args::Command::Explain(a) => explain::run_explain(a),
         args::Command::Check(a) => check::run_check(a),
         args::Command::Items(a) => items::run_items(a),
+        args::Command::Icc(a) => icc::run_icc(a),
         args::Command::Compare(a) => compare::run_compare(a),
         args::Command::Plan(a) => plan::run_plan(a),
         args::Command::Correct(a) => correct::run_correct(a),

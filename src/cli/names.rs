@@ -52,6 +52,7 @@ impl SettingNames for OptionNames {
             InCluster => "--in-cluster",
             ItemFile => "the DATA argument",
             ItemColumns => "--items",
+            IccColumns => "--columns",
             ReverseKeyed => "--reverse",
             ResponseMin => "--scale-min",
             ResponseMax => "--scale-max",

@@ -450,11 +450,24 @@ fn choose_columns(
             .collect(),
     };
     if items.len() < 2 {
+        // A table of occasions or raters says so in its own words.
+        let (one, many, needs) = match setting {
+            Setting::IccColumns => (
+                "column",
+                "columns",
+                "an intraclass correlation needs at least two columns (occasions or raters)",
+            ),
+            _ => (
+                "item column",
+                "item columns",
+                "reliability needs at least 2 items",
+            ),
+        };
         return Err(Error::setting(
             setting,
             format!(
-                "{file}: {} selected; reliability needs at least 2 items",
-                crate::format::count(items.len() as u64, "item column", "item columns")
+                "{file}: {} selected; {needs}",
+                crate::format::count(items.len() as u64, one, many)
             ),
         ));
     }

@@ -8,6 +8,7 @@
 //! [`SettingNames`](crate::setting::SettingNames) (option names on the command line).
 
 pub mod figures;
+pub mod icc_words;
 pub mod json;
 pub mod layout;
 pub mod page;

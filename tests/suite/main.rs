@@ -9,6 +9,7 @@ mod bad_input;
 mod cli_correct;
 mod cli_dependence;
 mod cli_explain;
+mod cli_icc;
 mod cli_items;
 mod cli_pool;
 mod consistency;

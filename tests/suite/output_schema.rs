@@ -31,6 +31,7 @@ fn documented() -> Documented {
                 h if h.contains("relyard explain") => "explain",
                 h if h.contains("relyard check") => "check",
                 h if h.contains("relyard items") => "items",
+                h if h.contains("relyard icc") => "icc",
                 h if h.contains("relyard compare") => "compare",
                 h if h.contains("relyard correct") => "correct",
                 h if h.contains("relyard plan") => "plan",
@@ -208,6 +209,15 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
 
     let items = run(&["items", &demo("candor-items.csv"), "--bootstrap", "30"]);
     compare_sets("items", &doc.sections["items"], &paths(&items));
+
+    // A table with a missing cell (a warning printed) and an identifier column.
+    let table = write_file(
+        &dir,
+        "retest.csv",
+        b"person,t1,t2\nP1,12,13\nP2,18,17\nP3,9,11\nP4,15,\nP5,21,20\nP6,14,15\n",
+    );
+    let icc = run(&["icc", &table]);
+    compare_sets("icc", &doc.sections["icc"], &paths(&icc));
 
     let cmp = write_file(
         &dir,

@@ -95,6 +95,22 @@ pub struct ItemsInput {
     pub missing_codes: Vec<f64>,
 }
 
+impl ItemsInput {
+    /// What was read of a file of item responses (or of any table of scores).
+    pub fn of(d: &crate::items::ItemData) -> ItemsInput {
+        ItemsInput {
+            file: d.file.clone(),
+            delimiter: d.format.delimiter_name(),
+            sheet_name: d.worksheet.clone(),
+            rows_read: d.rows_read,
+            complete_rows: d.complete_rows,
+            missing_cells: d.missing_cells,
+            missing: d.missing,
+            missing_codes: d.missing_codes.clone(),
+        }
+    }
+}
+
 /// A χ² test.
 #[derive(Debug, Clone, Serialize)]
 pub struct ChiRecord {
@@ -165,16 +181,7 @@ impl ItemsDocument {
             schema_version: SCHEMA_VERSION,
             command: "items",
             relyard_version: RELYARD_VERSION,
-            input: ItemsInput {
-                file: d.file.clone(),
-                delimiter: d.format.delimiter_name(),
-                sheet_name: d.worksheet.clone(),
-                rows_read: d.rows_read,
-                complete_rows: d.complete_rows,
-                missing_cells: d.missing_cells,
-                missing: d.missing,
-                missing_codes: d.missing_codes.clone(),
-            },
+            input: ItemsInput::of(d),
             n_used: a.n_used,
             items: a.k,
             item_names: d.names.clone(),

@@ -5,6 +5,7 @@
 
 mod correct;
 mod explain;
+mod icc;
 mod items;
 mod place;
 mod pool;
@@ -12,6 +13,7 @@ mod report;
 
 pub use correct::{CorrectionDocument, CorrelationDocument, RegressionDocument, SEM_NOTE};
 pub use explain::ExplainDocument;
+pub use icc::IccDocument;
 pub use items::{CompareDocument, ItemsDocument, PlanDocument};
 pub use place::CheckDocument;
 pub use pool::{DependenceRecord, PoolDocument};

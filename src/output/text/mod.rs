@@ -6,6 +6,7 @@
 mod check;
 mod correct;
 mod explain;
+mod icc;
 mod items;
 mod pool;
 
@@ -13,6 +14,7 @@ pub use check::check_summary;
 pub use correct::{correlation_summary, regression_summary};
 pub use explain::explain_summary;
 pub(crate) use explain::omnibus_words;
+pub use icc::icc_summary;
 pub use items::{compare_summary, items_summary, plan_summary};
 pub use pool::benchmark_summary;
 
