@@ -1,7 +1,7 @@
 //! `relyard serve` at the HTTP level: the real binary started on a free port, spoken to
 //! over plain TCP (one request per connection), stopped with SIGINT.
 
-use super::common::{chromium, demo_file, relyard, rendered_dom, scratch};
+use super::common::{chromium, demo_file, relyard, rendered_dom, scratch, write_file};
 use std::io::{BufRead, BufReader, Read, Write};
 use std::net::TcpStream;
 use std::process::{Child, ChildStdout, Command, Stdio};
@@ -204,6 +204,7 @@ fn the_token_address_sets_the_session_and_nothing_is_served_without_it() {
         "/api/check?demo=1&coef=0.8&n=100",
         "/api/explain?demo=1&moderator=year",
         "/api/items?demo=1",
+        "/api/icc?demo=1",
         "/api/correct?r=0.3&n=100&rel_x=0.8&rel_y=0.8",
         "/api/correct-with-benchmark?demo=1&r=0.3&n=100&rel_y=0.8",
         "/api/correct-regression?demo=1&outcome=engagement&predictor=candor&rel=candor=0.8",
@@ -1001,6 +1002,21 @@ fn the_page_driven_through_explain_items_study_and_report() {
     );
     assert_eq!(d.text("#c-expected"), f3(&check["expected"]));
     d.screenshot(&artefacts.join("serve-page-study.png"));
+    // Retest and raters: a table uploaded through the file input.
+    let table = dir.join("retest.csv");
+    std::fs::write(
+        &table,
+        "person,t1,t2\nP1,12,13\nP2,18,17\nP3,9,11\nP4,15,16\nP5,21,20\nP6,14,15\n",
+    )
+    .unwrap();
+    d.type_into("#icc-file", &table.to_string_lossy());
+    d.click("#icc-run");
+    d.wait_for("#icc-headline", |t| t.starts_with("6 rows"));
+    let icc = cli_json(&["icc", &table.to_string_lossy(), "--json"]);
+    let forms = d.text("#icc-forms");
+    let agreement = f3(&icc["forms"][8]["value"]);
+    assert_eq!(icc["forms"][8]["model"], "two-way-mixed");
+    assert!(forms.contains(&agreement), "{forms} lacks {agreement}");
     // The report: downloaded as a zip, with the command that writes it.
     d.click("#report");
     d.wait_for("#report-status", |t| {
@@ -1439,4 +1455,22 @@ fn a_request_the_page_abandons_stops_its_analysis() {
     });
     assert!(ended, "the abandoned job was still running after 5 s");
     assert_eq!(s.post("/api/pool?demo=1", b"").status, 200);
+}
+
+#[test]
+fn an_uploaded_table_gets_the_intraclass_correlations_of_the_command_line() {
+    let s = Server::start(&[]);
+    let table = b"person,t1,t2,t3\nP1,12,13,12\nP2,18,17,19\nP3,9,11,10\nP4,15,,14\n\
+                  P5,21,20,22\nP6,14,15,13\nP7,11,12,13\n";
+    let served = s.post("/api/icc?name=retest.csv&columns=t1,t2,t3", table);
+    assert_eq!(served.status, 200, "{}", served.text());
+    let page = served.json();
+    let dir = scratch("serve-icc");
+    let path = write_file(&dir, "retest.csv", table);
+    let cli = cli_json(&["icc", &path, "--columns", "t1,t2,t3", "--json"]);
+    for key in ["n", "k", "forms", "sem", "sdc", "rows_left_out", "guidance"] {
+        assert_eq!(page[key], cli[key], "{key}");
+    }
+    assert_eq!(page["input"]["file"], "retest.csv");
+    assert_eq!(page["rows_left_out"], 1);
 }

@@ -90,6 +90,7 @@ async fn serve(a: ServeArgs, limit: u64) -> Result<(), Failure> {
             post(|st, q, b| handle(Kind::Explain, st, q, b)),
         )
         .route("/api/items", post(|st, q, b| handle(Kind::Items, st, q, b)))
+        .route("/api/icc", post(|st, q, b| handle(Kind::Icc, st, q, b)))
         .route(
             "/api/correct",
             post(|st, q, b| handle(Kind::Correct, st, q, b)),

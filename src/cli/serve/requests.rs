@@ -11,7 +11,7 @@ use super::wording::PageNames;
 use clap::Parser;
 use relyard::analysis::{Correction, Progress, run};
 use relyard::output::json::{
-    CheckDocument, CorrectionDocument, ExplainDocument, ItemsDocument, PoolDocument,
+    CheckDocument, CorrectionDocument, ExplainDocument, IccDocument, ItemsDocument, PoolDocument,
 };
 use relyard::output::prose::{benchmark_paragraph, placement_paragraph};
 use std::io::Write;
@@ -43,6 +43,8 @@ pub(super) enum Kind {
     /// A regression's slopes corrected, from uploaded raw data (`source=data`) or a summary
     /// matrix (`source=summary`).
     CorrectRegression,
+    /// Intraclass correlations of an uploaded table of scores (occasions or raters).
+    Icc,
     Report,
 }
 
@@ -150,6 +152,13 @@ const ITEM_SETTINGS: Names = &[
     ("seed", "--seed", "the random seed"),
     ("level", "--level", "the level"),
 ];
+const ICC_SETTINGS: Names = &[
+    ("columns", "--columns", "“Columns” (Retest and raters)"),
+    ("missing_code", "--missing-code", "the missing-value codes"),
+    ("worksheet", "--worksheet", "the worksheet"),
+    ("delimiter", "--delimiter", "the delimiter"),
+    ("level", "--level", "the level"),
+];
 const ITEM_FLAGS: Names = &[("pairwise", "--pairwise", "pairwise deletion")];
 const CORRECT_SETTINGS: Names = &[
     ("r", "--r", "“Observed correlation” (Correction)"),
@@ -213,6 +222,7 @@ impl Kind {
             Kind::Check => "check",
             Kind::Explain => "explain",
             Kind::Items => "items",
+            Kind::Icc => "icc",
             Kind::Correct | Kind::CorrectRegression => "correct",
             Kind::CorrectWithBenchmark | Kind::Report => "report",
         }
@@ -236,6 +246,7 @@ impl Kind {
                 vec![SHEET_FLAGS, MODERATOR_FLAGS, EXPLAIN_FLAGS],
             ),
             Kind::Items => (vec![ITEM_SETTINGS], vec![ITEM_FLAGS]),
+            Kind::Icc => (vec![ICC_SETTINGS], vec![]),
             Kind::Correct => (vec![CORRECT_SETTINGS], vec![]),
             Kind::CorrectRegression => (vec![REGRESSION_SETTINGS], vec![]),
             Kind::CorrectWithBenchmark => (
@@ -263,7 +274,7 @@ impl Kind {
     /// What the request's upload is: a coding sheet, item data, or nothing.
     pub(super) fn upload(self) -> Upload {
         match self {
-            Kind::Items => Upload::ItemData,
+            Kind::Items | Kind::Icc => Upload::ItemData,
             Kind::CorrectRegression => Upload::StudyData,
             Kind::Correct => Upload::None,
             _ => Upload::Sheet,
@@ -423,6 +434,7 @@ pub(super) fn analysed(
         Command::Check(a) => super::super::config::check(a),
         Command::Explain(a) => super::super::config::explain(a),
         Command::Items(a) => super::super::config::items(a),
+        Command::Icc(a) => super::super::config::icc(a),
         Command::Correct(a) => super::super::config::correct(a),
         Command::Report(a) => super::super::config::report(a),
         _ => return Err("not an analysis request".into()),
@@ -432,8 +444,11 @@ pub(super) fn analysed(
     if let Some(sheet) = settings.sheet.as_mut() {
         sheet.bytes = Some(bytes.clone());
     }
-    if let Some(items) = settings.items.as_mut() {
-        items.bytes = Some(bytes.clone());
+    for table in [settings.items.as_mut(), settings.icc.as_mut()]
+        .into_iter()
+        .flatten()
+    {
+        table.bytes = Some(bytes.clone());
     }
     if let Some(relyard::analysis::CorrectionSettings::Regression { data, .. }) =
         settings.correction.as_mut()
@@ -499,6 +514,10 @@ pub(super) fn analysed(
             }
             doc["figures"] = serde_json::Value::Array(figures);
             doc
+        }
+        Kind::Icc => {
+            let o = analysis.icc.as_ref().ok_or_else(missing)?;
+            document(&IccDocument::new(o, &names))?
         }
         Kind::Items => {
             let o = analysis.items.as_ref().ok_or_else(missing)?;

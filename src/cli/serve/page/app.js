@@ -413,6 +413,31 @@
     $("study-heading").scrollIntoView();
   }
 
+  // ---------------------------------------------------------------- Retest and raters
+  async function icc() {
+    const file = $("icc-file").files[0];
+    if (!file) {
+      $("icc-problems").textContent = "Choose a table of scores.";
+      return;
+    }
+    const params = new URLSearchParams();
+    if ($("icc-columns").value.trim()) params.set("columns", $("icc-columns").value.trim());
+    params.set("name", file.name);
+    const doc = await send("/api/icc", { params: params, body: file }, { status: "icc-status", problems: "icc-problems", result: "icc-result" }, "Computing…");
+    if (!doc) return;
+    $("icc-result").hidden = false;
+    $("icc-headline").textContent = doc.n + " rows (persons or targets) × " + doc.k + " columns (occasions or raters)" +
+      (doc.rows_left_out ? "; " + doc.rows_left_out + " rows with a missing cell left out." : ".");
+    const body = $("icc-forms");
+    body.textContent = "";
+    for (const f of doc.forms || []) body.appendChild(row([f.model, f.type, f.unit, fmt(f.value, 3), interval(f.ci, 3), pvalue(f.p)], true));
+    $("icc-sem").textContent = "Standard error of measurement " + fmt(doc.sem, 3) + " (" + doc.sem_form + "); smallest detectable change " + fmt(doc.sdc, 3) + ".";
+    $("icc-retest").textContent = (doc.guidance || {}).test_retest || "";
+    $("icc-raters").textContent = (doc.guidance || {}).raters || "";
+    $("icc-caution").textContent = doc.caution || "";
+    listWarnings("icc-warnings", doc.warnings);
+  }
+
   // ---------------------------------------------------------------- Your study
   function showAtFields() {
     const box = $("at-fields");
@@ -607,6 +632,7 @@
     $("pool-form").addEventListener("submit", function (e) { e.preventDefault(); pool(); });
     $("explain-form").addEventListener("submit", function (e) { e.preventDefault(); explain(); });
     $("items-form").addEventListener("submit", function (e) { e.preventDefault(); items(); });
+    $("icc-form").addEventListener("submit", function (e) { e.preventDefault(); icc(); });
     $("check-form").addEventListener("submit", function (e) { e.preventDefault(); place(); });
     $("correct-form").addEventListener("submit", function (e) { e.preventDefault(); correct(); });
     $("explain-stop").addEventListener("click", stopExplain);
