@@ -4,6 +4,7 @@ use super::settings::{ItemSettings, Settings};
 use super::{Progress, Task, with_progress};
 use crate::error::Result;
 use crate::items::bootstrap::{OmegaBootstrap, bootstrap_omega};
+use crate::items::polychoric::{ordinal_alpha, polychoric_matrix};
 use crate::items::{
     ItemAnalysis, ItemData, analyze, analyze_with, read_items, read_items_from_bytes,
 };
@@ -18,8 +19,20 @@ pub struct ItemsOutcome {
     pub analysis: ItemAnalysis,
     /// Omega's bootstrap interval, when asked for and a factor model was fitted.
     pub bootstrap: Option<OmegaBootstrap>,
+    /// The items taken as ordinal, when asked for: the polychoric correlations and ordinal
+    /// alpha, or why they could not be computed.
+    pub ordinal: Option<std::result::Result<OrdinalPart, String>>,
     /// Every warning (the reading's and the bootstrap's).
     pub warnings: Vec<Warning>,
+}
+
+/// The items taken as ordinal.
+#[derive(Debug, Clone)]
+pub struct OrdinalPart {
+    /// The polychoric correlation matrix (two-step maximum likelihood).
+    pub polychoric: nalgebra::DMatrix<f64>,
+    /// Ordinal alpha: alpha of that matrix.
+    pub alpha: f64,
 }
 
 /// Items from which the factor fits are shown as progress (they take seconds only for
@@ -32,7 +45,7 @@ pub(crate) fn items(
     progress: &dyn Progress,
 ) -> Result<ItemsOutcome> {
     let mut read = i.read.clone();
-    read.keep_rows = i.bootstrap.is_some();
+    read.keep_rows = i.bootstrap.is_some() || i.ordinal;
     let data = match &i.bytes {
         Some(b) => read_items_from_bytes(&i.path, b, &read)?,
         None => read_items(&i.path, &read)?,
@@ -58,10 +71,23 @@ pub(crate) fn items(
         }
         _ => None,
     };
+    let ordinal = match (i.ordinal, &data.rows) {
+        (true, Some(rows)) => Some(
+            polychoric_matrix(rows, data.names.len(), &data.names)
+                .map(|r| OrdinalPart {
+                    alpha: ordinal_alpha(&r),
+                    polychoric: r,
+                })
+                .map_err(|e| e.to_string()),
+        ),
+        (true, None) => Some(Err("the rows were not kept".to_string())),
+        (false, _) => None,
+    };
     Ok(ItemsOutcome {
         data,
         analysis,
         bootstrap,
+        ordinal,
         warnings,
     })
 }

@@ -17,7 +17,7 @@ pub use compare::Comparison;
 pub use correction::Correction;
 pub use explain::Explained;
 pub use icc::IccOutcome;
-pub use items::ItemsOutcome;
+pub use items::{ItemsOutcome, OrdinalPart};
 pub use settings::*;
 
 use crate::benchmark::{Benchmark, Prepared, from_prepared};

@@ -206,6 +206,8 @@ pub struct ItemSettings {
     pub read: ItemReadOptions,
     /// Bootstrap replicates for omega's interval.
     pub bootstrap: Option<usize>,
+    /// Treat the items as ordinal: polychoric correlations and ordinal alpha too.
+    pub ordinal: bool,
 }
 
 /// Tests of equality for independent alphas: the sheet's rows (when a sheet is given) and

@@ -464,6 +464,11 @@ pub struct ItemsArgs {
     #[arg(long, value_name = "DELIMITER", ignore_case = true)]
     pub delimiter: Option<DelimiterArg>,
 
+    /// Treat the items as ordinal (few categories): polychoric correlations and ordinal
+    /// alpha besides the coefficients of the observed scores.
+    #[arg(long)]
+    pub ordinal: bool,
+
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]
     pub json: bool,

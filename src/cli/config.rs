@@ -398,6 +398,7 @@ pub fn icc(a: IccArgs) -> Result<Settings, Failure> {
                 ..ItemReadOptions::default()
             },
             bootstrap: None,
+            ordinal: false,
         }),
         level: level(a.level)?,
         ..Settings::default()
@@ -446,6 +447,7 @@ pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
                 ..ItemReadOptions::default()
             },
             bootstrap: a.bootstrap,
+            ordinal: a.ordinal,
         }),
         level: level(a.level)?,
         seed: a.seed,

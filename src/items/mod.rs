@@ -8,6 +8,7 @@ mod cells;
 pub mod factor;
 mod fast;
 pub mod moments;
+pub mod polychoric;
 pub mod read;
 
 pub use read::{ItemData, ItemReadOptions, Missing, read_items, read_items_from_bytes};

@@ -24,7 +24,9 @@ Sources of the computations:
     likelihood-ratio test, CR2 with Satterthwaite df): dense numpy and scipy.optimize in
     multilevel_reference.py;
   * intraclass correlations: statsmodels' analysis of variance and scipy.stats.f in
-    icc_reference.py.
+    icc_reference.py;
+  * polychoric correlations: the bivariate normal by scipy.integrate.quad and the two-step
+    maximum likelihood by scipy.optimize in polychoric_reference.py.
 """
 
 import json
@@ -41,6 +43,7 @@ from statsmodels.stats.meta_analysis import combine_effects
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from multilevel_reference import multilevel_fixture  # noqa: E402
 from icc_reference import icc_fixture  # noqa: E402
+from polychoric_reference import polychoric_fixture  # noqa: E402
 
 SCRIPT = "tests/reference/make_fixtures.py"
 
@@ -988,7 +991,8 @@ def main():
                        ("items.json", lambda: items_fixture(out_dir)),
                        ("inference.json", inference_fixture),
                        ("multilevel.json", lambda: multilevel_fixture(stamp)),
-                       ("icc.json", lambda: icc_fixture(stamp))]:
+                       ("icc.json", lambda: icc_fixture(stamp)),
+                       ("polychoric.json", lambda: polychoric_fixture(stamp))]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

@@ -23,6 +23,7 @@ mod reference_icc;
 mod reference_items;
 mod reference_metareg;
 mod reference_multilevel;
+mod reference_polychoric;
 mod reference_pool;
 mod reference_quantiles;
 mod reference_transforms;

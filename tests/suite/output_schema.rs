@@ -208,7 +208,20 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
     compare_sets("check", &with_shared("check"), &printed);
 
     let items = run(&["items", &demo("candor-items.csv"), "--bootstrap", "30"]);
-    compare_sets("items", &doc.sections["items"], &paths(&items));
+    let mut printed = paths(&items);
+    printed.extend(paths(&run(&[
+        "items",
+        &demo("candor-items.csv"),
+        "--ordinal",
+    ])));
+    // An item with too many categories: the note instead of the matrix.
+    let wide = write_file(
+        &dir,
+        "wide.csv",
+        b"a,b\n1,2\n2,3\n3,1\n4,5\n5,4\n6,7\n7,6\n8,9\n9,8\n10,11\n11,10\n12,1\n",
+    );
+    printed.extend(paths(&run(&["items", &wide, "--ordinal"])));
+    compare_sets("items", &doc.sections["items"], &printed);
 
     // A table with a missing cell (a warning printed) and an identifier column.
     let table = write_file(

@@ -70,6 +70,8 @@ pub struct ItemsDocument {
     pub recommendation: Recommendation,
     /// The reading in words.
     pub reading: String,
+    /// The items taken as ordinal (with `--ordinal`).
+    pub ordinal: Option<OrdinalRecord>,
     /// Warnings.
     pub warnings: Vec<WarningRecord>,
 }
@@ -249,7 +251,51 @@ impl ItemsDocument {
             identifiers_left_out: d.identifiers.clone(),
             recommendation: a.recommendation,
             reading: a.reading.render(names),
+            ordinal: o.ordinal.as_ref().map(OrdinalRecord::from),
             warnings: super::warnings(&o.warnings, names),
+        }
+    }
+}
+
+/// What ordinal alpha describes, and which coefficient belongs in a benchmark.
+pub const ORDINAL_CAUTION: &str = "Ordinal alpha is the alpha of the polychoric correlations: \
+it describes the sum of the continuous responses assumed to underlie the categories, not the \
+sum of the observed categories that a study scores, and is usually higher (Chalmers 2018). A \
+benchmark of reported coefficients and a correction of observed correlations need the \
+coefficient of the observed score: alpha or omega above.";
+
+/// The items taken as ordinal.
+#[derive(Debug, Clone, Serialize)]
+pub struct OrdinalRecord {
+    /// Ordinal alpha (null when the polychoric correlations could not be computed).
+    pub alpha: Option<f64>,
+    /// The polychoric correlation matrix, by rows in the items' order (null as `alpha`).
+    pub polychoric: Option<Vec<Vec<f64>>>,
+    /// Why they could not be computed (items with too many categories, …).
+    pub note: Option<String>,
+    /// What ordinal alpha describes.
+    pub caution: &'static str,
+}
+
+impl From<&std::result::Result<crate::analysis::OrdinalPart, String>> for OrdinalRecord {
+    fn from(o: &std::result::Result<crate::analysis::OrdinalPart, String>) -> Self {
+        match o {
+            Ok(p) => OrdinalRecord {
+                alpha: Some(p.alpha),
+                polychoric: Some(
+                    (0..p.polychoric.nrows())
+                        .map(|i| p.polychoric.row(i).iter().copied().collect())
+                        .collect(),
+                ),
+                note: None,
+                caution: ORDINAL_CAUTION,
+            },
+            Err(why) => OrdinalRecord {
+                alpha: None,
+                polychoric: None,
+                note: Some(why.clone()),
+                caution: ORDINAL_CAUTION,
+            },
         }
     }
 }

@@ -35,6 +35,22 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
         recommendation_words(a.recommendation)
     );
     o.push_str(&wrap(&format!("{}.", a.reading.render(names)), 86, "  "));
+    match &o_.ordinal {
+        Some(Ok(p)) => {
+            let _ = writeln!(o);
+            let _ = writeln!(
+                o,
+                "Taken as ordinal: ordinal alpha {} (alpha of the polychoric correlations)",
+                fixed(p.alpha, 3)
+            );
+            o.push_str(&wrap(crate::output::json::ORDINAL_CAUTION, 86, "  "));
+        }
+        Some(Err(why)) => {
+            let _ = writeln!(o);
+            let _ = writeln!(o, "Taken as ordinal: not available: {why}");
+        }
+        None => {}
+    }
     read_with_care(&mut o, &o_.warnings, names);
     o
 }
