@@ -18,18 +18,11 @@ pub fn icc_summary(o_: &IccOutcome, names: &dyn SettingNames) -> String {
         thousands(a.n as u64),
         a.k
     );
-    let sheet = d
-        .worksheet
-        .as_ref()
-        .map(|w| format!("workbook, worksheet \"{w}\"; "))
-        .unwrap_or_default();
-    let _ = writeln!(
-        o,
-        "  file          {} ({sheet}{} rows read, {} left out for a missing cell)",
-        d.file,
-        thousands(d.rows_read),
+    let left_out = format!(
+        ", {} left out for a missing cell",
         thousands(d.rows_read - d.complete_rows)
     );
+    super::items::file_line(&mut o, d, &left_out);
     let _ = writeln!(o, "  columns       {}", d.names.join(", "));
     let _ = writeln!(o);
     heading(&mut o, "Every form");

@@ -75,8 +75,8 @@ fn items_heading(o: &mut String, d: &ItemData, a: &ItemAnalysis) {
     let _ = writeln!(o, "{}", "─".repeat(72));
 }
 
-/// What was read: the file, identifiers left out, missing answers, reversed items.
-fn items_input(o: &mut String, d: &ItemData) {
+/// The file line of a table of scores: its name, worksheet and rows read, and `more`.
+pub(super) fn file_line(o: &mut String, d: &ItemData, more: &str) {
     let sheet = d
         .worksheet
         .as_ref()
@@ -84,10 +84,15 @@ fn items_input(o: &mut String, d: &ItemData) {
         .unwrap_or_default();
     let _ = writeln!(
         o,
-        "  file          {} ({sheet}{} rows read)",
+        "  file          {} ({sheet}{} rows read{more})",
         d.file,
         thousands(d.rows_read)
     );
+}
+
+/// What was read: the file, identifiers left out, missing answers, reversed items.
+fn items_input(o: &mut String, d: &ItemData) {
+    file_line(o, d, "");
     if !d.identifiers.is_empty() {
         let _ = writeln!(
             o,
