@@ -271,6 +271,19 @@ impl Kind {
         }
     }
 
+    /// The page's words for this request's options (its fields' labels).
+    pub(super) fn page_names(self) -> PageNames {
+        let (values, flags) = self.settings();
+        PageNames::new(
+            values
+                .iter()
+                .chain(&flags)
+                .flat_map(|l| l.iter())
+                .map(|(_, option, label)| (*option, *label))
+                .collect(),
+        )
+    }
+
     /// What the request's upload is: a coding sheet, item data, or nothing.
     pub(super) fn upload(self) -> Upload {
         match self {
@@ -422,7 +435,7 @@ pub(super) fn analysed(
     bytes: Vec<u8>,
     progress: &dyn Progress,
 ) -> Result<Answer, String> {
-    let names = PageNames::of(kind);
+    let names = kind.page_names();
     let message = |f: Failure| match f {
         Failure::Usage(u) => names.reword(&u.0),
         Failure::Lib(e) => names.reword(&e.render(&names)),
@@ -622,6 +635,7 @@ mod erased {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use relyard::setting::{Setting, SettingNames};
 
     fn q(pairs: &[(&str, &str)]) -> Vec<(String, String)> {
         pairs
@@ -721,5 +735,56 @@ mod tests {
             "{command}"
         );
         assert!(command.ends_with("-- 'my sheet.csv'"), "{command}");
+    }
+
+    #[test]
+    fn options_are_named_as_the_page_labels_them() {
+        let names = Kind::Check.page_names();
+        assert_eq!(
+            names.name(Setting::StudyN),
+            "“Respondents (n)” (Your study)"
+        );
+        let parser = "error: the following required arguments were not provided:\n  --n <N>\n\n\
+                      Usage: relyard check --n <N> --coef <X> -- <SHEET>\n\nFor more \
+                      information, try '--help'.\n";
+        assert_eq!(
+            names.reword(parser),
+            "the following required arguments were not provided:\n  “Respondents (n)” (Your study)"
+        );
+        assert_eq!(
+            Kind::Explain
+                .page_names()
+                .reword("give --moderator NAME, --by COLUMN or X"),
+            "give the moderators (Explain), “Subgroups by” (Explain) or X"
+        );
+        assert_eq!(
+            names.reword(
+                "invalid value 'a' for '--coef <X>': no\n\nFor more information, try '--help'.\n"
+            ),
+            "invalid value 'a' for '“Your coefficient” (Your study)': no"
+        );
+        // A name the user gave stays, in capitals or not.
+        assert_eq!(
+            Kind::CorrectRegression
+                .page_names()
+                .reword("--predictor SES is given twice"),
+            "“Predictors” (Correction) SES is given twice"
+        );
+        // The same option is another field in another step.
+        assert_eq!(
+            Kind::Correct.page_names().reword("--r needs --n"),
+            "“Observed correlation” (Correction) needs “Respondents (n)” (Correction)"
+        );
+        // An option the page has no field for stays as it is, and so does a near name.
+        let items = Kind::Items.page_names();
+        assert_eq!(
+            items.reword("use --force or --items-x"),
+            "use --force or --items-x"
+        );
+        assert_eq!(
+            items.reword("--reverse needs --scale-min and --scale-max."),
+            "“Reverse-keyed items” (Your items) needs “Lowest response” (Your items) and \
+             “Highest response” (Your items)."
+        );
     }
 }

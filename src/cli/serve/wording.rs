@@ -4,7 +4,6 @@
 //! the same way, option by option.
 
 use super::super::names::OptionNames;
-use super::requests::Kind;
 use relyard::setting::{Setting, SettingNames};
 use std::borrow::Cow;
 
@@ -15,16 +14,9 @@ pub(super) struct PageNames {
 }
 
 impl PageNames {
-    pub(super) fn of(kind: Kind) -> PageNames {
-        let (values, flags) = kind.settings();
-        PageNames {
-            labels: values
-                .iter()
-                .chain(&flags)
-                .flat_map(|l| l.iter())
-                .map(|(_, option, label)| (*option, *label))
-                .collect(),
-        }
+    /// The names of a request whose options are labelled so on the page: (option, label).
+    pub(super) fn new(labels: Vec<(&'static str, &'static str)>) -> PageNames {
+        PageNames { labels }
     }
 
     fn label(&self, option: &str) -> Option<&'static str> {
@@ -116,57 +108,5 @@ impl SettingNames for PageNames {
             Some(label) => Cow::Borrowed(label),
             None => Cow::Borrowed(setting.describe()),
         }
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    #[test]
-    fn options_are_named_as_the_page_labels_them() {
-        let names = PageNames::of(Kind::Check);
-        assert_eq!(
-            names.name(Setting::StudyN),
-            "“Respondents (n)” (Your study)"
-        );
-        let parser = "error: the following required arguments were not provided:\n  --n <N>\n\n\
-                      Usage: relyard check --n <N> --coef <X> -- <SHEET>\n\nFor more \
-                      information, try '--help'.\n";
-        assert_eq!(
-            names.reword(parser),
-            "the following required arguments were not provided:\n  “Respondents (n)” (Your study)"
-        );
-        assert_eq!(
-            PageNames::of(Kind::Explain).reword("give --moderator NAME, --by COLUMN or X"),
-            "give the moderators (Explain), “Subgroups by” (Explain) or X"
-        );
-        assert_eq!(
-            names.reword(
-                "invalid value 'a' for '--coef <X>': no\n\nFor more information, try '--help'.\n"
-            ),
-            "invalid value 'a' for '“Your coefficient” (Your study)': no"
-        );
-        // A name the user gave stays, in capitals or not.
-        assert_eq!(
-            PageNames::of(Kind::CorrectRegression).reword("--predictor SES is given twice"),
-            "“Predictors” (Correction) SES is given twice"
-        );
-        // The same option is another field in another step.
-        assert_eq!(
-            PageNames::of(Kind::Correct).reword("--r needs --n"),
-            "“Observed correlation” (Correction) needs “Respondents (n)” (Correction)"
-        );
-        // An option the page has no field for stays as it is, and so does a near name.
-        let items = PageNames::of(Kind::Items);
-        assert_eq!(
-            items.reword("use --force or --items-x"),
-            "use --force or --items-x"
-        );
-        assert_eq!(
-            items.reword("--reverse needs --scale-min and --scale-max."),
-            "“Reverse-keyed items” (Your items) needs “Lowest response” (Your items) and \
-             “Highest response” (Your items)."
-        );
     }
 }
