@@ -1161,6 +1161,16 @@ fn the_explain_items_and_correction_steps_give_the_command_lines_numbers() {
     ] {
         assert_eq!(page[key], cli[key], "{key}");
     }
+    // Ordinal items: the polychoric part as the command line gives it.
+    let ordinal = s.post("/api/items?demo=1&ordinal=1", b"").json();
+    let cli_ordinal = cli_json(&[
+        "items",
+        &demo_file("candor-items.csv"),
+        "--ordinal",
+        "--json",
+    ]);
+    assert_eq!(ordinal["ordinal"], cli_ordinal["ordinal"]);
+    assert!(ordinal["ordinal"]["alpha"].as_f64().is_some());
     // An uploaded item file is read from memory, under the name the page gave.
     let items = std::fs::read(demo_file("candor-items.csv")).unwrap();
     let up = s.post("/api/items?name=mine.csv", &items).json();

@@ -159,7 +159,10 @@ const ICC_SETTINGS: Names = &[
     ("delimiter", "--delimiter", "the delimiter"),
     ("level", "--level", "the level"),
 ];
-const ITEM_FLAGS: Names = &[("pairwise", "--pairwise", "pairwise deletion")];
+const ITEM_FLAGS: Names = &[
+    ("pairwise", "--pairwise", "pairwise deletion"),
+    ("ordinal", "--ordinal", "“Ordinal items” (Your items)"),
+];
 const CORRECT_SETTINGS: Names = &[
     ("r", "--r", "“Observed correlation” (Correction)"),
     ("n", "--n", "“Respondents (n)” (Correction)"),

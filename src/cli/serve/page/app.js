@@ -363,6 +363,7 @@
     if ($("i-reverse").value.trim()) params.set("reverse", $("i-reverse").value.trim());
     if ($("i-min").value) params.set("scale_min", $("i-min").value);
     if ($("i-max").value) params.set("scale_max", $("i-max").value);
+    if ($("i-ordinal").checked) params.set("ordinal", "1");
     let body = null;
     if (useDemoItems) params.set("demo", "1");
     else { params.set("name", file.name); body = file; }
@@ -379,6 +380,13 @@
     const t = doc.tau_equivalence;
     $("i-tau").textContent = t ? "χ² = " + fmt(t.chi2, 1) + ", df " + t.df + ", p " + pvalue(t.p) : "not tested";
     $("i-sd").textContent = doc.score ? fmt(doc.score.sum_sd, 2) : "—";
+    const ord = doc.ordinal;
+    $("i-ordinal-row").hidden = !ord;
+    $("i-ordinal-caution").hidden = !ord;
+    if (ord) {
+      $("i-ordinal-alpha").textContent = typeof ord.alpha === "number" ? fmt(ord.alpha, 3) : "not available: " + (ord.note || "");
+      $("i-ordinal-caution").textContent = ord.caution || "";
+    }
     const carried = carriedCoefficient(doc);
     $("carry").disabled = !carried;
     $("carry").textContent = carried ? "Carry " + carried.kind + " = " + fmt(carried.value, 3) + " into Your study" : "Nothing to carry until the reading above is dealt with";
