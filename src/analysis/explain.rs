@@ -53,15 +53,17 @@ pub(crate) fn explain(
     warnings.extend(main.warnings.iter().cloned());
     warnings.extend(not_modelled(p, s));
     let dependent = main.dependent.is_some();
+    // Beside a multilevel fit, whole clusters are permuted, when each moderator takes one
+    // value per cluster (said in a warning when not).
+    let refused = match e.permutations {
+        Some(_) if dependent => dependent_permutation_refused(p, &main),
+        _ => None,
+    };
     let permutation = match e.permutations {
-        // Beside a multilevel fit, whole clusters are permuted, when each moderator takes
-        // one value per cluster (said in a warning when not).
-        Some(_) if dependent && dependent_permutation_refused(p, &main).is_some() => {
+        Some(_) if refused.is_some() => {
             warnings.push(Warning::PartFailed {
                 what: "the permutation test".into(),
-                why: dependent_permutation_refused(p, &main)
-                    .unwrap_or_default()
-                    .into(),
+                why: refused.unwrap_or_default().into(),
             });
             None
         }

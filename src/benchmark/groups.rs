@@ -61,15 +61,16 @@ pub fn grouping(records: &[StudyRecord]) -> Grouping {
 
 /// The rows of each named sample, samples in order of first appearance.
 fn named_samples(records: &[StudyRecord], g: &Grouping) -> Vec<Vec<usize>> {
-    let mut slot: HashMap<usize, usize> = HashMap::new();
+    // Sample numbers run from 0 in order of first appearance: each named sample's slot in
+    // `out` is found by its number.
+    let mut slot: Vec<Option<usize>> = vec![None; g.samples()];
     let mut out: Vec<Vec<usize>> = Vec::new();
     for (i, r) in records.iter().enumerate() {
         if r.sample.is_some() {
-            let next = out.len();
-            let j = *slot.entry(g.sample[i]).or_insert(next);
-            if j == out.len() {
+            let j = *slot[g.sample[i]].get_or_insert_with(|| {
                 out.push(Vec::new());
-            }
+                out.len() - 1
+            });
             out[j].push(i);
         }
     }

@@ -50,6 +50,19 @@ fn gauss_legendre(n: usize) -> Vec<(f64, f64)> {
         .collect()
 }
 
+/// The Gauss–Legendre rule of 12, 24 or 40 points, computed once.
+fn rule_of(points: usize) -> &'static [(f64, f64)] {
+    use std::sync::OnceLock;
+    static RULES: [OnceLock<Vec<(f64, f64)>>; 3] =
+        [OnceLock::new(), OnceLock::new(), OnceLock::new()];
+    let slot = match points {
+        12 => 0,
+        24 => 1,
+        _ => 2,
+    };
+    RULES[slot].get_or_init(|| gauss_legendre(points))
+}
+
 /// P(X > h, Y > k) for a standard bivariate normal with correlation r (Genz 2004: the
 /// Drezner–Wesolowsky integral of the density over the correlation for |r| < 0.925, and for
 /// larger |r| the expansion about r = ±1), with Gauss–Legendre rules of 12, 24 or 40 points.
@@ -73,7 +86,7 @@ fn upper_orthant(h: f64, k: f64, r: f64) -> f64 {
     } else {
         40
     };
-    let rule = gauss_legendre(points);
+    let rule = rule_of(points);
     let tp = 2.0 * PI;
     let hk = h * k;
     if r.abs() < 0.925 {
@@ -111,7 +124,7 @@ fn upper_orthant(h: f64, k: f64, r: f64) -> f64 {
             bvn -= (-hk / 2.0).exp() * sp * b * (1.0 - c * bs * (1.0 - d * bs) / 3.0);
         }
         a /= 2.0;
-        for &(x, w) in &rule {
+        for &(x, w) in rule {
             let xs = (a * (1.0 + x)).powi(2);
             let asr = -(bs / xs + hk) / 2.0;
             if asr > -100.0 {

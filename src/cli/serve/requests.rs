@@ -488,7 +488,6 @@ pub(super) fn analysed(
         Ok(serde_json::json!({ "title": title, "description": description, "svg": svg(f)? }))
     };
     let missing = || "the analysis gave no result".to_string();
-    let document = |d: &dyn erased::Document| d.value();
     let doc = match kind {
         Kind::Pool => {
             let b = analysis.benchmark.as_ref().ok_or_else(missing)?;
@@ -622,17 +621,9 @@ fn zipped(files: &[(String, Vec<u8>)]) -> Result<Vec<u8>, String> {
     Ok(zip.finish().map_err(|e| failed(&e))?.into_inner())
 }
 
-/// Serialising the documents, whatever their type.
-mod erased {
-    pub trait Document {
-        fn value(&self) -> Result<serde_json::Value, String>;
-    }
-
-    impl<T: serde::Serialize> Document for T {
-        fn value(&self) -> Result<serde_json::Value, String> {
-            serde_json::to_value(self).map_err(|e| e.to_string())
-        }
-    }
+/// A document as a JSON value (to add the figures to).
+fn document<T: serde::Serialize>(d: &T) -> Result<serde_json::Value, String> {
+    serde_json::to_value(d).map_err(|e| e.to_string())
 }
 
 #[cfg(test)]
