@@ -147,6 +147,14 @@ pub fn and_list(items: &[String]) -> String {
     }
 }
 
+/// [`and_list`] of at most `max` items, the rest counted ("a, b and 7 more").
+pub fn quote_list(items: &[String], max: usize) -> String {
+    if items.len() <= max {
+        return and_list(items);
+    }
+    format!("{} and {} more", items[..max].join(", "), items.len() - max)
+}
+
 /// The first letter in upper case.
 pub fn capitalized(s: &str) -> String {
     let mut c = s.chars();

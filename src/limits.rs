@@ -36,6 +36,10 @@ pub const MAX_CLUSTER_ROWS: usize = 2_000;
 /// computed above it.
 pub const MAX_FACTOR_ITEMS: usize = 1_000;
 
+/// Items the bifactor and correlated-factors models are fitted to (each evaluation of their
+/// likelihood costs O(k³)).
+pub const MAX_STRUCTURE_ITEMS: usize = 200;
+
 /// Columns of an item file (or of --data) read at all.
 pub const MAX_COLUMNS: usize = 20_000;
 

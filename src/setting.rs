@@ -107,6 +107,8 @@ pub enum Setting {
     Pairwise,
     /// Values that mean "missing".
     MissingCodes,
+    /// Groups of items (subscales) for the multidimensional models.
+    FactorGroups,
     /// Bootstrap replicates.
     Bootstrap,
     // The correction.
@@ -210,6 +212,7 @@ impl Setting {
             ResponseMax => "the highest possible response",
             Pairwise => "pairwise deletion",
             MissingCodes => "the missing-value codes",
+            FactorGroups => "the groups of items (subscales)",
             Bootstrap => "the bootstrap replicates",
             Correlation => "the observed correlation",
             CorrectionN => "the sample size",

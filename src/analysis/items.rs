@@ -1,9 +1,10 @@
 //! Reliability from raw item data: read, analysed, and omega bootstrapped on request.
 
-use super::settings::{ItemSettings, Settings};
+use super::settings::{FactorSpec, ItemSettings, Settings};
 use super::{Progress, Task, with_progress};
 use crate::error::Result;
 use crate::items::bootstrap::{OmegaBootstrap, bootstrap_omega};
+use crate::items::multidimensional::{FactorGroups, MultidimensionalAnalysis, analyze_structure};
 use crate::items::polychoric::{ordinal_alpha, polychoric_matrix};
 use crate::items::{
     ItemAnalysis, ItemData, analyze, analyze_with, read_items, read_items_from_bytes,
@@ -22,6 +23,9 @@ pub struct ItemsOutcome {
     /// The items taken as ordinal, when asked for: the polychoric correlations and ordinal
     /// alpha, or why they could not be computed.
     pub ordinal: Option<std::result::Result<OrdinalPart, String>>,
+    /// The bifactor and correlated-factors models, when groups of items were given, or why
+    /// they could not be fitted.
+    pub multidimensional: Option<std::result::Result<MultidimensionalAnalysis, String>>,
     /// Every warning (the reading's and the bootstrap's).
     pub warnings: Vec<Warning>,
 }
@@ -83,13 +87,109 @@ pub(crate) fn items(
         (true, None) => Some(Err("the rows were not kept".to_string())),
         (false, _) => None,
     };
+    let multidimensional = if i.factors.is_empty() {
+        None
+    } else {
+        let groups = resolve_groups(&i.factors, &data.names)?;
+        Some(structure(&data, groups, &mut warnings))
+    };
     Ok(ItemsOutcome {
         data,
         analysis,
         bootstrap,
         ordinal,
+        multidimensional,
         warnings,
     })
+}
+
+/// The groups of items as indices, or an error naming the item or group at fault: every
+/// item analysed in exactly one group, every item named among those analysed.
+fn resolve_groups(specs: &[FactorSpec], names: &[String]) -> Result<FactorGroups> {
+    let bad = |m: crate::Message| {
+        let m = m.prefixed(": ").prefixed(crate::Setting::FactorGroups);
+        crate::Error::setting(crate::Setting::FactorGroups, m)
+    };
+    let mut of_item: Vec<Option<usize>> = vec![None; names.len()];
+    for (g, spec) in specs.iter().enumerate() {
+        for item in &spec.items {
+            let Some(i) = names.iter().position(|n| n == item) else {
+                return Err(bad(format!(
+                    "group {} names {item:?}, which is not among the items analysed ({})",
+                    spec.name,
+                    crate::format::quote_list(names, 12)
+                )
+                .into()));
+            };
+            if let Some(h) = of_item[i] {
+                return Err(bad(format!(
+                    "item {item} is in two groups ({} and {}); each item belongs to one",
+                    specs[h].name, spec.name
+                )
+                .into()));
+            }
+            of_item[i] = Some(g);
+        }
+    }
+    let left: Vec<String> = (0..names.len())
+        .filter(|&i| of_item[i].is_none())
+        .map(|i| names[i].clone())
+        .collect();
+    if !left.is_empty() {
+        return Err(bad(crate::setting::msg![
+            format!(
+                "{} {} in no group; every item analysed belongs to exactly one (choose the \
+                 items analysed with ",
+                crate::format::quote_list(&left, 12),
+                if left.len() == 1 { "is" } else { "are" }
+            ),
+            crate::Setting::ItemColumns,
+            ")"
+        ]));
+    }
+    Ok(FactorGroups {
+        names: specs.iter().map(|s| s.name.clone()).collect(),
+        of_item: of_item.into_iter().map(|g| g.unwrap_or(0)).collect(),
+    })
+}
+
+/// The multidimensional models, or why none can be fitted (too many items, too few
+/// respondents).
+fn structure(
+    data: &ItemData,
+    groups: FactorGroups,
+    warnings: &mut Vec<Warning>,
+) -> std::result::Result<MultidimensionalAnalysis, String> {
+    let (k, n) = (data.moments.k(), data.n_used() as f64);
+    if k > crate::limits::MAX_STRUCTURE_ITEMS {
+        return Err(format!(
+            "with {} items (more than {}) the bifactor and correlated-factors models are not \
+             fitted (a bound on time, see docs/limits.md)",
+            crate::format::thousands(k as u64),
+            crate::limits::MAX_STRUCTURE_ITEMS
+        ));
+    }
+    if n <= k as f64 {
+        return Err(format!(
+            "with {n} respondents and {k} items the items' covariance matrix is singular, so \
+             no factor model can be fitted"
+        ));
+    }
+    let m = analyze_structure(&data.moments.cov, n, groups, &data.names);
+    for (what, fit) in [
+        ("the bifactor model", &m.bifactor),
+        ("the correlated-factors model", &m.correlated),
+    ] {
+        if let Ok(f) = fit
+            && !f.stop.converged()
+        {
+            warnings.push(Warning::NotConverged {
+                what: what.into(),
+                iterations: f.iterations,
+            });
+        }
+    }
+    Ok(m)
 }
 
 #[cfg(test)]

@@ -208,6 +208,18 @@ pub struct ItemSettings {
     pub bootstrap: Option<usize>,
     /// Treat the items as ordinal: polychoric correlations and ordinal alpha too.
     pub ordinal: bool,
+    /// Groups of items (subscales) for the bifactor and correlated-factors models; none
+    /// when empty.
+    pub factors: Vec<FactorSpec>,
+}
+
+/// A group of items (a subscale) named by the user, for the multidimensional models.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct FactorSpec {
+    /// The group's name.
+    pub name: String,
+    /// Its items' names.
+    pub items: Vec<String>,
 }
 
 /// Tests of equality for independent alphas: the sheet's rows (when a sheet is given) and

@@ -469,6 +469,13 @@ pub struct ItemsArgs {
     #[arg(long)]
     pub ordinal: bool,
 
+    /// A subscale: its name and its items, e.g. --factor calm=q1,q2,q3 (repeat for each
+    /// subscale; every item analysed belongs to exactly one). Adds a bifactor and a
+    /// correlated-factors model with omega total, omega hierarchical and each subscale's
+    /// omegas.
+    #[arg(long = "factor", value_name = "NAME=ITEMS")]
+    pub factors: Vec<String>,
+
     /// Print one JSON object instead of the readable summary.
     #[arg(long)]
     pub json: bool,

@@ -10,9 +10,9 @@ use super::args::{
 use super::output::{Failure, UsageError};
 use relyard::Level;
 use relyard::analysis::{
-    ComparisonSettings, CorrectionSettings, ExplainSettings, ItemSettings, ModelSettings,
-    ModeratorSettings, NewStudySettings, PlanSettings, RegressionData, Settings, SheetSettings,
-    SubsetRule,
+    ComparisonSettings, CorrectionSettings, ExplainSettings, FactorSpec, ItemSettings,
+    ModelSettings, ModeratorSettings, NewStudySettings, PlanSettings, RegressionData, Settings,
+    SheetSettings, SubsetRule,
 };
 use relyard::compare::AlphaSample;
 use relyard::correct::ReliabilitySpec;
@@ -399,6 +399,7 @@ pub fn icc(a: IccArgs) -> Result<Settings, Failure> {
             },
             bootstrap: None,
             ordinal: false,
+            factors: Vec::new(),
         }),
         level: level(a.level)?,
         ..Settings::default()
@@ -448,10 +449,48 @@ pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
             },
             bootstrap: a.bootstrap,
             ordinal: a.ordinal,
+            factors: a
+                .factors
+                .iter()
+                .enumerate()
+                .map(|(i, f)| parse_factor(f, i, &a.factors))
+                .collect::<Result<_, _>>()?,
         }),
         level: level(a.level)?,
         seed: a.seed,
         ..Settings::default()
+    })
+}
+
+/// Parse `--factor NAME=ITEM,ITEM,…` (the `index`-th of `all`, for the repeated-name check).
+fn parse_factor(spec: &str, index: usize, all: &[String]) -> Result<FactorSpec, Failure> {
+    let Some((name, items)) = spec.split_once('=') else {
+        return Err(usage(format!(
+            "--factor {spec:?}: give a group's name and its items, as NAME=ITEM,ITEM,…"
+        )));
+    };
+    let name = name.trim();
+    let items: Vec<String> = items
+        .split(',')
+        .map(|s| s.trim().to_string())
+        .filter(|s| !s.is_empty())
+        .collect();
+    if name.is_empty() || items.is_empty() {
+        return Err(usage(format!(
+            "--factor {spec:?}: give a group's name and at least one item, as NAME=ITEM,ITEM,…"
+        )));
+    }
+    let earlier = all[..index]
+        .iter()
+        .any(|s| s.split_once('=').is_some_and(|(n, _)| n.trim() == name));
+    if earlier {
+        return Err(usage(format!(
+            "--factor: the group name {name:?} is given twice"
+        )));
+    }
+    Ok(FactorSpec {
+        name: name.to_string(),
+        items,
     })
 }
 

@@ -58,6 +58,7 @@ impl SettingNames for OptionNames {
             ResponseMax => "--scale-max",
             Pairwise => "--pairwise",
             MissingCodes => "--missing-code",
+            FactorGroups => "--factor",
             Bootstrap => "--bootstrap",
             Correlation => "--r",
             CorrectionN => "--n",

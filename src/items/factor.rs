@@ -247,8 +247,14 @@ pub struct ModelFitIndices {
 /// Bulletin*, 107(2), 238–246 (CFI).
 pub fn fit_indices(cov: &DMatrix<f64>, fit: &FactorFit, n: f64) -> ModelFitIndices {
     let k = cov.nrows() as f64;
-    let df = k * (k + 1.0) / 2.0 - 2.0 * k;
-    let chi2 = (n - 1.0) * fit.discrepancy.max(0.0);
+    fit_indices_of(cov, fit.discrepancy, k * (k + 1.0) / 2.0 - 2.0 * k, n)
+}
+
+/// Fit indices of any covariance structure fitted by maximum likelihood, from its minimized
+/// discrepancy and its degrees of freedom (see [`fit_indices`]).
+pub fn fit_indices_of(cov: &DMatrix<f64>, discrepancy: f64, df: f64, n: f64) -> ModelFitIndices {
+    let k = cov.nrows() as f64;
+    let chi2 = (n - 1.0) * discrepancy.max(0.0);
     if df <= 0.0 {
         return ModelFitIndices {
             chi2,

@@ -8,6 +8,7 @@ mod cells;
 pub mod factor;
 mod fast;
 pub mod moments;
+pub mod multidimensional;
 pub mod polychoric;
 pub mod read;
 

@@ -26,7 +26,9 @@ Sources of the computations:
   * intraclass correlations: statsmodels' analysis of variance and scipy.stats.f in
     icc_reference.py;
   * polychoric correlations: the bivariate normal by scipy.integrate.quad and the two-step
-    maximum likelihood by scipy.optimize in polychoric_reference.py.
+    maximum likelihood by scipy.optimize in polychoric_reference.py;
+  * bifactor and correlated-factors models: the ML discrepancy in numpy minimized by
+    scipy.optimize (L-BFGS-B) in multidimensional_reference.py.
 """
 
 import json
@@ -44,6 +46,7 @@ sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 from multilevel_reference import multilevel_fixture  # noqa: E402
 from icc_reference import icc_fixture  # noqa: E402
 from polychoric_reference import polychoric_fixture  # noqa: E402
+from multidimensional_reference import multidimensional_fixture  # noqa: E402
 
 SCRIPT = "tests/reference/make_fixtures.py"
 
@@ -992,7 +995,8 @@ def main():
                        ("inference.json", inference_fixture),
                        ("multilevel.json", lambda: multilevel_fixture(stamp)),
                        ("icc.json", lambda: icc_fixture(stamp)),
-                       ("polychoric.json", lambda: polychoric_fixture(stamp))]:
+                       ("polychoric.json", lambda: polychoric_fixture(stamp)),
+                       ("multidimensional.json", lambda: multidimensional_fixture(stamp))]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

@@ -364,3 +364,170 @@ mod review {
         assert!(text.contains("forms of different lengths"), "{text}");
     }
 }
+
+/// The fixture's invented item data (multidimensional_reference.py) as a CSV with named
+/// items: c* calm, f* focus, d* drive.
+fn subscale_items(dir: &std::path::Path) -> String {
+    let f = fixture("multidimensional.json");
+    let names = [
+        "c1", "c2", "c3", "c4", "f1", "f2", "f3", "f4", "d1", "d2", "d3", "d4",
+    ];
+    let mut text = names.join(",");
+    text.push('\n');
+    for row in f["data"]["responses"].as_array().unwrap() {
+        let cells: Vec<String> = floats(row).iter().map(|x| x.to_string()).collect();
+        text.push_str(&cells.join(","));
+        text.push('\n');
+    }
+    write_file(dir, "subscales.csv", text.as_bytes())
+}
+
+const GROUPS: [&str; 6] = [
+    "--factor",
+    "calm=c1,c2,c3,c4",
+    "--factor",
+    "focus=f1,f2,f3,f4",
+    "--factor",
+    "drive=d1,d2,d3,d4",
+];
+
+/// Issue 14 item 2: `items --factor` reports the bifactor coefficients and both models' fit
+/// as the scipy reference found them, in text and JSON.
+#[test]
+fn subscales_give_the_reference_coefficients() {
+    let dir = scratch("subscales");
+    let file = subscale_items(&dir);
+    let mut args = vec!["items", file.as_str(), "--json"];
+    args.extend(GROUPS);
+    let j = json_ok(&args);
+    let m = &j["multidimensional"];
+    let want = &fixture("multidimensional.json")["data"];
+    let c = &want["bifactor"]["coefficients"];
+    for key in ["omega_total", "omega_hierarchical", "ecv"] {
+        assert_close(
+            m[key].as_f64().unwrap(),
+            c[key].as_f64().unwrap(),
+            1e-6,
+            1e-8,
+            key,
+        );
+    }
+    let subs = m["subscales"].as_array().unwrap();
+    assert_eq!(subs.len(), 3);
+    for (g, w) in subs.iter().zip(c["subscales"].as_array().unwrap()) {
+        assert_eq!(g["name"], w["name"]);
+        for key in ["omega", "omega_hierarchical_subscale"] {
+            assert_close(
+                g[key].as_f64().unwrap(),
+                w[key].as_f64().unwrap(),
+                1e-6,
+                1e-8,
+                key,
+            );
+        }
+    }
+    for (key, model) in [
+        ("fit_bifactor", "bifactor"),
+        ("fit_correlated", "correlated"),
+    ] {
+        let (g, w) = (&m[key], &want[model]["fit"]);
+        assert_close(
+            g["chi2"].as_f64().unwrap(),
+            w["chi2"].as_f64().unwrap(),
+            1e-6,
+            1e-8,
+            key,
+        );
+        assert_eq!(g["df"], w["df"]);
+        assert_close(
+            g["cfi"].as_f64().unwrap(),
+            w["cfi"].as_f64().unwrap(),
+            1e-6,
+            1e-8,
+            key,
+        );
+    }
+    assert_eq!(m["general_factor"], "not_strong");
+    assert_eq!(m["groups"][1]["items"][3], "f4");
+    assert_eq!(m["bifactor_loadings"].as_array().unwrap().len(), 12);
+    let reading = m["reading"].as_str().unwrap();
+    assert!(reading.contains("do not read the subscales"), "{reading}");
+    // The readable summary shows the same coefficients.
+    let mut args = vec!["items", file.as_str()];
+    args.extend(GROUPS);
+    let out = run_ok(&args);
+    let text = String::from_utf8_lossy(&out.stdout);
+    let total = format!(
+        "omega total               {:.3}",
+        c["omega_total"].as_f64().unwrap()
+    );
+    assert!(text.contains(&total), "{text}");
+    assert!(text.contains("correlated factors χ²(51)"), "{text}");
+}
+
+/// Groups that cannot be used are refused with the item and group named (exit 2); a group
+/// of two items leaves out the bifactor model with the reason and keeps the correlated one.
+#[test]
+fn bad_groups_are_refused_and_small_groups_explained() {
+    let dir = scratch("subscales-bad");
+    let file = subscale_items(&dir);
+    let f = file.as_str();
+    fails_with(
+        &[
+            "items",
+            f,
+            "--factor",
+            "calm=c1,c2,c3,c4,q9",
+            "--factor",
+            "rest=f1,f2,f3,f4,d1,d2,d3,d4",
+        ],
+        &["group calm names \"q9\"", "--factor"],
+    );
+    fails_with(
+        &[
+            "items",
+            f,
+            "--factor",
+            "calm=c1,c2,c3,c4,f1",
+            "--factor",
+            "rest=f1,f2,f3,f4,d1,d2,d3,d4",
+        ],
+        &["item f1 is in two groups (calm and rest)"],
+    );
+    fails_with(
+        &[
+            "items",
+            f,
+            "--factor",
+            "calm=c1,c2,c3,c4",
+            "--factor",
+            "focus=f1,f2,f3,f4",
+        ],
+        &["d1, d2, d3 and d4 are in no group", "--items"],
+    );
+    fails_with(&["items", f, "--factor", "calm"], &["NAME=ITEM,ITEM"]);
+    fails_with(
+        &["items", f, "--factor", "a=c1", "--factor", "a=c2"],
+        &["\"a\" is given twice"],
+    );
+    let j = json_ok(&[
+        "items",
+        f,
+        "--items",
+        "c1,c2,c3,c4,f1,f2",
+        "--json",
+        "--factor",
+        "calm=c1,c2,c3,c4",
+        "--factor",
+        "focus=f1,f2",
+    ]);
+    let m = &j["multidimensional"];
+    assert!(m["omega_hierarchical"].is_null());
+    let note = m["bifactor_note"].as_str().unwrap();
+    assert!(
+        note.contains("at least three items") && note.contains("focus"),
+        "{note}"
+    );
+    assert!(m["fit_correlated"]["chi2"].as_f64().unwrap() > 0.0);
+    assert_eq!(m["factor_correlations"].as_array().unwrap().len(), 2);
+}

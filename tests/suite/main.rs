@@ -22,6 +22,7 @@ mod reference_correct;
 mod reference_icc;
 mod reference_items;
 mod reference_metareg;
+mod reference_multidimensional;
 mod reference_multilevel;
 mod reference_polychoric;
 mod reference_pool;

@@ -221,6 +221,17 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
         b"a,b\n1,2\n2,3\n3,1\n4,5\n5,4\n6,7\n7,6\n8,9\n9,8\n10,11\n11,10\n12,1\n",
     );
     printed.extend(paths(&run(&["items", &wide, "--ordinal"])));
+    // Subscales: both models.
+    printed.extend(paths(&run(&[
+        "items",
+        &demo("candor-items.csv"),
+        "--factor",
+        "a=btci_01,btci_02,btci_03,btci_04",
+        "--factor",
+        "b=btci_05,btci_06,btci_07",
+        "--factor",
+        "c=btci_08,btci_09,btci_10",
+    ])));
     compare_sets("items", &doc.sections["items"], &printed);
 
     // A table with a missing cell (a warning printed) and an identifier column.

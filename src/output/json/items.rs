@@ -72,6 +72,8 @@ pub struct ItemsDocument {
     pub reading: String,
     /// The items taken as ordinal (with `--ordinal`).
     pub ordinal: Option<OrdinalRecord>,
+    /// The bifactor and correlated-factors models (with `--factor`).
+    pub multidimensional: Option<MultidimensionalRecord>,
     /// Warnings.
     pub warnings: Vec<WarningRecord>,
 }
@@ -141,6 +143,25 @@ pub struct FitRecord {
     pub iterations: usize,
     /// Why the fit stopped.
     pub termination: MinimizeStop,
+}
+
+impl FitRecord {
+    /// A fit's indices with its iterations and why it stopped.
+    fn of(
+        ix: &crate::items::factor::ModelFitIndices,
+        iterations: usize,
+        stop: MinimizeStop,
+    ) -> Self {
+        FitRecord {
+            chi2: ix.chi2,
+            df: ix.df,
+            p: ix.p,
+            rmsea: ix.rmsea,
+            cfi: ix.cfi,
+            iterations,
+            termination: stop,
+        }
+    }
 }
 
 /// The bootstrap run.
@@ -219,15 +240,7 @@ impl ItemsDocument {
                 df: f.tau_test.df,
                 p: f.tau_test.p,
             }),
-            fit: f.map(|f| FitRecord {
-                chi2: f.fit.chi2,
-                df: f.fit.df,
-                p: f.fit.p,
-                rmsea: f.fit.rmsea,
-                cfi: f.fit.cfi,
-                iterations: f.congeneric.iterations,
-                termination: f.congeneric.stop,
-            }),
+            fit: f.map(|f| FitRecord::of(&f.fit, f.congeneric.iterations, f.congeneric.stop)),
             factor_note: a.factor.as_ref().err().cloned(),
             item_statistics: a
                 .item_statistics
@@ -252,6 +265,10 @@ impl ItemsDocument {
             recommendation: a.recommendation,
             reading: a.reading.render(names),
             ordinal: o.ordinal.as_ref().map(OrdinalRecord::from),
+            multidimensional: o
+                .multidimensional
+                .as_ref()
+                .map(|m| MultidimensionalRecord::new(m, cov, &d.names)),
             warnings: super::warnings(&o.warnings, names),
         }
     }
@@ -504,6 +521,171 @@ impl PlanDocument {
             n: o.size.n,
             n_exact: o.size.exact,
             inputs: inputs.into_iter().collect(),
+        }
+    }
+}
+
+/// The bifactor and correlated-factors models of `--factor`.
+#[derive(Debug, Clone, Serialize)]
+pub struct MultidimensionalRecord {
+    /// The groups as given: each name and its items.
+    pub groups: Vec<GroupRecord>,
+    /// Omega total of the bifactor model (null without one).
+    pub omega_total: Option<f64>,
+    /// Omega hierarchical (null without a bifactor model).
+    pub omega_hierarchical: Option<f64>,
+    /// Explained common variance of the general factor (null without a bifactor model).
+    pub ecv: Option<f64>,
+    /// "strong" or "not_strong" (null without a bifactor model).
+    pub general_factor: Option<crate::items::multidimensional::GeneralFactor>,
+    /// Each subscale's omega and omega-hierarchical-subscale (empty without a bifactor
+    /// model).
+    pub subscales: Vec<SubscaleRecord>,
+    /// The bifactor model's fit (null when it was not fitted).
+    pub fit_bifactor: Option<FitRecord>,
+    /// The correlated-factors model's fit (null when it was not fitted).
+    pub fit_correlated: Option<FitRecord>,
+    /// The bifactor model's standardized loadings and uniquenesses, one entry per item.
+    pub bifactor_loadings: Vec<LoadingRecord>,
+    /// The correlated-factors model's standardized loadings (general: null).
+    pub correlated_loadings: Vec<LoadingRecord>,
+    /// The correlated-factors model's factor correlations, by rows in the groups' order.
+    pub factor_correlations: Option<Vec<Vec<f64>>>,
+    /// Items with a Heywood case in the bifactor model.
+    pub heywood_items: Vec<String>,
+    /// Why the bifactor model was not fitted, when it was not.
+    pub bifactor_note: Option<String>,
+    /// Why the correlated-factors model was not fitted, when it was not.
+    pub correlated_note: Option<String>,
+    /// Which score to interpret and which coefficient to carry forward, in words.
+    pub reading: String,
+}
+
+/// A group of items.
+#[derive(Debug, Clone, Serialize)]
+pub struct GroupRecord {
+    /// Name.
+    pub name: String,
+    /// Its items.
+    pub items: Vec<String>,
+}
+
+/// One subscale's coefficients.
+#[derive(Debug, Clone, Serialize)]
+pub struct SubscaleRecord {
+    /// Name.
+    pub name: String,
+    /// Omega of the subscale's sum (general and group factor).
+    pub omega: f64,
+    /// Omega-hierarchical-subscale (its group factor alone).
+    pub omega_hierarchical_subscale: f64,
+}
+
+/// One item's standardized loadings.
+#[derive(Debug, Clone, Serialize)]
+pub struct LoadingRecord {
+    /// Item.
+    pub item: String,
+    /// Its group.
+    pub group: String,
+    /// Loading on the general factor (null in the correlated-factors model).
+    pub general: Option<f64>,
+    /// Loading on its group factor.
+    pub group_loading: f64,
+    /// Uniqueness (standardized).
+    pub uniqueness: f64,
+}
+
+impl MultidimensionalRecord {
+    fn new(
+        m: &std::result::Result<crate::items::multidimensional::MultidimensionalAnalysis, String>,
+        cov: &nalgebra::DMatrix<f64>,
+        names: &[String],
+    ) -> Self {
+        use crate::items::multidimensional::StructuredFit;
+        let m = match m {
+            Ok(m) => m,
+            Err(why) => {
+                return MultidimensionalRecord {
+                    groups: Vec::new(),
+                    omega_total: None,
+                    omega_hierarchical: None,
+                    ecv: None,
+                    general_factor: None,
+                    subscales: Vec::new(),
+                    fit_bifactor: None,
+                    fit_correlated: None,
+                    bifactor_loadings: Vec::new(),
+                    correlated_loadings: Vec::new(),
+                    factor_correlations: None,
+                    heywood_items: Vec::new(),
+                    bifactor_note: Some(why.clone()),
+                    correlated_note: Some(why.clone()),
+                    reading: format!("no multidimensional model: {why}"),
+                };
+            }
+        };
+        let g = &m.groups;
+        let loadings = |f: &StructuredFit| -> Vec<LoadingRecord> {
+            let (general, own) = f.standardized(cov);
+            (0..names.len())
+                .map(|i| LoadingRecord {
+                    item: names[i].clone(),
+                    group: g.names[g.of_item[i]].clone(),
+                    general: general.get(i).copied(),
+                    group_loading: own[i],
+                    uniqueness: f.uniquenesses[i] / cov[(i, i)],
+                })
+                .collect()
+        };
+        let fit = |f: &std::result::Result<StructuredFit, String>,
+                   ix: &Option<crate::items::factor::ModelFitIndices>| {
+            match (f, ix) {
+                (Ok(f), Some(ix)) => Some(FitRecord::of(ix, f.iterations, f.stop)),
+                _ => None,
+            }
+        };
+        let o = m.omegas.as_ref();
+        MultidimensionalRecord {
+            groups: (0..g.count())
+                .map(|h| GroupRecord {
+                    name: g.names[h].clone(),
+                    items: g.members(h).iter().map(|&i| names[i].clone()).collect(),
+                })
+                .collect(),
+            omega_total: o.map(|o| o.omega_total),
+            omega_hierarchical: o.map(|o| o.omega_hierarchical),
+            ecv: o.map(|o| o.ecv),
+            general_factor: m.general_factor,
+            subscales: o
+                .map(|o| {
+                    o.subscales
+                        .iter()
+                        .map(|s| SubscaleRecord {
+                            name: s.name.clone(),
+                            omega: s.omega,
+                            omega_hierarchical_subscale: s.omega_hierarchical_subscale,
+                        })
+                        .collect()
+                })
+                .unwrap_or_default(),
+            fit_bifactor: fit(&m.bifactor, &m.fit_bifactor),
+            fit_correlated: fit(&m.correlated, &m.fit_correlated),
+            bifactor_loadings: m.bifactor.as_ref().map(loadings).unwrap_or_default(),
+            correlated_loadings: m.correlated.as_ref().map(loadings).unwrap_or_default(),
+            factor_correlations: m.correlated.as_ref().ok().map(|f| {
+                (0..f.correlations.nrows())
+                    .map(|r| f.correlations.row(r).iter().copied().collect())
+                    .collect()
+            }),
+            heywood_items: m
+                .bifactor
+                .as_ref()
+                .map(|f| f.heywood.iter().map(|&i| names[i].clone()).collect())
+                .unwrap_or_default(),
+            bifactor_note: m.bifactor.as_ref().err().cloned(),
+            correlated_note: m.correlated.as_ref().err().cloned(),
+            reading: m.reading.clone(),
         }
     }
 }

@@ -4,6 +4,7 @@ use super::read_with_care;
 use crate::analysis::{Comparison, ItemsOutcome, PlanOutcome};
 use crate::format::{fixed, p_value, range, thousands, wrap};
 use crate::items::bootstrap::OmegaBootstrap;
+use crate::items::multidimensional::MultidimensionalAnalysis;
 use crate::items::{FactorPart, ItemAnalysis, ItemData, Missing, Recommendation};
 use crate::level::Level;
 use crate::numeric::MinimizeStop;
@@ -48,6 +49,14 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
         Some(Err(why)) => {
             let _ = writeln!(o);
             let _ = writeln!(o, "Taken as ordinal: not available: {why}");
+        }
+        None => {}
+    }
+    match &o_.multidimensional {
+        Some(Ok(m)) => subscales(&mut o, m, &d.names),
+        Some(Err(why)) => {
+            let _ = writeln!(o);
+            let _ = writeln!(o, "Subscales: not available: {why}");
         }
         None => {}
     }
@@ -209,6 +218,110 @@ fn bootstrap_interval(b: &OmegaBootstrap, missing: Missing) -> String {
 }
 
 /// The one-factor model: its fit, the test of tau-equivalence and the estimation.
+/// The bifactor and correlated-factors models: the coefficients, each subscale, both fits
+/// and the reading.
+fn subscales(o: &mut String, m: &MultidimensionalAnalysis, names: &[String]) {
+    let g = &m.groups;
+    let _ = writeln!(o);
+    let _ = writeln!(
+        o,
+        "Subscales: {} groups of items ({})",
+        g.count(),
+        (0..g.count())
+            .map(|h| format!("{} {}", g.names[h], g.members(h).len()))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
+    if let Some(c) = &m.omegas {
+        let _ = writeln!(o, "  omega total               {}", fixed(c.omega_total, 3));
+        let _ = writeln!(
+            o,
+            "  omega hierarchical        {}  (the general factor alone)",
+            fixed(c.omega_hierarchical, 3)
+        );
+        let _ = writeln!(o, "  explained common variance {}", fixed(c.ecv, 3));
+        let width = c
+            .subscales
+            .iter()
+            .map(|s| s.name.chars().count())
+            .max()
+            .unwrap_or(0)
+            .max(8);
+        let _ = writeln!(
+            o,
+            "  {:<width$}  items  omega  own (omega-hierarchical-subscale)",
+            "subscale"
+        );
+        for s in &c.subscales {
+            let _ = writeln!(
+                o,
+                "  {:<width$}  {:>5}  {}  {}",
+                s.name,
+                s.items.len(),
+                fixed(s.omega, 3),
+                fixed(s.omega_hierarchical_subscale, 3)
+            );
+        }
+    }
+    let _ = writeln!(o, "  Models (maximum likelihood)");
+    for (label, fit, ix) in [
+        ("bifactor", &m.bifactor, &m.fit_bifactor),
+        ("correlated factors", &m.correlated, &m.fit_correlated),
+    ] {
+        let words = match (fit, ix) {
+            (Ok(f), Some(ix)) => {
+                let conv = if f.stop.converged() {
+                    format!("converged in {} iterations", f.iterations)
+                } else {
+                    format!(
+                        "NOT converged ({:?}) after {} iterations",
+                        f.stop, f.iterations
+                    )
+                };
+                match (ix.p, ix.rmsea, ix.cfi) {
+                    (Some(p), Some(r), Some(c)) => format!(
+                        "χ²({}) = {}, p {}; RMSEA {}; CFI {}; {conv}",
+                        ix.df,
+                        fixed(ix.chi2, 2),
+                        p_value(p),
+                        fixed(r, 3),
+                        fixed(c, 3)
+                    ),
+                    _ => format!("no degrees of freedom to test it; {conv}"),
+                }
+            }
+            (Err(why), _) => format!("not fitted: {why}"),
+            _ => "not fitted".to_string(),
+        };
+        model_line(o, label, &words);
+    }
+    if let Ok(f) = &m.correlated {
+        let pairs: Vec<String> = (1..g.count())
+            .flat_map(|a| (0..a).map(move |b| (b, a)))
+            .map(|(a, b)| {
+                format!(
+                    "{}–{} {}",
+                    g.names[a],
+                    g.names[b],
+                    fixed(f.correlations[(a, b)], 3)
+                )
+            })
+            .collect();
+        model_line(o, "correlations", &pairs.join(", "));
+    }
+    if let Ok(f) = &m.bifactor
+        && !f.heywood.is_empty()
+    {
+        let items: Vec<String> = f.heywood.iter().map(|&i| names[i].clone()).collect();
+        model_line(o, "Heywood cases", &items.join(", "));
+    }
+    o.push_str(&wrap(
+        &format!("{}.", crate::format::capitalized(&m.reading)),
+        86,
+        "  ",
+    ));
+}
+
 fn factor_model(o: &mut String, f: &FactorPart) {
     let _ = writeln!(o);
     let _ = writeln!(o, "  One-factor model");
