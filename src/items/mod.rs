@@ -7,6 +7,7 @@ pub mod bootstrap;
 mod cells;
 pub mod factor;
 mod fast;
+pub mod glb;
 pub mod moments;
 pub mod multidimensional;
 pub mod polychoric;
@@ -127,6 +128,8 @@ pub struct ItemAnalysis {
     pub score: ScaleScore,
     /// The one-factor models, or why there are none.
     pub factor: std::result::Result<FactorPart, String>,
+    /// The greatest lower bound, or why it was not computed.
+    pub glb: std::result::Result<glb::GreatestLowerBound, String>,
     /// Which coefficient to carry forward.
     pub recommendation: Recommendation,
     /// The reading in words.
@@ -194,6 +197,7 @@ pub fn analyze_with(
         ]));
     }
     let factor = fit_factor(cov, n, &data.names, data.missing, &mut warnings, tick);
+    let glb = lower_bound(cov, n, k, &mut warnings);
     let (recommendation, reading) = read(a, &factor, &data.names, k);
     Ok(ItemAnalysis {
         n_used,
@@ -207,10 +211,42 @@ pub fn analyze_with(
         score: ScaleScore::of(&mean, cov),
         item_statistics: stats,
         factor,
+        glb,
         recommendation,
         reading,
         warnings,
     })
+}
+
+/// The greatest lower bound, or why it is not computed (too many items, a covariance matrix
+/// that is not positive definite).
+fn lower_bound(
+    cov: &nalgebra::DMatrix<f64>,
+    n: f64,
+    k: usize,
+    warnings: &mut Vec<Warning>,
+) -> std::result::Result<glb::GreatestLowerBound, String> {
+    if k > crate::limits::MAX_GLB_ITEMS {
+        return Err(format!(
+            "with {} items (more than {}) the greatest lower bound is not computed (a bound on \
+             time, see docs/limits.md)",
+            crate::format::thousands(k as u64),
+            crate::limits::MAX_GLB_ITEMS
+        ));
+    }
+    if n <= k as f64 {
+        return Err(
+            "the items' covariance matrix is singular (fewer respondents than items)".into(),
+        );
+    }
+    let g = glb::greatest_lower_bound(cov).map_err(|e| e.to_string())?;
+    if !g.converged {
+        warnings.push(Warning::NotConverged {
+            what: "the greatest lower bound".into(),
+            iterations: g.newton_steps,
+        });
+    }
+    Ok(g)
 }
 
 fn fit_factor(

@@ -28,7 +28,9 @@ Sources of the computations:
   * polychoric correlations: the bivariate normal by scipy.integrate.quad and the two-step
     maximum likelihood by scipy.optimize in polychoric_reference.py;
   * bifactor and correlated-factors models: the ML discrepancy in numpy minimized by
-    scipy.optimize (L-BFGS-B) in multidimensional_reference.py.
+    scipy.optimize (L-BFGS-B) in multidimensional_reference.py;
+  * the greatest lower bound: minimum-trace factor analysis as a constrained least-trace
+    factorization solved by scipy.optimize (SLSQP) in glb_reference.py.
 """
 
 import json
@@ -47,6 +49,7 @@ from multilevel_reference import multilevel_fixture  # noqa: E402
 from icc_reference import icc_fixture  # noqa: E402
 from polychoric_reference import polychoric_fixture  # noqa: E402
 from multidimensional_reference import multidimensional_fixture  # noqa: E402
+from glb_reference import glb_fixture  # noqa: E402
 
 SCRIPT = "tests/reference/make_fixtures.py"
 
@@ -996,7 +999,8 @@ def main():
                        ("multilevel.json", lambda: multilevel_fixture(stamp)),
                        ("icc.json", lambda: icc_fixture(stamp)),
                        ("polychoric.json", lambda: polychoric_fixture(stamp)),
-                       ("multidimensional.json", lambda: multidimensional_fixture(stamp))]:
+                       ("multidimensional.json", lambda: multidimensional_fixture(stamp)),
+                       ("glb.json", lambda: glb_fixture(stamp))]:
         with open(os.path.join(out_dir, name), "w", encoding="utf-8") as fh:
             json.dump(make(), fh, indent=1, sort_keys=True, allow_nan=False)
             fh.write("\n")

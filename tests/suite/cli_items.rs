@@ -531,3 +531,44 @@ fn bad_groups_are_refused_and_small_groups_explained() {
     assert!(m["fit_correlated"]["chi2"].as_f64().unwrap() > 0.0);
     assert_eq!(m["factor_correlations"].as_array().unwrap().len(), 2);
 }
+
+/// Issue 14 item 4: `items` reports the greatest lower bound between λ2 and 1, marks a
+/// sample below 1,000 respondents and says that it is a lower bound (over-correction).
+#[test]
+fn the_greatest_lower_bound_is_reported_with_its_cautions() {
+    let d = demo_items();
+    let j = json_ok(&[
+        "items",
+        &d,
+        "--items",
+        ITEMS,
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    let g = &j["glb"];
+    let (value, l2) = (g["value"].as_f64().unwrap(), j["lambda2"].as_f64().unwrap());
+    assert!(l2 <= value && value < 1.0, "λ2 {l2}, glb {value}");
+    assert_eq!(g["converged"], true);
+    assert_eq!(g["small_sample"], true);
+    let caution = g["caution"].as_str().unwrap();
+    assert!(
+        caution.contains("over-corrects") && caution.contains("1,000"),
+        "{caution}"
+    );
+    // Two respondents fewer than items: not computed, and why.
+    let dir = scratch("glb-few");
+    let few = write_file(&dir, "few.csv", b"a,b,c,d\n1,2,3,4\n2,3,5,4\n4,4,4,5\n");
+    let j = json_ok(&["items", &few, "--json"]);
+    assert!(j["glb"]["value"].is_null());
+    assert!(
+        j["glb"]["note"]
+            .as_str()
+            .unwrap()
+            .contains("fewer respondents than items")
+    );
+}

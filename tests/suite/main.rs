@@ -19,6 +19,7 @@ mod output_schema;
 mod properties;
 mod published_bcg;
 mod reference_correct;
+mod reference_glb;
 mod reference_icc;
 mod reference_items;
 mod reference_metareg;

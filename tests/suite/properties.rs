@@ -172,3 +172,34 @@ fn identical_coefficients_and_the_knapp_hartung_floor() {
     assert!(floor.tau2_ci.unwrap().upper_at_zero);
     assert!(floor.prediction_at_tau2_upper.is_none());
 }
+
+proptest! {
+    #![proptest_config(config())]
+
+    /// Issue 14 item 4: α ≤ λ2 ≤ glb ≤ 1 for any positive definite covariance matrix
+    /// (Jackson & Agunwamba 1977; Ten Berge & Sočan 2004), and Σ − Ψ* is positive
+    /// semidefinite with Ψ* ≥ 0.
+    #[test]
+    fn lower_bounds_are_ordered(
+        (k, cells, extra) in (3usize..9).prop_flat_map(|k| (
+            Just(k),
+            prop::collection::vec(-1.0f64..1.0, k * (k + 2)),
+            prop::collection::vec(0.01f64..1.0, k),
+        ))
+    ) {
+        use relyard::items::alpha::{alpha, lambda2};
+        let b = nalgebra::DMatrix::from_fn(k, k + 2, |i, j| cells[i * (k + 2) + j]);
+        let s = &b * b.transpose()
+            + nalgebra::DMatrix::from_diagonal(&nalgebra::DVector::from_column_slice(&extra));
+        let g = relyard::items::glb::greatest_lower_bound(&s).unwrap();
+        prop_assert!(g.converged);
+        let (a, l2) = (alpha(&s), lambda2(&s));
+        prop_assert!(a <= l2 + 1e-10, "alpha {} > lambda2 {}", a, l2);
+        prop_assert!(l2 <= g.value + 1e-8, "lambda2 {} > glb {}", l2, g.value);
+        prop_assert!(g.value <= 1.0 + 1e-12);
+        prop_assert!(g.error_variances.iter().all(|v| *v >= 0.0));
+        let rest = &s - nalgebra::DMatrix::from_diagonal(
+            &nalgebra::DVector::from_column_slice(&g.error_variances));
+        prop_assert!(rest.symmetric_eigenvalues().min() > -1e-8);
+    }
+}

@@ -38,6 +38,8 @@ pub struct ItemsDocument {
     pub alpha_ci_bonett: [f64; 2],
     /// Guttman's λ2.
     pub lambda2: f64,
+    /// The greatest lower bound.
+    pub glb: GlbRecord,
     /// Omega (null when the one-factor model could not be fitted).
     pub omega: Option<f64>,
     /// Bootstrap interval of omega.
@@ -214,6 +216,7 @@ impl ItemsDocument {
             alpha_ci_feldt: [a.alpha_ci_feldt.0, a.alpha_ci_feldt.1],
             alpha_ci_bonett: [a.alpha_ci_bonett.0, a.alpha_ci_bonett.1],
             lambda2: a.lambda2,
+            glb: GlbRecord::new(&a.glb, a.n_used),
             omega: a.omega(),
             omega_ci: boot.map(|b| [b.interval.0, b.interval.1]),
             bootstrap: boot.map(|b| BootstrapRecord {
@@ -686,6 +689,43 @@ impl MultidimensionalRecord {
             bifactor_note: m.bifactor.as_ref().err().cloned(),
             correlated_note: m.correlated.as_ref().err().cloned(),
             reading: m.reading.clone(),
+        }
+    }
+}
+
+/// What the greatest lower bound is and is not.
+pub const GLB_CAUTION: &str = "The greatest lower bound is the smallest reliability the items' \
+covariances allow: like alpha it is a lower bound, so carried into a correction for \
+measurement error it over-corrects (less than alpha does). Estimated from a sample it is \
+biased upward, noticeably below about 1,000 respondents (Shapiro & Ten Berge 2000), so it can \
+exceed the reliability it bounds.";
+
+/// The greatest lower bound.
+#[derive(Debug, Clone, Serialize)]
+pub struct GlbRecord {
+    /// The glb (null when it was not computed).
+    pub value: Option<f64>,
+    /// Whether the search reached its tolerance (null when not computed).
+    pub converged: Option<bool>,
+    /// Newton steps of the search (null when not computed).
+    pub newton_steps: Option<usize>,
+    /// Fewer than 1,000 respondents: the upward bias is noticeable.
+    pub small_sample: bool,
+    /// Why it was not computed.
+    pub note: Option<String>,
+    /// What it is and is not.
+    pub caution: &'static str,
+}
+
+impl GlbRecord {
+    fn new(g: &std::result::Result<crate::items::glb::GreatestLowerBound, String>, n: u64) -> Self {
+        GlbRecord {
+            value: g.as_ref().ok().map(|g| g.value),
+            converged: g.as_ref().ok().map(|g| g.converged),
+            newton_steps: g.as_ref().ok().map(|g| g.newton_steps),
+            small_sample: n < crate::items::glb::LARGE_SAMPLE,
+            note: g.as_ref().err().cloned(),
+            caution: GLB_CAUTION,
         }
     }
 }

@@ -14,7 +14,7 @@ mod report;
 pub use correct::{CorrectionDocument, CorrelationDocument, RegressionDocument, SEM_NOTE};
 pub use explain::ExplainDocument;
 pub use icc::IccDocument;
-pub use items::{CompareDocument, ItemsDocument, ORDINAL_CAUTION, PlanDocument};
+pub use items::{CompareDocument, GLB_CAUTION, ItemsDocument, ORDINAL_CAUTION, PlanDocument};
 pub use place::CheckDocument;
 pub use pool::{DependenceRecord, PoolDocument};
 pub use report::{ReportInput, ResultsDocument};

@@ -36,6 +36,11 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
         recommendation_words(a.recommendation)
     );
     o.push_str(&wrap(&format!("{}.", a.reading.render(names)), 86, "  "));
+    if a.glb.is_ok() {
+        let _ = writeln!(o);
+        let _ = writeln!(o, "About the greatest lower bound:");
+        o.push_str(&wrap(crate::output::json::GLB_CAUTION, 86, "  "));
+    }
     match &o_.ordinal {
         Some(Ok(p)) => {
             let _ = writeln!(o);
@@ -175,6 +180,19 @@ fn coefficient_rows(o: &mut String, o_: &ItemsOutcome, names: &dyn SettingNames)
         c3(a.alpha_standardized)
     );
     let _ = writeln!(o, "  {:<30}{}", "Guttman's λ2", c3(a.lambda2));
+    match &a.glb {
+        Ok(g) => {
+            let small = if a.n_used < crate::items::glb::LARGE_SAMPLE {
+                "  (biased upward below ~1,000 respondents)"
+            } else {
+                ""
+            };
+            let _ = writeln!(o, "  {:<30}{}{small}", "greatest lower bound", c3(g.value));
+        }
+        Err(why) => {
+            let _ = writeln!(o, "  {:<30}not available: {why}", "greatest lower bound");
+        }
+    }
     if let Ok(f) = &a.factor {
         let ci = o_
             .bootstrap
