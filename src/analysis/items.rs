@@ -5,7 +5,7 @@ use super::{Progress, Task, with_progress};
 use crate::error::Result;
 use crate::items::bootstrap::{OmegaBootstrap, bootstrap_omega};
 use crate::items::multidimensional::{FactorGroups, MultidimensionalAnalysis, analyze_structure};
-use crate::items::polychoric::{ordinal_alpha, polychoric_matrix};
+use crate::items::polychoric::{categorical_omega, ordinal_alpha, ordinal_items};
 use crate::items::{
     ItemAnalysis, ItemData, analyze, analyze_with, read_items, read_items_from_bytes,
 };
@@ -37,6 +37,9 @@ pub struct OrdinalPart {
     pub polychoric: nalgebra::DMatrix<f64>,
     /// Ordinal alpha: alpha of that matrix.
     pub alpha: f64,
+    /// Categorical omega (Green & Yang 2009) from a one-factor model of the polychoric
+    /// matrix, or why it could not be computed.
+    pub omega: std::result::Result<f64, String>,
 }
 
 /// Items from which the factor fits are shown as progress (they take seconds only for
@@ -77,10 +80,11 @@ pub(crate) fn items(
     };
     let ordinal = match (i.ordinal, &data.rows) {
         (true, Some(rows)) => Some(
-            polychoric_matrix(rows, data.names.len(), &data.names)
-                .map(|r| OrdinalPart {
-                    alpha: ordinal_alpha(&r),
-                    polychoric: r,
+            ordinal_items(rows, data.names.len(), &data.names)
+                .map(|o| OrdinalPart {
+                    alpha: ordinal_alpha(&o.polychoric),
+                    omega: ordinal_omega(&o, rows),
+                    polychoric: o.polychoric,
                 })
                 .map_err(|e| e.to_string()),
         ),
@@ -101,6 +105,44 @@ pub(crate) fn items(
         multidimensional,
         warnings,
     })
+}
+
+/// Categorical omega from the one-factor model of the polychoric matrix (maximum likelihood
+/// on the matrix, so the loadings are standardized) and the sample variance of the observed
+/// sum of `rows`.
+fn ordinal_omega(
+    o: &crate::items::polychoric::OrdinalItems,
+    rows: &[f64],
+) -> std::result::Result<f64, String> {
+    use crate::items::factor::{FactorModel, fit_one_factor};
+    let r = &o.polychoric;
+    let k = r.nrows();
+    if r.clone().cholesky().is_none() {
+        return Err(
+            "the polychoric matrix is not positive definite (pairs estimated one by \
+                    one need not fit together), so no factor model of it is fitted"
+                .into(),
+        );
+    }
+    let fit = fit_one_factor(r, FactorModel::Congeneric).map_err(|e| e.to_string())?;
+    if !fit.stop.converged() {
+        return Err(format!(
+            "the one-factor model of the polychoric matrix did not converge ({} iterations)",
+            fit.iterations
+        ));
+    }
+    if !fit.heywood.is_empty() {
+        return Err(
+            "the one-factor model of the polychoric matrix is improper (a uniqueness \
+                    at zero), so categorical omega is not trustworthy"
+                .into(),
+        );
+    }
+    let n = rows.len() / k;
+    let sums: Vec<f64> = rows.chunks(k).map(|r| r.iter().sum()).collect();
+    let mean = sums.iter().sum::<f64>() / n as f64;
+    let var = sums.iter().map(|s| (s - mean).powi(2)).sum::<f64>() / (n - 1) as f64;
+    Ok(categorical_omega(o, &fit.loadings, var))
 }
 
 /// The groups of items as indices, or an error naming the item or group at fault: every

@@ -218,12 +218,31 @@ pub fn polychoric_pair(table: &[Vec<u64>], ta: &[f64], tb: &[f64]) -> Result<f64
         .ok_or_else(|| Error::Numerical("a polychoric correlation could not be found".into()))
 }
 
+/// Ordinal items: each item's categories (its distinct values in order), thresholds, and the
+/// polychoric correlation matrix.
+#[derive(Debug, Clone, PartialEq)]
+pub struct OrdinalItems {
+    /// Each item's observed values, in order (its categories).
+    pub levels: Vec<Vec<f64>>,
+    /// Each item's thresholds, with −∞ and +∞ at the ends.
+    pub thresholds: Vec<Vec<f64>>,
+    /// The polychoric correlation matrix.
+    pub polychoric: DMatrix<f64>,
+}
+
 /// The polychoric correlation matrix of ordinal items given row by row (`rows.len() ==
 /// n·k`, complete rows), each item's categories its distinct values in order.
 pub fn polychoric_matrix(rows: &[f64], k: usize, names: &[String]) -> Result<DMatrix<f64>> {
+    ordinal_items(rows, k, names).map(|o| o.polychoric)
+}
+
+/// The items taken as ordinal: categories, thresholds and polychoric correlations (see
+/// [`polychoric_matrix`]).
+pub fn ordinal_items(rows: &[f64], k: usize, names: &[String]) -> Result<OrdinalItems> {
     let n = rows.len() / k;
     let mut codes: Vec<Vec<usize>> = Vec::with_capacity(k);
     let mut cuts: Vec<Vec<f64>> = Vec::with_capacity(k);
+    let mut all_levels: Vec<Vec<f64>> = Vec::with_capacity(k);
     for j in 0..k {
         let mut levels: Vec<f64> = (0..n).map(|i| rows[i * k + j]).collect();
         levels.sort_by(f64::total_cmp);
@@ -256,6 +275,7 @@ pub fn polychoric_matrix(rows: &[f64], k: usize, names: &[String]) -> Result<DMa
         }
         cuts.push(thresholds(&counts));
         codes.push(code);
+        all_levels.push(levels);
     }
     let mut r = DMatrix::identity(k, k);
     for a in 0..k {
@@ -269,7 +289,42 @@ pub fn polychoric_matrix(rows: &[f64], k: usize, names: &[String]) -> Result<DMa
             r[(b, a)] = rho;
         }
     }
-    Ok(r)
+    Ok(OrdinalItems {
+        levels: all_levels,
+        thresholds: cuts,
+        polychoric: r,
+    })
+}
+
+/// Categorical omega: the share of the observed sum score's variance that the common factor
+/// of the underlying responses explains. An item's observed value is its lowest value plus
+/// Σ_c w_c·1[Z > τ_c] (w_c the gap between consecutive observed values), so with standardized
+/// loadings λ on the underlying responses Z the common part of the sum's variance is
+/// Σᵢ Σⱼ Σ_c Σ_d w_ic w_jd [Φ₂(τ_ic, τ_jd; λᵢλⱼ) − Φ(τ_ic)Φ(τ_jd)] (i = j included), divided
+/// here by `sum_variance`, the sample variance of the observed sum.
+///
+/// # References
+/// Green, S. B., & Yang, Y. (2009). Reliability of summed item scores using structural
+/// equation modeling: an alternative to coefficient alpha. *Psychometrika*, 74(1), 155–167.
+pub fn categorical_omega(items: &OrdinalItems, loadings: &[f64], sum_variance: f64) -> f64 {
+    let k = loadings.len();
+    let inner = |i: usize| -> Vec<(f64, f64)> {
+        let (t, v) = (&items.thresholds[i], &items.levels[i]);
+        (1..t.len() - 1).map(|c| (t[c], v[c] - v[c - 1])).collect()
+    };
+    let cuts: Vec<Vec<(f64, f64)>> = (0..k).map(inner).collect();
+    let mut common = 0.0;
+    for i in 0..k {
+        for j in 0..k {
+            let r = loadings[i] * loadings[j];
+            for &(ti, wi) in &cuts[i] {
+                for &(tj, wj) in &cuts[j] {
+                    common += wi * wj * (bivariate_normal_cdf(ti, tj, r) - phi(ti) * phi(tj));
+                }
+            }
+        }
+    }
+    common / sum_variance
 }
 
 /// Ordinal alpha: alpha of a correlation matrix, k/(k − 1)·(1 − k/1ᵀR1) (Zumbo, Gadermann &

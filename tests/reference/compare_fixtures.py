@@ -26,7 +26,8 @@ REL = 1e-9
 ABS = 1e-12
 OPTIMIZER_REL = 1e-6
 OPTIMIZER_PATHS = ("items.json.scipy.", "items.json.sklearn.", "multilevel.json.",
-                   "multidimensional.json.data.", "glb.json.")
+                   "multidimensional.json.data.", "glb.json.",
+                   "polychoric.json.items.categorical.")
 SKIPPED = []
 
 

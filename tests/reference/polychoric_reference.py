@@ -57,6 +57,45 @@ def pair(a, b, ta, tb):
     return float(res.x)
 
 
+def one_factor(R):
+    """Standardized loadings of the one-factor model of a correlation matrix by maximum
+    likelihood (scipy.optimize.minimize, L-BFGS-B, uniquenesses bounded below)."""
+    k = R.shape[0]
+    _, logdet_r = np.linalg.slogdet(R)
+
+    def f(x):
+        lam, psi = x[:k], x[k:]
+        sigma = np.outer(lam, lam) + np.diag(psi)
+        inv = np.linalg.inv(sigma)
+        val = np.linalg.slogdet(sigma)[1] - logdet_r + np.trace(R @ inv) - k
+        G = inv - inv @ R @ inv
+        return val, np.concatenate([2 * G @ lam, np.diag(G)])
+
+    x0 = np.concatenate([np.full(k, 0.6), np.full(k, 0.6)])
+    res = optimize.minimize(f, x0, jac=True, method="L-BFGS-B",
+                            bounds=[(None, None)] * k + [(1e-6, None)] * k,
+                            options={"ftol": 1e-16, "gtol": 1e-12, "maxiter": 10000})
+    lam = res.x[:k]
+    return lam if lam.sum() > 0 else -lam
+
+
+def categorical_omega(th, values, lam, responses):
+    """Green & Yang (2009): the common part of the observed sum's variance,
+    sum_ij sum_cd w_ic w_jd [Phi2(t_ic, t_jd; l_i l_j) - Phi(t_ic) Phi(t_jd)], over the sample
+    variance of the observed sum (n - 1). w are the gaps between consecutive values."""
+    k = len(lam)
+    total = 0.0
+    for i in range(k):
+        for j in range(k):
+            r = lam[i] * lam[j]
+            for c in range(1, len(th[i]) - 1):
+                for d in range(1, len(th[j]) - 1):
+                    w = (values[i][c] - values[i][c - 1]) * (values[j][d] - values[j][d - 1])
+                    total += w * (phi2(th[i][c], th[j][d], r)
+                                  - stats.norm.cdf(th[i][c]) * stats.norm.cdf(th[j][d]))
+    return float(total / np.var(responses.sum(axis=1), ddof=1))
+
+
 def polychoric_fixture(stamp):
     grid = []
     for h in (-2.5, -0.7, 0.0, 0.4, 1.9):
@@ -77,7 +116,21 @@ def polychoric_fixture(stamp):
             R[a, b] = R[b, a] = pair(codes[:, a], codes[:, b], th[a], th[b])
     k = 4
     alpha = k / (k - 1) * (1 - k / R.sum())
+    lam = one_factor(R)
+    responses = codes + 1.0
+    spaced = responses.copy()
+    spaced[:, 0] = np.array([0.0, 1.0, 3.0, 6.0])[codes[:, 0]]
+    categorical = {
+        "loadings": lam.tolist(),
+        "omega": categorical_omega(th, [np.arange(1.0, lv + 1) for lv in levels], lam,
+                                   responses),
+        "spaced_first_item": [0.0, 1.0, 3.0, 6.0],
+        "omega_spaced": categorical_omega(
+            th, [np.array([0.0, 1.0, 3.0, 6.0])] + [np.arange(1.0, lv + 1) for lv in levels[1:]],
+            lam, spaced),
+    }
     return {"made_by": stamp(), "cdf": grid,
             "items": {"source": "invented: 300 respondents, one factor, 3-5 categories",
-                      "responses": (codes + 1).tolist(), "thresholds": [t[1:-1] for t in th],
-                      "polychoric": R.tolist(), "ordinal_alpha": float(alpha)}}
+                      "responses": responses.tolist(), "thresholds": [t[1:-1] for t in th],
+                      "polychoric": R.tolist(), "ordinal_alpha": float(alpha),
+                      "categorical": categorical}}

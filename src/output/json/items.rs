@@ -281,8 +281,10 @@ impl ItemsDocument {
 pub const ORDINAL_CAUTION: &str = "Ordinal alpha is the alpha of the polychoric correlations: \
 it describes the sum of the continuous responses assumed to underlie the categories, not the \
 sum of the observed categories that a study scores, and is usually higher (Chalmers 2018). A \
-benchmark of reported coefficients and a correction of observed correlations need the \
-coefficient of the observed score: alpha or omega above.";
+benchmark of reported coefficients and a correction of observed correlations need a \
+coefficient of the observed score: alpha or omega above, or categorical omega, which is the \
+share of the observed sum's variance due to the common factor and allows for the items' few \
+categories (Green & Yang 2009).";
 
 /// The items taken as ordinal.
 #[derive(Debug, Clone, Serialize)]
@@ -291,6 +293,10 @@ pub struct OrdinalRecord {
     pub alpha: Option<f64>,
     /// The polychoric correlation matrix, by rows in the items' order (null as `alpha`).
     pub polychoric: Option<Vec<Vec<f64>>>,
+    /// Categorical omega (null when it could not be computed).
+    pub omega: Option<f64>,
+    /// Why categorical omega could not be computed.
+    pub omega_note: Option<String>,
     /// Why they could not be computed (items with too many categories, …).
     pub note: Option<String>,
     /// What ordinal alpha describes.
@@ -307,12 +313,16 @@ impl From<&std::result::Result<crate::analysis::OrdinalPart, String>> for Ordina
                         .map(|i| p.polychoric.row(i).iter().copied().collect())
                         .collect(),
                 ),
+                omega: p.omega.as_ref().ok().copied(),
+                omega_note: p.omega.as_ref().err().cloned(),
                 note: None,
                 caution: ORDINAL_CAUTION,
             },
             Err(why) => OrdinalRecord {
                 alpha: None,
                 polychoric: None,
+                omega: None,
+                omega_note: None,
                 note: Some(why.clone()),
                 caution: ORDINAL_CAUTION,
             },

@@ -49,6 +49,14 @@ pub fn items_summary(o_: &ItemsOutcome, names: &dyn SettingNames) -> String {
                 "Taken as ordinal: ordinal alpha {} (alpha of the polychoric correlations)",
                 fixed(p.alpha, 3)
             );
+            let _ = match &p.omega {
+                Ok(w) => writeln!(
+                    o,
+                    "  categorical omega {} (the observed sum's share of common-factor variance)",
+                    fixed(*w, 3)
+                ),
+                Err(why) => writeln!(o, "  categorical omega not available: {why}"),
+            };
             o.push_str(&wrap(crate::output::json::ORDINAL_CAUTION, 86, "  "));
         }
         Some(Err(why)) => {
