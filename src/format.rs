@@ -155,6 +155,18 @@ pub fn quote_list(items: &[String], max: usize) -> String {
     format!("{} and {} more", items[..max].join(", "), items.len() - max)
 }
 
+/// A change with its sign (+0.012, −0.004), or "same" when it rounds to zero at `decimals`.
+pub fn change(x: f64, decimals: usize) -> String {
+    if x.abs() < 0.5 * 10f64.powi(-(decimals as i32)) {
+        return "same".to_string();
+    }
+    format!(
+        "{}{}",
+        if x > 0.0 { "+" } else { "−" },
+        fixed(x.abs(), decimals)
+    )
+}
+
 /// The first letter in upper case.
 pub fn capitalized(s: &str) -> String {
     let mut c = s.chars();

@@ -2,9 +2,11 @@
 //! benchmark or the run's own), the correlation or regression corrected, and the
 //! warnings that go with it.
 
-use super::settings::{CorrectionSettings, RegressionData, Settings};
+use super::ItemsOutcome;
+use super::settings::{CorrectionSettings, ItemSettings, RegressionData, Settings};
 use super::{Progress, Task, with_progress};
 use crate::benchmark::Prepared;
+use crate::correct::choice::{ChoiceRow, CoefficientChoice, ScoreReliability, by_coefficient};
 use crate::correct::correlation::{CorrelationCorrection, CorrelationInput, correct_correlation};
 use crate::correct::regression::{RegressionCorrection, RegressionInput, correct_regression};
 use crate::correct::reliability::{BenchmarkAt, benchmark_source};
@@ -15,6 +17,7 @@ use crate::items::{ItemData, ItemReadOptions, Missing, read_items};
 use crate::pool::FitOptions;
 use crate::setting::msg;
 use crate::setting::{Setting, given};
+use crate::sheet::CoefType;
 use crate::warning::Warning;
 
 /// A correction and its warnings.
@@ -26,6 +29,11 @@ pub enum Correction {
         input: Box<CorrelationInput>,
         /// The result.
         result: Box<CorrelationCorrection>,
+        /// The correlation corrected with each coefficient the item data give (empty
+        /// without item data).
+        choices: Vec<ChoiceRow>,
+        /// The item data of x and y, when given.
+        scores: [Option<Box<ScoreItems>>; 2],
         /// Its warnings.
         warnings: Vec<Warning>,
     },
@@ -51,11 +59,135 @@ impl Correction {
     }
 }
 
+/// A score's item data and what the correction took from them.
+#[derive(Debug, Clone)]
+pub struct ScoreItems {
+    /// The items' analysis.
+    pub outcome: ItemsOutcome,
+    /// The coefficient the main correction uses, when it comes from the items (no value
+    /// was given).
+    pub used: Option<CoefficientChoice>,
+}
+
+/// What one score brings to a correlation's correction.
+struct Score {
+    source: ReliabilitySource,
+    reliability: ScoreReliability,
+    items: Option<Box<ScoreItems>>,
+}
+
+/// The coefficients an item analysis gives, in the table's order. Without subscales, the
+/// bifactor rows take the one-factor omega (with one factor, omega total and omega
+/// hierarchical are that omega).
+fn coefficients(o: &ItemsOutcome) -> Vec<(CoefficientChoice, f64)> {
+    let a = &o.analysis;
+    let mut c = vec![(CoefficientChoice::Alpha, a.alpha)];
+    if let Some(w) = a.omega() {
+        c.push((CoefficientChoice::Omega, w));
+    }
+    match (&o.multidimensional, a.omega()) {
+        (Some(Ok(m)), _) => {
+            if let Some(w) = &m.omegas {
+                c.push((CoefficientChoice::OmegaTotal, w.omega_total));
+                c.push((CoefficientChoice::OmegaHierarchical, w.omega_hierarchical));
+            }
+        }
+        (None, Some(w)) => {
+            c.push((CoefficientChoice::OmegaTotal, w));
+            c.push((CoefficientChoice::OmegaHierarchical, w));
+        }
+        _ => {}
+    }
+    if let Ok(g) = &a.glb {
+        c.push((CoefficientChoice::Glb, g.value));
+    }
+    c
+}
+
+/// The coefficient an item analysis recommends for a correction: omega total of the
+/// bifactor model when subscales were given, omega when the one-factor reading says so (or
+/// finds alpha and omega equivalent), alpha otherwise.
+fn recommended(o: &ItemsOutcome) -> (CoefficientChoice, f64, CoefType) {
+    use crate::items::Recommendation;
+    let a = &o.analysis;
+    if let Some(Ok(m)) = &o.multidimensional
+        && let Some(w) = &m.omegas
+    {
+        return (
+            CoefficientChoice::OmegaTotal,
+            w.omega_total,
+            CoefType::Omega,
+        );
+    }
+    match (a.recommendation, a.omega()) {
+        (Recommendation::Omega | Recommendation::Either, Some(w)) => {
+            (CoefficientChoice::Omega, w, CoefType::Omega)
+        }
+        _ => (CoefficientChoice::Alpha, a.alpha, CoefType::Alpha),
+    }
+}
+
+/// One score of a correlation: its reliability as given or from its item data, and the
+/// coefficients those give.
+fn score(
+    spec: &Option<ReliabilitySpec>,
+    items: &Option<Box<ItemSettings>>,
+    setting: Setting,
+    this: Option<&Prepared>,
+    s: &Settings,
+    progress: &dyn Progress,
+    warnings: &mut Vec<Warning>,
+) -> Result<Score> {
+    let outcome = match items {
+        Some(i) => Some(super::items::items(i, s, progress)?),
+        None => None,
+    };
+    if let Some(o) = &outcome {
+        warnings.extend(o.warnings.iter().cloned());
+    }
+    let (source, used) = match (spec, &outcome) {
+        (Some(spec), _) => (self::source(spec, setting, this, s)?, None),
+        (None, Some(o)) => {
+            let (choice, value, kind) = recommended(o);
+            let source = ReliabilitySource::Estimate {
+                value,
+                n: o.analysis.n_used,
+                items: o.analysis.k as u32,
+                kind: Some(kind),
+            };
+            (source, Some(choice))
+        }
+        (None, None) => {
+            return Err(Error::setting(
+                setting,
+                msg![setting, " is needed (a value, or item data)"],
+            ));
+        }
+    };
+    let reliability = ScoreReliability {
+        computed: outcome.as_ref().map(coefficients),
+        given: spec.as_ref().map(|_| {
+            (
+                source.point(),
+                source.lower_bound_share().is_some_and(|v| v >= 0.5),
+            )
+        }),
+        main: source.point(),
+    };
+    Ok(Score {
+        source,
+        reliability,
+        items: outcome.map(|outcome| Box::new(ScoreItems { outcome, used })),
+    })
+}
+
 /// True when a reliability is the run's own benchmark (so the sheet must be read).
 pub(crate) fn uses_this_benchmark(c: &CorrectionSettings) -> bool {
     let this = |r: &ReliabilitySpec| matches!(r, ReliabilitySpec::ThisBenchmark { .. });
     match c {
-        CorrectionSettings::Correlation { rel_x, rel_y, .. } => this(rel_x) || this(rel_y),
+        CorrectionSettings::Correlation { rel_x, rel_y, .. } => {
+            rel_x.as_ref().is_some_and(this) || rel_y.as_ref().is_some_and(this)
+        }
         CorrectionSettings::Regression {
             predictors,
             outcome_reliability,
@@ -112,22 +244,65 @@ pub(crate) fn correct(
             n,
             rel_x,
             rel_y,
+            items_x,
+            items_y,
             draws,
             grid,
         } => {
+            let mut warnings = Vec::new();
+            let mut x = score(
+                rel_x,
+                items_x,
+                Setting::ReliabilityX,
+                this,
+                s,
+                progress,
+                &mut warnings,
+            )?;
+            let mut y = score(
+                rel_y,
+                items_y,
+                Setting::ReliabilityY,
+                this,
+                s,
+                progress,
+                &mut warnings,
+            )?;
+            // The bifactor rows only when a score has subscales (else they repeat omega).
+            let subscales = |sc: &Score| {
+                sc.items
+                    .as_ref()
+                    .is_some_and(|i| matches!(i.outcome.multidimensional, Some(Ok(_))))
+            };
+            if !subscales(&x) && !subscales(&y) {
+                for sc in [&mut x, &mut y] {
+                    if let Some(c) = &mut sc.reliability.computed {
+                        c.retain(|(k, _)| {
+                            !matches!(
+                                k,
+                                CoefficientChoice::OmegaTotal
+                                    | CoefficientChoice::OmegaHierarchical
+                            )
+                        });
+                    }
+                }
+            }
             let input = CorrelationInput {
                 r: *r,
                 n: *n,
-                rel_x: source(rel_x, Setting::ReliabilityX, this, s)?,
-                rel_y: source(rel_y, Setting::ReliabilityY, this, s)?,
+                rel_x: x.source,
+                rel_y: y.source,
             };
             let result = with_progress(progress, Task::Draws, *draws, |tick| {
                 correct_correlation(&input, *draws, s.seed, s.level, *grid, tick)
             })?;
-            let warnings = correlation_warnings(&input, &result);
+            warnings.extend(correlation_warnings(&input, &result));
+            let choices = by_coefficient(*r, *n, s.level, &x.reliability, &y.reliability);
             Ok(Correction::Correlation {
                 input: Box::new(input),
                 result: Box::new(result),
+                choices,
+                scores: [x.items, y.items],
                 warnings,
             })
         }

@@ -14,7 +14,7 @@ pub mod settings;
 mod sheet;
 
 pub use compare::Comparison;
-pub use correction::Correction;
+pub use correction::{Correction, ScoreItems};
 pub use explain::Explained;
 pub use icc::IccOutcome;
 pub use items::{ItemsOutcome, OrdinalPart};

@@ -145,10 +145,14 @@ pub enum CorrectionSettings {
         r: f64,
         /// Its sample size.
         n: u64,
-        /// The reliability of x.
-        rel_x: ReliabilitySpec,
-        /// The reliability of y.
-        rel_y: ReliabilitySpec,
+        /// The reliability of x (taken from `items_x` when not given).
+        rel_x: Option<ReliabilitySpec>,
+        /// The reliability of y (taken from `items_y` when not given).
+        rel_y: Option<ReliabilitySpec>,
+        /// Item data of x: its coefficients, side by side.
+        items_x: Option<Box<ItemSettings>>,
+        /// Item data of y.
+        items_y: Option<Box<ItemSettings>>,
         /// Monte Carlo draws.
         draws: usize,
         /// Points per reliability in the sensitivity table.

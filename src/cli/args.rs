@@ -608,6 +608,55 @@ pub struct TemplateArgs {
     pub force: bool,
 }
 
+/// Item data of the two scores of a correlation to correct (`correct`, `report`).
+#[derive(Debug, Clone, Args)]
+pub struct ScoreItemArgs {
+    /// Item data of x (one row per respondent, one column per item): the correlation is
+    /// also corrected with each coefficient they give — alpha, omega, the greatest lower
+    /// bound, omega total and hierarchical with --x-factor — side by side; without
+    /// --rel-x, the coefficient its reading recommends is used.
+    #[arg(long, value_name = "FILE")]
+    pub items_x: Option<PathBuf>,
+
+    /// Item data of y, as for --items-x.
+    #[arg(long, value_name = "FILE")]
+    pub items_y: Option<PathBuf>,
+
+    /// The item columns of --items-x, comma-separated (every column when not given).
+    #[arg(long, value_name = "A,B,C", value_delimiter = ',')]
+    pub x_columns: Vec<String>,
+
+    /// The item columns of --items-y.
+    #[arg(long, value_name = "A,B,C", value_delimiter = ',')]
+    pub y_columns: Vec<String>,
+
+    /// Items of --items-x to reverse-key (needs --scale-min and --scale-max).
+    #[arg(long, value_name = "X,Y", value_delimiter = ',')]
+    pub x_reverse: Vec<String>,
+
+    /// Items of --items-y to reverse-key.
+    #[arg(long, value_name = "X,Y", value_delimiter = ',')]
+    pub y_reverse: Vec<String>,
+
+    /// A subscale of --items-x, as NAME=ITEM,ITEM,… (repeat; adds omega total and omega
+    /// hierarchical).
+    #[arg(long = "x-factor", value_name = "NAME=ITEMS")]
+    pub x_factors: Vec<String>,
+
+    /// A subscale of --items-y.
+    #[arg(long = "y-factor", value_name = "NAME=ITEMS")]
+    pub y_factors: Vec<String>,
+
+    /// Lowest possible item response, for reverse keying (it applies to the item data whose
+    /// items are reversed, --x-reverse or --y-reverse).
+    #[arg(long, value_name = "MIN", allow_negative_numbers = true)]
+    pub items_scale_min: Option<f64>,
+
+    /// Highest possible item response, for reverse keying.
+    #[arg(long, value_name = "MAX", allow_negative_numbers = true)]
+    pub items_scale_max: Option<f64>,
+}
+
 #[derive(Debug, Args)]
 pub struct CorrectArgs {
     /// An observed correlation to correct (with --n, --rel-x and --rel-y).
@@ -627,6 +676,10 @@ pub struct CorrectArgs {
     /// Reliability of y, as for --rel-x.
     #[arg(long, value_name = "SPEC")]
     pub rel_y: Option<String>,
+
+    /// Item data of the two scores, for the coefficients side by side.
+    #[command(flatten)]
+    pub score_items: ScoreItemArgs,
 
     /// A study's raw data (CSV or a workbook: one row per respondent, scale scores in
     /// columns).
@@ -723,6 +776,10 @@ pub struct ReportArgs {
     /// Reliability of the other score, as for relyard correct --rel-y.
     #[arg(long, value_name = "SPEC")]
     pub rel_y: Option<String>,
+
+    /// Item data of the two scores, for the coefficients side by side.
+    #[command(flatten)]
+    pub score_items: ScoreItemArgs,
 
     /// Monte Carlo draws for the correction.
     #[arg(long, value_name = "N", default_value_t = 10000)]

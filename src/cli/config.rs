@@ -4,8 +4,8 @@
 use super::args::{
     CheckArgs, CiArg, CoefTypeArg, CompareArgs, CorrectArgs, DelimiterArg, DependenceArg,
     ExplainArgs, IccArgs, InferenceArg, ItemsArgs, ModelArgs, ModeratorArgs, PlanArgs, PoolArgs,
-    ReportArgs, SdMetricArg, SheetArgs, SpreadMetricArg, StudyArgs, Tau2Arg, TemplateArgs,
-    TransformArg,
+    ReportArgs, ScoreItemArgs, SdMetricArg, SheetArgs, SpreadMetricArg, StudyArgs, Tau2Arg,
+    TemplateArgs, TransformArg,
 };
 use super::output::{Failure, UsageError};
 use relyard::Level;
@@ -631,24 +631,99 @@ pub fn correct(a: CorrectArgs) -> Result<Settings, Failure> {
 fn correlation(a: &CorrectArgs, r: f64) -> Result<CorrectionSettings, Failure> {
     let n =
         a.n.ok_or_else(|| usage("--r needs --n, the correlation's sample size"))?;
-    let (Some(rx), Some(ry)) = (&a.rel_x, &a.rel_y) else {
+    let si = &a.score_items;
+    if a.rel_x.is_none() && si.items_x.is_none() {
         return Err(usage(
-            "--r needs --rel-x and --rel-y, the reliabilities of the two scores",
+            "--r needs the reliability of x: --rel-x, or its item data with --items-x",
         ));
-    };
+    }
+    if a.rel_y.is_none() && si.items_y.is_none() {
+        return Err(usage(
+            "--r needs the reliability of y: --rel-y, or its item data with --items-y",
+        ));
+    }
     if !a.predictors.is_empty() || a.outcome.is_some() || !a.rels.is_empty() {
         return Err(usage(
             "--predictor, --outcome and --rel belong to a regression (--data or --summary)",
         ));
     }
+    let spec =
+        |flag: &str, s: &Option<String>| s.as_ref().map(|s| reliability(flag, s)).transpose();
     Ok(CorrectionSettings::Correlation {
         r,
         n,
-        rel_x: reliability("--rel-x", rx)?,
-        rel_y: reliability("--rel-y", ry)?,
+        rel_x: spec("--rel-x", &a.rel_x)?,
+        rel_y: spec("--rel-y", &a.rel_y)?,
+        items_x: score_items(si, &a.missing_codes, Score::X)?,
+        items_y: score_items(si, &a.missing_codes, Score::Y)?,
         draws: a.draws,
         grid: a.grid,
     })
+}
+
+/// Which score of a correlation.
+#[derive(Clone, Copy)]
+enum Score {
+    X,
+    Y,
+}
+
+/// The item data of one score of a correlation to correct, with its own columns, reverse
+/// keying and subscales (the scale's bounds and missing-value codes shared).
+fn score_items(
+    a: &ScoreItemArgs,
+    missing_codes: &[f64],
+    which: Score,
+) -> Result<Option<Box<ItemSettings>>, Failure> {
+    let (file, columns, reverse, factors) = match which {
+        Score::X => (&a.items_x, &a.x_columns, &a.x_reverse, &a.x_factors),
+        Score::Y => (&a.items_y, &a.y_columns, &a.y_reverse, &a.y_factors),
+    };
+    let Some(file) = file else {
+        return Ok(None);
+    };
+    if let Some(c) = missing_codes.iter().find(|c| !c.is_finite()) {
+        return Err(usage(format!("--missing-code {c} is not a finite number")));
+    }
+    // The scale's bounds serve reverse keying: they apply to a score with reversed items.
+    let scale = match (a.items_scale_min, a.items_scale_max) {
+        _ if reverse.is_empty() => None,
+        (Some(lo), Some(hi)) if lo < hi => Some((lo, hi)),
+        (Some(_), Some(_)) => {
+            return Err(usage("--items-scale-max must be above --items-scale-min"));
+        }
+        _ => {
+            return Err(usage(
+                "reverse keying needs the scale's bounds: give --items-scale-min and \
+                 --items-scale-max",
+            ));
+        }
+    };
+    let names = |v: &[String]| -> Vec<String> {
+        v.iter()
+            .map(|s| s.trim().to_string())
+            .filter(|s| !s.is_empty())
+            .collect()
+    };
+    let columns = names(columns);
+    Ok(Some(Box::new(ItemSettings {
+        path: input_path(file.clone()),
+        bytes: None,
+        read: ItemReadOptions {
+            items: (!columns.is_empty()).then_some(columns),
+            reverse: names(reverse),
+            scale,
+            missing_codes: missing_codes.to_vec(),
+            ..ItemReadOptions::default()
+        },
+        bootstrap: None,
+        ordinal: false,
+        factors: factors
+            .iter()
+            .enumerate()
+            .map(|(i, f)| parse_factor(f, i, factors))
+            .collect::<Result<_, _>>()?,
+    })))
 }
 
 fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
@@ -782,12 +857,19 @@ pub fn report(a: ReportArgs) -> Result<Settings, Failure> {
     if let (Some(coef), Some(n)) = (a.coef, a.n) {
         s.new_study = Some(new_study(coef, n, &a.study, &s.moderators)?);
     }
-    if let (Some(r), Some(n), Some(rel_y)) = (a.r, a.n, &a.rel_y) {
+    let items_y = score_items(&a.score_items, &[], Score::Y)?;
+    if let (Some(r), Some(n), true) = (a.r, a.n, a.rel_y.is_some() || items_y.is_some()) {
         s.correction = Some(CorrectionSettings::Correlation {
             r,
             n,
-            rel_x: report_measure_reliability(a.coef, n, &a.study, at)?,
-            rel_y: reliability("--rel-y", rel_y)?,
+            rel_x: Some(report_measure_reliability(a.coef, n, &a.study, at)?),
+            rel_y: a
+                .rel_y
+                .as_ref()
+                .map(|y| reliability("--rel-y", y))
+                .transpose()?,
+            items_x: score_items(&a.score_items, &[], Score::X)?,
+            items_y,
             draws: a.draws,
             grid: 5,
         });
@@ -803,14 +885,17 @@ fn check_report_parts(a: &ReportArgs) -> Result<(), Failure> {
             "--coef and --r need --n, the new study's sample size",
         ));
     }
-    if a.r.is_some() && a.rel_y.is_none() {
+    let items = &a.score_items;
+    if a.r.is_some() && a.rel_y.is_none() && items.items_y.is_none() {
         return Err(usage(
             "--r needs --rel-y, the reliability of the other score (e.g. 0.85, or \
-             0.85,n=200,items=6)",
+             0.85,n=200,items=6), or its item data with --items-y",
         ));
     }
-    if a.rel_y.is_some() && a.r.is_none() {
-        return Err(usage("--rel-y belongs to a correction: give --r too"));
+    if (a.rel_y.is_some() || items.items_x.is_some() || items.items_y.is_some()) && a.r.is_none() {
+        return Err(usage(
+            "--rel-y, --items-x and --items-y belong to a correction: give --r too",
+        ));
     }
     if a.coef.is_none() {
         for (given, name) in [

@@ -24,10 +24,13 @@ pub fn run_correct(a: CorrectArgs) -> Result<(), Failure> {
         Correction::Correlation {
             input,
             result,
+            choices,
+            scores,
             warnings,
         } => print(&correlation_summary(
             input,
             result,
+            (choices, scores),
             settings.level,
             warnings,
             &OptionNames,

@@ -99,22 +99,10 @@ pub fn correct_correlation(
 ) -> Result<CorrelationCorrection> {
     check_input(input)?;
     let (rx, ry) = (input.rel_x.point(), input.rel_y.point());
-    let attenuation = (rx * ry).sqrt();
-    let corrected_value = input.r / attenuation;
-    let z = normal_quantile(level.upper());
+    let corrected_value = input.r / (rx * ry).sqrt();
+    let (ci, ci_capped) = classical_interval(input.r, input.n, rx, ry, level);
     let se = 1.0 / (input.n as f64 - 3.0).sqrt();
     let zr = input.r.atanh();
-    let (lo, hi) = (
-        (zr - z * se).tanh() / attenuation,
-        (zr + z * se).tanh() / attenuation,
-    );
-    // An interval entirely beyond ±1 is no interval at all; one end beyond is cut there.
-    let ci = if lo > 1.0 || hi < -1.0 {
-        None
-    } else {
-        Some((lo.max(-1.0), hi.min(1.0)))
-    };
-    let ci_capped = lo < -1.0 || hi > 1.0;
     let mc = monte_carlo(input, zr, se, draws, seed, level, progress);
     Ok(CorrelationCorrection {
         observed: input.r,
@@ -133,6 +121,32 @@ pub fn correct_correlation(
         seed,
         sensitivity: sensitivity(input, level, grid_points),
     })
+}
+
+/// The classical interval of a corrected correlation with the reliabilities taken as known:
+/// the ends of r's Fisher-z interval divided by √(r_xx r_yy), an end beyond ±1 cut there
+/// (the flag says so) and an interval entirely beyond ±1 `None` (Hunter & Schmidt 2004).
+pub fn classical_interval(
+    r: f64,
+    n: u64,
+    rx: f64,
+    ry: f64,
+    level: Level,
+) -> (Option<(f64, f64)>, bool) {
+    let attenuation = (rx * ry).sqrt();
+    let z = normal_quantile(level.upper());
+    let se = 1.0 / (n as f64 - 3.0).sqrt();
+    let zr = r.atanh();
+    let (lo, hi) = (
+        (zr - z * se).tanh() / attenuation,
+        (zr + z * se).tanh() / attenuation,
+    );
+    let ci = if lo > 1.0 || hi < -1.0 {
+        None
+    } else {
+        Some((lo.max(-1.0), hi.min(1.0)))
+    };
+    (ci, lo < -1.0 || hi > 1.0)
 }
 
 /// Refuse a correlation not strictly between −1 and 1, or fewer than 4 respondents.

@@ -2,6 +2,7 @@
 //! errors-in-variables regression, with the reliabilities' own uncertainty carried
 //! through by Monte Carlo (and bootstrap for raw data).
 
+pub mod choice;
 pub mod correlation;
 pub mod regression;
 pub mod reliability;

@@ -341,3 +341,183 @@ fn contradictory_regression_options_are_refused() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("--n"));
 }
+
+const Y_GROUPS: [&str; 6] = [
+    "--y-factor",
+    "calm=c1,c2,c3,c4",
+    "--y-factor",
+    "focus=f1,f2,f3,f4",
+    "--y-factor",
+    "drive=d1,d2,d3,d4",
+];
+
+/// Issue 14 item 5: `correct --items-x/--items-y` corrects the correlation with every
+/// coefficient the item data give. Each row's reliabilities are those `relyard items`
+/// reports for the same data (omega total against the scipy reference of
+/// multidimensional_reference.py), each corrected r is r/√(r_xx r_yy), alpha and the glb
+/// are marked as lower bounds, the value given has its own row, and without a value the
+/// main correction takes the coefficient the items' reading recommends.
+#[test]
+fn item_data_give_the_correction_under_each_coefficient() {
+    let dir = scratch("correct-by-coefficient");
+    let y_file = subscale_items_csv(&dir);
+    let demo = demo_file("candor-items.csv");
+    let mut args = vec![
+        "correct",
+        "--r",
+        "0.32",
+        "--n",
+        "250",
+        "--items-x",
+        &demo,
+        "--x-reverse",
+        "btci_04,btci_09",
+        "--items-scale-min",
+        "1",
+        "--items-scale-max",
+        "5",
+        "--items-y",
+        &y_file,
+        "--rel-x",
+        "0.81,kind=retest",
+        "--draws",
+        "500",
+        "--json",
+    ];
+    args.extend(Y_GROUPS);
+    let j = json_ok(&args);
+    let rows = j["by_coefficient"].as_array().unwrap();
+    let names: Vec<&str> = rows
+        .iter()
+        .map(|r| r["coefficient"].as_str().unwrap())
+        .collect();
+    assert_eq!(
+        names,
+        [
+            "alpha",
+            "omega",
+            "omega_total",
+            "omega_hierarchical",
+            "glb",
+            "given"
+        ]
+    );
+    let x_items = json_ok(&[
+        "items",
+        &demo,
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+        "--json",
+    ]);
+    let groups: Vec<String> = Y_GROUPS.iter().map(|a| a.replace("--y-", "--")).collect();
+    let mut y_args = vec!["items", y_file.as_str(), "--json"];
+    y_args.extend(groups.iter().map(String::as_str));
+    let y_items = json_ok(&y_args);
+    let reference = &fixture("multidimensional.json")["data"]["bifactor"]["coefficients"];
+    let want_x = [
+        x_items["alpha"].as_f64().unwrap(),
+        x_items["omega"].as_f64().unwrap(),
+        x_items["omega"].as_f64().unwrap(),
+        x_items["omega"].as_f64().unwrap(),
+        x_items["glb"]["value"].as_f64().unwrap(),
+        0.81,
+    ];
+    let md = &y_items["multidimensional"];
+    let want_y = [
+        y_items["alpha"].as_f64().unwrap(),
+        y_items["omega"].as_f64().unwrap(),
+        md["omega_total"].as_f64().unwrap(),
+        md["omega_hierarchical"].as_f64().unwrap(),
+        y_items["glb"]["value"].as_f64().unwrap(),
+        md["omega_total"].as_f64().unwrap(),
+    ];
+    assert_close(
+        want_y[2],
+        reference["omega_total"].as_f64().unwrap(),
+        1e-6,
+        1e-8,
+        "ω_t",
+    );
+    for (i, r) in rows.iter().enumerate() {
+        let (rx, ry) = (
+            r["reliability_x"].as_f64().unwrap(),
+            r["reliability_y"].as_f64().unwrap(),
+        );
+        assert_close(rx, want_x[i], 1e-12, 1e-14, names[i]);
+        assert_close(ry, want_y[i], 1e-12, 1e-14, names[i]);
+        let corrected = r["corrected"].as_f64().unwrap();
+        assert_close(corrected, 0.32 / (rx * ry).sqrt(), 1e-12, 1e-14, names[i]);
+        let ci = floats(&r["ci"]);
+        assert!(ci[0] < corrected && corrected < ci[1], "{r}");
+        let bound = matches!(names[i], "alpha" | "glb");
+        assert_eq!(r["lower_bound"], bound, "{}", names[i]);
+    }
+    // The given row is the main correction: same reliabilities, same classical interval.
+    assert_eq!(rows[5]["ci"], j["ci"]);
+    assert_eq!(j["item_data"][0]["used"], serde_json::Value::Null);
+    assert_eq!(j["item_data"][1]["used"], "omega_total");
+    assert_close(
+        j["reliabilities"][1]["value"].as_f64().unwrap(),
+        want_y[2],
+        1e-12,
+        1e-14,
+        "main y",
+    );
+    // The readable table.
+    let args: Vec<&str> = args.into_iter().filter(|a| *a != "--json").collect();
+    let out = run_ok(&args);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("The choice of coefficient"), "{text}");
+    assert!(text.contains("greatest lower bound"), "{text}");
+    assert!(text.contains("omega total of the bifactor model"), "{text}");
+}
+
+/// Without a value or item data the correction is refused; reverse keying needs the scale.
+#[test]
+fn item_data_options_are_checked() {
+    let demo = demo_file("candor-items.csv");
+    let out = relyard(&["correct", "--r", "0.3", "--n", "100", "--rel-y", "0.8"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--items-x"));
+    let out = relyard(&[
+        "correct",
+        "--r",
+        "0.3",
+        "--n",
+        "100",
+        "--rel-y",
+        "0.8",
+        "--items-x",
+        &demo,
+        "--x-reverse",
+        "btci_04",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("--items-scale-min"));
+    // Without subscales there are no bifactor rows.
+    let j = json_ok(&[
+        "correct",
+        "--r",
+        "0.3",
+        "--n",
+        "100",
+        "--rel-y",
+        "0.8",
+        "--items-x",
+        &demo,
+        "--json",
+        "--draws",
+        "200",
+    ]);
+    let names: Vec<&str> = j["by_coefficient"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["coefficient"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["alpha", "omega", "glb"]);
+}

@@ -365,23 +365,6 @@ mod review {
     }
 }
 
-/// The fixture's invented item data (multidimensional_reference.py) as a CSV with named
-/// items: c* calm, f* focus, d* drive.
-fn subscale_items(dir: &std::path::Path) -> String {
-    let f = fixture("multidimensional.json");
-    let names = [
-        "c1", "c2", "c3", "c4", "f1", "f2", "f3", "f4", "d1", "d2", "d3", "d4",
-    ];
-    let mut text = names.join(",");
-    text.push('\n');
-    for row in f["data"]["responses"].as_array().unwrap() {
-        let cells: Vec<String> = floats(row).iter().map(|x| x.to_string()).collect();
-        text.push_str(&cells.join(","));
-        text.push('\n');
-    }
-    write_file(dir, "subscales.csv", text.as_bytes())
-}
-
 const GROUPS: [&str; 6] = [
     "--factor",
     "calm=c1,c2,c3,c4",
@@ -396,7 +379,7 @@ const GROUPS: [&str; 6] = [
 #[test]
 fn subscales_give_the_reference_coefficients() {
     let dir = scratch("subscales");
-    let file = subscale_items(&dir);
+    let file = subscale_items_csv(&dir);
     let mut args = vec!["items", file.as_str(), "--json"];
     args.extend(GROUPS);
     let j = json_ok(&args);
@@ -470,7 +453,7 @@ fn subscales_give_the_reference_coefficients() {
 #[test]
 fn bad_groups_are_refused_and_small_groups_explained() {
     let dir = scratch("subscales-bad");
-    let file = subscale_items(&dir);
+    let file = subscale_items_csv(&dir);
     let f = file.as_str();
     fails_with(
         &[

@@ -215,3 +215,16 @@ pub fn rendered_dom(browser: &Path, profile: &Path, url: &str, budget_ms: u32) -
     }
     String::from_utf8_lossy(&out.stdout).into_owned()
 }
+
+/// The invented subscale data of tests/reference/multidimensional_reference.py as a CSV in
+/// `dir`: c1–c4 calm, f1–f4 focus, d1–d4 drive.
+pub fn subscale_items_csv(dir: &Path) -> String {
+    let f = fixture("multidimensional.json");
+    let mut text = String::from("c1,c2,c3,c4,f1,f2,f3,f4,d1,d2,d3,d4\n");
+    for row in f["data"]["responses"].as_array().unwrap() {
+        let cells: Vec<String> = floats(row).iter().map(|x| x.to_string()).collect();
+        text.push_str(&cells.join(","));
+        text.push('\n');
+    }
+    write_file(dir, "subscales.csv", text.as_bytes())
+}

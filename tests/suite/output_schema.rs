@@ -273,6 +273,19 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
     ]));
     correct.extend(paths(&run(&[
         "correct",
+        "--r",
+        "0.3",
+        "--n",
+        "150",
+        "--items-x",
+        &demo("candor-items.csv"),
+        "--rel-y",
+        "0.85",
+        "--draws",
+        "500",
+    ])));
+    correct.extend(paths(&run(&[
+        "correct",
         "--data",
         &demo("candor-study.csv"),
         "--outcome",

@@ -422,3 +422,53 @@ fn the_correction_uses_the_reports_benchmark() {
     let shown = r["benchmark"]["reliability"]["estimate"].as_f64().unwrap();
     assert!((used - shown).abs() < 1e-12, "{used} vs {shown}");
 }
+
+/// Issue 14 item 5: the report shows the same side-by-side table as `correct` when the
+/// other score's item data are given (`--items-y`), and results.json holds it.
+#[test]
+fn the_report_shows_the_choice_of_coefficient() {
+    let dir = scratch("report-choice");
+    let sheet = demo_sheet();
+    let items = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("datasets-demo/candor-items.csv")
+        .to_string_lossy()
+        .into_owned();
+    let out_dir = dir.join("out");
+    run_ok(&[
+        "report",
+        &sheet,
+        "--coef",
+        "0.72",
+        "--n",
+        "150",
+        "--items",
+        "10",
+        "--r",
+        "0.3",
+        "--items-y",
+        &items,
+        "--draws",
+        "500",
+        "--out",
+        out_dir.to_str().unwrap(),
+    ]);
+    let r = read_json(&out_dir.join("results.json"));
+    let rows = r["correction"]["by_coefficient"].as_array().unwrap();
+    let names: Vec<&str> = rows
+        .iter()
+        .map(|r| r["coefficient"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["alpha", "omega", "glb"]);
+    // x is the study's coefficient in every row (it has no item data).
+    for row in rows {
+        assert_eq!(row["reliability_x"].as_f64().unwrap(), 0.72);
+    }
+    let html = std::fs::read_to_string(out_dir.join("report.html")).unwrap();
+    assert!(
+        html.contains("The choice of coefficient"),
+        "no table in the page"
+    );
+    assert!(html.contains("greatest lower bound"));
+    let md = std::fs::read_to_string(out_dir.join("report.md")).unwrap();
+    assert!(md.contains("The choice of coefficient"));
+}

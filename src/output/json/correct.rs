@@ -27,10 +27,19 @@ impl CorrectionDocument {
             Correction::Correlation {
                 input,
                 result,
+                choices,
+                scores,
                 warnings,
-            } => CorrectionDocument::Correlation(Box::new(CorrelationDocument::new(
-                input, result, level, warnings, names,
-            ))),
+            } => {
+                let mut doc = CorrelationDocument::new(input, result, level, warnings, names);
+                doc.by_coefficient = choices.iter().map(ChoiceRecord::from).collect();
+                doc.item_data = ["x", "y"]
+                    .iter()
+                    .zip(scores)
+                    .filter_map(|(v, s)| s.as_ref().map(|s| ItemDataRecord::new(v, s)))
+                    .collect();
+                CorrectionDocument::Correlation(Box::new(doc))
+            }
             Correction::Regression {
                 input,
                 result,
@@ -111,8 +120,76 @@ pub struct CorrelationDocument {
     pub reliabilities: Vec<ReliabilityRecord>,
     /// Corrected r over a grid of reliabilities.
     pub sensitivity: Vec<CorrelationCell>,
+    /// The correlation corrected with each coefficient the item data give (empty without
+    /// `--items-x` / `--items-y`).
+    pub by_coefficient: Vec<ChoiceRecord>,
+    /// The item data given for x and y.
+    pub item_data: Vec<ItemDataRecord>,
     /// Warnings.
     pub warnings: Vec<WarningRecord>,
+}
+
+/// One row of `by_coefficient`.
+#[derive(Debug, Clone, Serialize)]
+pub struct ChoiceRecord {
+    /// "alpha", "omega", "omega_total", "omega_hierarchical", "glb" or "given".
+    pub coefficient: &'static str,
+    /// Reliability of x used.
+    pub reliability_x: f64,
+    /// Reliability of y used.
+    pub reliability_y: f64,
+    /// Corrected r (null beyond ±1).
+    pub corrected: Option<f64>,
+    /// r/√(r_xx r_yy), whatever its size.
+    pub corrected_value: f64,
+    /// Classical interval with the reliabilities taken as known (null entirely beyond ±1).
+    pub ci: Option<[f64; 2]>,
+    /// True when an end of `ci` was cut at ±1.
+    pub ci_capped: bool,
+    /// Whether the coefficient is a lower bound (it over-corrects).
+    pub lower_bound: bool,
+}
+
+impl From<&crate::correct::choice::ChoiceRow> for ChoiceRecord {
+    fn from(r: &crate::correct::choice::ChoiceRow) -> Self {
+        ChoiceRecord {
+            coefficient: r.coefficient.name(),
+            reliability_x: r.reliability_x,
+            reliability_y: r.reliability_y,
+            corrected: (r.corrected.abs() <= 1.0).then_some(r.corrected),
+            corrected_value: r.corrected,
+            ci: r.ci.map(|(a, b)| [a, b]),
+            ci_capped: r.ci_capped,
+            lower_bound: r.lower_bound,
+        }
+    }
+}
+
+/// The item data of one score.
+#[derive(Debug, Clone, Serialize)]
+pub struct ItemDataRecord {
+    /// "x" or "y".
+    pub variable: &'static str,
+    /// The file.
+    pub file: String,
+    /// Respondents behind the coefficients.
+    pub n_used: u64,
+    /// Items.
+    pub items: usize,
+    /// The coefficient the main correction took from them (null when a value was given).
+    pub used: Option<&'static str>,
+}
+
+impl ItemDataRecord {
+    fn new(variable: &'static str, s: &crate::analysis::ScoreItems) -> Self {
+        ItemDataRecord {
+            variable,
+            file: s.outcome.data.file.clone(),
+            n_used: s.outcome.analysis.n_used,
+            items: s.outcome.analysis.k,
+            used: s.used.map(|c| c.name()),
+        }
+    }
 }
 
 /// A sensitivity cell.
@@ -166,6 +243,8 @@ impl CorrelationDocument {
                     corrected: s.corrected,
                 })
                 .collect(),
+            by_coefficient: Vec::new(),
+            item_data: Vec::new(),
             warnings: super::warnings(warnings, names),
         }
     }

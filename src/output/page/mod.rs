@@ -480,8 +480,16 @@ impl ReportPage<'_> {
             Section::Correction.title(),
         )];
         match c {
-            Correction::Correlation { input, result, .. } => {
+            Correction::Correlation {
+                input,
+                result,
+                choices,
+                ..
+            } => {
                 out.push(correlation_table(input, result, &level));
+                if !choices.is_empty() {
+                    out.extend(choice_blocks(choices, result.corrected_value, &level));
+                }
                 out.extend(self.figure_blocks(|n| n == "correction"));
             }
             Correction::Regression { input, result, .. } => {
@@ -1162,6 +1170,56 @@ fn spread_words(s: &ScoreSpread, level: &str) -> String {
 }
 
 /// The corrected correlation with its inputs and intervals.
+/// The correction under each coefficient the item data give, beside the main one.
+fn choice_blocks(rows: &[crate::correct::choice::ChoiceRow], main: f64, level: &str) -> Vec<Block> {
+    let c3 = |x: f64| fixed(x, 3);
+    let table = rows
+        .iter()
+        .map(|r| {
+            vec![
+                Inline::text(r.coefficient.words()),
+                Inline::text(c3(r.reliability_x)),
+                Inline::text(c3(r.reliability_y)),
+                Inline::text(if r.corrected.abs() <= 1.0 {
+                    c3(r.corrected)
+                } else {
+                    "beyond ±1".to_string()
+                }),
+                Inline::text(
+                    r.ci.map(|(a, b)| range(a, b, c3))
+                        .unwrap_or_else(|| "beyond ±1".to_string()),
+                ),
+                Inline::text(crate::format::change(r.corrected - main, 3)),
+                Inline::text(if r.lower_bound { "yes" } else { "no" }),
+            ]
+        })
+        .collect();
+    let mut note = crate::output::text::CHOICE_NOTE.to_string();
+    if let Some(extra) = crate::correct::choice::glb_above_omega(rows) {
+        note.push(' ');
+        note.push_str(extra);
+    }
+    vec![
+        Block::Para(Inline::text(
+            "The choice of coefficient: the correlation corrected with each coefficient the \
+             item data give (each row's reliabilities taken as known).",
+        )),
+        Block::table(
+            &[
+                "coefficient",
+                "r_xx",
+                "r_yy",
+                "corrected r",
+                &format!("{level} interval"),
+                "change",
+                "lower bound",
+            ],
+            table,
+        ),
+        Block::Para(Inline::text(note)),
+    ]
+}
+
 fn correlation_table(
     input: &CorrelationInput,
     result: &CorrelationCorrection,

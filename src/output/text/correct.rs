@@ -1,6 +1,8 @@
 //! The readable summaries of a correction (`relyard correct`).
 
 use super::{heading, read_with_care};
+use crate::analysis::ScoreItems;
+use crate::correct::choice::{ChoiceRow, CoefficientChoice};
 use crate::correct::correlation::{CorrelationCorrection, CorrelationInput};
 use crate::correct::regression::{RegressionCorrection, RegressionInput, Spread};
 use crate::format::{fixed, range, thousands, wrap};
@@ -18,6 +20,7 @@ tau-equivalent, alpha is a lower bound and the correction is too large; use omeg
 pub fn correlation_summary(
     input: &CorrelationInput,
     c: &CorrelationCorrection,
+    (choices, scores): (&[ChoiceRow], &[Option<Box<ScoreItems>>; 2]),
     level: Level,
     warnings: &[Warning],
     names: &dyn SettingNames,
@@ -33,15 +36,108 @@ pub fn correlation_summary(
         fixed(c.observed, 3),
         thousands(input.n)
     );
-    let _ = writeln!(o, "  {:<26}{}", "reliability of x", input.rel_x.describe());
-    let _ = writeln!(o, "  {:<26}{}", "reliability of y", input.rel_y.describe());
+    for ((label, rel), s) in [
+        ("reliability of x", &input.rel_x),
+        ("reliability of y", &input.rel_y),
+    ]
+    .into_iter()
+    .zip(scores)
+    {
+        let _ = writeln!(o, "  {label:<26}{}", rel.describe());
+        if let Some(s) = s {
+            let _ = writeln!(o, "  {:<26}{}", "", source_words(s));
+        }
+    }
     let _ = writeln!(o);
+    if !choices.is_empty() {
+        choice_table(&mut o, choices, c.corrected_value, level);
+        let _ = writeln!(o);
+    }
     correlation_grid(&mut o, c);
-    let _ = writeln!(o);
-    o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
+    if choices.is_empty() {
+        let _ = writeln!(o);
+        o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
+    }
     read_with_care(&mut o, warnings, names);
     o
 }
+
+/// Where a score's reliability came from, when it has item data.
+fn source_words(s: &ScoreItems) -> String {
+    use crate::items::Recommendation;
+    let file = &s.outcome.data.file;
+    let Some(used) = s.used else {
+        return format!("(the value given; item data {file} in the table below)");
+    };
+    let why = match (used, s.outcome.analysis.recommendation) {
+        (CoefficientChoice::OmegaTotal, _) => "omega total of the bifactor model of its subscales",
+        (_, Recommendation::CheckDimensionality) => {
+            "alpha: one factor does not describe these items (relyard items says more; give \
+             their subscales to use omega total)"
+        }
+        (_, Recommendation::ReverseKeyFirst | Recommendation::NoCommonVariance) => {
+            "alpha, though the items do not form a scale as they stand (see relyard items)"
+        }
+        (CoefficientChoice::Omega, _) => "omega, as the items' reading recommends",
+        _ => "alpha, as the items' reading recommends",
+    };
+    format!("from {file}: {why}")
+}
+
+/// What the choice of coefficient does: the correction under each coefficient the item data
+/// give, beside the main one.
+fn choice_table(o: &mut String, rows: &[ChoiceRow], main: f64, level: Level) {
+    let c3 = |x: f64| fixed(x, 3);
+    let _ = writeln!(
+        o,
+        "  The choice of coefficient (each row's reliabilities taken as known)"
+    );
+    let _ = writeln!(
+        o,
+        "    {:<24}{:>6}  {:>6}  {:>11}  {:<18} {:>8}",
+        "coefficient",
+        "r_xx",
+        "r_yy",
+        "corrected r",
+        format!("{} interval", level.percent()),
+        "vs above"
+    );
+    for r in rows {
+        let ci =
+            r.ci.map(|(a, b)| range(a, b, c3))
+                .unwrap_or_else(|| "beyond ±1".to_string());
+        let value = if r.corrected.abs() <= 1.0 {
+            c3(r.corrected)
+        } else {
+            "beyond ±1".to_string()
+        };
+        let shift = crate::format::change(r.corrected - main, 3);
+        let bound = if r.lower_bound { "  lower bound" } else { "" };
+        let _ = writeln!(
+            o,
+            "    {:<24}{:>6}  {:>6}  {:>11}  {:<18} {:>8}{bound}",
+            r.coefficient.words(),
+            c3(r.reliability_x),
+            c3(r.reliability_y),
+            value,
+            ci,
+            shift
+        );
+    }
+    let mut note = CHOICE_NOTE.to_string();
+    if let Some(extra) = crate::correct::choice::glb_above_omega(rows) {
+        note.push(' ');
+        note.push_str(extra);
+    }
+    o.push_str(&wrap(&note, 86, "  "));
+}
+
+/// What the choice table shows.
+pub const CHOICE_NOTE: &str = "A lower bound (alpha when the items' loadings differ, the greatest \
+lower bound) understates reliability, so the correction it gives is too large; omega \
+hierarchical is the total score's reliability for the general trait alone, so it gives a \
+larger correction by design. The change column (“vs above” in the text) is each row's change \
+from the corrected r of the main correction.";
 
 /// The corrected correlation and its classical and Monte Carlo intervals.
 fn corrected_correlation(o: &mut String, c: &CorrelationCorrection, level: Level) {

@@ -1,0 +1,207 @@
+//! The choice of coefficient, side by side: one corrected correlation for each reliability
+//! coefficient the item data give (alpha, omega, omega total and hierarchical, the greatest
+//! lower bound) and for a value given instead, with which are lower bounds.
+//!
+//! A lower bound understates reliability, so the correction it gives is too large; omega
+//! hierarchical is the total score's reliability for the general trait alone, so it too
+//! gives a larger correction, on purpose.
+
+use super::correlation::classical_interval;
+use crate::level::Level;
+
+/// Which reliability coefficient a row uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, serde::Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum CoefficientChoice {
+    /// Coefficient alpha (a lower bound unless the items are tau-equivalent).
+    Alpha,
+    /// Omega of the one-factor model.
+    Omega,
+    /// Omega total of the bifactor model.
+    OmegaTotal,
+    /// Omega hierarchical of the bifactor model (the general factor alone).
+    OmegaHierarchical,
+    /// The greatest lower bound.
+    Glb,
+    /// The value given for the score (a retest ICC, a benchmark …).
+    Given,
+}
+
+impl CoefficientChoice {
+    /// Every computed coefficient, in the table's order (the given value comes last).
+    pub const COMPUTED: [CoefficientChoice; 5] = [
+        CoefficientChoice::Alpha,
+        CoefficientChoice::Omega,
+        CoefficientChoice::OmegaTotal,
+        CoefficientChoice::OmegaHierarchical,
+        CoefficientChoice::Glb,
+    ];
+
+    /// The name in the output.
+    pub fn name(self) -> &'static str {
+        match self {
+            CoefficientChoice::Alpha => "alpha",
+            CoefficientChoice::Omega => "omega",
+            CoefficientChoice::OmegaTotal => "omega_total",
+            CoefficientChoice::OmegaHierarchical => "omega_hierarchical",
+            CoefficientChoice::Glb => "glb",
+            CoefficientChoice::Given => "given",
+        }
+    }
+
+    /// Words for the readable table.
+    pub fn words(self) -> &'static str {
+        match self {
+            CoefficientChoice::Alpha => "alpha",
+            CoefficientChoice::Omega => "omega (one factor)",
+            CoefficientChoice::OmegaTotal => "omega total (bifactor)",
+            CoefficientChoice::OmegaHierarchical => "omega hierarchical",
+            CoefficientChoice::Glb => "greatest lower bound",
+            CoefficientChoice::Given => "the value given",
+        }
+    }
+
+    /// Whether the coefficient is a lower bound to reliability (the given value's kind
+    /// decides for `Given`).
+    pub fn is_lower_bound(self) -> bool {
+        matches!(self, CoefficientChoice::Alpha | CoefficientChoice::Glb)
+    }
+}
+
+/// What is known of one score's reliability.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ScoreReliability {
+    /// The coefficients its item data give, when item data were given.
+    pub computed: Option<Vec<(CoefficientChoice, f64)>>,
+    /// The value given for it, with whether that value is a lower bound.
+    pub given: Option<(f64, bool)>,
+    /// The value the main correction uses.
+    pub main: f64,
+}
+
+impl ScoreReliability {
+    /// The value for a row of `choice`: the computed coefficient when the score has item
+    /// data (`None` when it lacks that coefficient), else the value given.
+    fn value(&self, choice: CoefficientChoice) -> Option<f64> {
+        match (choice, &self.computed) {
+            (CoefficientChoice::Given, _) => Some(self.given.map_or(self.main, |g| g.0)),
+            (_, Some(c)) => c.iter().find(|(k, _)| *k == choice).map(|(_, v)| *v),
+            (_, None) => Some(self.main),
+        }
+    }
+}
+
+/// When the greatest lower bound's row corrects less than the omega row — the sample glb's
+/// upward bias at work — the sentence that says so.
+pub fn glb_above_omega(rows: &[ChoiceRow]) -> Option<&'static str> {
+    let find = |c: CoefficientChoice| rows.iter().find(|r| r.coefficient == c);
+    let (glb, omega) = (
+        find(CoefficientChoice::Glb)?,
+        find(CoefficientChoice::Omega)?,
+    );
+    (glb.corrected.abs() < omega.corrected.abs()).then_some(
+        "Here the greatest lower bound lies above omega, which a lower bound cannot do in the \
+         population: a sample glb is biased upward (noticeably below about 1,000 respondents), \
+         so here it corrects less than omega, not more.",
+    )
+}
+
+/// One row of the table.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ChoiceRow {
+    /// The coefficient.
+    pub coefficient: CoefficientChoice,
+    /// Reliability of x used.
+    pub reliability_x: f64,
+    /// Reliability of y used.
+    pub reliability_y: f64,
+    /// r/√(r_xx r_yy), whatever its size.
+    pub corrected: f64,
+    /// The classical interval with the reliabilities taken as known (cut at ±1; `None`
+    /// when it lies entirely beyond).
+    pub ci: Option<(f64, f64)>,
+    /// True when an end of `ci` was cut at ±1.
+    pub ci_capped: bool,
+    /// Whether the row's coefficient is a lower bound (it over-corrects).
+    pub lower_bound: bool,
+}
+
+/// The table: a row for each computed coefficient that every score with item data has
+/// (a score without item data keeps its given value), and a row for the values given when
+/// a score has both item data and a given value.
+pub fn by_coefficient(
+    r: f64,
+    n: u64,
+    level: Level,
+    x: &ScoreReliability,
+    y: &ScoreReliability,
+) -> Vec<ChoiceRow> {
+    if x.computed.is_none() && y.computed.is_none() {
+        return Vec::new();
+    }
+    let given_row = [x, y]
+        .iter()
+        .any(|s| s.computed.is_some() && s.given.is_some());
+    let mut choices: Vec<CoefficientChoice> = CoefficientChoice::COMPUTED.to_vec();
+    if given_row {
+        choices.push(CoefficientChoice::Given);
+    }
+    choices
+        .into_iter()
+        .filter_map(|c| {
+            let (rx, ry) = (x.value(c)?, y.value(c)?);
+            let (ci, ci_capped) = classical_interval(r, n, rx, ry, level);
+            let lower_bound = match c {
+                CoefficientChoice::Given => [x, y].iter().any(|s| s.given.is_some_and(|g| g.1)),
+                _ => c.is_lower_bound(),
+            };
+            Some(ChoiceRow {
+                coefficient: c,
+                reliability_x: rx,
+                reliability_y: ry,
+                corrected: r / (rx * ry).sqrt(),
+                ci,
+                ci_capped,
+                lower_bound,
+            })
+        })
+        .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Rows follow the coefficients the item data give; a lower coefficient gives a larger
+    /// correction; the given value gets its own row only beside item data.
+    #[test]
+    fn rows_follow_the_coefficients_available() {
+        let x = ScoreReliability {
+            computed: Some(vec![
+                (CoefficientChoice::Alpha, 0.78),
+                (CoefficientChoice::Omega, 0.81),
+                (CoefficientChoice::Glb, 0.86),
+            ]),
+            given: Some((0.74, false)),
+            main: 0.74,
+        };
+        let y = ScoreReliability {
+            computed: None,
+            given: Some((0.8, true)),
+            main: 0.8,
+        };
+        let rows = by_coefficient(0.3, 200, Level::NINETY_FIVE, &x, &y);
+        let names: Vec<&str> = rows.iter().map(|r| r.coefficient.name()).collect();
+        assert_eq!(names, ["alpha", "omega", "glb", "given"]);
+        assert!((rows[0].corrected - 0.3 / (0.78f64 * 0.8).sqrt()).abs() < 1e-15);
+        assert!(rows[0].corrected > rows[1].corrected && rows[1].corrected > rows[2].corrected);
+        assert!(rows[0].lower_bound && !rows[1].lower_bound && rows[2].lower_bound);
+        // The given row: x's given value, y's; lower bound because y's value is one.
+        assert_eq!((rows[3].reliability_x, rows[3].reliability_y), (0.74, 0.8));
+        assert!(rows[3].lower_bound);
+        let (lo, hi) = rows[1].ci.unwrap();
+        assert!(lo < rows[1].corrected && rows[1].corrected < hi);
+        // No item data: no table.
+        assert!(by_coefficient(0.3, 200, Level::NINETY_FIVE, &y, &y).is_empty());
+    }
+}
