@@ -183,6 +183,81 @@ fn item_data(c: &mut Criterion) {
     let _ = std::fs::remove_file(&path);
 }
 
+/// Issue 14's own-coefficient workloads: the polychoric matrix of 40 five-point items from
+/// 1,000,000 respondents, the intraclass correlations of 1,000,000 × 4 scores, a bifactor
+/// fit of 40 items in 8 subscales and a one-factor fit of 300 items (invented data).
+fn own_coefficients(c: &mut Criterion) {
+    use relyard::items::factor::{FactorModel, fit_one_factor};
+    use relyard::items::multidimensional::{FactorGroups, Structure, fit_structure};
+    let mut g = Gen(13);
+    let (n, k) = (1_000_000, 40);
+    let mut rows = Vec::with_capacity(n * k);
+    for _ in 0..n {
+        let eta = g.normal();
+        for j in 0..k {
+            let l = 0.4 + 0.4 * j as f64 / k as f64;
+            let x = l * eta + (1.0 - l * l).sqrt() * g.normal();
+            rows.push(((x + 2.5).floor()).clamp(0.0, 4.0) + 1.0);
+        }
+    }
+    let names: Vec<String> = (1..=k).map(|j| format!("q{j}")).collect();
+    let mut group = c.benchmark_group("own coefficients");
+    group.sample_size(10);
+    group.bench_function("polychoric matrix, 40 items x 1,000,000", |b| {
+        b.iter(|| black_box(relyard::items::polychoric::ordinal_items(&rows, k, &names).unwrap()))
+    });
+    drop(rows);
+    let scores: Vec<f64> = (0..1_000_000)
+        .flat_map(|_| {
+            let t = g.normal();
+            (0..4).map(move |j| t + 0.1 * j as f64)
+        })
+        .map(|x| x + 0.5 * g.normal())
+        .collect();
+    group.bench_function("icc, 1,000,000 x 4", |b| {
+        b.iter(|| {
+            black_box(
+                relyard::icc::icc(&scores, 1_000_000, 4, relyard::Level::NINETY_FIVE).unwrap(),
+            )
+        })
+    });
+    let covariance = |k: usize, n: usize, groups: usize, g: &mut Gen| {
+        let mut data = vec![0.0; n * k];
+        for r in 0..n {
+            let general = g.normal();
+            let own: Vec<f64> = (0..groups.max(1)).map(|_| g.normal()).collect();
+            for j in 0..k {
+                let (lg, ls) = (
+                    0.4 + 0.3 * (j % 7) as f64 / 7.0,
+                    0.3 + 0.2 * (j % 3) as f64 / 3.0,
+                );
+                let s = if groups > 0 {
+                    ls * own[j % groups]
+                } else {
+                    0.0
+                };
+                data[r * k + j] = lg * general + s + (1.0 - lg * lg - ls * ls).sqrt() * g.normal();
+            }
+        }
+        let m = nalgebra::DMatrix::from_row_slice(n, k, &data);
+        let centred = &m - nalgebra::DMatrix::from_fn(n, k, |_, j| m.column(j).mean());
+        centred.transpose() * &centred / (n as f64 - 1.0)
+    };
+    let cov40 = covariance(40, 1000, 8, &mut g);
+    let groups = FactorGroups {
+        names: (0..8).map(|h| format!("g{h}")).collect(),
+        of_item: (0..40).map(|j| j % 8).collect(),
+    };
+    group.bench_function("bifactor fit, 40 items in 8 subscales", |b| {
+        b.iter(|| black_box(fit_structure(&cov40, &groups, Structure::Bifactor).unwrap()))
+    });
+    let cov300 = covariance(300, 1000, 0, &mut g);
+    group.bench_function("one-factor fit, 300 items", |b| {
+        b.iter(|| black_box(fit_one_factor(&cov300, FactorModel::Congeneric).unwrap()))
+    });
+    group.finish();
+}
+
 fn monte_carlo(c: &mut Criterion) {
     let input = CorrelationInput {
         r: 0.3,
@@ -226,6 +301,7 @@ criterion_group!(
     multilevel,
     permutations,
     item_data,
+    own_coefficients,
     monte_carlo
 );
 criterion_main!(engine);

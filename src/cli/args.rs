@@ -469,6 +469,11 @@ pub struct ItemsArgs {
     #[arg(long)]
     pub ordinal: bool,
 
+    /// Print only a methods-section paragraph for the coefficient reported, with its
+    /// references (the JSON always holds it as `paragraph`).
+    #[arg(long, conflicts_with = "json")]
+    pub paragraph: bool,
+
     /// A subscale: its name and its items, e.g. --factor calm=q1,q2,q3 (repeat for each
     /// subscale; every item analysed belongs to exactly one). Adds a bifactor and a
     /// correlated-factors model with omega total, omega hierarchical and each subscale's

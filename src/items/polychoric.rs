@@ -236,61 +236,187 @@ pub fn polychoric_matrix(rows: &[f64], k: usize, names: &[String]) -> Result<DMa
     ordinal_items(rows, k, names).map(|o| o.polychoric)
 }
 
-/// The items taken as ordinal: categories, thresholds and polychoric correlations (see
-/// [`polychoric_matrix`]).
-pub fn ordinal_items(rows: &[f64], k: usize, names: &[String]) -> Result<OrdinalItems> {
-    let n = rows.len() / k;
-    let mut codes: Vec<Vec<usize>> = Vec::with_capacity(k);
-    let mut cuts: Vec<Vec<f64>> = Vec::with_capacity(k);
-    let mut all_levels: Vec<Vec<f64>> = Vec::with_capacity(k);
-    for j in 0..k {
-        let mut levels: Vec<f64> = (0..n).map(|i| rows[i * k + j]).collect();
-        levels.sort_by(f64::total_cmp);
-        levels.dedup();
-        if levels.len() > MAX_CATEGORIES {
-            return Err(Error::cannot(format!(
-                "{} takes {} different values: polychoric correlations are for items with at \
-                 most {MAX_CATEGORIES} categories (treat it as continuous)",
-                names[j],
-                levels.len()
-            )));
-        }
-        if levels.len() < 2 {
-            return Err(Error::cannot(format!(
-                "{} takes one value only: it has no polychoric correlation",
-                names[j]
-            )));
-        }
-        let code: Vec<usize> = (0..n)
-            .map(|i| {
-                levels
-                    .iter()
-                    .position(|l| *l == rows[i * k + j])
-                    .unwrap_or(0)
-            })
-            .collect();
-        let mut counts = vec![0u64; levels.len()];
-        for &c in &code {
-            counts[c] += 1;
-        }
-        cuts.push(thresholds(&counts));
-        codes.push(code);
-        all_levels.push(levels);
-    }
-    let mut r = DMatrix::identity(k, k);
-    for a in 0..k {
-        for b in a + 1..k {
-            let mut table = vec![vec![0u64; cuts[b].len() - 1]; cuts[a].len() - 1];
-            for i in 0..n {
-                table[codes[a][i]][codes[b][i]] += 1;
+/// Rows counted together by one worker of the pair tables (a block's tables are added to
+/// the worker's running totals; counts are integers, so the order does not matter).
+const TABLE_BLOCK_ROWS: usize = 16_384;
+
+/// A block of rows coded by its own categories: each item's distinct values in the order
+/// met, and one byte per cell indexing them.
+struct CodedBlock {
+    levels: Vec<Vec<f64>>,
+}
+
+/// Code a block of rows (row by row, k cells each) into `out` by the block's own categories;
+/// `Err(j)` when item j takes more than [`MAX_CATEGORIES`] values in the block.
+fn code_block(values: &[f64], k: usize, out: &mut [u8]) -> std::result::Result<CodedBlock, usize> {
+    /// Marks a small whole value not met yet in the block's look-up table.
+    const UNSEEN: u8 = u8::MAX;
+    let mut levels: Vec<Vec<f64>> = vec![Vec::with_capacity(MAX_CATEGORIES + 1); k];
+    // Whole values from −128 to 127 (nearly every rating scale) are looked up directly.
+    let mut small = vec![[UNSEEN; 256]; k];
+    for (row, coded) in values.chunks_exact(k).zip(out.chunks_exact_mut(k)) {
+        for (j, (v, c)) in row.iter().zip(coded.iter_mut()).enumerate() {
+            let whole = *v as i64;
+            let slot = (whole as f64 == *v && (-128..128).contains(&whole))
+                .then_some((whole + 128) as usize);
+            if let Some(s) = slot
+                && small[j][s] != UNSEEN
+            {
+                *c = small[j][s];
+                continue;
             }
-            let rho = polychoric_pair(&table, &cuts[a], &cuts[b])?;
-            r[(a, b)] = rho;
-            r[(b, a)] = rho;
+            let lv = &mut levels[j];
+            *c = match lv.iter().position(|l| l == v) {
+                Some(i) => i as u8,
+                None if lv.len() < MAX_CATEGORIES => {
+                    lv.push(*v);
+                    (lv.len() - 1) as u8
+                }
+                None => return Err(j),
+            };
+            if let Some(s) = slot {
+                small[j][s] = *c;
+            }
         }
+    }
+    Ok(CodedBlock { levels })
+}
+
+/// Every item's categories (its distinct values in order) and each cell's category, in one
+/// parallel pass over the rows: blocks are coded by their own categories, which are then
+/// merged, sorted, and the blocks' codes mapped to them.
+fn code_rows(rows: &[f64], k: usize, names: &[String]) -> Result<(Vec<Vec<f64>>, Vec<u8>)> {
+    use rayon::prelude::*;
+    let mut codes = vec![0u8; rows.len()];
+    let blocks: Vec<std::result::Result<CodedBlock, usize>> = codes
+        .par_chunks_mut(TABLE_BLOCK_ROWS * k)
+        .zip(rows.par_chunks(TABLE_BLOCK_ROWS * k))
+        .map(|(out, values)| code_block(values, k, out))
+        .collect();
+    let too_many = |j: usize| {
+        Error::cannot(format!(
+            "{} takes more than {MAX_CATEGORIES} different values: polychoric correlations \
+             are for items with at most {MAX_CATEGORIES} categories (treat it as continuous)",
+            names[j]
+        ))
+    };
+    let mut levels: Vec<Vec<f64>> = vec![Vec::new(); k];
+    for b in &blocks {
+        let b = b.as_ref().map_err(|&j| too_many(j))?;
+        for (all, own) in levels.iter_mut().zip(&b.levels) {
+            for v in own {
+                if !all.contains(v) {
+                    all.push(*v);
+                }
+            }
+        }
+    }
+    if let Some(j) = levels.iter().position(|l| l.len() > MAX_CATEGORIES) {
+        return Err(too_many(j));
+    }
+    if let Some(j) = levels.iter().position(|l| l.len() < 2) {
+        return Err(Error::cannot(format!(
+            "{} takes one value only: it has no polychoric correlation",
+            names[j]
+        )));
+    }
+    levels.iter_mut().for_each(|l| l.sort_by(f64::total_cmp));
+    codes
+        .par_chunks_mut(TABLE_BLOCK_ROWS * k)
+        .zip(blocks.par_iter())
+        .for_each(|(out, b)| {
+            let own = &b.as_ref().expect("checked above").levels;
+            let map: Vec<Vec<u8>> = own
+                .iter()
+                .zip(&levels)
+                .map(|(o, all)| {
+                    o.iter()
+                        .map(|v| all.iter().position(|l| l == v).unwrap_or(0) as u8)
+                        .collect()
+                })
+                .collect();
+            for row in out.chunks_exact_mut(k) {
+                for (c, m) in row.iter_mut().zip(&map) {
+                    *c = m[*c as usize];
+                }
+            }
+        });
+    Ok((levels, codes))
+}
+
+/// Each item's categories as bit sets over the rows: `bits[j][c]` has bit i set when row i
+/// answered item j in category c (one pass over the codes, row by row).
+fn category_bits(codes: &[u8], k: usize, sizes: &[usize]) -> Vec<Vec<Vec<u64>>> {
+    let n = codes.len() / k;
+    let words = n.div_ceil(64);
+    let mut bits: Vec<Vec<Vec<u64>>> = sizes.iter().map(|&s| vec![vec![0u64; words]; s]).collect();
+    for (i, row) in codes.chunks_exact(k).enumerate() {
+        let (w, bit) = (i / 64, 1u64 << (i % 64));
+        for (j, &c) in row.iter().enumerate() {
+            bits[j][c as usize][w] |= bit;
+        }
+    }
+    bits
+}
+
+/// The contingency table of items a and b: cell (c, d) counts the rows in both category c
+/// of a and d of b, the popcount of the two bit sets' intersection; the last row and column
+/// follow from the margins.
+fn pair_table(a: &[Vec<u64>], b: &[Vec<u64>], ma: &[u64], mb: &[u64]) -> Vec<Vec<u64>> {
+    let (ca, cb) = (a.len(), b.len());
+    let mut t = vec![vec![0u64; cb]; ca];
+    for c in 0..ca - 1 {
+        for d in 0..cb - 1 {
+            t[c][d] = a[c]
+                .iter()
+                .zip(&b[d])
+                .map(|(x, y)| u64::from((x & y).count_ones()))
+                .sum();
+        }
+        t[c][cb - 1] = ma[c] - t[c][..cb - 1].iter().sum::<u64>();
+    }
+    for d in 0..cb {
+        t[ca - 1][d] = mb[d] - (0..ca - 1).map(|c| t[c][d]).sum::<u64>();
+    }
+    t
+}
+
+/// The items taken as ordinal: categories, thresholds and polychoric correlations (see
+/// [`polychoric_matrix`]). The rows are coded once into one byte per cell (in parallel), the
+/// codes turned into one bit set per item and category, each pair's contingency table counted
+/// from the bit sets' intersections, and the pairs' correlations found in parallel.
+pub fn ordinal_items(rows: &[f64], k: usize, names: &[String]) -> Result<OrdinalItems> {
+    use rayon::prelude::*;
+    let (levels, codes) = code_rows(rows, k, names)?;
+    let sizes: Vec<usize> = levels.iter().map(Vec::len).collect();
+    let bits = category_bits(&codes, k, &sizes);
+    drop(codes);
+    let margins: Vec<Vec<u64>> = bits
+        .iter()
+        .map(|item| {
+            item.iter()
+                .map(|set| set.iter().map(|w| u64::from(w.count_ones())).sum())
+                .collect()
+        })
+        .collect();
+    let cuts: Vec<Vec<f64>> = margins.iter().map(|m| thresholds(m)).collect();
+    let pairs: Vec<(usize, usize)> = (0..k)
+        .flat_map(|a| (a + 1..k).map(move |b| (a, b)))
+        .collect();
+    let rhos: Vec<f64> = pairs
+        .par_iter()
+        .map(|&(a, b)| {
+            let table = pair_table(&bits[a], &bits[b], &margins[a], &margins[b]);
+            polychoric_pair(&table, &cuts[a], &cuts[b])
+        })
+        .collect::<Result<_>>()?;
+    let mut r = DMatrix::identity(k, k);
+    for (&(a, b), rho) in pairs.iter().zip(rhos) {
+        r[(a, b)] = rho;
+        r[(b, a)] = rho;
     }
     Ok(OrdinalItems {
-        levels: all_levels,
+        levels,
         thresholds: cuts,
         polychoric: r,
     })
@@ -352,6 +478,68 @@ mod tests {
         // Independence, and a margin at +∞.
         assert!((bivariate_normal_cdf(0.3, -1.2, 0.0) - phi(0.3) * phi(-1.2)).abs() < 1e-15);
         assert!((bivariate_normal_cdf(0.7, f64::INFINITY, 0.8) - phi(0.7)).abs() < 1e-15);
+    }
+
+    /// Coding by blocks and counting by bit sets give every pair's table as a direct count
+    /// does: three blocks of rows, categories first met in different blocks and orders,
+    /// negative, fractional and large values (which miss the small-value look-up).
+    #[test]
+    fn blockwise_codes_and_bit_set_tables_equal_a_direct_count() {
+        let k = 3;
+        let n = 2 * TABLE_BLOCK_ROWS + 777;
+        let values: [&[f64]; 3] = [
+            &[-2.0, 0.5, 3.0],
+            &[1.0, 2.0, 3.0, 4.0, 5.0],
+            &[1000.0, 7.0],
+        ];
+        let mut state: u64 = 0x2545_F491_4F6C_DD1D;
+        let mut rows = Vec::with_capacity(n * k);
+        for i in 0..n {
+            for (j, v) in values.iter().enumerate() {
+                state ^= state << 13;
+                state ^= state >> 7;
+                state ^= state << 17;
+                // Item 1's value 5 first appears in the last block.
+                let m = if j == 1 && i < 2 * TABLE_BLOCK_ROWS {
+                    4
+                } else {
+                    v.len()
+                };
+                rows.push(v[(state % m as u64) as usize]);
+            }
+        }
+        let names: Vec<String> = (0..k).map(|j| format!("i{j}")).collect();
+        let (levels, codes) = code_rows(&rows, k, &names).unwrap();
+        for (j, v) in values.iter().enumerate() {
+            let mut sorted = v.to_vec();
+            sorted.sort_by(f64::total_cmp);
+            assert_eq!(levels[j], sorted);
+        }
+        let sizes: Vec<usize> = levels.iter().map(Vec::len).collect();
+        let bits = category_bits(&codes, k, &sizes);
+        let margin = |j: usize| -> Vec<u64> {
+            (0..sizes[j])
+                .map(|c| {
+                    rows.iter()
+                        .skip(j)
+                        .step_by(k)
+                        .filter(|v| **v == levels[j][c])
+                        .count() as u64
+                })
+                .collect()
+        };
+        for (a, b) in [(0, 1), (0, 2), (1, 2)] {
+            let got = pair_table(&bits[a], &bits[b], &margin(a), &margin(b));
+            for c in 0..sizes[a] {
+                for d in 0..sizes[b] {
+                    let direct = rows
+                        .chunks_exact(k)
+                        .filter(|r| r[a] == levels[a][c] && r[b] == levels[b][d])
+                        .count() as u64;
+                    assert_eq!(got[c][d], direct, "pair ({a}, {b}) cell ({c}, {d})");
+                }
+            }
+        }
     }
 
     #[test]

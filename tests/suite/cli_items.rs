@@ -555,3 +555,48 @@ fn the_greatest_lower_bound_is_reported_with_its_cautions() {
             .contains("fewer respondents than items")
     );
 }
+
+/// Issue 14 item 6: `items --paragraph` prints a methods paragraph whose numbers are the
+/// JSON's (two decimals), naming the coefficient the reading recommends, with references;
+/// the JSON holds the same paragraph.
+#[test]
+fn the_methods_paragraph_carries_the_reported_coefficient() {
+    let d = demo_items();
+    let base = [
+        "items",
+        d.as_str(),
+        "--items",
+        ITEMS,
+        "--reverse",
+        "btci_04,btci_09",
+        "--scale-min",
+        "1",
+        "--scale-max",
+        "5",
+    ];
+    let mut args = base.to_vec();
+    args.push("--json");
+    let j = json_ok(&args);
+    let mut args = base.to_vec();
+    args.push("--paragraph");
+    let out = run_ok(&args);
+    let text = String::from_utf8_lossy(&out.stdout);
+    let flat = text.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert_eq!(j["recommendation"], "omega");
+    let omega = format!("ω = {:.2}", j["omega"].as_f64().unwrap());
+    let alpha = format!("α = {:.2}", j["alpha"].as_f64().unwrap());
+    assert!(flat.contains(&omega) && flat.contains(&alpha), "{flat}");
+    assert!(flat.contains("not tau-equivalent"), "{flat}");
+    assert!(
+        flat.contains("btci_04 and btci_09 were reverse-keyed"),
+        "{flat}"
+    );
+    assert!(flat.contains("McDonald, R. P. (1999)"), "{flat}");
+    let para = j["paragraph"].as_str().unwrap();
+    assert!(flat.starts_with(&para.split_whitespace().collect::<Vec<_>>().join(" ")));
+    assert!(j["references"].as_array().unwrap().len() >= 2);
+    // --paragraph and --json together are refused.
+    let mut args = base.to_vec();
+    args.extend(["--paragraph", "--json"]);
+    assert_eq!(relyard(&args).status.code(), Some(2));
+}

@@ -76,6 +76,10 @@ pub struct ItemsDocument {
     pub ordinal: Option<OrdinalRecord>,
     /// The bifactor and correlated-factors models (with `--factor`).
     pub multidimensional: Option<MultidimensionalRecord>,
+    /// A methods-section paragraph for the coefficient reported.
+    pub paragraph: String,
+    /// Full references for the paragraph.
+    pub references: Vec<String>,
     /// Warnings.
     pub warnings: Vec<WarningRecord>,
 }
@@ -202,6 +206,7 @@ impl ItemsDocument {
         let (d, a, boot) = (&o.data, &o.analysis, o.bootstrap.as_ref());
         let cov = &d.moments.cov;
         let f = a.factor.as_ref().ok();
+        let paragraph = crate::output::prose::items_paragraph(o);
         ItemsDocument {
             schema_version: SCHEMA_VERSION,
             command: "items",
@@ -272,6 +277,8 @@ impl ItemsDocument {
                 .multidimensional
                 .as_ref()
                 .map(|m| MultidimensionalRecord::new(m, cov, &d.names)),
+            paragraph: paragraph.text.clone(),
+            references: paragraph.citations(),
             warnings: super::warnings(&o.warnings, names),
         }
     }

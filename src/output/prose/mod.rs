@@ -3,10 +3,12 @@
 
 mod benchmark;
 pub mod dependence;
+mod items;
 mod methods;
 mod placement;
 
 pub use benchmark::{benchmark_paragraph, differences_sentence, equal_values_words, share_words};
+pub use items::items_paragraph;
 pub use methods::{MethodsItem, interval_words, methods};
 pub use placement::{ordinal, placement_paragraph, spread_conclusion};
 
@@ -88,6 +90,14 @@ pub enum Reference {
     SelfLiang1987,
     /// Tipton & Pustejovsky (2015), the approximate Hotelling test.
     TiptonPustejovsky2015,
+    /// Feldt (1965), the interval for alpha.
+    Feldt1965,
+    /// McDonald (1999), omega.
+    McDonald1999,
+    /// Rodriguez, Reise & Haviland (2016), bifactor indices.
+    RodriguezReiseHaviland2016,
+    /// Green & Yang (2009), categorical omega.
+    GreenYang2009,
 }
 
 impl Reference {
@@ -208,6 +218,24 @@ impl Reference {
                 adjustments for tests of moderators and model fit using robust variance \
                 estimation in meta-regression. Journal of Educational and Behavioral \
                 Statistics, 40(6), 604–634."
+            }
+            Feldt1965 => {
+                "Feldt, L. S. (1965). The approximate sampling distribution of \
+                Kuder-Richardson reliability coefficient twenty. Psychometrika, 30(3), 357–370."
+            }
+            McDonald1999 => {
+                "McDonald, R. P. (1999). Test theory: A unified treatment. \
+                Mahwah, NJ: Erlbaum."
+            }
+            RodriguezReiseHaviland2016 => {
+                "Rodriguez, A., Reise, S. P., & Haviland, M. G. (2016). \
+                Evaluating bifactor models: Calculating and interpreting statistical indices. \
+                Psychological Methods, 21(2), 137–150."
+            }
+            GreenYang2009 => {
+                "Green, S. B., & Yang, Y. (2009). Reliability of summed item \
+                scores using structural equation modeling: An alternative to coefficient \
+                alpha. Psychometrika, 74(1), 155–167."
             }
             Borenstein2009 => {
                 "Borenstein, M., Hedges, L. V., Higgins, J. P. T., & Rothstein, \
