@@ -6,7 +6,9 @@ use super::ItemsOutcome;
 use super::settings::{CorrectionSettings, ItemSettings, RegressionData, Settings};
 use super::{Progress, Task, with_progress};
 use crate::benchmark::Prepared;
-use crate::correct::choice::{ChoiceRow, CoefficientChoice, ScoreReliability, by_coefficient};
+use crate::correct::choice::{
+    ChoiceRow, CoefficientChoice, ScoreReliability, SlopeChoiceRow, by_coefficient, choices,
+};
 use crate::correct::correlation::{CorrelationCorrection, CorrelationInput, correct_correlation};
 use crate::correct::regression::{RegressionCorrection, RegressionInput, correct_regression};
 use crate::correct::reliability::{BenchmarkAt, benchmark_source};
@@ -43,6 +45,11 @@ pub enum Correction {
         input: Box<RegressionInput>,
         /// The result.
         result: Box<RegressionCorrection>,
+        /// The one predictor's slope corrected with each coefficient the item data give
+        /// (empty without item data).
+        choices: Vec<SlopeChoiceRow>,
+        /// The item data of x (the predictor) and y (the outcome), when given.
+        scores: [Option<Box<ScoreItems>>; 2],
         /// Its warnings.
         warnings: Vec<Warning>,
     },
@@ -268,25 +275,7 @@ pub(crate) fn correct(
                 progress,
                 &mut warnings,
             )?;
-            // The bifactor rows only when a score has subscales (else they repeat omega).
-            let subscales = |sc: &Score| {
-                sc.items
-                    .as_ref()
-                    .is_some_and(|i| matches!(i.outcome.multidimensional, Some(Ok(_))))
-            };
-            if !subscales(&x) && !subscales(&y) {
-                for sc in [&mut x, &mut y] {
-                    if let Some(c) = &mut sc.reliability.computed {
-                        c.retain(|(k, _)| {
-                            !matches!(
-                                k,
-                                CoefficientChoice::OmegaTotal
-                                    | CoefficientChoice::OmegaHierarchical
-                            )
-                        });
-                    }
-                }
-            }
+            trim_bifactor_rows(&mut x, &mut y);
             let input = CorrelationInput {
                 r: *r,
                 n: *n,
@@ -311,6 +300,8 @@ pub(crate) fn correct(
             outcome,
             predictors,
             outcome_reliability,
+            items_x,
+            items_y,
             draws,
             grid,
         } => {
@@ -333,13 +324,119 @@ pub(crate) fn correct(
                 correct_regression(&input, *draws, s.seed, s.level, *grid, tick)
             })?;
             warnings.extend(regression_warnings(&input, &result));
+            let (choices, scores) = if items_x.is_some() || items_y.is_some() {
+                let x = score(
+                    &Some(predictors[0].1.clone()),
+                    items_x,
+                    Setting::Reliabilities,
+                    this,
+                    s,
+                    progress,
+                    &mut warnings,
+                )?;
+                let y = match (outcome_reliability, items_y) {
+                    (None, None) => Score {
+                        source: ReliabilitySource::Point {
+                            value: 1.0,
+                            kind: None,
+                        },
+                        reliability: ScoreReliability {
+                            computed: None,
+                            given: None,
+                            main: 1.0,
+                        },
+                        items: None,
+                    },
+                    (spec, items) => score(
+                        spec,
+                        items,
+                        Setting::Reliabilities,
+                        this,
+                        s,
+                        progress,
+                        &mut warnings,
+                    )?,
+                };
+                let (mut x, mut y) = (x, y);
+                trim_bifactor_rows(&mut x, &mut y);
+                let rows = slope_choices(&input, &x, &y, *draws, s)?;
+                (rows, [x.items, y.items])
+            } else {
+                (Vec::new(), [None, None])
+            };
             Ok(Correction::Regression {
                 input: Box::new(input),
                 result: Box::new(result),
+                choices,
+                scores,
                 warnings,
             })
         }
     }
+}
+
+/// The bifactor rows only when a score has subscales: without them they would repeat omega.
+fn trim_bifactor_rows(x: &mut Score, y: &mut Score) {
+    let subscales = |sc: &Score| {
+        sc.items
+            .as_ref()
+            .is_some_and(|i| matches!(i.outcome.multidimensional, Some(Ok(_))))
+    };
+    if subscales(x) || subscales(y) {
+        return;
+    }
+    for sc in [x, y] {
+        if let Some(c) = &mut sc.reliability.computed {
+            c.retain(|(k, _)| {
+                !matches!(
+                    k,
+                    CoefficientChoice::OmegaTotal | CoefficientChoice::OmegaHierarchical
+                )
+            });
+        }
+    }
+}
+
+/// The one predictor's slope under each coefficient: the regression corrected again with
+/// the row's reliabilities fixed (same draws and seed, so the rows differ only by the
+/// coefficient).
+fn slope_choices(
+    input: &RegressionInput,
+    x: &Score,
+    y: &Score,
+    draws: usize,
+    s: &Settings,
+) -> Result<Vec<SlopeChoiceRow>> {
+    let mut rows = Vec::new();
+    for (c, rx, ry, lower_bound) in choices(&x.reliability, &y.reliability) {
+        let mut fixed = input.clone();
+        fixed.rel[0] = ReliabilitySource::Point {
+            value: rx,
+            kind: None,
+        };
+        fixed.rel_y = Some(ReliabilitySource::Point {
+            value: ry,
+            kind: None,
+        });
+        let r = correct_regression(&fixed, draws, s.seed, s.level, 2, &|_| {})?;
+        let (slope, standardized) = match &r.estimate.corrected {
+            Ok(k) => (Ok(k.slopes[0]), Some(k.standardized[0])),
+            Err(why) => (Err(why.clone()), None),
+        };
+        rows.push(SlopeChoiceRow {
+            coefficient: c,
+            reliability_x: rx,
+            reliability_y: ry,
+            slope,
+            standardized,
+            ci: r
+                .intervals_determined
+                .then(|| r.corrected_spread[0].as_ref().map(|sp| sp.ci))
+                .flatten(),
+            lower_bound,
+        });
+    }
+    Ok(rows)
 }
 
 fn correlation_warnings(input: &CorrelationInput, c: &CorrelationCorrection) -> Vec<Warning> {

@@ -168,6 +168,10 @@ pub enum CorrectionSettings {
         predictors: Vec<(String, ReliabilitySpec)>,
         /// The outcome's reliability, when given.
         outcome_reliability: Option<ReliabilitySpec>,
+        /// Item data of the one predictor: its coefficients, side by side.
+        items_x: Option<Box<ItemSettings>>,
+        /// Item data of the outcome.
+        items_y: Option<Box<ItemSettings>>,
         /// Monte Carlo draws or bootstrap samples.
         draws: usize,
         /// Points per reliability in the sensitivity table.

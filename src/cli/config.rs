@@ -750,11 +750,20 @@ fn regression(a: &CorrectArgs) -> Result<CorrectionSettings, Failure> {
         ));
     }
     let (predictors, outcome_reliability) = regression_reliabilities(a, &outcome)?;
+    let si = &a.score_items;
+    if (si.items_x.is_some() || si.items_y.is_some()) && a.predictors.len() != 1 {
+        return Err(usage(
+            "--items-x and --items-y compare coefficients for a regression with one predictor \
+             (x) and its outcome (y); give one --predictor",
+        ));
+    }
     Ok(CorrectionSettings::Regression {
         data: regression_data(a)?,
         outcome,
         predictors,
         outcome_reliability,
+        items_x: score_items(si, &a.missing_codes, Score::X)?,
+        items_y: score_items(si, &a.missing_codes, Score::Y)?,
         draws: a.draws,
         grid: a.grid,
     })

@@ -38,10 +38,13 @@ pub fn run_correct(a: CorrectArgs) -> Result<(), Failure> {
         Correction::Regression {
             input,
             result,
+            choices,
+            scores,
             warnings,
         } => print(&regression_summary(
             input,
             result,
+            (choices, scores),
             settings.level,
             warnings,
             &OptionNames,

@@ -91,15 +91,19 @@ impl ScoreReliability {
     }
 }
 
-/// When the greatest lower bound's row corrects less than the omega row — the sample glb's
-/// upward bias at work — the sentence that says so.
-pub fn glb_above_omega(rows: &[ChoiceRow]) -> Option<&'static str> {
-    let find = |c: CoefficientChoice| rows.iter().find(|r| r.coefficient == c);
+/// When the greatest lower bound's row has larger reliabilities than the omega row — the
+/// sample glb's upward bias at work — the sentence that says so. `rows` are each row's
+/// coefficient and reliabilities of x and y.
+pub fn glb_above_omega(
+    rows: impl IntoIterator<Item = (CoefficientChoice, f64, f64)>,
+) -> Option<&'static str> {
+    let rows: Vec<_> = rows.into_iter().collect();
+    let find = |c: CoefficientChoice| rows.iter().find(|r| r.0 == c).map(|r| r.1 * r.2);
     let (glb, omega) = (
         find(CoefficientChoice::Glb)?,
         find(CoefficientChoice::Omega)?,
     );
-    (glb.corrected.abs() < omega.corrected.abs()).then_some(
+    (glb > omega).then_some(
         "Here the greatest lower bound lies above omega, which a lower bound cannot do in the \
          population: a sample glb is biased upward (noticeably below about 1,000 respondents), \
          so here it corrects less than omega, not more.",
@@ -126,9 +130,38 @@ pub struct ChoiceRow {
     pub lower_bound: bool,
 }
 
-/// The table: a row for each computed coefficient that every score with item data has
-/// (a score without item data keeps its given value), and a row for the values given when
-/// a score has both item data and a given value.
+/// The table's rows before any correction: a row for each computed coefficient that every
+/// score with item data has (a score without item data keeps its given value), and a row
+/// for the values given when a score has both item data and a given value; each with the
+/// reliabilities of x and y and whether the row's coefficient is a lower bound.
+pub fn choices(
+    x: &ScoreReliability,
+    y: &ScoreReliability,
+) -> Vec<(CoefficientChoice, f64, f64, bool)> {
+    if x.computed.is_none() && y.computed.is_none() {
+        return Vec::new();
+    }
+    let given_row = [x, y]
+        .iter()
+        .any(|s| s.computed.is_some() && s.given.is_some());
+    let mut all: Vec<CoefficientChoice> = CoefficientChoice::COMPUTED.to_vec();
+    if given_row {
+        all.push(CoefficientChoice::Given);
+    }
+    all.into_iter()
+        .filter_map(|c| {
+            let (rx, ry) = (x.value(c)?, y.value(c)?);
+            let lower_bound = match c {
+                CoefficientChoice::Given => [x, y].iter().any(|s| s.given.is_some_and(|g| g.1)),
+                _ => c.is_lower_bound(),
+            };
+            Some((c, rx, ry, lower_bound))
+        })
+        .collect()
+}
+
+/// The correlation's table (see [`choices`]): each row's r/√(r_xx r_yy) and its classical
+/// interval with the reliabilities taken as known.
 pub fn by_coefficient(
     r: f64,
     n: u64,
@@ -136,26 +169,11 @@ pub fn by_coefficient(
     x: &ScoreReliability,
     y: &ScoreReliability,
 ) -> Vec<ChoiceRow> {
-    if x.computed.is_none() && y.computed.is_none() {
-        return Vec::new();
-    }
-    let given_row = [x, y]
-        .iter()
-        .any(|s| s.computed.is_some() && s.given.is_some());
-    let mut choices: Vec<CoefficientChoice> = CoefficientChoice::COMPUTED.to_vec();
-    if given_row {
-        choices.push(CoefficientChoice::Given);
-    }
-    choices
+    choices(x, y)
         .into_iter()
-        .filter_map(|c| {
-            let (rx, ry) = (x.value(c)?, y.value(c)?);
+        .map(|(c, rx, ry, lower_bound)| {
             let (ci, ci_capped) = classical_interval(r, n, rx, ry, level);
-            let lower_bound = match c {
-                CoefficientChoice::Given => [x, y].iter().any(|s| s.given.is_some_and(|g| g.1)),
-                _ => c.is_lower_bound(),
-            };
-            Some(ChoiceRow {
+            ChoiceRow {
                 coefficient: c,
                 reliability_x: rx,
                 reliability_y: ry,
@@ -163,9 +181,30 @@ pub fn by_coefficient(
                 ci,
                 ci_capped,
                 lower_bound,
-            })
+            }
         })
         .collect()
+}
+
+/// One row of a regression's table: the one predictor's corrected slope under the row's
+/// coefficients.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SlopeChoiceRow {
+    /// The coefficient.
+    pub coefficient: CoefficientChoice,
+    /// Reliability of the predictor (x) used.
+    pub reliability_x: f64,
+    /// Reliability of the outcome (y) used (1 when none was given).
+    pub reliability_y: f64,
+    /// The corrected slope, or why there is none.
+    pub slope: std::result::Result<f64, String>,
+    /// The corrected slope standardized on the true-score SDs.
+    pub standardized: Option<f64>,
+    /// The slope's percentile interval over the draws, with the row's reliabilities taken
+    /// as known (`None` when the draws do not determine it).
+    pub ci: Option<(f64, f64)>,
+    /// Whether the row's coefficient is a lower bound (it over-corrects).
+    pub lower_bound: bool,
 }
 
 #[cfg(test)]

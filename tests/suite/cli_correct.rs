@@ -521,3 +521,86 @@ fn item_data_options_are_checked() {
         .collect();
     assert_eq!(names, ["alpha", "omega", "glb"]);
 }
+
+/// Issue 14 item 5 for a regression with one predictor: each row's slope is the ordinary
+/// slope over the row's reliability of the predictor (the errors-in-variables slope with one
+/// predictor, b/ρ; Fuller 1987, section 1.1), the row with the values given is the main
+/// correction (same slope and interval, same draws and seed), and lower bounds are marked.
+#[test]
+fn item_data_give_a_regression_slope_under_each_coefficient() {
+    let dir = scratch("correct-slope-choice");
+    let items = demo_file("candor-items.csv");
+    let text = std::fs::read_to_string(&items).unwrap();
+    // One score per respondent with every answer: the mean of the ten items, and an invented
+    // outcome that depends on it.
+    let mut data = String::from("respondent,candor,engagement\n");
+    for (i, line) in text.lines().skip(1).enumerate() {
+        let cells: Vec<&str> = line.split(',').collect();
+        let values: Vec<f64> = cells[1..].iter().filter_map(|c| c.parse().ok()).collect();
+        if values.len() == 10 {
+            let x = values.iter().sum::<f64>() / 10.0;
+            let noise = ((i * 7919) % 101) as f64 / 50.0 - 1.0;
+            data.push_str(&format!("{},{x:.3},{:.3}\n", cells[0], 0.4 * x + noise));
+        }
+    }
+    let file = write_file(&dir, "regression.csv", data.as_bytes());
+    let j = json_ok(&[
+        "correct",
+        "--data",
+        &file,
+        "--outcome",
+        "engagement",
+        "--predictor",
+        "candor",
+        "--rel",
+        "candor=0.8",
+        "--items-x",
+        &items,
+        "--draws",
+        "400",
+        "--json",
+    ]);
+    let rows = j["by_coefficient"].as_array().unwrap();
+    let names: Vec<&str> = rows
+        .iter()
+        .map(|r| r["coefficient"].as_str().unwrap())
+        .collect();
+    assert_eq!(names, ["alpha", "omega", "glb", "given"]);
+    let ols = j["coefficients"][0]["ols"].as_f64().unwrap();
+    for r in rows {
+        let rx = r["reliability_x"].as_f64().unwrap();
+        assert_close(
+            r["corrected"].as_f64().unwrap(),
+            ols / rx,
+            1e-10,
+            1e-12,
+            "b/ρ",
+        );
+        assert_eq!(r["reliability_y"].as_f64().unwrap(), 1.0);
+        let bound = matches!(r["coefficient"].as_str().unwrap(), "alpha" | "glb");
+        assert_eq!(r["lower_bound"], bound);
+    }
+    let given = &rows[3];
+    assert_eq!(given["corrected"], j["coefficients"][0]["corrected"]);
+    assert_eq!(given["ci"], j["coefficients"][0]["ci"]);
+    // Two predictors with item data are refused.
+    let out = relyard(&[
+        "correct",
+        "--data",
+        &file,
+        "--outcome",
+        "engagement",
+        "--predictor",
+        "candor",
+        "--predictor",
+        "respondent",
+        "--rel",
+        "candor=0.8",
+        "--rel",
+        "respondent=1",
+        "--items-x",
+        &items,
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("one predictor"));
+}

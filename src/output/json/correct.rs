@@ -33,20 +33,21 @@ impl CorrectionDocument {
             } => {
                 let mut doc = CorrelationDocument::new(input, result, level, warnings, names);
                 doc.by_coefficient = choices.iter().map(ChoiceRecord::from).collect();
-                doc.item_data = ["x", "y"]
-                    .iter()
-                    .zip(scores)
-                    .filter_map(|(v, s)| s.as_ref().map(|s| ItemDataRecord::new(v, s)))
-                    .collect();
+                doc.item_data = item_data(scores);
                 CorrectionDocument::Correlation(Box::new(doc))
             }
             Correction::Regression {
                 input,
                 result,
+                choices,
+                scores,
                 warnings,
-            } => CorrectionDocument::Regression(Box::new(RegressionDocument::new(
-                input, result, level, warnings, names,
-            ))),
+            } => {
+                let mut doc = RegressionDocument::new(input, result, level, warnings, names);
+                doc.by_coefficient = choices.iter().map(SlopeChoiceRecord::from).collect();
+                doc.item_data = item_data(scores);
+                CorrectionDocument::Regression(Box::new(doc))
+            }
         }
     }
 }
@@ -161,6 +162,52 @@ impl From<&crate::correct::choice::ChoiceRow> for ChoiceRecord {
             ci: r.ci.map(|(a, b)| [a, b]),
             ci_capped: r.ci_capped,
             lower_bound: r.lower_bound,
+        }
+    }
+}
+
+/// The item data of x and y, when given.
+fn item_data(scores: &[Option<Box<crate::analysis::ScoreItems>>; 2]) -> Vec<ItemDataRecord> {
+    ["x", "y"]
+        .iter()
+        .zip(scores)
+        .filter_map(|(v, s)| s.as_ref().map(|s| ItemDataRecord::new(v, s)))
+        .collect()
+}
+
+/// One row of a regression's `by_coefficient`.
+#[derive(Debug, Clone, Serialize)]
+pub struct SlopeChoiceRecord {
+    /// "alpha", "omega", "omega_total", "omega_hierarchical", "glb" or "given".
+    pub coefficient: &'static str,
+    /// Reliability of the predictor used.
+    pub reliability_x: f64,
+    /// Reliability of the outcome used (1 when none was given).
+    pub reliability_y: f64,
+    /// The predictor's corrected slope (null when the correction is impossible).
+    pub corrected: Option<f64>,
+    /// The corrected slope standardized on the true-score SDs.
+    pub corrected_standardized: Option<f64>,
+    /// Percentile interval of the corrected slope with the row's reliabilities taken as
+    /// known (null when the draws do not determine it).
+    pub ci: Option<[f64; 2]>,
+    /// Whether the coefficient is a lower bound (it over-corrects).
+    pub lower_bound: bool,
+    /// Why the correction is impossible, when it is.
+    pub note: Option<String>,
+}
+
+impl From<&crate::correct::choice::SlopeChoiceRow> for SlopeChoiceRecord {
+    fn from(r: &crate::correct::choice::SlopeChoiceRow) -> Self {
+        SlopeChoiceRecord {
+            coefficient: r.coefficient.name(),
+            reliability_x: r.reliability_x,
+            reliability_y: r.reliability_y,
+            corrected: r.slope.as_ref().ok().copied(),
+            corrected_standardized: r.standardized,
+            ci: r.ci.map(|(a, b)| [a, b]),
+            lower_bound: r.lower_bound,
+            note: r.slope.as_ref().err().cloned(),
         }
     }
 }
@@ -327,6 +374,11 @@ pub struct RegressionDocument {
     pub sensitivity: Vec<SensitivityRow>,
     /// The equivalence with a structural model.
     pub note: &'static str,
+    /// The one predictor's slope corrected with each coefficient the item data give (empty
+    /// without `--items-x` / `--items-y`).
+    pub by_coefficient: Vec<SlopeChoiceRecord>,
+    /// The item data given for the predictor (x) and the outcome (y).
+    pub item_data: Vec<ItemDataRecord>,
     /// Warnings.
     pub warnings: Vec<WarningRecord>,
 }
@@ -429,6 +481,8 @@ impl RegressionDocument {
                 })
                 .collect(),
             note: SEM_NOTE,
+            by_coefficient: Vec::new(),
+            item_data: Vec::new(),
             warnings: super::warnings(warnings, names),
         }
     }

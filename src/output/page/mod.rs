@@ -1195,7 +1195,10 @@ fn choice_blocks(rows: &[crate::correct::choice::ChoiceRow], main: f64, level: &
         })
         .collect();
     let mut note = crate::output::text::CHOICE_NOTE.to_string();
-    if let Some(extra) = crate::correct::choice::glb_above_omega(rows) {
+    let reliabilities = rows
+        .iter()
+        .map(|r| (r.coefficient, r.reliability_x, r.reliability_y));
+    if let Some(extra) = crate::correct::choice::glb_above_omega(reliabilities) {
         note.push(' ');
         note.push_str(extra);
     }

@@ -2,7 +2,7 @@
 
 use super::{heading, read_with_care};
 use crate::analysis::ScoreItems;
-use crate::correct::choice::{ChoiceRow, CoefficientChoice};
+use crate::correct::choice::{ChoiceRow, CoefficientChoice, SlopeChoiceRow};
 use crate::correct::correlation::{CorrelationCorrection, CorrelationInput};
 use crate::correct::regression::{RegressionCorrection, RegressionInput, Spread};
 use crate::format::{fixed, range, thousands, wrap};
@@ -125,7 +125,73 @@ fn choice_table(o: &mut String, rows: &[ChoiceRow], main: f64, level: Level) {
         );
     }
     let mut note = CHOICE_NOTE.to_string();
-    if let Some(extra) = crate::correct::choice::glb_above_omega(rows) {
+    let reliabilities = rows
+        .iter()
+        .map(|r| (r.coefficient, r.reliability_x, r.reliability_y));
+    if let Some(extra) = crate::correct::choice::glb_above_omega(reliabilities) {
+        note.push(' ');
+        note.push_str(extra);
+    }
+    o.push_str(&wrap(&note, 86, "  "));
+}
+
+/// The regression's choice table: the one predictor's corrected slope under each
+/// coefficient, beside the main correction's.
+fn slope_choice_table(
+    o: &mut String,
+    input: &RegressionInput,
+    c: &RegressionCorrection,
+    (rows, scores): (&[SlopeChoiceRow], &[Option<Box<ScoreItems>>; 2]),
+    level: Level,
+) {
+    let c3 = |x: f64| fixed(x, 3);
+    let main = c.estimate.corrected.as_ref().ok().map(|k| k.slopes[0]);
+    let _ = writeln!(
+        o,
+        "  The choice of coefficient: the slope of {} under each (reliabilities taken as known)",
+        input.predictors[0]
+    );
+    for (label, s) in ["x (the predictor)", "y (the outcome)"].iter().zip(scores) {
+        if let Some(s) = s {
+            let _ = writeln!(o, "    {label}: {}", source_words(s));
+        }
+    }
+    let _ = writeln!(
+        o,
+        "    {:<24}{:>6}  {:>6}  {:>9}  {:<20} {:>8}",
+        "coefficient",
+        "r_xx",
+        "r_yy",
+        "slope",
+        format!("{} interval", level.percent()),
+        "vs above"
+    );
+    for r in rows {
+        let (value, shift) = match (&r.slope, main) {
+            (Ok(b), Some(m)) => (c3(*b), crate::format::change(b - m, 3)),
+            (Ok(b), None) => (c3(*b), String::new()),
+            (Err(_), _) => ("impossible".to_string(), String::new()),
+        };
+        let ci =
+            r.ci.map(|(a, b)| range(a, b, c3))
+                .unwrap_or_else(|| "–".to_string());
+        let bound = if r.lower_bound { "  lower bound" } else { "" };
+        let _ = writeln!(
+            o,
+            "    {:<24}{:>6}  {:>6}  {:>9}  {:<20} {:>8}{bound}",
+            r.coefficient.words(),
+            c3(r.reliability_x),
+            c3(r.reliability_y),
+            value,
+            ci,
+            shift
+        );
+    }
+    let mut note = CHOICE_NOTE.to_string();
+    let reliabilities = rows
+        .iter()
+        .map(|r| (r.coefficient, r.reliability_x, r.reliability_y));
+    if let Some(extra) = crate::correct::choice::glb_above_omega(reliabilities) {
         note.push(' ');
         note.push_str(extra);
     }
@@ -137,7 +203,7 @@ pub const CHOICE_NOTE: &str = "A lower bound (alpha when the items' loadings dif
 lower bound) understates reliability, so the correction it gives is too large; omega \
 hierarchical is the total score's reliability for the general trait alone, so it gives a \
 larger correction by design. The change column (“vs above” in the text) is each row's change \
-from the corrected r of the main correction.";
+from the main correction above.";
 
 /// The corrected correlation and its classical and Monte Carlo intervals.
 fn corrected_correlation(o: &mut String, c: &CorrelationCorrection, level: Level) {
@@ -243,6 +309,7 @@ fn correlation_grid(o: &mut String, c: &CorrelationCorrection) {
 pub fn regression_summary(
     input: &RegressionInput,
     c: &RegressionCorrection,
+    (choices, scores): (&[SlopeChoiceRow], &[Option<Box<ScoreItems>>; 2]),
     level: Level,
     warnings: &[Warning],
     names: &dyn SettingNames,
@@ -265,8 +332,14 @@ pub fn regression_summary(
     let _ = writeln!(o);
     slope_sensitivity(&mut o, input, c);
     let _ = writeln!(o);
+    if !choices.is_empty() {
+        slope_choice_table(&mut o, input, c, (choices, scores), level);
+        let _ = writeln!(o);
+    }
     o.push_str(&wrap(SEM_NOTE, 86, "  "));
-    o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
+    if choices.is_empty() {
+        o.push_str(&wrap(LOWER_BOUND_NOTE, 86, "  "));
+    }
     read_with_care(&mut o, warnings, names);
     o
 }
