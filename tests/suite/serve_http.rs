@@ -957,6 +957,10 @@ fn the_page_driven_through_explain_items_study_and_report() {
     assert_eq!(items["recommendation"], "omega");
     let omega = f3(&items["omega"]);
     d.wait_for("#carry", |t| t.contains(&omega));
+    // The greatest lower bound and the methods paragraph, as the command line gives them.
+    let glb = d.text("#i-glb");
+    assert!(glb.starts_with(&f3(&items["glb"]["value"])), "{glb}");
+    assert_eq!(d.text("#i-paragraph"), items["paragraph"].as_str().unwrap());
     d.click("#carry");
     assert_eq!(d.property("#s-coef", "value"), omega.as_str());
     assert_eq!(
@@ -1158,6 +1162,7 @@ fn the_explain_items_and_correction_steps_give_the_command_lines_numbers() {
         "tau_equivalence",
         "recommendation",
         "score",
+        "glb",
     ] {
         assert_eq!(page[key], cli[key], "{key}");
     }
@@ -1171,6 +1176,7 @@ fn the_explain_items_and_correction_steps_give_the_command_lines_numbers() {
     ]);
     assert_eq!(ordinal["ordinal"], cli_ordinal["ordinal"]);
     assert!(ordinal["ordinal"]["alpha"].as_f64().is_some());
+    assert!(ordinal["ordinal"]["omega"].as_f64().is_some());
     // An uploaded item file is read from memory, under the name the page gave.
     let items = std::fs::read(demo_file("candor-items.csv")).unwrap();
     let up = s.post("/api/items?name=mine.csv", &items).json();

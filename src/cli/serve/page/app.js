@@ -377,14 +377,23 @@
     $("i-k").textContent = String(doc.items);
     $("i-alpha").textContent = fmt(doc.alpha, 3) + " (" + interval(doc.alpha_ci_feldt, 3) + ")";
     $("i-omega").textContent = fmt(doc.omega, 3);
+    const glb = doc.glb || {};
+    $("i-glb").textContent = typeof glb.value === "number"
+      ? fmt(glb.value, 3) + (glb.small_sample ? " (biased upward below about 1,000 respondents)" : "")
+      : "not available: " + (glb.note || "");
+    $("i-glb-caution").hidden = typeof glb.value !== "number";
+    $("i-glb-caution").textContent = glb.caution || "";
+    $("i-paragraph").textContent = doc.paragraph || "";
     const t = doc.tau_equivalence;
     $("i-tau").textContent = t ? "χ² = " + fmt(t.chi2, 1) + ", df " + t.df + ", p " + pvalue(t.p) : "not tested";
     $("i-sd").textContent = doc.score ? fmt(doc.score.sum_sd, 2) : "—";
     const ord = doc.ordinal;
     $("i-ordinal-row").hidden = !ord;
+    $("i-categorical-row").hidden = !ord;
     $("i-ordinal-caution").hidden = !ord;
     if (ord) {
       $("i-ordinal-alpha").textContent = typeof ord.alpha === "number" ? fmt(ord.alpha, 3) : "not available: " + (ord.note || "");
+      $("i-categorical").textContent = typeof ord.omega === "number" ? fmt(ord.omega, 3) : "not available: " + (ord.omega_note || ord.note || "");
       $("i-ordinal-caution").textContent = ord.caution || "";
     }
     const carried = carriedCoefficient(doc);
