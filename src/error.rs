@@ -110,6 +110,20 @@ pub enum Error {
 }
 
 impl Error {
+    /// The same error with `prefix` put before its message (a file's problems and an
+    /// input-output failure already name their file and are kept as they are).
+    pub fn in_context(self, prefix: &str) -> Self {
+        match self {
+            Error::InvalidSetting { setting, message } => Error::InvalidSetting {
+                setting,
+                message: message.prefixed(prefix.to_string()),
+            },
+            Error::CannotAnalyse(m) => Error::CannotAnalyse(m.prefixed(prefix.to_string())),
+            Error::Numerical(m) => Error::Numerical(format!("{prefix}{m}")),
+            other => other,
+        }
+    }
+
     /// True when the fault lies in the user's input or settings (exit status 2).
     pub fn is_bad_input(&self) -> bool {
         matches!(

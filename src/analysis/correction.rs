@@ -118,7 +118,9 @@ fn recommended(o: &ItemsOutcome) -> (CoefficientChoice, f64, CoefType) {
     use crate::items::Recommendation;
     let a = &o.analysis;
     if let Some(Ok(m)) = &o.multidimensional
-        && let Some(w) = &m.omegas
+        && let (Some(w), Ok(fit)) = (&m.omegas, &m.bifactor)
+        && fit.stop.converged()
+        && fit.heywood.is_empty()
     {
         return (
             CoefficientChoice::OmegaTotal,
@@ -146,7 +148,15 @@ fn score(
     warnings: &mut Vec<Warning>,
 ) -> Result<Score> {
     let outcome = match items {
-        Some(i) => Some(super::items::items(i, s, progress)?),
+        Some(i) => {
+            let which = if setting == Setting::ReliabilityY {
+                "y"
+            } else {
+                "x"
+            };
+            let context = format!("the item data of {which} ({}): ", i.path.display());
+            Some(super::items::items(i, s, progress).map_err(|e| e.in_context(&context))?)
+        }
         None => None,
     };
     if let Some(o) = &outcome {
@@ -347,15 +357,27 @@ pub(crate) fn correct(
                         },
                         items: None,
                     },
-                    (spec, items) => score(
-                        spec,
-                        items,
-                        Setting::Reliabilities,
-                        this,
-                        s,
-                        progress,
-                        &mut warnings,
-                    )?,
+                    (spec, items) => {
+                        let mut y = score(
+                            spec,
+                            items,
+                            Setting::ReliabilityY,
+                            this,
+                            s,
+                            progress,
+                            &mut warnings,
+                        )?;
+                        // Without an outcome reliability the main correction used none (1):
+                        // the table's given row does the same, and nothing was taken from the
+                        // items.
+                        if spec.is_none() {
+                            y.reliability.main = 1.0;
+                            if let Some(i) = &mut y.items {
+                                i.used = None;
+                            }
+                        }
+                        y
+                    }
                 };
                 let (mut x, mut y) = (x, y);
                 trim_bifactor_rows(&mut x, &mut y);
@@ -409,15 +431,19 @@ fn slope_choices(
 ) -> Result<Vec<SlopeChoiceRow>> {
     let mut rows = Vec::new();
     for (c, rx, ry, lower_bound) in choices(&x.reliability, &y.reliability) {
+        // The given row is the main correction itself (its reliabilities drawn as given);
+        // the others fix the row's coefficients.
         let mut fixed = input.clone();
-        fixed.rel[0] = ReliabilitySource::Point {
-            value: rx,
-            kind: None,
-        };
-        fixed.rel_y = Some(ReliabilitySource::Point {
-            value: ry,
-            kind: None,
-        });
+        if c != CoefficientChoice::Given {
+            fixed.rel[0] = ReliabilitySource::Point {
+                value: rx,
+                kind: None,
+            };
+            fixed.rel_y = Some(ReliabilitySource::Point {
+                value: ry,
+                kind: None,
+            });
+        }
         let r = correct_regression(&fixed, draws, s.seed, s.level, 2, &|_| {})?;
         let (slope, standardized) = match &r.estimate.corrected {
             Ok(k) => (Ok(k.slopes[0]), Some(k.standardized[0])),

@@ -428,6 +428,12 @@ pub fn items(a: ItemsArgs) -> Result<Settings, Failure> {
             .collect()
     };
     let items = names(&a.items);
+    if a.ordinal && a.pairwise {
+        return Err(usage(
+            "--ordinal counts the respondents who answered every item, so it does not go with \
+             --pairwise",
+        ));
+    }
     Ok(Settings {
         items: Some(ItemSettings {
             path: input_path(a.data),
@@ -478,6 +484,16 @@ fn parse_factor(spec: &str, index: usize, all: &[String]) -> Result<FactorSpec, 
     if name.is_empty() || items.is_empty() {
         return Err(usage(format!(
             "--factor {spec:?}: give a group's name and at least one item, as NAME=ITEM,ITEM,…"
+        )));
+    }
+    if let Some(twice) = items
+        .iter()
+        .enumerate()
+        .find(|(i, it)| items[..*i].contains(it))
+    {
+        return Err(usage(format!(
+            "--factor {spec:?}: {} is named twice in the group",
+            twice.1
         )));
     }
     let earlier = all[..index]

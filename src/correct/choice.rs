@@ -104,9 +104,11 @@ pub fn glb_above_omega(
         find(CoefficientChoice::Omega)?,
     );
     (glb > omega).then_some(
-        "Here the greatest lower bound lies above omega, which a lower bound cannot do in the \
-         population: a sample glb is biased upward (noticeably below about 1,000 respondents), \
-         so here it corrects less than omega, not more.",
+        "Here the greatest lower bound lies above one-factor omega. A lower bound cannot \
+         exceed the reliability, so either the sample glb is biased upward (noticeably below \
+         about 1,000 respondents) or one-factor omega understates the reliability because one \
+         factor does not describe the items (see relyard items); either way the glb corrects \
+         less than omega here, not more.",
     )
 }
 
@@ -151,9 +153,16 @@ pub fn choices(
     all.into_iter()
         .filter_map(|c| {
             let (rx, ry) = (x.value(c)?, y.value(c)?);
+            // A score without item data keeps its given value in every row, so a lower-bound
+            // value there makes every row's correction too large.
             let lower_bound = match c {
                 CoefficientChoice::Given => [x, y].iter().any(|s| s.given.is_some_and(|g| g.1)),
-                _ => c.is_lower_bound(),
+                _ => {
+                    c.is_lower_bound()
+                        || [x, y]
+                            .iter()
+                            .any(|s| s.computed.is_none() && s.given.is_some_and(|g| g.1))
+                }
             };
             Some((c, rx, ry, lower_bound))
         })
@@ -234,7 +243,15 @@ mod tests {
         assert_eq!(names, ["alpha", "omega", "glb", "given"]);
         assert!((rows[0].corrected - 0.3 / (0.78f64 * 0.8).sqrt()).abs() < 1e-15);
         assert!(rows[0].corrected > rows[1].corrected && rows[1].corrected > rows[2].corrected);
-        assert!(rows[0].lower_bound && !rows[1].lower_bound && rows[2].lower_bound);
+        // y's value (without item data) is a lower bound, so every row is one.
+        assert!(rows.iter().all(|r| r.lower_bound));
+        let y_exact = ScoreReliability {
+            given: Some((0.8, false)),
+            ..y.clone()
+        };
+        let rows_exact = by_coefficient(0.3, 200, Level::NINETY_FIVE, &x, &y_exact);
+        let flags: Vec<bool> = rows_exact.iter().map(|r| r.lower_bound).collect();
+        assert_eq!(flags, [true, false, true, false]);
         // The given row: x's given value, y's; lower bound because y's value is one.
         assert_eq!((rows[3].reliability_x, rows[3].reliability_y), (0.74, 0.8));
         assert!(rows[3].lower_bound);

@@ -132,7 +132,8 @@ pub fn greatest_lower_bound(cov: &DMatrix<f64>) -> Result<GreatestLowerBound> {
                 t *= 0.5;
             }
             if !moved {
-                break;
+                // The centre was not reached: the gap bound does not hold.
+                break 'outer;
             }
         }
         if 2.0 * k as f64 * mu < GAP_TOLERANCE * total {

@@ -568,14 +568,49 @@ fn read_not_strong(o: &BifactorOmegas, figures: &str, hs: &str) -> String {
             fx(o.omega_total)
         );
     }
+    let rest = if own.len() == o.subscales.len() {
+        String::new()
+    } else {
+        "; the others mostly repeat the general factor and are better not read as distinct \
+         traits"
+            .to_string()
+    };
     format!(
-        "{lead}: report the subscales, each with its omega, and carry a subscale's omega into a \
-         benchmark or a correction of that subscale's correlations. {} {} enough reliable \
-         variance of its own (omega-hierarchical-subscale at least 0.50) to be read apart from \
-         the general factor; omega-hierarchical-subscale ranges {hs}",
-        crate::format::and_list(&own),
-        if own.len() == 1 { "has" } else { "have" }
+        "{lead}: report the subscales with enough reliable variance of their own to be read \
+         apart from the general factor (omega-hierarchical-subscale at least 0.50): {}, each \
+         with its omega, carrying a subscale's omega into a benchmark or a correction of that \
+         subscale's correlations{rest}; omega-hierarchical-subscale ranges {hs}",
+        crate::format::and_list(&own)
     )
+}
+
+/// The subscales whose own reliable variance is large enough to read them apart from the
+/// general factor, as words for the strong-factor reading.
+fn own_subscales_words(o: &BifactorOmegas, hs: &str) -> String {
+    let own: Vec<String> = o
+        .subscales
+        .iter()
+        .filter(|s| s.omega_hierarchical_subscale >= OWN_SUBSCALE)
+        .map(|s| s.name.clone())
+        .collect();
+    if own.is_empty() {
+        format!(
+            "The subscales' own reliable variance beyond the general factor is small \
+             (omega-hierarchical-subscale {hs}), so their scores add little to the total"
+        )
+    } else {
+        format!(
+            "Beside it, {} {} reliable variance of its own (omega-hierarchical-subscale at \
+             least 0.50; all range {hs}), so {} may also be reported",
+            crate::format::and_list(&own),
+            if own.len() == 1 { "keeps" } else { "keep" },
+            if own.len() == 1 {
+                "that subscale"
+            } else {
+                "those subscales"
+            }
+        )
+    }
 }
 
 /// The reading: which score to interpret and which coefficient to carry forward.
@@ -623,11 +658,10 @@ fn read_structure(
              score can be read as one trait. Carry omega total ({}) into a benchmark of \
              reported total-score coefficients and into a correction of the total score's \
              correlations; omega hierarchical ({}) is the total score's reliability for the \
-             general trait alone and, used in a correction, gives a larger one. The subscales' \
-             own reliable variance beyond the general factor is small (omega-hierarchical-\
-             subscale {hs}), so their scores add little to the total",
+             general trait alone and, used in a correction, gives a larger one. {}",
             fx(o.omega_total),
-            fx(o.omega_hierarchical)
+            fx(o.omega_hierarchical),
+            own_subscales_words(o, &hs)
         ),
         GeneralFactor::NotStrong => read_not_strong(o, &figures, &hs),
     };

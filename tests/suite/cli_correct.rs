@@ -604,3 +604,51 @@ fn item_data_give_a_regression_slope_under_each_coefficient() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("one predictor"));
 }
+
+/// Review fixes: a regression given the outcome's item data but no outcome reliability says
+/// the main correction took nothing from them (its given row keeps r_yy = 1); an error in a
+/// score's item data names that score and file.
+#[test]
+fn item_data_without_a_value_and_their_errors_are_reported_truly() {
+    let study = demo_file("candor-study.csv");
+    let items = demo_file("candor-items.csv");
+    let j = json_ok(&[
+        "correct",
+        "--data",
+        &study,
+        "--outcome",
+        "engagement",
+        "--predictor",
+        "candor",
+        "--rel",
+        "candor=0.8",
+        "--items-y",
+        &items,
+        "--draws",
+        "200",
+        "--json",
+    ]);
+    assert_eq!(j["item_data"][0]["variable"], "y");
+    assert!(j["item_data"][0]["used"].is_null());
+    let rows = j["by_coefficient"].as_array().unwrap();
+    assert!(
+        rows.iter()
+            .all(|r| r["reliability_x"].as_f64() == Some(0.8))
+    );
+    let out = relyard(&[
+        "correct",
+        "--r",
+        "0.3",
+        "--n",
+        "100",
+        "--rel-x",
+        "0.8",
+        "--items-y",
+        &items,
+        "--y-columns",
+        "btci_01,btci_99",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("btci_99"), "{err}");
+}

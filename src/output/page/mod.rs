@@ -1169,7 +1169,6 @@ fn spread_words(s: &ScoreSpread, level: &str) -> String {
     )
 }
 
-/// The corrected correlation with its inputs and intervals.
 /// The correction under each coefficient the item data give, beside the main one.
 fn choice_blocks(rows: &[crate::correct::choice::ChoiceRow], main: f64, level: &str) -> Vec<Block> {
     let c3 = |x: f64| fixed(x, 3);
@@ -1223,6 +1222,7 @@ fn choice_blocks(rows: &[crate::correct::choice::ChoiceRow], main: f64, level: &
     ]
 }
 
+/// The corrected correlation with its inputs and intervals.
 fn correlation_table(
     input: &CorrelationInput,
     result: &CorrelationCorrection,

@@ -15,10 +15,17 @@ fn c2(x: f64) -> String {
 /// The paragraph for the coefficient `relyard items` recommends.
 pub fn items_paragraph(o: &ItemsOutcome) -> Paragraph {
     let (d, a) = (&o.data, &o.analysis);
-    let mut refs = vec![Reference::Feldt1965];
+    let mut refs = Vec::new();
     let mut text = sample_sentence(d, a);
     text.push(' ');
-    text.push_str(&coefficient_sentences(o, &mut refs));
+    let coefficients = coefficient_sentences(o);
+    if coefficients.contains("Feldt, 1965") {
+        refs.push(Reference::Feldt1965);
+    }
+    if coefficients.contains("McDonald's (1999)") {
+        refs.push(Reference::McDonald1999);
+    }
+    text.push_str(&coefficients);
     if let Some(Ok(m)) = &o.multidimensional
         && let (Some(w), Some(fit)) = (&m.omegas, &m.fit_bifactor)
     {
@@ -40,8 +47,7 @@ pub fn items_paragraph(o: &ItemsOutcome) -> Paragraph {
             " A bifactor model with {} subscales ({}; CFI = {}, RMSEA = {}) gave omega total = \
              {} and omega hierarchical = {}, with an explained common variance of {} \
              (Rodriguez, Reise, & Haviland, 2016): the general factor was {}, and the \
-             subscales' reliable variance of their own (omega-hierarchical-subscale) ranged \
-             from {} to {}.",
+             subscales' reliable variance of their own (omega-hierarchical-subscale) {}.{}",
             m.groups.count(),
             crate::format::and_list(&m.groups.names),
             fit.cfi.map(c2).unwrap_or_else(|| "–".into()),
@@ -54,8 +60,12 @@ pub fn items_paragraph(o: &ItemsOutcome) -> Paragraph {
             } else {
                 "not strong enough for the total score to be read as one trait"
             },
-            c2(lo),
-            c2(hi)
+            if c2(lo) == c2(hi) {
+                format!("was {}", c2(lo))
+            } else {
+                format!("ranged from {} to {}", c2(lo), c2(hi))
+            },
+            structure_caveats(m, &o.data.names)
         ));
     }
     if let Some(Ok(p)) = &o.ordinal
@@ -73,6 +83,32 @@ pub fn items_paragraph(o: &ItemsOutcome) -> Paragraph {
         env!("CARGO_PKG_VERSION")
     ));
     Paragraph::new(text, refs)
+}
+
+/// The bifactor model's cautions, as the reading gives them: two group factors, an improper
+/// solution.
+fn structure_caveats(
+    m: &crate::items::multidimensional::MultidimensionalAnalysis,
+    names: &[String],
+) -> String {
+    let mut out = String::new();
+    if m.groups.count() == 2 {
+        out.push_str(
+            " With only two group factors the bifactor model is weakly identified, so these \
+             values are read with caution.",
+        );
+    }
+    if let Ok(f) = &m.bifactor
+        && !f.heywood.is_empty()
+    {
+        let items: Vec<String> = f.heywood.iter().map(|&i| names[i].clone()).collect();
+        out.push_str(&format!(
+            " The bifactor solution was improper (the uniqueness of {} at zero), so its \
+             coefficients are not trustworthy.",
+            crate::format::and_list(&items)
+        ));
+    }
+    out
 }
 
 /// Who was analysed, and how missing answers and reversed items were handled.
@@ -149,7 +185,7 @@ fn fit_words(f: &FactorPart) -> String {
 }
 
 /// Which coefficient is reported, and why.
-fn coefficient_sentences(o: &ItemsOutcome, refs: &mut Vec<Reference>) -> String {
+fn coefficient_sentences(o: &ItemsOutcome) -> String {
     let a = &o.analysis;
     let (f, omega) = match (&a.factor, a.omega()) {
         (Ok(f), Some(w)) => (f, w),
@@ -161,7 +197,6 @@ fn coefficient_sentences(o: &ItemsOutcome, refs: &mut Vec<Reference>) -> String 
             );
         }
     };
-    refs.push(Reference::McDonald1999);
     let tau = format!(
         "χ²({}) = {}, p {}",
         f.tau_test.df,

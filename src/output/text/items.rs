@@ -243,7 +243,6 @@ fn bootstrap_interval(b: &OmegaBootstrap, missing: Missing) -> String {
     )
 }
 
-/// The one-factor model: its fit, the test of tau-equivalence and the estimation.
 /// The bifactor and correlated-factors models: the coefficients, each subscale, both fits
 /// and the reading.
 fn subscales(o: &mut String, m: &MultidimensionalAnalysis, names: &[String]) {
@@ -348,6 +347,7 @@ fn subscales(o: &mut String, m: &MultidimensionalAnalysis, names: &[String]) {
     ));
 }
 
+/// The one-factor model: its fit, the test of tau-equivalence and the estimation.
 fn factor_model(o: &mut String, f: &FactorPart) {
     let _ = writeln!(o);
     let _ = writeln!(o, "  One-factor model");
