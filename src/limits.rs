@@ -42,7 +42,7 @@ pub const MAX_STRUCTURE_ITEMS: usize = 200;
 
 /// Items the greatest lower bound is computed for (each Newton step of its search costs
 /// O(k³)).
-pub const MAX_GLB_ITEMS: usize = 150;
+pub const MAX_GLB_ITEMS: usize = 100;
 
 /// Columns of an item file (or of --data) read at all.
 pub const MAX_COLUMNS: usize = 20_000;

@@ -43,6 +43,14 @@ pub enum Warning {
         /// Iterations used.
         iterations: usize,
     },
+    /// A model of the items (a factor model, the greatest lower bound) stopped before
+    /// meeting its tolerance.
+    ItemModelNotConverged {
+        /// What was being fitted.
+        what: String,
+        /// Iterations used.
+        iterations: usize,
+    },
     /// An interval end lay beyond a coefficient of 1 on the way back and was set to 1.
     IntervalCapped {
         /// Which interval.
@@ -300,6 +308,7 @@ impl Warning {
             Warning::FewClusters { .. } => "few_clusters",
             Warning::Tau2AtZero { .. } => "tau2_at_zero",
             Warning::NotConverged { .. } => "not_converged",
+            Warning::ItemModelNotConverged { .. } => "item_model_not_converged",
             Warning::IntervalCapped { .. } => "interval_capped",
             Warning::CommonEffectAssumed => "common_effect_assumed",
             Warning::CommonEffectContradicted { .. } => "common_effect_contradicted",
@@ -378,6 +387,7 @@ impl Warning {
                 | Warning::NoClusterPrediction { .. }
                 | Warning::FewClusters { .. }
                 | Warning::NotConverged { .. }
+                | Warning::ItemModelNotConverged { .. }
                 | Warning::CommonEffectAssumed
                 | Warning::CommonEffectContradicted { .. }
                 | Warning::RangeBelowZero { .. }
@@ -435,6 +445,12 @@ impl Warning {
                 given(S::Tau2Method, "pm"),
                 ") and compare"
             ],
+            Warning::ItemModelNotConverged { what, iterations } => format!(
+                "{what} did not converge within {iterations} iterations: its numbers are the \
+                 last iterate and may be wrong; do not report them (a covariance matrix near \
+                 singular, or far more items than the data support, is the usual cause)"
+            )
+            .into(),
             Warning::IntervalCapped { interval } => msg![
                 format!(
                     "the {interval} reached past a coefficient of 1 when mapped back and was cut \

@@ -225,7 +225,7 @@ fn structure(
         if let Ok(f) = fit
             && !f.stop.converged()
         {
-            warnings.push(Warning::NotConverged {
+            warnings.push(Warning::ItemModelNotConverged {
                 what: what.into(),
                 iterations: f.iterations,
             });

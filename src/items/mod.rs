@@ -241,7 +241,7 @@ fn lower_bound(
     }
     let g = glb::greatest_lower_bound(cov).map_err(|e| e.to_string())?;
     if !g.converged {
-        warnings.push(Warning::NotConverged {
+        warnings.push(Warning::ItemModelNotConverged {
             what: "the greatest lower bound".into(),
             iterations: g.newton_steps,
         });
@@ -299,7 +299,7 @@ fn fit_factor(
         ("the tau-equivalent model", &tau),
     ] {
         if !f.stop.converged() {
-            warnings.push(Warning::NotConverged {
+            warnings.push(Warning::ItemModelNotConverged {
                 what: name.into(),
                 iterations: f.iterations,
             });
