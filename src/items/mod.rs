@@ -12,6 +12,8 @@ pub mod moments;
 pub mod multidimensional;
 pub mod polychoric;
 pub mod read;
+#[cfg(feature = "spss")]
+pub mod sav;
 
 pub use read::{ItemData, ItemReadOptions, Missing, read_items, read_items_from_bytes};
 

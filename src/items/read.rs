@@ -101,6 +101,11 @@ pub struct ItemData {
     pub missing_codes: Vec<f64>,
     /// Things noticed while reading (identifier-like columns, extreme values).
     pub notes: Vec<crate::Warning>,
+    /// Value labels of an SPSS file's variables (empty for other files).
+    pub value_labels: Vec<(String, Vec<(f64, String)>)>,
+    /// For an SPSS file, the cells holding a declared user-missing code (read as missing);
+    /// `None` for other files.
+    pub user_missing_cells: Option<u64>,
 }
 
 impl ItemData {
@@ -620,6 +625,39 @@ fn reversed_items(names: &[String], options: &ItemReadOptions) -> Result<Vec<boo
 
 /// [`read_items`], with the parallel fast path (in parts of the given size) or without it;
 /// tests compare the two.
+/// An SPSS file's data as text, when `path` (or `bytes`) is one; `None` for any other file.
+#[cfg(feature = "spss")]
+fn spss_text(path: &Path, file: &str, bytes: Option<&[u8]>) -> Result<Option<super::sav::SavText>> {
+    use std::io::Read;
+    let io = |e: std::io::Error| Error::Io {
+        context: format!("reading {file}"),
+        source: e,
+    };
+    if let Some(b) = bytes {
+        return if super::sav::is_sav(b) {
+            super::sav::sav_to_text(file, b).map(Some)
+        } else {
+            Ok(None)
+        };
+    }
+    let Ok(mut f) = std::fs::File::open(path) else {
+        return Ok(None); // the text reader reports it
+    };
+    let mut magic = [0u8; 4];
+    if f.read_exact(&mut magic).is_err() || !super::sav::is_sav(&magic) {
+        return Ok(None);
+    }
+    let size = f.metadata().map_err(io)?.len();
+    if size > crate::limits::MAX_FILE_BYTES {
+        return Err(Error::cannot(format!(
+            "{file} is larger than {} MB, the most read",
+            crate::limits::MAX_FILE_BYTES >> 20
+        )));
+    }
+    let all = std::fs::read(path).map_err(io)?;
+    super::sav::sav_to_text(file, &all).map(Some)
+}
+
 fn read_items_with(
     path: &Path,
     bytes: Option<&[u8]>,
@@ -627,6 +665,13 @@ fn read_items_with(
     fast_parts: Option<usize>,
 ) -> Result<ItemData> {
     let file = path.display().to_string();
+    #[cfg(feature = "spss")]
+    if let Some(sav) = spss_text(path, &file, bytes)? {
+        let mut data = read_items_with(path, Some(&sav.text), options, None)?;
+        data.value_labels = sav.value_labels;
+        data.user_missing_cells = Some(sav.user_missing_cells);
+        return Ok(data);
+    }
     let Opened {
         format,
         worksheet,
@@ -975,6 +1020,8 @@ fn finish(
         rows: t.rows,
         identifiers,
         missing_codes: options.missing_codes.clone(),
+        value_labels: Vec::new(),
+        user_missing_cells: None,
     })
 }
 

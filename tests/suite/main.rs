@@ -34,4 +34,6 @@ mod serve_http;
 mod simulation_items;
 mod simulation_multilevel;
 mod simulation_spread;
+#[cfg(feature = "spss")]
+mod spss;
 mod workbooks;

@@ -221,6 +221,11 @@ fn every_json_key_is_documented_and_every_documented_key_printed() {
         b"a,b\n1,2\n2,3\n3,1\n4,5\n5,4\n6,7\n7,6\n8,9\n9,8\n10,11\n11,10\n12,1\n",
     );
     printed.extend(paths(&run(&["items", &wide, "--ordinal"])));
+    // An SPSS file: its user-missing count and value labels.
+    printed.extend(paths(&run(&[
+        "items",
+        &test_path("data/spss/likert.sav").to_string_lossy(),
+    ])));
     // Subscales: both models.
     printed.extend(paths(&run(&[
         "items",

@@ -12,6 +12,7 @@ use relyard::items::glb::greatest_lower_bound;
 #[test]
 fn the_glb_matches_an_independent_solver_and_is_ordered() {
     let f = fixture("glb.json");
+    assert_eq!(f["cases"].as_array().unwrap().len(), 5);
     for c in f["cases"].as_array().unwrap() {
         let name = c["name"].as_str().unwrap();
         let rows: Vec<Vec<f64>> = c["covariance"]
@@ -24,6 +25,7 @@ fn the_glb_matches_an_independent_solver_and_is_ordered() {
         let g = greatest_lower_bound(&s).unwrap();
         assert!(g.converged, "{name}: {g:?}");
         assert_close(g.value, c["glb"].as_f64().unwrap(), 1e-7, 1e-9, name);
+        assert_eq!(g.error_variances.len(), floats(&c["error_variances"]).len());
         for (a, b) in g.error_variances.iter().zip(floats(&c["error_variances"])) {
             assert!((a - b).abs() < 1e-5, "{name}: {:?}", g.error_variances);
         }

@@ -87,6 +87,7 @@ fn known_bifactor_loadings_are_recovered_with_their_coefficients() {
     let fit = fit_structure(&cov, &gr, Structure::Bifactor).unwrap();
     assert!(fit.stop.converged(), "{:?}", fit.stop);
     assert!(fit.discrepancy.abs() < 1e-10, "F = {}", fit.discrepancy);
+    assert_eq!(fit.general.len(), floats(&e["general"]).len());
     for (got, want) in [
         (&fit.general, floats(&e["general"])),
         (&fit.specific, floats(&e["specific"])),
@@ -130,6 +131,8 @@ fn fits_of_invented_item_data_match_scipy() {
             fit.free_parameters as u64,
             want["free_parameters"].as_u64().unwrap()
         );
+        assert_eq!(fit.specific.len(), floats(&want["specific"]).len());
+        assert_eq!(fit.uniquenesses.len(), floats(&want["uniquenesses"]).len());
         for (a, b) in fit.specific.iter().zip(floats(&want["specific"])) {
             assert!(
                 (a - b).abs() < 1e-4,

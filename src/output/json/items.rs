@@ -103,6 +103,29 @@ pub struct ItemsInput {
     pub missing: Missing,
     /// Responses read as missing besides empty cells and NA.
     pub missing_codes: Vec<f64>,
+    /// For an SPSS file, cells holding a declared user-missing code, read as missing (null
+    /// for other files).
+    pub user_missing_cells: Option<u64>,
+    /// An SPSS file's value labels, by variable (empty for other files).
+    pub value_labels: Vec<ValueLabelsRecord>,
+}
+
+/// One variable's value labels.
+#[derive(Debug, Clone, Serialize)]
+pub struct ValueLabelsRecord {
+    /// The variable.
+    pub variable: String,
+    /// Its labelled values, in order.
+    pub labels: Vec<ValueLabel>,
+}
+
+/// One labelled value.
+#[derive(Debug, Clone, Serialize)]
+pub struct ValueLabel {
+    /// The value.
+    pub value: f64,
+    /// Its label.
+    pub label: String,
 }
 
 impl ItemsInput {
@@ -110,13 +133,32 @@ impl ItemsInput {
     pub fn of(d: &crate::items::ItemData) -> ItemsInput {
         ItemsInput {
             file: d.file.clone(),
-            delimiter: d.format.delimiter_name(),
+            delimiter: if d.user_missing_cells.is_some() {
+                "none (SPSS file)"
+            } else {
+                d.format.delimiter_name()
+            },
             sheet_name: d.worksheet.clone(),
             rows_read: d.rows_read,
             complete_rows: d.complete_rows,
             missing_cells: d.missing_cells,
             missing: d.missing,
             missing_codes: d.missing_codes.clone(),
+            user_missing_cells: d.user_missing_cells,
+            value_labels: d
+                .value_labels
+                .iter()
+                .map(|(v, l)| ValueLabelsRecord {
+                    variable: v.clone(),
+                    labels: l
+                        .iter()
+                        .map(|(value, label)| ValueLabel {
+                            value: *value,
+                            label: label.clone(),
+                        })
+                        .collect(),
+                })
+                .collect(),
         }
     }
 }

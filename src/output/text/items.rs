@@ -113,6 +113,32 @@ pub(super) fn file_line(o: &mut String, d: &ItemData, more: &str) {
 }
 
 /// What was read: the file, identifiers left out, missing answers, reversed items.
+/// An SPSS file's value labels of the items analysed: one line when every item shares them,
+/// else one line per item.
+fn spss_labels(o: &mut String, d: &ItemData) {
+    let words = |l: &[(f64, String)]| -> String {
+        l.iter()
+            .map(|(v, s)| format!("{} = {s}", crate::format::trimmed(*v, 9)))
+            .collect::<Vec<_>>()
+            .join(", ")
+    };
+    let of_items: Vec<&(String, Vec<(f64, String)>)> = d
+        .value_labels
+        .iter()
+        .filter(|(v, _)| d.names.contains(v))
+        .collect();
+    let Some(first) = of_items.first() else {
+        return;
+    };
+    if of_items.len() == d.names.len() && of_items.iter().all(|(_, l)| *l == first.1) {
+        let _ = writeln!(o, "  value labels  {} (every item)", words(&first.1));
+        return;
+    }
+    for (v, l) in of_items {
+        let _ = writeln!(o, "  value labels  {v}: {}", words(l));
+    }
+}
+
 fn items_input(o: &mut String, d: &ItemData) {
     file_line(o, d, "");
     if !d.identifiers.is_empty() {
@@ -136,6 +162,14 @@ fn items_input(o: &mut String, d: &ItemData) {
         ),
     };
     let _ = writeln!(o, "  missing       {missing}");
+    if let Some(u) = d.user_missing_cells {
+        let _ = writeln!(
+            o,
+            "  SPSS file     {} with a declared user-missing code read as missing",
+            crate::format::count(u, "cell", "cells")
+        );
+    }
+    spss_labels(o, d);
     if !d.missing_codes.is_empty() {
         let codes: Vec<String> = d
             .missing_codes
