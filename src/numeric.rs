@@ -465,3 +465,8 @@ mod bfgs_tests {
         );
     }
 }
+
+/// ln det A from A's Cholesky factor L: 2 Σ ln Lᵢᵢ.
+pub fn cholesky_log_det(c: &nalgebra::Cholesky<f64, nalgebra::Dyn>) -> f64 {
+    2.0 * c.l_dirty().diagonal().iter().map(|d| d.ln()).sum::<f64>()
+}

@@ -165,7 +165,7 @@ pub fn fit_one_factor(cov: &DMatrix<f64>, model: FactorModel) -> Result<FactorFi
     let scale = cov.trace() / k as f64;
     let s = cov / scale;
     let log_det_s = match s.clone().cholesky() {
-        Some(c) => 2.0 * c.l().diagonal().iter().map(|d| d.ln()).sum::<f64>(),
+        Some(c) => crate::numeric::cholesky_log_det(&c),
         None => {
             return Err(Error::cannot(
                 "the items' covariance matrix is singular (an item is constant, or a linear \
@@ -267,7 +267,7 @@ pub fn fit_indices_of(cov: &DMatrix<f64>, discrepancy: f64, df: f64, n: f64) -> 
     let r = super::alpha::correlation(cov);
     let log_det_r = r
         .cholesky()
-        .map(|c| 2.0 * c.l().diagonal().iter().map(|d| d.ln()).sum::<f64>())
+        .map(|c| crate::numeric::cholesky_log_det(&c))
         .unwrap_or(f64::NEG_INFINITY);
     let chi2_null = -(n - 1.0) * log_det_r;
     let df_null = k * (k - 1.0) / 2.0;
@@ -297,7 +297,7 @@ pub fn independence_test(cov: &DMatrix<f64>, n: f64) -> f64 {
     let r = super::alpha::correlation(cov);
     match r.cholesky() {
         Some(c) => {
-            let log_det: f64 = 2.0 * c.l().diagonal().iter().map(|d| d.ln()).sum::<f64>();
+            let log_det: f64 = crate::numeric::cholesky_log_det(&c);
             let chi2 = -(n - 1.0 - (2.0 * k + 5.0) / 6.0) * log_det;
             chi2_sf(chi2, k * (k - 1.0) / 2.0)
         }

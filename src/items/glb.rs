@@ -57,7 +57,7 @@ fn barrier(s: &DMatrix<f64>, psi: &[f64], mu: f64) -> Option<f64> {
     }
     let a = s - DMatrix::from_diagonal(&DVector::from_column_slice(psi));
     let chol = a.cholesky()?;
-    let log_det = 2.0 * chol.l().diagonal().iter().map(|d| d.ln()).sum::<f64>();
+    let log_det = crate::numeric::cholesky_log_det(&chol);
     Some(psi.iter().sum::<f64>() + mu * (log_det + psi.iter().map(|p| p.ln()).sum::<f64>()))
 }
 

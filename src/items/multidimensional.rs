@@ -198,7 +198,7 @@ fn objective(layout: &Layout, s: &DMatrix<f64>, log_det_s: f64, x: &[f64]) -> (f
     let Some(chol) = sigma.cholesky() else {
         return bad;
     };
-    let log_det: f64 = 2.0 * chol.l().diagonal().iter().map(|d| d.ln()).sum::<f64>();
+    let log_det: f64 = crate::numeric::cholesky_log_det(&chol);
     let inv = chol.inverse();
     let inv_s = &inv * s;
     let f = log_det - log_det_s + inv_s.trace() - layout.k() as f64;
@@ -319,7 +319,7 @@ pub fn fit_structure(
     let scale = cov.trace() / k as f64;
     let s = cov / scale;
     let log_det_s = match s.clone().cholesky() {
-        Some(c) => 2.0 * c.l().diagonal().iter().map(|d| d.ln()).sum::<f64>(),
+        Some(c) => crate::numeric::cholesky_log_det(&c),
         None => {
             return Err(Error::cannot(
                 "the items' covariance matrix is singular, so no factor model can be fitted",

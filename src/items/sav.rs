@@ -40,6 +40,13 @@ fn quoted(s: &str) -> String {
     format!("\"{}\"", s.replace('"', "\"\""))
 }
 
+/// A text column's cells, quoted; an empty cell for a missing one.
+fn text_cells<'a>(n: usize, cell: impl Fn(usize) -> Option<&'a str>) -> Vec<String> {
+    (0..n)
+        .map(|r| cell(r).map(quoted).unwrap_or_default())
+        .collect()
+}
+
 /// Decode an SPSS file's bytes (`file` names it in messages).
 pub fn sav_to_text(file: &str, bytes: &[u8]) -> Result<SavText> {
     let (batch, meta) = ambers::read_sav_from_reader(std::io::Cursor::new(bytes))
@@ -82,25 +89,9 @@ pub fn sav_to_text(file: &str, bytes: &[u8]) -> Result<SavText> {
                 })
                 .collect()
         } else if let Some(a) = column.as_any().downcast_ref::<StringViewArray>() {
-            (0..a.len())
-                .map(|r| {
-                    if a.is_null(r) {
-                        String::new()
-                    } else {
-                        quoted(a.value(r))
-                    }
-                })
-                .collect()
+            text_cells(a.len(), |r| (!a.is_null(r)).then(|| a.value(r)))
         } else if let Some(a) = column.as_any().downcast_ref::<StringArray>() {
-            (0..a.len())
-                .map(|r| {
-                    if a.is_null(r) {
-                        String::new()
-                    } else {
-                        quoted(a.value(r))
-                    }
-                })
-                .collect()
+            text_cells(a.len(), |r| (!a.is_null(r)).then(|| a.value(r)))
         } else {
             return Err(whole(
                 file,

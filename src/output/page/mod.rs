@@ -1193,14 +1193,10 @@ fn choice_blocks(rows: &[crate::correct::choice::ChoiceRow], main: f64, level: &
             ]
         })
         .collect();
-    let mut note = crate::output::text::CHOICE_NOTE.to_string();
-    let reliabilities = rows
-        .iter()
-        .map(|r| (r.coefficient, r.reliability_x, r.reliability_y));
-    if let Some(extra) = crate::correct::choice::glb_above_omega(reliabilities) {
-        note.push(' ');
-        note.push_str(extra);
-    }
+    let note = crate::output::text::choice_note(
+        rows.iter()
+            .map(|r| (r.coefficient, r.reliability_x, r.reliability_y)),
+    );
     vec![
         Block::Para(Inline::text(
             "The choice of coefficient: the correlation corrected with each coefficient the \

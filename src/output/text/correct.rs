@@ -124,14 +124,10 @@ fn choice_table(o: &mut String, rows: &[ChoiceRow], main: f64, level: Level) {
             shift
         );
     }
-    let mut note = CHOICE_NOTE.to_string();
-    let reliabilities = rows
-        .iter()
-        .map(|r| (r.coefficient, r.reliability_x, r.reliability_y));
-    if let Some(extra) = crate::correct::choice::glb_above_omega(reliabilities) {
-        note.push(' ');
-        note.push_str(extra);
-    }
+    let note = choice_note(
+        rows.iter()
+            .map(|r| (r.coefficient, r.reliability_x, r.reliability_y)),
+    );
     o.push_str(&wrap(&note, 86, "  "));
 }
 
@@ -187,15 +183,21 @@ fn slope_choice_table(
             shift
         );
     }
+    let note = choice_note(
+        rows.iter()
+            .map(|r| (r.coefficient, r.reliability_x, r.reliability_y)),
+    );
+    o.push_str(&wrap(&note, 86, "  "));
+}
+
+/// The note under a choice table: what it shows, and the glb's sentence when it applies.
+pub fn choice_note(rows: impl IntoIterator<Item = (CoefficientChoice, f64, f64)>) -> String {
     let mut note = CHOICE_NOTE.to_string();
-    let reliabilities = rows
-        .iter()
-        .map(|r| (r.coefficient, r.reliability_x, r.reliability_y));
-    if let Some(extra) = crate::correct::choice::glb_above_omega(reliabilities) {
+    if let Some(extra) = crate::correct::choice::glb_above_omega(rows) {
         note.push(' ');
         note.push_str(extra);
     }
-    o.push_str(&wrap(&note, 86, "  "));
+    note
 }
 
 /// What the choice table shows.

@@ -11,7 +11,7 @@ mod items;
 mod pool;
 
 pub use check::check_summary;
-pub use correct::{CHOICE_NOTE, correlation_summary, regression_summary};
+pub use correct::{CHOICE_NOTE, choice_note, correlation_summary, regression_summary};
 pub use explain::explain_summary;
 pub(crate) use explain::omnibus_words;
 pub use icc::icc_summary;
